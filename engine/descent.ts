@@ -1,0 +1,522 @@
+/**
+ * Cyclic coordinate descent for the elastic-net objective at one penalty strength,
+ * with warm starts, the sequential strong rule and a KKT check on every screened-out
+ * predictor.
+ *
+ * Objective (standardized coefficients b̃, see problem.ts for the conventions):
+ *   (1/2) Σ ω_i (ỹ_i − x̃_i·b̃)²  +  λ Σ_j m_j [ α |b̃_j| + (1 − α)/2 · b̃_j² ],   l̃_j <= b̃_j <= ũ_j
+ *
+ * Coordinate update (Friedman, Hastie & Tibshirani 2010, J. Stat. Software 33(1), eq. 5):
+ *   z_j = g_j + d_j b̃_j,   b̃_j <- clip( S(z_j, λ α m_j) / (d_j + λ (1 − α) m_j), l̃_j, ũ_j )
+ * where g_j = Σ ω x̃_j r is the current gradient of the fit term, d_j = Σ ω x̃_j², S the soft
+ * threshold. Clipping after the unconstrained coordinate minimiser is the exact coordinate
+ * minimiser over the box because the one-dimensional problem is convex.
+ *
+ * Gradient bookkeeping:
+ * - gram form ("covariance updates", same paper §2.2): g = c̃ − G̃ b̃ is kept for every j; a
+ *   change Δ in b̃_j costs O(p) (g −= Δ G̃_j·). The KKT check needs no extra pass.
+ * - naive form ("residual updates"): the residual r is kept; g_j costs O(n) when needed.
+ *
+ * Convergence: a sweep converges when max_j (d_j + λ(1−α)m_j)·|Δb̃_j| <= tol · max(λ, 1e-6·sd(y)),
+ * i.e. no coordinate's own optimality residual exceeded tol relative to λ during the sweep.
+ * Each strength has a sweep cap; hitting it is reported (converged = false), never silent.
+ *
+ * Active-set Newton step: when coordinate descent crawls (strongly correlated active
+ * predictors, or more active predictors than rows) and the active set and its signs have
+ * stopped changing, the optimality conditions restricted to that set are linear:
+ *   (G̃_AA + λ(1−α)M_A) δ_A = g_A − λ(1−α)M_A b̃_A − λαM_A sign(b̃_A)
+ * One Cholesky solve gives the exact minimiser for that sign pattern; it is accepted only if
+ * every sign is kept and every bound respected (otherwise descent simply continues), so the
+ * result is the same solution, reached in far fewer sweeps. The usual KKT check still
+ * certifies it. (Active-set/sign-pattern solution of the lasso: Osborne, Presnell & Turlach
+ * 2000, IMA J. Numer. Anal. 20(3).)
+ *
+ * Screening: the sequential strong rule (Tibshirani et al. 2012, JRSS-B 74(2), eq. 7) keeps
+ * j when |g_j(λ_prev)| >= α m_j (2λ − λ_prev); after convergence on the kept set every
+ * discarded predictor's KKT condition is checked and violators are added back.
+ */
+import type { TrainingProblem } from "./problem";
+
+export interface PenaltySpec {
+  /** α in [0, 1]: 0 ridge, 1 lasso. */
+  mix: number;
+  /** m_j >= 0, one per predictor (0 = never penalized). */
+  multipliers: Float64Array;
+  /** Bounds on the standardized coefficients (l̃_j <= 0 <= ũ_j); ±Infinity when free. */
+  lower: Float64Array;
+  upper: Float64Array;
+}
+
+export interface SolveReport {
+  sweeps: number;
+  converged: boolean;
+  /** Largest KKT violation over all predictors, relative to λ (see kktViolation). */
+  kktViolation: number;
+  /** Predictors added back after the strong rule discarded them wrongly. */
+  strongRuleMisses: number;
+}
+
+export interface DescentSettings {
+  tolerance: number;
+  maxSweeps: number;
+}
+
+/** Soft threshold S(z, t) = sign(z) · max(|z| − t, 0), the proximal map of t|·|. */
+export function softThreshold(value: number, threshold: number): number {
+  if (value > threshold) return value - threshold;
+  if (value < -threshold) return value + threshold;
+  return 0;
+}
+
+/**
+ * Distance of the coordinate's stationarity residual from the set the optimality conditions
+ * allow (the subdifferential of the penalty plus the normal cone of the bounds):
+ *   h_j = g_j − λ(1−α) m_j b̃_j   must lie in   λ α m_j ∂|b̃_j| + N_[l̃,ũ](b̃_j).
+ * Zero exactly at a solution (Friedman et al. 2010 §2.1; bounds: standard convex optimality).
+ */
+export function coordinateViolation(
+  gradient: number,
+  coefficient: number,
+  lambda: number,
+  mix: number,
+  multiplier: number,
+  lower: number,
+  upper: number,
+): number {
+  const h = gradient - lambda * (1 - mix) * multiplier * coefficient;
+  const t = lambda * mix * multiplier;
+  let lo: number;
+  let hi: number;
+  if (coefficient > 0) {
+    lo = t;
+    hi = t;
+  } else if (coefficient < 0) {
+    lo = -t;
+    hi = -t;
+  } else {
+    lo = -t;
+    hi = t;
+  }
+  if (coefficient >= upper) hi = Infinity;
+  if (coefficient <= lower) lo = -Infinity;
+  if (h < lo) return lo - h;
+  if (h > hi) return h - hi;
+  return 0;
+}
+
+/** Sweeps of an unchanged active set before an active-set Newton step is tried. */
+const NEWTON_AFTER_SWEEPS = 4;
+/** Largest active set for which the Newton step's O(m³) solve is tried. */
+const NEWTON_MAX_ACTIVE = 600;
+
+/**
+ * Solver state for one training problem and one mix: coefficients, gradient (and residual in
+ * naive form) persist between strengths, which is what makes warm starts free.
+ */
+export class CoordinateDescent {
+  readonly problem: TrainingProblem;
+  readonly penalty: PenaltySpec;
+  readonly settings: DescentSettings;
+  /** Standardized coefficients b̃. */
+  readonly coef: Float64Array;
+  /** g_j = Σ ω x̃_j r (exact for every j after each solve). */
+  readonly grad: Float64Array;
+  private readonly residual: Float64Array | null;
+  private readonly strong: Uint8Array;
+  private readonly setBuffer: Int32Array;
+  private readonly activeBuffer: Int32Array;
+  private readonly floor: number;
+  totalSweeps = 0;
+  /** Set by a sweep when a coefficient entered, left, changed sign or reached a bound. */
+  private patternChanged = false;
+  /** Accepted active-set Newton steps (see newtonStep). */
+  newtonSteps = 0;
+
+  constructor(problem: TrainingProblem, penalty: PenaltySpec, settings: DescentSettings) {
+    this.problem = problem;
+    this.penalty = penalty;
+    this.settings = settings;
+    const p = problem.p;
+    this.coef = new Float64Array(p);
+    this.grad = Float64Array.from(problem.cross);
+    this.residual = problem.kind === "naive" ? Float64Array.from(problem.yc as Float64Array) : null;
+    this.strong = new Uint8Array(p);
+    this.setBuffer = new Int32Array(p);
+    this.activeBuffer = new Int32Array(p);
+    this.floor = 1e-6 * Math.sqrt(problem.std.yVariance);
+  }
+
+  /** Converged-sweep threshold at strength λ (see module comment). */
+  private threshold(lambda: number): number {
+    return this.settings.tolerance * Math.max(lambda, this.floor);
+  }
+
+  /** Gradient of coordinate j from the residual (naive form). Cost O(n). */
+  private residualGradient(j: number): number {
+    const problem = this.problem;
+    const n = problem.n;
+    const xs = (problem.xs as { data: Float64Array }).data;
+    const omega = problem.omega as Float64Array;
+    const r = this.residual as Float64Array;
+    const off = j * n;
+    let s0 = 0;
+    let s1 = 0;
+    let i = 0;
+    const end2 = n - (n % 2);
+    for (; i < end2; i += 2) {
+      s0 += omega[i] * xs[off + i] * r[i];
+      s1 += omega[i + 1] * xs[off + i + 1] * r[i + 1];
+    }
+    if (i < n) s0 += omega[i] * xs[off + i] * r[i];
+    return s0 + s1;
+  }
+
+  /** Records a change Δ of coefficient j in the gradient (gram) or residual (naive). */
+  private applyChange(j: number, delta: number): void {
+    const problem = this.problem;
+    const p = problem.p;
+    if (problem.kind === "gram") {
+      const gram = problem.gram as Float64Array;
+      const g = this.grad;
+      const off = j * p;
+      for (let k = 0; k < p; k++) g[k] -= delta * gram[off + k];
+    } else {
+      const n = problem.n;
+      const xs = (problem.xs as { data: Float64Array }).data;
+      const r = this.residual as Float64Array;
+      const off = j * n;
+      for (let i = 0; i < n; i++) r[i] -= delta * xs[off + i];
+    }
+  }
+
+  /** One pass over the listed coordinates; returns the largest scaled change. */
+  private sweep(set: Int32Array, count: number, lambda: number): number {
+    const { mix, multipliers, lower, upper } = this.penalty;
+    const curvature = this.problem.curvature;
+    const naive = this.problem.kind === "naive";
+    const coef = this.coef;
+    const grad = this.grad;
+    const l1 = lambda * mix;
+    const l2 = lambda * (1 - mix);
+    let largest = 0;
+    for (let t = 0; t < count; t++) {
+      const j = set[t];
+      const g = naive ? this.residualGradient(j) : grad[j];
+      if (naive) grad[j] = g;
+      const d = curvature[j];
+      const old = coef[j];
+      const m = multipliers[j];
+      const denominator = d + l2 * m;
+      let value = softThreshold(g + d * old, l1 * m) / denominator;
+      if (value < lower[j]) value = lower[j];
+      else if (value > upper[j]) value = upper[j];
+      const delta = value - old;
+      if (delta !== 0) {
+        if (Math.sign(value) !== Math.sign(old) || value === lower[j] || value === upper[j]) this.patternChanged = true;
+        coef[j] = value;
+        this.applyChange(j, delta);
+        if (naive) grad[j] = g - d * delta;
+        const change = denominator * Math.abs(delta);
+        if (change > largest) largest = change;
+      }
+    }
+    this.totalSweeps++;
+    return largest;
+  }
+
+  /** Recomputes g for every free predictor from the residual (naive form). Cost O(n·p). */
+  private refreshGradient(): void {
+    if (this.problem.kind !== "naive") return;
+    const frozen = this.problem.std.frozen;
+    for (let j = 0; j < this.problem.p; j++) this.grad[j] = frozen[j] ? 0 : this.residualGradient(j);
+  }
+
+  /**
+   * Tries the active-set Newton step described in the module comment on the nonzero
+   * coordinates of `set` that are strictly inside their bounds. Returns true if accepted.
+   * Cost O(m²·n) (naive) or O(m²) (gram) to form the system, O(m³) to solve it.
+   */
+  private newtonStep(set: Int32Array, count: number, lambda: number): boolean {
+    const problem = this.problem;
+    const { mix, multipliers, lower, upper } = this.penalty;
+    const coef = this.coef;
+    const members: number[] = [];
+    for (let t = 0; t < count; t++) {
+      const j = set[t];
+      const b = coef[j];
+      if (b !== 0 && b !== lower[j] && b !== upper[j]) members.push(j);
+    }
+    const m = members.length;
+    if (m === 0) return false;
+    const l1 = lambda * mix;
+    const l2 = lambda * (1 - mix);
+    const system = new Float64Array(m * m);
+    const rhs = new Float64Array(m);
+    if (problem.kind === "gram") {
+      const gram = problem.gram as Float64Array;
+      const p = problem.p;
+      for (let a = 0; a < m; a++) {
+        for (let b = 0; b < m; b++) system[a * m + b] = gram[members[a] * p + members[b]];
+      }
+    } else {
+      const n = problem.n;
+      const xs = (problem.xs as { data: Float64Array }).data;
+      const omega = problem.omega as Float64Array;
+      const weighted = new Float64Array(n);
+      for (let a = 0; a < m; a++) {
+        const offA = members[a] * n;
+        for (let i = 0; i < n; i++) weighted[i] = omega[i] * xs[offA + i];
+        for (let b = a; b < m; b++) {
+          const offB = members[b] * n;
+          let s = 0;
+          for (let i = 0; i < n; i++) s += weighted[i] * xs[offB + i];
+          system[a * m + b] = s;
+          system[b * m + a] = s;
+        }
+      }
+    }
+    for (let a = 0; a < m; a++) {
+      const j = members[a];
+      const g = problem.kind === "gram" ? this.grad[j] : this.residualGradient(j);
+      system[a * m + a] += l2 * multipliers[j];
+      rhs[a] = g - l2 * multipliers[j] * coef[j] - l1 * multipliers[j] * Math.sign(coef[j]);
+    }
+    const step = choleskySolve(system, rhs, m);
+    if (!step) return false;
+    const candidate = Float64Array.from(coef);
+    for (let a = 0; a < m; a++) {
+      const j = members[a];
+      const value = coef[j] + step[a];
+      if (Math.sign(value) !== Math.sign(coef[j]) || value < lower[j] || value > upper[j]) return false;
+      candidate[j] = value;
+    }
+    this.setCoefficients(candidate);
+    this.newtonSteps++;
+    return true;
+  }
+
+  /**
+   * Fits the unpenalized predictors (m_j = 0) with every penalized coefficient at zero: the
+   * model at the top of the path. Returns the report of that solve.
+   */
+  fitUnpenalized(): SolveReport {
+    const p = this.problem.p;
+    const frozen = this.problem.std.frozen;
+    let count = 0;
+    for (let j = 0; j < p; j++) {
+      if (!frozen[j] && this.penalty.multipliers[j] === 0) this.setBuffer[count++] = j;
+    }
+    let sweeps = 0;
+    let converged = true;
+    if (count > 0) {
+      const limit = this.threshold(0);
+      converged = false;
+      while (sweeps < this.settings.maxSweeps) {
+        sweeps++;
+        if (this.sweep(this.setBuffer, count, 0) <= limit) {
+          converged = true;
+          break;
+        }
+      }
+      this.refreshGradient();
+    }
+    return { sweeps, converged, kktViolation: 0, strongRuleMisses: 0 };
+  }
+
+  /**
+   * Smallest λ at which every penalized coefficient is zero, given the current (unpenalized)
+   * fit: max over penalized j of the gradient in a direction its bounds allow, / (α m_j).
+   * Uses `mixForTop` in place of α (the caller passes a small positive value for ridge).
+   */
+  topStrength(mixForTop: number): number {
+    const { multipliers, lower, upper } = this.penalty;
+    const frozen = this.problem.std.frozen;
+    let top = 0;
+    for (let j = 0; j < this.problem.p; j++) {
+      const m = multipliers[j];
+      if (frozen[j] || m === 0) continue;
+      const g = this.grad[j];
+      let push = 0;
+      if (g > 0 && upper[j] > 0) push = g;
+      else if (g < 0 && lower[j] < 0) push = -g;
+      const value = push / (mixForTop * m);
+      if (value > top) top = value;
+    }
+    return top;
+  }
+
+  /**
+   * Solves at strength λ, warm-started from the current state. `previousLambda` feeds the
+   * strong rule (pass λ itself, or Infinity, to keep every predictor in play).
+   */
+  solve(lambda: number, previousLambda: number): SolveReport {
+    const p = this.problem.p;
+    const { mix, multipliers, lower, upper } = this.penalty;
+    const frozen = this.problem.std.frozen;
+    const strong = this.strong;
+    const set = this.setBuffer;
+    const active = this.activeBuffer;
+    const coef = this.coef;
+    const grad = this.grad;
+    const cut = Number.isFinite(previousLambda) ? mix * (2 * lambda - previousLambda) : -Infinity;
+    let count = 0;
+    for (let j = 0; j < p; j++) {
+      const keep =
+        !frozen[j] &&
+        (coef[j] !== 0 || multipliers[j] * mix === 0 || Math.abs(grad[j]) >= cut * multipliers[j]);
+      strong[j] = keep ? 1 : 0;
+      if (keep) set[count++] = j;
+    }
+    const limit = this.threshold(lambda);
+    const cap = this.settings.maxSweeps;
+    let sweeps = 0;
+    let converged = true;
+    let misses = 0;
+    const l1 = lambda * mix;
+    outer: for (;;) {
+      // Converge on the strong set, cycling on its nonzero members between full passes.
+      for (;;) {
+        if (sweeps >= cap) {
+          converged = false;
+          break outer;
+        }
+        sweeps++;
+        if (this.sweep(set, count, lambda) <= limit) break;
+        let activeCount = 0;
+        for (let t = 0; t < count; t++) if (coef[set[t]] !== 0) active[activeCount++] = set[t];
+        let sinceNewton = 0;
+        for (;;) {
+          if (sweeps >= cap) {
+            converged = false;
+            break outer;
+          }
+          sweeps++;
+          this.patternChanged = false;
+          if (this.sweep(active, activeCount, lambda) <= limit) break;
+          sinceNewton++;
+          if (!this.patternChanged && sinceNewton >= NEWTON_AFTER_SWEEPS && activeCount <= NEWTON_MAX_ACTIVE) {
+            sinceNewton = 0;
+            this.newtonStep(active, activeCount, lambda);
+          }
+        }
+      }
+      // KKT check on everything the strong rule set aside.
+      this.refreshGradient();
+      let added = 0;
+      for (let j = 0; j < p; j++) {
+        if (strong[j] || frozen[j]) continue;
+        const g = grad[j];
+        const t = l1 * multipliers[j];
+        if ((g > t && upper[j] > 0) || (g < -t && lower[j] < 0)) {
+          strong[j] = 1;
+          set[count++] = j;
+          added++;
+        }
+      }
+      if (added === 0) break;
+      misses += added;
+    }
+    if (!converged) this.refreshGradient();
+    return { sweeps, converged, kktViolation: this.kktViolation(lambda), strongRuleMisses: misses };
+  }
+
+  /** Largest coordinateViolation over free predictors, divided by max(λ, floor). */
+  kktViolation(lambda: number): number {
+    const { mix, multipliers, lower, upper } = this.penalty;
+    const frozen = this.problem.std.frozen;
+    let worst = 0;
+    for (let j = 0; j < this.problem.p; j++) {
+      if (frozen[j]) continue;
+      const v = coordinateViolation(this.grad[j], this.coef[j], lambda, mix, multipliers[j], lower[j], upper[j]);
+      if (v > worst) worst = v;
+    }
+    return worst / Math.max(lambda, this.floor);
+  }
+
+  /** Σ ω r² at the current coefficients (gram form: from g and c̃, no pass over the data). */
+  residualMeanSquare(): number {
+    const problem = this.problem;
+    if (problem.kind === "naive") {
+      const r = this.residual as Float64Array;
+      const omega = problem.omega as Float64Array;
+      let s = 0;
+      for (let i = 0; i < problem.n; i++) s += omega[i] * r[i] * r[i];
+      return s;
+    }
+    // r = ỹ − X̃b̃: Σωr² = yVar − 2 b̃·c̃ + b̃ᵀG̃b̃ and b̃ᵀG̃b̃ = b̃·c̃ − b̃·g.
+    let bc = 0;
+    let bg = 0;
+    for (let j = 0; j < problem.p; j++) {
+      bc += this.coef[j] * problem.cross[j];
+      bg += this.coef[j] * this.grad[j];
+    }
+    return Math.max(problem.std.yVariance - bc - bg, 0);
+  }
+
+  /**
+   * Replaces the coefficients (e.g. with an exact ridge solution) and recomputes g (and r)
+   * from scratch rather than by increments, so no rounding drifts along a path. Cost O(p²)
+   * (gram) or O(n·p) (naive).
+   */
+  setCoefficients(values: Float64Array): void {
+    const problem = this.problem;
+    const p = problem.p;
+    this.coef.set(values);
+    if (problem.kind === "gram") {
+      const gram = problem.gram as Float64Array;
+      for (let j = 0; j < p; j++) {
+        let s = problem.cross[j];
+        const off = j * p;
+        for (let k = 0; k < p; k++) s -= gram[off + k] * values[k];
+        this.grad[j] = s;
+      }
+      return;
+    }
+    const n = problem.n;
+    const xs = (problem.xs as { data: Float64Array }).data;
+    const r = this.residual as Float64Array;
+    r.set(problem.yc as Float64Array);
+    for (let j = 0; j < p; j++) {
+      const b = values[j];
+      if (b === 0) continue;
+      const off = j * n;
+      for (let i = 0; i < n; i++) r[i] -= b * xs[off + i];
+    }
+    this.refreshGradient();
+  }
+}
+
+/**
+ * Solves S x = b for a symmetric positive definite S (m × m, row-major) by Cholesky
+ * factorization (Golub & Van Loan, Matrix Computations, Alg. 4.2.1). Returns null when S is
+ * not numerically positive definite (e.g. more active lasso predictors than rows).
+ */
+export function choleskySolve(system: Float64Array, rhs: Float64Array, m: number): Float64Array | null {
+  const factor = new Float64Array(m * m);
+  let largestDiagonal = 0;
+  for (let a = 0; a < m; a++) largestDiagonal = Math.max(largestDiagonal, system[a * m + a]);
+  for (let a = 0; a < m; a++) {
+    for (let b = 0; b <= a; b++) {
+      let s = system[a * m + b];
+      for (let k = 0; k < b; k++) s -= factor[a * m + k] * factor[b * m + k];
+      if (a === b) {
+        if (!(s > 1e-12 * largestDiagonal)) return null;
+        factor[a * m + a] = Math.sqrt(s);
+      } else {
+        factor[a * m + b] = s / factor[b * m + b];
+      }
+    }
+  }
+  const x = new Float64Array(m);
+  for (let a = 0; a < m; a++) {
+    let s = rhs[a];
+    for (let k = 0; k < a; k++) s -= factor[a * m + k] * x[k];
+    x[a] = s / factor[a * m + a];
+  }
+  for (let a = m - 1; a >= 0; a--) {
+    let s = x[a];
+    for (let k = a + 1; k < m; k++) s -= factor[k * m + a] * x[k];
+    x[a] = s / factor[a * m + a];
+  }
+  return x;
+}

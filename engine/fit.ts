@@ -1,0 +1,824 @@
+/**
+ * The engine's main entry point: cross-validated elastic-net regression over a grid of
+ * strengths (and optionally several mixes), or a single fixed point.
+ *
+ * Objective, for a mix α in [0, 1] and strength λ >= 0 (conventions in problem.ts):
+ *
+ *   (1 / (2 Σw)) Σ_i w_i (y_i − b0 − x_i·b)²  +  λ Σ_j m_j [ α |b̃_j| + (1 − α)/2 · b̃_j² ]
+ *
+ * where b̃_j = b_j · scale_j are the coefficients on standardized predictors. Results are
+ * reported in the data's own units (b_j = b̃_j / scale_j, b0 = ȳ − Σ b_j x̄_j).
+ *
+ * Cross-validation (Hastie, Tibshirani & Friedman, ESL 2nd ed. §7.10): the full data fix
+ * each mix's grid and path; every fold then solves down the same strengths on its training
+ * rows (its own standardization) and is scored on its held-out rows. The same folds serve
+ * every mix. In gram form every fold's problem and its held-out squared error come from
+ * per-block sums, so all folds together cost one pass over the data.
+ */
+import { CancelledError, FitWarning, InputError } from "./errors";
+import { FoldPlan, FoldScheme, planFolds, rowsOfBlocks } from "./folds";
+import { leastSquares } from "./leastSquares";
+import { ColumnMatrix, selectRows } from "./matrix";
+import { LinearModel, linearModel, predict } from "./model";
+import { score, Score } from "./metrics";
+import { CancelSignal, PathRun, runPath, strengthGrid, topStrength } from "./path";
+import {
+  accumulateSums,
+  blockSums,
+  BlockSums,
+  emptySums,
+  problemFromRows,
+  problemFromSums,
+  TrainingProblem,
+} from "./problem";
+import type { PenaltySpec } from "./descent";
+import {
+  checkInteger,
+  checkMixes,
+  checkPerPredictor,
+  checkPredictors,
+  checkRowVector,
+  checkWeights,
+  describeColumn,
+} from "./validate";
+
+export type ChoiceRule = "min" | "onese";
+export type ErrorMeasure = "mse" | "mae";
+export type UpdateScheme = "auto" | "gram" | "residual";
+
+/** Options, each with its default. */
+export interface FitOptions {
+  /** Mixes α to try (0 ridge … 1 lasso). Default [0, 0.25, 0.5, 0.75, 1]. */
+  mixes?: readonly number[];
+  /** Fit exactly this strength with the single mix given: no cross-validation. 0 = least squares. */
+  strength?: number | null;
+  /** Number of strengths in the grid. Default 100. */
+  strengthCount?: number;
+  /** Bottom of the grid as a fraction of its top. Default 1e-4 when rows > predictors, else 1e-2. */
+  lowEndRatio?: number | null;
+  /** Number of folds (random or time-ordered). Default 10. */
+  folds?: number;
+  /** Seed for the random fold assignment. Default 1. */
+  seed?: number;
+  /** One label per row; each distinct label is one fold (grouped cross-validation). */
+  foldLabels?: ArrayLike<number | string> | null;
+  /** Rows are in time order: train on earlier blocks, score on the next. Default false. */
+  timeOrdered?: boolean;
+  /** Cross-validation error measure. Default "mse". */
+  measure?: ErrorMeasure;
+  /** Which cross-validated point becomes the model. Default "min". */
+  rule?: ChoiceRule;
+  /** Standardize predictors before penalizing. Default true. */
+  standardize?: boolean;
+  /** Fit an (unpenalized) intercept. Default true. */
+  intercept?: boolean;
+  /** Observation weights (>= 0, not all 0). Default all 1. */
+  weights?: ArrayLike<number> | null;
+  /** Per-predictor penalty multipliers m_j >= 0 (0 = never penalized). Default all 1. */
+  penaltyMultipliers?: ArrayLike<number> | null;
+  /** Per-predictor lower bounds in original units (<= 0; -Infinity = none). */
+  lowerBounds?: ArrayLike<number> | null;
+  /** Per-predictor upper bounds in original units (>= 0; Infinity = none). */
+  upperBounds?: ArrayLike<number> | null;
+  /** Covariance ("gram") or residual updates. Default "auto": gram when rows >= predictors and predictors <= 500. */
+  updates?: UpdateScheme;
+  /** Solve ridge (α = 0, no bounds, positive multipliers) by eigendecomposition. Default true. */
+  exactRidge?: boolean;
+  /** Convergence tolerance relative to λ (see descent.ts). Default 1e-9. */
+  tolerance?: number;
+  /** Sweep cap per strength. Default 10000. */
+  maxSweeps?: number;
+  /** Stop a path once the fit saturates (see path.ts). Default true. */
+  stopWhenSaturated?: boolean;
+  /** Term names, one per predictor column. Default x1, x2, … */
+  names?: readonly string[];
+  /** Called after each unit of work (one mix's full-data path or one fold of one mix). */
+  onProgress?: (done: number, total: number) => void;
+  /** Work stops with a CancelledError at the next strength once `aborted` is true. */
+  signal?: CancelSignal;
+}
+
+export interface ChoicePoint {
+  mix: number;
+  strength: number;
+  /** strength / top of that mix's grid. */
+  strengthFraction: number;
+  /** Index into that mix's grid. */
+  index: number;
+  error: number;
+  se: number;
+  nonzero: number;
+}
+
+export interface CvRow {
+  mix: number;
+  strength: number;
+  error: number;
+  se: number;
+  nonzero: number;
+}
+
+export interface FitResult {
+  kind: "shrinkwise-fit";
+  terms: string[];
+  intercept: number;
+  /** Original units. */
+  coefficients: number[];
+  /** Coefficient × the predictor's population SD (per unit of spread). */
+  standardizedCoefficients: number[];
+  mix: number;
+  strength: number;
+  strengthFraction: number;
+  rule: ChoiceRule | "fixed";
+  choices: { min: ChoicePoint; onese: ChoicePoint } | null;
+  cv: {
+    measure: ErrorMeasure;
+    scheme: FoldScheme;
+    folds: number;
+    seed: number | null;
+    table: CvRow[];
+  } | null;
+  path: {
+    mix: number;
+    top: number;
+    strengths: number[];
+    intercepts: number[];
+    coefficients: number[][];
+    nonzero: number[];
+    r2: number[];
+  };
+  /** In-sample accuracy of the chosen model (weighted when weights are given). */
+  fit: Score;
+  rowsUsed: number;
+  /** Names of predictors dropped because they are constant. */
+  constantColumns: string[];
+  diagnostics: {
+    updates: "gram" | "residual";
+    solver: "descent" | "spectral" | "least-squares";
+    sweeps: number;
+    /** Largest KKT violation relative to λ on the chosen mix's full-data path. */
+    maxKktViolation: number;
+    /** Largest over every fit made (all mixes, all folds). */
+    maxKktViolationAllFits: number;
+    converged: boolean;
+    strongRuleMisses: number;
+    /** Where the chosen mix's path stopped because the fit saturated, or null. */
+    earlyStop: { index: number; strength: number } | null;
+    lowEndRatio: number;
+    strengthCount: number;
+  };
+  warnings: FitWarning[];
+  model: LinearModel;
+}
+
+export const DEFAULT_MIXES: readonly number[] = [0, 0.25, 0.5, 0.75, 1];
+
+interface Prepared {
+  x: ColumnMatrix;
+  y: Float64Array;
+  weights: Float64Array | null;
+  names: string[];
+  multipliers: Float64Array;
+  lower: Float64Array;
+  upper: Float64Array;
+  mixes: number[];
+  intercept: boolean;
+  standardize: boolean;
+  gram: boolean;
+  strengthCount: number;
+  lowEndRatio: number;
+  settings: { tolerance: number; maxSweeps: number; exactRidge: boolean; signal?: CancelSignal };
+  stopWhenSaturated: boolean;
+}
+
+function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target: ArrayLike<number>, options: FitOptions): Prepared {
+  const names = options.names ? options.names.map(String) : undefined;
+  const x = checkPredictors(predictors, names);
+  const n = x.rows;
+  const p = x.columns;
+  const y = checkRowVector(target, n, "target");
+  if (n < 2) throw new InputError("too-few-rows", "there is only 1 row of data: a fit needs at least 2 rows (and more for cross-validation)");
+  const weights = options.weights ? checkWeights(options.weights, n) : null;
+  const intercept = options.intercept ?? true;
+  const standardize = options.standardize ?? true;
+  const multipliers = options.penaltyMultipliers
+    ? checkPerPredictor(options.penaltyMultipliers, p, "penalty multipliers", "multipliers", false)
+    : new Float64Array(p).fill(1);
+  for (let j = 0; j < p; j++) {
+    if (multipliers[j] < 0) {
+      throw new InputError("multipliers", `penalty multiplier for ${describeColumn(names, j)} is negative: use 0 (not penalized) or more`);
+    }
+  }
+  if (!multipliers.some((m) => m > 0)) {
+    throw new InputError("multipliers", "every penalty multiplier is 0: at least one predictor must be penalized (or fit strength 0 for least squares)");
+  }
+  const lower = options.lowerBounds
+    ? checkPerPredictor(options.lowerBounds, p, "lower bounds", "bounds", true)
+    : new Float64Array(p).fill(-Infinity);
+  const upper = options.upperBounds
+    ? checkPerPredictor(options.upperBounds, p, "upper bounds", "bounds", true)
+    : new Float64Array(p).fill(Infinity);
+  for (let j = 0; j < p; j++) {
+    const label = describeColumn(names, j);
+    if (lower[j] > upper[j]) {
+      throw new InputError("bounds", `lower bound ${lower[j]} for ${label} is above its upper bound ${upper[j]}`);
+    }
+    if (lower[j] > 0) throw new InputError("bounds", `lower bound for ${label} is ${lower[j]}: bounds must allow zero (lower bound 0 or below)`);
+    if (upper[j] < 0) throw new InputError("bounds", `upper bound for ${label} is ${upper[j]}: bounds must allow zero (upper bound 0 or above)`);
+  }
+  const mixes = checkMixes(options.mixes ?? DEFAULT_MIXES);
+  const strengthCount = checkInteger(options.strengthCount ?? 100, "the number of strengths", 1, 10000, "setting");
+  const lowEndRatio = options.lowEndRatio ?? (n > p ? 1e-4 : 1e-2);
+  if (typeof lowEndRatio !== "number" || !(lowEndRatio > 0 && lowEndRatio < 1)) {
+    throw new InputError("setting", `the low-end ratio must be between 0 and 1 (exclusive); got ${String(lowEndRatio)}`);
+  }
+  const tolerance = options.tolerance ?? 1e-9;
+  if (!(tolerance > 0 && tolerance < 1)) throw new InputError("setting", `tolerance must be between 0 and 1; got ${String(tolerance)}`);
+  const maxSweeps = checkInteger(options.maxSweeps ?? 10000, "the sweep cap", 1, 1e8, "setting");
+  const updates = options.updates ?? "auto";
+  if (updates !== "auto" && updates !== "gram" && updates !== "residual") {
+    throw new InputError("setting", `updates must be auto, gram or residual; got ${String(updates)}`);
+  }
+  const gram = updates === "gram" || (updates === "auto" && n >= p && p <= 500);
+  // Constant target: nothing to predict.
+  let total = 0;
+  let mean = 0;
+  for (let i = 0; i < n; i++) {
+    const w = weights ? weights[i] : 1;
+    total += w;
+    mean += w * y[i];
+  }
+  mean = intercept ? mean / total : 0;
+  let spread = 0;
+  for (let i = 0; i < n; i++) {
+    const w = weights ? weights[i] : 1;
+    if (w > 0) spread = Math.max(spread, Math.abs(y[i] - mean));
+  }
+  if (!(spread > 1e-12 * Math.abs(mean)) || spread === 0) {
+    throw new InputError("constant-target", `the target has the same value (${mean}) in every row: there is nothing to predict`);
+  }
+  return {
+    x,
+    y,
+    weights,
+    names: names ?? Array.from({ length: p }, (_, j) => `x${j + 1}`),
+    multipliers,
+    lower,
+    upper,
+    mixes,
+    intercept,
+    standardize,
+    gram,
+    strengthCount,
+    lowEndRatio,
+    settings: { tolerance, maxSweeps, exactRidge: options.exactRidge ?? true, signal: options.signal },
+    stopWhenSaturated: options.stopWhenSaturated ?? true,
+  };
+}
+
+/** Penalty for one problem: bounds moved to its standardized units (b̃ = b × scale). */
+function penaltyFor(problem: TrainingProblem, data: Prepared, mix: number): PenaltySpec {
+  const p = problem.p;
+  const lower = new Float64Array(p);
+  const upper = new Float64Array(p);
+  for (let j = 0; j < p; j++) {
+    lower[j] = data.lower[j] * problem.std.xScale[j];
+    upper[j] = data.upper[j] * problem.std.xScale[j];
+  }
+  return { mix, multipliers: data.multipliers, lower, upper };
+}
+
+/** Original-units intercept and coefficients from standardized ones. */
+function toOriginal(problem: TrainingProblem, standardized: Float64Array): { intercept: number; coefficients: Float64Array } {
+  const std = problem.std;
+  const coefficients = new Float64Array(problem.p);
+  let intercept = std.yCentre;
+  for (let j = 0; j < problem.p; j++) {
+    const b = std.frozen[j] ? 0 : standardized[j] / std.xScale[j];
+    coefficients[j] = b;
+    intercept -= b * std.xCentre[j];
+  }
+  return { intercept, coefficients };
+}
+
+/** Problems for the full data and each fold, built once and shared by every mix. */
+interface Problems {
+  full: TrainingProblem;
+  folds: TrainingProblem[];
+  /** Held-out block sums (gram form), for squared error without touching the rows. */
+  heldOutSums: BlockSums[] | null;
+  shiftX: Float64Array;
+  shiftY: number;
+}
+
+function fullShift(data: Prepared): { shiftX: Float64Array; shiftY: number } {
+  const { x, y, weights } = data;
+  const n = x.rows;
+  const shiftX = new Float64Array(x.columns);
+  let shiftY = 0;
+  if (!data.intercept) return { shiftX, shiftY };
+  let total = 0;
+  for (let i = 0; i < n; i++) {
+    const w = weights ? weights[i] : 1;
+    total += w;
+    shiftY += w * y[i];
+  }
+  shiftY /= total;
+  for (let j = 0; j < x.columns; j++) {
+    let s = 0;
+    const off = j * n;
+    for (let i = 0; i < n; i++) s += (weights ? weights[i] : 1) * x.data[off + i];
+    shiftX[j] = s / total;
+  }
+  return { shiftX, shiftY };
+}
+
+function buildProblems(data: Prepared, plan: FoldPlan | null): Problems {
+  const { x, y, weights } = data;
+  const options = { intercept: data.intercept, standardize: data.standardize };
+  const { shiftX, shiftY } = fullShift(data);
+  if (!data.gram) {
+    const full = problemFromRows(x, y, weights, null, options);
+    const folds = plan ? plan.trainBlocks.map((blocks) => problemFromRows(x, y, weights, rowsOfBlocks(plan, blocks), options)) : [];
+    return { full, folds, heldOutSums: null, shiftX, shiftY };
+  }
+  if (!plan) {
+    const all = new Int32Array(x.rows);
+    for (let i = 0; i < x.rows; i++) all[i] = i;
+    const sums = blockSums(x, y, weights, all, shiftX, shiftY);
+    return { full: problemFromSums(sums, shiftX, shiftY, options), folds: [], heldOutSums: null, shiftX, shiftY };
+  }
+  // One pass: every block's sums; the total is their sum; a fold's training sums are the
+  // sum of its training blocks (total minus its own block when it trains on all the rest).
+  const sums = plan.blocks.map((rows) => blockSums(x, y, weights, rows, shiftX, shiftY));
+  const total = emptySums(x.columns);
+  for (const s of sums) accumulateSums(total, s, 1);
+  const full = problemFromSums(total, shiftX, shiftY, options);
+  const folds = plan.trainBlocks.map((blocks, k) => {
+    const training = emptySums(x.columns);
+    if (blocks.length === plan.blocks.length - 1) {
+      accumulateSums(training, total, 1);
+      accumulateSums(training, sums[plan.validateBlock[k]], -1);
+    } else {
+      for (const b of blocks) accumulateSums(training, sums[b], 1);
+    }
+    return problemFromSums(training, shiftX, shiftY, options);
+  });
+  return { full, folds, heldOutSums: plan.validateBlock.map((b) => sums[b]), shiftX, shiftY };
+}
+
+/** Held-out data of one fold, gathered once when errors are computed row by row. */
+interface HeldOut {
+  x: ColumnMatrix;
+  y: Float64Array;
+  w: Float64Array;
+  totalWeight: number;
+}
+
+function gatherHeldOut(data: Prepared, rows: Int32Array): HeldOut {
+  const x = selectRows(data.x, rows);
+  const y = new Float64Array(rows.length);
+  const w = new Float64Array(rows.length);
+  let totalWeight = 0;
+  for (let t = 0; t < rows.length; t++) {
+    y[t] = data.y[rows[t]];
+    w[t] = data.weights ? data.weights[rows[t]] : 1;
+    totalWeight += w[t];
+  }
+  return { x, y, w, totalWeight };
+}
+
+/** Weighted mean held-out error of each point of a fold's path. */
+function foldErrors(
+  data: Prepared,
+  problem: TrainingProblem,
+  run: PathRun,
+  measure: ErrorMeasure,
+  sums: BlockSums | null,
+  heldOut: () => HeldOut,
+  shiftX: Float64Array,
+  shiftY: number,
+): Float64Array {
+  const errors = new Float64Array(run.strengths.length);
+  const p = problem.p;
+  if (sums && measure === "mse") {
+    // Σw(y' − c − bᵀx')² expanded over the block's sums (x' = x − shift, y' = y − shift):
+    // yy − 2c·Σy' − 2bᵀxy + c²W + 2c·bᵀΣx' + bᵀ xx b. Cost O(nonzero²) per point.
+    const nz = new Int32Array(p);
+    for (let k = 0; k < run.strengths.length; k++) {
+      const { intercept, coefficients } = toOriginal(problem, run.coefficients[k]);
+      let c = intercept - shiftY;
+      let count = 0;
+      for (let j = 0; j < p; j++) {
+        if (coefficients[j] !== 0) {
+          nz[count++] = j;
+          c += coefficients[j] * shiftX[j];
+        }
+      }
+      let sse = sums.yy - 2 * c * sums.sumY + c * c * sums.weight;
+      for (let a = 0; a < count; a++) {
+        const j = nz[a];
+        const bj = coefficients[j];
+        sse += -2 * bj * sums.xy[j] + 2 * c * bj * sums.sumX[j];
+        let quad = 0;
+        const off = j * p;
+        for (let b = 0; b < count; b++) quad += sums.xx[off + nz[b]] * coefficients[nz[b]];
+        sse += bj * quad;
+      }
+      errors[k] = Math.max(sse, 0) / sums.weight;
+    }
+    return errors;
+  }
+  const held = heldOut();
+  const m = held.y.length;
+  const prediction = new Float64Array(m);
+  for (let k = 0; k < run.strengths.length; k++) {
+    const { intercept, coefficients } = toOriginal(problem, run.coefficients[k]);
+    prediction.fill(intercept);
+    for (let j = 0; j < p; j++) {
+      const b = coefficients[j];
+      if (b === 0) continue;
+      const off = j * m;
+      for (let t = 0; t < m; t++) prediction[t] += b * held.x.data[off + t];
+    }
+    let loss = 0;
+    for (let t = 0; t < m; t++) {
+      const e = held.y[t] - prediction[t];
+      loss += held.w[t] * (measure === "mse" ? e * e : Math.abs(e));
+    }
+    errors[k] = loss / held.totalWeight;
+  }
+  return errors;
+}
+
+/**
+ * Mean and standard error over folds at each strength. Folds are weighted by their held-out
+ * weight W_k: mean = Σ W_k e_k / Σ W_k; SE = sqrt( [Σ W_k (e_k − mean)² / Σ W_k] · K/(K − 1) / K ),
+ * which for equal folds is the SD over folds (divisor K − 1) / √K.
+ */
+function summarise(errors: Float64Array[], foldWeights: number[], points: number): { mean: Float64Array; se: Float64Array } {
+  const K = errors.length;
+  const mean = new Float64Array(points);
+  const se = new Float64Array(points);
+  let totalWeight = 0;
+  for (const w of foldWeights) totalWeight += w;
+  for (let k = 0; k < points; k++) {
+    let m = 0;
+    for (let f = 0; f < K; f++) m += foldWeights[f] * errors[f][k];
+    m /= totalWeight;
+    let v = 0;
+    for (let f = 0; f < K; f++) v += foldWeights[f] * (errors[f][k] - m) * (errors[f][k] - m);
+    v /= totalWeight;
+    mean[k] = m;
+    se[k] = K > 1 ? Math.sqrt((v * K) / (K - 1) / K) : 0;
+  }
+  return { mean, se };
+}
+
+interface MixOutcome {
+  mix: number;
+  top: number;
+  run: PathRun;
+  mean: Float64Array;
+  se: Float64Array;
+}
+
+/**
+ * Fits the model. Synchronous; see `fitAsync` for a version that yields to the event loop
+ * between units of work. Throws InputError for input it cannot fit, CancelledError when
+ * the signal is raised.
+ */
+export function fit(
+  predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix,
+  target: ArrayLike<number>,
+  options: FitOptions = {},
+): FitResult {
+  const steps = fitSteps(predictors, target, options);
+  for (;;) {
+    const step = steps.next();
+    if (step.done) return step.value;
+  }
+}
+
+/** As `fit`, but awaits a macrotask between units of work so messages (cancel) get through. */
+export async function fitAsync(
+  predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix,
+  target: ArrayLike<number>,
+  options: FitOptions = {},
+): Promise<FitResult> {
+  const steps = fitSteps(predictors, target, options);
+  for (;;) {
+    const step = steps.next();
+    if (step.done) return step.value;
+    await new Promise<void>((resolve) => setTimeout(resolve, 0));
+  }
+}
+
+/** The fit as a generator: yields after each unit of work (progress already reported). */
+export function* fitSteps(
+  predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix,
+  target: ArrayLike<number>,
+  options: FitOptions = {},
+): Generator<void, FitResult, void> {
+  const data = prepare(predictors, target, options);
+  const warnings: FitWarning[] = [];
+  const fixed = options.strength ?? null;
+  if (fixed !== null) {
+    if (typeof fixed !== "number" || !Number.isFinite(fixed) || fixed < 0) {
+      throw new InputError("strength", `strength ${String(fixed)} is not allowed: give a strength of 0 or more`);
+    }
+    if (data.mixes.length !== 1) {
+      throw new InputError("mix", `a fixed strength is fitted at one mix, but ${data.mixes.length} mixes were given: give a single mix`);
+    }
+  }
+  const plan = fixed === null ? makePlan(data, options) : null;
+  const problems = buildProblems(data, plan);
+  const full = problems.full;
+  const constantColumns: string[] = [];
+  for (let j = 0; j < full.p; j++) if (full.std.frozen[j]) constantColumns.push(data.names[j]);
+  if (constantColumns.length === full.p) {
+    throw new InputError("no-predictors", `every predictor is constant (${constantColumns.join(", ")}): there is nothing to fit with`);
+  }
+  if (constantColumns.length > 0) {
+    warnings.push({
+      code: "constant-column",
+      message: `${constantColumns.join(", ")} ${constantColumns.length === 1 ? "is" : "are"} constant and left out (coefficient 0)`,
+    });
+  }
+  if (fixed !== null) {
+    if (fixed === 0 && !data.lower.some(Number.isFinite) && !data.upper.some(Number.isFinite)) {
+      return leastSquaresResult(data, full, constantColumns, warnings);
+    }
+    return fixedResult(data, full, fixed, constantColumns, warnings);
+  }
+  const activePlan = plan as FoldPlan;
+  const measure = options.measure ?? "mse";
+  if (measure !== "mse" && measure !== "mae") throw new InputError("setting", `the error measure must be mse or mae; got ${String(measure)}`);
+  const rule = options.rule ?? "min";
+  if (rule !== "min" && rule !== "onese") throw new InputError("setting", `the rule must be min or onese; got ${String(rule)}`);
+  const K = activePlan.trainBlocks.length;
+  const totalUnits = data.mixes.length * (K + 1);
+  let done = 0;
+  const heldOutCache: (HeldOut | null)[] = new Array(K).fill(null);
+  const foldWeights = activePlan.validateBlock.map((b) => {
+    let s = 0;
+    for (const i of activePlan.blocks[b]) s += data.weights ? data.weights[i] : 1;
+    return s;
+  });
+  const pathSettings = { ...data.settings, stopWhenSaturated: data.stopWhenSaturated };
+  const outcomes: MixOutcome[] = [];
+  let allKkt = 0;
+  let allConverged = true;
+  let sweeps = 0;
+  for (const mix of data.mixes) {
+    const penalty = penaltyFor(full, data, mix);
+    const top = topStrength(full, penalty, data.settings);
+    if (!(top > 0)) {
+      throw new InputError("constant-target", "the unpenalized predictors already explain the target exactly: there is nothing left for the penalty to choose");
+    }
+    const grid = strengthGrid(top, data.strengthCount, data.lowEndRatio);
+    const run = runPath(full, penalty, grid, pathSettings);
+    sweeps += run.sweeps;
+    allKkt = Math.max(allKkt, run.maxKktViolation);
+    if (run.notConverged.length > 0) allConverged = false;
+    options.onProgress?.(++done, totalUnits);
+    yield;
+    const errors: Float64Array[] = [];
+    for (let f = 0; f < K; f++) {
+      if (data.settings.signal?.aborted) throw new CancelledError();
+      const problem = problems.folds[f];
+      const foldRun = runPath(problem, penaltyFor(problem, data, mix), run.strengths, { ...pathSettings, stopWhenSaturated: false });
+      sweeps += foldRun.sweeps;
+      allKkt = Math.max(allKkt, foldRun.maxKktViolation);
+      if (foldRun.notConverged.length > 0) allConverged = false;
+      errors.push(
+        foldErrors(
+          data,
+          problem,
+          foldRun,
+          measure,
+          problems.heldOutSums ? problems.heldOutSums[f] : null,
+          () => (heldOutCache[f] ??= gatherHeldOut(data, activePlan.blocks[activePlan.validateBlock[f]])),
+          problems.shiftX,
+          problems.shiftY,
+        ),
+      );
+      options.onProgress?.(++done, totalUnits);
+      yield;
+    }
+    const { mean, se } = summarise(errors, foldWeights, run.strengths.length);
+    outcomes.push({ mix, top, run, mean, se });
+  }
+  // Choices: lowest mean error over every mix and strength (ties go to the larger strength,
+  // then the earlier mix); one-SE: the largest strength of that mix within one SE of it.
+  let best = outcomes[0];
+  let bestIndex = 0;
+  for (const outcome of outcomes) {
+    for (let k = 0; k < outcome.mean.length; k++) {
+      if (outcome.mean[k] < best.mean[bestIndex]) {
+        best = outcome;
+        bestIndex = k;
+      }
+    }
+  }
+  const limit = best.mean[bestIndex] + best.se[bestIndex];
+  let oneSeIndex = bestIndex;
+  for (let k = 0; k < bestIndex; k++) {
+    if (best.mean[k] <= limit) {
+      oneSeIndex = k;
+      break;
+    }
+  }
+  const point = (outcome: MixOutcome, index: number): ChoicePoint => ({
+    mix: outcome.mix,
+    strength: outcome.run.strengths[index],
+    strengthFraction: outcome.run.strengths[index] / outcome.top,
+    index,
+    error: outcome.mean[index],
+    se: outcome.se[index],
+    nonzero: outcome.run.nonzero[index],
+  });
+  const choices = { min: point(best, bestIndex), onese: point(best, oneSeIndex) };
+  const chosen = rule === "min" ? choices.min : choices.onese;
+  const table: CvRow[] = [];
+  for (const outcome of outcomes) {
+    for (let k = 0; k < outcome.mean.length; k++) {
+      table.push({ mix: outcome.mix, strength: outcome.run.strengths[k], error: outcome.mean[k], se: outcome.se[k], nonzero: outcome.run.nonzero[k] });
+    }
+  }
+  if (bestIndex === best.run.strengths.length - 1 && !best.run.stoppedEarly) {
+    warnings.push({
+      code: "early-stop",
+      message: `the lowest cross-validated error is at the weakest strength tried (${formatNumber(best.run.strengths[bestIndex])}): a smaller low-end ratio may find a better model`,
+    });
+  }
+  if (!allConverged) {
+    warnings.push({ code: "not-converged", message: "some fits hit the sweep cap before converging: raise the sweep cap or loosen the tolerance; results near those strengths are approximate" });
+  }
+  const result = assemble(data, full, best.run, best.top, chosen.index, best.mix, constantColumns, warnings);
+  result.rule = rule;
+  result.strengthFraction = chosen.strengthFraction;
+  result.choices = choices;
+  result.cv = {
+    measure,
+    scheme: activePlan.scheme,
+    folds: K,
+    seed: activePlan.scheme === "random" ? (options.seed ?? 1) : null,
+    table,
+  };
+  result.diagnostics.sweeps = sweeps;
+  result.diagnostics.maxKktViolationAllFits = allKkt;
+  result.diagnostics.converged = allConverged;
+  return result;
+}
+
+function makePlan(data: Prepared, options: FitOptions): FoldPlan {
+  const labels = options.foldLabels ?? null;
+  const timeOrdered = options.timeOrdered ?? false;
+  if (labels && timeOrdered) {
+    throw new InputError("setting", "fold labels and time-ordered folds can't be used together: choose one");
+  }
+  const scheme: FoldScheme = labels ? "labels" : timeOrdered ? "time" : "random";
+  const folds = checkInteger(options.folds ?? 10, "folds", 2, 1000, "folds");
+  const seed = options.seed ?? 1;
+  if (typeof seed !== "number" || !Number.isInteger(seed) || Math.abs(seed) > 4294967295) {
+    throw new InputError("setting", `seed must be a whole number; got ${String(seed)}`);
+  }
+  return planFolds(data.x.rows, data.weights, { scheme, folds, seed, labels });
+}
+
+function formatNumber(value: number): string {
+  return Number(value.toPrecision(4)).toString();
+}
+
+/** Result for a single fixed strength: the path from the top of the grid down to it. */
+function fixedResult(data: Prepared, full: TrainingProblem, strength: number, constantColumns: string[], warnings: FitWarning[]): FitResult {
+  const mix = data.mixes[0];
+  const penalty = penaltyFor(full, data, mix);
+  const top = topStrength(full, penalty, data.settings);
+  const grid = top > 0 ? strengthGrid(top, data.strengthCount, data.lowEndRatio).filter((s) => s > strength) : [];
+  grid.push(strength);
+  const run = runPath(full, penalty, grid, { ...data.settings, stopWhenSaturated: false });
+  if (run.notConverged.length > 0) {
+    warnings.push({ code: "not-converged", message: "the fit hit the sweep cap before converging: raise the sweep cap or loosen the tolerance" });
+  }
+  const result = assemble(data, full, run, top, run.strengths.length - 1, mix, constantColumns, warnings);
+  result.rule = "fixed";
+  result.strengthFraction = top > 0 ? strength / top : 0;
+  return result;
+}
+
+/** Shared result assembly from the full-data path and the chosen point on it. */
+function assemble(
+  data: Prepared,
+  full: TrainingProblem,
+  run: PathRun,
+  top: number,
+  index: number,
+  mix: number,
+  constantColumns: string[],
+  warnings: FitWarning[],
+): FitResult {
+  const intercepts: number[] = [];
+  const coefficientRows: number[][] = [];
+  for (const standardized of run.coefficients) {
+    const original = toOriginal(full, standardized);
+    intercepts.push(original.intercept);
+    coefficientRows.push(Array.from(original.coefficients));
+  }
+  const coefficients = coefficientRows[index];
+  const intercept = intercepts[index];
+  const model = linearModel(data.names, intercept, coefficients);
+  const predictions = predict(model, data.x);
+  if (run.stoppedEarly) {
+    const last = run.strengths.length - 1;
+    warnings.push({
+      code: "early-stop",
+      message: `the path stopped at strength ${formatNumber(run.strengths[last])} (point ${last + 1} of ${data.strengthCount}) because the fit stopped improving`,
+    });
+  }
+  return {
+    kind: "shrinkwise-fit",
+    terms: data.names.slice(),
+    intercept,
+    coefficients,
+    standardizedCoefficients: coefficients.map((b, j) => b * full.std.xSpread[j]),
+    mix,
+    strength: run.strengths[index],
+    strengthFraction: top > 0 ? run.strengths[index] / top : 0,
+    rule: "fixed",
+    choices: null,
+    cv: null,
+    path: {
+      mix,
+      top,
+      strengths: run.strengths.slice(),
+      intercepts,
+      coefficients: coefficientRows,
+      nonzero: run.nonzero.slice(),
+      r2: run.r2.slice(),
+    },
+    fit: score(data.y, predictions, data.weights),
+    rowsUsed: data.x.rows,
+    constantColumns,
+    diagnostics: {
+      updates: full.kind === "gram" ? "gram" : "residual",
+      solver: run.solver,
+      sweeps: run.sweeps,
+      maxKktViolation: run.maxKktViolation,
+      maxKktViolationAllFits: run.maxKktViolation,
+      converged: run.notConverged.length === 0,
+      strongRuleMisses: run.strongRuleMisses,
+      earlyStop: run.stoppedEarly ? { index: run.strengths.length - 1, strength: run.strengths[run.strengths.length - 1] } : null,
+      lowEndRatio: data.lowEndRatio,
+      strengthCount: data.strengthCount,
+    },
+    warnings,
+    model,
+  };
+}
+
+/** Strength 0 without bounds: the exact least-squares baseline (Householder QR). */
+function leastSquaresResult(data: Prepared, full: TrainingProblem, constantColumns: string[], warnings: FitWarning[]): FitResult {
+  const baseline = leastSquares(data.x, data.y, { intercept: data.intercept, weights: data.weights ?? undefined });
+  if (baseline.aliased.length > 0) {
+    warnings.push({
+      code: "aliased",
+      message: `${baseline.aliased.map((j) => data.names[j]).join(", ")} ${baseline.aliased.length === 1 ? "is" : "are"} an exact combination of other predictors: coefficient set to 0`,
+    });
+  }
+  const coefficients = baseline.coefficients.slice();
+  const model = linearModel(data.names, baseline.intercept, coefficients);
+  const predictions = predict(model, data.x);
+  return {
+    kind: "shrinkwise-fit",
+    terms: data.names.slice(),
+    intercept: baseline.intercept,
+    coefficients,
+    standardizedCoefficients: coefficients.map((b, j) => b * full.std.xSpread[j]),
+    mix: data.mixes[0],
+    strength: 0,
+    strengthFraction: 0,
+    rule: "fixed",
+    choices: null,
+    cv: null,
+    path: { mix: data.mixes[0], top: 0, strengths: [0], intercepts: [baseline.intercept], coefficients: [coefficients], nonzero: [coefficients.filter((b) => b !== 0).length], r2: [baseline.r2] },
+    fit: score(data.y, predictions, data.weights),
+    rowsUsed: data.x.rows,
+    constantColumns,
+    diagnostics: {
+      updates: full.kind === "gram" ? "gram" : "residual",
+      solver: "least-squares",
+      sweeps: 0,
+      maxKktViolation: 0,
+      maxKktViolationAllFits: 0,
+      converged: true,
+      strongRuleMisses: 0,
+      earlyStop: null,
+      lowEndRatio: data.lowEndRatio,
+      strengthCount: data.strengthCount,
+    },
+    warnings,
+    model,
+  };
+}
