@@ -35,7 +35,7 @@
  * j when |g_j(λ_prev)| >= α m_j (2λ − λ_prev); after convergence on the kept set every
  * discarded predictor's KKT condition is checked and violators are added back.
  */
-import type { TrainingProblem } from "./problem";
+import { dotRange, TrainingProblem } from "./problem";
 
 export interface PenaltySpec {
   /** α in [0, 1]: 0 ridge, 1 lasso. */
@@ -105,9 +105,11 @@ export function coordinateViolation(
 }
 
 /** Sweeps of an unchanged active set before an active-set Newton step is tried. */
-const NEWTON_AFTER_SWEEPS = 4;
+const NEWTON_AFTER_SWEEPS = 2;
 /** Largest active set for which the Newton step's O(m³) solve is tried. */
 const NEWTON_MAX_ACTIVE = 600;
+/** The Newton step is tried when the sweeps it would save cost this many times its price. */
+const NEWTON_PAYOFF = 2;
 
 /**
  * Solver state for one training problem and one mix: coefficients, gradient (and residual in
@@ -126,11 +128,15 @@ export class CoordinateDescent {
   private readonly setBuffer: Int32Array;
   private readonly activeBuffer: Int32Array;
   private readonly floor: number;
+  private readonly candidateBuffer: Float64Array;
+  /** ω when every row has the same weight (naive form), else 0. */
+  private readonly equalWeight: number;
   totalSweeps = 0;
   /** Set by a sweep when a coefficient entered, left, changed sign or reached a bound. */
   private patternChanged = false;
   /** Accepted active-set Newton steps (see newtonStep). */
   newtonSteps = 0;
+  newtonTries = 0;
 
   constructor(problem: TrainingProblem, penalty: PenaltySpec, settings: DescentSettings) {
     this.problem = problem;
@@ -144,6 +150,19 @@ export class CoordinateDescent {
     this.setBuffer = new Int32Array(p);
     this.activeBuffer = new Int32Array(p);
     this.floor = 1e-6 * Math.sqrt(problem.std.yVariance);
+    this.candidateBuffer = new Float64Array(p);
+    let equal = 0;
+    if (problem.kind === "naive") {
+      const omega = problem.omega as Float64Array;
+      equal = omega[0];
+      for (let i = 1; i < omega.length; i++) {
+        if (omega[i] !== equal) {
+          equal = 0;
+          break;
+        }
+      }
+    }
+    this.equalWeight = equal;
   }
 
   /** Converged-sweep threshold at strength λ (see module comment). */
@@ -156,9 +175,11 @@ export class CoordinateDescent {
     const problem = this.problem;
     const n = problem.n;
     const xs = (problem.xs as { data: Float64Array }).data;
-    const omega = problem.omega as Float64Array;
     const r = this.residual as Float64Array;
     const off = j * n;
+    // Equal weights (the usual case): one stride-1 dot product, ω applied once.
+    if (this.equalWeight > 0) return this.equalWeight * dotRange(xs, off, r, 0, n);
+    const omega = problem.omega as Float64Array;
     let s0 = 0;
     let s1 = 0;
     let i = 0;
@@ -283,13 +304,30 @@ export class CoordinateDescent {
     }
     const step = choleskySolve(system, rhs, m);
     if (!step) return false;
-    const candidate = Float64Array.from(coef);
+    // Along b + tδ the objective is exactly the quadratic model until the first coefficient
+    // reaches zero or a bound, so stepping to min(1, that t) always lowers the objective; the
+    // coefficient that got there is set exactly onto it and descent takes over again.
+    let fraction = 1;
+    let stopper = -1;
+    let stopValue = 0;
     for (let a = 0; a < m; a++) {
       const j = members[a];
-      const value = coef[j] + step[a];
-      if (Math.sign(value) !== Math.sign(coef[j]) || value < lower[j] || value > upper[j]) return false;
-      candidate[j] = value;
+      const b = coef[j];
+      const d = step[a];
+      if (d === 0) continue;
+      const edge = d < 0 ? Math.max(b > 0 ? 0 : -Infinity, lower[j]) : Math.min(b < 0 ? 0 : Infinity, upper[j]);
+      const t = (edge - b) / d;
+      if (t < fraction) {
+        fraction = t;
+        stopper = j;
+        stopValue = edge;
+      }
     }
+    if (!(fraction > 0)) return false;
+    const candidate = this.candidateBuffer;
+    candidate.set(coef);
+    for (let a = 0; a < m; a++) candidate[members[a]] = coef[members[a]] + fraction * step[a];
+    if (stopper >= 0) candidate[stopper] = stopValue;
     this.setCoefficients(candidate);
     this.newtonSteps++;
     return true;
@@ -385,6 +423,7 @@ export class CoordinateDescent {
         let activeCount = 0;
         for (let t = 0; t < count; t++) if (coef[set[t]] !== 0) active[activeCount++] = set[t];
         let sinceNewton = 0;
+        let previousChange = Infinity;
         for (;;) {
           if (sweeps >= cap) {
             converged = false;
@@ -392,12 +431,25 @@ export class CoordinateDescent {
           }
           sweeps++;
           this.patternChanged = false;
-          if (this.sweep(active, activeCount, lambda) <= limit) break;
+          const change = this.sweep(active, activeCount, lambda);
+          if (change <= limit) break;
           sinceNewton++;
           if (!this.patternChanged && sinceNewton >= NEWTON_AFTER_SWEEPS && activeCount <= NEWTON_MAX_ACTIVE) {
-            sinceNewton = 0;
-            this.newtonStep(active, activeCount, lambda);
+            // Linear convergence: the sweeps still needed are about log(limit/change)/log(rate).
+            // Try the Newton step only when those sweeps would cost more than the solve.
+            const rate = change / previousChange;
+            const remaining = rate < 1 ? Math.log(limit / change) / Math.log(rate) : Infinity;
+            const gramForm = this.problem.kind === "gram";
+            const sweepCost = activeCount * (gramForm ? this.problem.p : this.problem.n);
+            const formCost = gramForm ? activeCount * activeCount : (activeCount * activeCount * this.problem.n) / 2;
+            const newtonCost = (activeCount * activeCount * activeCount) / 3 + formCost + sweepCost;
+            if (remaining * sweepCost > NEWTON_PAYOFF * newtonCost) {
+              sinceNewton = 0;
+              this.newtonTries++;
+              this.newtonStep(active, activeCount, lambda);
+            }
           }
+          previousChange = change;
         }
       }
       // KKT check on everything the strong rule set aside.

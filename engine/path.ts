@@ -119,22 +119,31 @@ export function runPath(
     if (settings.signal?.aborted) throw new CancelledError();
     const lambda = strengths[k];
     let kkt: number;
+    let r2: number;
     if (spectral) {
       spectral.coefficientsAt(lambda, exact);
-      solver.setCoefficients(exact);
-      kkt = solver.kktViolation(lambda);
+      // The residual's size comes from the factorization (O(n) or O(p)); the gradient, which
+      // costs a pass over the data in residual form, is rebuilt to certify the path's ends
+      // (gram form: every point, it is cheap there).
+      r2 = yVariance > 0 ? 1 - spectral.residualMeanSquareAt(lambda) / yVariance : 0;
+      if (problem.kind === "gram" || k === 0 || k === strengths.length - 1) {
+        solver.setCoefficients(exact);
+        kkt = solver.kktViolation(lambda);
+      } else {
+        kkt = 0;
+      }
     } else {
       const report = solver.solve(lambda, k === 0 ? lambda : strengths[k - 1]);
       run.sweeps += report.sweeps;
       run.strongRuleMisses += report.strongRuleMisses;
       if (!report.converged) run.notConverged.push(k);
       kkt = report.kktViolation;
+      r2 = yVariance > 0 ? 1 - solver.residualMeanSquare() / yVariance : 0;
     }
     if (kkt > run.maxKktViolation) run.maxKktViolation = kkt;
-    const coef = Float64Array.from(solver.coef);
+    const coef = Float64Array.from(spectral ? exact : solver.coef);
     let nonzero = 0;
     for (let j = 0; j < coef.length; j++) if (coef[j] !== 0) nonzero++;
-    const r2 = yVariance > 0 ? 1 - solver.residualMeanSquare() / yVariance : 0;
     run.strengths.push(lambda);
     run.coefficients.push(coef);
     run.r2.push(r2);

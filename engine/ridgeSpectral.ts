@@ -25,6 +25,8 @@ export class SpectralRidge {
   private readonly projected: Float64Array;
   private readonly size: number;
   private readonly scratch: Float64Array;
+  /** Σω ỹ² less the part of it the factorization's range holds (the part no λ can fit). */
+  private readonly unreachable: number;
 
   constructor(problem: TrainingProblem, multipliers: Float64Array) {
     this.problem = problem;
@@ -102,6 +104,34 @@ export class SpectralRidge {
       this.projected[t] = s;
     }
     this.scratch = new Float64Array(size);
+    // In gram form the target's squared size is yVariance; in the kernel form it is ‖Ω^½ỹ‖².
+    // The part outside the eigenvectors' span is a floor every fit leaves in the residual.
+    let projectedSquare = 0;
+    for (let t = 0; t < size; t++) projectedSquare += this.projected[t] * this.projected[t];
+    this.unreachable = problem.kind === "gram" ? NaN : Math.max(problem.std.yVariance - projectedSquare, 0);
+  }
+
+  /**
+   * Σ ω r² at strength λ without forming the fit.
+   * Kernel form: r_w = u − U diag(σ/(σ+λ)) Uᵀu, so ‖r_w‖² = ‖u_⊥‖² + Σ_t (λ q_t / (σ_t + λ))².
+   * Gram form: Σωr² = yVar − 2 b̃ᵀc̃ + b̃ᵀG̃b̃ with b̃ = D⁻¹V s, s_t = q_t/(Λ_t+λ), which is
+   * yVar − Σ_t q_t² (Λ_t + 2λ) / (Λ_t + λ)². Cost O(size).
+   */
+  residualMeanSquareAt(lambda: number): number {
+    let total = 0;
+    if (this.problem.kind === "gram") {
+      for (let t = 0; t < this.size; t++) {
+        const q = this.projected[t];
+        const v = this.values[t];
+        total += (q * q * (v + 2 * lambda)) / ((v + lambda) * (v + lambda));
+      }
+      return Math.max(this.problem.std.yVariance - total, 0);
+    }
+    for (let t = 0; t < this.size; t++) {
+      const shrunk = (lambda * this.projected[t]) / (this.values[t] + lambda);
+      total += shrunk * shrunk;
+    }
+    return this.unreachable + total;
   }
 
   /** Writes the ridge solution at strength λ > 0 into `out` (length p; frozen entries 0). */
