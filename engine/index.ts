@@ -1,0 +1,25 @@
+/**
+ * Shrinkwise engine: penalized linear regression (ridge, lasso, elastic net) tuned by
+ * cross-validation. Pure TypeScript; no Office or DOM dependency.
+ */
+// Fitting
+export { fit, fitAsync, fitSteps, DEFAULT_MIXES } from "./fit";
+export type { FitOptions, FitResult, ChoicePoint, CvRow, ChoiceRule, ErrorMeasure, UpdateScheme } from "./fit";
+export { leastSquares } from "./leastSquares";
+export type { LeastSquaresOptions, LeastSquaresResult } from "./leastSquares";
+// Models and accuracy
+export { predict, linearModel, modelFromJSON } from "./model";
+export type { LinearModel } from "./model";
+export { score, meanAbsoluteError, rootMeanSquaredError, rSquared, meanError } from "./metrics";
+export type { Score } from "./metrics";
+// Building blocks
+export { strengthGrid, runPath, topStrength, RIDGE_TOP_MIX } from "./path";
+export { softThreshold, coordinateViolation } from "./descent";
+export { planFolds } from "./folds";
+export type { FoldPlan, FoldScheme } from "./folds";
+export { mulberry32, randomFolds } from "./random";
+export { fromRows, columnView } from "./matrix";
+export type { ColumnMatrix } from "./matrix";
+// Errors
+export { InputError, CancelledError } from "./errors";
+export type { FitWarning, InputErrorCode, WarningCode } from "./errors";
