@@ -128,7 +128,10 @@ export class CoordinateDescent {
   private readonly setBuffer: Int32Array;
   private readonly activeBuffer: Int32Array;
   private readonly floor: number;
-  private readonly candidateBuffer: Float64Array;
+  private readonly memberBuffer: Int32Array;
+  private readonly rhsBuffer: Float64Array;
+  private readonly rowBuffer: Float64Array;
+  private systemBuffer: Float64Array;
   /** ω when every row has the same weight (naive form), else 0. */
   private readonly equalWeight: number;
   totalSweeps = 0;
@@ -150,7 +153,10 @@ export class CoordinateDescent {
     this.setBuffer = new Int32Array(p);
     this.activeBuffer = new Int32Array(p);
     this.floor = 1e-6 * Math.sqrt(problem.std.yVariance);
-    this.candidateBuffer = new Float64Array(p);
+    this.memberBuffer = new Int32Array(p);
+    this.rhsBuffer = new Float64Array(p);
+    this.rowBuffer = new Float64Array(problem.n);
+    this.systemBuffer = new Float64Array(Math.min(p, 64) ** 2);
     let equal = 0;
     if (problem.kind === "naive") {
       const omega = problem.omega as Float64Array;
@@ -163,6 +169,9 @@ export class CoordinateDescent {
       }
     }
     this.equalWeight = equal;
+    // The gradient used for the top of the grid must be summed exactly as the sweeps sum it,
+    // or a rounding-sized coefficient could slip through the threshold at λ_max.
+    this.refreshGradient();
   }
 
   /** Converged-sweep threshold at strength λ (see module comment). */
@@ -261,39 +270,35 @@ export class CoordinateDescent {
     const problem = this.problem;
     const { mix, multipliers, lower, upper } = this.penalty;
     const coef = this.coef;
-    const members: number[] = [];
+    const members = this.memberBuffer;
+    let m = 0;
     for (let t = 0; t < count; t++) {
       const j = set[t];
       const b = coef[j];
-      if (b !== 0 && b !== lower[j] && b !== upper[j]) members.push(j);
+      if (b !== 0 && b !== lower[j] && b !== upper[j]) members[m++] = j;
     }
-    const m = members.length;
     if (m === 0) return false;
     const l1 = lambda * mix;
     const l2 = lambda * (1 - mix);
-    const system = new Float64Array(m * m);
-    const rhs = new Float64Array(m);
+    if (this.systemBuffer.length < m * m) this.systemBuffer = new Float64Array(Math.max(m * m, 2 * this.systemBuffer.length));
+    const system = this.systemBuffer;
+    const rhs = this.rhsBuffer;
     if (problem.kind === "gram") {
       const gram = problem.gram as Float64Array;
       const p = problem.p;
       for (let a = 0; a < m; a++) {
-        for (let b = 0; b < m; b++) system[a * m + b] = gram[members[a] * p + members[b]];
+        const off = members[a] * p;
+        for (let b = 0; b <= a; b++) system[a * m + b] = gram[off + members[b]];
       }
     } else {
       const n = problem.n;
       const xs = (problem.xs as { data: Float64Array }).data;
       const omega = problem.omega as Float64Array;
-      const weighted = new Float64Array(n);
+      const weighted = this.rowBuffer;
       for (let a = 0; a < m; a++) {
         const offA = members[a] * n;
         for (let i = 0; i < n; i++) weighted[i] = omega[i] * xs[offA + i];
-        for (let b = a; b < m; b++) {
-          const offB = members[b] * n;
-          let s = 0;
-          for (let i = 0; i < n; i++) s += weighted[i] * xs[offB + i];
-          system[a * m + b] = s;
-          system[b * m + a] = s;
-        }
+        for (let b = 0; b <= a; b++) system[a * m + b] = dotRange(weighted, 0, xs, members[b] * n, n);
       }
     }
     for (let a = 0; a < m; a++) {
@@ -302,8 +307,8 @@ export class CoordinateDescent {
       system[a * m + a] += l2 * multipliers[j];
       rhs[a] = g - l2 * multipliers[j] * coef[j] - l1 * multipliers[j] * Math.sign(coef[j]);
     }
-    const step = choleskySolve(system, rhs, m);
-    if (!step) return false;
+    if (!choleskySolveInPlace(system, rhs, m)) return false;
+    const step = rhs;
     // Along b + tδ the objective is exactly the quadratic model until the first coefficient
     // reaches zero or a bound, so stepping to min(1, that t) always lowers the objective; the
     // coefficient that got there is set exactly onto it and descent takes over again.
@@ -324,11 +329,15 @@ export class CoordinateDescent {
       }
     }
     if (!(fraction > 0)) return false;
-    const candidate = this.candidateBuffer;
-    candidate.set(coef);
-    for (let a = 0; a < m; a++) candidate[members[a]] = coef[members[a]] + fraction * step[a];
-    if (stopper >= 0) candidate[stopper] = stopValue;
-    this.setCoefficients(candidate);
+    // Apply the step member by member (O(m·p) gram, O(m·n) naive) rather than rebuilding g.
+    for (let a = 0; a < m; a++) {
+      const j = members[a];
+      const value = j === stopper ? stopValue : coef[j] + fraction * step[a];
+      const delta = value - coef[j];
+      if (delta === 0) continue;
+      coef[j] = value;
+      this.applyChange(j, delta);
+    }
     this.newtonSteps++;
     return true;
   }
@@ -539,36 +548,38 @@ export class CoordinateDescent {
 }
 
 /**
- * Solves S x = b for a symmetric positive definite S (m × m, row-major) by Cholesky
- * factorization (Golub & Van Loan, Matrix Computations, Alg. 4.2.1). Returns null when S is
- * not numerically positive definite (e.g. more active lasso predictors than rows).
+ * Solves S x = b in place for a symmetric positive definite S (m × m, row-major, only the
+ * lower triangle read) by Cholesky factorization (Golub & Van Loan, Matrix Computations,
+ * Alg. 4.2.1): S's lower triangle is overwritten by the factor L and b by x. Returns false
+ * when S is not numerically positive definite (e.g. more active lasso predictors than rows).
  */
-export function choleskySolve(system: Float64Array, rhs: Float64Array, m: number): Float64Array | null {
-  const factor = new Float64Array(m * m);
+export function choleskySolveInPlace(system: Float64Array, rhs: Float64Array, m: number): boolean {
   let largestDiagonal = 0;
   for (let a = 0; a < m; a++) largestDiagonal = Math.max(largestDiagonal, system[a * m + a]);
   for (let a = 0; a < m; a++) {
+    const rowA = a * m;
     for (let b = 0; b <= a; b++) {
-      let s = system[a * m + b];
-      for (let k = 0; k < b; k++) s -= factor[a * m + k] * factor[b * m + k];
+      const rowB = b * m;
+      let s = system[rowA + b];
+      for (let k = 0; k < b; k++) s -= system[rowA + k] * system[rowB + k];
       if (a === b) {
-        if (!(s > 1e-12 * largestDiagonal)) return null;
-        factor[a * m + a] = Math.sqrt(s);
+        if (!(s > 1e-12 * largestDiagonal)) return false;
+        system[rowA + a] = Math.sqrt(s);
       } else {
-        factor[a * m + b] = s / factor[b * m + b];
+        system[rowA + b] = s / system[rowB + b];
       }
     }
   }
-  const x = new Float64Array(m);
   for (let a = 0; a < m; a++) {
     let s = rhs[a];
-    for (let k = 0; k < a; k++) s -= factor[a * m + k] * x[k];
-    x[a] = s / factor[a * m + a];
+    const rowA = a * m;
+    for (let k = 0; k < a; k++) s -= system[rowA + k] * rhs[k];
+    rhs[a] = s / system[rowA + a];
   }
   for (let a = m - 1; a >= 0; a--) {
-    let s = x[a];
-    for (let k = a + 1; k < m; k++) s -= factor[k * m + a] * x[k];
-    x[a] = s / factor[a * m + a];
+    let s = rhs[a];
+    for (let k = a + 1; k < m; k++) s -= system[k * m + a] * rhs[k];
+    rhs[a] = s / system[a * m + a];
   }
-  return x;
+  return true;
 }

@@ -1,0 +1,277 @@
+/**
+ * Command-line arguments of `npm run fit -- <file> --target <column> [options]`: parsing and
+ * the mapping to the engine's FitOptions. Pure functions (no process, no files), so tests call
+ * them directly.
+ *
+ * Forms accepted: `--name value` and `--name=value`; flags take no value. The data file is the
+ * one positional argument (`-` reads standard input). Everything the user can get wrong here is
+ * a CommandError, which the entry point turns into exit code 2 and a one-line message.
+ */
+import type { ChoiceRule, ErrorMeasure, FitOptions } from "../fit";
+
+/** A mistake in how the command was called or in the file it was given (exit code 2). */
+export class CommandError extends Error {
+  constructor(message: string) {
+    super(message);
+    this.name = "CommandError";
+  }
+}
+
+/** Everything the command line says, before any file is read. `null` = not given (engine default). */
+export interface CommandOptions {
+  /** Path of the CSV/TSV file; `-` = standard input. */
+  file: string;
+  /** Name of the target column. */
+  target: string;
+  /** Predictor columns to use (default: every other column). */
+  predictors: string[] | null;
+  /** Columns to leave out of the default predictor set. */
+  exclude: string[] | null;
+  /** Mixes to try (0 ridge … 1 lasso). */
+  mixes: number[] | null;
+  /** Fit exactly this strength (no cross-validation). */
+  strength: number | null;
+  folds: number | null;
+  seed: number | null;
+  rule: ChoiceRule | null;
+  measure: ErrorMeasure | null;
+  /** Number of strengths in the grid. */
+  count: number | null;
+  /** Bottom of the grid as a fraction of its top. */
+  lowEnd: number | null;
+  timeOrdered: boolean;
+  /** Column whose values label the folds (grouped cross-validation). */
+  foldColumn: string | null;
+  /** Column of observation weights. */
+  weightsColumn: string | null;
+  standardize: boolean;
+  intercept: boolean;
+  /** Print one JSON object instead of the readable report. */
+  json: boolean;
+}
+
+export type ParsedCommand = { help: true } | { help: false; options: CommandOptions };
+
+export const USAGE = `Usage: npm run fit -- <data.csv> --target <column> [options]
+
+Fits a cross-validated ridge / lasso / elastic-net regression to the numeric columns of a
+CSV or tab-separated file (header row required) and prints the model.
+
+Columns
+  --target <name>           column to predict (required)
+  --predictors a,b,c        predictor columns (default: every other column)
+  --exclude id,train        leave these columns out of the predictors
+  --weights-column <name>   observation weights (not a predictor)
+  --fold-column <name>      fold labels, one fold per distinct value (not a predictor; text allowed)
+
+Model
+  --mix 0,0.5,1             mixes to try: 0 ridge, 1 lasso (default 0,0.25,0.5,0.75,1)
+  --strength <value>        fit exactly this strength at a single --mix, no cross-validation;
+                            0 gives the exact least-squares fit
+  --count <n>               number of strengths in the grid (default 100)
+  --low-end <ratio>         bottom of the grid as a fraction of its top
+  --no-standardize          penalize predictors in their own units
+  --no-intercept            fit without an intercept
+
+Cross-validation
+  --folds <k>               number of folds (default 10)
+  --seed <n>                seed for the random fold assignment (default 1)
+  --time-ordered            rows are in time order: train on earlier rows, score on later ones
+  --measure mse|mae         error measure (default mse)
+  --rule min|onese          lowest error, or the strongest penalty within one standard error (default min)
+
+Output
+  --json                    print one JSON object
+  --help                    show this text
+
+Rows with a blank cell in any column the fit uses are skipped and counted.
+Exit codes: 0 success, 2 bad input or usage, 1 unexpected failure.`;
+
+type Kind = "text" | "number" | "list" | "numberList" | "flag";
+
+/** The option table: each option once, with the kind of value it takes. */
+const OPTIONS: Record<string, Kind> = {
+  target: "text",
+  predictors: "list",
+  exclude: "list",
+  "weights-column": "text",
+  "fold-column": "text",
+  mix: "numberList",
+  strength: "number",
+  count: "number",
+  "low-end": "number",
+  "no-standardize": "flag",
+  "no-intercept": "flag",
+  folds: "number",
+  seed: "number",
+  "time-ordered": "flag",
+  measure: "text",
+  rule: "text",
+  json: "flag",
+  help: "flag",
+};
+
+const NUMBER_PATTERN = /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/;
+
+/**
+ * Reads a plain decimal number ("12", "-0.5", "1e-3", ".5"); surrounding spaces allowed.
+ * Returns null for anything else (text, hexadecimal, "Infinity", empty).
+ */
+export function parseNumber(text: string): number | null {
+  const trimmed = text.trim();
+  if (!NUMBER_PATTERN.test(trimmed)) return null;
+  const value = Number(trimmed);
+  return Number.isFinite(value) ? value : null;
+}
+
+function splitList(option: string, value: string): string[] {
+  const items = value.split(",").map((item) => item.trim());
+  if (items.some((item) => item === "")) {
+    throw new CommandError(`--${option} has an empty item in '${value}': separate names or numbers with single commas`);
+  }
+  return items;
+}
+
+function numberValue(option: string, value: string): number {
+  const n = parseNumber(value);
+  if (n === null) throw new CommandError(`--${option} needs a number; got '${value}'`);
+  return n;
+}
+
+/**
+ * Parses the arguments after `npm run fit --` (process.argv.slice(2)).
+ * Throws CommandError for unknown options, missing values, bad numbers, a missing file or target.
+ * Ranges (a mix above 1, 1 fold) are left to the engine, whose messages say what to fix.
+ */
+export function parseArgs(argv: readonly string[]): ParsedCommand {
+  if (argv.includes("--help") || argv.includes("-h")) return { help: true };
+  const seen = new Map<string, string | true>();
+  const positional: string[] = [];
+  for (let i = 0; i < argv.length; i++) {
+    const arg = argv[i];
+    if (arg === "--") {
+      positional.push(...argv.slice(i + 1));
+      break;
+    }
+    if (!arg.startsWith("--") || arg === "-") {
+      if (arg.startsWith("-") && arg !== "-" && parseNumber(arg) === null) {
+        throw new CommandError(`unknown option ${arg}`);
+      }
+      positional.push(arg);
+      continue;
+    }
+    const equals = arg.indexOf("=");
+    const name = equals >= 0 ? arg.slice(2, equals) : arg.slice(2);
+    const kind = OPTIONS[name];
+    if (kind === undefined) throw new CommandError(`unknown option --${name}`);
+    if (seen.has(name)) throw new CommandError(`--${name} is given twice: give it once`);
+    if (kind === "flag") {
+      if (equals >= 0) throw new CommandError(`--${name} takes no value`);
+      seen.set(name, true);
+      continue;
+    }
+    let value: string;
+    if (equals >= 0) {
+      value = arg.slice(equals + 1);
+    } else {
+      const next = argv[i + 1];
+      if (next === undefined || next.startsWith("--")) throw new CommandError(`--${name} needs a value`);
+      value = next;
+      i++;
+    }
+    if (value.trim() === "") throw new CommandError(`--${name} needs a value`);
+    seen.set(name, value);
+  }
+
+  if (positional.length === 0) throw new CommandError("no data file given: npm run fit -- <data.csv> --target <column>");
+  if (positional.length > 1) {
+    throw new CommandError(`one data file expected, got ${positional.length}: ${positional.join(", ")}`);
+  }
+  const text = (name: string): string | null => {
+    const value = seen.get(name);
+    return typeof value === "string" ? value.trim() : null;
+  };
+  const number = (name: string): number | null => {
+    const value = text(name);
+    return value === null ? null : numberValue(name, value);
+  };
+  const list = (name: string): string[] | null => {
+    const value = text(name);
+    return value === null ? null : splitList(name, value);
+  };
+
+  const target = text("target");
+  if (target === null) throw new CommandError("--target is missing: name the column to predict, e.g. --target price");
+
+  const rule = text("rule");
+  if (rule !== null && rule !== "min" && rule !== "onese") {
+    throw new CommandError(`--rule must be min or onese; got '${rule}'`);
+  }
+  const measure = text("measure");
+  if (measure !== null && measure !== "mse" && measure !== "mae") {
+    throw new CommandError(`--measure must be mse or mae; got '${measure}'`);
+  }
+  const predictors = list("predictors");
+  const exclude = list("exclude");
+  if (predictors !== null && exclude !== null) {
+    throw new CommandError("--predictors and --exclude can't be used together: list the predictors, or the columns to leave out");
+  }
+  const mixText = text("mix");
+  const mixes = mixText === null ? null : splitList("mix", mixText).map((item) => numberValue("mix", item));
+  const strength = number("strength");
+  if (strength !== null && mixes === null && strength !== 0) {
+    throw new CommandError("--strength fits one point: give a single --mix as well (0 ridge, 1 lasso, or between)");
+  }
+
+  return {
+    help: false,
+    options: {
+      file: positional[0],
+      target,
+      predictors,
+      exclude,
+      // Strength 0 is least squares whatever the mix: one mix is enough.
+      mixes: mixes === null && strength === 0 ? [0] : mixes,
+      strength,
+      folds: number("folds"),
+      seed: number("seed"),
+      rule: rule as ChoiceRule | null,
+      measure: measure as ErrorMeasure | null,
+      count: number("count"),
+      lowEnd: number("low-end"),
+      timeOrdered: seen.has("time-ordered"),
+      foldColumn: text("fold-column"),
+      weightsColumn: text("weights-column"),
+      standardize: !seen.has("no-standardize"),
+      intercept: !seen.has("no-intercept"),
+      json: seen.has("json"),
+    },
+  };
+}
+
+/**
+ * The engine options for a parsed command and the columns read from the file.
+ * Options not given are left out, so the engine's documented defaults apply.
+ */
+export function toFitOptions(
+  options: CommandOptions,
+  data: { names: readonly string[]; weights: number[] | null; foldLabels: string[] | null },
+): FitOptions {
+  const out: FitOptions = {
+    names: data.names,
+    standardize: options.standardize,
+    intercept: options.intercept,
+    timeOrdered: options.timeOrdered,
+  };
+  if (options.mixes !== null) out.mixes = options.mixes;
+  if (options.strength !== null) out.strength = options.strength;
+  if (options.folds !== null) out.folds = options.folds;
+  if (options.seed !== null) out.seed = options.seed;
+  if (options.rule !== null) out.rule = options.rule;
+  if (options.measure !== null) out.measure = options.measure;
+  if (options.count !== null) out.strengthCount = options.count;
+  if (options.lowEnd !== null) out.lowEndRatio = options.lowEnd;
+  if (data.weights !== null) out.weights = data.weights;
+  if (data.foldLabels !== null) out.foldLabels = data.foldLabels;
+  return out;
+}

@@ -1,0 +1,62 @@
+/**
+ * Command-line entry: `npm run fit -- <data.csv> --target <column> [options]` (see --help).
+ * A thin shell: parse arguments → read the file → numeric table → fit → format → print.
+ * `runCommand` does everything but the printing, so tests run it in process; the pieces it
+ * calls are pure functions tested on their own (test/cli/).
+ */
+import { readFileSync } from "fs";
+import { fit } from "../fit";
+import { CommandError, parseArgs, toFitOptions, USAGE } from "./args";
+import { failureLine, jsonText, textReport } from "./format";
+import { readFitTable } from "./table";
+
+export interface CommandOutcome {
+  exitCode: 0 | 1 | 2;
+  stdout: string;
+  stderr: string;
+}
+
+/** The file's text; `-` reads standard input. Unreadable files are bad input (exit 2). */
+export function readInput(file: string): string {
+  try {
+    return readFileSync(file === "-" ? 0 : file, "utf8");
+  } catch (error) {
+    const code = (error as NodeJS.ErrnoException).code;
+    const reason =
+      code === "ENOENT" ? "no such file" : code === "EISDIR" ? "it is a folder" : code === "EACCES" ? "permission denied" : String(code ?? error);
+    throw new CommandError(`can't read ${file}: ${reason}`);
+  }
+}
+
+/** Runs the command on `argv` (the arguments after `npm run fit --`); never throws. */
+export function runCommand(argv: readonly string[], read: (file: string) => string = readInput): CommandOutcome {
+  try {
+    const command = parseArgs(argv);
+    if (command.help) return { exitCode: 0, stdout: USAGE + "\n", stderr: "" };
+    const options = command.options;
+    const table = readFitTable(read(options.file), {
+      target: options.target,
+      predictors: options.predictors,
+      exclude: options.exclude,
+      weightsColumn: options.weightsColumn,
+      foldColumn: options.foldColumn,
+    });
+    const result = fit(
+      table.predictors,
+      table.targetValues,
+      toFitOptions(options, { names: table.predictorNames, weights: table.weights, foldLabels: table.foldLabels }),
+    );
+    const context = { table, foldColumn: options.foldColumn };
+    return { exitCode: 0, stdout: options.json ? jsonText(result, context) : textReport(result, context), stderr: "" };
+  } catch (error) {
+    const failure = failureLine(error);
+    return { exitCode: failure.exitCode, stdout: "", stderr: failure.line };
+  }
+}
+
+if (require.main === module) {
+  const outcome = runCommand(process.argv.slice(2));
+  process.stdout.write(outcome.stdout);
+  process.stderr.write(outcome.stderr);
+  process.exitCode = outcome.exitCode;
+}

@@ -1,0 +1,262 @@
+/**
+ * The command's two outputs from a FitResult: one JSON object (for automation) and a readable
+ * report (for people). Pure: returns strings and plain objects, prints nothing.
+ *
+ * JSON numbers that are not finite (an R² of a constant prediction, say) become null, so the
+ * output always parses.
+ */
+import { InputError } from "../errors";
+import type { ChoicePoint, FitResult } from "../fit";
+import type { LinearModel } from "../model";
+import { CommandError } from "./args";
+import type { FitTable } from "./table";
+import { skippedRowsMessage } from "./table";
+
+/** What the reports need besides the engine's result. */
+export interface ReportContext {
+  table: FitTable;
+  /** Name of the fold-label column, when folds came from one. */
+  foldColumn?: string | null;
+}
+
+export interface JsonChoice {
+  mix: number | null;
+  strength: number | null;
+  strengthFraction: number | null;
+  error: number | null;
+  se: number | null;
+  nonzero: number;
+}
+
+/** The JSON object printed by `--json`. Coefficient objects are keyed by the file's column names. */
+export interface JsonReport {
+  target: string;
+  predictors: string[];
+  intercept: number | null;
+  coefficients: Record<string, number | null>;
+  /** Coefficient × the predictor's population SD: comparable across predictors. */
+  standardizedCoefficients: Record<string, number | null>;
+  nonzero: number;
+  strength: number | null;
+  strengthFraction: number | null;
+  mix: number | null;
+  rule: "min" | "onese" | "fixed";
+  /** The chosen cross-validation point, or null for a fixed strength. */
+  cv: (JsonChoice & { rule: "min" | "onese"; measure: string; scheme: string; folds: number; seed: number | null }) | null;
+  /** Both rules' points (the model is the one named by `rule`), or null for a fixed strength. */
+  choices: { min: JsonChoice; onese: JsonChoice } | null;
+  /** In-sample accuracy of the model (weighted when weights are given). */
+  fit: { r2: number | null; rmse: number | null; mae: number | null; bias: number | null };
+  rowsUsed: number;
+  rowsSkipped: number;
+  /** 1-based data-row numbers of rows skipped for blank cells. */
+  skippedRows: number[];
+  constantColumns: string[];
+  warnings: string[];
+  diagnostics: {
+    solver: string;
+    updates: string;
+    sweeps: number;
+    converged: boolean;
+    maxKktViolation: number | null;
+    maxKktViolationAllFits: number | null;
+    strengthCount: number;
+    lowEndRatio: number | null;
+    earlyStop: { index: number; strength: number | null } | null;
+  };
+  /** The fitted model as the engine saves it (terms, intercept, coefficients). */
+  model: LinearModel;
+}
+
+/** A finite number as is; NaN and ±Infinity as null. */
+export function finiteOrNull(value: number): number | null {
+  return Number.isFinite(value) ? value : null;
+}
+
+function byName(names: readonly string[], values: readonly number[]): Record<string, number | null> {
+  // fromEntries makes own properties even for a column called "__proto__".
+  return Object.fromEntries(names.map((name, j) => [name, finiteOrNull(values[j])]));
+}
+
+function choice(point: ChoicePoint): JsonChoice {
+  return {
+    mix: finiteOrNull(point.mix),
+    strength: finiteOrNull(point.strength),
+    strengthFraction: finiteOrNull(point.strengthFraction),
+    error: finiteOrNull(point.error),
+    se: finiteOrNull(point.se),
+    nonzero: point.nonzero,
+  };
+}
+
+/** Every warning as one message: the file's skipped rows first, then the engine's. */
+export function warningMessages(result: FitResult, table: FitTable): string[] {
+  const skipped = skippedRowsMessage(table);
+  return [...(skipped ? [skipped] : []), ...result.warnings.map((w) => w.message)];
+}
+
+/** The object `--json` prints. */
+export function jsonReport(result: FitResult, context: ReportContext): JsonReport {
+  const { table } = context;
+  let cv: JsonReport["cv"] = null;
+  if (result.choices && result.cv && result.rule !== "fixed") {
+    cv = {
+      ...choice(result.choices[result.rule]),
+      rule: result.rule,
+      measure: result.cv.measure,
+      scheme: result.cv.scheme,
+      folds: result.cv.folds,
+      seed: result.cv.seed,
+    };
+  }
+  const d = result.diagnostics;
+  return {
+    target: table.target,
+    predictors: result.terms.slice(),
+    intercept: finiteOrNull(result.intercept),
+    coefficients: byName(result.terms, result.coefficients),
+    standardizedCoefficients: byName(result.terms, result.standardizedCoefficients),
+    nonzero: result.coefficients.filter((b) => b !== 0).length,
+    strength: finiteOrNull(result.strength),
+    strengthFraction: finiteOrNull(result.strengthFraction),
+    mix: finiteOrNull(result.mix),
+    rule: result.rule,
+    cv,
+    choices: result.choices ? { min: choice(result.choices.min), onese: choice(result.choices.onese) } : null,
+    fit: {
+      r2: finiteOrNull(result.fit.r2),
+      rmse: finiteOrNull(result.fit.rmse),
+      mae: finiteOrNull(result.fit.mae),
+      bias: finiteOrNull(result.fit.bias),
+    },
+    rowsUsed: result.rowsUsed,
+    rowsSkipped: table.rowsSkipped,
+    skippedRows: table.skippedRows.slice(),
+    constantColumns: result.constantColumns.slice(),
+    warnings: warningMessages(result, table),
+    diagnostics: {
+      solver: d.solver,
+      updates: d.updates,
+      sweeps: d.sweeps,
+      converged: d.converged,
+      maxKktViolation: finiteOrNull(d.maxKktViolation),
+      maxKktViolationAllFits: finiteOrNull(d.maxKktViolationAllFits),
+      strengthCount: d.strengthCount,
+      lowEndRatio: finiteOrNull(d.lowEndRatio),
+      earlyStop: d.earlyStop ? { index: d.earlyStop.index, strength: finiteOrNull(d.earlyStop.strength) } : null,
+    },
+    model: {
+      kind: result.model.kind,
+      terms: result.model.terms.slice(),
+      intercept: result.model.intercept,
+      coefficients: result.model.coefficients.slice(),
+    },
+  };
+}
+
+/** `--json` output: the report as one line-terminated JSON text (indented for reading). */
+export function jsonText(result: FitResult, context: ReportContext): string {
+  return JSON.stringify(jsonReport(result, context), null, 2) + "\n";
+}
+
+/**
+ * A number for people: 6 significant digits, exponent form when very large or very small,
+ * "n/a" when not finite.
+ */
+export function formatNumber(value: number, digits = 6): string {
+  if (!Number.isFinite(value)) return "n/a";
+  if (value === 0) return "0";
+  const size = Math.abs(value);
+  if (size >= 1e9 || size < 1e-4) {
+    const [mantissa, exponent] = value.toExponential(digits - 1).split("e");
+    return `${mantissa.replace(/\.?0+$/, "")}e${exponent}`;
+  }
+  return String(Number(value.toPrecision(digits)));
+}
+
+/** Rows of cells as aligned columns: first column left-aligned, the others right-aligned. */
+function columns(rows: string[][], indent = "  "): string[] {
+  const widths: number[] = [];
+  for (const row of rows) row.forEach((cell, c) => (widths[c] = Math.max(widths[c] ?? 0, [...cell].length)));
+  return rows.map((row) =>
+    (indent + row.map((cell, c) => (c === 0 ? cell.padEnd(widths[c]) : cell.padStart(widths[c]))).join("  ")).trimEnd(),
+  );
+}
+
+function schemeText(result: FitResult, foldColumn: string | null | undefined): string {
+  const cv = result.cv;
+  if (!cv) return "";
+  if (cv.scheme === "labels") return `${cv.folds} folds, one per value of '${foldColumn ?? "fold labels"}'`;
+  if (cv.scheme === "time") return `${cv.folds} time-ordered folds`;
+  return `${cv.folds} random folds (seed ${cv.seed})`;
+}
+
+/** The readable report printed without `--json`. */
+export function textReport(result: FitResult, context: ReportContext): string {
+  const { table } = context;
+  const lines: string[] = [];
+  const p = result.terms.length;
+  lines.push(`Shrinkwise fit of '${table.target}' on ${p} predictor${p === 1 ? "" : "s"}`);
+  lines.push("");
+  const termRows: string[][] = [["term", "coefficient", "standardized"]];
+  termRows.push(["(intercept)", formatNumber(result.intercept), ""]);
+  result.terms.forEach((term, j) => {
+    termRows.push([term, formatNumber(result.coefficients[j]), formatNumber(result.standardizedCoefficients[j])]);
+  });
+  lines.push(...columns(termRows));
+  lines.push("");
+  const nonzero = result.coefficients.filter((b) => b !== 0).length;
+  if (result.rule === "fixed") {
+    const point =
+      result.diagnostics.solver === "least-squares"
+        ? "least squares (strength 0)"
+        : `mix ${formatNumber(result.mix)}, strength ${formatNumber(result.strength)}`;
+    lines.push(`Fixed point: ${point}, ${nonzero} of ${p} terms nonzero; no cross-validation`);
+  } else {
+    lines.push(
+      `Chosen point (rule ${result.rule}): mix ${formatNumber(result.mix)}, strength ${formatNumber(result.strength)}` +
+        ` (${formatNumber(result.strengthFraction, 4)} of the grid's top), ${nonzero} of ${p} terms nonzero`,
+    );
+  }
+  if (result.choices && result.cv) {
+    lines.push(`Cross-validation: ${schemeText(result, context.foldColumn)}, error measure ${result.cv.measure}`);
+    const rows: string[][] = [["rule", "mix", "strength", "error", "SE", "nonzero"]];
+    for (const rule of ["min", "onese"] as const) {
+      const c = result.choices[rule];
+      rows.push([
+        rule + (rule === result.rule ? " *" : ""),
+        formatNumber(c.mix),
+        formatNumber(c.strength),
+        formatNumber(c.error),
+        formatNumber(c.se),
+        String(c.nonzero),
+      ]);
+    }
+    lines.push(...columns(rows));
+  }
+  const fit = result.fit;
+  lines.push(`In-sample: R² ${formatNumber(fit.r2, 4)}, RMSE ${formatNumber(fit.rmse)}, MAE ${formatNumber(fit.mae)}`);
+  lines.push(`Rows: ${result.rowsUsed} used, ${table.rowsSkipped} skipped`);
+  const warnings = warningMessages(result, table);
+  if (warnings.length > 0) {
+    lines.push("Warnings:");
+    for (const message of warnings) lines.push(`  - ${message}`);
+  }
+  return lines.join("\n") + "\n";
+}
+
+/**
+ * The exit code and one-line stderr message for an error. Bad input or usage (a CommandError,
+ * which includes an unreadable file, or the engine's InputError) is code 2; anything else is
+ * unexpected, code 1.
+ * Never a stack trace: the message only, on one line.
+ */
+export function failureLine(error: unknown): { exitCode: 1 | 2; line: string } {
+  const message = error instanceof Error ? error.message : String(error);
+  const oneLine = message.replace(/\s*[\r\n]+\s*/g, " ").trim();
+  const expected = error instanceof CommandError || error instanceof InputError;
+  return {
+    exitCode: expected ? 2 : 1,
+    line: `shrinkwise: ${expected ? "" : "unexpected failure: "}${oneLine}\n`,
+  };
+}

@@ -1,0 +1,112 @@
+/**
+ * End to end: the real command (`npx tsx engine/cli/fit.ts ...`) on small files written to the
+ * system's temporary folder. Checks exit codes, that `--json` output parses, and that bad input
+ * gives exit code 2 and a single `shrinkwise: ...` line on stderr with no stack trace.
+ * The runs start together in beforeAll. Each start-up costs over a second of CPU, so the other
+ * failure messages are checked in process (pipeline.test.ts) and Longley in longley.test.ts.
+ */
+import { spawn } from "child_process";
+import { mkdtempSync, rmSync, writeFileSync } from "fs";
+import { tmpdir } from "os";
+import { join, resolve } from "path";
+
+const ROOT = resolve(__dirname, "..", "..");
+
+interface Outcome {
+  status: number | null;
+  stdout: string;
+  stderr: string;
+}
+
+function runCommand(args: string[]): Promise<Outcome> {
+  return new Promise((done, fail) => {
+    const child = spawn("npx", ["tsx", "engine/cli/fit.ts", ...args], { cwd: ROOT, env: { ...process.env, NO_COLOR: "1" } });
+    let stdout = "";
+    let stderr = "";
+    child.stdout.on("data", (chunk) => (stdout += chunk));
+    child.stderr.on("data", (chunk) => (stderr += chunk));
+    child.on("error", fail);
+    child.on("close", (status) => done({ status, stdout, stderr }));
+  });
+}
+
+/** 30 rows, comma-separated: y = 1 + 2a − b + noise, an id column and a text group column. */
+function smallCsv(): string {
+  const lines = ["id,a,b,group,y"];
+  for (let i = 1; i <= 30; i++) {
+    const a = (i * 7) % 11;
+    const b = (i * 5) % 13;
+    const noise = ((i * 37) % 17) / 17 - 0.5;
+    lines.push(`${i},${a},${b},${i % 3 === 0 ? "north" : "south"},${(1 + 2 * a - b + noise).toFixed(4)}`);
+  }
+  return lines.join("\n") + "\n";
+}
+
+function expectOneLineFailure(outcome: Outcome, message: RegExp): void {
+  expect(outcome.status).toBe(2);
+  expect(outcome.stdout).toBe("");
+  expect(outcome.stderr.endsWith("\n")).toBe(true);
+  expect(outcome.stderr.trimEnd().split("\n")).toHaveLength(1);
+  expect(outcome.stderr).toMatch(/^shrinkwise: /);
+  expect(outcome.stderr).not.toMatch(/\n\s+at /);
+  expect(outcome.stderr).toMatch(message);
+}
+
+describe("npx tsx engine/cli/fit.ts", () => {
+  let folder = "";
+  const outcomes: Record<string, Outcome> = {};
+
+  beforeAll(async () => {
+    folder = mkdtempSync(join(tmpdir(), "shrinkwise-cli-"));
+    const csv = join(folder, "small.csv");
+    const tsv = join(folder, "small.tsv");
+    writeFileSync(csv, smallCsv());
+    writeFileSync(tsv, smallCsv().replace(/,/g, "\t"));
+    const runs: Record<string, string[]> = {
+      json: [csv, "--target", "y", "--exclude", "id", "--fold-column", "group", "--mix", "0.5,1", "--count", "20", "--json"],
+      text: [tsv, "--target", "y", "--predictors", "a,b", "--folds", "5", "--seed", "7"],
+      textColumn: [csv, "--target", "y", "--json"],
+      missingFile: [join(folder, "nowhere.csv"), "--target", "y", "--json"],
+    };
+    const names = Object.keys(runs);
+    const results = await Promise.all(names.map((name) => runCommand(runs[name])));
+    names.forEach((name, k) => (outcomes[name] = results[k]));
+  }, 60000);
+
+  afterAll(() => {
+    if (folder) rmSync(folder, { recursive: true, force: true });
+  });
+
+  it("--json with grouped folds: exit 0 and one parsable JSON object", () => {
+    const outcome = outcomes.json;
+    expect(outcome.stderr).toBe("");
+    expect(outcome.status).toBe(0);
+    const report = JSON.parse(outcome.stdout);
+    expect(Object.keys(report.coefficients)).toEqual(["a", "b"]);
+    expect(typeof report.intercept).toBe("number");
+    expect(typeof report.strength).toBe("number");
+    expect([0.5, 1]).toContain(report.mix);
+    expect(report.cv).toMatchObject({ rule: "min", scheme: "labels", folds: 2 });
+    expect(typeof report.cv.error).toBe("number");
+    expect(typeof report.cv.se).toBe("number");
+    expect(report.rowsUsed).toBe(30);
+    expect(report.rowsSkipped).toBe(0);
+  });
+
+  it("readable report from a tab-separated file: exit 0", () => {
+    const outcome = outcomes.text;
+    expect(outcome.stderr).toBe("");
+    expect(outcome.status).toBe(0);
+    expect(outcome.stdout).toMatch(/term\s+coefficient\s+standardized/);
+    expect(outcome.stdout).toMatch(/Cross-validation: 5 random folds \(seed 7\)/);
+    expect(outcome.stdout).toMatch(/Rows: 30 used, 0 skipped/);
+  });
+
+  it("a text column: exit 2 and one line naming the column, row and value", () => {
+    expectOneLineFailure(outcomes.textColumn, /^shrinkwise: column 'group' has text in data row 1 \('south'\); leave the column out with --exclude group\n$/);
+  });
+
+  it("a missing file: exit 2 and one line", () => {
+    expectOneLineFailure(outcomes.missingFile, /can't read .*nowhere\.csv: no such file/);
+  });
+});

@@ -1,0 +1,90 @@
+/**
+ * The whole command in process (runCommand with files held in memory): exit codes and the
+ * one-line messages for bad usage and bad input, including the engine's own messages.
+ */
+import { readInput, runCommand } from "../../engine/cli/fit";
+
+/** 24 rows in time order: y = 0.5 + 1.2a − 0.7b + a small wobble. */
+function timeSeries(): string {
+  const lines = ["t,a,b,y"];
+  for (let t = 1; t <= 24; t++) {
+    const a = t / 3 + (t % 4);
+    const b = (t * 7) % 5;
+    lines.push(`${t},${a.toFixed(3)},${b},${(0.5 + 1.2 * a - 0.7 * b + 0.1 * Math.sin(t)).toFixed(4)}`);
+  }
+  return lines.join("\n");
+}
+
+const files: Record<string, string> = {
+  "time.csv": timeSeries(),
+  "good.csv": "a,b,y,w,site\n1,5,3.1,1,n\n2,3,4.9,1,n\n3,4,7.2,2,s\n4,1,9.1,1,s\n5,2,10.8,1,e\n6,6,13.2,1,e\n",
+  "constant.csv": "a,y\n1,5\n2,5\n3,5\n",
+  "negative-weight.csv": "a,y,w\n1,2,1\n2,3,-1\n3,5,1\n",
+};
+
+function read(file: string): string {
+  if (!(file in files)) return readInput(file);
+  return files[file];
+}
+
+function expectFailure(argv: string[], message: string | RegExp): void {
+  const outcome = runCommand(argv, read);
+  expect(outcome.exitCode).toBe(2);
+  expect(outcome.stdout).toBe("");
+  expect(outcome.stderr.trimEnd().split("\n")).toHaveLength(1);
+  if (typeof message === "string") expect(outcome.stderr).toBe(`shrinkwise: ${message}\n`);
+  else expect(outcome.stderr).toMatch(message);
+}
+
+describe("runCommand", () => {
+  it("prints help with exit 0", () => {
+    const outcome = runCommand(["--help"], read);
+    expect(outcome.exitCode).toBe(0);
+    expect(outcome.stdout).toMatch(/^Usage: npm run fit -- <data.csv> --target <column>/);
+    for (const option of ["--mix", "--strength", "--folds", "--seed", "--rule", "--json", "--predictors", "--exclude", "--measure", "--count", "--low-end", "--time-ordered", "--fold-column", "--weights-column", "--no-standardize", "--no-intercept"]) {
+      expect(outcome.stdout).toContain(option);
+    }
+  });
+
+  it("fits with weights and fold labels from columns", () => {
+    const outcome = runCommand(["good.csv", "--target", "y", "--weights-column", "w", "--fold-column", "site", "--mix", "1", "--count", "10", "--json"], read);
+    expect(outcome.stderr).toBe("");
+    expect(outcome.exitCode).toBe(0);
+    const report = JSON.parse(outcome.stdout);
+    expect(Object.keys(report.coefficients)).toEqual(["a", "b"]);
+    expect(report.cv).toMatchObject({ scheme: "labels", folds: 3 });
+  });
+
+  it("fits time-ordered folds, mae, no intercept, no standardizing", () => {
+    const outcome = runCommand(
+      ["time.csv", "--target", "y", "--exclude", "t", "--time-ordered", "--folds", "3", "--measure", "mae", "--no-intercept", "--no-standardize", "--mix", "0", "--low-end", "0.01", "--count", "15", "--json"],
+      read,
+    );
+    expect(outcome.stderr).toBe("");
+    const report = JSON.parse(outcome.stdout);
+    expect(report.cv).toMatchObject({ scheme: "time", measure: "mae", folds: 3, seed: null });
+    expect(report.intercept).toBe(0);
+    expect(report.diagnostics.strengthCount).toBe(15);
+    expect(report.diagnostics.lowEndRatio).toBe(0.01);
+  });
+
+  it.each([
+    [["good.csv", "--target", "y", "--exclude", "site", "--folds", "x"], "--folds needs a number; got 'x'"],
+    [["good.csv", "--target", "y", "--exclude", "site", "--mix", "2"], /^shrinkwise: mix 2 is outside 0 to 1/],
+    [["good.csv", "--target", "y", "--exclude", "site", "--mix", "0,1", "--strength", "0.1"], /^shrinkwise: a fixed strength is fitted at one mix, but 2 mixes were given/],
+    [["good.csv", "--target", "y", "--exclude", "site", "--mix", "1", "--strength", "-1"], /^shrinkwise: strength -1 is not allowed/],
+    [["good.csv", "--target", "y", "--exclude", "site", "--folds", "1"], /^shrinkwise: folds must be a whole number from 2 to 1000; got 1/],
+    [["good.csv", "--target", "y", "--exclude", "site", "--count", "0"], /^shrinkwise: the number of strengths must be a whole number/],
+    [["good.csv", "--target", "y", "--exclude", "site", "--low-end", "2"], /^shrinkwise: the low-end ratio must be between 0 and 1/],
+    [["good.csv", "--target", "y", "--fold-column", "site", "--time-ordered"], /^shrinkwise: fold labels and time-ordered folds can't be used together/],
+    [["good.csv", "--target", "z"], /^shrinkwise: the target 'z' is not a column of the file; the columns are 'a', 'b', 'y', 'w', 'site'/],
+    [["good.csv", "--target", "y"], "column 'site' has text in data row 1 ('n'); leave the column out with --exclude site"],
+    [["constant.csv", "--target", "y"], /^shrinkwise: the target has the same value \(5\) in every row/],
+    [["negative-weight.csv", "--target", "y", "--weights-column", "w"], /^shrinkwise: weights row 2 is negative/],
+    [["/definitely/not/here.csv", "--target", "y"], "can't read /definitely/not/here.csv: no such file"],
+    [["good.csv", "--target", "y", "--unknown"], "unknown option --unknown"],
+    [["good.csv"], /^shrinkwise: --target is missing/],
+  ])("exit 2 and one line for %j", (argv, message) => {
+    expectFailure(argv, message);
+  });
+});
