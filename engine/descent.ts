@@ -109,7 +109,7 @@ const NEWTON_AFTER_SWEEPS = 2;
 /** Largest active set for which the Newton step's O(m³) solve is tried. */
 const NEWTON_MAX_ACTIVE = 600;
 /** The Newton step is tried when the sweeps it would save cost this many times its price. */
-const NEWTON_PAYOFF = 2;
+const NEWTON_PAYOFF = 1;
 
 /**
  * Solver state for one training problem and one mix: coefficients, gradient (and residual in
@@ -132,6 +132,16 @@ export class CoordinateDescent {
   private readonly rhsBuffer: Float64Array;
   private readonly rowBuffer: Float64Array;
   private systemBuffer: Float64Array;
+  /**
+   * Residual form: cache of Σ ω x̃_j x̃_k among the columns that have taken part in a Newton
+   * step (a "slot" each), so each pair is computed once per path rather than once per step.
+   */
+  private productCache = new Float64Array(0);
+  private productCapacity = 0;
+  private productCount = 0;
+  private readonly slotOf: Int32Array;
+  private slotColumn = new Int32Array(0);
+  private readonly slotBuffer: Int32Array;
   /** ω when every row has the same weight (naive form), else 0. */
   private readonly equalWeight: number;
   totalSweeps = 0;
@@ -154,6 +164,8 @@ export class CoordinateDescent {
     this.activeBuffer = new Int32Array(p);
     this.floor = 1e-6 * Math.sqrt(problem.std.yVariance);
     this.memberBuffer = new Int32Array(p);
+    this.slotOf = new Int32Array(problem.kind === "naive" ? p : 0).fill(-1);
+    this.slotBuffer = new Int32Array(p);
     this.rhsBuffer = new Float64Array(p);
     this.rowBuffer = new Float64Array(problem.n);
     this.systemBuffer = new Float64Array(Math.min(p, 64) ** 2);
@@ -291,14 +303,12 @@ export class CoordinateDescent {
         for (let b = 0; b <= a; b++) system[a * m + b] = gram[off + members[b]];
       }
     } else {
-      const n = problem.n;
-      const xs = (problem.xs as { data: Float64Array }).data;
-      const omega = problem.omega as Float64Array;
-      const weighted = this.rowBuffer;
+      const slots = this.productSlots(members, m);
+      const cache = this.productCache;
+      const stride = this.productCapacity;
       for (let a = 0; a < m; a++) {
-        const offA = members[a] * n;
-        for (let i = 0; i < n; i++) weighted[i] = omega[i] * xs[offA + i];
-        for (let b = 0; b <= a; b++) system[a * m + b] = dotRange(weighted, 0, xs, members[b] * n, n);
+        const row = slots[a] * stride;
+        for (let b = 0; b <= a; b++) system[a * m + b] = cache[row + slots[b]];
       }
     }
     for (let a = 0; a < m; a++) {
@@ -340,6 +350,54 @@ export class CoordinateDescent {
     }
     this.newtonSteps++;
     return true;
+  }
+
+  /**
+   * Slots of the listed columns in the product cache, adding missing ones (each new column's
+   * products with every cached column cost O(slots · n), once). Residual form only.
+   */
+  private productSlots(members: Int32Array, m: number): Int32Array {
+    const problem = this.problem;
+    const n = problem.n;
+    const xs = (problem.xs as { data: Float64Array }).data;
+    const omega = problem.omega as Float64Array;
+    const weighted = this.rowBuffer;
+    const slots = this.slotBuffer;
+    for (let a = 0; a < m; a++) {
+      const j = members[a];
+      let slot = this.slotOf[j];
+      if (slot < 0) {
+        slot = this.productCount;
+        if (slot >= this.productCapacity) this.growProducts(Math.max(64, 2 * this.productCapacity));
+        this.productCount++;
+        this.slotOf[j] = slot;
+        this.slotColumn[slot] = j;
+        const offJ = j * n;
+        for (let i = 0; i < n; i++) weighted[i] = omega[i] * xs[offJ + i];
+        const stride = this.productCapacity;
+        for (let t = 0; t <= slot; t++) {
+          const v = dotRange(weighted, 0, xs, this.slotColumn[t] * n, n);
+          this.productCache[slot * stride + t] = v;
+          this.productCache[t * stride + slot] = v;
+        }
+      }
+      slots[a] = slot;
+    }
+    return slots;
+  }
+
+  private growProducts(capacity: number): void {
+    const old = this.productCache;
+    const oldCapacity = this.productCapacity;
+    const cache = new Float64Array(capacity * capacity);
+    for (let a = 0; a < this.productCount; a++) {
+      for (let b = 0; b < this.productCount; b++) cache[a * capacity + b] = old[a * oldCapacity + b];
+    }
+    const columns = new Int32Array(capacity);
+    columns.set(this.slotColumn.subarray(0, this.productCount));
+    this.productCache = cache;
+    this.productCapacity = capacity;
+    this.slotColumn = columns;
   }
 
   /**
@@ -448,10 +506,12 @@ export class CoordinateDescent {
             // Try the Newton step only when those sweeps would cost more than the solve.
             const rate = change / previousChange;
             const remaining = rate < 1 ? Math.log(limit / change) / Math.log(rate) : Infinity;
+            // Costs in multiply-adds: a sweep updates the gradient (gram: p per coordinate) or
+            // computes and applies it (residual: 2n per coordinate); the step copies the cached
+            // products (m²), factorizes (m³/6) and applies itself (one sweep's worth).
             const gramForm = this.problem.kind === "gram";
-            const sweepCost = activeCount * (gramForm ? this.problem.p : this.problem.n);
-            const formCost = gramForm ? activeCount * activeCount : (activeCount * activeCount * this.problem.n) / 2;
-            const newtonCost = (activeCount * activeCount * activeCount) / 3 + formCost + sweepCost;
+            const sweepCost = activeCount * (gramForm ? this.problem.p : 2 * this.problem.n);
+            const newtonCost = (activeCount * activeCount * activeCount) / 6 + activeCount * activeCount + sweepCost;
             if (remaining * sweepCost > NEWTON_PAYOFF * newtonCost) {
               sinceNewton = 0;
               this.newtonTries++;

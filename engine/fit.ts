@@ -21,7 +21,8 @@ import { leastSquares } from "./leastSquares";
 import { ColumnMatrix, selectRows } from "./matrix";
 import { LinearModel, linearModel, predict } from "./model";
 import { score, Score } from "./metrics";
-import { CancelSignal, PathRun, runPath, strengthGrid, topStrength } from "./path";
+import { CancelSignal, PathRun, runPath, spectralApplies, strengthGrid, topStrength } from "./path";
+import { SpectralRidge } from "./ridgeSpectral";
 import {
   accumulateSums,
   blockSums,
@@ -451,6 +452,29 @@ function foldErrors(
   return errors;
 }
 
+/** Held-out errors of an exact ridge path, predicted through the eigendecomposition. */
+function spectralFoldErrors(
+  problem: TrainingProblem,
+  penalty: PenaltySpec,
+  strengths: readonly number[],
+  held: HeldOut,
+  measure: ErrorMeasure,
+): Float64Array {
+  const predictAt = new SpectralRidge(problem, penalty.multipliers).heldOutPredictor(held.x);
+  const prediction = new Float64Array(held.y.length);
+  const errors = new Float64Array(strengths.length);
+  for (let k = 0; k < strengths.length; k++) {
+    predictAt(strengths[k], prediction);
+    let loss = 0;
+    for (let t = 0; t < prediction.length; t++) {
+      const e = held.y[t] - prediction[t];
+      loss += held.w[t] * (measure === "mse" ? e * e : Math.abs(e));
+    }
+    errors[k] = loss / held.totalWeight;
+  }
+  return errors;
+}
+
 /**
  * Mean and standard error over folds at each strength. Folds are weighted by their held-out
  * weight W_k: mean = Σ W_k e_k / Σ W_k; SE = sqrt( [Σ W_k (e_k − mean)² / Σ W_k] · K/(K − 1) / K ),
@@ -587,22 +611,29 @@ export function* fitSteps(
     for (let f = 0; f < K; f++) {
       if (data.settings.signal?.aborted) throw new CancelledError();
       const problem = problems.folds[f];
-      const foldRun = runPath(problem, penaltyFor(problem, data, mix), run.strengths, { ...pathSettings, stopWhenSaturated: false });
-      sweeps += foldRun.sweeps;
-      allKkt = Math.max(allKkt, foldRun.maxKktViolation);
-      if (foldRun.notConverged.length > 0) allConverged = false;
-      errors.push(
-        foldErrors(
-          data,
-          problem,
-          foldRun,
-          measure,
-          problems.heldOutSums ? problems.heldOutSums[f] : null,
-          () => (heldOutCache[f] ??= gatherHeldOut(data, activePlan.blocks[activePlan.validateBlock[f]])),
-          problems.shiftX,
-          problems.shiftY,
-        ),
-      );
+      const foldPenalty = penaltyFor(problem, data, mix);
+      const heldOut = (): HeldOut => (heldOutCache[f] ??= gatherHeldOut(data, activePlan.blocks[activePlan.validateBlock[f]]));
+      if (problem.kind === "naive" && data.settings.exactRidge && spectralApplies(problem, foldPenalty)) {
+        // Exact ridge in kernel form: score held-out rows straight from the factorization.
+        errors.push(spectralFoldErrors(problem, foldPenalty, run.strengths, heldOut(), measure));
+      } else {
+        const foldRun = runPath(problem, foldPenalty, run.strengths, { ...pathSettings, stopWhenSaturated: false });
+        sweeps += foldRun.sweeps;
+        allKkt = Math.max(allKkt, foldRun.maxKktViolation);
+        if (foldRun.notConverged.length > 0) allConverged = false;
+        errors.push(
+          foldErrors(
+            data,
+            problem,
+            foldRun,
+            measure,
+            problems.heldOutSums ? problems.heldOutSums[f] : null,
+            heldOut,
+            problems.shiftX,
+            problems.shiftY,
+          ),
+        );
+      }
       options.onProgress?.(++done, totalUnits);
       yield;
     }

@@ -13,7 +13,7 @@
  * caller falls back to coordinate descent otherwise.
  */
 import { EigenvalueDecomposition, Matrix } from "ml-matrix";
-import type { TrainingProblem } from "./problem";
+import { dotRange, TrainingProblem } from "./problem";
 
 export class SpectralRidge {
   private readonly problem: TrainingProblem;
@@ -58,23 +58,20 @@ export class SpectralRidge {
       const omega = problem.omega as Float64Array;
       this.size = n;
       symmetric = new Float64Array(n * n);
-      // K = Σ_j x̃_j x̃_jᵀ / m_j, accumulated one column at a time (stride-1 inner loop over
-      // the upper triangle's row), then scaled by √ω on both sides.
+      // K = Ω^½ X̃ D⁻² X̃ᵀ Ω^½. Rows of X̃ D⁻¹ are copied out row-major once (O(n·p)) so each
+      // entry is one stride-1 dot product of length p kept in registers, instead of n² partial
+      // sums streamed through memory p times.
+      const rowsMajor = new Float64Array(n * f);
       for (let t = 0; t < f; t++) {
         const off = this.free[t] * n;
-        const inverse = 1 / (this.rootMultiplier[t] * this.rootMultiplier[t]);
-        for (let i = 0; i < n; i++) {
-          const a = xs[off + i] * inverse;
-          if (a === 0) continue;
-          const row = i * n;
-          for (let k = i; k < n; k++) symmetric[row + k] += a * xs[off + k];
-        }
+        const inverse = 1 / this.rootMultiplier[t];
+        for (let i = 0; i < n; i++) rowsMajor[i * f + t] = xs[off + i] * inverse;
       }
       const rootOmega = new Float64Array(n);
       for (let i = 0; i < n; i++) rootOmega[i] = Math.sqrt(omega[i]);
       for (let i = 0; i < n; i++) {
         for (let k = i; k < n; k++) {
-          const v = symmetric[i * n + k] * rootOmega[i] * rootOmega[k];
+          const v = dotRange(rowsMajor, i * f, rowsMajor, k * f, f) * rootOmega[i] * rootOmega[k];
           symmetric[i * n + k] = v;
           symmetric[k * n + i] = v;
         }
@@ -132,6 +129,66 @@ export class SpectralRidge {
       total += shrunk * shrunk;
     }
     return this.unreachable + total;
+  }
+
+  /**
+   * Predictions on held-out rows at any strength without forming the coefficients, for
+   * cross-validation in the kernel form (p > n), where forming them costs O(n·p) a strength.
+   * With x̂ the held-out rows standardized by this problem's centres and scales,
+   * prediction = ȳ + x̂ D⁻² X̃ᵀ Ω^½ U s(λ), s_t = q_t/(σ_t + λ); the n_v × n matrix in front of
+   * s(λ) is built once (O(n_v·n·p)), then each strength costs O(n_v·n).
+   * Gram form: forms the coefficients (O(p²)) and applies them.
+   */
+  heldOutPredictor(heldOut: { rows: number; columns: number; data: Float64Array }): (lambda: number, out: Float64Array) => void {
+    const problem = this.problem;
+    const std = problem.std;
+    const rows = heldOut.rows;
+    if (problem.kind === "gram") {
+      const coefficients = new Float64Array(problem.p);
+      return (lambda, out) => {
+        this.coefficientsAt(lambda, coefficients);
+        out.fill(std.yCentre);
+        for (let j = 0; j < problem.p; j++) {
+          const b = coefficients[j];
+          if (b === 0) continue;
+          const scaled = b / std.xScale[j];
+          const off = j * rows;
+          for (let t = 0; t < rows; t++) out[t] += scaled * (heldOut.data[off + t] - std.xCentre[j]);
+        }
+      };
+    }
+    const n = problem.n;
+    const size = this.size;
+    const xs = (problem.xs as { data: Float64Array }).data;
+    const omega = problem.omega as Float64Array;
+    // cross = x̂ D⁻² X̃ᵀ (rows × n), accumulated one free column at a time.
+    const cross = new Float64Array(rows * n);
+    const standardized = new Float64Array(rows);
+    for (let a = 0; a < this.free.length; a++) {
+      const j = this.free[a];
+      const inverse = 1 / (this.rootMultiplier[a] * this.rootMultiplier[a]);
+      const off = j * rows;
+      for (let t = 0; t < rows; t++) standardized[t] = ((heldOut.data[off + t] - std.xCentre[j]) / std.xScale[j]) * inverse;
+      const col = j * n;
+      for (let t = 0; t < rows; t++) {
+        const v = standardized[t];
+        if (v === 0) continue;
+        const row = t * n;
+        for (let i = 0; i < n; i++) cross[row + i] += v * xs[col + i];
+      }
+    }
+    // projector = cross Ω^½ U (rows × size), eigenvector t stored as vectors[t * size ..].
+    const projector = new Float64Array(rows * size);
+    const weighted = new Float64Array(n);
+    for (let t = 0; t < rows; t++) {
+      for (let i = 0; i < n; i++) weighted[i] = cross[t * n + i] * Math.sqrt(omega[i]);
+      for (let e = 0; e < size; e++) projector[t * size + e] = dotRange(weighted, 0, this.vectors, e * size, n);
+    }
+    const shrink = new Float64Array(size);
+    return (lambda, out) => {
+      for (let e = 0; e < size; e++) shrink[e] = this.projected[e] / (this.values[e] + lambda);
+      for (let t = 0; t < rows; t++) out[t] = std.yCentre + dotRange(projector, t * size, shrink, 0, size);
+    };
   }
 
   /** Writes the ridge solution at strength λ > 0 into `out` (length p; frozen entries 0). */
