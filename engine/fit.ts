@@ -150,6 +150,18 @@ export interface FitResult {
   };
   /** In-sample accuracy of the chosen model (weighted when weights are given). */
   fit: Score;
+  /**
+   * Strength 0 only: the exact least-squares baseline's standard errors (null where aliased),
+   * residual SD on its degrees of freedom, and the aliased terms. Null otherwise.
+   */
+  baseline: {
+    standardErrors: (number | null)[];
+    interceptStandardError: number | null;
+    residualStandardDeviation: number;
+    degreesOfFreedom: number;
+    r2: number;
+    aliased: string[];
+  } | null;
   rowsUsed: number;
   /** Names of predictors dropped because they are constant. */
   constantColumns: string[];
@@ -790,6 +802,7 @@ function assemble(
       r2: run.r2.slice(),
     },
     fit: score(data.y, predictions, data.weights),
+    baseline: null,
     rowsUsed: data.x.rows,
     constantColumns,
     diagnostics: {
@@ -835,6 +848,14 @@ function leastSquaresResult(data: Prepared, full: TrainingProblem, constantColum
     cv: null,
     path: { mix: data.mixes[0], top: 0, strengths: [0], intercepts: [baseline.intercept], coefficients: [coefficients], nonzero: [coefficients.filter((b) => b !== 0).length], r2: [baseline.r2] },
     fit: score(data.y, predictions, data.weights),
+    baseline: {
+      standardErrors: baseline.standardErrors.slice(),
+      interceptStandardError: baseline.interceptStandardError,
+      residualStandardDeviation: baseline.residualStandardDeviation,
+      degreesOfFreedom: baseline.degreesOfFreedom,
+      r2: baseline.r2,
+      aliased: baseline.aliased.map((j) => data.names[j]),
+    },
     rowsUsed: data.x.rows,
     constantColumns,
     diagnostics: {

@@ -47,6 +47,15 @@ export interface JsonReport {
   choices: { min: JsonChoice; onese: JsonChoice } | null;
   /** In-sample accuracy of the model (weighted when weights are given). */
   fit: { r2: number | null; rmse: number | null; mae: number | null; bias: number | null };
+  /** `--strength 0` only: standard errors (column → SE, null where aliased), residual SD, df, aliased columns. */
+  baseline: {
+    standardErrors: Record<string, number | null>;
+    interceptStandardError: number | null;
+    residualStandardDeviation: number | null;
+    degreesOfFreedom: number;
+    r2: number | null;
+    aliased: string[];
+  } | null;
   rowsUsed: number;
   rowsSkipped: number;
   /** 1-based data-row numbers of rows skipped for blank cells. */
@@ -129,6 +138,16 @@ export function jsonReport(result: FitResult, context: ReportContext): JsonRepor
       mae: finiteOrNull(result.fit.mae),
       bias: finiteOrNull(result.fit.bias),
     },
+    baseline: result.baseline
+      ? {
+          standardErrors: Object.fromEntries(result.terms.map((name, j) => [name, finiteOrNull(result.baseline?.standardErrors[j] ?? NaN)])),
+          interceptStandardError: finiteOrNull(result.baseline.interceptStandardError ?? NaN),
+          residualStandardDeviation: finiteOrNull(result.baseline.residualStandardDeviation),
+          degreesOfFreedom: result.baseline.degreesOfFreedom,
+          r2: finiteOrNull(result.baseline.r2),
+          aliased: result.baseline.aliased.slice(),
+        }
+      : null,
     rowsUsed: result.rowsUsed,
     rowsSkipped: table.rowsSkipped,
     skippedRows: table.skippedRows.slice(),
@@ -198,10 +217,17 @@ export function textReport(result: FitResult, context: ReportContext): string {
   const p = result.terms.length;
   lines.push(`Shrinkwise fit of '${table.target}' on ${p} predictor${p === 1 ? "" : "s"}`);
   lines.push("");
-  const termRows: string[][] = [["term", "coefficient", "standardized"]];
-  termRows.push(["(intercept)", formatNumber(result.intercept), ""]);
+  const baseline = result.baseline;
+  const seText = (value: number | null | undefined): string => (value === null || value === undefined ? "aliased" : formatNumber(value));
+  const termRows: string[][] = [["term", "coefficient", "standardized", ...(baseline ? ["std. error"] : [])]];
+  termRows.push(["(intercept)", formatNumber(result.intercept), "", ...(baseline ? [seText(baseline.interceptStandardError)] : [])]);
   result.terms.forEach((term, j) => {
-    termRows.push([term, formatNumber(result.coefficients[j]), formatNumber(result.standardizedCoefficients[j])]);
+    termRows.push([
+      term,
+      formatNumber(result.coefficients[j]),
+      formatNumber(result.standardizedCoefficients[j]),
+      ...(baseline ? [seText(baseline.standardErrors[j])] : []),
+    ]);
   });
   lines.push(...columns(termRows));
   lines.push("");
@@ -233,6 +259,9 @@ export function textReport(result: FitResult, context: ReportContext): string {
       ]);
     }
     lines.push(...columns(rows));
+  }
+  if (baseline) {
+    lines.push(`Residual SD ${formatNumber(baseline.residualStandardDeviation)} on ${baseline.degreesOfFreedom} degrees of freedom`);
   }
   const fit = result.fit;
   lines.push(`In-sample: R² ${formatNumber(fit.r2, 4)}, RMSE ${formatNumber(fit.rmse)}, MAE ${formatNumber(fit.mae)}`);

@@ -26,6 +26,17 @@ const CERTIFIED: Record<string, number> = {
 };
 // certified value, NIST StRD Longley
 const CERTIFIED_R2 = 0.995479004577296;
+// certified values, NIST StRD Longley: standard deviations of the estimates and residual SD
+const CERTIFIED_INTERCEPT_SE = 890420.383607373;
+const CERTIFIED_SE: Record<string, number> = {
+  x1: 84.9149257747669,
+  x2: 0.0334910077722432,
+  x3: 0.488399681651699,
+  x4: 0.214274163161675,
+  x5: 0.22607320006937,
+  x6: 455.478499142212,
+};
+const CERTIFIED_RESIDUAL_SD = 304.854073561965;
 
 /** |actual − expected| / |expected|. */
 function relativeError(actual: number, expected: number): number {
@@ -73,5 +84,16 @@ describe("--strength 0 on NIST Longley", () => {
     expect(report.strength).toBe(0);
     expect(report.rule).toBe("fixed");
     expect(report.diagnostics.solver).toBe("least-squares");
+  });
+
+  it("reports the certified standard errors, residual SD and 9 degrees of freedom (NIST StRD Longley)", () => {
+    expect(relativeError(report.baseline.interceptStandardError, CERTIFIED_INTERCEPT_SE)).toBeLessThan(TOLERANCE);
+    for (const [name, certified] of Object.entries(CERTIFIED_SE)) {
+      const error = relativeError(report.baseline.standardErrors[name], certified);
+      if (!(error < TOLERANCE)) throw new Error(`${name}: SE ${report.baseline.standardErrors[name]} vs certified ${certified}`);
+    }
+    expect(relativeError(report.baseline.residualStandardDeviation, CERTIFIED_RESIDUAL_SD)).toBeLessThan(TOLERANCE);
+    expect(report.baseline.degreesOfFreedom).toBe(9);
+    expect(report.baseline.aliased).toEqual([]);
   });
 });
