@@ -7,4 +7,7 @@ module.exports = {
     "^.+\\.ts$": ["ts-jest", { tsconfig: "tsconfig.json", diagnostics: { warnOnly: false } }],
   },
   testTimeout: 60000,
+  setupFiles: ["<rootDir>/test/setup/customFunctionsShim.ts"],
+  // office-addin-mock reaches an ESM-only module through office-addin-manifest; use its CommonJS entry.
+  moduleNameMapper: { "^office-addin-manifest$": "<rootDir>/node_modules/office-addin-manifest/lib/officeApp.js" },
 };
