@@ -1,0 +1,65 @@
+/**
+ * The contract between the cell functions and whatever runs the engine.
+ *
+ * The cell-function layer (functions/api.ts) turns worksheet ranges into a `FitRequest`
+ * and asks a `FitRunner` for the result. In the add-in the runner is the shared fit cache in
+ * front of a Web Worker; in tests and the standalone preview it may run the engine in-process.
+ * Everything in a request is plain data (it is posted to a worker and hashed for the cache).
+ */
+import type { FitOptions, FitResult } from "../engine/fit";
+
+/** Engine options without callbacks: what can cross to a worker and into a cache key. */
+export type PlainFitOptions = Omit<FitOptions, "onProgress" | "signal">;
+
+export interface FitRequest {
+  /** Rows of numbers (already encoded: indicators, booleans as 1/0), one per used row. */
+  predictors: number[][];
+  /** One number per used row. */
+  target: number[];
+  options: PlainFitOptions;
+}
+
+/**
+ * Raised by the caller (e.g. Excel cancelling a superseded recalculation). `onCancel`
+ * registers a callback that runs once, at cancellation (immediately if already cancelled).
+ */
+export interface CancelToken {
+  readonly cancelled: boolean;
+  onCancel(callback: () => void): void;
+}
+
+export interface FitProgress {
+  done: number;
+  total: number;
+}
+
+export interface FitRunner {
+  /**
+   * Resolves with the engine's result, or rejects with the engine's InputError (bad input),
+   * or with CancelledError (engine/errors.ts) once `cancel` fires.
+   */
+  fit(request: FitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult>;
+}
+
+/** A token that is cancelled by calling `cancel()`. */
+export function cancelSource(): { token: CancelToken; cancel: () => void } {
+  let cancelled = false;
+  const callbacks: (() => void)[] = [];
+  const token: CancelToken = {
+    get cancelled() {
+      return cancelled;
+    },
+    onCancel(callback) {
+      if (cancelled) callback();
+      else callbacks.push(callback);
+    },
+  };
+  return {
+    token,
+    cancel() {
+      if (cancelled) return;
+      cancelled = true;
+      for (const callback of callbacks.splice(0)) callback();
+    },
+  };
+}
