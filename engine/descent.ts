@@ -108,6 +108,8 @@ export function coordinateViolation(
 const NEWTON_AFTER_SWEEPS = 2;
 /** Largest active set for which the Newton step's O(m³) solve is tried. */
 const NEWTON_MAX_ACTIVE = 600;
+/** Column updates of the dual running sum between rebuilds from scratch. */
+const DUAL_REBUILD = 2000;
 /** The Newton step is tried when the sweeps it would save cost this many times its price. */
 const NEWTON_PAYOFF = 1;
 
@@ -147,6 +149,13 @@ export class CoordinateDescent {
   private readonly slotOf: Int32Array;
   private slotColumn = new Int32Array(0);
   private readonly slotBuffer: Int32Array;
+  /** Residual form, more active predictors than rows: running Σ z_j z_jᵀ / m_j (see dualSolve). */
+  private dualSum: Float64Array | null = null;
+  private dualIn: Uint8Array | null = null;
+  private rootOmega: Float64Array | null = null;
+  private dualUpdates = 0;
+  private readonly dualWanted: Uint8Array;
+  private readonly dualVector: Float64Array;
   /** ω when every row has the same weight (naive form), else 0. */
   private readonly equalWeight: number;
   totalSweeps = 0;
@@ -173,6 +182,8 @@ export class CoordinateDescent {
     this.historySpare = new Float64Array(p);
     this.slotOf = new Int32Array(problem.kind === "naive" ? p : 0).fill(-1);
     this.slotBuffer = new Int32Array(p);
+    this.dualWanted = new Uint8Array(problem.kind === "naive" ? p : 0);
+    this.dualVector = new Float64Array(problem.n);
     this.rhsBuffer = new Float64Array(p);
     this.rowBuffer = new Float64Array(problem.n);
     this.systemBuffer = new Float64Array(Math.min(p, 64) ** 2);
@@ -299,32 +310,38 @@ export class CoordinateDescent {
     if (m === 0) return false;
     const l1 = lambda * mix;
     const l2 = lambda * (1 - mix);
-    if (this.systemBuffer.length < m * m) this.systemBuffer = new Float64Array(Math.max(m * m, 2 * this.systemBuffer.length));
-    const system = this.systemBuffer;
     const rhs = this.rhsBuffer;
-    if (problem.kind === "gram") {
-      const gram = problem.gram as Float64Array;
-      const p = problem.p;
-      for (let a = 0; a < m; a++) {
-        const off = members[a] * p;
-        for (let b = 0; b <= a; b++) system[a * m + b] = gram[off + members[b]];
-      }
-    } else {
-      const slots = this.productSlots(members, m);
-      const cache = this.productCache;
-      const stride = this.productCapacity;
-      for (let a = 0; a < m; a++) {
-        const row = slots[a] * stride;
-        for (let b = 0; b <= a; b++) system[a * m + b] = cache[row + slots[b]];
-      }
-    }
     for (let a = 0; a < m; a++) {
       const j = members[a];
       const g = problem.kind === "gram" ? this.grad[j] : this.residualGradient(j);
-      system[a * m + a] += l2 * multipliers[j];
       rhs[a] = g - l2 * multipliers[j] * coef[j] - l1 * multipliers[j] * Math.sign(coef[j]);
     }
-    if (!choleskySolveInPlace(system, rhs, m)) return false;
+    let dual = problem.kind === "naive" && m > problem.n && l2 > 0;
+    for (let a = 0; dual && a < m; a++) if (!(multipliers[members[a]] > 0)) dual = false;
+    if (dual) {
+      if (!this.dualSolve(members, m, l2, rhs)) return false;
+    } else {
+      if (this.systemBuffer.length < m * m) this.systemBuffer = new Float64Array(Math.max(m * m, 2 * this.systemBuffer.length));
+      const system = this.systemBuffer;
+      if (problem.kind === "gram") {
+        const gram = problem.gram as Float64Array;
+        const p = problem.p;
+        for (let a = 0; a < m; a++) {
+          const off = members[a] * p;
+          for (let b = 0; b <= a; b++) system[a * m + b] = gram[off + members[b]];
+        }
+      } else {
+        const slots = this.productSlots(members, m);
+        const cache = this.productCache;
+        const stride = this.productCapacity;
+        for (let a = 0; a < m; a++) {
+          const row = slots[a] * stride;
+          for (let b = 0; b <= a; b++) system[a * m + b] = cache[row + slots[b]];
+        }
+      }
+      for (let a = 0; a < m; a++) system[a * m + a] += l2 * multipliers[members[a]];
+      if (!choleskySolveInPlace(system, rhs, m)) return false;
+    }
     const step = rhs;
     // Along b + tδ the objective is exactly the quadratic model until the first coefficient
     // reaches zero or a bound, so stepping to min(1, that t) always lowers the objective; the
@@ -356,6 +373,86 @@ export class CoordinateDescent {
       this.applyChange(j, delta);
     }
     this.newtonSteps++;
+    return true;
+  }
+
+  /**
+   * The Newton system (ZᵀZ + Λ) δ = r for more active predictors than rows (residual form,
+   * α < 1, positive multipliers), solved in the n × n row space by the Woodbury identity
+   * (Golub & Van Loan, Matrix Computations, §2.1.4):
+   *   δ = Λ⁻¹r − Λ⁻¹Zᵀ (I + ZΛ⁻¹Zᵀ)⁻¹ Z Λ⁻¹ r,   Z = Ω^½ X̃_A, Λ = λ(1−α) M_A.
+   * ZΛ⁻¹Zᵀ = (1/λ(1−α)) Σ_{j∈A} z_j z_jᵀ / m_j is kept as a running sum over the active set
+   * (a column joining or leaving costs O(n²)), so a step costs O(n³/6 + n·m) instead of the
+   * primal O(m³/6). The sum is rebuilt from scratch every DUAL_REBUILD updates so rounding
+   * cannot accumulate. Overwrites `rhs` with δ; false if the system is not positive definite.
+   */
+  private dualSolve(members: Int32Array, m: number, l2: number, rhs: Float64Array): boolean {
+    const problem = this.problem;
+    const n = problem.n;
+    const xs = (problem.xs as { data: Float64Array }).data;
+    const multipliers = this.penalty.multipliers;
+    if (!this.dualSum) {
+      this.dualSum = new Float64Array(n * n);
+      this.dualIn = new Uint8Array(problem.p);
+      this.rootOmega = new Float64Array(n);
+      const omega = problem.omega as Float64Array;
+      for (let i = 0; i < n; i++) this.rootOmega[i] = Math.sqrt(omega[i]);
+    }
+    const sum = this.dualSum;
+    const inSum = this.dualIn as Uint8Array;
+    const root = this.rootOmega as Float64Array;
+    const wanted = this.dualWanted;
+    wanted.fill(0);
+    for (let a = 0; a < m; a++) wanted[members[a]] = 1;
+    let changes = 0;
+    for (let j = 0; j < problem.p; j++) if (inSum[j] !== wanted[j]) changes++;
+    if (this.dualUpdates + changes > DUAL_REBUILD) {
+      sum.fill(0);
+      inSum.fill(0);
+      this.dualUpdates = 0;
+    }
+    const z = this.rowBuffer;
+    for (let j = 0; j < problem.p; j++) {
+      if (inSum[j] === wanted[j]) continue;
+      const sign = wanted[j] ? 1 : -1;
+      const off = j * n;
+      const scale = sign / multipliers[j];
+      for (let i = 0; i < n; i++) z[i] = root[i] * xs[off + i];
+      // Lower triangle only: row i, columns 0..i.
+      for (let i = 0; i < n; i++) {
+        const a = scale * z[i];
+        if (a === 0) continue;
+        const row = i * n;
+        for (let k = 0; k <= i; k++) sum[row + k] += a * z[k];
+      }
+      inSum[j] = wanted[j];
+      this.dualUpdates++;
+    }
+    if (this.systemBuffer.length < n * n) this.systemBuffer = new Float64Array(n * n);
+    const system = this.systemBuffer;
+    const inverseL2 = 1 / l2;
+    for (let i = 0; i < n; i++) {
+      const row = i * n;
+      for (let k = 0; k <= i; k++) system[row + k] = sum[row + k] * inverseL2;
+      system[row + i] += 1;
+    }
+    // u = Λ⁻¹ r (kept in rhs), v = Z u.
+    const v = this.dualVector;
+    v.fill(0);
+    for (let a = 0; a < m; a++) {
+      const j = members[a];
+      const u = rhs[a] / (l2 * multipliers[j]);
+      rhs[a] = u;
+      const off = j * n;
+      for (let i = 0; i < n; i++) v[i] += xs[off + i] * u;
+    }
+    for (let i = 0; i < n; i++) v[i] *= root[i];
+    if (!choleskySolveInPlace(system, v, n)) return false;
+    for (let i = 0; i < n; i++) v[i] *= root[i];
+    for (let a = 0; a < m; a++) {
+      const j = members[a];
+      rhs[a] -= dotRange(xs, j * n, v, 0, n) / (l2 * multipliers[j]);
+    }
     return true;
   }
 
@@ -541,7 +638,7 @@ export class CoordinateDescent {
           const change = this.sweep(active, activeCount, lambda);
           if (change <= limit) break;
           sinceNewton++;
-          if (!this.patternChanged && sinceNewton >= NEWTON_AFTER_SWEEPS && activeCount <= NEWTON_MAX_ACTIVE) {
+          if (!this.patternChanged && sinceNewton >= NEWTON_AFTER_SWEEPS && (activeCount <= NEWTON_MAX_ACTIVE || (this.problem.kind === "naive" && this.problem.n <= NEWTON_MAX_ACTIVE && mix < 1))) {
             // Linear convergence: the sweeps still needed are about log(limit/change)/log(rate).
             // Try the Newton step only when those sweeps would cost more than the solve.
             const rate = change / previousChange;
@@ -551,7 +648,9 @@ export class CoordinateDescent {
             // products (m²), factorizes (m³/6) and applies itself (one sweep's worth).
             const gramForm = this.problem.kind === "gram";
             const sweepCost = activeCount * (gramForm ? this.problem.p : 2 * this.problem.n);
-            const newtonCost = (activeCount * activeCount * activeCount) / 6 + activeCount * activeCount + sweepCost;
+            const n = this.problem.n;
+            const factorCost = !gramForm && activeCount > n && mix < 1 ? (n * n * n) / 6 + 2 * n * activeCount : (activeCount * activeCount * activeCount) / 6 + activeCount * activeCount;
+            const newtonCost = factorCost + sweepCost;
             if (remaining * sweepCost > NEWTON_PAYOFF * newtonCost) {
               sinceNewton = 0;
               this.newtonTries++;
