@@ -185,6 +185,8 @@ export interface FitResult {
 }
 
 export const DEFAULT_MIXES: readonly number[] = [0, 0.25, 0.5, 0.75, 1];
+/** Largest predictor count for gram (covariance) updates: p² doubles per fold. */
+export const MAX_GRAM_PREDICTORS = 2000;
 
 interface Prepared {
   x: ColumnMatrix;
@@ -251,6 +253,9 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
   const updates = options.updates ?? "auto";
   if (updates !== "auto" && updates !== "gram" && updates !== "residual") {
     throw new InputError("setting", `updates must be auto, gram or residual; got ${String(updates)}`);
+  }
+  if (updates === "gram" && p > MAX_GRAM_PREDICTORS) {
+    throw new InputError("setting", `gram updates keep a ${p} × ${p} matrix per fold; they are limited to ${MAX_GRAM_PREDICTORS} predictors: use residual updates`);
   }
   const gram = updates === "gram" || (updates === "auto" && n >= p && p <= 500);
   // Constant target: nothing to predict.

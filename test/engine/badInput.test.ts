@@ -193,6 +193,13 @@ describe("settings", () => {
   });
 });
 
+describe("resources", () => {
+  test("gram updates refuse a predictor count whose p × p matrices would not fit", () => {
+    const x = Array.from({ length: 3 }, (_, i) => Array.from({ length: 2001 }, (__, j) => Math.sin(i * 7 + j)));
+    expectInputError(() => fit(x, [1, 2, 3], { ...quick, updates: "gram", strength: 0.1 }), "setting", /limited to 2000 predictors: use residual updates/);
+  });
+});
+
 describe("never hangs", () => {
   test("a sweep cap of 1 reports non-convergence instead of looping", () => {
     const { x, y } = data();
