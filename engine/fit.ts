@@ -551,8 +551,27 @@ export async function fitAsync(
   for (;;) {
     const step = steps.next();
     if (step.done) return step.value;
-    await new Promise<void>((resolve) => setTimeout(resolve, 0));
+    await nextTask();
   }
+}
+
+/**
+ * Resolves in a fresh macrotask, so messages waiting in the queue (a cancel posted to a
+ * worker) are handled first. A MessageChannel round trip is used where available: browsers
+ * clamp nested setTimeout(0) to 4 ms, which would add ~4 ms per unit of work.
+ */
+function nextTask(): Promise<void> {
+  if (typeof MessageChannel !== "undefined") {
+    return new Promise<void>((resolve) => {
+      const channel = new MessageChannel();
+      channel.port1.onmessage = () => {
+        channel.port1.close();
+        resolve();
+      };
+      channel.port2.postMessage(null);
+    });
+  }
+  return new Promise<void>((resolve) => setTimeout(resolve, 0));
 }
 
 /** The fit as a generator: yields after each unit of work (progress already reported). */

@@ -1,0 +1,213 @@
+/* global require, module, __dirname, process */
+/* eslint-disable @typescript-eslint/no-require-imports -- a CommonJS config file, as webpack-cli loads it */
+/**
+ * Builds the add-in into dist/:
+ *
+ *   dist/
+ *     taskpane.html          the shared-runtime page (task pane + cell functions): loads
+ *                            office-js/office.js, then functions.js, then taskpane.js
+ *     functions.js           cell functions (functions/functions.ts) and the shared fit cache
+ *     taskpane.js            the side pane (taskpane/taskpane.ts); depends on functions.js, so
+ *                            both share one module instance (one fit cache)
+ *     fit.worker.js          the Web Worker running the engine (functions/fit.worker.ts)
+ *     functions.json         cell-function metadata generated from functions.ts's JSDoc, then
+ *                            post-processed (allowErrorForDataTypeAny, see below)
+ *     manifest.xml           the XML manifest (localhost URLs), copied from the project root
+ *     assets/                icons, copied from addin/assets
+ *     office-js/             office.js loader + Excel host files + locale strings, copied from
+ *                            @microsoft/office-js (served locally: these machines are offline)
+ *     *.map                  source maps (no eval: the add-in's page may run under a strict CSP)
+ *
+ * `npm run build:addin` = `webpack --config addin/webpack.config.js --mode production`.
+ * `webpack serve --config addin/webpack.config.js` serves https://localhost:3000 with the
+ * certificate in .certs/ (made by addin/start.js); `--server-type http` serves plain http (tests).
+ */
+const fs = require("fs");
+const path = require("path");
+const webpack = require("webpack");
+const HtmlWebpackPlugin = require("html-webpack-plugin");
+const CopyWebpackPlugin = require("copy-webpack-plugin");
+const CustomFunctionsMetadataPlugin = require("custom-functions-metadata-plugin");
+
+const ROOT = path.resolve(__dirname, "..");
+const DIST = path.join(ROOT, "dist");
+const OFFICE_DIST = path.join(ROOT, "node_modules", "@microsoft", "office-js", "dist");
+const FUNCTIONS_SOURCE = path.join(ROOT, "functions", "functions.ts");
+const CERTS = path.join(ROOT, ".certs");
+const PORT = 3000;
+
+/**
+ * Top-level switches added to functions.json after generation; the JSDoc generator has no tag
+ * for them. `allowErrorForDataTypeAny` is a top-level property (not per parameter: "All
+ * parameters with the type any or any[][] can accept errors as input values when
+ * allowErrorForDataTypeAny is set to true", custom functions JSON metadata reference). With it,
+ * an error cell inside a data range reaches the function as a value (the row is skipped, see
+ * functions/cells.ts) instead of Excel short-circuiting the whole call to that error.
+ */
+const METADATA_FLAGS = { allowErrorForDataTypeAny: true };
+
+/** Collapses runs of whitespace (the line breaks of wrapped JSDoc) into single spaces. */
+function oneLine(text) {
+  return typeof text === "string" ? text.replace(/\s+/g, " ").trim() : text;
+}
+
+/**
+ * Post-processes generated functions.json text: sets METADATA_FLAGS, and puts descriptions on
+ * one line (Excel shows them as tooltips while the user types). Returns the new text.
+ */
+function postProcessMetadata(text) {
+  const metadata = JSON.parse(text);
+  Object.assign(metadata, METADATA_FLAGS);
+  for (const fn of metadata.functions || []) {
+    if (fn.description !== undefined) fn.description = oneLine(fn.description);
+    for (const parameter of fn.parameters || []) {
+      if (parameter.description !== undefined) parameter.description = oneLine(parameter.description);
+    }
+  }
+  return JSON.stringify(metadata, null, 2);
+}
+
+/**
+ * Post-processes functions.json, and removes the metadata plugin's loader that appends
+ * unguarded `CustomFunctions.associate(...)` calls to functions.ts: functions.ts registers its
+ * functions itself, guarded for pages where the CustomFunctions global is missing.
+ */
+class FunctionsMetadataFinish {
+  apply(compiler) {
+    const name = "FunctionsMetadataFinish";
+    const pluginLoader = require.resolve("custom-functions-metadata-plugin/lib/loader.js");
+    compiler.hooks.compilation.tap(name, (compilation) => {
+      if (compilation.compiler.isChild()) return;
+      webpack.NormalModule.getCompilationHooks(compilation).beforeLoaders.tap(name, (loaders) => {
+        for (let i = loaders.length - 1; i >= 0; i--) if (loaders[i].loader === pluginLoader) loaders.splice(i, 1);
+      });
+      compilation.hooks.processAssets.tap({ name, stage: webpack.Compilation.PROCESS_ASSETS_STAGE_ADDITIONS }, () => {
+        const asset = compilation.getAsset("functions.json");
+        if (!asset) {
+          // The metadata plugin reports its own errors; without them a missing file is ours to report.
+          if (compilation.errors.length === 0) compilation.errors.push(new webpack.WebpackError("functions.json was not generated"));
+          return;
+        }
+        const text = postProcessMetadata(asset.source.source().toString());
+        compilation.updateAsset("functions.json", new webpack.sources.RawSource(text));
+      });
+    });
+  }
+}
+
+/** office.js and what it loads for Excel, already minified (Terser would take minutes on them). */
+function officeJsPatterns() {
+  const minimized = { minimized: true };
+  const files = [
+    "office.js",
+    "o15apptofilemappingtable.js",
+    "custom-functions-runtime.js",
+    "es6-promise.js",
+    "telemetry/oteljs_agave.js",
+    "excel-*.js",
+    "excelwebapp-*.js",
+    "excelios-*.js",
+    "*/office_strings.js",
+  ];
+  return files.map((from) => ({
+    from,
+    context: OFFICE_DIST,
+    to: "office-js/",
+    info: minimized,
+    globOptions: { ignore: ["**/*.debug.js"] },
+    noErrorOnMissing: from !== "office.js",
+  }));
+}
+
+/**
+ * https with the certificate from .certs/ when present, else webpack-dev-server's own
+ * self-signed one; plain http when SHRINKWISE_HTTP=1 (set by `npm start -- --http`). The
+ * command line's `--server-type http` overrides this either way.
+ */
+function serverOption() {
+  if (process.env.SHRINKWISE_HTTP === "1") return "http";
+  const key = path.join(CERTS, "localhost.key");
+  const cert = path.join(CERTS, "localhost.crt");
+  if (fs.existsSync(key) && fs.existsSync(cert)) {
+    return { type: "https", options: { key: fs.readFileSync(key), cert: fs.readFileSync(cert) } };
+  }
+  return "https";
+}
+
+module.exports = (_env = {}, argv = {}) => {
+  const production = (argv.mode || process.env.NODE_ENV) === "production";
+  return {
+    mode: production ? "production" : "development",
+    context: ROOT,
+    target: "web",
+    entry: {
+      functions: "./functions/functions.ts",
+      // dependOn: the pane's bundle reuses the functions bundle's modules on the same page, so
+      // the task pane and the cell functions share one fit cache.
+      taskpane: { import: "./taskpane/taskpane.ts", dependOn: "functions" },
+      "fit.worker": "./functions/fit.worker.ts",
+    },
+    output: {
+      path: DIST,
+      filename: "[name].js",
+      clean: true,
+    },
+    resolve: { extensions: [".ts", ".js"] },
+    module: {
+      rules: [
+        {
+          test: /\.ts$/,
+          exclude: /node_modules/,
+          use: {
+            loader: "ts-loader",
+            options: { configFile: path.join(__dirname, "tsconfig.webpack.json"), transpileOnly: true },
+          },
+        },
+      ],
+    },
+    // No eval-based source maps: they need 'unsafe-eval' under a content security policy.
+    devtool: "source-map",
+    performance: {
+      hints: production ? "warning" : false,
+      // Only our own bundles count; the copied Office files are large by nature.
+      assetFilter: (file) => /\.js$/.test(file) && !file.startsWith("office-js/"),
+      maxAssetSize: 600 * 1024,
+      maxEntrypointSize: 800 * 1024,
+    },
+    plugins: [
+      new CustomFunctionsMetadataPlugin({ input: FUNCTIONS_SOURCE, output: "functions.json" }),
+      new FunctionsMetadataFinish(),
+      new HtmlWebpackPlugin({
+        filename: "taskpane.html",
+        template: "./taskpane/taskpane.html",
+        chunks: ["functions", "taskpane"],
+        chunksSortMode: "manual",
+      }),
+      new CopyWebpackPlugin({
+        patterns: [
+          ...officeJsPatterns(),
+          { from: "manifest.xml", to: "manifest.xml", noErrorOnMissing: true },
+          {
+            from: "addin/assets",
+            to: "assets/",
+            globOptions: { ignore: ["**/*.ts", "**/*.js", "**/*.md"] },
+            noErrorOnMissing: true,
+          },
+        ],
+      }),
+    ],
+    devServer: {
+      host: "localhost",
+      port: PORT,
+      server: serverOption(),
+      headers: { "Access-Control-Allow-Origin": "*" },
+      static: false,
+      hot: false,
+      liveReload: true,
+      client: { overlay: { warnings: false, errors: true } },
+    },
+  };
+};
+
+module.exports.postProcessMetadata = postProcessMetadata;
+module.exports.METADATA_FLAGS = METADATA_FLAGS;

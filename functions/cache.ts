@@ -1,0 +1,489 @@
+/**
+ * The shared fit cache: a FitRunner that sits in front of another FitRunner (the Web Worker
+ * in the add-in) so that COEFS, CHOICE, PREDICT, PATH and CVCURVE over the same ranges and
+ * settings compute once, and so that recalculations Excel triggers without a real change
+ * (row inserts, reloads) cost nothing.
+ *
+ * Key. A request is reduced to a fingerprint: the options as canonical text (object keys
+ * sorted, numbers written with `String`, which round-trips every double exactly, plus
+ * explicit forms for -0, NaN and ±Infinity) and the numbers of the data (shape, target,
+ * predictors row by row) packed into one Float64Array. The lookup key is a 32-bit FNV-1a
+ * hash over the option text and the data's bytes (so numbers are hashed by their exact bit
+ * patterns). A 32-bit hash can collide, so the hash only picks a bucket: a hit is confirmed
+ * by comparing the stored fingerprint bit for bit. A collision therefore costs one extra
+ * comparison, never a wrong answer.
+ *
+ * Sharing. A finished entry answers at once (a hit). A call that finds the same request in
+ * flight joins it (also a hit): one engine run, any number of waiters, each receiving progress.
+ * Every caller receives the same result object: treat it as read-only.
+ *
+ * Cancellation (reference-counted waiters). When one waiter's token fires, that waiter alone
+ * rejects with CancelledError and leaves. When the last waiter leaves a run still in flight,
+ * the run itself is cancelled (its token fires) and the entry is dropped, so a later identical
+ * call starts afresh instead of joining a run that is being torn down. This is how a call that
+ * Excel supersedes (the user edited an input) stops its fit.
+ *
+ * Bounds. Least recently used entries are evicted once the cached bytes exceed `maxBytes`
+ * (default 64 MiB) or the entry count exceeds `maxEntries` (default 200). An entry's size is
+ * its fingerprint plus an estimate of its result object (see `approximateBytes`). Runs in
+ * flight are never evicted; an answer larger than `maxBytes` on its own is returned to its
+ * waiters but not kept.
+ *
+ * Failures. An InputError is a deterministic answer to its request, so it is shared with the
+ * burst of sibling formulas that ask the same thing (like a result) but kept only briefly
+ * (`failureTtlMs`, default 30 s): a user who sees the message edits the inputs, and nothing is
+ * gained by holding the error longer. Any other failure (a crashed worker, a cancelled run,
+ * a programming error) is never cached: the next call runs again.
+ */
+import { CancelledError, InputError } from "../engine/errors";
+import type { FitResult } from "../engine/fit";
+import { cancelSource, CancelToken, FitProgress, FitRequest, FitRunner } from "./runner";
+
+/** Default byte budget for finished entries: 64 MiB. */
+export const DEFAULT_MAX_BYTES = 64 * 1024 * 1024;
+/** Default cap on the number of finished entries. */
+export const DEFAULT_MAX_ENTRIES = 200;
+/** Default time an InputError stays cached, in milliseconds. */
+export const DEFAULT_FAILURE_TTL_MS = 30_000;
+
+export interface FitCacheOptions {
+  /** Byte budget for finished entries (approximate). Default 64 MiB. */
+  maxBytes?: number;
+  /** Most finished entries kept. Default 200. */
+  maxEntries?: number;
+  /** How long an InputError answer is kept, in ms. 0 = never cached. Default 30 000. */
+  failureTtlMs?: number;
+  /** Clock in ms (tests). Default Date.now. */
+  now?: () => number;
+}
+
+export interface FitCacheStats {
+  /** Calls answered without starting a run: from a finished entry or by joining one in flight. */
+  hits: number;
+  /** Of the hits, how many joined a run in flight. */
+  joins: number;
+  /** Calls that started a run. */
+  misses: number;
+  /** Runs started on the underlying runner. */
+  runs: number;
+  /** Runs cancelled because every waiter left. */
+  cancelledRuns: number;
+  /** Finished entries dropped to stay within the bounds. */
+  evictions: number;
+  /** Finished entries held now (results and brief errors). */
+  entries: number;
+  /** Runs in flight now. */
+  inFlight: number;
+  /** Approximate bytes held by finished entries. */
+  bytes: number;
+  maxBytes: number;
+  maxEntries: number;
+}
+
+/** What a request is compared by: canonical option text and the data's numbers. */
+interface Fingerprint {
+  options: string;
+  data: Float64Array;
+}
+
+interface Waiter {
+  resolve: (result: FitResult) => void;
+  reject: (error: unknown) => void;
+  onProgress?: (progress: FitProgress) => void;
+  settled: boolean;
+}
+
+interface Entry {
+  hash: number;
+  fingerprint: Fingerprint;
+  state: "running" | "done" | "failed";
+  result?: FitResult;
+  error?: InputError;
+  /** Failed entries only: when the cached error stops being served. */
+  expires?: number;
+  bytes: number;
+  waiters: Set<Waiter>;
+  lastProgress?: FitProgress;
+  cancelRun: () => void;
+  /** Set when the entry left the cache (evicted, cancelled, cleared): its outcome is ignored. */
+  dropped: boolean;
+}
+
+export class FitCache implements FitRunner {
+  readonly maxBytes: number;
+  readonly maxEntries: number;
+  readonly failureTtlMs: number;
+  private readonly now: () => number;
+  /** Hash → entries with that hash (more than one only on a collision). */
+  private readonly buckets = new Map<number, Entry[]>();
+  /** Finished entries in least-recently-used-first order (Map keeps insertion order). */
+  private readonly lru = new Map<Entry, true>();
+  private bytes = 0;
+  private counters = { hits: 0, joins: 0, misses: 0, runs: 0, cancelledRuns: 0, evictions: 0 };
+  private running = 0;
+
+  constructor(
+    private readonly inner: FitRunner,
+    options: FitCacheOptions = {},
+  ) {
+    this.maxBytes = options.maxBytes ?? DEFAULT_MAX_BYTES;
+    this.maxEntries = options.maxEntries ?? DEFAULT_MAX_ENTRIES;
+    this.failureTtlMs = options.failureTtlMs ?? DEFAULT_FAILURE_TTL_MS;
+    this.now = options.now ?? Date.now;
+  }
+
+  fit(request: FitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
+    if (cancel?.cancelled) return Promise.reject(new CancelledError());
+    const fingerprint = fingerprintOf(request);
+    const hash = hashFingerprint(fingerprint);
+    let entry = this.find(hash, fingerprint);
+    if (entry && entry.state === "failed" && entry.expires !== undefined && entry.expires <= this.now()) {
+      this.drop(entry);
+      entry = undefined;
+    }
+    if (entry && entry.state === "done") {
+      this.counters.hits++;
+      this.touch(entry);
+      return Promise.resolve(entry.result as FitResult);
+    }
+    if (entry && entry.state === "failed") {
+      this.counters.hits++;
+      this.touch(entry);
+      return Promise.reject(entry.error);
+    }
+    if (entry) {
+      this.counters.hits++;
+      this.counters.joins++;
+    } else {
+      this.counters.misses++;
+      entry = this.start(request, hash, fingerprint);
+    }
+    return this.wait(entry, cancel, onProgress);
+  }
+
+  /** Counters and current occupancy. */
+  stats(): FitCacheStats {
+    return {
+      ...this.counters,
+      entries: this.lru.size,
+      inFlight: this.running,
+      bytes: this.bytes,
+      maxBytes: this.maxBytes,
+      maxEntries: this.maxEntries,
+    };
+  }
+
+  /** Zeroes the counters (occupancy is unchanged). */
+  resetStats(): void {
+    this.counters = { hits: 0, joins: 0, misses: 0, runs: 0, cancelledRuns: 0, evictions: 0 };
+  }
+
+  /** Forgets every finished entry. Runs in flight carry on for their waiters but are not kept. */
+  clear(): void {
+    for (const entries of this.buckets.values()) {
+      for (const entry of entries) entry.dropped = true;
+    }
+    this.buckets.clear();
+    this.lru.clear();
+    this.bytes = 0;
+  }
+
+  /** True when a finished answer for this request is held (does not count as a hit). */
+  has(request: FitRequest): boolean {
+    const fingerprint = fingerprintOf(request);
+    const entry = this.find(hashFingerprint(fingerprint), fingerprint);
+    if (!entry || entry.state === "running") return false;
+    return entry.state === "done" || entry.expires === undefined || entry.expires > this.now();
+  }
+
+  private find(hash: number, fingerprint: Fingerprint): Entry | undefined {
+    const entries = this.buckets.get(hash);
+    if (!entries) return undefined;
+    return entries.find((entry) => sameFingerprint(entry.fingerprint, fingerprint));
+  }
+
+  private start(request: FitRequest, hash: number, fingerprint: Fingerprint): Entry {
+    const source = cancelSource();
+    const entry: Entry = {
+      hash,
+      fingerprint,
+      state: "running",
+      bytes: 0,
+      waiters: new Set(),
+      cancelRun: source.cancel,
+      dropped: false,
+    };
+    const bucket = this.buckets.get(hash);
+    if (bucket) bucket.push(entry);
+    else this.buckets.set(hash, [entry]);
+    this.running++;
+    this.counters.runs++;
+    let run: Promise<FitResult>;
+    try {
+      run = this.inner.fit(request, source.token, (progress) => {
+        entry.lastProgress = progress;
+        for (const waiter of entry.waiters) waiter.onProgress?.(progress);
+      });
+    } catch (error) {
+      run = Promise.reject(error);
+    }
+    run.then(
+      (result) => this.finish(entry, { ok: true, result }),
+      (error: unknown) => this.finish(entry, { ok: false, error }),
+    );
+    return entry;
+  }
+
+  private wait(entry: Entry, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
+    return new Promise<FitResult>((resolve, reject) => {
+      const waiter: Waiter = { resolve, reject, onProgress, settled: false };
+      entry.waiters.add(waiter);
+      if (entry.lastProgress && onProgress) onProgress(entry.lastProgress);
+      cancel?.onCancel(() => {
+        if (waiter.settled) return;
+        waiter.settled = true;
+        entry.waiters.delete(waiter);
+        reject(new CancelledError());
+        if (entry.waiters.size === 0 && entry.state === "running") {
+          // The last waiter left: stop the run and forget it.
+          this.counters.cancelledRuns++;
+          this.drop(entry);
+          entry.cancelRun();
+        }
+      });
+    });
+  }
+
+  private finish(entry: Entry, outcome: { ok: true; result: FitResult } | { ok: false; error: unknown }): void {
+    this.running--;
+    const waiters = [...entry.waiters];
+    entry.waiters.clear();
+    entry.lastProgress = undefined;
+    for (const waiter of waiters) {
+      waiter.settled = true;
+      if (outcome.ok) waiter.resolve(outcome.result);
+      else waiter.reject(outcome.error);
+    }
+    if (entry.dropped) return;
+    if (outcome.ok) {
+      entry.state = "done";
+      entry.result = outcome.result;
+      entry.bytes = fingerprintBytes(entry.fingerprint) + approximateBytes(outcome.result);
+      this.keep(entry);
+    } else if (outcome.error instanceof InputError && this.failureTtlMs > 0) {
+      const error = outcome.error;
+      entry.state = "failed";
+      entry.error = error;
+      entry.expires = this.now() + this.failureTtlMs;
+      entry.bytes = fingerprintBytes(entry.fingerprint) + approximateBytes(error.message) + 64;
+      this.keep(entry);
+    } else {
+      this.drop(entry);
+    }
+  }
+
+  /** Adds a finished entry to the LRU order and trims to the bounds. */
+  private keep(entry: Entry): void {
+    if (entry.bytes > this.maxBytes) {
+      this.drop(entry);
+      return;
+    }
+    this.lru.set(entry, true);
+    this.bytes += entry.bytes;
+    this.trim();
+  }
+
+  private trim(): void {
+    for (const oldest of this.lru.keys()) {
+      if (this.bytes <= this.maxBytes && this.lru.size <= this.maxEntries) break;
+      this.counters.evictions++;
+      this.drop(oldest);
+    }
+  }
+
+  private touch(entry: Entry): void {
+    this.lru.delete(entry);
+    this.lru.set(entry, true);
+  }
+
+  private drop(entry: Entry): void {
+    if (entry.dropped) return;
+    entry.dropped = true;
+    if (this.lru.delete(entry)) this.bytes -= entry.bytes;
+    const bucket = this.buckets.get(entry.hash);
+    if (!bucket) return;
+    const at = bucket.indexOf(entry);
+    if (at >= 0) bucket.splice(at, 1);
+    if (bucket.length === 0) this.buckets.delete(entry.hash);
+  }
+}
+
+/** A cache in front of `inner` with the given bounds. */
+export function fitCache(inner: FitRunner, options?: FitCacheOptions): FitCache {
+  return new FitCache(inner, options);
+}
+
+// ---------------------------------------------------------------------------------------------
+// Fingerprints and hashing
+
+/** Packs a request's numbers as [rows, columns, target…, predictors row by row…]. */
+function fingerprintOf(request: FitRequest): Fingerprint {
+  const rows = request.predictors.length;
+  const columns = rows > 0 ? request.predictors[0].length : 0;
+  const target = request.target;
+  // Ragged rows are possible in principle (the engine rejects them); record each row's length
+  // so that two different ragged inputs cannot pack to the same numbers.
+  let ragged = false;
+  for (let i = 0; i < rows; i++) {
+    if (request.predictors[i].length !== columns) {
+      ragged = true;
+      break;
+    }
+  }
+  const extra = ragged ? rows : 0;
+  let cells = 0;
+  for (let i = 0; i < rows; i++) cells += request.predictors[i].length;
+  const data = new Float64Array(3 + extra + target.length + cells);
+  let at = 0;
+  data[at++] = rows;
+  data[at++] = ragged ? -1 : columns;
+  data[at++] = target.length;
+  if (ragged) for (let i = 0; i < rows; i++) data[at++] = request.predictors[i].length;
+  for (let i = 0; i < target.length; i++) data[at++] = target[i];
+  for (let i = 0; i < rows; i++) {
+    const row = request.predictors[i];
+    for (let j = 0; j < row.length; j++) data[at++] = row[j];
+  }
+  return { options: canonicalText(request.options), data };
+}
+
+function sameFingerprint(a: Fingerprint, b: Fingerprint): boolean {
+  if (a.options !== b.options || a.data.length !== b.data.length) return false;
+  // Compare bit patterns, not values: -0 and 0 differ, NaN equals itself.
+  const x = new Uint32Array(a.data.buffer, a.data.byteOffset, a.data.length * 2);
+  const y = new Uint32Array(b.data.buffer, b.data.byteOffset, b.data.length * 2);
+  for (let i = 0; i < x.length; i++) if (x[i] !== y[i]) return false;
+  return true;
+}
+
+function fingerprintBytes(fingerprint: Fingerprint): number {
+  return fingerprint.data.byteLength + 2 * fingerprint.options.length + 64;
+}
+
+const FNV_OFFSET = 0x811c9dc5;
+const FNV_PRIME = 0x01000193;
+
+/** 32-bit FNV-1a over the option text's UTF-16 code units (two bytes each), then the data's bytes. */
+function hashFingerprint(fingerprint: Fingerprint): number {
+  let h = FNV_OFFSET;
+  const text = fingerprint.options;
+  for (let i = 0; i < text.length; i++) {
+    const unit = text.charCodeAt(i);
+    h = Math.imul(h ^ (unit & 0xff), FNV_PRIME);
+    h = Math.imul(h ^ (unit >>> 8), FNV_PRIME);
+  }
+  const bytes = new Uint8Array(fingerprint.data.buffer, fingerprint.data.byteOffset, fingerprint.data.byteLength);
+  for (let i = 0; i < bytes.length; i++) h = Math.imul(h ^ bytes[i], FNV_PRIME);
+  return h >>> 0;
+}
+
+/** The request's 32-bit content hash, for diagnostics and tests. */
+export function requestHash(request: FitRequest): number {
+  return hashFingerprint(fingerprintOf(request));
+}
+
+/**
+ * Canonical text of plain data: object keys sorted, `undefined` members left out (as JSON
+ * does), arrays and typed arrays alike as lists, numbers exact (`String` gives the shortest
+ * text that reads back as the same double), -0/NaN/±Infinity spelled out, strings quoted.
+ */
+export function canonicalText(value: unknown): string {
+  const out: string[] = [];
+  write(value, out);
+  return out.join("");
+}
+
+function write(value: unknown, out: string[]): void {
+  if (value === null || value === undefined) {
+    out.push("null");
+  } else if (typeof value === "number") {
+    out.push(numberText(value));
+  } else if (typeof value === "string") {
+    out.push(JSON.stringify(value));
+  } else if (typeof value === "boolean") {
+    out.push(value ? "true" : "false");
+  } else if (Array.isArray(value) || ArrayBuffer.isView(value)) {
+    const list = value as ArrayLike<unknown>;
+    out.push("[");
+    for (let i = 0; i < list.length; i++) {
+      if (i > 0) out.push(",");
+      write(list[i], out);
+    }
+    out.push("]");
+  } else if (typeof value === "object") {
+    const record = value as Record<string, unknown>;
+    const keys = Object.keys(record)
+      .filter((key) => record[key] !== undefined)
+      .sort();
+    out.push("{");
+    keys.forEach((key, i) => {
+      if (i > 0) out.push(",");
+      out.push(JSON.stringify(key), ":");
+      write(record[key], out);
+    });
+    out.push("}");
+  } else {
+    // Functions, symbols and bigints have no place in a request.
+    throw new TypeError(`a fit request cannot hold a ${typeof value}`);
+  }
+}
+
+function numberText(x: number): string {
+  if (Object.is(x, -0)) return "-0";
+  return String(x); // "NaN", "Infinity", "-Infinity" included
+}
+
+// ---------------------------------------------------------------------------------------------
+// Size estimate
+
+/**
+ * Approximate heap bytes of plain data, in the spirit of common engine layouts: 8 per number,
+ * 2 per string character plus a header, a header plus 8 per slot for arrays and objects, the
+ * byte length for typed arrays. It is an estimate for the cache budget, not an accounting.
+ */
+export function approximateBytes(value: unknown): number {
+  let total = 0;
+  const seen = new Set<object>();
+  const stack: unknown[] = [value];
+  while (stack.length > 0) {
+    const item = stack.pop();
+    if (item === null || item === undefined) {
+      total += 8;
+    } else if (typeof item === "number") {
+      total += 8;
+    } else if (typeof item === "boolean") {
+      total += 4;
+    } else if (typeof item === "string") {
+      total += 16 + 2 * item.length;
+    } else if (typeof item === "object") {
+      if (seen.has(item)) continue;
+      seen.add(item);
+      if (ArrayBuffer.isView(item)) {
+        total += 64 + item.byteLength;
+      } else if (Array.isArray(item)) {
+        total += 16 + 8 * item.length;
+        for (const element of item) {
+          // Numbers in arrays are counted by the slot above.
+          if (typeof element !== "number") stack.push(element);
+        }
+      } else {
+        const values = Object.values(item as Record<string, unknown>);
+        total += 32 + 16 * values.length;
+        for (const member of values) if (typeof member !== "number") stack.push(member);
+      }
+    } else {
+      total += 8;
+    }
+  }
+  return total;
+}

@@ -1,0 +1,112 @@
+/**
+ * The fit worker: runs the engine off the add-in's UI thread.
+ *
+ * Protocol (all messages are plain data; ids are chosen by the main side):
+ *   in:  { type: "fit", id, request }        start a fit of `request` (a FitRequest)
+ *        { type: "cancel", id }              raise that fit's signal; it stops at the next
+ *                                            checkpoint and answers with a "cancelled" error
+ *   out: { type: "progress", id, done, total }  after each unit of work
+ *        { type: "result", id, result }          the engine's FitResult, structured-cloned
+ *        { type: "error", id, error }            a PlainError (see below)
+ * Every fit gets exactly one "result" or "error". Several fits may run at once: fitAsync
+ * yields a macrotask between units of work, so they interleave and cancel messages get through.
+ *
+ * The handler (`createFitHandler`) is plain code with no worker globals, so tests drive it
+ * directly; the bootstrap at the bottom wires it to the worker's own message port.
+ */
+import { fitAsync, FitOptions, FitResult } from "../engine/fit";
+import { CancelledError, InputError, InputErrorCode } from "../engine/errors";
+import type { FitRequest } from "./runner";
+
+/** An error as it crosses the worker boundary. */
+export interface PlainError {
+  kind: "input" | "cancelled" | "other";
+  /** InputError's code, for kind "input". */
+  code?: InputErrorCode;
+  name: string;
+  message: string;
+}
+
+export type ToWorker = { type: "fit"; id: number; request: FitRequest } | { type: "cancel"; id: number };
+
+export type FromWorker =
+  | { type: "progress"; id: number; done: number; total: number }
+  | { type: "result"; id: number; result: FitResult }
+  | { type: "error"; id: number; error: PlainError };
+
+export type FitFunction = (
+  predictors: FitRequest["predictors"],
+  target: FitRequest["target"],
+  options: FitOptions,
+) => Promise<FitResult>;
+
+/** Turns any thrown value into plain data that survives structured cloning. */
+export function toPlainError(error: unknown): PlainError {
+  if (error instanceof InputError) return { kind: "input", code: error.code, name: error.name, message: error.message };
+  if (error instanceof CancelledError) return { kind: "cancelled", name: error.name, message: error.message };
+  if (error instanceof Error) return { kind: "other", name: error.name, message: error.message };
+  return { kind: "other", name: "Error", message: String(error) };
+}
+
+/** Rebuilds the engine's error classes from plain data (the main side of the boundary). */
+export function fromPlainError(plain: PlainError): Error {
+  if (plain.kind === "input") return new InputError(plain.code ?? "setting", plain.message);
+  if (plain.kind === "cancelled") return new CancelledError();
+  const error = new Error(plain.message);
+  error.name = plain.name;
+  return error;
+}
+
+/**
+ * The worker's message handler. `post` sends a message back; `fitImpl` is the engine's
+ * fitAsync (replaceable in tests).
+ */
+export function createFitHandler(post: (message: FromWorker) => void, fitImpl: FitFunction = fitAsync): (message: ToWorker) => void {
+  const signals = new Map<number, { aborted: boolean }>();
+  return (message: ToWorker) => {
+    if (message.type === "cancel") {
+      const signal = signals.get(message.id);
+      if (signal) signal.aborted = true;
+      return;
+    }
+    if (message.type !== "fit") return;
+    const { id, request } = message;
+    const signal = { aborted: false };
+    signals.set(id, signal);
+    const options: FitOptions = {
+      ...request.options,
+      signal,
+      onProgress: (done, total) => post({ type: "progress", id, done, total }),
+    };
+    let run: Promise<FitResult>;
+    try {
+      run = fitImpl(request.predictors, request.target, options);
+    } catch (error) {
+      run = Promise.reject(error);
+    }
+    run.then(
+      (result) => {
+        signals.delete(id);
+        post({ type: "result", id, result });
+      },
+      (error: unknown) => {
+        signals.delete(id);
+        post({ type: "error", id, error: toPlainError(error) });
+      },
+    );
+  };
+}
+
+// ---------------------------------------------------------------------------------------------
+// Bootstrap: only inside a dedicated worker (WorkerGlobalScope exists there and nowhere else).
+
+interface WorkerScope {
+  postMessage(message: unknown): void;
+  onmessage: ((event: { data: ToWorker }) => void) | null;
+}
+
+const scope = globalThis as unknown as WorkerScope & { WorkerGlobalScope?: new () => unknown };
+if (typeof scope.WorkerGlobalScope === "function" && scope instanceof scope.WorkerGlobalScope) {
+  const handle = createFitHandler((message) => scope.postMessage(message));
+  scope.onmessage = (event) => handle(event.data);
+}

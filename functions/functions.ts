@@ -1,0 +1,272 @@
+/* eslint-disable @typescript-eslint/no-explicit-any -- Excel's metadata generator reads these
+   TypeScript types: `any[][]` is "a range of cells of any kind", `any` "one value of any kind". */
+/**
+ * The SHRINK cell functions as Excel registers them. Each body is a thin adapter: it turns
+ * Excel's cancel notice into a CancelToken, calls the matching function in api.ts with the one
+ * shared runner, and turns anything thrown into a cell error (errors.ts). The JSDoc here is what
+ * Excel shows while the user types (functions.json is generated from it at build time).
+ *
+ * Parameter types: data ranges, mixes and settings are `any[][]` (dimensionality "matrix"), so
+ * a single cell, a number, a text or a whole range all arrive as rows of cells, and Excel does
+ * not call the function once per cell of a range given where one value was expected. PATH's
+ * `mix` is one value (`any`, scalar). With `allowErrorForDataTypeAny` (set in functions.json by
+ * the build) error cells inside ranges arrive as values, so one bad row is skipped instead of
+ * the whole call failing. Omitted optional arguments arrive as null.
+ *
+ * The shared runner: one fit cache (cache.ts) in front of a Web Worker (workerRunner.ts), or in
+ * front of the in-process engine where `Worker` is missing. The task pane gets the same cache
+ * through `sharedRunner()`.
+ */
+import * as api from "./api";
+import { FitCache } from "./cache";
+import { toCellError } from "./errors";
+import { InProcessRunner } from "./inProcessRunner";
+import { cancelSource, CancelToken, FitRunner } from "./runner";
+import { browserWorkerFactory, workersAvailable, WorkerRunner } from "./workerRunner";
+
+/**
+ * Fits a penalized regression (ridge, lasso or a mix of the two), picks the penalty strength
+ * by cross-validation, and returns each term with its coefficient, the intercept first.
+ * @customfunction COEFS
+ * @param target The column to predict, one value per row. A header cell on top is fine; rows with a blank or error are skipped.
+ * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one. Text columns become one 0/1 column per level.
+ * @param [mixes] The mixes to try: 0 is ridge, 1 is lasso, between is elastic net. A number, a range of numbers or text like "0, 0.5, 1". Leave out to try 0, 0.25, 0.5, 0.75 and 1.
+ * @param [settings] Optional settings as text, like "folds=5; seed=7; rule=one-se", or a two-column range of setting names and values.
+ * @param invocation Supplied by Excel.
+ * @returns A table of term and coefficient.
+ */
+export async function coefs(
+  target: any[][],
+  predictors: any[][],
+  mixes: any[][],
+  settings: any[][],
+  invocation: CustomFunctions.CancelableInvocation,
+): Promise<any[][]> {
+  try {
+    return await api.coefs(sharedRunner(), target, predictors, mixes, settings, cancelOn(invocation));
+  } catch (e) {
+    throw toCellError(e);
+  }
+}
+
+/**
+ * Shows how the model was chosen: the strength and mix picked, their cross-validated error and
+ * its standard error, the rule, the folds, and the rows used and skipped.
+ * @customfunction CHOICE
+ * @param target The column to predict, one value per row. A header cell on top is fine; rows with a blank or error are skipped.
+ * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one.
+ * @param [mixes] The mixes to try: 0 is ridge, 1 is lasso, between is elastic net. A number, a range of numbers or text like "0, 0.5, 1". Leave out for 0, 0.25, 0.5, 0.75 and 1.
+ * @param [settings] Optional settings as text, like "folds=5; seed=7", or a two-column range of setting names and values.
+ * @param invocation Supplied by Excel.
+ * @returns A table of label and value.
+ */
+export async function choice(
+  target: any[][],
+  predictors: any[][],
+  mixes: any[][],
+  settings: any[][],
+  invocation: CustomFunctions.CancelableInvocation,
+): Promise<any[][]> {
+  try {
+    return await api.choice(sharedRunner(), target, predictors, mixes, settings, cancelOn(invocation));
+  } catch (e) {
+    throw toCellError(e);
+  }
+}
+
+/**
+ * Fits the same model as SHRINK.COEFS and predicts the target for each row of new_rows.
+ * @customfunction PREDICT
+ * @param target The column to predict, one value per row. A header cell on top is fine; rows with a blank or error are skipped.
+ * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one.
+ * @param new_rows The rows to predict: the same columns as predictors, in the same order, or with a header row naming them.
+ * @param [mixes] The mixes to try: 0 is ridge, 1 is lasso, between is elastic net. Leave out for 0, 0.25, 0.5, 0.75 and 1.
+ * @param [settings] Optional settings as text, like "folds=5; seed=7", or a two-column range of setting names and values.
+ * @param invocation Supplied by Excel.
+ * @returns One prediction per row of new_rows.
+ */
+export async function predict(
+  target: any[][],
+  predictors: any[][],
+  new_rows: any[][],
+  mixes: any[][],
+  settings: any[][],
+  invocation: CustomFunctions.CancelableInvocation,
+): Promise<any[][]> {
+  try {
+    return await api.predict(sharedRunner(), target, predictors, new_rows, mixes, settings, cancelOn(invocation));
+  } catch (e) {
+    throw toCellError(e);
+  }
+}
+
+/**
+ * Predicts from a coefficient table (the output of SHRINK.COEFS or SHRINK.BASELINE, or typed
+ * in) without fitting again.
+ * @customfunction APPLY
+ * @param coefficient_table Two columns, term and coefficient, with (intercept) as one of the terms.
+ * @param new_rows The rows to predict, with a header row naming the terms' columns (or the columns in the table's order).
+ * @returns One prediction per row of new_rows.
+ */
+export async function apply(coefficient_table: any[][], new_rows: any[][]): Promise<any[][]> {
+  try {
+    return await api.apply(coefficient_table, new_rows);
+  } catch (e) {
+    throw toCellError(e);
+  }
+}
+
+/**
+ * Lists the coefficients at every penalty strength for one mix, from the strongest penalty
+ * (everything zero) down to the weakest: one row per strength.
+ * @customfunction PATH
+ * @param target The column to predict, one value per row. A header cell on top is fine; rows with a blank or error are skipped.
+ * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one.
+ * @param [mix] One mix: 0 is ridge, 1 is lasso, between is elastic net. Leave out for the mix that cross-validation picks.
+ * @param [settings] Optional settings as text, like "folds=5; seed=7", or a two-column range of setting names and values.
+ * @param invocation Supplied by Excel.
+ * @returns A table: strength, number of nonzero terms, intercept, then one column per term.
+ */
+export async function path(
+  target: any[][],
+  predictors: any[][],
+  mix: any,
+  settings: any[][],
+  invocation: CustomFunctions.CancelableInvocation,
+): Promise<any[][]> {
+  try {
+    return await api.path(sharedRunner(), target, predictors, mix, settings, cancelOn(invocation));
+  } catch (e) {
+    throw toCellError(e);
+  }
+}
+
+/**
+ * Lists the cross-validated error, its standard error and the number of nonzero terms for every
+ * mix and strength tried: the data behind the choice.
+ * @customfunction CVCURVE
+ * @param target The column to predict, one value per row. A header cell on top is fine; rows with a blank or error are skipped.
+ * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one.
+ * @param [mixes] The mixes to try: 0 is ridge, 1 is lasso, between is elastic net. Leave out for 0, 0.25, 0.5, 0.75 and 1.
+ * @param [settings] Optional settings as text, like "folds=5; seed=7", or a two-column range of setting names and values.
+ * @param invocation Supplied by Excel.
+ * @returns A table: mix, strength, CV error, standard error, nonzero terms.
+ */
+export async function cvcurve(
+  target: any[][],
+  predictors: any[][],
+  mixes: any[][],
+  settings: any[][],
+  invocation: CustomFunctions.CancelableInvocation,
+): Promise<any[][]> {
+  try {
+    return await api.cvcurve(sharedRunner(), target, predictors, mixes, settings, cancelOn(invocation));
+  } catch (e) {
+    throw toCellError(e);
+  }
+}
+
+/**
+ * Measures how close predictions are to actual values: mean absolute error, root mean squared
+ * error, R², mean error and the count of pairs used.
+ * @customfunction SCORE
+ * @param actual The actual values, one column. Pairs with a blank or error cell are skipped.
+ * @param predicted The predicted values, one column the same length as actual.
+ * @returns A table of label and value.
+ */
+export async function score(actual: any[][], predicted: any[][]): Promise<any[][]> {
+  try {
+    return await api.score(actual, predicted);
+  } catch (e) {
+    throw toCellError(e);
+  }
+}
+
+/**
+ * Fits ordinary least squares (no penalty) with standard errors, to compare with the penalized
+ * model and see how much it shrinks.
+ * @customfunction BASELINE
+ * @param target The column to predict, one value per row. A header cell on top is fine; rows with a blank or error are skipped.
+ * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one.
+ * @param invocation Supplied by Excel.
+ * @returns A table: term, coefficient, standard error, then residual SD, degrees of freedom, R² and rows used.
+ */
+export async function baseline(
+  target: any[][],
+  predictors: any[][],
+  invocation: CustomFunctions.CancelableInvocation,
+): Promise<any[][]> {
+  try {
+    return await api.baseline(sharedRunner(), target, predictors, cancelOn(invocation));
+  } catch (e) {
+    throw toCellError(e);
+  }
+}
+
+// ---------------------------------------------------------------------------------------------
+// The shared runner and registration
+
+/** A token cancelled when Excel cancels this call (an input changed, or a recalculation). */
+function cancelOn(invocation: CustomFunctions.CancelableInvocation | undefined): CancelToken | undefined {
+  if (!invocation) return undefined;
+  const source = cancelSource();
+  invocation.onCanceled = () => source.cancel();
+  return source.token;
+}
+
+/**
+ * Where the shared cache lives. A global rather than a module variable, so that even two copies
+ * of this module on one page (two bundles) find the same cache.
+ */
+const SHARED_KEY = "__shrinkwiseSharedRunner";
+
+type Holder = { [SHARED_KEY]?: FitCache };
+
+/** The engine runner behind the cache: a Web Worker when the host has them, else in-process. */
+export function createEngineRunner(): FitRunner {
+  return workersAvailable() ? new WorkerRunner(browserWorkerFactory()) : new InProcessRunner();
+}
+
+/**
+ * The one fit cache that the cell functions and the task pane share, created on first use.
+ * Its `stats()` show hits, misses and runs.
+ */
+export function sharedRunner(): FitCache {
+  const holder = globalThis as Holder;
+  let cache = holder[SHARED_KEY];
+  if (!cache) {
+    cache = new FitCache(createEngineRunner());
+    holder[SHARED_KEY] = cache;
+  }
+  return cache;
+}
+
+/** Replaces the shared cache (tests, or the pane resetting); the next call uses `cache`. */
+export function setSharedRunner(cache: FitCache | undefined): void {
+  (globalThis as Holder)[SHARED_KEY] = cache;
+}
+
+/** Function ids (as in functions.json) → implementations. */
+export const FUNCTIONS = {
+  COEFS: coefs,
+  CHOICE: choice,
+  PREDICT: predict,
+  APPLY: apply,
+  PATH: path,
+  CVCURVE: cvcurve,
+  SCORE: score,
+  BASELINE: baseline,
+} as const;
+
+/**
+ * Registers every function with Excel. Returns false (and does nothing) where the
+ * CustomFunctions global is missing, e.g. a page loaded outside Office without office.js.
+ */
+export function registerFunctions(): boolean {
+  const host = (globalThis as { CustomFunctions?: { associate?: (id: string, fn: unknown) => void } }).CustomFunctions;
+  if (!host || typeof host.associate !== "function") return false;
+  for (const [id, fn] of Object.entries(FUNCTIONS)) host.associate(id, fn);
+  return true;
+}
+
+registerFunctions();

@@ -1,0 +1,35 @@
+/**
+ * A FitRunner that runs the engine in the calling JavaScript context (`fitAsync`, which yields
+ * to the event loop between units of work so a cancel can get through). Used by the tests and
+ * the standalone preview; the add-in uses the cached Web-Worker runner instead.
+ *
+ * Cancelling: the token is mapped to the engine's `{ aborted }` signal; the fit stops with
+ * CancelledError at its next checkpoint. A token cancelled before the call rejects at once.
+ */
+import { CancelledError } from "../engine/errors";
+import { fitAsync, FitResult } from "../engine/fit";
+import type { CancelToken, FitProgress, FitRequest, FitRunner } from "./runner";
+
+export class InProcessRunner implements FitRunner {
+  async fit(request: FitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
+    const signal = { aborted: false };
+    if (cancel) {
+      if (cancel.cancelled) throw new CancelledError();
+      cancel.onCancel(() => {
+        signal.aborted = true;
+      });
+    }
+    const result = await fitAsync(request.predictors, request.target, {
+      ...request.options,
+      signal,
+      onProgress: onProgress ? (done, total) => onProgress({ done, total }) : undefined,
+    });
+    if (signal.aborted) throw new CancelledError();
+    return result;
+  }
+}
+
+/** A new in-process runner. */
+export function createInProcessRunner(): FitRunner {
+  return new InProcessRunner();
+}

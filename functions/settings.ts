@@ -1,0 +1,476 @@
+/**
+ * The optional `settings` argument of the cell functions, and the `mixes` argument.
+ *
+ * Two forms, the same names:
+ * - text: `folds=5; rule=one-se; seed=7` (settings separated by `;` or line breaks,
+ *   each `name=value`);
+ * - a range of two columns, name | value (one setting per row; a row with a blank value
+ *   is ignored; a first row reading `setting | value` is taken as a header), or one column
+ *   of `name=value` texts.
+ * Names ignore case, spaces, `_` and `-` (`Grid_Size`, `grid size`, `gridsize` are one name).
+ *
+ * | setting          | also accepted                      | value                                                     | default                  |
+ * |------------------|------------------------------------|-----------------------------------------------------------|--------------------------|
+ * | `folds`          | `fold count`                       | whole number 2 to 1000                                    | 10                       |
+ * | `seed`           | `random seed`                      | whole number −4294967295 to 4294967295                    | 1                        |
+ * | `rule`           | `choice rule`                      | `min` / `lowest` / `lowest error`, or `onese` / `one-se` / `one standard error` | lowest error |
+ * | `error`          | `error measure`, `measure`         | `mse` / `squared`, `mae` / `absolute`                     | mse                      |
+ * | `standardize`    | `standardise`                      | yes / no (also true/false, on/off, 1/0)                   | yes                      |
+ * | `intercept`      |                                    | yes / no                                                  | yes                      |
+ * | `grid size`      | `strength count`                   | whole number 1 to 10000                                   | 100                      |
+ * | `low end`        | `low end ratio`                    | number strictly between 0 and 1                           | 1e-4 (1e-2 when predictors ≥ rows) |
+ * | `strength`       | `fixed strength`, `lambda`         | number ≥ 0: fit this strength only, no cross-validation   | (cross-validate)         |
+ * | `fold column`    | `fold labels`                      | a predictors column name: its values label the folds     | (random folds)           |
+ * | `time order`     | `time ordered`                     | yes / no: rows are in time order                          | no                       |
+ * | `weights column` | `weights`, `weight column`         | a predictors column name: row weights (≥ 0)              | (all 1)                  |
+ * | `penalty`        | `penalties`                        | `term:value, term:value` penalty multipliers ≥ 0          | all 1                    |
+ * | `no penalty`     | `unpenalized`, `unpenalised`       | `term, term`: these are never penalized (multiplier 0)    | –                        |
+ * | `lower`          | `lower bound`, `lower bounds`      | a number ≤ 0 for every term, or `term:value, …`; `none`   | none                     |
+ * | `upper`          | `upper bound`, `upper bounds`      | a number ≥ 0 for every term, or `term:value, …`; `none`   | none                     |
+ * | `header`         | `headers`                          | yes / no / auto                                           | auto                     |
+ * | `zero is missing`| `zeros are missing`, `zeros missing` | `all`, or column names: their zeros are blank cells     | –                        |
+ *
+ * A term is a predictor column name (a text column's name covers all its indicator terms) or
+ * an indicator term such as `Region: North`. In `term:value` lists the value follows the last
+ * colon, so `Region: North:0` is the term `Region: North` with value 0.
+ *
+ * Every mistake is a SettingError (→ #VALUE!) saying what is allowed; an unknown name lists
+ * the valid names.
+ */
+import type { ChoiceRule, ErrorMeasure } from "../engine/fit";
+import { classifyCell, describeCell, parseNumberText, toGrid } from "./cells";
+import { SettingError } from "./errors";
+
+export type HeaderMode = "yes" | "no" | "auto";
+
+export interface TermValue {
+  /** As the user wrote it. */
+  name: string;
+  value: number;
+}
+
+/** A bound for every term, or per term. */
+export type BoundSetting = { all: number } | { terms: TermValue[] };
+
+/** Parsed settings; `null` means not given (the default applies). */
+export interface Settings {
+  folds: number | null;
+  seed: number | null;
+  rule: ChoiceRule | null;
+  measure: ErrorMeasure | null;
+  standardize: boolean | null;
+  intercept: boolean | null;
+  gridSize: number | null;
+  lowEnd: number | null;
+  strength: number | null;
+  foldColumn: string | null;
+  timeOrdered: boolean | null;
+  weightsColumn: string | null;
+  penalty: TermValue[] | null;
+  noPenalty: string[] | null;
+  lower: BoundSetting | null;
+  upper: BoundSetting | null;
+  header: HeaderMode;
+  zeroIsMissing: "all" | string[] | null;
+}
+
+export function defaultSettings(): Settings {
+  return {
+    folds: null,
+    seed: null,
+    rule: null,
+    measure: null,
+    standardize: null,
+    intercept: null,
+    gridSize: null,
+    lowEnd: null,
+    strength: null,
+    foldColumn: null,
+    timeOrdered: null,
+    weightsColumn: null,
+    penalty: null,
+    noPenalty: null,
+    lower: null,
+    upper: null,
+    header: "auto",
+    zeroIsMissing: null,
+  };
+}
+
+/** A setting's value as it arrived: a cell (range form) or the text after `=` (text form). */
+type RawValue = { kind: "text"; text: string } | { kind: "number"; value: number } | { kind: "boolean"; value: boolean };
+
+interface SettingSpec {
+  /** Canonical name, shown in messages. */
+  name: string;
+  aliases: string[];
+  apply(settings: Settings, value: RawValue): void;
+}
+
+function show(value: RawValue): string {
+  if (value.kind === "text") return `'${value.text}'`;
+  if (value.kind === "boolean") return value.value ? "TRUE" : "FALSE";
+  return String(value.value);
+}
+
+function numberOf(name: string, value: RawValue, what: string): number {
+  if (value.kind === "number") return value.value;
+  if (value.kind === "text") {
+    const n = parseNumberText(value.text);
+    if (n !== null) return n;
+  }
+  throw new SettingError(`'${name}' must be ${what}; got ${show(value)}`);
+}
+
+function wholeNumber(name: string, value: RawValue, min: number, max: number): number {
+  const what = `a whole number from ${min} to ${max}`;
+  const n = numberOf(name, value, what);
+  if (!Number.isInteger(n) || n < min || n > max) throw new SettingError(`'${name}' must be ${what}; got ${show(value)}`);
+  return n;
+}
+
+/** Lower-case letters and digits only: how names and word values are compared. */
+export function squash(text: string): string {
+  return text.toLowerCase().replace(/[\s_\-.]+/g, "");
+}
+
+function yesNo(name: string, value: RawValue): boolean {
+  if (value.kind === "boolean") return value.value;
+  if (value.kind === "number" && (value.value === 0 || value.value === 1)) return value.value === 1;
+  if (value.kind === "text") {
+    const word = squash(value.text);
+    if (["yes", "y", "true", "on", "1"].includes(word)) return true;
+    if (["no", "n", "false", "off", "0"].includes(word)) return false;
+  }
+  throw new SettingError(`'${name}' must be yes or no; got ${show(value)}`);
+}
+
+function word(name: string, value: RawValue, choices: Record<string, string>, allowed: string): string {
+  if (value.kind === "text") {
+    const found = choices[squash(value.text)];
+    if (found !== undefined) return found;
+  }
+  if (value.kind === "boolean" && choices[value.value ? "true" : "false"] !== undefined) return choices[value.value ? "true" : "false"];
+  throw new SettingError(`'${name}' must be ${allowed}; got ${show(value)}`);
+}
+
+function textValue(name: string, value: RawValue, what: string): string {
+  if (value.kind === "text") return value.text.trim();
+  if (value.kind === "number") return String(value.value);
+  throw new SettingError(`'${name}' must be ${what}; got ${show(value)}`);
+}
+
+function nameList(name: string, value: RawValue): string[] {
+  const text = textValue(name, value, "a list of column names separated by commas");
+  const items = text.split(",").map((item) => item.trim());
+  if (items.some((item) => item === "")) {
+    throw new SettingError(`'${name}' has an empty item in '${text}': separate names with single commas`);
+  }
+  return items;
+}
+
+/** `term:value, term:value`; the value follows the last colon. */
+function termValues(name: string, value: RawValue, example: string): TermValue[] {
+  const text = textValue(name, value, `a list like ${example}`);
+  const out: TermValue[] = [];
+  for (const item of text.split(",").map((part) => part.trim())) {
+    if (item === "") throw new SettingError(`'${name}' has an empty item in '${text}': separate items with single commas, like ${example}`);
+    const colon = item.lastIndexOf(":");
+    if (colon <= 0) throw new SettingError(`'${name}' item '${item}' needs a term and a value: write term:value, like ${example}`);
+    const term = item.slice(0, colon).trim();
+    const valueText = item.slice(colon + 1).trim();
+    const n = parseBoundWord(valueText) ?? parseNumberText(valueText);
+    if (n === null || term === "") throw new SettingError(`'${name}' item '${item}' needs a term and a number: write term:value, like ${example}`);
+    out.push({ name: term, value: n });
+  }
+  return out;
+}
+
+/** `none`, `inf`, `-inf`, `infinity` in bounds: no bound (the caller gives it the side's sign). */
+function parseBoundWord(text: string): number | null {
+  const w = squash(text.replace(/^[+-]/, ""));
+  return w === "none" || w === "inf" || w === "infinity" ? Infinity : null;
+}
+
+function bound(name: string, value: RawValue, side: "lower" | "upper"): BoundSetting {
+  const example = side === "lower" ? "Age:0, Price:-5" : "Age:10, Price:0";
+  const check = (term: string, n: number): number => {
+    if (Number.isNaN(n)) throw new SettingError(`'${name}' for ${term} is not a number`);
+    if (n === Infinity || n === -Infinity) return side === "lower" ? -Infinity : Infinity;
+    if (side === "lower" && n > 0) {
+      throw new SettingError(`'${name}' for ${term} is ${n}: lower bounds must be 0 or below (0 keeps a coefficient from going negative)`);
+    }
+    if (side === "upper" && n < 0) {
+      throw new SettingError(`'${name}' for ${term} is ${n}: upper bounds must be 0 or above (0 keeps a coefficient from going positive)`);
+    }
+    return n;
+  };
+  if (value.kind === "number") return { all: check("every term", value.value) };
+  if (value.kind === "text") {
+    const w = parseBoundWord(value.text);
+    if (w !== null) return { all: check("every term", w) };
+    const n = parseNumberText(value.text);
+    if (n !== null) return { all: check("every term", n) };
+    return { terms: termValues(name, value, example).map((t) => ({ name: t.name, value: check(`'${t.name}'`, t.value) })) };
+  }
+  throw new SettingError(`'${name}' must be a number or a list like ${example}; got ${show(value)}`);
+}
+
+const RULES: Record<string, string> = {
+  min: "min",
+  lowest: "min",
+  lowesterror: "min",
+  minimum: "min",
+  onese: "onese",
+  "1se": "onese",
+  onestandarderror: "onese",
+};
+
+const MEASURES: Record<string, string> = {
+  mse: "mse",
+  squared: "mse",
+  meansquarederror: "mse",
+  mae: "mae",
+  absolute: "mae",
+  meanabsoluteerror: "mae",
+};
+
+const HEADERS: Record<string, string> = { yes: "yes", true: "yes", on: "yes", no: "no", false: "no", off: "no", auto: "auto" };
+
+const SPECS: SettingSpec[] = [
+  { name: "folds", aliases: ["fold count"], apply: (s, v) => (s.folds = wholeNumber("folds", v, 2, 1000)) },
+  { name: "seed", aliases: ["random seed"], apply: (s, v) => (s.seed = wholeNumber("seed", v, -4294967295, 4294967295)) },
+  {
+    name: "rule",
+    aliases: ["choice rule"],
+    apply: (s, v) => (s.rule = word("rule", v, RULES, "min (lowest error) or onese (one-SE rule)") as ChoiceRule),
+  },
+  { name: "error", aliases: ["error measure", "measure"], apply: (s, v) => (s.measure = word("error", v, MEASURES, "mse or mae") as ErrorMeasure) },
+  { name: "standardize", aliases: ["standardise"], apply: (s, v) => (s.standardize = yesNo("standardize", v)) },
+  { name: "intercept", aliases: [], apply: (s, v) => (s.intercept = yesNo("intercept", v)) },
+  { name: "grid size", aliases: ["strength count"], apply: (s, v) => (s.gridSize = wholeNumber("grid size", v, 1, 10000)) },
+  {
+    name: "low end",
+    aliases: ["low end ratio"],
+    apply: (s, v) => {
+      const what = "a number between 0 and 1 (not 0 or 1), the bottom of the strength grid as a fraction of its top";
+      const n = numberOf("low end", v, what);
+      if (!(n > 0 && n < 1)) throw new SettingError(`'low end' must be ${what}; got ${show(v)}`);
+      s.lowEnd = n;
+    },
+  },
+  {
+    name: "strength",
+    aliases: ["fixed strength", "lambda"],
+    apply: (s, v) => {
+      const what = "a number of 0 or more (0 is plain least squares)";
+      const n = numberOf("strength", v, what);
+      if (!(n >= 0)) throw new SettingError(`'strength' must be ${what}; got ${show(v)}`);
+      s.strength = n;
+    },
+  },
+  { name: "fold column", aliases: ["fold labels"], apply: (s, v) => (s.foldColumn = textValue("fold column", v, "the name of a predictors column")) },
+  { name: "time order", aliases: ["time ordered"], apply: (s, v) => (s.timeOrdered = yesNo("time order", v)) },
+  {
+    name: "weights column",
+    aliases: ["weights", "weight column"],
+    apply: (s, v) => (s.weightsColumn = textValue("weights column", v, "the name of a predictors column")),
+  },
+  {
+    name: "penalty",
+    aliases: ["penalties"],
+    apply: (s, v) => {
+      const items = termValues("penalty", v, "Age:2, Region:0.5");
+      for (const item of items) {
+        if (!(item.value >= 0) || !Number.isFinite(item.value)) {
+          throw new SettingError(`'penalty' for '${item.name}' is ${item.value}: penalty multipliers must be 0 or more (0 never penalized, 1 normal)`);
+        }
+      }
+      s.penalty = items;
+    },
+  },
+  { name: "no penalty", aliases: ["unpenalized", "unpenalised"], apply: (s, v) => (s.noPenalty = nameList("no penalty", v)) },
+  { name: "lower", aliases: ["lower bound", "lower bounds"], apply: (s, v) => (s.lower = bound("lower", v, "lower")) },
+  { name: "upper", aliases: ["upper bound", "upper bounds"], apply: (s, v) => (s.upper = bound("upper", v, "upper")) },
+  { name: "header", aliases: ["headers"], apply: (s, v) => (s.header = word("header", v, HEADERS, "yes, no or auto") as HeaderMode) },
+  {
+    name: "zero is missing",
+    aliases: ["zeros are missing", "zeros missing"],
+    apply: (s, v) => {
+      const list = nameList("zero is missing", v);
+      s.zeroIsMissing = list.length === 1 && squash(list[0]) === "all" ? "all" : list;
+    },
+  },
+];
+
+/** The canonical setting names, in the order of the table above. */
+export const SETTING_NAMES: readonly string[] = SPECS.map((spec) => spec.name);
+
+const BY_NAME = new Map<string, SettingSpec>();
+for (const spec of SPECS) for (const name of [spec.name, ...spec.aliases]) BY_NAME.set(squash(name), spec);
+
+function unknownName(name: string): SettingError {
+  return new SettingError(`unknown setting '${name}': the settings are ${SETTING_NAMES.join(", ")}`);
+}
+
+/** A name = value pair from either form, with where it came from (for messages). */
+interface Entry {
+  name: string;
+  value: RawValue;
+}
+
+function textEntries(text: string): Entry[] {
+  const entries: Entry[] = [];
+  for (const part of text.split(/[;\r\n]+/)) {
+    const item = part.trim();
+    if (item === "") continue;
+    const equals = item.indexOf("=");
+    if (equals < 0) {
+      throw new SettingError(`setting '${item}' has no value: write name=value, with settings separated by ';' (e.g. folds=5; seed=7)`);
+    }
+    const name = item.slice(0, equals).trim();
+    const value = item.slice(equals + 1).trim();
+    if (name === "") throw new SettingError(`'${item}' has no setting name before '='`);
+    if (value.includes("=")) {
+      throw new SettingError(`the value of '${name}' contains '=' ('${value}'): separate settings with ';' (e.g. folds=5; seed=7)`);
+    }
+    if (value === "") throw new SettingError(`setting '${name}' has no value after '='`);
+    entries.push({ name, value: { kind: "text", text: value } });
+  }
+  return entries;
+}
+
+function rawValue(name: string, cell: unknown): RawValue | null {
+  const c = classifyCell(cell);
+  switch (c.kind) {
+    case "blank":
+      return null;
+    case "text":
+      return { kind: "text", text: c.value };
+    case "number":
+      return { kind: "number", value: c.value };
+    case "boolean":
+      return { kind: "boolean", value: c.value };
+    case "error":
+      throw new SettingError(`setting '${name}' has the error ${c.text} as its value: fix that cell`);
+  }
+}
+
+function rangeEntries(grid: unknown[][]): Entry[] {
+  const width = grid[0].length;
+  if (width === 1) {
+    const entries: Entry[] = [];
+    grid.forEach((row, i) => {
+      const c = classifyCell(row[0]);
+      if (c.kind === "blank") return;
+      if (c.kind !== "text") {
+        throw new SettingError(`settings row ${i + 1} is ${describeCell(c)}: each cell of a one-column settings range must read name=value`);
+      }
+      entries.push(...textEntries(c.value));
+    });
+    return entries;
+  }
+  const entries: Entry[] = [];
+  grid.forEach((row, i) => {
+    for (let j = 2; j < row.length; j++) {
+      if (classifyCell(row[j]).kind !== "blank") {
+        throw new SettingError(`settings has ${width} columns: give two columns, name | value (row ${i + 1} has something in column ${j + 1})`);
+      }
+    }
+    const nameCell = classifyCell(row[0]);
+    if (nameCell.kind === "blank") {
+      if (classifyCell(row[1]).kind !== "blank") throw new SettingError(`settings row ${i + 1} has a value but no setting name`);
+      return;
+    }
+    if (nameCell.kind !== "text") {
+      throw new SettingError(`settings row ${i + 1} starts with ${describeCell(nameCell)}: the first column holds setting names such as folds or rule`);
+    }
+    if (i === 0 && ["setting", "settings", "name"].includes(squash(nameCell.value))) {
+      const second = classifyCell(row[1]);
+      if (second.kind === "blank" || (second.kind === "text" && ["value", "values"].includes(squash(second.value)))) return;
+    }
+    const value = rawValue(nameCell.value, row[1]);
+    if (value === null) return;
+    entries.push({ name: nameCell.value, value });
+  });
+  return entries;
+}
+
+/**
+ * Reads the settings argument (text, range, or null when omitted). Throws SettingError.
+ * Example: parseSettings("folds=5; rule=one-se") → folds 5, rule "onese", everything else default.
+ */
+export function parseSettings(raw: unknown): Settings {
+  const settings = defaultSettings();
+  const grid = toGrid(raw);
+  if (grid.length === 0 || grid[0].length === 0) return settings;
+  let entries: Entry[];
+  if (grid.length === 1 && grid[0].length === 1) {
+    const c = classifyCell(grid[0][0]);
+    if (c.kind === "blank") return settings;
+    if (c.kind === "error") throw new SettingError(`settings is the error ${c.text}: fix the cell it comes from`);
+    if (c.kind !== "text") {
+      throw new SettingError(
+        `settings is ${describeCell(c)}: give text like folds=5; seed=7, or a two-column range of setting names and values`,
+      );
+    }
+    entries = textEntries(c.value);
+  } else {
+    entries = rangeEntries(grid);
+  }
+  const seen = new Set<SettingSpec>();
+  for (const entry of entries) {
+    const spec = BY_NAME.get(squash(entry.name));
+    if (!spec) throw unknownName(entry.name);
+    if (seen.has(spec)) throw new SettingError(`'${spec.name}' is given twice: give each setting once`);
+    seen.add(spec);
+    spec.apply(settings, entry.value);
+  }
+  if (settings.foldColumn !== null && settings.timeOrdered) {
+    throw new SettingError("'fold column' and 'time order' can't be used together: choose one way to form the folds");
+  }
+  return settings;
+}
+
+const MIX_WORDS: Record<string, number> = { ridge: 0, lasso: 1 };
+
+function mixFromText(label: string, text: string): number[] {
+  const out: number[] = [];
+  for (const part of text.split(/[,;\s]+/)) {
+    if (part === "") continue;
+    const known = MIX_WORDS[squash(part)];
+    const n = known ?? parseNumberText(part);
+    if (n === null) throw new SettingError(`${label} '${text}' has '${part}', which is not a number: give mixes from 0 (ridge) to 1 (lasso), like 0, 0.5, 1`);
+    out.push(n);
+  }
+  return out;
+}
+
+/**
+ * Reads a mixes argument: a number, a range of numbers, or text like "0, 0.5, 1" (the words
+ * ridge = 0 and lasso = 1 are accepted). Null (omitted, or all blank) means the engine's default.
+ * Throws SettingError for text that isn't a number, an error cell, a mix outside 0 to 1, or a
+ * mix listed twice.
+ */
+export function parseMixes(raw: unknown, label = "mixes"): number[] | null {
+  const grid = toGrid(raw);
+  const mixes: number[] = [];
+  for (const row of grid) {
+    for (const cell of row) {
+      const c = classifyCell(cell);
+      if (c.kind === "blank") continue;
+      if (c.kind === "number") mixes.push(c.value);
+      else if (c.kind === "text") mixes.push(...mixFromText(label, c.value));
+      else if (c.kind === "error") throw new SettingError(`${label} has the error ${c.text}: fix the cell it comes from`);
+      else throw new SettingError(`${label} has ${describeCell(c)}: give mixes from 0 (ridge) to 1 (lasso)`);
+    }
+  }
+  if (mixes.length === 0) return null;
+  const seen = new Set<number>();
+  for (const mix of mixes) {
+    if (!(mix >= 0 && mix <= 1)) throw new SettingError(`mix ${mix} is outside 0 to 1: use 0 for ridge, 1 for lasso, or a value between`);
+    if (seen.has(mix)) throw new SettingError(`mix ${mix} is listed twice: list each mix once`);
+    seen.add(mix);
+  }
+  return mixes;
+}

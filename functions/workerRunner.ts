@@ -1,0 +1,233 @@
+/**
+ * A FitRunner that runs the engine in a Web Worker (the add-in's normal path, so a long fit
+ * never blocks Excel's add-in thread). functions/inProcessRunner.ts is the same contract on the
+ * calling thread (tests, hosts without `Worker`, and this runner's fallback).
+ *
+ * WorkerRunner talks to functions/fit.worker.ts (protocol documented there). One worker
+ * serves every fit; fits interleave inside it. Cancelling a fit rejects its caller at once
+ * with CancelledError and posts {type:"cancel"}; the engine stops at its next checkpoint. As a
+ * backstop, if the worker has not acknowledged the cancel within `cancelGraceMs` (default 2 s),
+ * the worker is terminated and a fresh one started, and every other fit that was running in the
+ * old worker is posted again to the new one (same request, so the same answer).
+ *
+ * Errors cross the boundary as plain data and are rebuilt here as InputError / CancelledError
+ * (fromPlainError), so callers cannot tell a worker fit from an in-process one. Results are
+ * structured clones of the engine's plain result object, equal to the in-process result.
+ *
+ * If the worker fails before it has answered anything (the script could not load, or the host
+ * forbids workers), the runner switches to its fallback runner (by default in-process) for
+ * the fits in flight and for good.
+ */
+import { CancelledError } from "../engine/errors";
+import type { FitResult } from "../engine/fit";
+import type { FromWorker, ToWorker } from "./fit.worker";
+import { fromPlainError } from "./fit.worker";
+import { InProcessRunner } from "./inProcessRunner";
+import type { CancelToken, FitProgress, FitRequest, FitRunner } from "./runner";
+
+/** The part of the DOM Worker this runner uses (a fake in tests). */
+export interface WorkerLike {
+  postMessage(message: ToWorker): void;
+  terminate(): void;
+  onmessage: ((event: { data: FromWorker }) => void) | null;
+  onerror: ((event: unknown) => void) | null;
+}
+
+export interface WorkerRunnerOptions {
+  /** How long a cancelled fit may keep running before the worker is replaced. Default 2000 ms. */
+  cancelGraceMs?: number;
+  /** Where fits go if the worker fails before its first answer. Default: in-process. */
+  fallback?: FitRunner;
+}
+
+export const DEFAULT_CANCEL_GRACE_MS = 2000;
+
+interface Job {
+  id: number;
+  request: FitRequest;
+  resolve: (result: FitResult) => void;
+  reject: (error: unknown) => void;
+  onProgress?: (progress: FitProgress) => void;
+  cancel?: CancelToken;
+}
+
+export interface WorkerRunnerStats {
+  /** Workers created so far. */
+  started: number;
+  /** Workers terminated because a cancelled fit did not stop in time. */
+  replaced: number;
+  /** Fits posted (re-posts after a replacement included). */
+  posted: number;
+  /** True once the runner has switched to its fallback. */
+  usingFallback: boolean;
+}
+
+export class WorkerRunner implements FitRunner {
+  readonly cancelGraceMs: number;
+  private readonly fallback: FitRunner;
+  private worker: WorkerLike | null = null;
+  private answered = false;
+  private failedOver = false;
+  private nextId = 1;
+  private readonly jobs = new Map<number, Job>();
+  /** Cancelled fits still running in the current worker → their backstop timers. */
+  private readonly stopping = new Map<number, ReturnType<typeof setTimeout>>();
+  private counters = { started: 0, replaced: 0, posted: 0 };
+
+  constructor(
+    private readonly createWorker: () => WorkerLike,
+    options: WorkerRunnerOptions = {},
+  ) {
+    this.cancelGraceMs = options.cancelGraceMs ?? DEFAULT_CANCEL_GRACE_MS;
+    this.fallback = options.fallback ?? new InProcessRunner();
+  }
+
+  fit(request: FitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
+    if (this.failedOver) return this.fallback.fit(request, cancel, onProgress);
+    if (cancel?.cancelled) return Promise.reject(new CancelledError());
+    return new Promise<FitResult>((resolve, reject) => {
+      const job: Job = { id: this.nextId++, request, resolve, reject, onProgress, cancel };
+      this.jobs.set(job.id, job);
+      cancel?.onCancel(() => this.cancelJob(job));
+      this.post(job);
+    });
+  }
+
+  /** Stops the worker; fits in flight reject with CancelledError. */
+  dispose(): void {
+    for (const job of this.jobs.values()) job.reject(new CancelledError());
+    this.jobs.clear();
+    this.stopWorker();
+  }
+
+  stats(): WorkerRunnerStats {
+    return { ...this.counters, usingFallback: this.failedOver };
+  }
+
+  private ensureWorker(): WorkerLike {
+    if (this.worker) return this.worker;
+    const worker = this.createWorker();
+    this.counters.started++;
+    worker.onmessage = (event) => {
+      if (this.worker === worker) this.receive(event.data);
+    };
+    worker.onerror = (event) => {
+      if (this.worker === worker) this.workerFailed(event);
+    };
+    this.worker = worker;
+    return worker;
+  }
+
+  private post(job: Job): void {
+    this.counters.posted++;
+    try {
+      this.ensureWorker().postMessage({ type: "fit", id: job.id, request: job.request });
+    } catch (error) {
+      // `new Worker` can throw (a security policy, a bad URL): the same as a worker failing.
+      this.workerFailed(error);
+    }
+  }
+
+  private receive(message: FromWorker): void {
+    this.answered = true;
+    const job = this.jobs.get(message.id);
+    if (message.type === "progress") {
+      job?.onProgress?.({ done: message.done, total: message.total });
+      return;
+    }
+    // A result or an error ends the fit in the worker.
+    const timer = this.stopping.get(message.id);
+    if (timer !== undefined) {
+      clearTimeout(timer);
+      this.stopping.delete(message.id);
+    }
+    if (!job) return;
+    this.jobs.delete(message.id);
+    if (message.type === "result") job.resolve(message.result);
+    else job.reject(fromPlainError(message.error));
+  }
+
+  private cancelJob(job: Job): void {
+    if (!this.jobs.has(job.id)) return; // already answered
+    this.jobs.delete(job.id);
+    job.reject(new CancelledError());
+    if (!this.worker) return;
+    this.worker.postMessage({ type: "cancel", id: job.id });
+    this.stopping.set(
+      job.id,
+      setTimeout(() => this.replaceWorker(), this.cancelGraceMs),
+    );
+  }
+
+  /** The backstop: a cancelled fit did not stop in time. Start over in a fresh worker. */
+  private replaceWorker(): void {
+    this.counters.replaced++;
+    this.stopWorker();
+    for (const job of this.jobs.values()) this.post(job);
+  }
+
+  private stopWorker(): void {
+    for (const timer of this.stopping.values()) clearTimeout(timer);
+    this.stopping.clear();
+    const worker = this.worker;
+    this.worker = null;
+    if (worker) {
+      worker.onmessage = null;
+      worker.onerror = null;
+      worker.terminate();
+    }
+  }
+
+  private workerFailed(event: unknown): void {
+    const jobs = [...this.jobs.values()];
+    this.jobs.clear();
+    this.stopWorker();
+    if (!this.answered) {
+      // The worker never worked here: run everything on the fallback from now on.
+      this.failedOver = true;
+      for (const job of jobs) {
+        if (job.cancel?.cancelled) continue;
+        this.fallback.fit(job.request, job.cancel, job.onProgress).then(job.resolve, job.reject);
+      }
+      return;
+    }
+    const detail = describeEvent(event);
+    for (const job of jobs) job.reject(new Error(`the fit worker stopped unexpectedly${detail ? `: ${detail}` : ""}`));
+  }
+}
+
+function describeEvent(event: unknown): string {
+  if (event && typeof event === "object" && "message" in event) return String((event as { message: unknown }).message);
+  return "";
+}
+
+// ---------------------------------------------------------------------------------------------
+// The browser's worker
+
+/**
+ * The script this module was loaded from, read while the bundle first runs (document.currentScript
+ * is only set then). The worker bundle sits next to it.
+ */
+const loadedFrom: string | null =
+  typeof document !== "undefined" && document.currentScript && "src" in document.currentScript
+    ? (document.currentScript as HTMLScriptElement).src || null
+    : null;
+
+/** File name of the worker bundle (webpack entry "fit.worker", see addin/webpack.config.js). */
+export const WORKER_FILE = "fit.worker.js";
+
+/** URL of the worker bundle: next to the functions bundle, else relative to the page. */
+export function defaultWorkerUrl(): string {
+  const base = loadedFrom ?? (typeof location !== "undefined" ? location.href : "https://localhost/");
+  return new URL(WORKER_FILE, base).href;
+}
+
+/** True when this host can start a Web Worker. */
+export function workersAvailable(): boolean {
+  return typeof Worker === "function";
+}
+
+/** Makes browser workers running the fit worker bundle. */
+export function browserWorkerFactory(url: string = defaultWorkerUrl()): () => WorkerLike {
+  return () => new Worker(url, { name: "shrinkwise-fit" }) as unknown as WorkerLike;
+}

@@ -1,0 +1,371 @@
+/**
+ * The standalone preview: what taskpane.html shows when it is opened outside Office (Office.onReady
+ * reports no host). It lays the invented roastery data (addin/demo) out as a worksheet would hold
+ * it and shows, for each SHRINK function, the formula a user would type and the array it spills,
+ * computed now by functions/api.ts through the runner it is given (the add-in's shared fit cache
+ * in front of its Web Worker), exactly as in Excel. Errors appear as the cell would show them: the
+ * error text (#VALUE!, #N/A, …) and its message.
+ *
+ * The worksheet assumed by the formulas (stated on the page):
+ *   A1:M121    the demo data: header row, 120 batches (A roast_id, B:L predictors, M score)
+ *   A124:L132  the new batches: header row, 8 batches without a score
+ *   O1         =SHRINK.COEFS(...), so O1# is its spilled coefficient table
+ *
+ * DOM work is confined to `renderPreview`; the examples and the number formatting are plain
+ * functions, so tests can run them without a browser.
+ */
+import * as api from "../functions/api";
+import type { Spill, SpillCell } from "../functions/api";
+import { isCellError } from "../functions/errors";
+import type { FitProgress, FitRunner } from "../functions/runner";
+import {
+  roasteryColumns,
+  roasteryNewRows,
+  roasteryNewRowsExpected,
+  roasteryRows,
+  roasteryTruth,
+} from "../addin/demo/roasteryData";
+import type { FunctionHelp } from "./taskpane";
+
+/** The worksheet ranges the examples use, as Excel would pass them (rows of cells; blanks null). */
+export interface DemoSheet {
+  /** M1:M121: the header "score", then one score per batch. */
+  target: unknown[][];
+  /** B1:L121: the header row, then the predictors of each batch. */
+  predictors: unknown[][];
+  /** B124:L132: the header row, then the new batches. */
+  newRows: unknown[][];
+}
+
+export function demoSheet(): DemoSheet {
+  const last = roasteryColumns.length - 1;
+  return {
+    target: [[roasteryColumns[last]], ...roasteryRows.map((row) => [row[last]])],
+    predictors: [roasteryColumns.slice(1, last), ...roasteryRows.map((row) => row.slice(1, last))],
+    newRows: [roasteryColumns.slice(1, last), ...roasteryNewRows.map((row) => row.slice(1, last))],
+  };
+}
+
+export const RANGES = { target: "M1:M121", predictors: "B1:L121", newRows: "B124:L132", coefs: "O1#" } as const;
+
+/** One example: a formula as typed in a cell, and how to compute what it spills. */
+export interface Example {
+  /** The function id (COEFS, …). */
+  id: string;
+  /** The formula as a user would type it on the demo sheet. */
+  formula: string;
+  /** A short name for the result table. */
+  caption: string;
+  /** A sentence on what the example shows. */
+  note: string;
+  /** Computes the spilled array (rejects with the cell's error value, as in Excel). */
+  run(runner: FitRunner, sheet: DemoSheet): Promise<Spill>;
+}
+
+const { target: T, predictors: P, newRows: N, coefs: C } = RANGES;
+
+/** The preview's examples, in page order. Default settings everywhere except the last. */
+export const EXAMPLES: readonly Example[] = [
+  {
+    id: "COEFS",
+    formula: `=SHRINK.COEFS(${T}, ${P})`,
+    caption: "coefficients",
+    note: "Tries ridge, three elastic-net mixes and lasso (mixes 0, 0.25, 0.5, 0.75, 1), picks mix and strength by 10-fold cross-validation, and lists the coefficients in the data's own units. origin becomes one 0/1 term per region, against the most common one (Coastal).",
+    run: (runner, sheet) => api.coefs(runner, sheet.target, sheet.predictors, null, null),
+  },
+  {
+    id: "CHOICE",
+    formula: `=SHRINK.CHOICE(${T}, ${P})`,
+    caption: "how the model was chosen",
+    note: "The same fit (it is computed once and shared): how the strength and mix were chosen, and which rows were left out for blanks.",
+    run: (runner, sheet) => api.choice(runner, sheet.target, sheet.predictors, null, null),
+  },
+  {
+    id: "PREDICT",
+    formula: `=SHRINK.PREDICT(${T}, ${P}, ${N})`,
+    caption: "predictions for the new batches",
+    note: "Predicted scores for the eight new batches. Because the data are invented, their true mean scores are known: " +
+      roasteryNewRowsExpected.map((value) => value.toFixed(2)).join(", ") +
+      ".",
+    run: (runner, sheet) => api.predict(runner, sheet.target, sheet.predictors, sheet.newRows, null, null),
+  },
+  {
+    id: "APPLY",
+    formula: `=SHRINK.APPLY(${C}, ${N})`,
+    caption: "predictions from the coefficient table",
+    note: "The coefficient table spilled by SHRINK.COEFS in O1, applied to the new batches without fitting again: the same predictions.",
+    run: async (runner, sheet) => api.apply(await api.coefs(runner, sheet.target, sheet.predictors, null, null), sheet.newRows),
+  },
+  {
+    id: "PATH",
+    formula: `=SHRINK.PATH(${T}, ${P})`,
+    caption: "coefficient path",
+    note: "The coefficients of the chosen mix at every strength, from the strongest penalty (all zero) down; the path stops early once the fit stops improving.",
+    run: (runner, sheet) => api.path(runner, sheet.target, sheet.predictors, null, null),
+  },
+  {
+    id: "CVCURVE",
+    formula: `=SHRINK.CVCURVE(${T}, ${P})`,
+    caption: "cross-validation table",
+    note: "The cross-validation table behind the choice: one row per mix and strength.",
+    run: (runner, sheet) => api.cvcurve(runner, sheet.target, sheet.predictors, null, null),
+  },
+  {
+    id: "SCORE",
+    formula: `=SHRINK.SCORE(${T}, SHRINK.PREDICT(${T}, ${P}, ${P}))`,
+    caption: "in-sample accuracy",
+    note: "In-sample accuracy: the scores against the model's predictions for the same batches. Pairs with a blank (a missing score, or a prediction that is #N/A because a moisture or humidity reading is blank) are skipped and counted.",
+    run: async (runner, sheet) => api.score(sheet.target, await api.predict(runner, sheet.target, sheet.predictors, sheet.predictors, null, null)),
+  },
+  {
+    id: "BASELINE",
+    formula: `=SHRINK.BASELINE(${T}, ${P})`,
+    caption: "least-squares baseline",
+    note: "Plain least squares with standard errors: compare with SHRINK.COEFS to see how much the penalty shrank and which terms it set to zero.",
+    run: (runner, sheet) => api.baseline(runner, sheet.target, sheet.predictors),
+  },
+  {
+    id: "COEFS",
+    formula: `=SHRINK.COEFS(${T}, ${P}, 2)`,
+    caption: "a mix of 2",
+    note: "A mistake, to show how errors look: a mix must lie between 0 (ridge) and 1 (lasso). The cell shows #VALUE! and Excel shows the message beside it.",
+    run: (runner, sheet) => api.coefs(runner, sheet.target, sheet.predictors, [[2]], null),
+  },
+];
+
+/** A number as the preview shows it: integers as they are, others to 6 significant digits. */
+export function formatNumber(x: number): string {
+  if (Number.isInteger(x)) return String(x);
+  const magnitude = Math.abs(x);
+  if (magnitude < 1e-4 || magnitude >= 1e9) return x.toExponential(3);
+  return String(Number(x.toPrecision(6)));
+}
+
+/** What one spilled cell shows: its text, the kind of cell, and an error's message. */
+export function describeSpillCell(cell: SpillCell | null | undefined): { text: string; kind: "number" | "text" | "blank" | "error"; message?: string } {
+  if (cell === null || cell === undefined || cell === "") return { text: "", kind: "blank" };
+  if (typeof cell === "number") return { text: formatNumber(cell), kind: "number" };
+  if (typeof cell === "boolean") return { text: cell ? "TRUE" : "FALSE", kind: "text" };
+  if (typeof cell === "string") return { text: cell, kind: "text" };
+  if (isCellError(cell) || (typeof cell === "object" && typeof (cell as { code?: unknown }).code === "string")) {
+    const error = cell as { code: string; message?: string };
+    return { text: String(error.code), kind: "error", message: error.message || undefined };
+  }
+  return { text: String(cell), kind: "text" };
+}
+
+// ---------------------------------------------------------------------------------------------
+// DOM
+
+function element<K extends keyof HTMLElementTagNameMap>(tag: K, text?: string, className?: string): HTMLElementTagNameMap[K] {
+  const node = document.createElement(tag);
+  if (text !== undefined) node.textContent = text;
+  if (className) node.className = className;
+  return node;
+}
+
+let tableCount = 0;
+
+/**
+ * A table in a keyboard-scrollable region. `header` becomes the column headings; `rows` the body.
+ * Numbers are right-aligned; blank cells read "blank"; error cells show the error and its message.
+ */
+function table(caption: string, header: readonly string[] | null, rows: readonly (readonly unknown[])[], options: { blankText?: string; short?: boolean } = {}): HTMLElement {
+  const id = `table-${++tableCount}`;
+  const region = element("div", undefined, options.short ? "scroll short" : "scroll");
+  region.setAttribute("role", "region");
+  region.setAttribute("aria-labelledby", `${id}-caption`);
+  region.tabIndex = 0;
+  const t = element("table");
+  t.id = id;
+  const cap = element("caption", caption);
+  cap.id = `${id}-caption`;
+  t.append(cap);
+  if (header) {
+    const head = element("thead");
+    const tr = element("tr");
+    for (const name of header) {
+      const th = element("th", name);
+      th.scope = "col";
+      tr.append(th);
+    }
+    head.append(tr);
+    t.append(head);
+  }
+  const body = element("tbody");
+  for (const row of rows) {
+    const tr = element("tr");
+    for (const cell of row) {
+      const shown = describeSpillCell(cell as SpillCell);
+      const td = element("td");
+      if (shown.kind === "number") td.className = "num";
+      if (shown.kind === "blank") {
+        td.className = "blank";
+        td.textContent = options.blankText ?? "";
+      } else if (shown.kind === "error") {
+        td.className = "error";
+        td.append(shown.text);
+        if (shown.message) td.append(element("span", shown.message, "message"));
+      } else {
+        td.textContent = shown.text;
+        // Long texts (CHOICE's notes) wrap instead of widening the column past the screen.
+        if (shown.text.length > 48) td.className = "long";
+      }
+      tr.append(td);
+    }
+    body.append(tr);
+  }
+  t.append(body);
+  region.append(t);
+  return region;
+}
+
+/** The first row of a spill is its header when every cell of it is non-empty text. */
+function splitHeader(spill: Spill): { header: string[] | null; body: Spill } {
+  const first = spill[0];
+  if (spill.length > 1 && first && first.every((cell) => typeof cell === "string" && cell !== "")) {
+    return { header: first as string[], body: spill.slice(1) };
+  }
+  return { header: null, body: spill };
+}
+
+/** A FitRunner that reports the progress of every fit it passes on. */
+function reporting(inner: FitRunner, report: (progress: FitProgress) => void): FitRunner {
+  return {
+    fit: (request, cancel, onProgress) =>
+      inner.fit(request, cancel, (progress) => {
+        report(progress);
+        onProgress?.(progress);
+      }),
+  };
+}
+
+function seconds(ms: number): string {
+  return `${(ms / 1000).toFixed(2)} s`;
+}
+
+async function runExample(example: Example, index: number, runner: FitRunner, sheet: DemoSheet, section: HTMLElement): Promise<void> {
+  const status = element("p", "Waiting…", "status");
+  status.setAttribute("role", "status");
+  const output = element("div");
+  section.append(status, output);
+  const started = performance.now();
+  status.textContent = "Fitting…";
+  const progressRunner = reporting(runner, (p) => {
+    status.textContent = `Fitting: ${p.done} of ${p.total} steps done…`;
+  });
+  try {
+    const spill = await example.run(progressRunner, sheet);
+    const { header, body } = splitHeader(spill);
+    const width = spill[0]?.length ?? 0;
+    status.textContent = `Spills ${spill.length} row${spill.length === 1 ? "" : "s"} × ${width} column${width === 1 ? "" : "s"} (computed in ${seconds(performance.now() - started)}).`;
+    output.append(table(`Result ${index + 1}: ${example.caption}`, header, body, { short: spill.length <= 25 }));
+  } catch (error) {
+    const shown = describeSpillCell(error as SpillCell);
+    status.textContent = "The cell shows an error:";
+    status.classList.add("failed");
+    const cell = shown.kind === "error" ? [error] : [`${error instanceof Error ? error.message : String(error)}`];
+    output.append(table(`Result ${index + 1}: ${example.caption}`, null, [cell], { short: true }));
+  }
+}
+
+export interface PreviewOptions {
+  /** Runs the fits: the add-in's shared runner, or an in-process one. */
+  runner: FitRunner;
+  /** One line per function, for the contents list. */
+  help: readonly FunctionHelp[];
+}
+
+/** Draws the standalone preview into `root` and computes every example (resolves when all are done). */
+export async function renderPreview(root: HTMLElement, options: PreviewOptions): Promise<void> {
+  const sheet = demoSheet();
+  root.replaceChildren();
+  root.setAttribute("aria-busy", "true");
+
+  const heading = element("h2", "Standalone preview");
+  heading.id = "help"; // manifest.xml's SupportUrl and LearnMoreUrl point here
+  root.append(heading);
+  root.append(
+    element(
+      "p",
+      "This page is open outside Excel, so it shows what the SHRINK cell functions return on the built-in demo data. Each result below is computed now, in this browser, by the same code and the same shared fit cache that serve the cells in Excel.",
+    ),
+  );
+  const layout = element("p");
+  layout.append(
+    "The formulas assume this sheet: the demo data in ",
+    element("code", "A1:M121"),
+    " (header row, then 120 batches: roast_id in A, predictors in B:L, score in M), the new batches in ",
+    element("code", "A124:L132"),
+    ", and SHRINK.COEFS in ",
+    element("code", "O1"),
+    ".",
+  );
+  root.append(layout);
+
+  const nav = element("nav");
+  nav.setAttribute("aria-label", "Contents");
+  const list = element("ul");
+  const link = (href: string, text: string): HTMLLIElement => {
+    const item = element("li");
+    const anchor = element("a", text);
+    anchor.href = href;
+    item.append(anchor);
+    return item;
+  };
+  list.append(link("#demo-data", "Demo data: an invented coffee roastery"));
+  EXAMPLES.forEach((example, k) => {
+    const help = options.help.find((h) => h.id === example.id);
+    const isMistake = k === EXAMPLES.length - 1;
+    list.append(link(`#example-${k + 1}`, isMistake ? "When an input is wrong" : `SHRINK.${example.id}${help ? `: ${help.summary}` : ""}`));
+  });
+  nav.append(list);
+  root.append(nav);
+
+  // The data.
+  const data = element("section");
+  data.setAttribute("aria-labelledby", "demo-data");
+  const dataHeading = element("h2", "Demo data: an invented coffee roastery");
+  dataHeading.id = "demo-data";
+  data.append(dataHeading);
+  const truth = Object.entries(roasteryTruth.coefficients)
+    .filter(([, value]) => value !== 0)
+    .map(([name, value]) => `${value < 0 ? "−" : "+"} ${Math.abs(value)} × ${name}`)
+    .join(" ");
+  data.append(
+    element(
+      "p",
+      `Each batch has a cupping score from the tasting bench, five bean-temperature readings along the roast (strongly correlated), bean moisture and density, batch size, roast time, room humidity, and the beans' origin (text). The scores were generated as ${roasteryTruth.intercept} ${truth} + noise (SD ${roasteryTruth.noiseSd}); every other predictor has a true coefficient of 0. Four cells are blank on purpose.`,
+    ),
+  );
+  data.append(table("Demo data, A1:M121 (blank cells marked)", roasteryColumns, roasteryRows, { blankText: "blank" }));
+  data.append(element("h3", "New batches, A124:L132"));
+  data.append(table("New batches without a score, A124:L132", roasteryColumns.slice(0, -1), roasteryNewRows, { short: true }));
+  root.append(data);
+
+  // The functions.
+  const sections = EXAMPLES.map((example, k) => {
+    const section = element("section", undefined, "example");
+    const id = `example-${k + 1}`;
+    section.setAttribute("aria-labelledby", id);
+    const isMistake = k === EXAMPLES.length - 1;
+    const heading = element("h2", isMistake ? "When an input is wrong" : `SHRINK.${example.id}`);
+    heading.id = id;
+    section.append(heading);
+    const help = options.help.find((h) => h.id === example.id);
+    if (help && !isMistake) {
+      const signature = element("p");
+      signature.append(element("code", `SHRINK.${help.id}(${help.signature})`), `: ${help.summary}`);
+      section.append(signature);
+    }
+    const formula = element("p");
+    formula.append("Formula: ", element("span", example.formula, "formula"));
+    section.append(formula, element("p", example.note, "muted"));
+    root.append(section);
+    return section;
+  });
+
+  // All examples at once, as Excel would calculate them: the fits they share run once.
+  await Promise.all(EXAMPLES.map((example, k) => runExample(example, k, options.runner, sheet, sections[k])));
+  root.setAttribute("aria-busy", "false");
+}

@@ -1,0 +1,213 @@
+/**
+ * The production webpack build (addin/webpack.config.js) into a temporary folder, and what it
+ * must contain: the three bundles, functions.json post-processed, taskpane.html loading the
+ * functions bundle before the pane's (shared runtime), office.js with its Excel host files and
+ * locale strings marked as already minimized, the manifest and icons, no eval.
+ * Takes about 15 s here, so it runs with the other tests.
+ *
+ * Where Chromium is installed (/usr/bin/chromium; CI installs it), the built functions bundle
+ * is also run in a real browser page: SHRINK.COEFS must fit in the real Web Worker
+ * (fit.worker.js) and return exactly what the in-process engine returns (determinism: same
+ * request, same result).
+ */
+import { ChildProcess, spawn } from "child_process";
+import { existsSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from "fs";
+import { createServer, Server } from "http";
+import { AddressInfo } from "net";
+import { tmpdir } from "os";
+import { extname, join, normalize } from "path";
+import webpack from "webpack";
+import * as api from "../../functions/api";
+import { InProcessRunner } from "../../functions/inProcessRunner";
+
+// eslint-disable-next-line @typescript-eslint/no-require-imports
+const makeConfig = require("../../addin/webpack.config.js") as (env: object, argv: { mode: string }) => webpack.Configuration;
+
+const CHROMIUM = "/usr/bin/chromium";
+let out: string;
+let stats: webpack.StatsCompilation;
+let buildSeconds = 0;
+
+beforeAll(async () => {
+  out = mkdtempSync(join(tmpdir(), "shrinkwise-build-"));
+  const config = makeConfig({}, { mode: "production" });
+  config.output = { ...config.output, path: out };
+  const started = Date.now();
+  const result = await new Promise<webpack.Stats>((resolve, reject) => {
+    webpack(config, (error, s) => (error || !s ? reject(error ?? new Error("no stats")) : resolve(s)));
+  });
+  buildSeconds = (Date.now() - started) / 1000;
+  stats = result.toJson({ all: false, errors: true, warnings: true, assets: true, cachedAssets: true });
+}, 180_000);
+
+afterAll(() => {
+  if (out) rmSync(out, { recursive: true, force: true });
+});
+
+function file(name: string): string {
+  return readFileSync(join(out, name), "utf8");
+}
+
+test("builds without errors, in reasonable time", () => {
+  expect((stats.errors ?? []).map((e) => e.message)).toEqual([]);
+  // The brief's budget for a production build here is 90 s.
+  expect(buildSeconds).toBeLessThan(90);
+});
+
+test("the bundles, metadata, page, manifest and icons are where the manifest points", () => {
+  for (const name of ["taskpane.html", "functions.js", "taskpane.js", "fit.worker.js", "functions.json", "manifest.xml"]) {
+    expect([name, existsSync(join(out, name))]).toEqual([name, true]);
+  }
+  expect(readdirSync(join(out, "assets")).filter((f) => f.endsWith(".png")).length).toBeGreaterThanOrEqual(3);
+  expect(readdirSync(join(out, "assets")).some((f) => f.endsWith(".ts"))).toBe(false);
+  const metadata = JSON.parse(file("functions.json")) as { allowErrorForDataTypeAny?: boolean; functions: { id: string }[] };
+  expect(metadata.allowErrorForDataTypeAny).toBe(true);
+  expect(metadata.functions.map((f) => f.id).sort()).toEqual(["APPLY", "BASELINE", "CHOICE", "COEFS", "CVCURVE", "PATH", "PREDICT", "SCORE"]);
+});
+
+test("taskpane.html loads the functions bundle before the pane's (one shared runtime)", () => {
+  const html = file("taskpane.html");
+  // The page is minified: attribute quotes may be dropped.
+  const functionsAt = html.search(/<script[^>]+src=["']?[^"'\s>]*functions\.js/);
+  const paneAt = html.search(/<script[^>]+src=["']?[^"'\s>]*taskpane\.js/);
+  expect(functionsAt).toBeGreaterThanOrEqual(0);
+  expect(paneAt).toBeGreaterThan(functionsAt);
+  // Exactly once each (a template that already lists them would double-load them).
+  expect(html.match(/src=["']?[^"'\s>]*functions\.js/g)?.length).toBe(1);
+  expect(html.match(/src=["']?[^"'\s>]*taskpane\.js/g)?.length).toBe(1);
+  // office.js first, from the copied folder, so CustomFunctions exists when functions.js runs.
+  const officeAt = html.search(/<script[^>]+src=["']?office-js\/office\.js/);
+  expect(officeAt).toBeGreaterThanOrEqual(0);
+  expect(officeAt).toBeLessThan(functionsAt);
+});
+
+test("office.js, the Excel host files and locale strings are copied and marked minimized", () => {
+  for (const name of ["office.js", "excel-web-16.00.js", "excel-win32-16.01.js", "en-us/office_strings.js"]) {
+    expect([name, existsSync(join(out, "office-js", name))]).toEqual([name, true]);
+  }
+  const copied = (stats.assets ?? []).filter((a) => a.name.startsWith("office-js/"));
+  expect(copied.length).toBeGreaterThan(100);
+  expect(copied.filter((a) => a.name.endsWith(".debug.js"))).toEqual([]);
+  expect(copied.filter((a) => !a.info.minimized).map((a) => a.name)).toEqual([]);
+});
+
+test("no eval: source maps are separate files and the bundles hold no eval calls", () => {
+  for (const name of ["functions.js", "taskpane.js", "fit.worker.js"]) {
+    expect([name, /\beval\(/.test(file(name))]).toEqual([name, false]);
+    expect([name, existsSync(join(out, `${name}.map`))]).toEqual([name, true]);
+  }
+  // The metadata plugin's own loader (unguarded associate calls) is removed: functions.ts registers itself.
+  expect(file("functions.js")).not.toMatch(/associate\("COEFS"/);
+  // The worker bundle holds its bootstrap.
+  expect(file("fit.worker.js")).toMatch(/WorkerGlobalScope/);
+});
+
+function signalGroup(pid: number, signal: NodeJS.Signals): void {
+  try {
+    process.kill(-pid, signal);
+  } catch {
+    // already gone
+  }
+}
+
+const TYPES: Record<string, string> = { ".html": "text/html", ".js": "text/javascript", ".json": "application/json" };
+
+(existsSync(CHROMIUM) ? test : test.skip)(
+  "in Chromium, SHRINK.COEFS fits in the Web Worker and matches the in-process result",
+  async () => {
+    const target: number[][] = [];
+    const predictors: number[][] = [];
+    for (let i = 0; i < 30; i++) {
+      const a = i % 7;
+      const b = (i * 3) % 5;
+      predictors.push([a, b]);
+      target.push([2 * a - b + 0.1 * (i % 3)]);
+    }
+    const settings = [["folds=3"]];
+    writeFileSync(
+      join(out, "smoke.html"),
+      `<!doctype html><html><head><title>smoke</title>
+<script>window.CustomFunctions = { associate: function (id, fn) { (window.F = window.F || {})[id] = fn; } };</script>
+<script src="functions.js"></script></head><body><script>
+var report = function (m) { fetch("/report", { method: "POST", body: m }); };
+F.COEFS(${JSON.stringify(target)}, ${JSON.stringify(predictors)}, null, ${JSON.stringify(settings)}, {}).then(function (r) {
+  var shared = window.__shrinkwiseSharedRunner;
+  report(JSON.stringify({ result: r, worker: shared.inner.stats(), cache: shared.stats() }));
+}, function (e) { report(JSON.stringify({ error: String(e && e.code) + " " + String(e && e.message) })); });
+</script></body></html>`,
+    );
+    let server: Server | null = null;
+    let browser: ChildProcess | null = null;
+    let timer: ReturnType<typeof setTimeout> | undefined;
+    try {
+      const reported = new Promise<string>((resolve) => {
+        server = createServer((request, response) => {
+          if (request.method === "POST" && request.url === "/report") {
+            let body = "";
+            request.on("data", (chunk) => (body += chunk));
+            request.on("end", () => {
+              response.end("ok");
+              resolve(body);
+            });
+            return;
+          }
+          const path = normalize(join(out, decodeURIComponent((request.url ?? "/").split("?")[0])));
+          if (!path.startsWith(out) || !existsSync(path)) {
+            response.statusCode = 404;
+            response.end();
+            return;
+          }
+          response.setHeader("Content-Type", TYPES[extname(path)] ?? "application/octet-stream");
+          response.end(readFileSync(path));
+        });
+      });
+      await new Promise<void>((resolve) => (server as unknown as Server).listen(0, "127.0.0.1", resolve));
+      const port = ((server as unknown as Server).address() as AddressInfo).port;
+      browser = spawn(
+        CHROMIUM,
+        [
+          "--headless",
+          "--no-sandbox",
+          "--disable-gpu",
+          "--disable-background-networking",
+          "--disable-component-update",
+          "--disable-sync",
+          "--no-first-run",
+          `--user-data-dir=${join(out, "profile")}`,
+          "--remote-debugging-port=0",
+          `http://127.0.0.1:${port}/smoke.html`,
+        ],
+        { stdio: "ignore", detached: true },
+      );
+      (browser as ChildProcess).unref();
+      const timeout = new Promise<string>((_, reject) => {
+        timer = setTimeout(() => reject(new Error("no report from the page in 40 s")), 40_000);
+      });
+      const message = JSON.parse(await Promise.race([reported, timeout])) as {
+        result?: unknown[][];
+        error?: string;
+        worker?: { started: number; usingFallback: boolean };
+        cache?: { runs: number };
+      };
+      expect(message.error).toBeUndefined();
+      expect(message.worker).toMatchObject({ started: 1, usingFallback: false });
+      expect(message.cache).toMatchObject({ runs: 1 });
+      const direct = await api.coefs(new InProcessRunner(), target, predictors, null, settings);
+      expect(message.result).toEqual(JSON.parse(JSON.stringify(direct)));
+    } finally {
+      clearTimeout(timer);
+      const child = browser as ChildProcess | null;
+      if (child?.pid && child.exitCode === null) {
+        // Our own browser's process group: ask it to quit, then make sure.
+        const exited = new Promise<void>((resolve) => child.once("exit", () => resolve()));
+        signalGroup(child.pid, "SIGTERM");
+        let grace: ReturnType<typeof setTimeout> | undefined;
+        await Promise.race([exited, new Promise((resolve) => (grace = setTimeout(resolve, 5000)))]);
+        clearTimeout(grace);
+        signalGroup(child.pid, "SIGKILL");
+      }
+      await new Promise<void>((resolve) => (server ? (server as unknown as Server).close(() => resolve()) : resolve()));
+    }
+  },
+  60_000,
+);
