@@ -125,14 +125,18 @@ function fitOptions(dataset: Dataset, settings: Settings, mixes: number[] | null
   return options;
 }
 
-interface Prepared {
+export interface Prepared {
   dataset: Dataset;
   settings: Settings;
   request: FitRequest;
 }
 
-/** Settings, mixes and data → the request every fitting function sends. */
-function prepare(target: unknown, predictors: unknown, mixesRaw: unknown, settingsRaw: unknown, mixes?: number[] | null): Prepared {
+/**
+ * Settings, mixes and data → the request every fitting function sends. Exported for the side
+ * pane, so a fit started there is the same cache entry as the cells' over the same ranges.
+ * Throws DataError / SettingError (see errors.ts) for bad input.
+ */
+export function prepare(target: unknown, predictors: unknown, mixesRaw: unknown, settingsRaw: unknown, mixes?: number[] | null): Prepared {
   const settings = parseSettings(settingsRaw);
   const mixList = mixes !== undefined ? mixes : parseMixes(mixesRaw);
   const dataset = buildDataset(target, predictors, settings);
