@@ -764,8 +764,9 @@ export function choleskySolveInPlace(system: Float64Array, rhs: Float64Array, m:
     const rowA = a * m;
     for (let b = 0; b <= a; b++) {
       const rowB = b * m;
-      let s = system[rowA + b];
-      for (let k = 0; k < b; k++) s -= system[rowA + k] * system[rowB + k];
+      // The inner product of two stride-1 rows of L, with four accumulators (dotRange) so the
+      // loop is not bound by the latency of one running sum.
+      const s = system[rowA + b] - dotRange(system, rowA, system, rowB, b);
       if (a === b) {
         if (!(s > 1e-12 * largestDiagonal)) return false;
         system[rowA + a] = Math.sqrt(s);
