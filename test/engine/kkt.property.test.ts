@@ -213,7 +213,7 @@ describe("KKT without an intercept or without standardization (problem.ts conven
               coefficients: path.coefficients[k],
               lambda: path.strengths[k],
               alpha,
-              fitIntercept: intercept,
+              withIntercept: intercept,
               standardize,
             });
             record(`intercept ${intercept}, standardize ${standardize}`, report.max);

@@ -57,7 +57,7 @@ describe("text form", () => {
     for (const w of ["onese", "one-se", "One SE", "1se", "one standard error"]) expect(parseSettings(`rule=${w}`).rule).toBe("onese");
   });
   test("line breaks separate settings too; strength and time order", () => {
-    const s = parseSettings("strength=0.25\ntime order=yes\nzero is missing=all");
+    const s = parseSettings(["strength=0.25", "time order=yes", "zero is missing=all"].join("\n"));
     expect(s.strength).toBe(0.25);
     expect(s.timeOrdered).toBe(true);
     expect(s.zeroIsMissing).toBe("all");

@@ -30,7 +30,7 @@ export interface KktInput {
   multipliers?: readonly number[] | null;
   lower?: readonly number[] | null;
   upper?: readonly number[] | null;
-  fitIntercept?: boolean;
+  withIntercept?: boolean;
   standardize?: boolean;
 }
 
@@ -61,7 +61,7 @@ export interface ColumnScales {
 export function columnScales(
   x: readonly (readonly number[])[],
   weights: readonly number[] | null | undefined,
-  fitIntercept: boolean,
+  withIntercept: boolean,
   standardize: boolean,
 ): ColumnScales {
   const n = x.length;
@@ -73,7 +73,7 @@ export function columnScales(
   const constant: boolean[] = [];
   for (let j = 0; j < p; j++) {
     let mean = 0;
-    if (fitIntercept) {
+    if (withIntercept) {
       for (let i = 0; i < n; i++) mean += (weights ? weights[i] : 1) * x[i][j];
       mean /= W;
     }
@@ -98,12 +98,12 @@ export function columnScales(
 export function checkKkt(input: KktInput): KktReport {
   const { x, y, lambda, alpha } = input;
   const weights = input.weights ?? null;
-  const fitIntercept = input.fitIntercept ?? true;
+  const withIntercept = input.withIntercept ?? true;
   const standardize = input.standardize ?? true;
   const n = x.length;
   const p = input.coefficients.length;
   if (!(lambda > 0)) throw new Error(`checkKkt needs λ > 0, got ${lambda}`);
-  const { totalWeight: W, centre, scale, constant } = columnScales(x, weights, fitIntercept, standardize);
+  const { totalWeight: W, centre, scale, constant } = columnScales(x, weights, withIntercept, standardize);
   const r = new Array<number>(n);
   for (let i = 0; i < n; i++) {
     let fitted = input.intercept;
@@ -111,7 +111,7 @@ export function checkKkt(input: KktInput): KktReport {
     r[i] = y[i] - fitted;
   }
   let interceptViolation = 0;
-  if (fitIntercept) {
+  if (withIntercept) {
     let s = 0;
     for (let i = 0; i < n; i++) s += (weights ? weights[i] : 1) * r[i];
     interceptViolation = Math.abs(s / W) / lambda;
