@@ -116,7 +116,24 @@ function officeJsPatterns() {
     info: minimized,
     globOptions: { ignore: ["**/*.debug.js"] },
     noErrorOnMissing: from !== "office.js",
+    ...(from === "o15apptofilemappingtable.js" ? { transform: withoutTelemetryFrame } : {}),
   }));
+}
+
+/**
+ * Outside an Office host (the standalone preview) office.js falls back to
+ * o15apptofilemappingtable.js, whose logger opens a frame on a remote telemetry page three
+ * seconds after load. The add-in makes no network calls, so the copy served from dist/ points
+ * that frame at about:blank. The build fails if the address is not found (a new office-js
+ * version must be looked at again); test/browser/page.test.ts checks no request leaves the page.
+ */
+const TELEMETRY_FRAME = "https://telemetryservice.firstpartyapps.oaspapps.com/telemetryservice/telemetryproxy.html";
+function withoutTelemetryFrame(content) {
+  const text = content.toString();
+  if (!text.includes(TELEMETRY_FRAME)) {
+    throw new Error("o15apptofilemappingtable.js no longer holds the telemetry frame address: review what it loads before shipping it");
+  }
+  return text.split(TELEMETRY_FRAME).join("about:blank");
 }
 
 /**

@@ -1,0 +1,105 @@
+/**
+ * Browser-test harness: serves the built add-in (dist/, made by `npm run build`) on a loopback
+ * port and drives Debian's Chromium through playwright-core (never a downloaded browser).
+ *
+ * - `startServer()`: a small static file server on 127.0.0.1 (random free port) for dist/.
+ * - `launchBrowser()`: headless Chromium at /usr/bin/chromium with the flags this workplace
+ *   needs (no sandbox as root, no background networking: the machine has no network).
+ * - `scanAccessibility(page)`: injects axe-core and returns the serious and critical violations.
+ * - `saveScreenshot(page, name)`: PNG into test-artifacts/ (ignored by git).
+ * `browserAvailable()` is false when Chromium or dist/ is missing; suites then skip with a message
+ * (CI installs Chromium and builds first, so there they always run).
+ */
+import { createReadStream, existsSync, mkdirSync, statSync } from "fs";
+import { createServer, Server } from "http";
+import { AddressInfo } from "net";
+import { extname, join, normalize, resolve } from "path";
+import { chromium, Browser, Page } from "playwright-core";
+
+export const ROOT = resolve(__dirname, "..", "..");
+export const DIST = join(ROOT, "dist");
+export const ARTIFACTS = join(ROOT, "test-artifacts");
+export const CHROMIUM = "/usr/bin/chromium";
+
+export function browserAvailable(): { ok: boolean; reason: string } {
+  if (!existsSync(CHROMIUM)) return { ok: false, reason: `${CHROMIUM} is missing (apt-get install -y chromium)` };
+  if (!existsSync(join(DIST, "taskpane.html"))) return { ok: false, reason: "dist/taskpane.html is missing (run npm run build first)" };
+  return { ok: true, reason: "" };
+}
+
+const TYPES: Record<string, string> = {
+  ".html": "text/html; charset=utf-8",
+  ".js": "text/javascript; charset=utf-8",
+  ".json": "application/json; charset=utf-8",
+  ".xml": "application/xml; charset=utf-8",
+  ".png": "image/png",
+  ".css": "text/css; charset=utf-8",
+  ".map": "application/json; charset=utf-8",
+};
+
+export interface StaticServer {
+  url: string;
+  close(): Promise<void>;
+}
+
+/** Serves dist/ on 127.0.0.1; only files inside dist/ are reachable. */
+export async function startServer(root = DIST): Promise<StaticServer> {
+  const server: Server = createServer((request, response) => {
+    const path = decodeURIComponent((request.url ?? "/").split("?")[0]);
+    const file = normalize(join(root, path === "/" ? "taskpane.html" : path));
+    if (!file.startsWith(root) || !existsSync(file) || !statSync(file).isFile()) {
+      response.writeHead(404);
+      response.end("not found");
+      return;
+    }
+    response.writeHead(200, { "Content-Type": TYPES[extname(file)] ?? "application/octet-stream" });
+    createReadStream(file).pipe(response);
+  });
+  await new Promise<void>((done) => server.listen(0, "127.0.0.1", done));
+  const { port } = server.address() as AddressInfo;
+  return {
+    url: `http://127.0.0.1:${port}`,
+    close: () => new Promise<void>((done) => server.close(() => done())),
+  };
+}
+
+export async function launchBrowser(): Promise<Browser> {
+  return chromium.launch({
+    executablePath: CHROMIUM,
+    headless: true,
+    args: [
+      "--no-sandbox",
+      "--disable-gpu",
+      "--disable-background-networking",
+      "--disable-component-update",
+      "--disable-sync",
+      "--no-first-run",
+      "--disable-quic",
+    ],
+  });
+}
+
+export interface AxeViolation {
+  id: string;
+  impact: string | null;
+  help: string;
+  nodes: number;
+}
+
+/** Runs axe-core in the page; returns the serious and critical violations. */
+export async function scanAccessibility(page: Page): Promise<AxeViolation[]> {
+  await page.addScriptTag({ path: require.resolve("axe-core/axe.min.js") });
+  const violations = await page.evaluate(async () => {
+    const axe = (window as unknown as { axe: { run: (context: unknown, options: unknown) => Promise<{ violations: { id: string; impact: string | null; help: string; nodes: unknown[] }[] }> } }).axe;
+    const result = await axe.run(document, { resultTypes: ["violations"] });
+    return result.violations.map((v) => ({ id: v.id, impact: v.impact, help: v.help, nodes: v.nodes.length }));
+  });
+  return violations.filter((v) => v.impact === "serious" || v.impact === "critical");
+}
+
+export async function saveScreenshot(page: Page, name: string): Promise<string> {
+  mkdirSync(ARTIFACTS, { recursive: true });
+  const file = join(ARTIFACTS, `${name}.png`);
+  await page.screenshot({ path: file, fullPage: true });
+  return file;
+}
