@@ -1,0 +1,258 @@
+/**
+ * The report sheet, as plain data: `buildReport` turns a finished fit (the engine's FitResult),
+ * the encoded data it was fitted on (functions/dataset.ts), the settings and the ranges into a
+ * `ReportSheet` (sheetHost.ts) that either sheet host writes out. Pure: no Office, no DOM.
+ *
+ * Layout (columns A to E hold the summary stack, the large tables sit to the right under the chart):
+ *
+ *   A1   title, when it was made, and the caution about shrunk coefficients
+ *   A…   inputs (range addresses), settings, data summary (rows used and skipped, mean and SD of
+ *        every column as fitted), text columns with their reference level, notes,
+ *        the chosen point beside the other rule's point, the coefficient table
+ *   G3   the chart of the coefficient path (log strength axis)
+ *   G25  the cross-validation table (mix, strength, error, SE, nonzero)
+ *   M25  the path table (strength, one column per term): the chart's data
+ *
+ * Numbers are written at full precision; number formats only change how they look.
+ */
+import type { FitResult } from "../engine/fit";
+import type { Dataset } from "../functions/dataset";
+import { cellName, parseAddress, RangeAddress, spillArea } from "./address";
+import type { CellValue, ReportBlock, ReportChart, ReportSheet } from "./sheetHost";
+
+export interface ReportInput {
+  result: FitResult;
+  /** The dataset the fit was made from (buildDataset / api.prepare). */
+  dataset: Dataset;
+  /** The settings as the pane shows them, name and value. */
+  settings: readonly { name: string; value: CellValue }[];
+  /** The ranges used, e.g. { label: "target", address: "'Roast log'!M1:M121" }. */
+  ranges: readonly { label: string; address: string }[];
+  /** When the report was made, as the pane writes it (e.g. "2026-12-03 14:05"). */
+  timestamp: string;
+  /** Wanted sheet name; default "Shrinkwise report". */
+  name?: string;
+}
+
+export const REPORT_TITLE = "Shrinkwise report";
+export const CAUTION =
+  "Caution: penalized coefficients are shrunk toward zero on purpose. They are for prediction, not causal claims: a coefficient of zero does not mean a column has no effect, and a large one does not prove it causes anything.";
+
+/** Number formats used on the report. */
+export const FORMATS = {
+  strength: "0.000E+00",
+  mix: "0.00",
+  count: "0",
+  decimal: "0.0000",
+} as const;
+
+const INTERCEPT = "(intercept)";
+
+/** Where the right-hand zone starts (chart, then the large tables below it). */
+const CHART_AT = "G3";
+const TABLES_ROW = 25;
+const CV_COLUMN = 7; // G
+const GAP_COLUMNS = 1;
+
+/** Mean and sample SD (n − 1) of a column of numbers; SD is "" with fewer than 2 values. */
+export function meanAndSd(values: readonly number[]): { mean: number; sd: number | "" } {
+  const n = values.length;
+  if (n === 0) return { mean: NaN, sd: "" };
+  let mean = 0;
+  for (const v of values) mean += v;
+  mean /= n;
+  if (n < 2) return { mean, sd: "" };
+  let sum = 0;
+  for (const v of values) sum += (v - mean) * (v - mean);
+  return { mean, sd: Math.sqrt(sum / (n - 1)) };
+}
+
+function ruleText(rule: FitResult["rule"]): string {
+  if (rule === "min") return "lowest CV error";
+  if (rule === "onese") return "one-standard-error rule";
+  return "fixed strength (no cross-validation)";
+}
+
+function otherRule(rule: FitResult["rule"]): "min" | "onese" | null {
+  if (rule === "min") return "onese";
+  if (rule === "onese") return "min";
+  return null;
+}
+
+/** A finite number, or "" for a value that can't be shown (NaN, ±Infinity). */
+function num(value: number): CellValue {
+  return Number.isFinite(value) ? value : "";
+}
+
+/** Stacks blocks down a column, one blank row between them. */
+class Stack {
+  readonly blocks: ReportBlock[] = [];
+  constructor(
+    private readonly column: number,
+    private row: number,
+  ) {}
+  add(rows: CellValue[][], header: boolean, formats?: (string | null)[]): ReportBlock {
+    const block: ReportBlock = { at: cellName(this.row, this.column), rows, header };
+    if (formats) block.formats = formats;
+    this.blocks.push(block);
+    this.row += rows.length + 1;
+    return block;
+  }
+}
+
+/** Coefficient table rows: (intercept), then terms in column order with reference levels shown. */
+function coefficientRows(result: FitResult, dataset: Dataset): CellValue[][] {
+  const rows: CellValue[][] = [
+    ["term", "coefficient", "standardized (per SD)"],
+    [INTERCEPT, num(result.intercept), ""],
+  ];
+  const termRow = (t: number): CellValue[] => [result.terms[t], num(result.coefficients[t]), num(result.standardizedCoefficients[t])];
+  const encoded = dataset.encoder.columns.reduce((count, c) => count + (c.kind === "number" ? 1 : c.levels.length), 0);
+  if (encoded !== result.terms.length) {
+    // The dataset doesn't describe these terms: list the terms as they are.
+    for (let t = 0; t < result.terms.length; t++) rows.push(termRow(t));
+    return rows;
+  }
+  let t = 0;
+  for (const column of dataset.encoder.columns) {
+    if (column.kind === "number") {
+      rows.push(termRow(t++));
+      continue;
+    }
+    if (column.reference !== null) rows.push([`${column.name}: ${column.reference} (reference)`, 0, 0]);
+    for (let k = 0; k < column.levels.length; k++) rows.push(termRow(t++));
+  }
+  return rows;
+}
+
+/** Data summary: counts, then mean and SD of the target and every term, as fitted. */
+function dataRows(result: FitResult, dataset: Dataset): { facts: CellValue[][]; columns: CellValue[][] } {
+  const facts: CellValue[][] = [
+    ["data", "value"],
+    ["rows used", dataset.rowsUsed],
+    ["rows skipped (a blank or error cell)", dataset.rowsSkipped],
+    ["header row", dataset.hasHeader ? "yes" : "no"],
+    ["target", dataset.targetName],
+    ["terms", dataset.names.length],
+  ];
+  if (dataset.weightsColumn !== null) facts.push(["weights column", dataset.weightsColumn]);
+  if (dataset.foldColumn !== null) facts.push(["fold column", dataset.foldColumn]);
+  if (result.constantColumns.length > 0) facts.push(["constant (left out)", result.constantColumns.join(", ")]);
+  const columns: CellValue[][] = [["column", "mean", "SD (n − 1)"]];
+  const target = meanAndSd(dataset.target);
+  columns.push([`${dataset.targetName} (target)`, num(target.mean), target.sd === "" ? "" : num(target.sd)]);
+  for (let j = 0; j < dataset.names.length; j++) {
+    const values = dataset.predictors.map((row) => row[j]);
+    const stats = meanAndSd(values);
+    columns.push([dataset.names[j], num(stats.mean), stats.sd === "" ? "" : num(stats.sd)]);
+  }
+  return { facts, columns };
+}
+
+/** Text columns: reference level and the other levels (each a 0/1 term). */
+function levelRows(dataset: Dataset): CellValue[][] | null {
+  if (dataset.referenceLevels.length === 0) return null;
+  const rows: CellValue[][] = [["text column", "reference level", "levels with a term"]];
+  for (const reference of dataset.referenceLevels) {
+    const column = dataset.encoder.columns.find((c) => c.kind === "text" && c.name === reference.column);
+    rows.push([reference.column, reference.level, column && column.levels.length > 0 ? column.levels.join("; ") : "none (one level only)"]);
+  }
+  return rows;
+}
+
+/** The chosen point beside the other rule's point. */
+function choiceRows(result: FitResult): CellValue[][] {
+  const nonzero = result.coefficients.filter((b) => b !== 0).length;
+  const choices = result.choices;
+  const measure = result.cv ? result.cv.measure.toUpperCase() : "";
+  if (!choices) {
+    return [
+      ["point", "chosen"],
+      ["rule", ruleText(result.rule)],
+      ["mix (0 ridge … 1 lasso)", num(result.mix)],
+      ["strength", num(result.strength)],
+      ["strength ÷ top of grid", num(result.strengthFraction)],
+      ["nonzero terms", nonzero],
+      ["in-sample R²", num(result.fit.r2)],
+      ["in-sample RMSE", num(result.fit.rmse)],
+    ];
+  }
+  const other = otherRule(result.rule) as "min" | "onese";
+  const chosen = result.rule === "onese" ? choices.onese : choices.min;
+  const alternative = choices[other];
+  return [
+    ["point", "chosen", "other rule"],
+    ["rule", ruleText(result.rule), ruleText(other)],
+    ["mix (0 ridge … 1 lasso)", num(chosen.mix), num(alternative.mix)],
+    ["strength", num(chosen.strength), num(alternative.strength)],
+    ["strength ÷ top of grid", num(chosen.strengthFraction), num(alternative.strengthFraction)],
+    [`CV error (${measure})`, num(chosen.error), num(alternative.error)],
+    ["CV error SE", num(chosen.se), num(alternative.se)],
+    ["nonzero terms", chosen.nonzero, alternative.nonzero],
+    ["in-sample R²", num(result.fit.r2), ""],
+    ["in-sample RMSE", num(result.fit.rmse), ""],
+  ];
+}
+
+/**
+ * Builds the report sheet for a fit (layout in the file comment). The chart's block is the path
+ * block itself (the same object, also in `blocks`).
+ */
+export function buildReport(input: ReportInput): ReportSheet {
+  const { result, dataset } = input;
+  const left = new Stack(1, 1);
+  left.add([[REPORT_TITLE], [`Made ${input.timestamp}`], [CAUTION]], true);
+  if (input.ranges.length > 0) left.add([["input", "range"], ...input.ranges.map((r): CellValue[] => [r.label, r.address])], true);
+  left.add([["setting", "value"], ...(input.settings.length > 0 ? input.settings.map((s): CellValue[] => [s.name, s.value]) : [["(all defaults)", ""]])], true);
+  const data = dataRows(result, dataset);
+  left.add(data.facts, true);
+  left.add(data.columns, true, [null, FORMATS.decimal, FORMATS.decimal]);
+  const levels = levelRows(dataset);
+  if (levels) left.add(levels, true);
+  const notes = [...dataset.notes, ...result.warnings.map((w) => w.message)];
+  if (notes.length > 0) left.add([["notes"], ...notes.map((note): CellValue[] => [note])], true);
+  left.add(choiceRows(result), true);
+  left.add(coefficientRows(result, dataset), true);
+
+  const blocks = [...left.blocks];
+  let nextColumn = CV_COLUMN;
+  const cv = result.cv;
+  if (cv) {
+    const rows: CellValue[][] = [["mix", "strength", `CV error (${cv.measure.toUpperCase()})`, "SE", "nonzero"]];
+    for (const row of cv.table) rows.push([num(row.mix), num(row.strength), num(row.error), num(row.se), row.nonzero]);
+    blocks.push({ at: cellName(TABLES_ROW, nextColumn), rows, header: true, formats: [FORMATS.mix, FORMATS.strength, null, null, FORMATS.count] });
+    nextColumn += rows[0].length + GAP_COLUMNS;
+  }
+  const path = result.path;
+  const pathRows: CellValue[][] = [["strength", ...result.terms]];
+  for (let k = 0; k < path.strengths.length; k++) pathRows.push([num(path.strengths[k]), ...path.coefficients[k].map(num)]);
+  const pathBlock: ReportBlock = {
+    at: cellName(TABLES_ROW, nextColumn),
+    rows: pathRows,
+    header: true,
+    formats: [FORMATS.strength, ...result.terms.map(() => null)],
+  };
+  blocks.push(pathBlock);
+  const chart: ReportChart = {
+    title: `Coefficient path (mix ${result.path.mix})`,
+    block: pathBlock,
+    // A log axis needs positive strengths (a least-squares fit has strength 0 only).
+    logX: path.strengths.length > 0 && path.strengths.every((s) => s > 0),
+    xTitle: "penalty strength",
+    yTitle: "coefficient",
+    at: CHART_AT,
+  };
+  return { name: input.name ?? REPORT_TITLE, blocks, charts: [chart] };
+}
+
+/** A block's rows padded with "" to a rectangle, and its width. */
+export function blockRows(block: ReportBlock): { rows: CellValue[][]; width: number } {
+  const width = Math.max(1, ...block.rows.map((row) => row.length));
+  return { rows: block.rows.map((row) => (row.length === width ? row.slice() : [...row, ...new Array<CellValue>(width - row.length).fill("")])), width };
+}
+
+/** The cells a block covers on its sheet (sheet null). */
+export function blockArea(block: ReportBlock): RangeAddress {
+  const { rows, width } = blockRows(block);
+  return spillArea(parseAddress(block.at), Math.max(1, rows.length), width);
+}
