@@ -127,6 +127,8 @@ export interface FitResult {
   coefficients: number[];
   /** Coefficient × the predictor's population SD (per unit of spread). */
   standardizedCoefficients: number[];
+  /** Each predictor's weighted population SD on the rows used (0 for a constant column). */
+  predictorSpreads: number[];
   mix: number;
   strength: number;
   strengthFraction: number;
@@ -810,6 +812,7 @@ function assemble(
     intercept,
     coefficients,
     standardizedCoefficients: coefficients.map((b, j) => b * full.std.xSpread[j]),
+    predictorSpreads: Array.from(full.std.xSpread),
     mix,
     strength: run.strengths[index],
     strengthFraction: top > 0 ? run.strengths[index] / top : 0,
@@ -864,6 +867,7 @@ function leastSquaresResult(data: Prepared, full: TrainingProblem, constantColum
     intercept: baseline.intercept,
     coefficients,
     standardizedCoefficients: coefficients.map((b, j) => b * full.std.xSpread[j]),
+    predictorSpreads: Array.from(full.std.xSpread),
     mix: data.mixes[0],
     strength: 0,
     strengthFraction: 0,
