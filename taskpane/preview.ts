@@ -1,7 +1,7 @@
 /**
- * The standalone preview: what taskpane.html shows when it is opened outside Office (Office.onReady
- * reports no host). It lays the invented roastery data (addin/demo) out as a worksheet would hold
- * it and shows, for each SHRINK function, the formula a user would type and the array it spills,
+ * "What the cells return", part of the standalone preview (taskpane.html opened outside Office,
+ * under the stand-in sheet). For the invented roastery data (addin/demo) it shows, for each
+ * SHRINK function, the formula a user would type and the array it spills,
  * computed now by functions/api.ts through the runner it is given (the add-in's shared fit cache
  * in front of its Web Worker), exactly as in Excel. Errors appear as the cell would show them: the
  * error text (#VALUE!, #N/A, …) and its message.
@@ -11,20 +11,15 @@
  *   A124:L132  the new batches: header row, 8 batches without a score
  *   O1         =SHRINK.COEFS(...), so O1# is its spilled coefficient table
  *
- * DOM work is confined to `renderPreview`; the examples and the number formatting are plain
+ * Shown under the stand-in sheet as a closed "What the cells return" section, computed when first
+ * opened. DOM work is confined to `renderPreview`; the examples and the number formatting are plain
  * functions, so tests can run them without a browser.
  */
 import * as api from "../functions/api";
 import type { Spill, SpillCell } from "../functions/api";
 import { isCellError } from "../functions/errors";
 import type { FitProgress, FitRunner } from "../functions/runner";
-import {
-  roasteryColumns,
-  roasteryNewRows,
-  roasteryNewRowsExpected,
-  roasteryRows,
-  roasteryTruth,
-} from "../addin/demo/roasteryData";
+import { roasteryColumns, roasteryNewRows, roasteryNewRowsExpected, roasteryRows } from "../addin/demo/roasteryData";
 import type { FunctionHelp } from "./taskpane";
 
 /** The worksheet ranges the examples use, as Excel would pass them (rows of cells; blanks null). */
@@ -272,100 +267,74 @@ async function runExample(example: Example, index: number, runner: FitRunner, sh
 export interface PreviewOptions {
   /** Runs the fits: the add-in's shared runner, or an in-process one. */
   runner: FitRunner;
-  /** One line per function, for the contents list. */
+  /** One line per function, for each example's signature. */
   help: readonly FunctionHelp[];
+  /** Heading level of the section's title (its examples are one level below). Default 2. */
+  level?: 2 | 3;
 }
 
-/** Draws the standalone preview into `root` and computes every example (resolves when all are done). */
-export async function renderPreview(root: HTMLElement, options: PreviewOptions): Promise<void> {
+/**
+ * Draws the "What the cells return" section into `root`: a closed <details>; on first opening,
+ * every example is computed (resolves the returned promise's `computed` once all are done).
+ */
+export function renderPreview(root: HTMLElement, options: PreviewOptions): { computed: Promise<void> } {
   const sheet = demoSheet();
-  root.replaceChildren();
-  root.setAttribute("aria-busy", "true");
-
-  const heading = element("h2", "Standalone preview");
-  heading.id = "help"; // manifest.xml's SupportUrl and LearnMoreUrl point here
-  root.append(heading);
-  root.append(
-    element(
-      "p",
-      "This page is open outside Excel, so it shows what the SHRINK cell functions return on the built-in demo data. Each result below is computed now, in this browser, by the same code and the same shared fit cache that serve the cells in Excel.",
-    ),
-  );
-  const layout = element("p");
-  layout.append(
-    "The formulas assume this sheet: the demo data in ",
+  const level = options.level ?? 2;
+  const section = element("section", undefined, "cell-returns");
+  section.setAttribute("aria-labelledby", "cell-returns-title");
+  const heading = element(level === 2 ? "h2" : "h3", "What the cells return");
+  heading.id = "cell-returns-title";
+  section.append(heading);
+  const intro = element("p", undefined, "hint");
+  intro.append(
+    "Each SHRINK function typed on the demo sheet, with the array it spills, computed in this browser by the same code and fit cache the cells use. The formulas assume the demo layout: data in ",
     element("code", "A1:M121"),
-    " (header row, then 120 batches: roast_id in A, predictors in B:L, score in M), the new batches in ",
+    ", new batches in ",
     element("code", "A124:L132"),
-    ", and SHRINK.COEFS in ",
+    ", SHRINK.COEFS in ",
     element("code", "O1"),
     ".",
   );
-  root.append(layout);
+  const details = element("details");
+  details.dataset.testid = "cell-returns";
+  const summary = element("summary", "Show every function's result on the demo data");
+  const body = element("div");
+  details.append(summary, body);
+  section.append(intro, details);
+  root.append(section);
 
-  const nav = element("nav");
-  nav.setAttribute("aria-label", "Contents");
-  const list = element("ul");
-  const link = (href: string, text: string): HTMLLIElement => {
-    const item = element("li");
-    const anchor = element("a", text);
-    anchor.href = href;
-    item.append(anchor);
-    return item;
-  };
-  list.append(link("#demo-data", "Demo data: an invented coffee roastery"));
-  EXAMPLES.forEach((example, k) => {
-    const help = options.help.find((h) => h.id === example.id);
-    const isMistake = k === EXAMPLES.length - 1;
-    list.append(link(`#example-${k + 1}`, isMistake ? "When an input is wrong" : `SHRINK.${example.id}${help ? `: ${help.summary}` : ""}`));
+  let resolveComputed: () => void = () => undefined;
+  const computed = new Promise<void>((resolve) => (resolveComputed = resolve));
+  let started = false;
+  details.addEventListener("toggle", () => {
+    if (!details.open || started) return;
+    started = true;
+    body.setAttribute("aria-busy", "true");
+    const sections = EXAMPLES.map((example, k) => {
+      const part = element("section", undefined, "example");
+      const id = `example-${k + 1}`;
+      part.setAttribute("aria-labelledby", id);
+      const isMistake = k === EXAMPLES.length - 1;
+      const title = element(level === 2 ? "h3" : "h4", isMistake ? "When an input is wrong" : `SHRINK.${example.id}`);
+      title.id = id;
+      part.append(title);
+      const help = options.help.find((h) => h.id === example.id);
+      if (help && !isMistake) {
+        const signature = element("p");
+        signature.append(element("code", `SHRINK.${help.id}(${help.signature})`), `: ${help.summary}`);
+        part.append(signature);
+      }
+      const formula = element("p");
+      formula.append("Formula: ", element("span", example.formula, "formula"));
+      part.append(formula, element("p", example.note, "muted"));
+      body.append(part);
+      return part;
+    });
+    // All examples at once, as Excel would calculate them: the fits they share run once.
+    Promise.all(EXAMPLES.map((example, k) => runExample(example, k, options.runner, sheet, sections[k]))).then(() => {
+      body.setAttribute("aria-busy", "false");
+      resolveComputed();
+    }, resolveComputed);
   });
-  nav.append(list);
-  root.append(nav);
-
-  // The data.
-  const data = element("section");
-  data.setAttribute("aria-labelledby", "demo-data");
-  const dataHeading = element("h2", "Demo data: an invented coffee roastery");
-  dataHeading.id = "demo-data";
-  data.append(dataHeading);
-  const truth = Object.entries(roasteryTruth.coefficients)
-    .filter(([, value]) => value !== 0)
-    .map(([name, value]) => `${value < 0 ? "−" : "+"} ${Math.abs(value)} × ${name}`)
-    .join(" ");
-  data.append(
-    element(
-      "p",
-      `Each batch has a cupping score from the tasting bench, five bean-temperature readings along the roast (strongly correlated), bean moisture and density, batch size, roast time, room humidity, and the beans' origin (text). The scores were generated as ${roasteryTruth.intercept} ${truth} + noise (SD ${roasteryTruth.noiseSd}); every other predictor has a true coefficient of 0. Four cells are blank on purpose.`,
-    ),
-  );
-  data.append(table("Demo data, A1:M121 (blank cells marked)", roasteryColumns, roasteryRows, { blankText: "blank" }));
-  data.append(element("h3", "New batches, A124:L132"));
-  data.append(table("New batches without a score, A124:L132", roasteryColumns.slice(0, -1), roasteryNewRows, { short: true }));
-  root.append(data);
-
-  // The functions.
-  const sections = EXAMPLES.map((example, k) => {
-    const section = element("section", undefined, "example");
-    const id = `example-${k + 1}`;
-    section.setAttribute("aria-labelledby", id);
-    const isMistake = k === EXAMPLES.length - 1;
-    const heading = element("h2", isMistake ? "When an input is wrong" : `SHRINK.${example.id}`);
-    heading.id = id;
-    section.append(heading);
-    const help = options.help.find((h) => h.id === example.id);
-    if (help && !isMistake) {
-      const signature = element("p");
-      signature.append(element("code", `SHRINK.${help.id}(${help.signature})`), `: ${help.summary}`);
-      section.append(signature);
-    }
-    const formula = element("p");
-    formula.append("Formula: ", element("span", example.formula, "formula"));
-    section.append(formula, element("p", example.note, "muted"));
-    root.append(section);
-    return section;
-  });
-
-  // All examples at once, as Excel would calculate them: the fits they share run once.
-  await Promise.all(EXAMPLES.map((example, k) => runExample(example, k, options.runner, sheet, sections[k])));
-  root.setAttribute("aria-busy", "false");
+  return { computed };
 }

@@ -1,27 +1,31 @@
 /**
- * The Shrinkwise task pane. taskpane.html is also the shared runtime of the cell functions: the
+ * Starts the Shrinkwise page. taskpane.html is also the shared runtime of the cell functions: the
  * functions bundle (functions/functions.ts) loads first on the same page and registers the SHRINK
- * functions; this bundle only draws the pane.
+ * functions; this bundle draws the side pane (pane.ts).
  *
  * `Office.onReady` tells where we are running:
- * - inside Excel (`info.host` set): a short guide to the functions;
+ * - inside Excel (`info.host` set): the pane on the open workbook (OfficeSheetHost);
  * - anywhere else (`info.host` null, e.g. https://localhost:3000/taskpane.html in a browser, or
- *   office.js missing altogether): the standalone preview (preview.ts), which computes every
- *   function's result on the demo data with the same shared fit cache the cells use.
+ *   office.js missing altogether): the standalone preview. The SAME pane runs on a stand-in
+ *   workbook holding the demo data (StandInSheetHost), drawn beside the pane (standInView.ts) so
+ *   ranges are picked by selecting its cells; formulas and reports written by the pane appear
+ *   there, computed by the same code and fit cache the cells use. The demo ranges are filled in,
+ *   so Fit works at once. Below the sheet, "What the cells return" (preview.ts).
+ * Both end with a short guide to the cell functions (`#help`, where the manifest's help links point).
  *
- * The side-pane issue builds the full pane on `Host`: what the pane needs from its surroundings.
+ * In the standalone preview `window.__shrinkwisePreview` = { host (the StandInSheetHost), pane
+ * (PaneHandle), view } for browser tests, e.g. `__shrinkwisePreview.host.setCell("M2", 90)`.
  */
 import { sharedRunner } from "../functions/functions";
+import { formatAddress, parseAddress } from "./address";
+import { OfficeSheetHost } from "./officeSheetHost";
+import { mountPane } from "./pane";
 import { renderPreview } from "./preview";
+import type { SheetHost } from "./sheetHost";
+import { createDemoWorkbook, DEMO_RANGES, DEMO_SHEET, StandInSheetHost } from "./standInSheetHost";
+import { renderStandInView } from "./standInView";
 
-/** Where the pane runs. Later work adds range reading and formula writing for the Excel host. */
-export interface Host {
-  kind: "excel" | "standalone";
-  /** Office's platform name (PC, Mac, OfficeOnline, …), or null outside Office. */
-  platform: string | null;
-}
-
-/** One SHRINK function as the pane and the preview describe it. */
+/** One SHRINK function as the pane describes it. */
 export interface FunctionHelp {
   /** Function id as registered (COEFS, …); users type SHRINK.<id>. */
   id: string;
@@ -60,47 +64,84 @@ export function functionList(help: readonly FunctionHelp[] = FUNCTION_HELP): HTM
   return list;
 }
 
-/** The pane inside Excel: what the functions do and how they behave. */
-export function renderExcelPane(root: HTMLElement, host: Host): void {
-  root.replaceChildren();
+/** The guide to the cell functions, collapsed (`#help`). */
+export function helpSection(): HTMLElement {
+  const section = element("section", undefined, "help");
+  section.setAttribute("aria-labelledby", "help");
   const heading = element("h2", "Cell functions");
   heading.id = "help"; // manifest.xml's SupportUrl and LearnMoreUrl point here
-  root.append(heading);
-  const intro = element("p");
-  intro.append("Type ", element("code", "=SHRINK."), " in a cell to pick a function. Give it the target column and the predictor columns (with their header row, if any); the result spills into the cells below and to the right.");
-  root.append(intro, functionList());
-  root.append(element("h2", "Results refresh when the inputs change"));
-  root.append(
+  const intro = element("p", undefined, "hint");
+  intro.append(
+    "Type ",
+    element("code", "=SHRINK."),
+    " in a cell to pick a function. Formulas over the same ranges, mixes and settings share one fit, and Excel recalculates them when a cell they read changes.",
+  );
+  const details = element("details");
+  details.append(element("summary", "Show the functions"), functionList());
+  details.append(
     element(
       "p",
-      "Excel recalculates a SHRINK formula whenever a cell it refers to changes. Formulas over the same ranges, mixes and settings share one fit, so COEFS, CHOICE, PREDICT, PATH and CVCURVE side by side cost a single cross-validated fit, computed on this computer.",
+      "Blank cells skip their row. Where a host hands blanks over as 0, add the setting zero is missing (for example \"zero is missing=moisture\") so those zeros count as blank.",
+      "hint",
     ),
   );
-  root.append(
-    element(
-      "p",
-      "Blank cells skip their row. Where a host hands blanks over as 0, add the setting zero is missing (for example \"zero is missing=Moisture\") so those zeros count as blank.",
-      "muted",
-    ),
+  section.append(heading, intro, details);
+  return section;
+}
+
+/** The demo ranges on the stand-in's demo sheet, with the sheet name. */
+export function demoRanges(): { target: string; predictors: string; newRows: string; destination: string } {
+  const on = (address: string): string => formatAddress({ ...parseAddress(address), sheet: DEMO_SHEET });
+  return { target: on(DEMO_RANGES.target), predictors: on(DEMO_RANGES.predictors), newRows: on(DEMO_RANGES.newRows), destination: on("O1") };
+}
+
+async function startExcel(root: HTMLElement): Promise<void> {
+  const host: SheetHost = new OfficeSheetHost();
+  const layout = element("div", undefined, "layout");
+  const pane = element("div");
+  layout.append(pane);
+  root.replaceChildren(layout);
+  await mountPane(pane, host);
+  pane.append(helpSection());
+}
+
+async function startStandalone(root: HTMLElement): Promise<void> {
+  const host = new StandInSheetHost(createDemoWorkbook());
+  const layout = element("div", undefined, "layout standalone");
+  const pane = element("div");
+  const side = element("section", undefined, "sheet-side");
+  side.setAttribute("aria-labelledby", "sheet-title");
+  const sheetTitle = element("h2", "Demo workbook");
+  sheetTitle.id = "sheet-title";
+  const note = element(
+    "p",
+    "Not running inside Excel, so the pane works on this stand-in workbook: an invented coffee roastery's 120 batches (score in column M, predictors in B:L) and eight new batches below. Select cells here and press Use selection in the pane; formulas and reports the pane writes appear here, computed in this browser.",
+    "hint",
   );
-  root.append(element("p", `Running in Excel (${host.platform ?? "unknown platform"}).`, "muted"));
+  const sheetBox = element("div", undefined, "sheet-view");
+  side.append(sheetTitle, note, sheetBox);
+  layout.append(pane, side);
+  root.replaceChildren(layout);
+  const view = renderStandInView(sheetBox, host);
+  const handle = await mountPane(pane, host, { defaults: demoRanges(), onSheetWritten: () => view.refresh() });
+  renderPreview(side, { runner: sharedRunner(), help: FUNCTION_HELP });
+  pane.append(helpSection());
+  // For the browser tests and for poking around in the console: the stand-in workbook and the pane.
+  (globalThis as { __shrinkwisePreview?: unknown }).__shrinkwisePreview = { host, pane: handle, view };
 }
 
 async function start(): Promise<void> {
   const root = document.getElementById("app");
   if (!root) return;
-  let host: Host = { kind: "standalone", platform: null };
+  let inExcel = false;
   // Outside Office office.js resolves onReady with host null; without office.js there is no Office.
   if (typeof Office !== "undefined" && typeof Office.onReady === "function") {
     const info = await Office.onReady();
-    if (info.host) host = { kind: "excel", platform: info.platform ? String(info.platform) : null };
+    inExcel = Boolean(info.host);
   }
-  if (host.kind === "excel") {
-    renderExcelPane(root, host);
-    root.setAttribute("aria-busy", "false");
-  } else {
-    await renderPreview(root, { runner: sharedRunner(), help: FUNCTION_HELP });
-  }
+  if (inExcel) await startExcel(root);
+  else await startStandalone(root);
+  root.setAttribute("aria-busy", "false");
 }
 
 if (typeof document !== "undefined") {
@@ -108,7 +149,9 @@ if (typeof document !== "undefined") {
     const root = document.getElementById("app");
     if (root) {
       root.setAttribute("aria-busy", "false");
-      root.replaceChildren(element("p", `Shrinkwise could not start: ${error instanceof Error ? error.message : String(error)}`, "status failed"));
+      const failed = element("p", `Shrinkwise could not start: ${error instanceof Error ? error.message : String(error)}`, "status failed");
+      failed.setAttribute("role", "alert");
+      root.replaceChildren(failed);
     }
   });
 }

@@ -1,0 +1,858 @@
+/**
+ * The Shrinkwise side pane: choose ranges, set the fit up, fit (in the Web Worker, through the
+ * fit cache the cell functions share), look at the results, put SHRINK formulas on the sheet,
+ * write a report sheet. It talks to the workbook only through a SheetHost (Excel, or the
+ * stand-in workbook of the standalone preview), so the same pane runs in both.
+ *
+ * The fit sends exactly the request the cell functions send for the same ranges, mixes and
+ * settings (functions/api.ts `prepare`), so formulas inserted afterwards find the fit in the
+ * cache and return at once.
+ *
+ * Fit states (paneState.ts): idle → fitting (progress) → done | failed | cancelled; done → stale
+ * when a chosen range's cells, a range, the header toggle or a setting change. Results of the
+ * last finished fit stay on screen, under a banner, while stale, failed or cancelled.
+ *
+ * Stable test ids (`data-testid`), for the browser tests:
+ *   Ranges      target-address, target-use-selection, target-prompt (only where the host has a
+ *               range prompt); the same for predictors-*, new-rows-* (+ new-rows-clear);
+ *               header-toggle (select: auto / yes / no); setting-weights-column (select of the
+ *               predictors' column names)
+ *   Settings    setting-mixes, setting-folds, setting-rule, setting-error, setting-seed,
+ *               setting-standardize, setting-intercept, setting-strength, setting-grid-size,
+ *               setting-low-end, setting-time-order, setting-fold-column, setting-penalty,
+ *               setting-no-penalty, setting-lower, setting-upper, setting-zero-is-missing;
+ *               each message under a field: <field id>-error (e.g. setting-folds-error);
+ *               settings-problem (a clash between settings); more-settings (the <details>)
+ *   Fit         fit-button, cancel-button (disabled unless fitting), fit-progress (<progress>,
+ *               max = fits to do, value = fits done; its wrapper is hidden unless fitting),
+ *               fit-progress-label ("12 of 55 fits done"), status (the fit's live status line:
+ *               starts "Fitted" when done), stale-banner (+ stale-fit-button)
+ *   Results     results (section), chosen-strength (text = the strength as shown, data-value =
+ *               full precision), chosen-mix, chosen-error, chosen-rule, chosen-nonzero,
+ *               chosen-rows, fit-notes;
+ *               chart-path, chart-cv, chart-bars (chart containers; role img, aria-label = the
+ *               chart's describe()), chart-path-caption, chart-cv-caption, chart-bars-caption,
+ *               save-png-path, save-svg-path, save-png-cv, save-svg-cv, save-png-bars,
+ *               save-svg-bars; results-table, copy-button, copy-status
+ *   Formulas    destination-address, destination-use-selection, destination-prompt,
+ *               formula-preview (list of the formulas), insert-button, insert-status,
+ *               confirm-panel (hidden until cells would be overwritten), confirm-cells (a list, one
+ *               line per formula area in use), confirm-overwrite, confirm-cancel
+ *   Report      report-button, report-status ("Report written to the sheet '…'"; data-sheet = name)
+ *   Other       pane-message (last range pick / action message)
+ * In the standalone preview, `window.__shrinkwisePreview` = { host, pane, view } (taskpane.ts).
+ */
+import { CancelledError } from "../engine/errors";
+import type { FitResult } from "../engine/fit";
+import { prepare } from "../functions/api";
+import { sharedRunner } from "../functions/functions";
+import { cancelSource, type FitRunner } from "../functions/runner";
+import { formatAddress, parseAddress } from "./address";
+import { mountChart, type ChartHandle } from "./charts";
+import {
+  filledLines,
+  findFilledCells,
+  formulaIds,
+  formulaText,
+  planPlacements,
+  spillShapes,
+  writePlacements,
+  type Placement,
+} from "./insertFormulas";
+import {
+  columnNames,
+  emptyInputs,
+  fitStatusText,
+  formatNumber,
+  IDLE,
+  INPUTS_KEY,
+  mixesText,
+  progressText,
+  reduceFit,
+  restoreInputs,
+  settingPairs,
+  settingsText,
+  shownOutcome,
+  type FitEvent,
+  type FitOutcome,
+  type FitState,
+  type PaneInputs,
+  type PaneRanges,
+} from "./paneState";
+import { renderRangePicker, type RangePicker, type RangePickerSpec } from "./rangePickers";
+import { buildReport } from "./report";
+import { coefficientRows, coefficientTsv, copyText, renderCoefficientTable } from "./resultsTable";
+import { renderSettingsForm } from "./settingsForm";
+import type { SheetHost } from "./sheetHost";
+
+export interface PaneOptions {
+  /** Ranges to start with when the workbook has none saved (the demo workbook's). */
+  defaults?: Partial<PaneRanges>;
+  /** Runs the fits; default the shared fit cache of the cell functions. */
+  runner?: FitRunner;
+  /** Called after the pane wrote to the sheet (formulas, a report), e.g. to redraw a stand-in view. */
+  onSheetWritten?: () => void;
+  /** The clock for the report's time stamp. */
+  now?: () => Date;
+}
+
+export interface PaneHandle {
+  /** Starts a fit as the Fit button does; resolves with the outcome, or null if it failed or was cancelled. */
+  fit(): Promise<FitOutcome | null>;
+  state(): FitState;
+  inputs(): PaneInputs;
+  /** Re-reads the host's theme (light/dark) and applies it. */
+  applyTheme(): void;
+  dispose(): void;
+}
+
+type ChartKind = "path" | "cv" | "bars";
+
+const CHARTS: readonly { kind: ChartKind; title: string; file: string }[] = [
+  { kind: "path", title: "Coefficient path", file: "shrinkwise-path" },
+  { kind: "cv", title: "Cross-validation curve", file: "shrinkwise-cv-curve" },
+  { kind: "bars", title: "Coefficients of the chosen model", file: "shrinkwise-coefficients" },
+];
+
+// ---------------------------------------------------------------------------------------------
+// Small DOM helpers
+
+function el<K extends keyof HTMLElementTagNameMap>(tag: K, props: { text?: string; className?: string; id?: string; testid?: string } = {}): HTMLElementTagNameMap[K] {
+  const node = document.createElement(tag);
+  if (props.text !== undefined) node.textContent = props.text;
+  if (props.className) node.className = props.className;
+  if (props.id) node.id = props.id;
+  if (props.testid) node.dataset.testid = props.testid;
+  return node;
+}
+
+function button(text: string, testid: string, className = "secondary"): HTMLButtonElement {
+  const b = el("button", { text, testid, className });
+  b.type = "button";
+  return b;
+}
+
+function section(id: string, title: string): { section: HTMLElement; heading: HTMLHeadingElement } {
+  const s = el("section", { className: "pane-section" });
+  s.setAttribute("aria-labelledby", id);
+  const heading = el("h2", { text: title, id });
+  s.append(heading);
+  return { section: s, heading };
+}
+
+function messageOf(error: unknown): string {
+  if (error && typeof error === "object" && typeof (error as { message?: unknown }).message === "string") return (error as { message: string }).message;
+  return String(error);
+}
+
+function isCancelled(error: unknown): boolean {
+  return error instanceof CancelledError || (!!error && typeof error === "object" && (error as { name?: unknown }).name === "CancelledError");
+}
+
+/** Downloads `href` (a data: or blob: URL) as `file`, through a temporary <a download>. */
+function download(href: string, file: string): void {
+  const a = document.createElement("a");
+  a.href = href;
+  a.download = file;
+  a.hidden = true;
+  document.body.append(a);
+  a.click();
+  a.remove();
+}
+
+/** An SVG export as a URL: a data URL as it is, markup through a Blob URL (released a little later). */
+function svgUrl(svg: string): { url: string; release: () => void } {
+  if (svg.startsWith("data:")) return { url: svg, release: () => undefined };
+  const url = URL.createObjectURL(new Blob([svg], { type: "image/svg+xml" }));
+  return { url, release: () => URL.revokeObjectURL(url) };
+}
+
+function stamp(date: Date): string {
+  const two = (n: number): string => String(n).padStart(2, "0");
+  return `${date.getFullYear()}-${two(date.getMonth() + 1)}-${two(date.getDate())} ${two(date.getHours())}:${two(date.getMinutes())}`;
+}
+
+function copyInputs(inputs: PaneInputs): PaneInputs {
+  return { ranges: { ...inputs.ranges }, header: inputs.header, mixes: inputs.mixes, settings: { ...inputs.settings } };
+}
+
+/** The first row of a range's address (`B1:L121` → `B1:L1`), or null if it can't be read. */
+function firstRowAddress(address: string): string | null {
+  try {
+    const range = parseAddress(address);
+    if (range.whole === "rows") return null;
+    return formatAddress({ sheet: range.sheet, top: range.top, left: range.left, bottom: range.top, right: range.right });
+  } catch {
+    return null;
+  }
+}
+
+// ---------------------------------------------------------------------------------------------
+
+/** Draws the pane into `root` for `host`; resolves once the saved inputs are restored. */
+export async function mountPane(root: HTMLElement, host: SheetHost, options: PaneOptions = {}): Promise<PaneHandle> {
+  const runner = options.runner ?? sharedRunner();
+  const now = options.now ?? (() => new Date());
+  const saved = await host.loadSetting<unknown>(INPUTS_KEY).catch(() => null);
+  const inputs: PaneInputs = saved ? restoreInputs(saved) : emptyInputs();
+  if (!saved && options.defaults) inputs.ranges = { ...inputs.ranges, ...options.defaults };
+
+  let state: FitState = IDLE;
+  let run = 0;
+  let cancelRun: (() => void) | null = null;
+  let unwatch: (() => void) | null = null;
+  let saveTimer: ReturnType<typeof setTimeout> | undefined;
+  let disposed = false;
+  const cleanups: (() => void)[] = [];
+
+  root.classList.add("pane");
+
+  // A general message line (range picks, failures outside the fit).
+  const message = el("p", { className: "message", testid: "pane-message", id: "pane-message" });
+  message.setAttribute("role", "status");
+  const say = (text: string, failed = false): void => {
+    message.textContent = text;
+    message.classList.toggle("failed", failed);
+  };
+
+  // ---- Ranges -------------------------------------------------------------------------------
+  const ranges = section("pane-ranges", "Ranges");
+  ranges.section.append(
+    el("p", {
+      className: "hint",
+      text: "Select cells on the sheet, then press Use selection. Include the header row if your columns have names.",
+    }),
+  );
+  const pickerSpecs: (RangePickerSpec & { field: keyof PaneRanges })[] = [
+    { field: "target", key: "target", label: "Target", hint: "One column: the values to predict.", optional: false, emptyText: "not chosen", promptLabel: "Select the target column" },
+    {
+      field: "predictors",
+      key: "predictors",
+      label: "Predictors",
+      hint: "The columns that predict the target, one row per target row. Text columns become 0/1 terms.",
+      optional: false,
+      emptyText: "not chosen",
+      promptLabel: "Select the predictor columns",
+    },
+    {
+      field: "newRows",
+      key: "new-rows",
+      label: "New rows (optional)",
+      hint: "Rows to predict, with the predictors' columns (header row optional).",
+      optional: true,
+      emptyText: "none",
+      promptLabel: "Select the rows to predict",
+    },
+  ];
+  const pickers: Partial<Record<keyof PaneRanges, RangePicker>> = {};
+  for (const spec of pickerSpecs) {
+    pickers[spec.field] = renderRangePicker(
+      spec,
+      host,
+      inputs.ranges[spec.field],
+      (address) => {
+        inputs.ranges[spec.field] = address;
+        changed(true);
+        if (spec.field === "predictors") void refreshColumns();
+        renderFormulaPreview();
+      },
+      say,
+    );
+    ranges.section.append(pickers[spec.field]!.element);
+  }
+
+  // Header toggle.
+  const headerField = el("div", { className: "field" });
+  const headerLabel = el("label", { text: "Header row in predictors" });
+  headerLabel.htmlFor = "header-toggle";
+  const headerSelect = el("select", { id: "header-toggle", testid: "header-toggle" });
+  for (const [value, label] of [
+    ["auto", "Find out (default)"],
+    ["yes", "Yes: the first row holds names"],
+    ["no", "No: every row is data"],
+  ] as const) {
+    const option = el("option", { text: label });
+    option.value = value;
+    headerSelect.append(option);
+  }
+  headerSelect.value = inputs.header;
+  const headerHint = el("p", { className: "hint", id: "header-toggle-hint", text: "Without names, columns are called x1, x2, …" });
+  headerSelect.setAttribute("aria-describedby", headerHint.id);
+  headerSelect.addEventListener("change", () => {
+    inputs.header = headerSelect.value === "yes" || headerSelect.value === "no" ? headerSelect.value : "auto";
+    changed(true);
+    void refreshColumns();
+    renderFormulaPreview();
+  });
+  headerField.append(headerLabel, headerSelect, headerHint);
+
+  // ---- Settings -----------------------------------------------------------------------------
+  const form = renderSettingsForm(inputs, () => {
+    changed(true);
+    renderFormulaPreview();
+    renderButtons();
+  });
+  ranges.section.insertBefore(headerField, pickers.newRows!.element);
+  ranges.section.append(form.weightsElement);
+  const settings = section("pane-settings", "Settings");
+  settings.section.append(form.element);
+
+  // ---- Fit ----------------------------------------------------------------------------------
+  const fitting = section("pane-fit", "Fit");
+  const fitButton = button("Fit", "fit-button", "primary");
+  const cancelButton = button("Cancel", "cancel-button");
+  cancelButton.setAttribute("aria-label", "Cancel the fit");
+  const fitButtons = el("div", { className: "buttons" });
+  fitButtons.append(fitButton, cancelButton);
+  const progressWrap = el("div", { className: "progress" });
+  const progress = el("progress", { id: "fit-progress", testid: "fit-progress" });
+  const progressLabel = el("span", { id: "fit-progress-label", testid: "fit-progress-label" });
+  progress.setAttribute("aria-labelledby", "fit-progress-label");
+  progress.max = 1;
+  progressWrap.append(progress, progressLabel);
+  progressWrap.hidden = true;
+  const status = el("p", { className: "status", id: "fit-status", testid: "status" });
+  status.setAttribute("role", "status");
+  const staleBanner = el("div", { className: "banner", testid: "stale-banner" });
+  const staleText = el("p", { text: "Inputs changed — fit again to update the results." });
+  const staleFit = button("Fit again", "stale-fit-button");
+  staleBanner.append(staleText, staleFit);
+  staleBanner.hidden = true;
+  fitting.section.append(fitButtons, progressWrap, status, staleBanner);
+
+  // ---- Results ------------------------------------------------------------------------------
+  const results = section("pane-results", "Results");
+  results.section.dataset.testid = "results";
+  const resultsEmpty = el("p", { className: "hint", text: "Results appear here after a fit." });
+  const resultsBody = el("div", { className: "results-body" });
+  resultsBody.hidden = true;
+  results.section.append(resultsEmpty, resultsBody);
+
+  const summary = el("dl", { className: "summary" });
+  const summaryItem = (label: string, testid: string): HTMLElement => {
+    const dt = el("dt", { text: label });
+    const dd = el("dd");
+    const value = el("span", { testid });
+    dd.append(value);
+    summary.append(dt, dd);
+    return value;
+  };
+  const chosenStrength = summaryItem("Strength (λ)", "chosen-strength");
+  const chosenMix = summaryItem("Mix (α)", "chosen-mix");
+  const chosenError = summaryItem("Cross-validated error", "chosen-error");
+  const chosenRule = summaryItem("Chosen by", "chosen-rule");
+  const chosenNonzero = summaryItem("Terms kept", "chosen-nonzero");
+  const chosenRows = summaryItem("Rows", "chosen-rows");
+  const notes = el("ul", { className: "notes", testid: "fit-notes" });
+  notes.setAttribute("aria-label", "Notes on the fit");
+
+  const chartArea = el("div", { className: "charts" });
+  const charts: Partial<Record<ChartKind, { handle: ChartHandle | null; box: HTMLElement; caption: HTMLElement; png: HTMLButtonElement; svg: HTMLButtonElement; note: HTMLElement }>> = {};
+  for (const chart of CHARTS) {
+    const figure = el("figure", { className: "chart" });
+    const heading = el("h3", { text: chart.title, id: `chart-${chart.kind}-title` });
+    const box = el("div", { className: "chart-box", testid: `chart-${chart.kind}`, id: `chart-${chart.kind}` });
+    // mountChart makes the box an image labelled with its description (describe()).
+    const note = el("p", { className: "hint" });
+    note.hidden = true;
+    const caption = el("figcaption", { testid: `chart-${chart.kind}-caption`, id: `chart-${chart.kind}-caption` });
+    const png = button("Save PNG", `save-png-${chart.kind}`);
+    png.setAttribute("aria-label", `Save PNG of the ${chart.title.toLowerCase()}`);
+    const svg = button("Save SVG", `save-svg-${chart.kind}`);
+    svg.setAttribute("aria-label", `Save SVG of the ${chart.title.toLowerCase()}`);
+    const saveButtons = el("div", { className: "buttons" });
+    saveButtons.append(png, svg);
+    figure.setAttribute("aria-labelledby", heading.id);
+    figure.append(heading, box, note, caption, saveButtons);
+    chartArea.append(figure);
+    charts[chart.kind] = { handle: null, box, caption, png, svg, note };
+    png.addEventListener("click", () => {
+      const handle = charts[chart.kind]?.handle;
+      if (!handle) return;
+      try {
+        download(handle.exportPng(), `${chart.file}.png`);
+        say(`Saved ${chart.file}.png`);
+      } catch (error) {
+        say(`Could not save the picture: ${messageOf(error)}`, true);
+      }
+    });
+    svg.addEventListener("click", () => {
+      const handle = charts[chart.kind]?.handle;
+      if (!handle) return;
+      try {
+        const { url, release } = svgUrl(handle.exportSvg());
+        download(url, `${chart.file}.svg`);
+        setTimeout(release, 10_000);
+        say(`Saved ${chart.file}.svg`);
+      } catch (error) {
+        say(`Could not save the picture: ${messageOf(error)}`, true);
+      }
+    });
+  }
+
+  const tableHeading = el("h3", { text: "Coefficients", id: "coefficients-title" });
+  const tableHolder = el("div", { className: "table-scroll" });
+  tableHolder.setAttribute("role", "region");
+  tableHolder.setAttribute("aria-labelledby", tableHeading.id);
+  tableHolder.tabIndex = 0;
+  const copyButton = button("Copy", "copy-button");
+  copyButton.setAttribute("aria-label", "Copy the coefficient table");
+  const copyStatus = el("span", { className: "inline-status", testid: "copy-status" });
+  copyStatus.setAttribute("role", "status");
+  const copyRow = el("div", { className: "buttons" });
+  copyRow.append(copyButton, copyStatus);
+  resultsBody.append(summary, notes, chartArea, tableHeading, tableHolder, copyRow);
+
+  // ---- Formulas on the sheet ----------------------------------------------------------------
+  const formulas = section("pane-formulas", "Formulas on the sheet");
+  formulas.section.append(
+    el("p", {
+      className: "hint",
+      text: "Puts SHRINK.COEFS and SHRINK.CHOICE (and SHRINK.PREDICT when new rows are chosen) side by side from the chosen cell. They reuse this fit, and update when the data change.",
+    }),
+  );
+  const destination = renderRangePicker(
+    {
+      key: "destination",
+      label: "Put them from",
+      hint: "The top-left cell; each result spills down and to the right.",
+      optional: false,
+      emptyText: "not chosen",
+      promptLabel: "Select the cell for the formulas",
+      singleCell: true,
+    },
+    host,
+    inputs.ranges.destination,
+    (address) => {
+      inputs.ranges.destination = address;
+      hideConfirm();
+      scheduleSave();
+      renderFormulaPreview();
+    },
+    say,
+  );
+  const formulaList = el("ul", { className: "formula-list", testid: "formula-preview" });
+  formulaList.setAttribute("aria-label", "Formulas to insert");
+  const insertButton = button("Insert formulas", "insert-button", "primary");
+  const insertStatus = el("p", { className: "status", testid: "insert-status" });
+  insertStatus.setAttribute("role", "status");
+  const confirmPanel = el("div", { className: "confirm", testid: "confirm-panel", id: "confirm-panel" });
+  confirmPanel.setAttribute("role", "group");
+  confirmPanel.setAttribute("aria-labelledby", "confirm-title");
+  confirmPanel.setAttribute("aria-describedby", "confirm-text");
+  confirmPanel.tabIndex = -1;
+  const confirmTitle = el("h3", { text: "Some of those cells are not empty", id: "confirm-title" });
+  const confirmText = el("div", { id: "confirm-text" });
+  const confirmCells = el("ul", { testid: "confirm-cells", className: "cells" });
+  const confirmOverwrite = button("Overwrite", "confirm-overwrite", "danger");
+  confirmOverwrite.setAttribute("aria-label", "Overwrite those cells");
+  const confirmCancel = button("Cancel", "confirm-cancel");
+  confirmCancel.setAttribute("aria-label", "Cancel: write nothing");
+  const confirmButtons = el("div", { className: "buttons" });
+  confirmButtons.append(confirmOverwrite, confirmCancel);
+  confirmPanel.append(confirmTitle, confirmText, confirmButtons);
+  confirmPanel.hidden = true;
+  formulas.section.append(destination.element, formulaList, insertButton, confirmPanel, insertStatus);
+
+  // ---- Report -------------------------------------------------------------------------------
+  const report = section("pane-report", "Report sheet");
+  report.section.append(
+    el("p", {
+      className: "hint",
+      text: "Adds a new sheet with the inputs, settings, the chosen model, the cross-validation table and a chart of the coefficient path.",
+    }),
+  );
+  const reportButton = button("Write report sheet", "report-button", "primary");
+  const reportStatus = el("p", { className: "status", testid: "report-status" });
+  reportStatus.setAttribute("role", "status");
+  report.section.append(reportButton, reportStatus);
+
+  root.append(ranges.section, settings.section, fitting.section, message, results.section, formulas.section, report.section);
+
+  // ---------------------------------------------------------------------------------------------
+  // Behaviour
+
+  function scheduleSave(): void {
+    clearTimeout(saveTimer);
+    saveTimer = setTimeout(() => {
+      host.saveSetting(INPUTS_KEY, inputs).catch((error: unknown) => say(`Could not remember the choices in this workbook: ${messageOf(error)}`, true));
+    }, 400);
+  }
+
+  const ready = (): boolean => inputs.ranges.target !== "" && inputs.ranges.predictors !== "";
+
+  /** An input of the fit changed: remember it, and mark a shown result stale. */
+  function changed(affectsFit: boolean): void {
+    scheduleSave();
+    if (affectsFit) dispatch({ type: "inputsChanged" });
+    if (state.phase === "idle") status.textContent = fitStatusText(state, ready());
+  }
+
+  async function refreshColumns(): Promise<void> {
+    const address = inputs.ranges.predictors ? firstRowAddress(inputs.ranges.predictors) : null;
+    if (!address) {
+      form.setColumns([]);
+      return;
+    }
+    try {
+      const rows = await host.readValues(address);
+      form.setColumns(columnNames(rows[0], inputs.header));
+    } catch {
+      form.setColumns([]);
+    }
+  }
+
+  let renderedOutcome: FitOutcome | null = null;
+
+  function dispatch(event: FitEvent): void {
+    const before = state;
+    state = reduceFit(state, event);
+    if (state !== before) render(before);
+  }
+
+  function renderButtons(): void {
+    const busy = state.phase === "fitting";
+    fitButton.disabled = busy;
+    cancelButton.disabled = !busy;
+  }
+
+  function render(before: FitState): void {
+    renderButtons();
+    const busy = state.phase === "fitting";
+    progressWrap.hidden = !busy;
+    root.setAttribute("aria-busy", String(busy));
+    if (state.phase === "fitting") {
+      const total = state.total;
+      if (total > 0) {
+        progress.max = total;
+        progress.value = Math.min(state.done, total);
+      } else {
+        progress.removeAttribute("value");
+      }
+      progressLabel.textContent = progressText(state.done, total);
+      // The live status changes at the start and every quarter, not at every step.
+      const text = fitStatusText(state);
+      if (before.phase !== "fitting" || text !== status.textContent) status.textContent = text;
+    } else {
+      status.textContent = fitStatusText(state, ready());
+    }
+    status.classList.toggle("failed", state.phase === "failed");
+    const outcome = shownOutcome(state);
+    // Results that don't answer the current inputs stay visible, dimmed, under a banner.
+    const old = state.phase === "stale" || ((state.phase === "failed" || state.phase === "cancelled") && outcome !== null);
+    staleBanner.hidden = !old;
+    staleText.textContent =
+      state.phase === "stale" ? "Inputs changed — fit again to update the results." : "The results below are from the last fit that finished.";
+    resultsBody.classList.toggle("is-stale", old);
+    if (outcome !== renderedOutcome) renderResults(outcome);
+    if (state.phase !== before.phase) renderFormulaPreview();
+  }
+
+  function renderResults(outcome: FitOutcome | null): void {
+    renderedOutcome = outcome;
+    resultsEmpty.hidden = outcome !== null;
+    resultsBody.hidden = outcome === null;
+    if (!outcome) return;
+    const r = outcome.result;
+    chosenStrength.textContent = formatNumber(r.strength);
+    chosenStrength.dataset.value = String(r.strength);
+    chosenMix.textContent = r.mix === 0 ? "0 (ridge)" : r.mix === 1 ? "1 (lasso)" : `${formatNumber(r.mix)} (elastic net)`;
+    chosenMix.dataset.value = String(r.mix);
+    const chosen = r.choices ? (r.rule === "onese" ? r.choices.onese : r.choices.min) : null;
+    chosenError.textContent = chosen && r.cv ? `${formatNumber(chosen.error)} ${r.cv.measure.toUpperCase()} (SE ${formatNumber(chosen.se)})` : "none (fixed strength)";
+    chosenRule.textContent = r.rule === "min" ? "lowest error" : r.rule === "onese" ? "one-standard-error rule" : "fixed strength";
+    const nonzero = r.coefficients.filter((b) => b !== 0).length;
+    chosenNonzero.textContent = `${nonzero} of ${r.terms.length}`;
+    chosenRows.textContent = `${r.rowsUsed} used, ${outcome.prepared.dataset.rowsSkipped} skipped`;
+    const noteTexts = [...outcome.prepared.dataset.notes, ...r.warnings.map((w) => w.message)];
+    notes.replaceChildren(...noteTexts.map((text) => el("li", { text })));
+    notes.hidden = noteTexts.length === 0;
+    renderCharts(r, r.predictorSpreads.map((spread) => (spread > 0 ? spread : null)));
+    tableHolder.replaceChildren(renderCoefficientTable(r, `${r.terms.length} terms, largest effect first (standardized: per standard deviation of the predictor)`));
+  }
+
+  function renderCharts(result: FitResult, spreads: (number | null)[]): void {
+    for (const chart of CHARTS) {
+      const slot = charts[chart.kind];
+      if (!slot) continue;
+      const unavailable = chart.kind === "cv" && !result.cv;
+      slot.note.hidden = !unavailable;
+      slot.note.textContent = unavailable ? "No cross-validation ran: the strength was fixed in the settings." : "";
+      slot.box.hidden = unavailable;
+      slot.png.disabled = unavailable;
+      slot.svg.disabled = unavailable;
+      if (unavailable) {
+        slot.caption.textContent = "";
+        continue;
+      }
+      try {
+        if (slot.handle) slot.handle.update(result, spreads);
+        else slot.handle = mountChart(slot.box, chart.kind, result, { theme: host.theme(), spreads });
+        slot.caption.textContent = slot.handle.describe();
+      } catch (error) {
+        slot.caption.textContent = `The chart could not be drawn: ${messageOf(error)}`;
+      }
+    }
+  }
+
+  async function fit(): Promise<FitOutcome | null> {
+    const check = form.check();
+    if (!check.ok) {
+      say("Fix the settings marked above first.", true);
+      const bad = settings.section.querySelector<HTMLElement>("[aria-invalid='true']");
+      bad?.focus();
+      return null;
+    }
+    if (!inputs.ranges.target || !inputs.ranges.predictors) {
+      say("Choose the target and the predictors first.", true);
+      return null;
+    }
+    cancelRun?.();
+    const myRun = ++run;
+    const source = cancelSource();
+    cancelRun = () => {
+      source.cancel();
+      dispatch({ type: "cancelled", run: myRun });
+    };
+    const used = copyInputs(inputs);
+    dispatch({ type: "start", run: myRun });
+    const started = performance.now();
+    // Watch the ranges from now on: a change during the fit already makes its result stale.
+    unwatch?.();
+    unwatch = null;
+    const watched = [used.ranges.target, used.ranges.predictors, used.ranges.newRows].filter((a) => a !== "");
+    host.watch(watched, () => dispatch({ type: "inputsChanged" })).then(
+      (stop) => {
+        if (run === myRun && !disposed) unwatch = stop;
+        else stop();
+      },
+      () => undefined, // no change notices from this host: results just won't be marked stale by sheet edits
+    );
+    try {
+      const [target, predictors, newRows] = await Promise.all([
+        host.readValues(used.ranges.target),
+        host.readValues(used.ranges.predictors),
+        used.ranges.newRows ? host.readValues(used.ranges.newRows) : Promise.resolve(null),
+      ]);
+      if (source.token.cancelled) throw new CancelledError();
+      const prepared = prepare(target, predictors, mixesText(used) || null, settingsText(used) || null);
+      const result = await runner.fit(prepared.request, source.token, (p) => dispatch({ type: "progress", run: myRun, done: p.done, total: p.total }));
+      const outcome: FitOutcome = { result, prepared, inputs: used, values: { target, predictors, newRows }, elapsedMs: performance.now() - started };
+      dispatch({ type: "succeeded", run: myRun, outcome });
+      return state.phase === "done" && state.outcome === outcome ? outcome : null;
+    } catch (error) {
+      if (isCancelled(error) || source.token.cancelled) dispatch({ type: "cancelled", run: myRun });
+      else dispatch({ type: "failed", run: myRun, message: messageOf(error) });
+      return null;
+    } finally {
+      if (run === myRun) cancelRun = null;
+    }
+  }
+
+  /** The current result when it matches the inputs; otherwise a new fit. */
+  async function currentOutcome(): Promise<FitOutcome | null> {
+    if (state.phase === "done") return state.outcome;
+    if (state.phase === "fitting") {
+      say("Wait for the fit to finish (or cancel it) first.", true);
+      return null;
+    }
+    return fit();
+  }
+
+  function renderFormulaPreview(): void {
+    const items: HTMLElement[] = [];
+    if (!inputs.ranges.target || !inputs.ranges.predictors) {
+      items.push(el("li", { className: "hint", text: "Choose the target and predictors to see the formulas." }));
+    } else {
+      const outcome = state.phase === "done" ? state.outcome : null;
+      let placements: Placement[] | null = null;
+      if (outcome && inputs.ranges.destination) {
+        try {
+          placements = planPlacements(inputs.ranges.destination, spillShapes(outcome, formulaIds(outcome.inputs)), outcome.inputs);
+        } catch {
+          placements = null;
+        }
+      }
+      for (const id of formulaIds(inputs)) {
+        const li = el("li");
+        li.append(el("code", { text: formulaText(id, inputs) }));
+        const at = placements?.find((p) => p.id === id);
+        if (at) li.append(el("span", { className: "hint", text: ` in ${at.anchor}, spilling over ${at.area}` }));
+        items.push(li);
+      }
+    }
+    formulaList.replaceChildren(...items);
+  }
+
+  let pendingPlacements: Placement[] | null = null;
+
+  function hideConfirm(): void {
+    confirmPanel.hidden = true;
+    pendingPlacements = null;
+  }
+
+  async function write(placements: Placement[]): Promise<void> {
+    try {
+      await writePlacements(host, placements);
+      insertStatus.classList.remove("failed");
+      insertStatus.textContent = `Wrote ${placements.map((p) => `SHRINK.${p.id} in ${p.anchor}`).join(", ")}.`;
+      options.onSheetWritten?.();
+    } catch (error) {
+      insertStatus.classList.add("failed");
+      insertStatus.textContent = `Could not write the formulas: ${messageOf(error)}`;
+    }
+  }
+
+  async function insert(): Promise<void> {
+    hideConfirm();
+    insertStatus.classList.remove("failed");
+    if (!inputs.ranges.destination) {
+      insertStatus.classList.add("failed");
+      insertStatus.textContent = "Choose the cell for the formulas first (select it, then Use selection).";
+      return;
+    }
+    const outcome = await currentOutcome();
+    if (!outcome) {
+      insertStatus.classList.add("failed");
+      insertStatus.textContent = "Nothing written: the fit has to succeed first.";
+      return;
+    }
+    insertButton.disabled = true;
+    try {
+      const placements = planPlacements(inputs.ranges.destination, spillShapes(outcome, formulaIds(outcome.inputs)), outcome.inputs);
+      insertStatus.textContent = "Checking the cells…";
+      const filled = await findFilledCells(host, placements);
+      if (filled.length === 0) {
+        await write(placements);
+        return;
+      }
+      pendingPlacements = placements;
+      confirmCells.replaceChildren(...filledLines(filled).map((line) => el("li", { text: line })));
+      const count = filled.reduce((n, f) => n + f.cells.length, 0);
+      confirmText.replaceChildren(
+        el("p", { text: `Writing the formulas would replace what ${count === 1 ? "1 cell holds" : `${count} cells hold`} now:` }),
+        confirmCells,
+        el("p", { text: "Overwrite them, or cancel and choose another cell?" }),
+      );
+      insertStatus.textContent = "";
+      confirmPanel.hidden = false;
+      confirmPanel.focus();
+    } catch (error) {
+      insertStatus.classList.add("failed");
+      insertStatus.textContent = `Nothing written: ${messageOf(error)}`;
+    } finally {
+      insertButton.disabled = false;
+    }
+  }
+
+  async function writeReport(): Promise<void> {
+    reportStatus.classList.remove("failed");
+    const outcome = await currentOutcome();
+    if (!outcome) {
+      reportStatus.classList.add("failed");
+      reportStatus.textContent = "No report written: the fit has to succeed first.";
+      return;
+    }
+    reportButton.disabled = true;
+    reportStatus.textContent = "Writing the report…";
+    try {
+      const used = outcome.inputs;
+      const rangeList = [
+        { label: "target", address: used.ranges.target },
+        { label: "predictors", address: used.ranges.predictors },
+        ...(used.ranges.newRows ? [{ label: "new rows", address: used.ranges.newRows }] : []),
+      ];
+      const sheet = buildReport({
+        result: outcome.result,
+        dataset: outcome.prepared.dataset,
+        settings: settingPairs(used),
+        ranges: rangeList,
+        timestamp: stamp(now()),
+      });
+      const name = await host.writeReport(sheet);
+      reportStatus.textContent = `Report written to the sheet '${name}'.`;
+      reportStatus.dataset.sheet = name;
+      options.onSheetWritten?.();
+    } catch (error) {
+      reportStatus.classList.add("failed");
+      reportStatus.textContent = `Could not write the report: ${messageOf(error)}`;
+    } finally {
+      reportButton.disabled = false;
+    }
+  }
+
+  fitButton.addEventListener("click", () => void fit());
+  staleFit.addEventListener("click", () => {
+    fitButton.focus();
+    void fit();
+  });
+  cancelButton.addEventListener("click", () => {
+    cancelRun?.();
+    fitButton.focus();
+  });
+  copyButton.addEventListener("click", () => {
+    const outcome = shownOutcome(state);
+    const table = tableHolder.querySelector("table");
+    if (!outcome || !table) return;
+    copyText(coefficientTsv(coefficientRows(outcome.result)), table).then(
+      (how) => (copyStatus.textContent = how === "copied" ? "Copied (tab-separated)." : "Selected: press Ctrl+C (⌘C on a Mac) to copy."),
+      (error: unknown) => (copyStatus.textContent = `Could not copy: ${messageOf(error)}`),
+    );
+  });
+  insertButton.addEventListener("click", () => void insert());
+  confirmOverwrite.addEventListener("click", () => {
+    const placements = pendingPlacements;
+    hideConfirm();
+    insertButton.focus();
+    if (placements) void write(placements);
+  });
+  confirmCancel.addEventListener("click", () => {
+    hideConfirm();
+    insertStatus.textContent = "Nothing written.";
+    insertButton.focus();
+  });
+  confirmPanel.addEventListener("keydown", (event) => {
+    if (event.key === "Escape") confirmCancel.click();
+  });
+  reportButton.addEventListener("click", () => void writeReport());
+
+  function applyTheme(): void {
+    const theme = host.theme();
+    document.documentElement.dataset.theme = theme;
+    for (const chart of CHARTS) charts[chart.kind]?.handle?.setTheme(theme);
+  }
+  applyTheme();
+  if (typeof window !== "undefined" && typeof window.matchMedia === "function") {
+    const query = window.matchMedia("(prefers-color-scheme: dark)");
+    const onTheme = (): void => applyTheme();
+    query.addEventListener?.("change", onTheme);
+    cleanups.push(() => query.removeEventListener?.("change", onTheme));
+  }
+  if (typeof ResizeObserver !== "undefined") {
+    const observer = new ResizeObserver(() => {
+      for (const chart of CHARTS) charts[chart.kind]?.handle?.resize();
+    });
+    observer.observe(chartArea);
+    cleanups.push(() => observer.disconnect());
+  }
+
+  form.load();
+  render(state);
+  void refreshColumns();
+  if (!saved && options.defaults) scheduleSave();
+
+  return {
+    fit,
+    state: () => state,
+    inputs: () => inputs,
+    applyTheme,
+    dispose() {
+      disposed = true;
+      cancelRun?.();
+      unwatch?.();
+      clearTimeout(saveTimer);
+      for (const cleanup of cleanups) cleanup();
+      for (const chart of CHARTS) charts[chart.kind]?.handle?.dispose();
+    },
+  };
+}

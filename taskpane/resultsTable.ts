@@ -1,0 +1,116 @@
+/**
+ * The coefficient table of the pane: term, coefficient in the data's own units, and the
+ * standardized coefficient (per unit of spread, so terms can be compared), the intercept first,
+ * then the terms by size of effect (largest standardized magnitude first). Terms the penalty set
+ * to zero are kept, muted, at the end. "Copy" puts the table on the clipboard as tab-separated
+ * text (full precision), ready to paste into a sheet.
+ */
+import type { FitResult } from "../engine/fit";
+import { formatNumber } from "./paneState";
+
+export interface CoefficientRow {
+  term: string;
+  coefficient: number;
+  /** Null for the intercept. */
+  standardized: number | null;
+  zero: boolean;
+}
+
+/** Rows in display order: intercept, then by |standardized| (ties by |coefficient|, then by name order). */
+export function coefficientRows(result: FitResult): CoefficientRow[] {
+  const terms = result.terms.map((term, j) => ({
+    term,
+    coefficient: result.coefficients[j],
+    standardized: result.standardizedCoefficients[j] ?? 0,
+    zero: result.coefficients[j] === 0,
+    order: j,
+  }));
+  terms.sort(
+    (a, b) =>
+      Math.abs(b.standardized) - Math.abs(a.standardized) || Math.abs(b.coefficient) - Math.abs(a.coefficient) || a.order - b.order,
+  );
+  const rows: CoefficientRow[] = [{ term: "(intercept)", coefficient: result.intercept, standardized: null, zero: result.intercept === 0 }];
+  for (const t of terms) rows.push({ term: t.term, coefficient: t.coefficient, standardized: t.standardized, zero: t.zero });
+  return rows;
+}
+
+export const TABLE_HEADER = ["term", "coefficient", "standardized coefficient"] as const;
+
+/** Tab-separated text with a header line; numbers at full precision, no standardized value for the intercept. */
+export function coefficientTsv(rows: readonly CoefficientRow[]): string {
+  const lines = [TABLE_HEADER.join("\t")];
+  for (const row of rows) lines.push([row.term, String(row.coefficient), row.standardized === null ? "" : String(row.standardized)].join("\t"));
+  return lines.join("\n");
+}
+
+// ---------------------------------------------------------------------------------------------
+// DOM
+
+function cell(tag: "td" | "th", text: string, className?: string): HTMLTableCellElement {
+  const node = document.createElement(tag);
+  node.textContent = text;
+  if (className) node.className = className;
+  return node;
+}
+
+/** The table element (caption, header, one row per term); rows of zero terms carry class "zero". */
+export function renderCoefficientTable(result: FitResult, caption: string): HTMLTableElement {
+  const table = document.createElement("table");
+  table.className = "coefs";
+  table.dataset.testid = "results-table";
+  const cap = document.createElement("caption");
+  cap.textContent = caption;
+  table.append(cap);
+  const head = document.createElement("thead");
+  const hr = document.createElement("tr");
+  for (const name of TABLE_HEADER) {
+    const th = cell("th", name);
+    th.scope = "col";
+    hr.append(th);
+  }
+  head.append(hr);
+  const body = document.createElement("tbody");
+  for (const row of coefficientRows(result)) {
+    const tr = document.createElement("tr");
+    if (row.zero && row.standardized !== null) tr.className = "zero";
+    const th = cell("th", row.term);
+    th.scope = "row";
+    tr.append(th);
+    tr.append(cell("td", formatNumber(row.coefficient), "num"));
+    tr.append(cell("td", row.standardized === null ? "—" : formatNumber(row.standardized), "num"));
+    if (row.zero && row.standardized !== null) {
+      // Said in words too, not by colour alone.
+      const note = document.createElement("span");
+      note.className = "visually-hidden";
+      note.textContent = " (set to zero)";
+      th.append(note);
+    }
+    body.append(tr);
+  }
+  table.append(head, body);
+  return table;
+}
+
+/**
+ * Copies `text` to the clipboard where the browser allows it; otherwise selects `fallback`'s
+ * text so Ctrl+C copies it. Resolves to what happened, for the status line.
+ */
+export async function copyText(text: string, fallback: HTMLElement): Promise<"copied" | "selected"> {
+  const clipboard = typeof navigator !== "undefined" ? navigator.clipboard : undefined;
+  if (clipboard && typeof clipboard.writeText === "function") {
+    try {
+      await clipboard.writeText(text);
+      return "copied";
+    } catch {
+      // Blocked (no permission, or the page lacks focus): fall back to selecting.
+    }
+  }
+  const selection = window.getSelection();
+  if (selection) {
+    const range = document.createRange();
+    range.selectNodeContents(fallback);
+    selection.removeAllRanges();
+    selection.addRange(range);
+  }
+  return "selected";
+}

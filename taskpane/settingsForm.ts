@@ -1,0 +1,312 @@
+/**
+ * The settings form: the cell functions' settings in plain words, the same names underneath
+ * (a field's value becomes `name=value` in the formulas' settings text). Every field is checked
+ * as the user types by the cell functions' own parser (paneState.checkSettings); a bad value
+ * gets its reason right under it (aria-describedby, aria-invalid), and the Fit button stays off
+ * until the form reads cleanly.
+ *
+ * The common settings are shown; the rest sit under "More settings" (a <details>). Fields that
+ * name a predictors column (fold column, and the weights column shown with the ranges) offer
+ * the predictors' header names.
+ */
+import { checkSettings, type PaneInputs, type SettingsCheck } from "./paneState";
+
+export interface Choice {
+  value: string;
+  label: string;
+}
+
+export interface FieldSpec {
+  /** The setting name (SETTING_NAMES), or "mixes". */
+  name: string;
+  label: string;
+  hint: string;
+  kind: "text" | "choice" | "column";
+  choices?: Choice[];
+  placeholder?: string;
+  /** Under "More settings". */
+  more?: boolean;
+  /** inputmode for text fields. */
+  inputMode?: "numeric" | "decimal" | "text";
+}
+
+const YES_DEFAULT: Choice[] = [
+  { value: "", label: "Yes (default)" },
+  { value: "no", label: "No" },
+];
+
+/** The fields in page order. `weights column` is drawn with the ranges (see `renderColumnField`). */
+export const FIELDS: readonly FieldSpec[] = [
+  {
+    name: "mixes",
+    label: "Mixes to try",
+    hint: "0 is ridge, 1 is lasso, values between are elastic net. Separate with commas. Empty: 0, 0.25, 0.5, 0.75, 1.",
+    kind: "text",
+    placeholder: "0, 0.25, 0.5, 0.75, 1",
+    inputMode: "decimal",
+  },
+  { name: "folds", label: "Folds", hint: "Parts the rows are split into for cross-validation, 2 to 1000. Empty: 10.", kind: "text", placeholder: "10", inputMode: "numeric" },
+  {
+    name: "rule",
+    label: "How to pick the strength",
+    hint: "The one-standard-error rule takes the strongest penalty whose error is within one standard error of the lowest: a simpler model.",
+    kind: "choice",
+    choices: [
+      { value: "", label: "Lowest cross-validated error (default)" },
+      { value: "onese", label: "One-standard-error rule" },
+    ],
+  },
+  {
+    name: "error",
+    label: "Error measure",
+    hint: "How cross-validation scores each strength.",
+    kind: "choice",
+    choices: [
+      { value: "", label: "Mean squared error, MSE (default)" },
+      { value: "mae", label: "Mean absolute error, MAE" },
+    ],
+  },
+  { name: "seed", label: "Seed", hint: "Decides how rows are dealt into folds: the same seed gives the same folds. Empty: 1.", kind: "text", placeholder: "1", inputMode: "numeric" },
+  { name: "standardize", label: "Standardize predictors", hint: "Penalize every predictor on the same scale (coefficients are still reported in the data's units).", kind: "choice", choices: YES_DEFAULT, more: true },
+  { name: "intercept", label: "Fit an intercept", hint: "No forces the model through zero.", kind: "choice", choices: YES_DEFAULT, more: true },
+  {
+    name: "strength",
+    label: "Fixed strength (λ)",
+    hint: "Fits this one strength, without cross-validation; needs a single mix. Empty: chosen by cross-validation.",
+    kind: "text",
+    placeholder: "chosen by cross-validation",
+    inputMode: "decimal",
+    more: true,
+  },
+  { name: "grid size", label: "Strengths on the grid", hint: "How many strengths are tried, 1 to 10000. Empty: 100.", kind: "text", placeholder: "100", inputMode: "numeric", more: true },
+  {
+    name: "low end",
+    label: "Low end of the grid",
+    hint: "The weakest strength tried, as a fraction of the strongest (between 0 and 1). Empty: 0.0001, or 0.01 when there are more predictors than rows.",
+    kind: "text",
+    placeholder: "0.0001",
+    inputMode: "decimal",
+    more: true,
+  },
+  {
+    name: "time order",
+    label: "Rows are in time order",
+    hint: "Yes validates each fold on later rows only, never on the past.",
+    kind: "choice",
+    choices: [
+      { value: "", label: "No (default)" },
+      { value: "yes", label: "Yes" },
+    ],
+    more: true,
+  },
+  { name: "fold column", label: "Fold column", hint: "A predictors column whose values say which fold each row belongs to. It is not used as a predictor.", kind: "column", more: true },
+  { name: "penalty", label: "Penalty multipliers", hint: "term:value pairs, e.g. moisture:2, origin:0.5 (0 never penalized, 1 normal).", kind: "text", more: true },
+  { name: "no penalty", label: "Never penalize", hint: "Column names separated by commas; these keep their full least-squares size.", kind: "text", more: true },
+  { name: "lower", label: "Lower bounds", hint: "A number of 0 or below for every term (0 keeps coefficients from going negative), or term:value pairs.", kind: "text", more: true },
+  { name: "upper", label: "Upper bounds", hint: "A number of 0 or above for every term, or term:value pairs.", kind: "text", more: true },
+  { name: "zero is missing", label: "Zeros mean blank", hint: "all, or column names separated by commas: their zeros count as empty cells (for hosts that pass blanks as 0).", kind: "text", more: true },
+];
+
+/** The weights column field (drawn with the ranges). */
+export const WEIGHTS_FIELD: FieldSpec = {
+  name: "weights column",
+  label: "Weights (optional)",
+  hint: "A predictors column of row weights (0 or more). It is not used as a predictor.",
+  kind: "column",
+};
+
+/** Stable id / data-testid stem of a field: `setting-grid-size`. */
+export function fieldId(name: string): string {
+  return `setting-${name.replace(/\s+/g, "-")}`;
+}
+
+function readValue(inputs: PaneInputs, name: string): string {
+  return name === "mixes" ? inputs.mixes : (inputs.settings[name] ?? "");
+}
+
+function writeValue(inputs: PaneInputs, name: string, value: string): void {
+  if (name === "mixes") inputs.mixes = value;
+  else if (value.trim() === "") delete inputs.settings[name];
+  else inputs.settings[name] = value;
+}
+
+interface Field {
+  spec: FieldSpec;
+  control: HTMLInputElement | HTMLSelectElement;
+  error: HTMLElement;
+  hintId: string;
+}
+
+export interface SettingsForm {
+  /** The section's content (append where wanted). */
+  element: HTMLElement;
+  /** The weights field, to be placed with the ranges. */
+  weightsElement: HTMLElement;
+  /** New header names for the column fields (keeps a chosen name that is no longer there, marked). */
+  setColumns(names: readonly string[]): void;
+  /** Re-reads `inputs` into the controls (after a restore). */
+  load(): void;
+  /** Checks every field and shows the messages; returns the check. */
+  check(): SettingsCheck;
+}
+
+function fillColumnChoices(select: HTMLSelectElement, names: readonly string[], current: string, noneLabel: string): void {
+  select.replaceChildren();
+  const none = document.createElement("option");
+  none.value = "";
+  none.textContent = noneLabel;
+  select.append(none);
+  const all = [...names];
+  if (current && !names.includes(current)) all.push(current);
+  for (const name of all) {
+    const option = document.createElement("option");
+    option.value = name;
+    option.textContent = names.includes(name) ? name : `${name} (not in the predictors' header)`;
+    select.append(option);
+  }
+  select.value = current;
+}
+
+/**
+ * Builds the form over `inputs` (edited in place). `onChange(name)` runs after every edit, with
+ * the field's setting name.
+ */
+export function renderSettingsForm(inputs: PaneInputs, onChange: (name: string) => void): SettingsForm {
+  const fields: Field[] = [];
+  let columns: readonly string[] = [];
+
+  const makeField = (spec: FieldSpec): HTMLElement => {
+    const id = fieldId(spec.name);
+    const wrap = document.createElement("div");
+    wrap.className = "field";
+    const label = document.createElement("label");
+    label.htmlFor = id;
+    label.textContent = spec.label;
+    let control: HTMLInputElement | HTMLSelectElement;
+    if (spec.kind === "text") {
+      const input = document.createElement("input");
+      input.type = "text";
+      input.autocomplete = "off";
+      input.spellcheck = false;
+      if (spec.inputMode) input.inputMode = spec.inputMode;
+      if (spec.placeholder) input.placeholder = spec.placeholder;
+      input.addEventListener("input", () => {
+        writeValue(inputs, spec.name, input.value);
+        check();
+        onChange(spec.name);
+      });
+      control = input;
+    } else {
+      const select = document.createElement("select");
+      if (spec.kind === "choice") {
+        for (const choice of spec.choices ?? []) {
+          const option = document.createElement("option");
+          option.value = choice.value;
+          option.textContent = choice.label;
+          select.append(option);
+        }
+      } else {
+        fillColumnChoices(select, columns, readValue(inputs, spec.name), "None");
+      }
+      select.addEventListener("change", () => {
+        writeValue(inputs, spec.name, select.value);
+        check();
+        onChange(spec.name);
+      });
+      control = select;
+    }
+    control.id = id;
+    control.name = spec.name;
+    control.dataset.testid = id;
+    const hint = document.createElement("p");
+    hint.className = "hint";
+    hint.id = `${id}-hint`;
+    hint.textContent = spec.hint;
+    const error = document.createElement("p");
+    error.className = "field-error";
+    error.id = `${id}-error`;
+    error.dataset.testid = `${id}-error`;
+    error.hidden = true;
+    control.setAttribute("aria-describedby", `${id}-hint`);
+    wrap.append(label, control, error, hint);
+    fields.push({ spec, control, error, hintId: hint.id });
+    return wrap;
+  };
+
+  const element = document.createElement("div");
+  element.className = "settings";
+  const basic = document.createElement("div");
+  basic.className = "field-grid";
+  const more = document.createElement("details");
+  more.className = "more";
+  more.dataset.testid = "more-settings";
+  const summary = document.createElement("summary");
+  summary.textContent = "More settings";
+  const moreGrid = document.createElement("div");
+  moreGrid.className = "field-grid";
+  more.append(summary, moreGrid);
+  for (const spec of FIELDS) (spec.more ? moreGrid : basic).append(makeField(spec));
+  const overall = document.createElement("p");
+  overall.className = "field-error overall";
+  overall.id = "settings-overall-error";
+  overall.dataset.testid = "settings-problem";
+  overall.hidden = true;
+  element.append(basic, more, overall);
+  const weightsElement = makeField(WEIGHTS_FIELD);
+
+  function showError(field: Field, message: string | null): void {
+    const bad = message !== null;
+    field.error.hidden = !bad;
+    field.error.textContent = bad ? message : "";
+    if (bad) {
+      field.control.setAttribute("aria-invalid", "true");
+      field.control.setAttribute("aria-describedby", `${field.error.id} ${field.hintId}`);
+    } else {
+      field.control.removeAttribute("aria-invalid");
+      field.control.setAttribute("aria-describedby", field.hintId);
+    }
+  }
+
+  function check(): SettingsCheck {
+    const result = checkSettings(inputs);
+    for (const field of fields) {
+      const message = field.spec.name === "mixes" ? result.mixes : (result.fields[field.spec.name] ?? null);
+      showError(field, message);
+      // A problem hidden under "More settings" opens it, so the message is seen.
+      if (message && field.spec.more) more.open = true;
+    }
+    overall.hidden = result.overall === null;
+    overall.textContent = result.overall ?? "";
+    return result;
+  }
+
+  function load(): void {
+    for (const field of fields) {
+      const value = readValue(inputs, field.spec.name);
+      if (field.spec.kind === "column") {
+        fillColumnChoices(field.control as HTMLSelectElement, columns, value, "None");
+        continue;
+      }
+      const select = field.control;
+      if (select instanceof HTMLSelectElement && value !== "" && !Array.from(select.options).some((o) => o.value === value)) {
+        // A value typed elsewhere (an older pane, another spelling): keep it selectable.
+        const option = document.createElement("option");
+        option.value = value;
+        option.textContent = value;
+        select.append(option);
+      }
+      field.control.value = value;
+    }
+    check();
+  }
+
+  function setColumns(names: readonly string[]): void {
+    columns = [...names];
+    for (const field of fields) {
+      if (field.spec.kind === "column") fillColumnChoices(field.control as HTMLSelectElement, columns, readValue(inputs, field.spec.name), "None");
+    }
+  }
+
+  load();
+  return { element, weightsElement, setColumns, load, check };
+}

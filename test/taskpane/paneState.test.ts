@@ -1,0 +1,250 @@
+/**
+ * The pane's logic without a browser: the fit state machine, the settings checked as the cells
+ * check them (messages word for word from functions/settings.ts), the settings and mixes text
+ * the formulas carry, and restoring saved inputs.
+ */
+import type { FitResult } from "../../engine/fit";
+import { parseSettings } from "../../functions/settings";
+import {
+  checkSettings,
+  columnNames,
+  emptyInputs,
+  FitOutcome,
+  FitState,
+  fitStatusText,
+  formatNumber,
+  IDLE,
+  mixesProblem,
+  mixesText,
+  progressText,
+  reduceFit,
+  restoreInputs,
+  settingPairs,
+  settingProblem,
+  settingsText,
+  shownOutcome,
+} from "../../taskpane/paneState";
+
+function fakeOutcome(label = "a"): FitOutcome {
+  const result = {
+    kind: "shrinkwise-fit",
+    terms: ["x1", "x2", "x3"],
+    intercept: 1,
+    coefficients: [0.5, 0, -2],
+    standardizedCoefficients: [0.25, 0, -1],
+    mix: 1,
+    strength: 0.0123456789,
+    rowsUsed: 40,
+  } as unknown as FitResult;
+  return {
+    result,
+    prepared: { request: { label } } as never,
+    inputs: emptyInputs(),
+    values: { target: [], predictors: [], newRows: null },
+    elapsedMs: 1234,
+  };
+}
+
+describe("fit state machine", () => {
+  test("idle → fitting → done, with progress in between", () => {
+    let s: FitState = IDLE;
+    s = reduceFit(s, { type: "start", run: 1 });
+    expect(s).toMatchObject({ phase: "fitting", run: 1, done: 0, total: 0, previous: null });
+    s = reduceFit(s, { type: "progress", run: 1, done: 3, total: 12 });
+    expect(s).toMatchObject({ phase: "fitting", done: 3, total: 12 });
+    const outcome = fakeOutcome();
+    s = reduceFit(s, { type: "succeeded", run: 1, outcome });
+    expect(s).toEqual({ phase: "done", run: 1, outcome });
+    expect(shownOutcome(s)).toBe(outcome);
+  });
+
+  test("a changed input marks a done fit stale, and keeps its results shown", () => {
+    const outcome = fakeOutcome();
+    const done: FitState = { phase: "done", run: 1, outcome };
+    const stale = reduceFit(done, { type: "inputsChanged" });
+    expect(stale).toEqual({ phase: "stale", run: 1, outcome });
+    expect(shownOutcome(stale)).toBe(outcome);
+    // Idle, failed and cancelled states have nothing to mark.
+    expect(reduceFit(IDLE, { type: "inputsChanged" })).toBe(IDLE);
+  });
+
+  test("a change during the fit makes its result stale on arrival", () => {
+    let s = reduceFit(IDLE, { type: "start", run: 1 });
+    s = reduceFit(s, { type: "inputsChanged" });
+    s = reduceFit(s, { type: "succeeded", run: 1, outcome: fakeOutcome() });
+    expect(s.phase).toBe("stale");
+  });
+
+  test("cancel and failure keep the previous results, and a new start carries them", () => {
+    const first = fakeOutcome("first");
+    let s: FitState = { phase: "done", run: 1, outcome: first };
+    s = reduceFit(s, { type: "start", run: 2 });
+    expect(shownOutcome(s)).toBe(first);
+    const cancelled = reduceFit(s, { type: "cancelled", run: 2 });
+    expect(cancelled).toEqual({ phase: "cancelled", run: 2, previous: first });
+    const failed = reduceFit(s, { type: "failed", run: 2, message: "predictors has 3 rows but target has 4" });
+    expect(failed).toEqual({ phase: "failed", run: 2, message: "predictors has 3 rows but target has 4", previous: first });
+    expect(fitStatusText(failed)).toBe("The fit could not run: predictors has 3 rows but target has 4");
+  });
+
+  test("events of a superseded run change nothing", () => {
+    let s = reduceFit(IDLE, { type: "start", run: 1 });
+    s = reduceFit(s, { type: "start", run: 2 });
+    const before = s;
+    expect(reduceFit(s, { type: "progress", run: 1, done: 5, total: 10 })).toBe(before);
+    expect(reduceFit(s, { type: "succeeded", run: 1, outcome: fakeOutcome() })).toBe(before);
+    expect(reduceFit(s, { type: "failed", run: 1, message: "x" })).toBe(before);
+    // After a cancel, the run's late result is ignored too.
+    const cancelled = reduceFit(s, { type: "cancelled", run: 2 });
+    expect(reduceFit(cancelled, { type: "succeeded", run: 2, outcome: fakeOutcome() })).toBe(cancelled);
+    expect(reduceFit(cancelled, { type: "progress", run: 2, done: 1, total: 2 })).toBe(cancelled);
+  });
+
+  test("status and progress in words", () => {
+    expect(fitStatusText(IDLE)).toBe("Choose the target and predictors, then press Fit.");
+    expect(fitStatusText(IDLE, true)).toBe("Ready: press Fit.");
+    expect(progressText(0, 0)).toBe("Starting the fit…");
+    expect(progressText(12, 55)).toBe("12 of 55 fits done");
+    expect(progressText(60, 55)).toBe("55 of 55 fits done");
+    const done: FitState = { phase: "done", run: 1, outcome: fakeOutcome() };
+    expect(fitStatusText(done)).toBe("Fitted lasso (mix 1) at strength 0.0123457: 2 of 3 terms kept, 40 rows used (1.2 s).");
+    expect(fitStatusText(reduceFit(done, { type: "inputsChanged" }))).toMatch(/^Inputs changed/);
+    expect(fitStatusText({ phase: "cancelled", run: 1, previous: null })).toMatch(/^Fit cancelled/);
+    const fitting = reduceFit(IDLE, { type: "start", run: 1 });
+    expect(fitStatusText(fitting)).toBe("Fitting…");
+    const at = (done: number): string => fitStatusText(reduceFit(fitting, { type: "progress", run: 1, done, total: 12 }));
+    expect([at(2), at(3), at(6), at(9), at(12)]).toEqual([
+      "Fitting…",
+      "Fitting: a quarter done.",
+      "Fitting: half done.",
+      "Fitting: three quarters done.",
+      "Fitting: finishing.",
+    ]);
+  });
+
+  test("numbers as the pane shows them", () => {
+    expect(formatNumber(5)).toBe("5");
+    expect(formatNumber(0.0123456789)).toBe("0.0123457");
+    expect(formatNumber(0.00001234)).toBe("1.234e-5");
+    expect(formatNumber(-2.5)).toBe("-2.5");
+  });
+});
+
+describe("settings checked as the cells check them", () => {
+  /** The message the cell function would give for `text`. */
+  function cellMessage(text: string): string {
+    try {
+      parseSettings(text);
+    } catch (error) {
+      return (error as Error).message;
+    }
+    throw new Error(`'${text}' was accepted`);
+  }
+
+  test("a bad value gets the cell functions' own message", () => {
+    expect(settingProblem("folds", "1")).toBe(cellMessage("folds=1"));
+    expect(settingProblem("folds", "1")).toMatch(/folds/);
+    expect(settingProblem("low end", "2")).toBe(cellMessage("low end=2"));
+    expect(settingProblem("strength", "-1")).toBe(cellMessage("strength=-1"));
+    expect(settingProblem("lower", "3")).toBe(cellMessage("lower=3"));
+    expect(settingProblem("rule", "fastest")).toBe(cellMessage("rule=fastest"));
+  });
+
+  test("good and empty values pass", () => {
+    expect(settingProblem("folds", "5")).toBeNull();
+    expect(settingProblem("folds", "  ")).toBeNull();
+    expect(settingProblem("penalty", "moisture:2, origin:0.5")).toBeNull();
+    expect(settingProblem("rule", "onese")).toBeNull();
+  });
+
+  test("separators that would break the settings text are refused in our words", () => {
+    expect(settingProblem("penalty", "a:1; b:2")).toMatch(/can't contain ';'/);
+    expect(settingProblem("no penalty", "a=b")).toMatch(/can't contain '='/);
+  });
+
+  test("mixes", () => {
+    expect(mixesProblem("")).toBeNull();
+    expect(mixesProblem("0, 0.5, 1")).toBeNull();
+    expect(mixesProblem("ridge, lasso")).toBeNull();
+    expect(mixesProblem("2")).toBe("mix 2 is outside 0 to 1: use 0 for ridge, 1 for lasso, or a value between");
+    expect(mixesProblem("0, 0")).toMatch(/listed twice/);
+    expect(mixesProblem("a")).toMatch(/not a number/);
+  });
+
+  test("checkSettings collects field problems and clashes between settings", () => {
+    const inputs = emptyInputs();
+    expect(checkSettings(inputs)).toEqual({ fields: {}, mixes: null, overall: null, ok: true });
+    inputs.settings.folds = "x";
+    inputs.mixes = "3";
+    const bad = checkSettings(inputs);
+    expect(bad.ok).toBe(false);
+    expect(Object.keys(bad.fields)).toEqual(["folds"]);
+    expect(bad.mixes).toMatch(/outside 0 to 1/);
+    // A clash the parser finds only with both settings together.
+    const clash = emptyInputs();
+    clash.settings["fold column"] = "group";
+    clash.settings["time order"] = "yes";
+    expect(checkSettings(clash)).toMatchObject({ fields: {}, ok: false, overall: cellMessage("fold column=group; time order=yes") });
+    // A fixed strength needs a single mix.
+    const strength = emptyInputs();
+    strength.settings.strength = "0.1";
+    expect(checkSettings(strength).overall).toMatch(/single mix/);
+    strength.mixes = "1";
+    expect(checkSettings(strength).ok).toBe(true);
+  });
+});
+
+describe("settings text, mixes text and restore", () => {
+  test("only non-default settings, in the settings table's order, header from the toggle", () => {
+    const inputs = emptyInputs();
+    expect(settingsText(inputs)).toBe("");
+    inputs.settings = { rule: "onese", folds: " 5 ", seed: "", "weights column": "batch_kg" };
+    inputs.header = "yes";
+    expect(settingsText(inputs)).toBe("folds=5; rule=onese; weights column=batch_kg; header=yes");
+    // The text reads back to the same settings.
+    const parsed = parseSettings(settingsText(inputs));
+    expect(parsed).toMatchObject({ folds: 5, rule: "onese", weightsColumn: "batch_kg", header: "yes" });
+  });
+
+  test("mixes text is tidied", () => {
+    const inputs = emptyInputs();
+    inputs.mixes = " 0,0.5  1 ";
+    expect(mixesText(inputs)).toBe("0, 0.5, 1");
+  });
+
+  test("setting pairs for the report: numbers as numbers", () => {
+    const inputs = emptyInputs();
+    inputs.mixes = "1";
+    inputs.settings = { folds: "5", rule: "onese" };
+    expect(settingPairs(inputs)).toEqual([
+      { name: "mixes", value: 1 },
+      { name: "folds", value: 5 },
+      { name: "rule", value: "onese" },
+    ]);
+  });
+
+  test("restoreInputs keeps what it knows and drops the rest", () => {
+    expect(restoreInputs(null)).toEqual(emptyInputs());
+    expect(restoreInputs("nonsense")).toEqual(emptyInputs());
+    const restored = restoreInputs({
+      ranges: { target: "Data!M1:M121", predictors: "Data!B1:L121", newRows: 5, destination: "O1" },
+      header: "sometimes",
+      mixes: "0, 1",
+      settings: { folds: "5", "made up": "1", header: "yes", seed: 7, rule: "" },
+    });
+    expect(restored).toEqual({
+      ranges: { target: "Data!M1:M121", predictors: "Data!B1:L121", newRows: "", destination: "O1" },
+      header: "auto",
+      mixes: "0, 1",
+      settings: { folds: "5" },
+    });
+  });
+
+  test("column names from the header row, or x1, x2, …", () => {
+    expect(columnNames(["temp", "moisture", "origin"], "auto")).toEqual(["temp", "moisture", "origin"]);
+    expect(columnNames([1.5, 2, "East"], "auto")).toEqual(["x1", "x2", "x3"]);
+    expect(columnNames(["temp", "moisture"], "no")).toEqual(["x1", "x2"]);
+    expect(columnNames(undefined, "auto")).toEqual([]);
+  });
+});
+
