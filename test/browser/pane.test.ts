@@ -144,21 +144,41 @@ suite("side pane in Chromium (standalone preview)", () => {
     await saveScreenshot(page, "pane-report");
   }, 60000);
 
-  test("a long fit can be cancelled, and fitting again works", async () => {
-    // A much longer job on the same data: 11 mixes × 20 folds × 600 strengths.
+  test("a long fit on a large generated sheet can be cancelled, and fitting again works", async () => {
+    // A large sheet made in the page: 300 rows × 600 correlated predictors (more predictors than
+    // rows: the slow regime) + a target, on a new stand-in sheet "Large"; picked like any range.
+    await page.evaluate(() => {
+      type Host = { workbook: { addSheet(name: string): unknown }; setCells(a: string, rows: (number | string)[][]): void };
+      const host = (window as unknown as { __shrinkwisePreview: { host: Host } }).__shrinkwisePreview.host;
+      host.workbook.addSheet("Large");
+      let state = 12345;
+      const uniform = () => ((state = (Math.imul(state, 1103515245) + 12345) >>> 0) / 4294967296);
+      const rows: (number | string)[][] = [["y", ...Array.from({ length: 600 }, (_, j) => `x${j + 1}`)]];
+      for (let i = 0; i < 300; i++) {
+        let previous = uniform() - 0.5;
+        const row = [previous];
+        for (let j = 1; j < 600; j++) row.push((previous = 0.7 * previous + (uniform() - 0.5)));
+        rows.push([row[0] - 2 * row[10] + row[30] + 0.3 * (uniform() - 0.5), ...row]);
+      }
+      host.setCells("Large!A1", rows);
+    });
+    await pick(page, "Large!A1:A301", "target");
+    await pick(page, "Large!B1:WC301", "predictors"); // columns B..WC = 600 predictors
+    await page.getByTestId("new-rows-clear").click();
     await page.getByTestId("more-settings").evaluate((details) => ((details as HTMLDetailsElement).open = true));
     await page.getByTestId("setting-mixes").fill("0, 0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9, 1");
     await page.getByTestId("setting-folds").fill("20");
-    await page.getByTestId("setting-grid-size").fill("600");
     await page.getByTestId("fit-button").click();
     await page.waitForFunction(() => ((document.querySelector('[data-testid="fit-progress"]') as HTMLProgressElement | null)?.value ?? 0) >= 1, undefined, { timeout: 60000 });
+    const before = await page.evaluate(() => (document.querySelector('[data-testid="fit-progress"]') as HTMLProgressElement).max);
+    expect(before).toBe(11 * 21); // 11 mixes × (20 folds + the full-data path)
     await page.getByTestId("cancel-button").click();
     const status = await waitForStatus(page, /cancel/i, 30000);
     expect(status.toLowerCase()).toContain("cancel");
     await page.getByTestId("setting-mixes").fill("1");
     await page.getByTestId("setting-folds").fill("5");
-    await page.getByTestId("setting-grid-size").fill("50");
     await page.getByTestId("fit-button").click();
     await waitForStatus(page, /^Fitted/);
+    await saveScreenshot(page, "pane-after-cancel");
   }, 150000);
 });
