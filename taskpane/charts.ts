@@ -1100,3 +1100,64 @@ export function mountChart(el: HTMLElement, kind: ChartKind, result: FitResult, 
     },
   };
 }
+
+// ---------------------------------------------------------------------------------------------
+// Plain line charts from cell data (the stand-in workbook's copy of a report sheet's native chart)
+
+export interface SeriesChartSpec {
+  title: string;
+  xTitle: string;
+  yTitle: string;
+  /** Logarithmic x axis (x values must then be positive). */
+  logX: boolean;
+  series: { name: string; points: [number, number][] }[];
+}
+
+/** echarts options for lines of y against x, in the pane's palettes. Pure. */
+export function seriesChartOptions(spec: SeriesChartSpec, settings: { theme: ChartTheme; width: number }): ChartOption {
+  const palette = PALETTES[settings.theme];
+  const layout = layoutFor(settings.width);
+  return {
+    ...baseOption(palette, layout),
+    title: titleOption(spec.title, "", palette, layout, settings.width),
+    tooltip: { trigger: "item", backgroundColor: palette.background, borderColor: palette.axis, textStyle: { color: palette.text, fontSize: layout.font } },
+    legend: layout.compact ? { show: false } : { type: "scroll", bottom: 0, textStyle: { color: palette.text, fontSize: layout.font - 1 } },
+    grid: { left: 56, right: 16, top: 36, bottom: layout.compact ? 40 : 64 },
+    xAxis: {
+      type: spec.logX ? "log" : "value",
+      name: spec.logX ? `${spec.xTitle} (log scale)` : spec.xTitle,
+      nameLocation: "middle",
+      nameGap: 26,
+      axisLine: { lineStyle: { color: palette.axis } },
+      axisLabel: { color: palette.text, formatter: (v: number) => formatNumber(v) },
+      splitLine: { lineStyle: { color: palette.gridLine } },
+    },
+    yAxis: {
+      type: "value",
+      name: spec.yTitle,
+      nameLocation: "middle",
+      nameGap: 42,
+      axisLine: { lineStyle: { color: palette.axis } },
+      axisLabel: { color: palette.text, formatter: (v: number) => formatNumber(v) },
+      splitLine: { lineStyle: { color: palette.gridLine } },
+    },
+    series: spec.series.map((s, k) => ({
+      type: "line",
+      name: s.name,
+      data: s.points,
+      showSymbol: false,
+      lineStyle: { width: 1.6, color: palette.lines[k % palette.lines.length], type: LINE_PATTERNS[Math.floor(k / palette.lines.length) % LINE_PATTERNS.length] },
+      itemStyle: { color: palette.lines[k % palette.lines.length] },
+    })),
+  } as ChartOption;
+}
+
+/** Draws a SeriesChartSpec into `el` (SVG renderer); returns a function that disposes it. */
+export function mountSeriesChart(el: HTMLElement, spec: SeriesChartSpec, theme: ChartTheme, width = 560, height = 300): () => void {
+  el.style.width = `${width}px`;
+  el.style.maxWidth = "100%";
+  el.style.height = `${height}px`;
+  const chart = echarts.init(el, null, { renderer: "svg" });
+  chart.setOption(seriesChartOptions(spec, { theme, width }));
+  return () => chart.dispose();
+}

@@ -17,6 +17,7 @@
  * text contrast of at least 4.5:1.
  */
 import { cellName, columnLetters, formatAddress, MAX_COLUMNS, MAX_ROWS, parseAddress, RangeAddress, rangeOf } from "./address";
+import { mountSeriesChart } from "./charts";
 import type { StandInCell, StandInChart, StandInSheet, StandInSheetHost } from "./standInSheetHost";
 
 /** Grid size drawn: at least this, and a margin past the used cells and the selection. */
@@ -85,14 +86,6 @@ function element<K extends keyof HTMLElementTagNameMap>(doc: Document, tag: K, c
   return node;
 }
 
-const SVG = "http://www.w3.org/2000/svg";
-
-function svgElement(doc: Document, tag: string, attributes: Record<string, string | number>): SVGElement {
-  const node = doc.createElementNS(SVG, tag) as SVGElement;
-  for (const [name, value] of Object.entries(attributes)) node.setAttribute(name, String(value));
-  return node;
-}
-
 const CSS = `
 .sw-standin { --sw-bg: #ffffff; --sw-fg: #1b1b1b; --sw-muted: #4d4d4d; --sw-head-bg: #f0f0f0; --sw-line: #c8c8c8;
   --sw-sel: #d6e6fa; --sw-anchor: #0f5cb8; --sw-focus: #0f5cb8; --sw-error: #a4262c; --sw-spill: #f7faf7; --sw-tab: #e6e6e6;
@@ -105,9 +98,9 @@ const CSS = `
 .sw-standin .sw-detail { font-family: ui-monospace, Consolas, monospace; overflow-wrap: anywhere; flex: 1 1 20ch; }
 .sw-standin .sw-detail .sw-message { font-family: inherit; color: var(--sw-error); display: block; }
 .sw-standin .sw-scroll { overflow: auto; max-height: 420px; position: relative; scroll-padding: 24px 0 0 44px; }
-.sw-standin table.sw-grid { border-collapse: separate; border-spacing: 0; table-layout: fixed; user-select: none; }
+.sw-standin table.sw-grid { border-collapse: separate; border-spacing: 0; table-layout: fixed; user-select: none; width: max-content; }
 .sw-standin .sw-grid th, .sw-standin .sw-grid td { border-right: 1px solid var(--sw-line); border-bottom: 1px solid var(--sw-line);
-  padding: 1px 4px; height: 20px; min-width: 64px; max-width: 160px; white-space: nowrap; overflow: hidden; text-overflow: ellipsis; }
+  padding: 1px 4px; height: 20px; width: 64px; min-width: 64px; max-width: 160px; white-space: nowrap; overflow: hidden; text-overflow: ellipsis; }
 .sw-standin .sw-grid th { background: var(--sw-head-bg); color: var(--sw-muted); font-weight: normal; position: sticky; z-index: 1; }
 .sw-standin .sw-grid thead th { top: 0; text-align: center; }
 .sw-standin .sw-grid tbody th { left: 0; text-align: right; min-width: 36px; }
@@ -134,10 +127,7 @@ const CSS = `
 .sw-standin figure { margin: 0; }
 .sw-standin figcaption { color: var(--sw-muted); font-size: 12px; }
 .sw-standin figcaption strong { color: var(--sw-fg); }
-.sw-standin .sw-legend { list-style: none; padding: 0; margin: 4px 0 0; display: flex; flex-wrap: wrap; gap: 2px 12px; font-size: 12px; }
-.sw-standin .sw-swatch { display: inline-block; width: 14px; height: 3px; vertical-align: middle; margin-right: 4px; }
 .sw-standin svg text { fill: var(--sw-muted); font-size: 11px; }
-.sw-standin svg .sw-axis { stroke: var(--sw-muted); }
 `;
 
 function ensureStyle(doc: Document): void {
@@ -148,8 +138,6 @@ function ensureStyle(doc: Document): void {
   doc.head.append(style);
 }
 
-/** Line colours for charts (distinct on light and dark backgrounds). */
-const PALETTE = ["#2b6cb0", "#c05621", "#2f855a", "#b83280", "#6b46c1", "#b7791f", "#0987a0", "#c53030", "#718096", "#38a169", "#d53f8c", "#3182ce"];
 
 // ---------------------------------------------------------------------------------------------
 // The view
@@ -512,7 +500,7 @@ export function renderStandInView(container: HTMLElement, host: StandInSheetHost
   const renderCharts = (): void => {
     charts.replaceChildren();
     const s = sheet();
-    s.charts.forEach((chart, k) => charts.append(chartFigure(doc, s, chart, `${prefix}-chart-${k}`)));
+    s.charts.forEach((chart, k) => charts.append(chartFigure(doc, s, chart, `${prefix}-chart-${k}`, host.theme())));
   };
 
   let shownSheet: StandInSheet | null = null;
@@ -582,7 +570,7 @@ function headerText(sheet: StandInSheet, row: number, column: number): string {
 }
 
 /** A chart drawn from its source cells: lines of the columns after the first against the first. */
-function chartFigure(doc: Document, sheet: StandInSheet, chart: StandInChart, id: string): HTMLElement {
+function chartFigure(doc: Document, sheet: StandInSheet, chart: StandInChart, id: string, theme: "light" | "dark"): HTMLElement {
   const figure = element(doc, "figure");
   const caption = element(doc, "figcaption");
   caption.id = `${id}-caption`;
@@ -599,7 +587,7 @@ function chartFigure(doc: Document, sheet: StandInSheet, chart: StandInChart, id
   for (let r = area.top + 1; r <= area.bottom; r++) {
     const value = sheet.get(r, area.left)?.value;
     if (typeof value === "number" && Number.isFinite(value) && (!chart.logX || value > 0)) {
-      xs.push(chart.logX ? Math.log10(value) : value);
+      xs.push(value);
       rows.push(r);
     }
   }
@@ -612,73 +600,17 @@ function chartFigure(doc: Document, sheet: StandInSheet, chart: StandInChart, id
     });
     series.push({ name: headerText(sheet, area.top, c), points });
   }
-  const ys = series.flatMap((s) => s.points.map((p) => p[1]));
   caption.append(
     element(doc, "strong", undefined, chart.title),
     `: ${series.length} line${series.length === 1 ? "" : "s"} of ${chart.yTitle} against ${chart.xTitle}${chart.logX ? " (log scale)" : ""}, ${xs.length} points each, from ${chart.source}.`,
   );
   figure.append(caption);
-  if (xs.length === 0 || ys.length === 0) return figure;
-
-  const width = 560;
-  const height = 280;
-  const margin = { left: 64, right: 12, top: 10, bottom: 44 };
-  let xMin = Math.min(...xs);
-  let xMax = Math.max(...xs);
-  let yMin = Math.min(...ys);
-  let yMax = Math.max(...ys);
-  if (xMax === xMin) {
-    xMin -= 1;
-    xMax += 1;
-  }
-  if (yMax === yMin) {
-    yMin -= 1;
-    yMax += 1;
-  }
-  const pad = (yMax - yMin) * 0.05;
-  yMin -= pad;
-  yMax += pad;
-  const px = (x: number): number => margin.left + ((x - xMin) / (xMax - xMin)) * (width - margin.left - margin.right);
-  const py = (y: number): number => height - margin.bottom - ((y - yMin) / (yMax - yMin)) * (height - margin.top - margin.bottom);
-
-  const svg = svgElement(doc, "svg", { viewBox: `0 0 ${width} ${height}`, width, height, role: "img", "aria-labelledby": caption.id });
-  const axes = svgElement(doc, "path", {
-    d: `M${margin.left},${margin.top} V${height - margin.bottom} H${width - margin.right}`,
-    fill: "none",
-    class: "sw-axis",
-  });
-  svg.append(axes);
-  if (yMin < 0 && yMax > 0) {
-    svg.append(svgElement(doc, "line", { x1: margin.left, x2: width - margin.right, y1: py(0), y2: py(0), class: "sw-axis", "stroke-dasharray": "3 3" }));
-  }
-  const label = (text: string, x: number, y: number, anchor: string, rotate = false): void => {
-    const node = svgElement(doc, "text", { x, y, "text-anchor": anchor, ...(rotate ? { transform: `rotate(-90 ${x} ${y})` } : {}) });
-    node.textContent = text;
-    svg.append(node);
-  };
-  const xLabel = (v: number): string => generalNumber(chart.logX ? Math.pow(10, v) : v);
-  label(xLabel(xMin), margin.left, height - margin.bottom + 14, "start");
-  label(xLabel(xMax), width - margin.right, height - margin.bottom + 14, "end");
-  label(`${chart.xTitle}${chart.logX ? " (log scale)" : ""}`, (margin.left + width - margin.right) / 2, height - 8, "middle");
-  label(generalNumber(Number((yMax - pad).toPrecision(3))), margin.left - 4, margin.top + 10, "end");
-  label(generalNumber(Number((yMin + pad).toPrecision(3))), margin.left - 4, height - margin.bottom, "end");
-  label(chart.yTitle, 14, (margin.top + height - margin.bottom) / 2, "middle", true);
-  series.forEach((s, k) => {
-    if (s.points.length === 0) return;
-    const d = s.points.map((p, i) => `${i === 0 ? "M" : "L"}${px(p[0]).toFixed(1)},${py(p[1]).toFixed(1)}`).join(" ");
-    svg.append(svgElement(doc, "path", { d, fill: "none", stroke: PALETTE[k % PALETTE.length], "stroke-width": 1.6 }));
-  });
-  figure.append(svg);
-  const legend = element(doc, "ul", "sw-legend");
-  legend.setAttribute("aria-label", `Lines of ${chart.title}`);
-  series.forEach((s, k) => {
-    const item = element(doc, "li");
-    const swatch = element(doc, "span", "sw-swatch");
-    swatch.style.background = PALETTE[k % PALETTE.length];
-    swatch.setAttribute("aria-hidden", "true");
-    item.append(swatch, s.name);
-    legend.append(item);
-  });
-  figure.append(legend);
+  if (xs.length === 0 || series.every((s) => s.points.length === 0)) return figure;
+  // Drawn by the same chart library as the pane's charts (no plotting code of our own).
+  const holder = element(doc, "div", "sw-chart");
+  holder.setAttribute("role", "img");
+  holder.setAttribute("aria-labelledby", caption.id);
+  figure.append(holder);
+  mountSeriesChart(holder, { title: chart.title, xTitle: chart.xTitle, yTitle: chart.yTitle, logX: chart.logX, series }, theme);
   return figure;
 }
