@@ -47,6 +47,7 @@ import {
   PALETTES,
   pathChartOptions,
   renderChartSvg,
+  seriesChartOptions,
   spreadsMatch,
   suggestedHeight,
   termSpreads,
@@ -771,4 +772,27 @@ describe("SVG rendering (echarts server-side rendering)", () => {
       await browser.close();
     }
   }, 90_000);
+});
+
+describe("plain line charts from cell data (the stand-in's copy of a report chart)", () => {
+  test("one line series per data column, a log x axis when asked, the pane's palette", () => {
+    const spec = {
+      title: "Coefficient path",
+      xTitle: "penalty strength",
+      yTitle: "coefficient",
+      logX: true,
+      series: [
+        { name: "a", points: [[1, 0], [0.1, 0.5], [0.01, 0.7]] as [number, number][] },
+        { name: "b", points: [[1, 0], [0.1, -0.2], [0.01, -0.3]] as [number, number][] },
+      ],
+    };
+    const options = seriesChartOptions(spec, { theme: "dark", width: 560 }) as Record<string, unknown>;
+    const series = options.series as { type: string; name: string; data: unknown[]; lineStyle: { color: string } }[];
+    expect(series.map((s) => s.name)).toEqual(["a", "b"]); // one per column, in column order
+    expect(series.every((s) => s.type === "line" && s.data.length === 3)).toBe(true);
+    expect((options.xAxis as { type: string }).type).toBe("log");
+    expect(series[0].lineStyle.color).toBe(PALETTES.dark.lines[0]);
+    const linear = seriesChartOptions({ ...spec, logX: false }, { theme: "light", width: 560 }) as Record<string, unknown>;
+    expect((linear.xAxis as { type: string }).type).toBe("value");
+  });
 });

@@ -6,6 +6,10 @@
  */
 import { displayValue, formatNumber, generalNumber } from "../../taskpane/standInView";
 
+// The view draws report charts with echarts, whose ES modules jest (CommonJS) cannot load; the
+// parts tested here draw nothing, and the charts are exercised in test/taskpane/charts.test.ts.
+jest.mock("../../taskpane/charts", () => ({ mountSeriesChart: jest.fn() }));
+
 test("General: integers whole, others to 8 significant digits, E notation when very small or large", () => {
   expect(generalNumber(116)).toBe("116");
   expect(generalNumber(-3)).toBe("-3");
