@@ -96,7 +96,7 @@ const SPREADS = NAMES.map((_, j) => {
   return Math.sqrt(column.reduce((a, b) => a + (b - mean) ** 2, 0) / column.length);
 });
 
-let lasso: FitResult; // default mixes, lowest-error rule: mix 1 wins, several terms 0 at the choice
+let lowestRule: FitResult; // default mixes, lowest-error rule: mix 1 wins, several terms 0 at the choice
 let onese: FitResult;
 let ridge: FitResult; // mix 0 only: every term nonzero
 let mae: FitResult;
@@ -104,7 +104,7 @@ let fixed: FitResult;
 let leastSquares: FitResult;
 
 beforeAll(() => {
-  lasso = fit(x, y, { names: NAMES });
+  lowestRule = fit(x, y, { names: NAMES });
   onese = fit(x, y, { names: NAMES, rule: "onese" });
   ridge = fit(x, y, { names: NAMES, mixes: [0] });
   mae = fit(x, y, { names: NAMES, mixes: [0.5, 1], measure: "mae", folds: 5 });
@@ -221,14 +221,14 @@ describe("coefficient path", () => {
   });
 
   test("the SD recovered from the result is each column's population SD (common practice)", () => {
-    const recovered = termSpreads(lasso);
+    const recovered = termSpreads(lowestRule);
     NAMES.forEach((_, j) => {
-      if (lasso.coefficients[j] !== 0) expect([NAMES[j], relative(recovered[j] as number, SPREADS[j]) < 1e-9]).toEqual([NAMES[j], true]);
+      if (lowestRule.coefficients[j] !== 0) expect([NAMES[j], relative(recovered[j] as number, SPREADS[j]) < 1e-9]).toEqual([NAMES[j], true]);
     });
   });
 
   test("vertical markers at the lowest-error and one-SE strengths (engine result); the rule's pick drawn solid", () => {
-    for (const result of [lasso, onese]) {
+    for (const result of [lowestRule, onese]) {
       const option = pathChartOptions(result, { theme: "light", width: 360 });
       const marker = withIdPrefix(option, "choices")[0];
       const data = (marker.markLine as { data: { xAxis: number; name: string; lineStyle: { type: string } }[] }).data;
@@ -251,38 +251,38 @@ describe("coefficient path", () => {
   });
 
   test("terms 0 at the choice but not along the path are left out and named; matching SDs bring them back", () => {
-    const hidden = NAMES.filter((_, j) => lasso.coefficients[j] === 0 && lasso.path.coefficients.some((row) => row[j] !== 0));
+    const hidden = NAMES.filter((_, j) => lowestRule.coefficients[j] === 0 && lowestRule.path.coefficients.some((row) => row[j] !== 0));
     expect(hidden.length).toBeGreaterThan(0); // the demo's lasso choice drops some terms (engine result)
-    const option = pathChartOptions(lasso, { theme: "light", width: 450 });
+    const option = pathChartOptions(lowestRule, { theme: "light", width: 450 });
     const drawn = withIdPrefix(option, "term-").map((s) => String(s.name));
     expect(drawn.sort()).toEqual(NAMES.filter((n) => !hidden.includes(n)).sort());
     const note = String((option.title as AnyRecord).subtext);
     for (const name of hidden) expect(note).toContain(name);
 
-    const complete = pathChartOptions(lasso, { theme: "light", width: 450, spreads: SPREADS });
+    const complete = pathChartOptions(lowestRule, { theme: "light", width: 450, spreads: SPREADS });
     const lines = withIdPrefix(complete, "term-");
     expect(lines).toHaveLength(NAMES.length);
     expect(String((complete.title as AnyRecord).subtext)).not.toContain("Not drawn");
-    const chosen = lasso.path.strengths.indexOf(lasso.strength);
+    const chosen = lowestRule.path.strengths.indexOf(lowestRule.strength);
     for (const line of lines) {
       const j = NAMES.indexOf(String(line.name));
       const value = (line.data as number[][])[chosen][1];
-      if (lasso.standardizedCoefficients[j] === 0) expect(value).toBe(0);
-      else expect(relative(value, lasso.standardizedCoefficients[j])).toBeLessThan(1e-9);
+      if (lowestRule.standardizedCoefficients[j] === 0) expect(value).toBe(0);
+      else expect(relative(value, lowestRule.standardizedCoefficients[j])).toBeLessThan(1e-9);
     }
   });
 
   test("SDs that don't match the fit (another data set, or the wrong length) are ignored whole", () => {
-    expect(spreadsMatch(lasso, SPREADS)).toBe(true);
+    expect(spreadsMatch(lowestRule, SPREADS)).toBe(true);
     const stale = SPREADS.map((s) => s * 1.5);
-    expect(spreadsMatch(lasso, stale)).toBe(false);
-    expect(spreadsMatch(lasso, SPREADS.slice(1))).toBe(false);
-    const option = pathChartOptions(lasso, { theme: "light", width: 450, spreads: stale });
+    expect(spreadsMatch(lowestRule, stale)).toBe(false);
+    expect(spreadsMatch(lowestRule, SPREADS.slice(1))).toBe(false);
+    const option = pathChartOptions(lowestRule, { theme: "light", width: 450, spreads: stale });
     expect(withIdPrefix(option, "term-").length).toBeLessThan(NAMES.length);
   });
 
   test("the largest terms by |coefficient × SD| at the choice carry end labels: 3 when narrow, 5 when wide", () => {
-    const ranked = NAMES.map((name, j) => ({ name, size: Math.abs(lasso.standardizedCoefficients[j]) }))
+    const ranked = NAMES.map((name, j) => ({ name, size: Math.abs(lowestRule.standardizedCoefficients[j]) }))
       .filter((t) => t.size > 0)
       .sort((a, b) => b.size - a.size)
       .map((t) => t.name);
@@ -290,7 +290,7 @@ describe("coefficient path", () => {
       [320, 3],
       [450, 5],
     ]) {
-      const option = pathChartOptions(lasso, { theme: "light", width });
+      const option = pathChartOptions(lowestRule, { theme: "light", width });
       const labelled = withIdPrefix(option, "term-")
         .filter((s) => (s.endLabel as { show: boolean }).show)
         .map((s) => String(s.name));
@@ -339,8 +339,8 @@ describe("coefficient path", () => {
 
 describe("cross-validation curve", () => {
   test("one line per mix in the engine's table, each with a ± SE band drawn by stacking", () => {
-    const option = cvChartOptions(lasso, { theme: "light", width: 360 });
-    const table = (lasso.cv as NonNullable<FitResult["cv"]>).table;
+    const option = cvChartOptions(lowestRule, { theme: "light", width: 360 });
+    const table = (lowestRule.cv as NonNullable<FitResult["cv"]>).table;
     const mixes = [...new Set(table.map((r) => r.mix))];
     expect(mixes).toEqual([0, 0.25, 0.5, 0.75, 1]); // engine default mixes (engine result)
     const lines = withIdPrefix(option, "cv-mix-");
@@ -360,7 +360,7 @@ describe("cross-validation curve", () => {
   });
 
   test("the lowest-error and one-SE points are marked on the winning mix at the engine's choices", () => {
-    for (const result of [lasso, onese]) {
+    for (const result of [lowestRule, onese]) {
       const option = cvChartOptions(result, { theme: "light", width: 450 });
       const choices = result.choices as NonNullable<FitResult["choices"]>;
       const mixes = [...new Set((result.cv as NonNullable<FitResult["cv"]>).table.map((r) => r.mix))];
@@ -379,13 +379,13 @@ describe("cross-validation curve", () => {
   });
 
   test("the hover text lists each mix whose grid covers the pointer, at its nearest strength (engine result)", () => {
-    const option = cvChartOptions(lasso, { theme: "light", width: 360 });
+    const option = cvChartOptions(lowestRule, { theme: "light", width: 360 });
     const formatter = (option.tooltip as { formatter: (p: unknown) => string }).formatter;
-    const choices = lasso.choices as NonNullable<FitResult["choices"]>;
-    const table = (lasso.cv as NonNullable<FitResult["cv"]>).table;
+    const choices = lowestRule.choices as NonNullable<FitResult["choices"]>;
+    const table = (lowestRule.cv as NonNullable<FitResult["cv"]>).table;
     const at = choices.min.strength;
     const html = formatter([{ seriesId: "cv-mix-4", axisValue: at, value: [at, choices.min.error, choices.min.se, choices.min.nonzero] }]);
-    expect(html).toContain(`mix 1 (lasso): ${formatNumber(choices.min.error)} ± ${formatNumber(choices.min.se)}, ${choices.min.nonzero} terms`);
+    expect(html).toContain(`mix 1 (lowestRule): ${formatNumber(choices.min.error)} ± ${formatNumber(choices.min.se)}, ${choices.min.nonzero} terms`);
     for (const mix of [0.25, 0.5, 0.75]) {
       const rows = table.filter((r) => r.mix === mix);
       const near = rows.reduce((a, b) => (Math.abs(Math.log(b.strength / at)) < Math.abs(Math.log(a.strength / at)) ? b : a));
@@ -397,7 +397,7 @@ describe("cross-validation curve", () => {
   });
 
   test("the y axis names the error measure", () => {
-    expect(String(axis(cvChartOptions(lasso, { theme: "light", width: 360 }), "yAxis").name)).toContain("MSE");
+    expect(String(axis(cvChartOptions(lowestRule, { theme: "light", width: 360 }), "yAxis").name)).toContain("MSE");
     const option = cvChartOptions(mae, { theme: "dark", width: 360 });
     expect(String(axis(option, "yAxis").name)).toContain("MAE");
     expect(withIdPrefix(option, "cv-mix-")).toHaveLength(2);
@@ -416,15 +416,15 @@ describe("cross-validation curve", () => {
 
 describe("coefficient bars", () => {
   test("nonzero terms sorted by |coefficient × SD| descending, zero terms named in the note, no intercept", () => {
-    const option = coefficientBarOptions(lasso, { theme: "light", width: 450 });
+    const option = coefficientBarOptions(lowestRule, { theme: "light", width: 450 });
     const categories = axis(option, "yAxis").data as string[];
     const bars = seriesOf(option)[0].data as { value: number; name: string; itemStyle: { color: string } }[];
-    const nonzero = NAMES.filter((_, j) => lasso.standardizedCoefficients[j] !== 0);
+    const nonzero = NAMES.filter((_, j) => lowestRule.standardizedCoefficients[j] !== 0);
     expect(categories.slice().sort()).toEqual(nonzero.slice().sort());
     expect(categories).not.toContain("intercept");
     bars.forEach((bar, k) => {
       // Values: the engine's standardized coefficients (engine result).
-      expect(bar.value).toBe(lasso.standardizedCoefficients[NAMES.indexOf(bar.name)]);
+      expect(bar.value).toBe(lowestRule.standardizedCoefficients[NAMES.indexOf(bar.name)]);
       expect(bar.name).toBe(categories[k]);
       if (k > 0) expect(Math.abs(bar.value)).toBeLessThanOrEqual(Math.abs(bars[k - 1].value));
       expect(bar.itemStyle.color).toBe(bar.value > 0 ? PALETTES.light.positive : PALETTES.light.negative);
@@ -484,7 +484,7 @@ describe("palettes", () => {
     const p = PALETTES[theme];
     const allowed = new Set([p.text, p.muted]);
     for (const build of [pathChartOptions, cvChartOptions, coefficientBarOptions]) {
-      const option = build(lasso, { theme, width: 450 });
+      const option = build(lowestRule, { theme, width: 450 });
       expect(option.backgroundColor).toBe(p.background);
       const colours: string[] = [];
       const walk = (node: unknown, key: string): void => {
@@ -511,8 +511,8 @@ describe("narrow widths", () => {
   test("320 px: smaller text, no path legend, fewer end labels, two-line axis name, shorter bar labels", () => {
     expect(COMPACT_WIDTH).toBeGreaterThan(320);
     expect(COMPACT_WIDTH).toBeLessThanOrEqual(450);
-    const narrow = pathChartOptions(lasso, { theme: "light", width: 320 });
-    const wide = pathChartOptions(lasso, { theme: "light", width: 450 });
+    const narrow = pathChartOptions(lowestRule, { theme: "light", width: 320 });
+    const wide = pathChartOptions(lowestRule, { theme: "light", width: 450 });
     expect((narrow.textStyle as AnyRecord).fontSize).toBe(11);
     expect((wide.textStyle as AnyRecord).fontSize).toBe(12);
     expect((narrow.legend as AnyRecord).show).toBe(false);
@@ -523,26 +523,26 @@ describe("narrow widths", () => {
     expect(ends(narrow)).toBeLessThan(ends(wide));
     // Same data either way.
     expect(withIdPrefix(narrow, "term-").length).toBe(withIdPrefix(wide, "term-").length);
-    const barsNarrow = coefficientBarOptions(lasso, { theme: "light", width: 320 });
-    const barsWide = coefficientBarOptions(lasso, { theme: "light", width: 450 });
+    const barsNarrow = coefficientBarOptions(lowestRule, { theme: "light", width: 320 });
+    const barsWide = coefficientBarOptions(lowestRule, { theme: "light", width: 450 });
     const labelWidth = (o: ChartOption): number => (axis(o, "yAxis").axisLabel as { width: number }).width;
     expect(labelWidth(barsNarrow)).toBeLessThan(labelWidth(barsWide));
     expect((axis(barsNarrow, "yAxis").axisLabel as AnyRecord).overflow).toBe("truncate");
     // The CV legend stays (mixes are few) but drops the word "mix" when narrow.
-    const legendFormatter = (cvChartOptions(lasso, { theme: "light", width: 320 }).legend as { formatter: (n: string) => string }).formatter;
+    const legendFormatter = (cvChartOptions(lowestRule, { theme: "light", width: 320 }).legend as { formatter: (n: string) => string }).formatter;
     expect(legendFormatter("mix 0 (ridge)")).toBe("0 (ridge)");
   });
 
   test("plot margins leave the plot most of the width, and the suggested height grows with the notes and bars", () => {
     for (const width of [320, 450]) {
       for (const kind of KINDS) {
-        const option = (kind === "path" ? pathChartOptions : kind === "cv" ? cvChartOptions : coefficientBarOptions)(lasso, { theme: "light", width });
+        const option = (kind === "path" ? pathChartOptions : kind === "cv" ? cvChartOptions : coefficientBarOptions)(lowestRule, { theme: "light", width });
         const grid = option.grid as { left: number; right: number };
         expect([kind, width, width - grid.left - grid.right >= width * 0.45]).toEqual([kind, width, true]);
       }
     }
-    expect(suggestedHeight("bars", ridge, 360)).toBeGreaterThan(suggestedHeight("bars", lasso, 360));
-    expect(suggestedHeight("path", lasso, 320)).toBeGreaterThan(suggestedHeight("path", lasso, 320, SPREADS));
+    expect(suggestedHeight("bars", ridge, 360)).toBeGreaterThan(suggestedHeight("bars", lowestRule, 360));
+    expect(suggestedHeight("path", lowestRule, 320)).toBeGreaterThan(suggestedHeight("path", lowestRule, 320, SPREADS));
   });
 });
 
@@ -551,19 +551,19 @@ describe("narrow widths", () => {
 
 describe("text alternatives", () => {
   test("each chart's description states what it shows from the engine result", () => {
-    const path = describeChart("path", lasso);
-    expect(path).toContain("mix 1 (lasso)");
-    expect(path).toContain(`${NAMES.length - NAMES.filter((_, j) => lasso.coefficients[j] === 0 && lasso.path.coefficients.some((r) => r[j] !== 0)).length} of ${NAMES.length} terms`);
-    const top = NAMES[lasso.standardizedCoefficients.map(Math.abs).indexOf(Math.max(...lasso.standardizedCoefficients.map(Math.abs)))];
+    const path = describeChart("path", lowestRule);
+    expect(path).toContain("mix 1 (lowestRule)");
+    expect(path).toContain(`${NAMES.length - NAMES.filter((_, j) => lowestRule.coefficients[j] === 0 && lowestRule.path.coefficients.some((r) => r[j] !== 0)).length} of ${NAMES.length} terms`);
+    const top = NAMES[lowestRule.standardizedCoefficients.map(Math.abs).indexOf(Math.max(...lowestRule.standardizedCoefficients.map(Math.abs)))];
     expect(path).toContain(top);
-    const choices = lasso.choices as NonNullable<FitResult["choices"]>;
-    const cv = describeChart("cv", lasso);
+    const choices = lowestRule.choices as NonNullable<FitResult["choices"]>;
+    const cv = describeChart("cv", lowestRule);
     expect(cv).toContain("5 mixes");
     expect(cv).toContain(formatNumber(choices.min.error));
     expect(cv).toContain(formatNumber(choices.onese.strength));
-    const bars = describeChart("bars", lasso);
+    const bars = describeChart("bars", lowestRule);
     expect(bars).toContain(top);
-    expect(bars).toContain(`${barEntries(lasso).zero.length} terms are zero`);
+    expect(bars).toContain(`${barEntries(lowestRule).zero.length} terms are zero`);
   });
 
   test("numbers: three significant digits, exponent form for tiny and huge, a true minus sign", () => {
@@ -590,12 +590,12 @@ describe("SVG rendering (echarts server-side rendering)", () => {
         if (kind === "path") expect(termLinePaths(svg, PALETTES[theme])).toBe(NAMES.length);
       }
     }
-    const lassoPath = renderChartSvg("path", lasso, { theme, width: 360 });
-    expect(termLinePaths(lassoPath, PALETTES[theme])).toBe(withIdPrefix(pathChartOptions(lasso, { theme, width: 360 }), "term-").length);
+    const lassoPath = renderChartSvg("path", lowestRule, { theme, width: 360 });
+    expect(termLinePaths(lassoPath, PALETTES[theme])).toBe(withIdPrefix(pathChartOptions(lowestRule, { theme, width: 360 }), "term-").length);
     expect(lassoPath).toContain(">min<");
     expect(lassoPath).toContain(">1 SE<");
-    const bars = renderChartSvg("bars", lasso, { theme, width: 360 });
-    for (const entry of barEntries(lasso).nonzero.slice(0, 3)) expect(bars).toContain(`>${entry.name}<`);
+    const bars = renderChartSvg("bars", lowestRule, { theme, width: 360 });
+    for (const entry of barEntries(lowestRule).nonzero.slice(0, 3)) expect(bars).toContain(`>${entry.name}<`);
   });
 
   test("fits without a path or a curve still render", () => {
@@ -612,7 +612,7 @@ describe("SVG rendering (echarts server-side rendering)", () => {
       'for (const kind of ["path", "cv", "bars"] as const) out[kind] = renderChartSvg(kind, result, { theme: "light", width: 360 });',
       "process.stdout.write(JSON.stringify(out));",
     ].join("\n");
-    const child = spawnSync(tsx, ["-e", script], { cwd: ROOT, input: JSON.stringify(lasso), encoding: "utf8", timeout: 60_000 });
+    const child = spawnSync(tsx, ["-e", script], { cwd: ROOT, input: JSON.stringify(lowestRule), encoding: "utf8", timeout: 60_000 });
     expect(child.stderr).toBe("");
     expect(child.status).toBe(0);
     const treeShaken = JSON.parse(child.stdout) as Record<ChartKind, string>;
@@ -626,7 +626,7 @@ describe("SVG rendering (echarts server-side rendering)", () => {
         .split(/(?=<)/)
         .sort();
     for (const kind of KINDS) {
-      const full = renderChartSvg(kind, lasso, { theme: "light", width: 360 });
+      const full = renderChartSvg(kind, lowestRule, { theme: "light", width: 360 });
       expect([kind, JSON.stringify(normalise(treeShaken[kind])) === JSON.stringify(normalise(full))]).toEqual([kind, true]);
     }
   }, 90_000);
@@ -741,7 +741,7 @@ describe("SVG rendering (echarts server-side rendering)", () => {
           }
           return results;
         },
-        { first: JSON.parse(JSON.stringify(lasso)), second: JSON.parse(JSON.stringify(ridge)) },
+        { first: JSON.parse(JSON.stringify(lowestRule)), second: JSON.parse(JSON.stringify(ridge)) },
       );
       expect(errors).toEqual([]);
       for (const kind of KINDS) {
@@ -753,14 +753,14 @@ describe("SVG rendering (echarts server-side rendering)", () => {
           emptied: boolean;
           afterDispose: string;
         };
-        expect(r.light.height).toBe(`${suggestedHeight(kind, lasso, 360)}px`);
+        expect(r.light.height).toBe(`${suggestedHeight(kind, lowestRule, 360)}px`);
         expect(r.light.svgCount).toBeGreaterThan(0); // on screen: the SVG renderer
         expect(r.light.canvasCount).toBe(0);
         expect(r.light.role).toBe("img");
-        expect(r.light.label).toBe(describeChart(kind, lasso));
-        expect(r.light.describe).toBe(describeChart(kind, lasso));
+        expect(r.light.label).toBe(describeChart(kind, lowestRule));
+        expect(r.light.describe).toBe(describeChart(kind, lowestRule));
         expect(r.light.pngPrefix).toBe("data:image/png;base64,");
-        expect(r.light.pngSize).toEqual([720, 2 * suggestedHeight(kind, lasso, 360)]); // 2× pixel ratio
+        expect(r.light.pngSize).toEqual([720, 2 * suggestedHeight(kind, lowestRule, 360)]); // 2× pixel ratio
         expect(r.light.svg).toMatch(/^<svg width="360"/);
         expect(r.darkShown).toBe(true);
         expect(r.resizedSvg).toMatch(/^<svg width="450"/);
