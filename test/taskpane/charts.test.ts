@@ -385,7 +385,7 @@ describe("cross-validation curve", () => {
     const table = (lowestRule.cv as NonNullable<FitResult["cv"]>).table;
     const at = choices.min.strength;
     const html = formatter([{ seriesId: "cv-mix-4", axisValue: at, value: [at, choices.min.error, choices.min.se, choices.min.nonzero] }]);
-    expect(html).toContain(`mix 1 (lowestRule): ${formatNumber(choices.min.error)} ± ${formatNumber(choices.min.se)}, ${choices.min.nonzero} terms`);
+    expect(html).toContain(`mix 1 (lasso): ${formatNumber(choices.min.error)} ± ${formatNumber(choices.min.se)}, ${choices.min.nonzero} terms`);
     for (const mix of [0.25, 0.5, 0.75]) {
       const rows = table.filter((r) => r.mix === mix);
       const near = rows.reduce((a, b) => (Math.abs(Math.log(b.strength / at)) < Math.abs(Math.log(a.strength / at)) ? b : a));
@@ -552,7 +552,7 @@ describe("narrow widths", () => {
 describe("text alternatives", () => {
   test("each chart's description states what it shows from the engine result", () => {
     const path = describeChart("path", lowestRule);
-    expect(path).toContain("mix 1 (lowestRule)");
+    expect(path).toContain("mix 1 (lasso)");
     expect(path).toContain(`${NAMES.length - NAMES.filter((_, j) => lowestRule.coefficients[j] === 0 && lowestRule.path.coefficients.some((r) => r[j] !== 0)).length} of ${NAMES.length} terms`);
     const top = NAMES[lowestRule.standardizedCoefficients.map(Math.abs).indexOf(Math.max(...lowestRule.standardizedCoefficients.map(Math.abs)))];
     expect(path).toContain(top);
