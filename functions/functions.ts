@@ -3,7 +3,7 @@
 /**
  * The SHRINK cell functions as Excel registers them. Each body is a thin adapter: it turns
  * Excel's cancel notice into a CancelToken, calls the matching function in api.ts with the one
- * shared runner, and turns anything thrown into a cell error (errors.ts). The JSDoc here is what
+ * shared runner; api.ts turns anything thrown into a cell error, in its one guard (errors.ts). The JSDoc here is what
  * Excel shows while the user types (functions.json is generated from it at build time).
  *
  * Parameter types: data ranges, mixes and settings are `any[][]` (dimensionality "matrix"), so
@@ -19,7 +19,6 @@
  */
 import * as api from "./api";
 import { FitCache } from "./cache";
-import { toCellError } from "./errors";
 import { InProcessRunner } from "./inProcessRunner";
 import { cancelSource, CancelToken, FitRunner } from "./runner";
 import { browserWorkerFactory, workersAvailable, WorkerRunner } from "./workerRunner";
@@ -42,11 +41,7 @@ export async function coefs(
   settings: any[][],
   invocation: CustomFunctions.CancelableInvocation,
 ): Promise<any[][]> {
-  try {
-    return await api.coefs(sharedRunner(), target, predictors, mixes, settings, cancelOn(invocation));
-  } catch (e) {
-    throw toCellError(e);
-  }
+  return api.coefs(sharedRunner(), target, predictors, mixes, settings, cancelOn(invocation));
 }
 
 /**
@@ -67,11 +62,7 @@ export async function choice(
   settings: any[][],
   invocation: CustomFunctions.CancelableInvocation,
 ): Promise<any[][]> {
-  try {
-    return await api.choice(sharedRunner(), target, predictors, mixes, settings, cancelOn(invocation));
-  } catch (e) {
-    throw toCellError(e);
-  }
+  return api.choice(sharedRunner(), target, predictors, mixes, settings, cancelOn(invocation));
 }
 
 /**
@@ -93,11 +84,7 @@ export async function predict(
   settings: any[][],
   invocation: CustomFunctions.CancelableInvocation,
 ): Promise<any[][]> {
-  try {
-    return await api.predict(sharedRunner(), target, predictors, new_rows, mixes, settings, cancelOn(invocation));
-  } catch (e) {
-    throw toCellError(e);
-  }
+  return api.predict(sharedRunner(), target, predictors, new_rows, mixes, settings, cancelOn(invocation));
 }
 
 /**
@@ -109,11 +96,7 @@ export async function predict(
  * @returns One prediction per row of new_rows.
  */
 export async function apply(coefficient_table: any[][], new_rows: any[][]): Promise<any[][]> {
-  try {
-    return await api.apply(coefficient_table, new_rows);
-  } catch (e) {
-    throw toCellError(e);
-  }
+  return api.apply(coefficient_table, new_rows);
 }
 
 /**
@@ -134,11 +117,7 @@ export async function path(
   settings: any[][],
   invocation: CustomFunctions.CancelableInvocation,
 ): Promise<any[][]> {
-  try {
-    return await api.path(sharedRunner(), target, predictors, mix, settings, cancelOn(invocation));
-  } catch (e) {
-    throw toCellError(e);
-  }
+  return api.path(sharedRunner(), target, predictors, mix, settings, cancelOn(invocation));
 }
 
 /**
@@ -159,11 +138,7 @@ export async function cvcurve(
   settings: any[][],
   invocation: CustomFunctions.CancelableInvocation,
 ): Promise<any[][]> {
-  try {
-    return await api.cvcurve(sharedRunner(), target, predictors, mixes, settings, cancelOn(invocation));
-  } catch (e) {
-    throw toCellError(e);
-  }
+  return api.cvcurve(sharedRunner(), target, predictors, mixes, settings, cancelOn(invocation));
 }
 
 /**
@@ -175,11 +150,7 @@ export async function cvcurve(
  * @returns A table of label and value.
  */
 export async function score(actual: any[][], predicted: any[][]): Promise<any[][]> {
-  try {
-    return await api.score(actual, predicted);
-  } catch (e) {
-    throw toCellError(e);
-  }
+  return api.score(actual, predicted);
 }
 
 /**
@@ -196,11 +167,7 @@ export async function baseline(
   predictors: any[][],
   invocation: CustomFunctions.CancelableInvocation,
 ): Promise<any[][]> {
-  try {
-    return await api.baseline(sharedRunner(), target, predictors, cancelOn(invocation));
-  } catch (e) {
-    throw toCellError(e);
-  }
+  return api.baseline(sharedRunner(), target, predictors, cancelOn(invocation));
 }
 
 // ---------------------------------------------------------------------------------------------
