@@ -43,7 +43,20 @@ import {
   describeColumn,
 } from "./validate";
 
-export type ChoiceRule = "min" | "onese";
+/** The two choice rules: lowest cross-validated error, or the one-SE rule. */
+export type ChoiceRule = "lowest" | "one-se";
+
+/**
+ * The rule a user typed, in any accepted spelling: `lowest` (also `lowest error`, and the
+ * older `min`) or `one-se` (also `one-SE rule`, `one standard error`, and the older `onese`,
+ * `1se`). Case, spaces, `_` and `-` are ignored. Null when the text names neither rule.
+ */
+export function parseRule(text: string): ChoiceRule | null {
+  const key = text.toLowerCase().replace(/[\s_-]+/g, "");
+  if (["lowest", "lowesterror", "min", "minimum"].includes(key)) return "lowest";
+  if (["onese", "oneserule", "1se", "1serule", "onestandarderror", "onestandarderrorrule"].includes(key)) return "one-se";
+  return null;
+}
 export type ErrorMeasure = "mse" | "mae";
 export type UpdateScheme = "auto" | "gram" | "residual";
 
@@ -67,8 +80,8 @@ export interface FitOptions {
   timeOrdered?: boolean;
   /** Cross-validation error measure. Default "mse". */
   measure?: ErrorMeasure;
-  /** Which cross-validated point becomes the model. Default "min". */
-  rule?: ChoiceRule;
+  /** Which cross-validated point becomes the model. Default "lowest" ("min", "onese" also accepted). */
+  rule?: ChoiceRule | "min" | "onese" | "1se";
   /** Standardize predictors before penalizing. Default true. */
   standardize?: boolean;
   /** Fit an (unpenalized) intercept. Default true. */
@@ -108,7 +121,8 @@ export interface ChoicePoint {
   index: number;
   error: number;
   se: number;
-  nonzero: number;
+  /** Terms with a nonzero coefficient at this point. */
+  termsKept: number;
 }
 
 export interface CvRow {
@@ -116,7 +130,8 @@ export interface CvRow {
   strength: number;
   error: number;
   se: number;
-  nonzero: number;
+  /** Terms with a nonzero coefficient at this point. */
+  termsKept: number;
 }
 
 export interface FitResult {
@@ -133,7 +148,7 @@ export interface FitResult {
   strength: number;
   strengthFraction: number;
   rule: ChoiceRule | "fixed";
-  choices: { min: ChoicePoint; onese: ChoicePoint } | null;
+  choices: { lowest: ChoicePoint; oneSe: ChoicePoint } | null;
   cv: {
     measure: ErrorMeasure;
     scheme: FoldScheme;
@@ -147,7 +162,8 @@ export interface FitResult {
     strengths: number[];
     intercepts: number[];
     coefficients: number[][];
-    nonzero: number[];
+    /** Terms with a nonzero coefficient at each strength. */
+    termsKept: number[];
     r2: number[];
   };
   /** In-sample accuracy of the chosen model (weighted when weights are given). */
@@ -616,8 +632,8 @@ export function* fitSteps(
   const activePlan = plan as FoldPlan;
   const measure = options.measure ?? "mse";
   if (measure !== "mse" && measure !== "mae") throw new InputError("setting", `the error measure must be mse or mae; got ${String(measure)}`);
-  const rule = options.rule ?? "min";
-  if (rule !== "min" && rule !== "onese") throw new InputError("setting", `the rule must be min or onese; got ${String(rule)}`);
+  const rule = typeof options.rule === "string" ? parseRule(options.rule) : options.rule == null ? "lowest" : null;
+  if (rule === null) throw new InputError("setting", `the rule must be lowest or one-se; got ${String(options.rule)}`);
   const K = activePlan.trainBlocks.length;
   const totalUnits = data.mixes.length * (K + 1);
   let done = 0;
@@ -705,14 +721,14 @@ export function* fitSteps(
     index,
     error: outcome.mean[index],
     se: outcome.se[index],
-    nonzero: outcome.run.nonzero[index],
+    termsKept: outcome.run.nonzero[index],
   });
-  const choices = { min: point(best, bestIndex), onese: point(best, oneSeIndex) };
-  const chosen = rule === "min" ? choices.min : choices.onese;
+  const choices = { lowest: point(best, bestIndex), oneSe: point(best, oneSeIndex) };
+  const chosen = rule === "lowest" ? choices.lowest : choices.oneSe;
   const table: CvRow[] = [];
   for (const outcome of outcomes) {
     for (let k = 0; k < outcome.mean.length; k++) {
-      table.push({ mix: outcome.mix, strength: outcome.run.strengths[k], error: outcome.mean[k], se: outcome.se[k], nonzero: outcome.run.nonzero[k] });
+      table.push({ mix: outcome.mix, strength: outcome.run.strengths[k], error: outcome.mean[k], se: outcome.se[k], termsKept: outcome.run.nonzero[k] });
     }
   }
   if (bestIndex === best.run.strengths.length - 1 && !best.run.stoppedEarly) {
@@ -825,7 +841,7 @@ function assemble(
       strengths: run.strengths.slice(),
       intercepts,
       coefficients: coefficientRows,
-      nonzero: run.nonzero.slice(),
+      termsKept: run.nonzero.slice(),
       r2: run.r2.slice(),
     },
     fit: score(data.y, predictions, data.weights),
@@ -874,7 +890,7 @@ function leastSquaresResult(data: Prepared, full: TrainingProblem, constantColum
     rule: "fixed",
     choices: null,
     cv: null,
-    path: { mix: data.mixes[0], top: 0, strengths: [0], intercepts: [baseline.intercept], coefficients: [coefficients], nonzero: [coefficients.filter((b) => b !== 0).length], r2: [baseline.r2] },
+    path: { mix: data.mixes[0], top: 0, strengths: [0], intercepts: [baseline.intercept], coefficients: [coefficients], termsKept: [coefficients.filter((b) => b !== 0).length], r2: [baseline.r2] },
     fit: score(data.y, predictions, data.weights),
     baseline: {
       standardErrors: baseline.standardErrors.slice(),

@@ -3,7 +3,7 @@
  * cross-validation. Pure TypeScript; no Office or DOM dependency.
  */
 // Fitting
-export { fit, fitAsync, fitSteps, DEFAULT_MIXES } from "./fit";
+export { fit, fitAsync, fitSteps, parseRule, DEFAULT_MIXES } from "./fit";
 export type { FitOptions, FitResult, ChoicePoint, CvRow, ChoiceRule, ErrorMeasure, UpdateScheme } from "./fit";
 export { leastSquares } from "./leastSquares";
 export type { LeastSquaresOptions, LeastSquaresResult } from "./leastSquares";
@@ -15,6 +15,7 @@ export type { Score } from "./metrics";
 // Building blocks
 export { strengthGrid, runPath, topStrength, RIDGE_TOP_MIX } from "./path";
 export { softThreshold, coordinateViolation } from "./descent";
+export { RULE_WORDS, INTERCEPT_LABEL, MIX_LABEL, errorWithSe } from "./words";
 export { planFolds } from "./folds";
 export type { FoldPlan, FoldScheme } from "./folds";
 export { mulberry32, randomFolds } from "./random";

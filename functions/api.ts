@@ -7,13 +7,13 @@
  *
  * | function                                               | returns                                                         |
  * |--------------------------------------------------------|-----------------------------------------------------------------|
- * | SHRINK.COEFS(target, predictors, [mixes], [settings])  | term | coefficient, "(intercept)" first                         |
+ * | SHRINK.COEFS(target, predictors, [mixes], [settings])  | term | coefficient, "intercept" first                           |
  * | SHRINK.CHOICE(target, predictors, [mixes], [settings]) | label | value: the chosen point and how it was chosen          |
  * | SHRINK.PREDICT(target, predictors, new_rows, [mixes], [settings]) | one prediction per new row                           |
  * | SHRINK.APPLY(coefficient_table, new_rows)              | one prediction per new row, from a table, without refitting     |
- * | SHRINK.PATH(target, predictors, [mix], [settings])     | strength | nonzero | (intercept) | terms…, one row per strength |
- * | SHRINK.CVCURVE(target, predictors, [mixes], [settings])| mix | strength | CV error | SE | nonzero                         |
- * | SHRINK.SCORE(actual, predicted)                        | label | value: MAE, RMSE, R², mean error, count                  |
+ * | SHRINK.PATH(target, predictors, [mix], [settings])     | strength | terms kept | intercept | terms…, one per strength  |
+ * | SHRINK.CVCURVE(target, predictors, [mixes], [settings])| mix | strength | CV MSE | ± SE | terms kept                    |
+ * | SHRINK.SCORE(actual, predicted)                        | label | value: MAE, RMSE, R², mean error, pairs used/skipped   |
  * | SHRINK.BASELINE(target, predictors)                    | term | coefficient | standard error, residual SD, R²            |
  *
  * COEFS, CHOICE, PREDICT, PATH (with its mix omitted) and CVCURVE build the same FitRequest for
@@ -146,7 +146,7 @@ export function prepare(target: unknown, predictors: unknown, mixesRaw: unknown,
 
 /**
  * SHRINK.COEFS: the chosen model's coefficients in original units.
- * Returns [["term", "coefficient"], ["(intercept)", b0], [term, b], …].
+ * Returns [["term", "coefficient"], ["intercept", b0], [term, b], …].
  */
 export function coefs(
   runner: FitRunner,
@@ -225,7 +225,7 @@ export function apply(coefficientTable: unknown, newRows: unknown): Promise<Spil
 
 /**
  * SHRINK.PATH: the coefficient path of one mix (given, or the mix cross-validation chooses when
- * omitted). Returns [["strength", "nonzero", "(intercept)", terms…], one row per strength].
+ * omitted). Returns [["strength", "terms kept", "intercept", terms…], one row per strength].
  */
 export function path(
   runner: FitRunner,
@@ -249,9 +249,9 @@ export function path(
 }
 
 /**
- * SHRINK.CVCURVE: the cross-validation table. Returns [["mix", "strength", "CV error (MSE)",
- * "SE", "nonzero"], one row per mix and strength]. #N/A with a fixed strength (no
- * cross-validation runs).
+ * SHRINK.CVCURVE: the cross-validation table. Returns [["mix", "strength", "CV MSE", "± SE",
+ * "terms kept"], one row per mix and strength] ("CV MAE" with error=mae). #N/A with a fixed
+ * strength (no cross-validation runs).
  */
 export function cvcurve(
   runner: FitRunner,
@@ -297,7 +297,7 @@ function flatten(grid: unknown[][], label: string): Vector {
 /**
  * SHRINK.SCORE: accuracy of predictions. Pairs with a blank or error cell are skipped (and
  * counted); a text header on top of both ranges is dropped. Returns [["label", "value"],
- * ["MAE", …], ["RMSE", …], ["R²", …], ["mean error (predicted − actual)", …], ["count", n],
+ * ["MAE", …], ["RMSE", …], ["R²", …], ["mean error (predicted − actual)", …], ["pairs used", n],
  * ["pairs skipped", m]].
  */
 export function score(actual: unknown, predicted: unknown): Promise<Spill> {
@@ -365,7 +365,7 @@ export function score(actual: unknown, predicted: unknown): Promise<Spill> {
 
 /**
  * SHRINK.BASELINE: the exact least-squares fit (strength 0) with standard errors.
- * Returns [["term", "coefficient", "standard error"], ["(intercept)", b0, se0], …, ["", "", ""],
+ * Returns [["term", "coefficient", "standard error"], ["intercept", b0, se0], …, ["", "", ""],
  * ["residual SD", s, ""], ["residual degrees of freedom", df, ""], ["R²", r2, ""], ["rows used", n, ""]].
  */
 export function baseline(runner: FitRunner, target: unknown, predictors: unknown, cancel?: CancelToken | null): Promise<Spill> {

@@ -102,7 +102,14 @@ export interface Dataset {
 /** The settings the data layer reads. */
 export type DataSettings = Pick<Settings, "header" | "zeroIsMissing" | "foldColumn" | "weightsColumn">;
 
+/** Names that mean the intercept everywhere (reserved: no predictor column may use them). */
 const INTERCEPT_KEYS = new Set(["(intercept)", "intercept"]);
+/**
+ * A coefficient table may also call its intercept "constant" (a common word for it in hand-made
+ * tables). It is read so only when the table has no intercept row, so a predictor genuinely
+ * named "constant" still round-trips through SHRINK.COEFS (whose intercept row is "intercept").
+ */
+const CONSTANT_KEY = "constant";
 
 /** Most levels a text column may have (each level but one becomes a term). */
 export const MAX_LEVELS = 1000;
@@ -666,8 +673,8 @@ const REFERENCE_SUFFIX = /\s*\(reference\)\s*$/i;
 /**
  * Reads a coefficient table (SHRINK.COEFS or SHRINK.BASELINE output, or typed by hand): term |
  * coefficient rows, an optional header row (second cell text), ending at the first blank row.
- * "(intercept)" (or "intercept") is the intercept (0 when absent); a term ending in
- * " (reference)" marks a text column's reference level.
+ * "intercept" (or "(intercept)", or "constant" when no intercept row is present) is the
+ * intercept (0 when absent); a term ending in " (reference)" marks a text column's reference level.
  */
 export function readCoefficientTable(raw: unknown): CoefficientTable {
   const grid = toGrid(raw);
@@ -705,6 +712,10 @@ export function readCoefficientTable(raw: unknown): CoefficientTable {
     if (seen.has(textKey(name))) throw new DataError(`coefficient_table lists '${name}' twice: keep one`);
     seen.add(textKey(name));
     terms.push({ term: name, coefficient: coefficientCell.value, reference });
+  }
+  if (intercept === null) {
+    const constant = terms.findIndex((t) => !t.reference && textKey(t.term) === CONSTANT_KEY);
+    if (constant >= 0) intercept = terms.splice(constant, 1)[0].coefficient;
   }
   if (terms.length === 0) throw new DataError("coefficient_table has no terms besides the intercept: select the whole table");
   return { intercept: intercept ?? 0, terms };

@@ -91,7 +91,7 @@ export async function predict(
  * Predicts from a coefficient table (the output of SHRINK.COEFS or SHRINK.BASELINE, or typed
  * in) without fitting again.
  * @customfunction APPLY
- * @param coefficient_table Two columns, term and coefficient, with (intercept) as one of the terms.
+ * @param coefficient_table Two columns, term and coefficient, with intercept as one of the terms.
  * @param new_rows The rows to predict, with a header row naming the terms' columns (or the columns in the table's order).
  * @returns One prediction per row of new_rows.
  */
@@ -108,7 +108,7 @@ export async function apply(coefficient_table: any[][], new_rows: any[][]): Prom
  * @param [mix] One mix: 0 is ridge, 1 is lasso, between is elastic net. Leave out for the mix that cross-validation picks.
  * @param [settings] Optional settings as text, like "folds=5; seed=7", or a two-column range of setting names and values.
  * @param invocation Supplied by Excel.
- * @returns A table: strength, number of nonzero terms, intercept, then one column per term.
+ * @returns A table: strength, terms kept, intercept, then one column per term.
  */
 export async function path(
   target: any[][],
@@ -121,7 +121,7 @@ export async function path(
 }
 
 /**
- * Lists the cross-validated error, its standard error and the number of nonzero terms for every
+ * Lists the cross-validated error, its standard error and the number of terms kept for every
  * mix and strength tried: the data behind the choice.
  * @customfunction CVCURVE
  * @param target The column to predict, one value per row. A header cell on top is fine; rows with a blank or error are skipped.
@@ -129,7 +129,7 @@ export async function path(
  * @param [mixes] The mixes to try: 0 is ridge, 1 is lasso, between is elastic net. Leave out for 0, 0.25, 0.5, 0.75 and 1.
  * @param [settings] Optional settings as text, like "folds=5; seed=7", or a two-column range of setting names and values.
  * @param invocation Supplied by Excel.
- * @returns A table: mix, strength, CV error, standard error, nonzero terms.
+ * @returns A table: mix, strength, CV error, its standard error, terms kept.
  */
 export async function cvcurve(
   target: any[][],

@@ -13,7 +13,7 @@
  * |------------------|------------------------------------|-----------------------------------------------------------|--------------------------|
  * | `folds`          | `fold count`                       | whole number 2 to 1000                                    | 10                       |
  * | `seed`           | `random seed`                      | whole number −4294967295 to 4294967295                    | 1                        |
- * | `rule`           | `choice rule`                      | `min` / `lowest` / `lowest error`, or `onese` / `one-se` / `one standard error` | lowest error |
+ * | `rule`           | `choice rule`                      | `lowest` / `lowest error`, or `one-se` / `one-SE rule` / `one standard error` | lowest error |
  * | `error`          | `error measure`, `measure`         | `mse` / `squared`, `mae` / `absolute`                     | mse                      |
  * | `standardize`    | `standardise`                      | yes / no (also true/false, on/off, 1/0)                   | yes                      |
  * | `intercept`      |                                    | yes / no                                                  | yes                      |
@@ -216,14 +216,17 @@ function bound(name: string, value: RawValue, side: "lower" | "upper"): BoundSet
   throw new SettingError(`'${name}' must be a number or a list like ${example}; got ${show(value)}`);
 }
 
-const RULES: Record<string, string> = {
-  min: "min",
-  lowest: "min",
-  lowesterror: "min",
-  minimum: "min",
-  onese: "onese",
-  "1se": "onese",
-  onestandarderror: "onese",
+/** Rule words (keys as `key()` leaves them). `min`, `onese` and `1se` are older tokens, still accepted. */
+const RULES: Record<string, ChoiceRule> = {
+  lowest: "lowest",
+  lowesterror: "lowest",
+  min: "lowest",
+  minimum: "lowest",
+  onese: "one-se",
+  oneserule: "one-se",
+  "1se": "one-se",
+  onestandarderror: "one-se",
+  onestandarderrorrule: "one-se",
 };
 
 const MEASURES: Record<string, string> = {
@@ -243,7 +246,7 @@ const SPECS: SettingSpec[] = [
   {
     name: "rule",
     aliases: ["choice rule"],
-    apply: (s, v) => (s.rule = word("rule", v, RULES, "min (lowest error) or onese (one-SE rule)") as ChoiceRule),
+    apply: (s, v) => (s.rule = word("rule", v, RULES, "lowest (lowest error) or one-se (one-SE rule)") as ChoiceRule),
   },
   { name: "error", aliases: ["error measure", "measure"], apply: (s, v) => (s.measure = word("error", v, MEASURES, "mse or mae") as ErrorMeasure) },
   { name: "standardize", aliases: ["standardise"], apply: (s, v) => (s.standardize = yesNo("standardize", v)) },
@@ -398,7 +401,7 @@ function rangeEntries(grid: unknown[][]): Entry[] {
 
 /**
  * Reads the settings argument (text, range, or null when omitted). Throws SettingError.
- * Example: parseSettings("folds=5; rule=one-se") → folds 5, rule "onese", everything else default.
+ * Example: parseSettings("folds=5; rule=one-se") → folds 5, rule "one-se", everything else default.
  */
 export function parseSettings(raw: unknown): Settings {
   const settings = defaultSettings();

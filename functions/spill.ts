@@ -6,6 +6,7 @@
  */
 import type { FitResult } from "../engine/fit";
 import type { Score } from "../engine/metrics";
+import { INTERCEPT_LABEL } from "../engine/words";
 import type { Dataset, EncodedRow } from "./dataset";
 import { cellError } from "./errors";
 
@@ -17,15 +18,15 @@ export function numberCell(value: number): SpillCell {
   return Number.isFinite(value) ? value : cellError("invalidNumber");
 }
 
-const INTERCEPT = "(intercept)";
+const INTERCEPT = INTERCEPT_LABEL;
 const REFERENCE = " (reference)";
 
 /**
- * SHRINK.COEFS: header, then term | coefficient. "(intercept)" first, then every term in the
+ * SHRINK.COEFS: header, then term | coefficient. "intercept" first, then every term in the
  * order of the predictors' columns; a text column's reference level is listed before its
  * indicators as `Column: level (reference)` with coefficient 0, so the table shows it and
  * SHRINK.APPLY knows every level.
- * Example: [["term", "coefficient"], ["(intercept)", 1.5], ["Size", 0.2], ["Region: East (reference)", 0], ["Region: North", -0.7]]
+ * Example: [["term", "coefficient"], ["intercept", 1.5], ["Size", 0.2], ["Region: East (reference)", 0], ["Region: North", -0.7]]
  */
 export function coefficientSpill(result: FitResult, dataset: Dataset): Spill {
   const rows: Spill = [["term", "coefficient"], [INTERCEPT, numberCell(result.intercept)]];
@@ -46,8 +47,8 @@ export function coefficientSpill(result: FitResult, dataset: Dataset): Spill {
 }
 
 function ruleName(rule: FitResult["rule"]): string {
-  if (rule === "min") return "lowest error";
-  if (rule === "onese") return "one-SE";
+  if (rule === "lowest") return "lowest error";
+  if (rule === "one-se") return "one-SE rule";
   return "fixed strength (no cross-validation)";
 }
 
@@ -66,21 +67,23 @@ function foldMethod(result: FitResult, dataset: Dataset): string {
 export function choiceSpill(result: FitResult, dataset: Dataset): Spill {
   const cv = result.cv;
   const choices = result.choices;
-  const chosen = choices ? (result.rule === "onese" ? choices.onese : choices.min) : null;
-  const other = choices ? (result.rule === "onese" ? choices.min : choices.onese) : null;
+  const chosen = choices ? (result.rule === "one-se" ? choices.oneSe : choices.lowest) : null;
+  const other = choices ? (result.rule === "one-se" ? choices.lowest : choices.oneSe) : null;
+  // The other rule, named: "one-SE rule's strength" beside a lowest-error choice and back.
+  const otherLabel = result.rule === "one-se" ? "lowest-error strength" : "one-SE rule's strength";
   const measure = cv ? cv.measure.toUpperCase() : null;
-  const nonzero = result.coefficients.filter((b) => b !== 0).length;
+  const termsKept = result.coefficients.filter((b) => b !== 0).length;
   const notes = [...dataset.notes, ...result.warnings.map((w) => w.message)];
   return [
     ["label", "value"],
     ["strength", numberCell(result.strength)],
     ["strength ÷ top of grid", numberCell(result.strengthFraction)],
     ["mix", numberCell(result.mix)],
-    [measure ? `CV error (${measure})` : "CV error", chosen ? numberCell(chosen.error) : "none"],
-    ["CV error SE", chosen ? numberCell(chosen.se) : "none"],
+    [measure ? `CV ${measure}` : "CV error", chosen ? numberCell(chosen.error) : "none"],
+    ["± SE", chosen ? numberCell(chosen.se) : "none"],
     ["rule", ruleName(result.rule)],
-    ["other rule's strength", other ? numberCell(other.strength) : "none"],
-    ["nonzero terms", nonzero],
+    [otherLabel, other ? numberCell(other.strength) : "none"],
+    ["terms kept", termsKept],
     ["rows used", result.rowsUsed],
     ["rows skipped", dataset.rowsSkipped],
     ["folds", cv ? cv.folds : "none"],
@@ -92,35 +95,35 @@ export function choiceSpill(result: FitResult, dataset: Dataset): Spill {
 }
 
 /**
- * SHRINK.PATH: header (strength, nonzero, (intercept), terms…), then one row per strength of
+ * SHRINK.PATH: header (strength, terms kept, intercept, terms…), then one row per strength of
  * the chosen mix's path, strongest first.
- * Example: [["strength", "nonzero", "(intercept)", "x1"], [2.5, 0, 3.1, 0], [2.2, 1, 3.0, 0.04], …]
+ * Example: [["strength", "terms kept", "intercept", "x1"], [2.5, 0, 3.1, 0], [2.2, 1, 3.0, 0.04], …]
  */
 export function pathSpill(result: FitResult): Spill {
-  const rows: Spill = [["strength", "nonzero", INTERCEPT, ...result.terms]];
+  const rows: Spill = [["strength", "terms kept", INTERCEPT, ...result.terms]];
   const path = result.path;
   for (let k = 0; k < path.strengths.length; k++) {
-    rows.push([numberCell(path.strengths[k]), path.nonzero[k], numberCell(path.intercepts[k]), ...path.coefficients[k].map(numberCell)]);
+    rows.push([numberCell(path.strengths[k]), path.termsKept[k], numberCell(path.intercepts[k]), ...path.coefficients[k].map(numberCell)]);
   }
   return rows;
 }
 
 /**
- * SHRINK.CVCURVE: header, then mix | strength | mean CV error | SE | nonzero for every mix and
- * strength tried. The caller checks that cross-validation ran.
- * Example: [["mix", "strength", "CV error (MSE)", "SE", "nonzero"], [0, 250, 10.2, 1.1, 3], …]
+ * SHRINK.CVCURVE: header, then mix | strength | mean CV error | its SE | terms kept for every
+ * mix and strength tried. The caller checks that cross-validation ran.
+ * Example: [["mix", "strength", "CV MSE", "± SE", "terms kept"], [0, 250, 10.2, 1.1, 3], …]
  */
 export function cvCurveSpill(result: FitResult): Spill {
   const cv = result.cv;
   if (!cv) throw new Error("cvCurveSpill requires a cross-validated result");
-  const rows: Spill = [["mix", "strength", `CV error (${cv.measure.toUpperCase()})`, "SE", "nonzero"]];
-  for (const row of cv.table) rows.push([row.mix, numberCell(row.strength), numberCell(row.error), numberCell(row.se), row.nonzero]);
+  const rows: Spill = [["mix", "strength", `CV ${cv.measure.toUpperCase()}`, "± SE", "terms kept"]];
+  for (const row of cv.table) rows.push([row.mix, numberCell(row.strength), numberCell(row.error), numberCell(row.se), row.termsKept]);
   return rows;
 }
 
 /**
  * SHRINK.SCORE: label | value. R² of actual values that are all equal is #DIV/0!.
- * Example: [["label", "value"], ["MAE", 0.5], ["RMSE", 0.61], ["R²", 0.93], ["mean error (predicted − actual)", 0.1], ["count", 4], ["pairs skipped", 0]]
+ * Example: [["label", "value"], ["MAE", 0.5], ["RMSE", 0.61], ["R²", 0.93], ["mean error (predicted − actual)", 0.1], ["pairs used", 4], ["pairs skipped", 0]]
  */
 export function scoreSpill(score: Score, skipped: number): Spill {
   return [
@@ -129,7 +132,7 @@ export function scoreSpill(score: Score, skipped: number): Spill {
     ["RMSE", numberCell(score.rmse)],
     ["R²", Number.isFinite(score.r2) ? score.r2 : cellError("divisionByZero")],
     ["mean error (predicted − actual)", numberCell(score.bias)],
-    ["count", score.count],
+    ["pairs used", score.count],
     ["pairs skipped", skipped],
   ];
 }
@@ -140,7 +143,7 @@ export function scoreSpill(score: Score, skipped: number): Spill {
  * R², rows used); SHRINK.APPLY reads the table up to the blank row. An aliased term shows coefficient 0
  * and "aliased" as its standard error; with no residual degrees of freedom the standard errors
  * read "none (no spare rows)".
- * Example: [["term", "coefficient", "standard error"], ["(intercept)", -3482258.6, 890420.4], …, ["", "", ""], ["residual SD", 304.85, ""], …]
+ * Example: [["term", "coefficient", "standard error"], ["intercept", -3482258.6, 890420.4], …, ["", "", ""], ["residual SD", 304.85, ""], …]
  */
 export function baselineSpill(result: FitResult, dataset: Dataset): Spill {
   const baseline = result.baseline;

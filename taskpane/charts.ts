@@ -253,8 +253,8 @@ function measureName(result: FitResult): string {
 }
 
 function ruleText(result: FitResult): string {
-  if (result.rule === "min") return "lowest cross-validated error";
-  if (result.rule === "onese") return "one-SE rule";
+  if (result.rule === "lowest") return "lowest cross-validated error";
+  if (result.rule === "one-se") return "one-SE rule";
   return "fixed strength";
 }
 
@@ -473,11 +473,11 @@ interface ChoiceMarker {
 
 function choiceMarkers(result: FitResult): ChoiceMarker[] {
   if (result.choices) {
-    const { min, onese } = result.choices;
+    const { lowest: min, oneSe: onese } = result.choices;
     if (onese.strength === min.strength) return [{ strength: min.strength, label: "min = 1 SE", chosen: true, dashed: false }];
     return [
-      { strength: min.strength, label: "min", chosen: result.rule === "min", dashed: result.rule !== "min" },
-      { strength: onese.strength, label: "1 SE", chosen: result.rule === "onese", dashed: result.rule !== "onese" },
+      { strength: min.strength, label: "min", chosen: result.rule === "lowest", dashed: result.rule !== "lowest" },
+      { strength: onese.strength, label: "1 SE", chosen: result.rule === "one-se", dashed: result.rule !== "one-se" },
     ];
   }
   return result.strength > 0 ? [{ strength: result.strength, label: "fitted", chosen: true, dashed: false }] : [];
@@ -486,7 +486,7 @@ function choiceMarkers(result: FitResult): ChoiceMarker[] {
 /** What the markers mean, for the note under the title. */
 function markerNote(result: FitResult): string {
   if (result.choices) {
-    return `Markers: min = lowest cross-validated error, 1 SE = one-SE rule; solid = chosen (${result.rule === "onese" ? "1 SE" : "min"}).`;
+    return `Markers: min = lowest cross-validated error, 1 SE = one-SE rule; solid = chosen (${result.rule === "one-se" ? "1 SE" : "min"}).`;
   }
   return result.strength > 0 ? "Marker: the fixed strength fitted." : "";
 }
@@ -661,7 +661,7 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
   const table = result.cv.table;
   const mixes: number[] = [];
   for (const row of table) if (!mixes.includes(row.mix)) mixes.push(row.mix);
-  const best = result.choices?.min.mix ?? result.mix;
+  const best = result.choices?.lowest.mix ?? result.mix;
   const series: LineSeriesOption[] = [];
   let lo = Infinity;
   let hi = 0;
@@ -679,7 +679,7 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
       type: "line",
       id: `cv-mix-${i}`,
       name,
-      data: rows.map((r) => [r.strength, r.error, r.se, r.nonzero]),
+      data: rows.map((r) => [r.strength, r.error, r.se, r.termsKept]),
       encode: { x: 0, y: 1 },
       showSymbol: false,
       symbolSize: 5,
@@ -689,10 +689,10 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
       z: 3,
     };
     if (isBest && result.choices) {
-      const { min, onese } = result.choices;
+      const { lowest: min, oneSe: onese } = result.choices;
       const points = [
-        { label: "lowest", point: min, chosen: result.rule === "min", symbol: "circle", position: "top" as const },
-        { label: "one-SE", point: onese, chosen: result.rule === "onese", symbol: "diamond", position: "bottom" as const },
+        { label: "lowest", point: min, chosen: result.rule === "lowest", symbol: "circle", position: "top" as const },
+        { label: "one-SE", point: onese, chosen: result.rule === "one-se", symbol: "diamond", position: "bottom" as const },
       ];
       line.markPoint = {
         animation: false,
@@ -792,7 +792,7 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
           let near = rows[0];
           for (const r of rows) if (Math.abs(Math.log(r.strength / at)) < Math.abs(Math.log(near.strength / at))) near = r;
           const swatch = `<span style="display:inline-block;width:9px;height:9px;border-radius:50%;margin-right:5px;background:${palette.lines[i % palette.lines.length]}"></span>`;
-          lines.push(`${swatch}${escapeHtml(mixLabel(mix))}: ${formatNumber(near.error)} ± ${formatNumber(near.se)}, ${near.nonzero} terms`);
+          lines.push(`${swatch}${escapeHtml(mixLabel(mix))}: ${formatNumber(near.error)} ± ${formatNumber(near.se)}, ${near.termsKept} terms`);
         });
         if (lines.length === 0) return "";
         return [`cross-validated ${measure} ± 1 SE at λ ≈ ${formatNumber(at)}`, ...lines].join("<br/>");
@@ -993,11 +993,11 @@ export function describeChart(kind: ChartKind, result: FitResult, spreads?: Arra
     if (!result.cv || !result.choices) return `No cross-validation: fitted at a fixed strength λ ${formatNumber(result.strength)}.`;
     const measure = measureName(result);
     const mixes = [...new Set(result.cv.table.map((r) => r.mix))];
-    const { min, onese } = result.choices;
+    const { lowest: min, oneSe: onese } = result.choices;
     return (
       `Cross-validated ${measure} against λ for ${mixes.length === 1 ? mixLabel(mixes[0]) : `${mixes.length} mixes`}, with ± 1 SE bands. ` +
-      `Lowest: ${formatNumber(min.error)} ± ${formatNumber(min.se)} at ${mixLabel(min.mix)}, λ ${formatNumber(min.strength)}, ${min.nonzero} terms. ` +
-      `One-SE rule: λ ${formatNumber(onese.strength)}, ${onese.nonzero} terms. Chosen by ${ruleText(result)}.`
+      `Lowest: ${formatNumber(min.error)} ± ${formatNumber(min.se)} at ${mixLabel(min.mix)}, λ ${formatNumber(min.strength)}, ${min.termsKept} terms. ` +
+      `One-SE rule: λ ${formatNumber(onese.strength)}, ${onese.termsKept} terms. Chosen by ${ruleText(result)}.`
     );
   }
   const { nonzero, zero } = barEntries(result);

@@ -28,7 +28,7 @@
  *               fit-progress-label ("12 of 55 fits done"), status (the fit's live status line:
  *               starts "Fitted" when done), stale-banner (+ stale-fit-button)
  *   Results     results (section), chosen-strength (text = the strength as shown, data-value =
- *               full precision), chosen-mix, chosen-error, chosen-rule, chosen-nonzero,
+ *               full precision), chosen-mix, chosen-error, chosen-rule, chosen-nonzero (terms kept),
  *               chosen-rows, fit-notes;
  *               chart-path, chart-cv, chart-bars (chart containers; role img, aria-label = the
  *               chart's describe()), chart-path-caption, chart-cv-caption, chart-bars-caption,
@@ -44,6 +44,7 @@
  */
 import { CancelledError } from "../engine/errors";
 import type { FitResult } from "../engine/fit";
+import { errorWithSe, MIX_LABEL, RULE_WORDS } from "../engine/words";
 import { prepare } from "../functions/api";
 import { sharedRunner } from "../functions/functions";
 import { cancelSource, type FitRunner } from "../functions/runner";
@@ -267,7 +268,7 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
   headerLabel.htmlFor = "header-toggle";
   const headerSelect = el("select", { id: "header-toggle", testid: "header-toggle" });
   for (const [value, label] of [
-    ["auto", "Find out (default)"],
+    ["auto", "Detect (default)"],
     ["yes", "Yes: the first row holds names"],
     ["no", "No: every row is data"],
   ] as const) {
@@ -337,8 +338,8 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
     summary.append(dt, dd);
     return value;
   };
-  const chosenStrength = summaryItem("Strength (λ)", "chosen-strength");
-  const chosenMix = summaryItem("Mix (α)", "chosen-mix");
+  const chosenStrength = summaryItem("Strength λ", "chosen-strength");
+  const chosenMix = summaryItem(MIX_LABEL, "chosen-mix");
   const chosenError = summaryItem("Cross-validated error", "chosen-error");
   const chosenRule = summaryItem("Chosen by", "chosen-rule");
   const chosenNonzero = summaryItem("Terms kept", "chosen-nonzero");
@@ -414,7 +415,7 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
   const destination = renderRangePicker(
     {
       key: "destination",
-      label: "Put them from",
+      label: "Top-left cell for the formulas",
       hint: "The top-left cell; each result spills down and to the right.",
       optional: false,
       emptyText: "not chosen",
@@ -558,11 +559,11 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
     chosenStrength.dataset.value = String(r.strength);
     chosenMix.textContent = r.mix === 0 ? "0 (ridge)" : r.mix === 1 ? "1 (lasso)" : `${formatNumber(r.mix)} (elastic net)`;
     chosenMix.dataset.value = String(r.mix);
-    const chosen = r.choices ? (r.rule === "onese" ? r.choices.onese : r.choices.min) : null;
-    chosenError.textContent = chosen && r.cv ? `${formatNumber(chosen.error)} ${r.cv.measure.toUpperCase()} (SE ${formatNumber(chosen.se)})` : "none (fixed strength)";
-    chosenRule.textContent = r.rule === "min" ? "lowest error" : r.rule === "onese" ? "one-standard-error rule" : "fixed strength";
-    const nonzero = r.coefficients.filter((b) => b !== 0).length;
-    chosenNonzero.textContent = `${nonzero} of ${r.terms.length}`;
+    const chosen = r.choices ? (r.rule === "one-se" ? r.choices.oneSe : r.choices.lowest) : null;
+    chosenError.textContent = chosen && r.cv ? `CV ${r.cv.measure.toUpperCase()} ${errorWithSe(chosen.error, chosen.se)}` : "none (fixed strength)";
+    chosenRule.textContent = r.rule === "fixed" ? "fixed strength" : RULE_WORDS[r.rule];
+    const termsKept = r.coefficients.filter((b) => b !== 0).length;
+    chosenNonzero.textContent = `${termsKept} of ${r.terms.length}`;
     chosenRows.textContent = `${r.rowsUsed} used, ${outcome.prepared.dataset.rowsSkipped} skipped`;
     const noteTexts = [...outcome.prepared.dataset.notes, ...r.warnings.map((w) => w.message)];
     notes.replaceChildren(...noteTexts.map((text) => el("li", { text })));

@@ -16,7 +16,7 @@
  * Every event carries the run number it belongs to, so a late message from a superseded run
  * (a progress report after Cancel, a result after a new start) changes nothing.
  */
-import type { FitResult } from "../engine/fit";
+import { parseRule, type FitResult } from "../engine/fit";
 import type { Prepared } from "../functions/api";
 import { parseMixes, parseSettings, SETTING_NAMES } from "../functions/settings";
 
@@ -78,7 +78,15 @@ export function restoreInputs(saved: unknown): PaneInputs {
   inputs.mixes = text(s.mixes);
   if (s.settings && typeof s.settings === "object") {
     for (const [name, value] of Object.entries(s.settings as Record<string, unknown>)) {
-      if (FORM_SETTING_NAMES.includes(name) && typeof value === "string" && value.trim() !== "") inputs.settings[name] = value;
+      if (FORM_SETTING_NAMES.includes(name) && typeof value === "string" && value.trim() !== "") {
+        if (name === "rule") {
+          // Older panes saved "min" / "onese": read them as today's tokens; the lowest error is the default (empty).
+          const rule = parseRule(value);
+          if (rule === "one-se") inputs.settings[name] = rule;
+          continue;
+        }
+        inputs.settings[name] = value;
+      }
     }
   }
   return inputs;
@@ -134,7 +142,7 @@ export function settingItems(inputs: PaneInputs): string[] {
   return items;
 }
 
-/** The settings text the cells receive ("" when everything is default): `folds=5; rule=onese`. */
+/** The settings text the cells receive ("" when everything is default): `folds=5; rule=one-se`. */
 export function settingsText(inputs: PaneInputs): string {
   return settingItems(inputs).join("; ");
 }
@@ -316,8 +324,8 @@ export function fitStatusText(state: FitState, ready = false): string {
     }
     case "done": {
       const r = state.outcome.result;
-      const nonzero = r.coefficients.filter((b) => b !== 0).length;
-      return `Fitted ${mixName(r.mix)} at strength ${formatNumber(r.strength)}: ${nonzero} of ${r.terms.length} terms kept, ${r.rowsUsed} rows used (${(state.outcome.elapsedMs / 1000).toFixed(1)} s).`;
+      const termsKept = r.coefficients.filter((b) => b !== 0).length;
+      return `Fitted ${mixName(r.mix)} at strength ${formatNumber(r.strength)}: ${termsKept} of ${r.terms.length} terms kept, ${r.rowsUsed} rows used (${(state.outcome.elapsedMs / 1000).toFixed(1)} s).`;
     }
     case "stale":
       return "Inputs changed since the last fit: fit again to update the results.";

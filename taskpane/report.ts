@@ -10,12 +10,13 @@
  *        every column as fitted), text columns with their reference level, notes,
  *        the chosen point beside the other rule's point, the coefficient table
  *   G3   the chart of the coefficient path (log strength axis)
- *   G25  the cross-validation table (mix, strength, error, SE, nonzero)
+ *   G25  the cross-validation table (mix, strength, CV error, ± SE, terms kept)
  *   M25  the path table (strength, one column per term): the chart's data
  *
  * Numbers are written at full precision; number formats only change how they look.
  */
 import type { FitResult } from "../engine/fit";
+import { INTERCEPT_LABEL, MIX_LABEL, RULE_WORDS } from "../engine/words";
 import type { Dataset } from "../functions/dataset";
 import { cellName, parseAddress, RangeAddress, spillArea } from "./address";
 import type { CellValue, ReportBlock, ReportChart, ReportSheet } from "./sheetHost";
@@ -46,7 +47,6 @@ export const FORMATS = {
   decimal: "0.0000",
 } as const;
 
-const INTERCEPT = "(intercept)";
 
 /** Where the right-hand zone starts (chart, then the large tables below it). */
 const CHART_AT = "G3";
@@ -68,15 +68,7 @@ export function meanAndSd(values: readonly number[]): { mean: number; sd: number
 }
 
 function ruleText(rule: FitResult["rule"]): string {
-  if (rule === "min") return "lowest CV error";
-  if (rule === "onese") return "one-standard-error rule";
-  return "fixed strength (no cross-validation)";
-}
-
-function otherRule(rule: FitResult["rule"]): "min" | "onese" | null {
-  if (rule === "min") return "onese";
-  if (rule === "onese") return "min";
-  return null;
+  return rule === "fixed" ? "fixed strength (no cross-validation)" : RULE_WORDS[rule];
 }
 
 /** A finite number, or "" for a value that can't be shown (NaN, ±Infinity). */
@@ -100,11 +92,11 @@ class Stack {
   }
 }
 
-/** Coefficient table rows: (intercept), then terms in column order with reference levels shown. */
+/** Coefficient table rows: intercept, then terms in column order with reference levels shown. */
 function coefficientRows(result: FitResult, dataset: Dataset): CellValue[][] {
   const rows: CellValue[][] = [
     ["term", "coefficient", "standardized (per SD)"],
-    [INTERCEPT, num(result.intercept), ""],
+    [INTERCEPT_LABEL, num(result.intercept), ""],
   ];
   const termRow = (t: number): CellValue[] => [result.terms[t], num(result.coefficients[t]), num(result.standardizedCoefficients[t])];
   const encoded = dataset.encoder.columns.reduce((count, c) => count + (c.kind === "number" ? 1 : c.levels.length), 0);
@@ -162,33 +154,33 @@ function levelRows(dataset: Dataset): CellValue[][] | null {
 
 /** The chosen point beside the other rule's point. */
 function choiceRows(result: FitResult): CellValue[][] {
-  const nonzero = result.coefficients.filter((b) => b !== 0).length;
+  const termsKept = result.coefficients.filter((b) => b !== 0).length;
   const choices = result.choices;
   const measure = result.cv ? result.cv.measure.toUpperCase() : "";
   if (!choices) {
     return [
       ["point", "chosen"],
       ["rule", ruleText(result.rule)],
-      ["mix (0 ridge … 1 lasso)", num(result.mix)],
+      [MIX_LABEL, num(result.mix)],
       ["strength", num(result.strength)],
       ["strength ÷ top of grid", num(result.strengthFraction)],
-      ["nonzero terms", nonzero],
+      ["terms kept", termsKept],
       ["in-sample R²", num(result.fit.r2)],
       ["in-sample RMSE", num(result.fit.rmse)],
     ];
   }
-  const other = otherRule(result.rule) as "min" | "onese";
-  const chosen = result.rule === "onese" ? choices.onese : choices.min;
-  const alternative = choices[other];
+  const oneSeChosen = result.rule === "one-se";
+  const chosen = oneSeChosen ? choices.oneSe : choices.lowest;
+  const alternative = oneSeChosen ? choices.lowest : choices.oneSe;
   return [
-    ["point", "chosen", "other rule"],
-    ["rule", ruleText(result.rule), ruleText(other)],
-    ["mix (0 ridge … 1 lasso)", num(chosen.mix), num(alternative.mix)],
+    ["point", "chosen", oneSeChosen ? "lowest-error point" : "one-SE rule's point"],
+    ["rule", ruleText(result.rule), ruleText(oneSeChosen ? "lowest" : "one-se")],
+    [MIX_LABEL, num(chosen.mix), num(alternative.mix)],
     ["strength", num(chosen.strength), num(alternative.strength)],
     ["strength ÷ top of grid", num(chosen.strengthFraction), num(alternative.strengthFraction)],
-    [`CV error (${measure})`, num(chosen.error), num(alternative.error)],
-    ["CV error SE", num(chosen.se), num(alternative.se)],
-    ["nonzero terms", chosen.nonzero, alternative.nonzero],
+    [`CV ${measure}`, num(chosen.error), num(alternative.error)],
+    ["± SE", num(chosen.se), num(alternative.se)],
+    ["terms kept", chosen.termsKept, alternative.termsKept],
     ["in-sample R²", num(result.fit.r2), ""],
     ["in-sample RMSE", num(result.fit.rmse), ""],
   ];
@@ -218,8 +210,8 @@ export function buildReport(input: ReportInput): ReportSheet {
   let nextColumn = CV_COLUMN;
   const cv = result.cv;
   if (cv) {
-    const rows: CellValue[][] = [["mix", "strength", `CV error (${cv.measure.toUpperCase()})`, "SE", "nonzero"]];
-    for (const row of cv.table) rows.push([num(row.mix), num(row.strength), num(row.error), num(row.se), row.nonzero]);
+    const rows: CellValue[][] = [["mix", "strength", `CV ${cv.measure.toUpperCase()}`, "± SE", "terms kept"]];
+    for (const row of cv.table) rows.push([num(row.mix), num(row.strength), num(row.error), num(row.se), row.termsKept]);
     blocks.push({ at: cellName(TABLES_ROW, nextColumn), rows, header: true, formats: [FORMATS.mix, FORMATS.strength, null, null, FORMATS.count] });
     nextColumn += rows[0].length + GAP_COLUMNS;
   }
@@ -238,8 +230,9 @@ export function buildReport(input: ReportInput): ReportSheet {
     block: pathBlock,
     // A log axis needs positive strengths (a least-squares fit has strength 0 only).
     logX: path.strengths.length > 0 && path.strengths.every((s) => s > 0),
-    xTitle: "penalty strength",
-    yTitle: "coefficient",
+    xTitle: "strength λ",
+    // The report's path table is in the data's own units (the pane's chart is per SD).
+    yTitle: "coefficient (data units)",
     at: CHART_AT,
   };
   return { name: input.name ?? REPORT_TITLE, blocks, charts: [chart] };

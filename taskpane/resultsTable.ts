@@ -6,6 +6,7 @@
  * text (full precision), ready to paste into a sheet.
  */
 import type { FitResult } from "../engine/fit";
+import { INTERCEPT_LABEL } from "../engine/words";
 import { formatNumber } from "./paneState";
 
 export interface CoefficientRow {
@@ -29,7 +30,7 @@ export function coefficientRows(result: FitResult): CoefficientRow[] {
     (a, b) =>
       Math.abs(b.standardized) - Math.abs(a.standardized) || Math.abs(b.coefficient) - Math.abs(a.coefficient) || a.order - b.order,
   );
-  const rows: CoefficientRow[] = [{ term: "(intercept)", coefficient: result.intercept, standardized: null, zero: result.intercept === 0 }];
+  const rows: CoefficientRow[] = [{ term: INTERCEPT_LABEL, coefficient: result.intercept, standardized: null, zero: result.intercept === 0 }];
   for (const t of terms) rows.push({ term: t.term, coefficient: t.coefficient, standardized: t.standardized, zero: t.zero });
   return rows;
 }

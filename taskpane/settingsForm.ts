@@ -39,7 +39,7 @@ const YES_DEFAULT: Choice[] = [
 export const FIELDS: readonly FieldSpec[] = [
   {
     name: "mixes",
-    label: "Mixes to try",
+    label: "Mix α (lasso share): values to try",
     hint: "0 is ridge, 1 is lasso, values between are elastic net. Separate with commas. Empty: 0, 0.25, 0.5, 0.75, 1.",
     kind: "text",
     placeholder: "0, 0.25, 0.5, 0.75, 1",
@@ -49,11 +49,11 @@ export const FIELDS: readonly FieldSpec[] = [
   {
     name: "rule",
     label: "How to pick the strength",
-    hint: "The one-standard-error rule takes the strongest penalty whose error is within one standard error of the lowest: a simpler model.",
+    hint: "The one-SE rule takes the strongest penalty whose error is within one standard error of the lowest: a simpler model.",
     kind: "choice",
     choices: [
-      { value: "", label: "Lowest cross-validated error (default)" },
-      { value: "onese", label: "One-standard-error rule" },
+      { value: "", label: "Lowest error (default)" },
+      { value: "one-se", label: "One-SE rule" },
     ],
   },
   {
@@ -71,7 +71,7 @@ export const FIELDS: readonly FieldSpec[] = [
   { name: "intercept", label: "Fit an intercept", hint: "No forces the model through zero.", kind: "choice", choices: YES_DEFAULT, more: true },
   {
     name: "strength",
-    label: "Fixed strength (λ)",
+    label: "Fixed strength λ",
     hint: "Fits this one strength, without cross-validation; needs a single mix. Empty: chosen by cross-validation.",
     kind: "text",
     placeholder: "chosen by cross-validation",
@@ -81,7 +81,7 @@ export const FIELDS: readonly FieldSpec[] = [
   { name: "grid size", label: "Strengths on the grid", hint: "How many strengths are tried, 1 to 10000. Empty: 100.", kind: "text", placeholder: "100", inputMode: "numeric", more: true },
   {
     name: "low end",
-    label: "Low end of the grid",
+    label: "Weakest strength (fraction of the strongest)",
     hint: "The weakest strength tried, as a fraction of the strongest (between 0 and 1). Empty: 0.0001, or 0.01 when there are more predictors than rows.",
     kind: "text",
     placeholder: "0.0001",
@@ -101,7 +101,7 @@ export const FIELDS: readonly FieldSpec[] = [
   },
   { name: "fold column", label: "Fold column", hint: "A predictors column whose values say which fold each row belongs to. It is not used as a predictor.", kind: "column", more: true },
   { name: "penalty", label: "Penalty multipliers", hint: "term:value pairs, e.g. moisture:2, origin:0.5 (0 never penalized, 1 normal).", kind: "text", more: true },
-  { name: "no penalty", label: "Never penalize", hint: "Column names separated by commas; these keep their full least-squares size.", kind: "text", more: true },
+  { name: "no penalty", label: "Never penalize", hint: "Column names separated by commas; these are fitted without shrinkage.", kind: "text", more: true },
   { name: "lower", label: "Lower bounds", hint: "A number of 0 or below for every term (0 keeps coefficients from going negative), or term:value pairs.", kind: "text", more: true },
   { name: "upper", label: "Upper bounds", hint: "A number of 0 or above for every term, or term:value pairs.", kind: "text", more: true },
   { name: "zero is missing", label: "Zeros mean blank", hint: "all, or column names separated by commas: their zeros count as empty cells (for hosts that pass blanks as 0).", kind: "text", more: true },

@@ -41,7 +41,7 @@ export const FUNCTION_HELP: readonly FunctionHelp[] = [
   { id: "PREDICT", signature: "target, predictors, new_rows, [mixes], [settings]", summary: "fits the same model and predicts one value per row of new_rows." },
   { id: "APPLY", signature: "coefficient_table, new_rows", summary: "predictions from a coefficient table (e.g. a COEFS result), without fitting again." },
   { id: "PATH", signature: "target, predictors, [mix], [settings]", summary: "every coefficient at every penalty strength of one mix, strongest first." },
-  { id: "CVCURVE", signature: "target, predictors, [mixes], [settings]", summary: "cross-validated error, its SE and the nonzero count for every mix and strength tried." },
+  { id: "CVCURVE", signature: "target, predictors, [mixes], [settings]", summary: "cross-validated error, its SE and the terms kept for every mix and strength tried." },
   { id: "SCORE", signature: "actual, predicted", summary: "accuracy of predictions: MAE, RMSE, R², mean error, pairs used and skipped." },
   { id: "BASELINE", signature: "target, predictors", summary: "plain least squares (no penalty) with standard errors, to compare with." },
 ];

@@ -7,6 +7,7 @@
  * one positional argument (`-` reads standard input). Everything the user can get wrong here is
  * a CommandError, which the entry point turns into exit code 2 and a one-line message.
  */
+import { parseRule } from "../fit";
 import type { ChoiceRule, ErrorMeasure, FitOptions } from "../fit";
 
 /** A mistake in how the command was called or in the file it was given (exit code 2). */
@@ -77,8 +78,9 @@ Cross-validation
   --folds <k>               number of folds (default 10)
   --seed <n>                seed for the random fold assignment (default 1)
   --time-ordered            rows are in time order: train on earlier rows, score on later ones
-  --measure mse|mae         error measure (default mse)
-  --rule min|onese          lowest error, or the strongest penalty within one standard error (default min)
+  --error mse|mae           how held-out rows are scored (default mse)
+  --rule lowest|one-se      lowest error (default), or the one-SE rule: the strongest penalty
+                            whose error is within one standard error of the lowest
 
 Output
   --json                    print one JSON object
@@ -105,6 +107,8 @@ const OPTIONS: Record<string, Kind> = {
   folds: "number",
   seed: "number",
   "time-ordered": "flag",
+  error: "text",
+  // Older spelling of --error, still accepted (not shown in the help).
   measure: "text",
   rule: "text",
   json: "flag",
@@ -203,13 +207,19 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
   const target = text("target");
   if (target === null) throw new CommandError("--target is missing: name the column to predict, e.g. --target price");
 
-  const rule = text("rule");
-  if (rule !== null && rule !== "min" && rule !== "onese") {
-    throw new CommandError(`--rule must be min or onese; got '${rule}'`);
+  const ruleText = text("rule");
+  // parseRule also takes the older tokens min, onese and 1se, silently.
+  const rule = ruleText === null ? null : parseRule(ruleText);
+  if (ruleText !== null && rule === null) {
+    throw new CommandError(`--rule must be lowest or one-se; got '${ruleText}'`);
   }
-  const measure = text("measure");
+  if (seen.has("error") && seen.has("measure")) {
+    throw new CommandError("--error is given twice (once as --measure): give it once");
+  }
+  const errorFlag = seen.has("measure") ? "measure" : "error";
+  const measure = text(errorFlag)?.toLowerCase() ?? null;
   if (measure !== null && measure !== "mse" && measure !== "mae") {
-    throw new CommandError(`--measure must be mse or mae; got '${measure}'`);
+    throw new CommandError(`--error must be mse or mae; got '${text(errorFlag)}'`);
   }
   const predictors = list("predictors");
   const exclude = list("exclude");
@@ -235,7 +245,7 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
       strength,
       folds: number("folds"),
       seed: number("seed"),
-      rule: rule as ChoiceRule | null,
+      rule,
       measure: measure as ErrorMeasure | null,
       count: number("count"),
       lowEnd: number("low-end"),

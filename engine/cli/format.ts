@@ -11,6 +11,9 @@ import type { LinearModel } from "../model";
 import { CommandError } from "./args";
 import type { FitTable } from "./table";
 import { skippedRowsMessage } from "./table";
+import { errorWithSe, RULE_WORDS } from "../words";
+
+export { errorWithSe, RULE_WORDS };
 
 /** What the reports need besides the engine's result. */
 export interface ReportContext {
@@ -25,7 +28,8 @@ export interface JsonChoice {
   strengthFraction: number | null;
   error: number | null;
   se: number | null;
-  nonzero: number;
+  /** Terms with a nonzero coefficient at this point. */
+  termsKept: number;
 }
 
 /** The JSON object printed by `--json`. Coefficient objects are keyed by the file's column names. */
@@ -36,15 +40,16 @@ export interface JsonReport {
   coefficients: Record<string, number | null>;
   /** Coefficient × the predictor's population SD: comparable across predictors. */
   standardizedCoefficients: Record<string, number | null>;
-  nonzero: number;
+  /** Terms with a nonzero coefficient in the model. */
+  termsKept: number;
   strength: number | null;
   strengthFraction: number | null;
   mix: number | null;
-  rule: "min" | "onese" | "fixed";
+  rule: "lowest" | "one-se" | "fixed";
   /** The chosen cross-validation point, or null for a fixed strength. */
-  cv: (JsonChoice & { rule: "min" | "onese"; measure: string; scheme: string; folds: number; seed: number | null }) | null;
+  cv: (JsonChoice & { rule: "lowest" | "one-se"; measure: string; scheme: string; folds: number; seed: number | null }) | null;
   /** Both rules' points (the model is the one named by `rule`), or null for a fixed strength. */
-  choices: { min: JsonChoice; onese: JsonChoice } | null;
+  choices: { lowest: JsonChoice; oneSe: JsonChoice } | null;
   /** In-sample accuracy of the model (weighted when weights are given). */
   fit: { r2: number | null; rmse: number | null; mae: number | null; bias: number | null };
   /** `--strength 0` only: standard errors (column → SE, null where aliased), residual SD, df, aliased columns. */
@@ -94,7 +99,7 @@ function choice(point: ChoicePoint): JsonChoice {
     strengthFraction: finiteOrNull(point.strengthFraction),
     error: finiteOrNull(point.error),
     se: finiteOrNull(point.se),
-    nonzero: point.nonzero,
+    termsKept: point.termsKept,
   };
 }
 
@@ -110,7 +115,7 @@ export function jsonReport(result: FitResult, context: ReportContext): JsonRepor
   let cv: JsonReport["cv"] = null;
   if (result.choices && result.cv && result.rule !== "fixed") {
     cv = {
-      ...choice(result.choices[result.rule]),
+      ...choice(result.rule === "lowest" ? result.choices.lowest : result.choices.oneSe),
       rule: result.rule,
       measure: result.cv.measure,
       scheme: result.cv.scheme,
@@ -125,13 +130,13 @@ export function jsonReport(result: FitResult, context: ReportContext): JsonRepor
     intercept: finiteOrNull(result.intercept),
     coefficients: byName(result.terms, result.coefficients),
     standardizedCoefficients: byName(result.terms, result.standardizedCoefficients),
-    nonzero: result.coefficients.filter((b) => b !== 0).length,
+    termsKept: result.coefficients.filter((b) => b !== 0).length,
     strength: finiteOrNull(result.strength),
     strengthFraction: finiteOrNull(result.strengthFraction),
     mix: finiteOrNull(result.mix),
     rule: result.rule,
     cv,
-    choices: result.choices ? { min: choice(result.choices.min), onese: choice(result.choices.onese) } : null,
+    choices: result.choices ? { lowest: choice(result.choices.lowest), oneSe: choice(result.choices.oneSe) } : null,
     fit: {
       r2: finiteOrNull(result.fit.r2),
       rmse: finiteOrNull(result.fit.rmse),
@@ -219,8 +224,8 @@ export function textReport(result: FitResult, context: ReportContext): string {
   lines.push("");
   const baseline = result.baseline;
   const seText = (value: number | null | undefined): string => (value === null || value === undefined ? "aliased" : formatNumber(value));
-  const termRows: string[][] = [["term", "coefficient", "standardized", ...(baseline ? ["std. error"] : [])]];
-  termRows.push(["(intercept)", formatNumber(result.intercept), "", ...(baseline ? [seText(baseline.interceptStandardError)] : [])]);
+  const termRows: string[][] = [["term", "coefficient", "standardized", ...(baseline ? ["LS SE"] : [])]];
+  termRows.push(["intercept", formatNumber(result.intercept), "", ...(baseline ? [seText(baseline.interceptStandardError)] : [])]);
   result.terms.forEach((term, j) => {
     termRows.push([
       term,
@@ -231,37 +236,40 @@ export function textReport(result: FitResult, context: ReportContext): string {
   });
   lines.push(...columns(termRows));
   lines.push("");
-  const nonzero = result.coefficients.filter((b) => b !== 0).length;
+  const kept = result.coefficients.filter((b) => b !== 0).length;
   if (result.rule === "fixed") {
     const point =
       result.diagnostics.solver === "least-squares"
         ? "least squares (strength 0)"
-        : `mix ${formatNumber(result.mix)}, strength ${formatNumber(result.strength)}`;
-    lines.push(`Fixed point: ${point}, ${nonzero} of ${p} terms nonzero; no cross-validation`);
+        : `mix ${formatNumber(result.mix)}, strength λ ${formatNumber(result.strength)}`;
+    lines.push(`Fixed point: ${point}, ${kept} of ${p} terms kept; no cross-validation`);
   } else {
     lines.push(
-      `Chosen point (rule ${result.rule}): mix ${formatNumber(result.mix)}, strength ${formatNumber(result.strength)}` +
-        ` (${formatNumber(result.strengthFraction, 4)} of the grid's top), ${nonzero} of ${p} terms nonzero`,
+      `Chosen point (${RULE_WORDS[result.rule]}): mix ${formatNumber(result.mix)}, strength λ ${formatNumber(result.strength)}` +
+        ` (${formatNumber(result.strengthFraction, 4)} of the grid's top), ${kept} of ${p} terms kept`,
     );
   }
   if (result.choices && result.cv) {
-    lines.push(`Cross-validation: ${schemeText(result, context.foldColumn)}, error measure ${result.cv.measure}`);
-    const rows: string[][] = [["rule", "mix", "strength", "error", "SE", "nonzero"]];
-    for (const rule of ["min", "onese"] as const) {
-      const c = result.choices[rule];
-      rows.push([
-        rule + (rule === result.rule ? " *" : ""),
-        formatNumber(c.mix),
-        formatNumber(c.strength),
-        formatNumber(c.error),
-        formatNumber(c.se),
-        String(c.nonzero),
-      ]);
-    }
+    const measure = result.cv.measure.toUpperCase();
+    lines.push(`Cross-validation: ${schemeText(result, context.foldColumn)}, scored by ${measure}`);
+    // One column per rule, the chosen one marked in its heading.
+    const rules = ["lowest", "one-se"] as const;
+    const points = [result.choices.lowest, result.choices.oneSe];
+    const rows: string[][] = [
+      ["", ...rules.map((rule) => RULE_WORDS[rule] + (rule === result.rule ? " (chosen)" : ""))],
+      ["mix", ...points.map((c) => formatNumber(c.mix))],
+      ["strength λ", ...points.map((c) => formatNumber(c.strength))],
+      [`CV ${measure} ± SE`, ...points.map((c) => errorWithSe(c.error, c.se))],
+      ["terms kept", ...points.map((c) => `${c.termsKept} of ${p}`)],
+    ];
     lines.push(...columns(rows));
   }
   if (baseline) {
-    lines.push(`Residual SD ${formatNumber(baseline.residualStandardDeviation)} on ${baseline.degreesOfFreedom} degrees of freedom`);
+    const coefficients = result.rowsUsed - baseline.degreesOfFreedom;
+    lines.push(
+      `Least squares: residual SD ${formatNumber(baseline.residualStandardDeviation, 4)}, residual df ${baseline.degreesOfFreedom}` +
+        ` (${result.rowsUsed} rows − ${coefficients} coefficient${coefficients === 1 ? "" : "s"})`,
+    );
   }
   const fit = result.fit;
   lines.push(`In-sample: R² ${formatNumber(fit.r2, 4)}, RMSE ${formatNumber(fit.rmse)}, MAE ${formatNumber(fit.mae)}`);

@@ -1,5 +1,5 @@
 /** Command-line argument parsing: each option, its mapping to FitOptions, and each usage error. */
-import { CommandError, CommandOptions, parseArgs, parseNumber, toFitOptions } from "../../engine/cli/args";
+import { CommandError, CommandOptions, parseArgs, parseNumber, toFitOptions, USAGE } from "../../engine/cli/args";
 
 function options(argv: string[]): CommandOptions {
   const parsed = parseArgs(argv);
@@ -73,8 +73,8 @@ describe("parseArgs", () => {
       "5",
       "--seed=42",
       "--rule",
-      "onese",
-      "--measure",
+      "one-se",
+      "--error",
       "mae",
       "--count",
       "30",
@@ -95,7 +95,7 @@ describe("parseArgs", () => {
       mixes: [0, 0.5, 1],
       folds: 5,
       seed: 42,
-      rule: "onese",
+      rule: "one-se",
       measure: "mae",
       count: 30,
       lowEnd: 0.001,
@@ -114,12 +114,27 @@ describe("parseArgs", () => {
       mixes: [0, 0.5, 1],
       folds: 5,
       seed: 42,
-      rule: "onese",
+      rule: "one-se",
       measure: "mae",
       strengthCount: 30,
       lowEndRatio: 0.001,
       weights: [1, 2],
     });
+  });
+
+  it("accepts the older spellings silently: --rule min|onese|1se, --measure", () => {
+    expect(options(["d.csv", "--target", "y", "--rule", "min"]).rule).toBe("lowest");
+    expect(options(["d.csv", "--target", "y", "--rule", "onese"]).rule).toBe("one-se");
+    expect(options(["d.csv", "--target", "y", "--rule", "1se"]).rule).toBe("one-se");
+    expect(options(["d.csv", "--target", "y", "--rule", "lowest"]).rule).toBe("lowest");
+    expect(options(["d.csv", "--target", "y", "--measure", "mae"]).measure).toBe("mae");
+    expect(options(["d.csv", "--target", "y", "--error", "MAE"]).measure).toBe("mae");
+  });
+
+  it("prints only the current spellings in its help", () => {
+    expect(USAGE).toContain("--error mse|mae");
+    expect(USAGE).toContain("--rule lowest|one-se");
+    for (const old of ["--measure", "onese", "min|", "1se"]) expect(USAGE).not.toContain(old);
   });
 
   it("reads --exclude and --fold-column; fold labels go to the engine as given", () => {
@@ -174,8 +189,10 @@ describe("parseArgs", () => {
     [["d.csv", "--target", "y", "--low-end", "small"], /--low-end needs a number/],
     [["d.csv", "--target", "y", "--mix", "0,half"], /--mix needs a number; got 'half'/],
     [["d.csv", "--target", "y", "--mix", "0,,1"], /--mix has an empty item/],
-    [["d.csv", "--target", "y", "--rule", "best"], /--rule must be min or onese; got 'best'/],
-    [["d.csv", "--target", "y", "--measure", "rmse"], /--measure must be mse or mae/],
+    [["d.csv", "--target", "y", "--rule", "best"], /--rule must be lowest or one-se; got 'best'/],
+    [["d.csv", "--target", "y", "--error", "rmse"], /--error must be mse or mae; got 'rmse'/],
+    [["d.csv", "--target", "y", "--measure", "rmse"], /--error must be mse or mae; got 'rmse'/],
+    [["d.csv", "--target", "y", "--error", "mse", "--measure", "mae"], /--error is given twice/],
     [["d.csv", "--target", "y", "--json=yes"], /--json takes no value/],
     [["d.csv", "--target", "y", "--target", "z"], /--target is given twice/],
     [["d.csv", "--target", "y", "--strength", "0.5"], /--strength fits one point: give a single --mix/],

@@ -86,7 +86,7 @@ describe("npx tsx engine/cli/fit.ts", () => {
     expect(typeof report.intercept).toBe("number");
     expect(typeof report.strength).toBe("number");
     expect([0.5, 1]).toContain(report.mix);
-    expect(report.cv).toMatchObject({ rule: "min", scheme: "labels", folds: 2 });
+    expect(report.cv).toMatchObject({ rule: "lowest", scheme: "labels", folds: 2 });
     expect(typeof report.cv.error).toBe("number");
     expect(typeof report.cv.se).toBe("number");
     expect(report.rowsUsed).toBe(30);

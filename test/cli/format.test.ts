@@ -4,7 +4,7 @@
  * Data are generated here (a fixed linear rule plus deterministic noise), so every run is the same.
  */
 import { CommandError, parseArgs, toFitOptions } from "../../engine/cli/args";
-import { failureLine, finiteOrNull, formatNumber, jsonReport, jsonText, textReport } from "../../engine/cli/format";
+import { errorWithSe, failureLine, finiteOrNull, formatNumber, jsonReport, jsonText, textReport } from "../../engine/cli/format";
 import { FitTable, readFitTable } from "../../engine/cli/table";
 import { InputError } from "../../engine/errors";
 import { fit, FitResult } from "../../engine/fit";
@@ -51,7 +51,7 @@ describe("jsonReport with cross-validation", () => {
     expect(parsed.rowsUsed).toBe(40);
     expect(parsed.rowsSkipped).toBe(1);
     expect(parsed.skippedRows).toEqual([41]);
-    expect(parsed.rule).toBe("onese");
+    expect(parsed.rule).toBe("one-se");
     expect(typeof parsed.coefficients).toBe("object");
     expect(Array.isArray(parsed.warnings)).toBe(true);
     expect(parsed.warnings.every((w: unknown) => typeof w === "string")).toBe(true);
@@ -71,24 +71,24 @@ describe("jsonReport with cross-validation", () => {
   });
 
   it("takes cv from the chosen rule's point and reports both rules", () => {
-    const point = result.choices!.onese;
+    const point = result.choices!.oneSe;
     expect(parsed.cv).toEqual({
       mix: point.mix,
       strength: point.strength,
       strengthFraction: point.strengthFraction,
       error: point.error,
       se: point.se,
-      nonzero: point.nonzero,
-      rule: "onese",
+      termsKept: point.termsKept,
+      rule: "one-se",
       measure: "mse",
       scheme: "random",
       folds: 5,
       seed: 1,
     });
     expect(parsed.strength).toBe(point.strength);
-    expect(Object.keys(parsed.choices)).toEqual(["min", "onese"]);
-    expect(parsed.choices.min.error).toBeLessThanOrEqual(parsed.choices.onese.error);
-    expect(parsed.choices.onese.strength).toBeGreaterThanOrEqual(parsed.choices.min.strength);
+    expect(Object.keys(parsed.choices)).toEqual(["lowest", "oneSe"]);
+    expect(parsed.choices.lowest.error).toBeLessThanOrEqual(parsed.choices.oneSe.error);
+    expect(parsed.choices.oneSe.strength).toBeGreaterThanOrEqual(parsed.choices.lowest.strength);
   });
 
   it("includes in-sample scores, diagnostics and the saved model", () => {
@@ -139,12 +139,17 @@ describe("textReport", () => {
     const text = textReport(result, { table });
     expect(text).toMatch(/^Shrinkwise fit of 'y' on 3 predictors\n/);
     expect(text).toMatch(/term\s+coefficient\s+standardized/);
-    expect(text).toMatch(/\(intercept\)\s+-?\d/);
+    expect(text).toMatch(/\n {2}intercept\s+-?\d/);
     for (const term of ["size", "age", "extra"]) expect(text).toMatch(new RegExp(`\\n  ${term}\\s+-?\\d`));
-    expect(text).toMatch(/Chosen point \(rule min\): mix 1, strength /);
-    expect(text).toMatch(/Cross-validation: 4 random folds \(seed 1\), error measure mse/);
-    expect(text).toMatch(/\n {2}min \*\s/);
-    expect(text).toMatch(/\n {2}onese\s/);
+    expect(text).toMatch(/Chosen point \(lowest error\): mix 1, strength λ /);
+    expect(text).toMatch(/Cross-validation: 4 random folds \(seed 1\), scored by MSE/);
+    // Sideways summary: one column per rule, the chosen one marked; rows mix, strength, error ± SE, terms kept.
+    expect(text).toMatch(/\n\s+lowest error \(chosen\)\s+one-SE rule\n/);
+    expect(text).toMatch(/\n {2}mix\s+1\s+1\n/);
+    expect(text).toMatch(/\n {2}strength λ\s+\S+\s+\S+\n/);
+    expect(text).toMatch(/\n {2}CV MSE ± SE\s+\d\S* ± \d\S*\s+\d\S* ± \d\S*\n/);
+    expect(text).toMatch(/\n {2}terms kept\s+\d of 3\s+\d of 3\n/);
+    for (const old of ["(intercept)", "nonzero", "onese", " min "]) expect(text).not.toContain(old);
     expect(text).toMatch(/In-sample: R² 0\.\d+, RMSE \d/);
     expect(text).toMatch(/Rows: 40 used, 1 skipped/);
     expect(text).toMatch(/Warnings:\n {2}- 1 row with blank cells skipped/);
@@ -152,7 +157,12 @@ describe("textReport", () => {
 
   it("names the least-squares point for strength 0", () => {
     const { result, table } = run(["data.csv", "--target", "y", "--strength", "0"]);
-    expect(textReport(result, { table })).toMatch(/Fixed point: least squares \(strength 0\), 3 of 3 terms nonzero; no cross-validation/);
+    const text = textReport(result, { table });
+    expect(text).toMatch(/Fixed point: least squares \(strength 0\), 3 of 3 terms kept; no cross-validation/);
+    expect(text).toMatch(/term\s+coefficient\s+standardized\s+LS SE\n/);
+    // residual df = rows − coefficients (intercept + 3 terms): common practice.
+    expect(text).toMatch(/\nLeast squares: residual SD [\d.]+, residual df 36 \(40 rows − 4 coefficients\)\n/);
+    expect(text).not.toMatch(/degrees of freedom|std\. error/);
   });
 });
 
@@ -187,5 +197,18 @@ describe("failureLine", () => {
     expect(failure.exitCode).toBe(1);
     expect(failure.line).toBe("shrinkwise: unexpected failure: index out of range at somewhere\n");
     expect(failureLine("plain text").exitCode).toBe(1);
+  });
+});
+
+describe("errorWithSe", () => {
+  // Rounding convention (common practice): the error to 3 significant digits, the SE to the same decimals.
+  it.each([
+    [0.5371, 0.0638, "0.537 ± 0.064"],
+    [1234.5, 45.6, "1235 ± 46"],
+    [2.5, 0, "2.50 ± 0.00"],
+    [0.537, 0.0006, "0.53700 ± 0.00060"],
+    [5e-7, 1e-8, "5e-7 ± 1e-8"],
+  ])("writes %p ± %p as %p", (error, se, text) => {
+    expect(errorWithSe(error, se)).toBe(text);
   });
 });

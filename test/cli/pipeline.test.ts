@@ -41,7 +41,7 @@ describe("runCommand", () => {
     const outcome = runCommand(["--help"], read);
     expect(outcome.exitCode).toBe(0);
     expect(outcome.stdout).toMatch(/^Usage: npm run fit -- <data.csv> --target <column>/);
-    for (const option of ["--mix", "--strength", "--folds", "--seed", "--rule", "--json", "--predictors", "--exclude", "--measure", "--count", "--low-end", "--time-ordered", "--fold-column", "--weights-column", "--no-standardize", "--no-intercept"]) {
+    for (const option of ["--mix", "--strength", "--folds", "--seed", "--rule", "--json", "--predictors", "--exclude", "--error", "--count", "--low-end", "--time-ordered", "--fold-column", "--weights-column", "--no-standardize", "--no-intercept"]) {
       expect(outcome.stdout).toContain(option);
     }
   });

@@ -122,7 +122,7 @@ function tableRows(result: FitResult, mix: number) {
 function expectTableMatches(result: FitResult, problem: Problem, weights: number[] | null, splits: Split[], alpha: number, measure: "mse" | "mae", checkSe: boolean): void {
   const rows = tableRows(result, alpha);
   const last = rows.length - 1;
-  const chosen = result.choices?.min.index ?? 0;
+  const chosen = result.choices?.lowest.index ?? 0;
   for (const k of Array.from(new Set([3, Math.floor(last / 3), chosen, last]))) {
     const hand = cvByHand(problem, weights, splits, alpha, rows[k].strength, measure);
     expectRelative(rows[k].error, hand.mean, TOLERANCE, `CV ${measure} at point ${k}`); // recomputed by refitting each fold (ESL §7.10)
@@ -133,18 +133,31 @@ function expectTableMatches(result: FitResult, problem: Problem, weights: number
 const sparse = makeProblem({ seed: 2024, rows: 62, columns: 10, design: "ar1", rho: 0.5, nonzero: 3, noise: 0.6 });
 
 describe("choices", () => {
+  test("rule tokens: lowest and one-se; the older min, onese and 1se give bit-identical fits", () => {
+    const problem = makeProblem({ seed: 5, rows: 40, columns: 6, design: "ar1", rho: 0.5, nonzero: 3, noise: 1 });
+    const run = (rule: FitOptions["rule"]): string => JSON.stringify(fit(problem.x, problem.y, { mixes: [1], folds: 4, strengthCount: 20, rule }));
+    const lowest = run("lowest");
+    const oneSe = run("one-se");
+    expect(run(undefined)).toBe(lowest); // the default rule is the lowest error
+    expect(run("min")).toBe(lowest);
+    expect(run("onese")).toBe(oneSe);
+    expect(run("1se")).toBe(oneSe);
+    expect(JSON.parse(oneSe).rule).toBe("one-se");
+    expect(Object.keys(JSON.parse(lowest).choices)).toEqual(["lowest", "oneSe"]);
+  });
+
   test("when the lasso wins on mixes [0, 1], the chosen strength is the lasso-only run's", () => {
     const strongSparse = makeProblem({ seed: 31, rows: 60, columns: 25, design: "equicorrelated", rho: 0.2, nonzero: 2, noise: 0.3 });
     const both = fit(strongSparse.x, strongSparse.y, { mixes: [0, 1], folds: 5, seed: 11 });
     expect(both.mix).toBe(1); // precondition: two large effects among 25 predictors is lasso territory (common practice)
     const lassoOnly = fit(strongSparse.x, strongSparse.y, { mixes: [1], folds: 5, seed: 11 });
     expect(both.strength).toBe(lassoOnly.strength); // same folds, same grid: the same computation
-    expect(both.choices?.min).toEqual(lassoOnly.choices?.min);
+    expect(both.choices?.lowest).toEqual(lassoOnly.choices?.lowest);
     expect(both.coefficients).toEqual(lassoOnly.coefficients);
     // the lasso's best CV error is below the best ridge error (that is why it won)
     const best = (mix: number) => Math.min(...tableRows(both, mix).map((row) => row.error));
     expect(best(1)).toBeLessThan(best(0));
-    expect(both.choices?.min.error).toBe(best(1));
+    expect(both.choices?.lowest.error).toBe(best(1));
   });
 
   test("one-SE rule: the largest strength within one SE of the minimum, never below the min-error strength (property over seeds)", () => {
@@ -155,8 +168,8 @@ describe("choices", () => {
         fc.constantFrom([1], [0.5], [0, 1]),
         (dataSeed, foldSeed, mixes) => {
           const problem = makeProblem({ seed: dataSeed, rows: 40, columns: 10, design: "ar1", rho: 0.6, nonzero: 3, noise: 1 });
-          const result = fit(problem.x, problem.y, { mixes, folds: 5, seed: foldSeed, strengthCount: 40, rule: "onese" });
-          const { min, onese } = result.choices as NonNullable<FitResult["choices"]>;
+          const result = fit(problem.x, problem.y, { mixes, folds: 5, seed: foldSeed, strengthCount: 40, rule: "one-se" });
+          const { lowest: min, oneSe: onese } = result.choices as NonNullable<FitResult["choices"]>;
           expect(onese.strength).toBeGreaterThanOrEqual(min.strength);
           expect(onese.mix).toBe(min.mix);
           expect(result.strength).toBe(onese.strength);
@@ -300,7 +313,7 @@ describe("determinism", () => {
   test("two runs give bit-identical JSON", () => {
     const random = new TestRandom(12);
     const weights = sparse.y.map(() => 0.5 + random.uniform());
-    const options: FitOptions = { folds: 5, seed: 42, weights, rule: "onese" };
+    const options: FitOptions = { folds: 5, seed: 42, weights, rule: "one-se" };
     const first = JSON.stringify(fit(sparse.x, sparse.y, options));
     const second = JSON.stringify(fit(sparse.x, sparse.y, options));
     expect(second).toBe(first);

@@ -51,10 +51,10 @@ describe("the top of the path (common practice)", () => {
     const result = fit(distinct.x, distinct.y, { mixes: [1], strength: 1e-3, strengthCount: 100 });
     const path = result.path;
     expect(path.coefficients[0].every((b) => b === 0)).toBe(true); // common practice: λ_max is the smallest λ with b = 0
-    expect(path.nonzero[0]).toBe(0);
+    expect(path.termsKept[0]).toBe(0);
     expectRelative(path.intercepts[0], weightedMean(distinct.y, null), 1e-13, "intercept at λ_max"); // with b = 0 the intercept is ȳ (common practice); 1e-13 allows summation-order rounding
     // the grid step is 10^(−4/99) ≈ 0.91, while the second inner product is below 0.9·λ_max: one entrant
-    expect(path.nonzero[1]).toBe(1);
+    expect(path.termsKept[1]).toBe(1);
     expect(path.coefficients[1].findIndex((b) => b !== 0)).toBe(leader);
     expect(Math.sign(path.coefficients[1][leader])).toBe(Math.sign(c[leader])); // enters with the sign of its inner product
     // the same at fixed strengths around λ_max
@@ -69,7 +69,7 @@ describe("the top of the path (common practice)", () => {
   test("elastic net (α = 0.3) also has all coefficients exactly 0 at its λ_max", () => {
     const path = fit(sparse.x, sparse.y, { mixes: [0.3], strength: 1e-2 }).path;
     expect(path.coefficients[0].every((b) => b === 0)).toBe(true); // common practice: α > 0 has a finite λ_max
-    expect(path.nonzero[1]).toBeGreaterThan(0);
+    expect(path.termsKept[1]).toBeGreaterThan(0);
   });
 
   test.each<[number, UpdateScheme, boolean, boolean]>([
@@ -102,7 +102,7 @@ describe("the top of the path (common practice)", () => {
       const random = new TestRandom(5);
       const weights = weighted ? sparse.y.map(() => 0.1 + 3 * random.uniform()) : null;
       const result = fit(sparse.x, sparse.y, { mixes: [alpha], updates: "residual", weights, strength: 1e-2, strengthCount: 10 });
-      expect(result.path.nonzero[0]).toBe(0);
+      expect(result.path.termsKept[0]).toBe(0);
       expect(result.path.coefficients[0].every((b) => b === 0)).toBe(true);
       const atTop = fit(sparse.x, sparse.y, { mixes: [alpha], updates: "residual", weights, strength: result.path.top });
       expect(countNonzero(atTop.coefficients)).toBe(0);
@@ -114,7 +114,7 @@ describe("the top of the path (common practice)", () => {
       const result = fit(sparse.x, sparse.y, { mixes: [0], weights, strength: 1, strengthCount: 10 });
       expectRelative(result.path.top, handTop(sparse.x, sparse.y, weights, 0.001, null), 1e-10, "ridge top"); // engine/path.ts RIDGE_TOP_MIX = 0.001 in Friedman et al. 2010 §2.5
       // ridge has no finite λ_max: at its conventional top every coefficient is small but nonzero (common practice)
-      expect(result.path.nonzero[0]).toBe(20);
+      expect(result.path.termsKept[0]).toBe(20);
     }
   });
 });
@@ -139,13 +139,13 @@ describe("sparsity (common practice)", () => {
     const problem = makeProblem({ seed: rows + columns, rows, columns, design: "ar1", rho: 0.7, nonzero: 4, noise: 0.5 });
     const result = fit(problem.x, problem.y, { mixes: [alpha], folds: 3 });
     const path = result.path;
-    expect(path.nonzero.length).toBe(path.strengths.length);
+    expect(path.termsKept.length).toBe(path.strengths.length);
     expect(path.coefficients.length).toBe(path.strengths.length);
-    for (let k = 0; k < path.strengths.length; k++) expect(path.nonzero[k]).toBe(countNonzero(path.coefficients[k]));
-    expect(Math.max(...path.nonzero)).toBeGreaterThan(1);
+    for (let k = 0; k < path.strengths.length; k++) expect(path.termsKept[k]).toBe(countNonzero(path.coefficients[k]));
+    expect(Math.max(...path.termsKept)).toBeGreaterThan(1);
     // the cross-validation table reports the same counts for the chosen mix
     const table = (result.cv?.table ?? []).filter((row) => row.mix === alpha);
-    expect(table.map((row) => row.nonzero)).toEqual(path.nonzero);
-    expect(countNonzero(result.coefficients)).toBe(result.choices?.min.nonzero);
+    expect(table.map((row) => row.termsKept)).toEqual(path.termsKept);
+    expect(countNonzero(result.coefficients)).toBe(result.choices?.lowest.termsKept);
   });
 });

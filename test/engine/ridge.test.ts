@@ -100,7 +100,7 @@ describe("ridge equals its closed form (X̃ᵀΩX̃ + λM)⁻¹X̃ᵀΩỹ at ev
       const b0 = ybar - bt.reduce((s, v, j) => s + (v / scale[j]) * centre[j], 0);
       expectRelative(path.intercepts[k], b0, TOLERANCE * 10, `intercept at λ = ${path.strengths[k]}`); // computed another way with ml-matrix
       // ridge never sets a coefficient to exactly zero at these strengths (common practice)
-      expect(path.nonzero[k]).toBe(c.columns);
+      expect(path.termsKept[k]).toBe(c.columns);
     }
     expect(result.coefficients).toEqual(path.coefficients[path.coefficients.length - 1]);
   });

@@ -12,14 +12,14 @@ import { coefficientMap, CountingRunner, encodedByHand, expectRectangular, label
 const TERMS = ["Size", "Region: North", "Region: West", "Region: South", "Temp"];
 
 describe("spilled shapes and labels", () => {
-  test("COEFS: header, (intercept), then every term in column order with the reference level shown", async () => {
+  test("COEFS: header, intercept, then every term in column order with the reference level shown", async () => {
     const runner = new CountingRunner();
     const { target, predictors } = sheet();
     const out = await coefs(runner, target, predictors, null, QUICK);
     expectRectangular(out);
     expect(out.map((row) => row[0])).toEqual([
       "term",
-      "(intercept)",
+      "intercept",
       "Size",
       "Region: East (reference)",
       "Region: North",
@@ -45,11 +45,11 @@ describe("spilled shapes and labels", () => {
       "strength",
       "strength ÷ top of grid",
       "mix",
-      "CV error (MSE)",
-      "CV error SE",
+      "CV MSE",
+      "± SE",
       "rule",
-      "other rule's strength",
-      "nonzero terms",
+      "lowest-error strength",
+      "terms kept",
       "rows used",
       "rows skipped",
       "folds",
@@ -59,7 +59,7 @@ describe("spilled shapes and labels", () => {
       "notes",
     ]);
     const values = labelled(out);
-    expect(values.get("rule")).toBe("one-SE");
+    expect(values.get("rule")).toBe("one-SE rule");
     expect(values.get("folds")).toBe(4);
     expect(values.get("fold method")).toBe("random");
     expect(values.get("seed")).toBe(3);
@@ -67,7 +67,7 @@ describe("spilled shapes and labels", () => {
     expect(values.get("rows skipped")).toBe(0);
     expect(values.get("reference levels")).toBe("Region: East");
     // The one-SE strength is at least the lowest-error strength (common practice: it is the larger penalty).
-    expect(values.get("strength") as number).toBeGreaterThanOrEqual(values.get("other rule's strength") as number);
+    expect(values.get("strength") as number).toBeGreaterThanOrEqual(values.get("lowest-error strength") as number);
     expect([0, 1]).toContain(values.get("mix"));
     const fraction = values.get("strength ÷ top of grid") as number;
     expect(fraction > 0 && fraction <= 1).toBe(true);
@@ -78,15 +78,15 @@ describe("spilled shapes and labels", () => {
     const values = labelled(await choice(new CountingRunner(), target, predictors, 1, "strength=0.05"));
     expect(values.get("strength")).toBe(0.05);
     expect(values.get("rule")).toBe("fixed strength (no cross-validation)");
-    for (const label of ["CV error", "CV error SE", "other rule's strength", "folds", "fold method", "seed"]) expect(values.get(label)).toBe("none");
+    for (const label of ["CV error", "± SE", "one-SE rule's strength", "folds", "fold method", "seed"]) expect(values.get(label)).toBe("none");
   });
 
-  test("PATH: strength, nonzero, (intercept) and one column per term; one row per strength", async () => {
+  test("PATH: strength, terms kept, intercept and one column per term; one row per strength", async () => {
     const runner = new CountingRunner();
     const { target, predictors } = sheet();
     const out = await path(runner, target, predictors, 1, "folds=4; grid size=12");
     expectRectangular(out);
-    expect(out[0]).toEqual(["strength", "nonzero", "(intercept)", ...TERMS]);
+    expect(out[0]).toEqual(["strength", "terms kept", "intercept", ...TERMS]);
     expect(out.length).toBeGreaterThan(5);
     expect(out.length).toBeLessThanOrEqual(13);
     // The top of the grid zeroes every penalized coefficient (the grid's definition, engine convention).
@@ -108,11 +108,11 @@ describe("spilled shapes and labels", () => {
     for (const request of runner.requests) expect(JSON.stringify(request)).toBe(first);
   });
 
-  test("CVCURVE: header, then mix | strength | error | SE | nonzero for every mix and strength", async () => {
+  test("CVCURVE: header, then mix | strength | CV error | ± SE | terms kept for every mix and strength", async () => {
     const { target, predictors } = sheet();
     const out = await cvcurve(new CountingRunner(), target, predictors, "0, 1", "folds=4; grid size=10; error=mae");
     expectRectangular(out);
-    expect(out[0]).toEqual(["mix", "strength", "CV error (MAE)", "SE", "nonzero"]);
+    expect(out[0]).toEqual(["mix", "strength", "CV MAE", "± SE", "terms kept"]);
     const mixes = new Set(out.slice(1).map((row) => row[0]));
     expect(mixes).toEqual(new Set([0, 1]));
     for (const row of out.slice(1)) {
@@ -150,14 +150,14 @@ describe("spilled shapes and labels", () => {
     const predicted = [["prediction"], [2.5], [5.5], [2], [7], [4], [1]];
     const out = await score(actual, predicted);
     expectRectangular(out);
-    expect(out.map((row) => row[0])).toEqual(["label", "MAE", "RMSE", "R²", "mean error (predicted − actual)", "count", "pairs skipped"]);
+    expect(out.map((row) => row[0])).toEqual(["label", "MAE", "RMSE", "R²", "mean error (predicted − actual)", "pairs used", "pairs skipped"]);
     const values = labelled(out);
     // Errors (predicted − actual): −0.5, 0.5, 0, −1. Mean actual 4.5, total sum of squares 21.
     expectRelative(values.get("MAE") as number, 0.5, 1e-15, "MAE, by hand (common practice)"); // 2 / 4
     expectRelative(values.get("RMSE") as number, Math.sqrt(1.5 / 4), 1e-15, "RMSE, by hand (common practice)");
     expectRelative(values.get("R²") as number, 1 - 1.5 / 21, 1e-15, "R², by hand (common practice)");
     expectRelative(values.get("mean error (predicted − actual)") as number, -0.25, 1e-15, "mean error, by hand (common practice)");
-    expect(values.get("count")).toBe(4);
+    expect(values.get("pairs used")).toBe(4);
     expect(values.get("pairs skipped")).toBe(2);
   });
 
@@ -174,7 +174,7 @@ describe("spilled shapes and labels", () => {
     expect(out[0]).toEqual(["term", "coefficient", "standard error"]);
     expect(out.map((row) => row[0])).toEqual([
       "term",
-      "(intercept)",
+      "intercept",
       "Size",
       "Region: East (reference)",
       "Region: North",
@@ -401,7 +401,7 @@ describe("cross-checks", () => {
     const table = coefficientMap(await coefs(runner, target, predictors, 0.5, "strength=0.08; standardize=yes"));
     const { x, y, names } = encodedByHand();
     const reference = fit(x, y, { names, mixes: [0.5], strength: 0.08 });
-    expectRelative(table.get("(intercept)") as number, reference.intercept, 1e-12, "intercept: engine result at the same point");
+    expectRelative(table.get("intercept") as number, reference.intercept, 1e-12, "intercept: engine result at the same point");
     names.forEach((name, j) => {
       if (reference.coefficients[j] === 0) expect(table.get(name)).toBe(0);
       else expectRelative(table.get(name) as number, reference.coefficients[j], 1e-12, `${name}: engine result at the same point`);
@@ -415,7 +415,7 @@ describe("cross-checks", () => {
     const out = await apply(table, [["Size", "Region", "Temp"], [5, "North", 1]]);
     const b = coefficientMap(table);
     // By hand from the table's own coefficients.
-    const expected = (b.get("(intercept)") as number) + 5 * (b.get("Size") as number) + (b.get("Region: North") as number) + (b.get("Temp") as number);
+    const expected = (b.get("intercept") as number) + 5 * (b.get("Size") as number) + (b.get("Region: North") as number) + (b.get("Temp") as number);
     expectRelative(out[1][0] as number, expected, 1e-13, "APPLY on BASELINE, by hand from the table");
   });
 });
@@ -543,6 +543,32 @@ describe("bad input: error code and message", () => {
     expect((await rejection(apply(strict, [["Region", "Size"], ["Esat", 1]]))).message).toBe(
       "new_rows row 2 column 'Region' has 'Esat', a level of 'Region' not seen in coefficient_table (levels: 'East', 'North'): fix the text, or refit with rows that include it",
     );
+  });
+
+  test("APPLY reads the intercept row as intercept, (intercept) or constant", async () => {
+    const newRows = [["Size"], [2], [5]];
+    for (const label of ["intercept", "(intercept)", "Intercept", "constant", "Constant"]) {
+      // 10 + 3·Size, by hand.
+      expect(await apply([["term", "coefficient"], [label, 10], ["Size", 3]], newRows)).toEqual([["prediction"], [16], [25]]);
+    }
+    // With an intercept row present, "constant" is an ordinary term (a predictor may be called that).
+    const both = [["term", "coefficient"], ["intercept", 10], ["constant", 3]];
+    expect(await apply(both, [["constant"], [2]])).toEqual([["prediction"], [16]]);
+    expect((await rejection(apply([["intercept", 1], ["(intercept)", 2], ["Size", 3]], newRows))).message).toBe(
+      "coefficient_table lists the intercept twice: keep one",
+    );
+  });
+
+  test("a predictor named constant round-trips through COEFS and APPLY", async () => {
+    const { target } = sheet();
+    const rows = target.length - 1;
+    const grid: unknown[][] = [["constant", "Size"]];
+    for (let i = 0; i < rows; i++) grid.push([((i * 7) % 5) - 2, (i % 9) + 1]);
+    const table = await coefs(new CountingRunner(), target, grid, 1, QUICK);
+    expect(table[1][0]).toBe("intercept");
+    const viaApply = await apply(table, grid);
+    const viaPredict = await predict(new CountingRunner(), target, grid, grid, 1, QUICK);
+    expect(viaApply).toEqual(viaPredict);
   });
 
   test("APPLY: a coefficient that isn't a number", async () => {

@@ -30,7 +30,7 @@ test("BASELINE equals the certified coefficients, standard errors, residual SD a
   const { target, predictors } = worksheet();
   const out = await baseline(runner, target, predictors);
   expect(runner.calls).toBe(1);
-  expect(out.slice(0, 8).map((row) => row[0])).toEqual(["term", "(intercept)", "x1", "x2", "x3", "x4", "x5", "x6"]);
+  expect(out.slice(0, 8).map((row) => row[0])).toEqual(["term", "intercept", "x1", "x2", "x3", "x4", "x5", "x6"]);
   for (let k = 0; k < 7; k++) {
     const row = out[k + 1];
     expectRelative(row[1] as number, CERTIFIED_COEFFICIENTS[k], 1e-8, `B${k}: certified value, NIST StRD Longley`);

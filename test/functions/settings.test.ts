@@ -26,7 +26,7 @@ describe("text form", () => {
     expect(s).toEqual({
       folds: 5,
       seed: 7,
-      rule: "onese",
+      rule: "one-se",
       measure: "mae",
       standardize: false,
       intercept: true,
@@ -52,9 +52,9 @@ describe("text form", () => {
       zeroIsMissing: ["Size", "Temp"],
     });
   });
-  test("rule words: min, lowest, lowest error, onese, one-se, one standard error", () => {
-    for (const w of ["min", "lowest", "Lowest Error", "minimum"]) expect(parseSettings(`rule=${w}`).rule).toBe("min");
-    for (const w of ["onese", "one-se", "One SE", "1se", "one standard error"]) expect(parseSettings(`rule=${w}`).rule).toBe("onese");
+  test("rule words: lowest, lowest error, one-se, one-SE rule, one standard error; older tokens min, onese, 1se as aliases", () => {
+    for (const w of ["lowest", "Lowest Error", "min", "minimum"]) expect(parseSettings(`rule=${w}`).rule).toBe("lowest");
+    for (const w of ["one-se", "One SE", "one-SE rule", "one standard error", "onese", "1se"]) expect(parseSettings(`rule=${w}`).rule).toBe("one-se");
   });
   test("line breaks separate settings too; strength and time order", () => {
     const s = parseSettings(["strength=0.25", "time order=yes", "zero is missing=all"].join("\n"));
@@ -85,7 +85,7 @@ describe("range form", () => {
     expect(s.folds).toBe(5);
     expect(s.timeOrdered).toBe(true);
     expect(s.intercept).toBe(false);
-    expect(s.rule).toBe("min");
+    expect(s.rule).toBe("lowest");
     expect(s.seed).toBeNull(); // a blank value is not given
   });
   test("one column of name=value texts", () => {
@@ -121,7 +121,7 @@ describe("mistakes", () => {
       "'low end' must be a number between 0 and 1 (not 0 or 1), the bottom of the strength grid as a fraction of its top; got '1'",
     );
     expect(settingError("strength=-1")).toBe("'strength' must be a number of 0 or more (0 is plain least squares); got '-1'");
-    expect(settingError("rule=best")).toBe("'rule' must be min (lowest error) or onese (one-SE rule); got 'best'");
+    expect(settingError("rule=best")).toBe("'rule' must be lowest (lowest error) or one-se (one-SE rule); got 'best'");
     expect(settingError("error=rmse")).toBe("'error' must be mse or mae; got 'rmse'");
     expect(settingError("header=maybe")).toBe("'header' must be yes, no or auto; got 'maybe'");
     expect(settingError("standardize=perhaps")).toBe("'standardize' must be yes or no; got 'perhaps'");
@@ -170,7 +170,7 @@ describe("settings reach the engine", () => {
       mixes: [0.5, 1],
       folds: 4,
       seed: 9,
-      rule: "onese",
+      rule: "one-se",
       measure: "mae",
       strengthCount: 15,
       lowEndRatio: 0.01,

@@ -105,7 +105,7 @@ let leastSquares: FitResult;
 
 beforeAll(() => {
   lowestRule = fit(x, y, { names: NAMES });
-  onese = fit(x, y, { names: NAMES, rule: "onese" });
+  onese = fit(x, y, { names: NAMES, rule: "one-se" });
   ridge = fit(x, y, { names: NAMES, mixes: [0] });
   mae = fit(x, y, { names: NAMES, mixes: [0.5, 1], measure: "mae", folds: 5 });
   fixed = fit(x, y, { names: NAMES, mixes: [0.5], strength: 0.05 });
@@ -233,9 +233,9 @@ describe("coefficient path", () => {
       const marker = withIdPrefix(option, "choices")[0];
       const data = (marker.markLine as { data: { xAxis: number; name: string; lineStyle: { type: string } }[] }).data;
       const choices = result.choices as NonNullable<FitResult["choices"]>;
-      expect(choices.onese.strength).toBeGreaterThan(choices.min.strength);
-      expect(data.map((d) => d.xAxis)).toEqual([choices.min.strength, choices.onese.strength]);
-      expect(data.map((d) => d.lineStyle.type)).toEqual(result.rule === "min" ? ["solid", "dashed"] : ["dashed", "solid"]);
+      expect(choices.oneSe.strength).toBeGreaterThan(choices.lowest.strength);
+      expect(data.map((d) => d.xAxis)).toEqual([choices.lowest.strength, choices.oneSe.strength]);
+      expect(data.map((d) => d.lineStyle.type)).toEqual(result.rule === "lowest" ? ["solid", "dashed"] : ["dashed", "solid"]);
     }
   });
 
@@ -347,7 +347,7 @@ describe("cross-validation curve", () => {
     expect(lines).toHaveLength(mixes.length);
     lines.forEach((line, i) => {
       const rows = table.filter((r) => r.mix === mixes[i]);
-      expect(line.data).toEqual(rows.map((r) => [r.strength, r.error, r.se, r.nonzero]));
+      expect(line.data).toEqual(rows.map((r) => [r.strength, r.error, r.se, r.termsKept]));
       const low = withIdPrefix(option, `cv-band-low-${i}`)[0];
       const band = withIdPrefix(option, `cv-band-${i}`)[0];
       expect(low.stack).toBe(band.stack);
@@ -364,15 +364,15 @@ describe("cross-validation curve", () => {
       const option = cvChartOptions(result, { theme: "light", width: 450 });
       const choices = result.choices as NonNullable<FitResult["choices"]>;
       const mixes = [...new Set((result.cv as NonNullable<FitResult["cv"]>).table.map((r) => r.mix))];
-      const best = withIdPrefix(option, `cv-mix-${mixes.indexOf(choices.min.mix)}`)[0];
+      const best = withIdPrefix(option, `cv-mix-${mixes.indexOf(choices.lowest.mix)}`)[0];
       const points = (best.markPoint as { data: { coord: number[]; label: { formatter: string } }[] }).data;
       expect(points.map((p) => p.coord)).toEqual([
-        [choices.min.strength, choices.min.error],
-        [choices.onese.strength, choices.onese.error],
+        [choices.lowest.strength, choices.lowest.error],
+        [choices.oneSe.strength, choices.oneSe.error],
       ]);
-      expect(points.map((p) => p.label.formatter.includes("chosen"))).toEqual(result.rule === "min" ? [true, false] : [false, true]);
+      expect(points.map((p) => p.label.formatter.includes("chosen"))).toEqual(result.rule === "lowest" ? [true, false] : [false, true]);
       const threshold = (best.markLine as { data: { yAxis: number }[] }).data[0].yAxis;
-      expect(threshold).toBe(choices.min.error + choices.min.se);
+      expect(threshold).toBe(choices.lowest.error + choices.lowest.se);
       // Only the winning mix carries markers.
       expect(withIdPrefix(option, "cv-mix-").filter((s) => s.markPoint)).toHaveLength(1);
     }
@@ -383,9 +383,9 @@ describe("cross-validation curve", () => {
     const formatter = (option.tooltip as { formatter: (p: unknown) => string }).formatter;
     const choices = lowestRule.choices as NonNullable<FitResult["choices"]>;
     const table = (lowestRule.cv as NonNullable<FitResult["cv"]>).table;
-    const at = choices.min.strength;
-    const html = formatter([{ seriesId: "cv-mix-4", axisValue: at, value: [at, choices.min.error, choices.min.se, choices.min.nonzero] }]);
-    expect(html).toContain(`mix 1 (lasso): ${formatNumber(choices.min.error)} ± ${formatNumber(choices.min.se)}, ${choices.min.nonzero} terms`);
+    const at = choices.lowest.strength;
+    const html = formatter([{ seriesId: "cv-mix-4", axisValue: at, value: [at, choices.lowest.error, choices.lowest.se, choices.lowest.termsKept] }]);
+    expect(html).toContain(`mix 1 (lasso): ${formatNumber(choices.lowest.error)} ± ${formatNumber(choices.lowest.se)}, ${choices.lowest.termsKept} terms`);
     for (const mix of [0.25, 0.5, 0.75]) {
       const rows = table.filter((r) => r.mix === mix);
       const near = rows.reduce((a, b) => (Math.abs(Math.log(b.strength / at)) < Math.abs(Math.log(a.strength / at)) ? b : a));
@@ -559,8 +559,8 @@ describe("text alternatives", () => {
     const choices = lowestRule.choices as NonNullable<FitResult["choices"]>;
     const cv = describeChart("cv", lowestRule);
     expect(cv).toContain("5 mixes");
-    expect(cv).toContain(formatNumber(choices.min.error));
-    expect(cv).toContain(formatNumber(choices.onese.strength));
+    expect(cv).toContain(formatNumber(choices.lowest.error));
+    expect(cv).toContain(formatNumber(choices.oneSe.strength));
     const bars = describeChart("bars", lowestRule);
     expect(bars).toContain(top);
     expect(bars).toContain(`${barEntries(lowestRule).zero.length} terms are zero`);

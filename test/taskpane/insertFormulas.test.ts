@@ -44,8 +44,8 @@ describe("formula text", () => {
 
   test("settings without mixes leave the mixes argument empty", () => {
     const inputs = roastInputs();
-    inputs.settings = { folds: "5", rule: "onese" };
-    expect(formulaText("COEFS", inputs)).toBe('=SHRINK.COEFS(\'Roast log\'!M1:M121, \'Roast log\'!B1:L121, , "folds=5; rule=onese")');
+    inputs.settings = { folds: "5", rule: "one-se" };
+    expect(formulaText("COEFS", inputs)).toBe('=SHRINK.COEFS(\'Roast log\'!M1:M121, \'Roast log\'!B1:L121, , "folds=5; rule=one-se")');
   });
 
   test("mixes alone, and mixes with settings; PREDICT takes the new rows third", () => {

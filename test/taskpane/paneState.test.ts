@@ -198,12 +198,12 @@ describe("settings text, mixes text and restore", () => {
   test("only non-default settings, in the settings table's order, header from the toggle", () => {
     const inputs = emptyInputs();
     expect(settingsText(inputs)).toBe("");
-    inputs.settings = { rule: "onese", folds: " 5 ", seed: "", "weights column": "batch_kg" };
+    inputs.settings = { rule: "one-se", folds: " 5 ", seed: "", "weights column": "batch_kg" };
     inputs.header = "yes";
-    expect(settingsText(inputs)).toBe("folds=5; rule=onese; weights column=batch_kg; header=yes");
+    expect(settingsText(inputs)).toBe("folds=5; rule=one-se; weights column=batch_kg; header=yes");
     // The text reads back to the same settings.
     const parsed = parseSettings(settingsText(inputs));
-    expect(parsed).toMatchObject({ folds: 5, rule: "onese", weightsColumn: "batch_kg", header: "yes" });
+    expect(parsed).toMatchObject({ folds: 5, rule: "one-se", weightsColumn: "batch_kg", header: "yes" });
   });
 
   test("mixes text is tidied", () => {
@@ -215,11 +215,11 @@ describe("settings text, mixes text and restore", () => {
   test("setting pairs for the report: numbers as numbers", () => {
     const inputs = emptyInputs();
     inputs.mixes = "1";
-    inputs.settings = { folds: "5", rule: "onese" };
+    inputs.settings = { folds: "5", rule: "one-se" };
     expect(settingPairs(inputs)).toEqual([
       { name: "mixes", value: 1 },
       { name: "folds", value: 5 },
-      { name: "rule", value: "onese" },
+      { name: "rule", value: "one-se" },
     ]);
   });
 
@@ -238,6 +238,15 @@ describe("settings text, mixes text and restore", () => {
       mixes: "0, 1",
       settings: { folds: "5" },
     });
+  });
+
+  test("restoreInputs reads the older rule tokens a previous pane saved as today's", () => {
+    expect(restoreInputs({ settings: { rule: "onese" } }).settings).toEqual({ rule: "one-se" });
+    expect(restoreInputs({ settings: { rule: "1se" } }).settings).toEqual({ rule: "one-se" });
+    expect(restoreInputs({ settings: { rule: "one-se" } }).settings).toEqual({ rule: "one-se" });
+    // The lowest error is the form's default (empty), whatever it was called.
+    expect(restoreInputs({ settings: { rule: "min" } }).settings).toEqual({});
+    expect(restoreInputs({ settings: { rule: "lowest" } }).settings).toEqual({});
   });
 
   test("column names from the header row, or x1, x2, …", () => {

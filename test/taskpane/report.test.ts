@@ -138,18 +138,18 @@ test("text columns: origin with its reference level (demo data: Coastal) and the
 
 test("chosen point: strength, mix and CV error are the engine's; the other rule's point beside it", () => {
   const block = blockStarting("point");
-  expect(block.rows[0]).toEqual(["point", "chosen", "other rule"]);
+  expect(block.rows[0]).toEqual(["point", "chosen", "one-SE rule's point"]);
   const rows = rowsByLabel(block);
   const choices = result.choices;
   expect(choices).not.toBeNull();
   // Source: engine result.
   expect(rows.get("strength")?.[0]).toBe(result.strength);
-  expect(rows.get("strength")?.[1]).toBe(choices?.onese.strength);
-  expect(rows.get("mix (0 ridge … 1 lasso)")?.[0]).toBe(result.mix);
-  expect(rows.get("rule")).toEqual(["lowest CV error", "one-standard-error rule"]);
-  expect(rows.get("CV error (MSE)")).toEqual([choices?.min.error, choices?.onese.error]);
-  expect(rows.get("CV error SE")).toEqual([choices?.min.se, choices?.onese.se]);
-  expect(rows.get("nonzero terms")?.[0]).toBe(result.coefficients.filter((b) => b !== 0).length);
+  expect(rows.get("strength")?.[1]).toBe(choices?.oneSe.strength);
+  expect(rows.get("Mix α (lasso share)")?.[0]).toBe(result.mix);
+  expect(rows.get("rule")).toEqual(["lowest error", "one-SE rule"]);
+  expect(rows.get("CV MSE")).toEqual([choices?.lowest.error, choices?.oneSe.error]);
+  expect(rows.get("± SE")).toEqual([choices?.lowest.se, choices?.oneSe.se]);
+  expect(rows.get("terms kept")?.[0]).toBe(result.coefficients.filter((b) => b !== 0).length);
   // Common practice: the one-SE point has the larger (or equal) penalty.
   expect(rows.get("strength")?.[1] as number).toBeGreaterThanOrEqual(rows.get("strength")?.[0] as number);
 });
@@ -157,7 +157,7 @@ test("chosen point: strength, mix and CV error are the engine's; the other rule'
 test("coefficient table: intercept first, terms in column order, reference level listed with 0 (engine result)", () => {
   const block = blockStarting("term");
   expect(block.rows[0]).toEqual(["term", "coefficient", "standardized (per SD)"]);
-  expect(block.rows[1]).toEqual(["(intercept)", result.intercept, ""]);
+  expect(block.rows[1]).toEqual(["intercept", result.intercept, ""]);
   const byTerm = rowsByLabel(block);
   result.terms.forEach((term, j) => {
     expect(byTerm.get(term)).toEqual([result.coefficients[j], result.standardizedCoefficients[j]]);
@@ -172,10 +172,10 @@ test("CV table: one row per mix and strength tried (engine result)", () => {
   const block = blockStarting("mix");
   const cv = result.cv;
   expect(cv).not.toBeNull();
-  expect(block.rows[0]).toEqual(["mix", "strength", "CV error (MSE)", "SE", "nonzero"]);
+  expect(block.rows[0]).toEqual(["mix", "strength", "CV MSE", "± SE", "terms kept"]);
   expect(block.rows).toHaveLength((cv?.table.length ?? 0) + 1);
   const k = 7;
-  expect(block.rows[k + 1]).toEqual([cv?.table[k].mix, cv?.table[k].strength, cv?.table[k].error, cv?.table[k].se, cv?.table[k].nonzero]);
+  expect(block.rows[k + 1]).toEqual([cv?.table[k].mix, cv?.table[k].strength, cv?.table[k].error, cv?.table[k].se, cv?.table[k].termsKept]);
   expect(new Set(block.rows.slice(1).map((r) => r[0]))).toEqual(new Set([0, 0.25, 0.5, 0.75, 1]));
 });
 

@@ -14,7 +14,7 @@ const result = {
 
 test("intercept first, then by standardized magnitude, zeros last", () => {
   expect(coefficientRows(result)).toEqual([
-    { term: "(intercept)", coefficient: 75.5, standardized: null, zero: false },
+    { term: "intercept", coefficient: 75.5, standardized: null, zero: false },
     { term: "origin: Highland", coefficient: 1.5, standardized: 0.7, zero: false },
     { term: "temp", coefficient: 0.1, standardized: 0.6, zero: false },
     { term: "size", coefficient: -0.15, standardized: -0.45, zero: false },
@@ -24,14 +24,14 @@ test("intercept first, then by standardized magnitude, zeros last", () => {
 
 test("ties keep the predictors' order", () => {
   const tied = { ...result, coefficients: [0, 0, 0, 0], standardizedCoefficients: [0, 0, 0, 0] } as FitResult;
-  expect(coefficientRows(tied).map((r) => r.term)).toEqual(["(intercept)", "size", "temp", "origin: Highland", "humidity"]);
+  expect(coefficientRows(tied).map((r) => r.term)).toEqual(["intercept", "size", "temp", "origin: Highland", "humidity"]);
 });
 
 test("tab-separated copy with a header line and full precision", () => {
   const precise = { ...result, intercept: 1 / 3 } as FitResult;
   expect(coefficientTsv(coefficientRows(precise)).split("\n")).toEqual([
     "term\tcoefficient\tstandardized coefficient",
-    `(intercept)\t${String(1 / 3)}\t`,
+    `intercept\t${String(1 / 3)}\t`,
     "origin: Highland\t1.5\t0.7",
     "temp\t0.1\t0.6",
     "size\t-0.15\t-0.45",
