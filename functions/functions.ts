@@ -46,12 +46,13 @@ export async function coefs(
 
 /**
  * Shows how the model was chosen: the strength and mix picked, their cross-validated error and
- * its standard error, the rule, the folds, and the rows used and skipped.
+ * its standard error, the rule (lowest error or one-SE rule), the terms kept, the folds, and the
+ * rows used and skipped.
  * @customfunction CHOICE
  * @param target The column to predict, one value per row. A header cell on top is fine; rows with a blank or error are skipped.
  * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one.
  * @param [mixes] The mixes to try: 0 is ridge, 1 is lasso, between is elastic net. A number, a range of numbers or text like "0, 0.5, 1". Leave out for 0, 0.25, 0.5, 0.75 and 1.
- * @param [settings] Optional settings as text, like "folds=5; seed=7", or a two-column range of setting names and values.
+ * @param [settings] Optional settings as text, like "folds=5; rule=one-se", or a two-column range of setting names and values.
  * @param invocation Supplied by Excel.
  * @returns A table of label and value.
  */
@@ -143,7 +144,7 @@ export async function cvcurve(
 
 /**
  * Measures how close predictions are to actual values: mean absolute error, root mean squared
- * error, R², mean error and the count of pairs used.
+ * error, R², mean error, and the pairs used and skipped.
  * @customfunction SCORE
  * @param actual The actual values, one column. Pairs with a blank or error cell are skipped.
  * @param predicted The predicted values, one column the same length as actual.
@@ -160,7 +161,7 @@ export async function score(actual: any[][], predicted: any[][]): Promise<any[][
  * @param target The column to predict, one value per row. A header cell on top is fine; rows with a blank or error are skipped.
  * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one.
  * @param invocation Supplied by Excel.
- * @returns A table: term, coefficient, standard error, then residual SD, degrees of freedom, R² and rows used.
+ * @returns A table: term, coefficient, standard error, then residual SD, residual degrees of freedom, R² and rows used.
  */
 export async function baseline(
   target: any[][],
