@@ -17,13 +17,13 @@
  * (PaneHandle), view } for browser tests, e.g. `__shrinkwisePreview.host.setCell("M2", 90)`.
  */
 import { sharedRunner } from "../functions/functions";
-import { formatAddress, parseAddress } from "./address";
-import { OfficeSheetHost } from "./officeSheetHost";
-import { mountPane } from "./pane";
-import { renderPreview } from "./preview";
-import type { SheetHost } from "./sheetHost";
-import { createDemoWorkbook, DEMO_RANGES, DEMO_SHEET, StandInSheetHost } from "./standInSheetHost";
-import { renderStandInView } from "./standInView";
+import { formatAddress, parseAddress } from "./host/address";
+import { OfficeSheetHost } from "./host/officeSheetHost";
+import { mountPane } from "./pane/pane";
+import { renderPreview } from "./standalone/preview";
+import type { SheetHost } from "./host/sheetHost";
+import { createDemoWorkbook, DEMO_RANGES, DEMO_SHEET, StandInSheetHost } from "./standalone/standInSheetHost";
+import { renderStandInView } from "./standalone/standInView";
 
 /** One SHRINK function as the pane describes it. */
 export interface FunctionHelp {

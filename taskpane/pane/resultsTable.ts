@@ -5,7 +5,7 @@
  * to zero are kept, muted, at the end. "Copy" puts the table on the clipboard as tab-separated
  * text (full precision), ready to paste into a sheet.
  */
-import type { FitResult } from "../engine/fit";
+import type { FitResult } from "../../engine/fit";
 import { formatNumber } from "./paneState";
 
 export interface CoefficientRow {

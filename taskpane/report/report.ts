@@ -15,10 +15,10 @@
  *
  * Numbers are written at full precision; number formats only change how they look.
  */
-import type { FitResult } from "../engine/fit";
-import type { Dataset } from "../functions/dataset";
-import { cellName, parseAddress, RangeAddress, spillArea } from "./address";
-import type { CellValue, ReportBlock, ReportChart, ReportSheet } from "./sheetHost";
+import type { FitResult } from "../../engine/fit";
+import type { Dataset } from "../../functions/dataset";
+import { cellName, parseAddress, RangeAddress, spillArea } from "../host/address";
+import type { CellValue, ReportBlock, ReportChart, ReportSheet } from "../host/sheetHost";
 
 export interface ReportInput {
   result: FitResult;

@@ -42,13 +42,13 @@
  *   Other       pane-message (last range pick / action message)
  * In the standalone preview, `window.__shrinkwisePreview` = { host, pane, view } (taskpane.ts).
  */
-import { CancelledError } from "../engine/errors";
-import type { FitResult } from "../engine/fit";
-import { prepare } from "../functions/api";
-import { sharedRunner } from "../functions/functions";
-import { cancelSource, type FitRunner } from "../functions/runner";
-import { formatAddress, parseAddress } from "./address";
-import { mountChart, type ChartHandle } from "./charts";
+import { CancelledError } from "../../engine/errors";
+import type { FitResult } from "../../engine/fit";
+import { prepare } from "../../functions/api";
+import { sharedRunner } from "../../functions/functions";
+import { cancelSource, type FitRunner } from "../../functions/runner";
+import { formatAddress, parseAddress } from "../host/address";
+import { mountChart, type ChartHandle } from "../charts/charts";
 import {
   filledLines,
   findFilledCells,
@@ -80,10 +80,10 @@ import {
   type PaneRanges,
 } from "./paneState";
 import { renderRangePicker, type RangePicker, type RangePickerSpec } from "./rangePickers";
-import { buildReport } from "./report";
+import { buildReport } from "../report/report";
 import { coefficientRows, coefficientTsv, copyText, renderCoefficientTable } from "./resultsTable";
 import { renderSettingsForm } from "./settingsForm";
-import type { SheetHost } from "./sheetHost";
+import type { SheetHost } from "../host/sheetHost";
 
 export interface PaneOptions {
   /** Ranges to start with when the workbook has none saved (the demo workbook's). */
