@@ -20,7 +20,7 @@ import type { Spill, SpillCell } from "../../functions/api";
 import { isCellError } from "../../functions/errors";
 import type { FitProgress, FitRunner } from "../../functions/runner";
 import { roasteryColumns, roasteryNewRows, roasteryNewRowsExpected, roasteryRows } from "../../addin/demo/roasteryData";
-import type { FunctionHelp } from "../taskpane";
+import type { FunctionHelp } from "../functionHelp";
 
 /** The worksheet ranges the examples use, as Excel would pass them (rows of cells; blanks null). */
 export interface DemoSheet {
