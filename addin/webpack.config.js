@@ -221,7 +221,19 @@ module.exports = (_env = {}, argv = {}) => {
       static: false,
       hot: false,
       liveReload: true,
-      client: { overlay: { warnings: false, errors: true } },
+      client: {
+        overlay: {
+          warnings: false,
+          errors: true,
+          // Uncaught runtime errors cover the page, except Chromium's "ResizeObserver loop
+          // completed with undelivered notifications": a notice that some size changes wait for
+          // the next frame, not a failure (the pane defers its chart resizes so it should not
+          // happen; an extension or a future layout may still cause it). webpack-dev-server
+          // sends this function to the page as source text and rebuilds it there, so it must
+          // not use anything else from this file. Return false = no overlay for that error.
+          runtimeErrors: (error) => !/ResizeObserver loop/.test(String(error && error.message)),
+        },
+      },
     },
   };
 };

@@ -10,7 +10,7 @@ import { fit } from "../../engine/fit";
 import { COLUMNS, demoFiles, generate, NEW_ROWS, ORIGINS, PREDICTOR_COLUMNS, ROWS, SEED, TRUTH, trueMean } from "../../addin/demo/generate";
 import { roasteryColumns, roasteryNewRows, roasteryNewRowsExpected, roasteryRows, roasteryTruth } from "../../addin/demo/roasteryData";
 import { InProcessRunner } from "../../functions/inProcessRunner";
-import { demoSheet, EXAMPLES } from "../../taskpane/preview";
+import { demoSheet, EXAMPLES } from "../../taskpane/standalone/preview";
 
 const DEMO = join(__dirname, "..", "..", "addin", "demo");
 const README = join(__dirname, "..", "..", "README.md");

@@ -1,5 +1,5 @@
 /**
- * The task pane's charts (taskpane/charts.ts) built from real engine fits on the demo data
+ * The task pane's charts (taskpane/charts/charts.ts) built from real engine fits on the demo data
  * (addin/demo/roasteryData.ts): the echarts options against the engine's result, the two
  * palettes' contrast and colour-vision separation, the narrow-width layout, rendering to SVG
  * without a DOM (echarts server-side rendering), and, where Chromium is installed, the DOM half
@@ -33,8 +33,8 @@ import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from "fs
 import { tmpdir } from "os";
 import { join, resolve } from "path";
 import webpack from "webpack";
-import { fit, type FitResult } from "../../engine/fit";
-import { roasteryRows } from "../../addin/demo/roasteryData";
+import { fit, type FitResult } from "../../../engine/fit";
+import { roasteryRows } from "../../../addin/demo/roasteryData";
 import {
   barEntries,
   coefficientBarOptions,
@@ -55,9 +55,9 @@ import {
   type ChartOption,
   type ChartTheme,
   type Palette,
-} from "../../taskpane/charts";
+} from "../../../taskpane/charts/charts";
 
-const ROOT = resolve(__dirname, "..", "..");
+const ROOT = resolve(__dirname, "..", "..", "..");
 const CHROMIUM = "/usr/bin/chromium";
 const THEMES: ChartTheme[] = ["light", "dark"];
 const KINDS: ChartKind[] = ["path", "cv", "bars"];
@@ -606,7 +606,7 @@ describe("SVG rendering (echarts server-side rendering)", () => {
     const tsx = join(ROOT, "node_modules", ".bin", "tsx");
     const script = [
       'import { readFileSync } from "fs";',
-      'import { renderChartSvg } from "./taskpane/charts";',
+      'import { renderChartSvg } from "./taskpane/charts/charts";',
       "const result = JSON.parse(readFileSync(0, \"utf8\"));",
       "const out: Record<string, string> = {};",
       'for (const kind of ["path", "cv", "bars"] as const) out[kind] = renderChartSvg(kind, result, { theme: "light", width: 360 });',
@@ -643,7 +643,7 @@ describe("SVG rendering (echarts server-side rendering)", () => {
     out = mkdtempSync(join(tmpdir(), "shrinkwise-charts-"));
     writeFileSync(
       join(out, "entry.js"),
-      `import { mountChart } from ${JSON.stringify(join(ROOT, "taskpane", "charts.ts"))};\nwindow.__charts = { mountChart };\n`,
+      `import { mountChart } from ${JSON.stringify(join(ROOT, "taskpane", "charts", "charts.ts"))};\nwindow.__charts = { mountChart };\n`,
     );
     const config: webpack.Configuration = {
       mode: "production",

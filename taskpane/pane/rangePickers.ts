@@ -6,8 +6,8 @@
  * Test ids (`<key>` is target, predictors, new-rows, destination):
  *   <key>-use-selection  <key>-prompt  <key>-clear  <key>-address (the output showing the address)
  */
-import type { SheetHost } from "./sheetHost";
-import { parseAddress, formatAddress } from "./address";
+import type { SheetHost } from "../host/sheetHost";
+import { parseAddress, formatAddress } from "../host/address";
 
 export interface RangePickerSpec {
   /** Test-id stem: target, predictors, new-rows, destination. */

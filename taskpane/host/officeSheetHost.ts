@@ -22,7 +22,7 @@ import {
   sameSheetName,
   splitAreas,
 } from "./address";
-import { blockArea, blockRows } from "./report";
+import { blockArea, blockRows } from "../report/report";
 import { CellValue, ReportSheet, SheetHost, SheetHostError } from "./sheetHost";
 
 /** How many numbered report names ("Shrinkwise report 2", …) are tried before a time stamp is used. */

@@ -11,9 +11,9 @@
  *   CHOICE  = its label rows × 2 columns
  *   PREDICT = the rows of new_rows × 1 column
  */
-import { choiceSpill, coefficientSpill } from "../functions/spill";
-import { formatAddress, parseAddress, rangeOf, spillArea } from "./address";
-import type { SheetHost } from "./sheetHost";
+import { choiceSpill, coefficientSpill } from "../../functions/spill";
+import { formatAddress, parseAddress, rangeOf, spillArea } from "../host/address";
+import type { SheetHost } from "../host/sheetHost";
 import { mixesText, settingsText, type FitOutcome, type PaneInputs } from "./paneState";
 
 export type FormulaId = "COEFS" | "CHOICE" | "PREDICT";

@@ -16,9 +16,9 @@
  * Every event carries the run number it belongs to, so a late message from a superseded run
  * (a progress report after Cancel, a result after a new start) changes nothing.
  */
-import { parseRule, type FitResult } from "../engine/fit";
-import type { Prepared } from "../functions/api";
-import { parseMixes, parseSettings, SETTING_NAMES } from "../functions/settings";
+import { parseRule, type FitResult } from "../../engine/fit";
+import type { Prepared } from "../../functions/api";
+import { parseMixes, parseSettings, SETTING_NAMES } from "../../functions/settings";
 
 // ---------------------------------------------------------------------------------------------
 // What the user chose

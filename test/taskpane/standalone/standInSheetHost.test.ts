@@ -1,5 +1,5 @@
 /**
- * The stand-in workbook and its SheetHost (taskpane/standInSheetHost.ts): the demo layout,
+ * The stand-in workbook and its SheetHost (taskpane/standalone/standInSheetHost.ts): the demo layout,
  * selection, reading, formulas computed through functions/api.ts and spilled, #SPILL!, errors,
  * recalculation after an edit, watching, the report sheet, settings.
  *
@@ -7,11 +7,11 @@
  * "engine result" (the same cell function called directly on the same values), "common
  * practice" (how a spreadsheet spills and blocks results).
  */
-import * as api from "../../functions/api";
-import { fitCache } from "../../functions/cache";
-import { InProcessRunner } from "../../functions/inProcessRunner";
-import type { Spill } from "../../functions/api";
-import { roasteryColumns, roasteryNewRows, roasteryRows } from "../../addin/demo/roasteryData";
+import * as api from "../../../functions/api";
+import { fitCache } from "../../../functions/cache";
+import { InProcessRunner } from "../../../functions/inProcessRunner";
+import type { Spill } from "../../../functions/api";
+import { roasteryColumns, roasteryNewRows, roasteryRows } from "../../../addin/demo/roasteryData";
 import {
   createDemoWorkbook,
   DEMO_SHEET,
@@ -19,8 +19,8 @@ import {
   parseFormula,
   StandInSheetHost,
   StandInWorkbook,
-} from "../../taskpane/standInSheetHost";
-import { SheetHostError } from "../../taskpane/sheetHost";
+} from "../../../taskpane/standalone/standInSheetHost";
+import { SheetHostError } from "../../../taskpane/host/sheetHost";
 
 /** Settings that keep the cross-validated fits quick. */
 const QUICK = '"folds=5; grid size=25"';

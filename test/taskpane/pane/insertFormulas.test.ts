@@ -4,9 +4,9 @@
  * spill areas sized from the spill functions' own output, and the filled-cell check that comes
  * before any write. Fitted on the demo data with the in-process engine.
  */
-import * as api from "../../functions/api";
-import { requestHash } from "../../functions/cache";
-import { InProcessRunner } from "../../functions/inProcessRunner";
+import * as api from "../../../functions/api";
+import { requestHash } from "../../../functions/cache";
+import { InProcessRunner } from "../../../functions/inProcessRunner";
 import {
   excelString,
   filledLines,
@@ -17,10 +17,10 @@ import {
   planPlacements,
   spillShapes,
   writePlacements,
-} from "../../taskpane/insertFormulas";
-import { emptyInputs, FitOutcome, mixesText, PaneInputs, settingsText } from "../../taskpane/paneState";
-import { demoSheet } from "../../taskpane/preview";
-import type { SheetHost } from "../../taskpane/sheetHost";
+} from "../../../taskpane/pane/insertFormulas";
+import { emptyInputs, FitOutcome, mixesText, PaneInputs, settingsText } from "../../../taskpane/pane/paneState";
+import { demoSheet } from "../../../taskpane/standalone/preview";
+import type { SheetHost } from "../../../taskpane/host/sheetHost";
 
 function roastInputs(): PaneInputs {
   const inputs = emptyInputs();

@@ -1,5 +1,5 @@
 /**
- * A1 addresses (taskpane/address.ts). Expected values follow the spreadsheet convention for A1
+ * A1 addresses (taskpane/host/address.ts). Expected values follow the spreadsheet convention for A1
  * references (common practice: columns A…Z, AA…, the last column XFD = 16384, the last row
  * 1048576; sheet names with spaces or punctuation quoted, an apostrophe inside doubled).
  */
@@ -20,8 +20,8 @@ import {
   rangeSize,
   spillArea,
   splitAreas,
-} from "../../taskpane/address";
-import { SheetHostError } from "../../taskpane/sheetHost";
+} from "../../../taskpane/host/address";
+import { SheetHostError } from "../../../taskpane/host/sheetHost";
 
 describe("column letters and numbers", () => {
   test.each([

@@ -1,5 +1,5 @@
 /**
- * OfficeSheetHost (taskpane/officeSheetHost.ts) against office-addin-mock's OfficeMockObject
+ * OfficeSheetHost (taskpane/host/officeSheetHost.ts) against office-addin-mock's OfficeMockObject
  * standing in for Excel: a property reads as "Error, property was not loaded" unless the code
  * loaded it and synced, so each read below also checks the host's load/sync calls. The common
  * API (Office.context: bindings, settings, theme) has no load/sync and is a plain object.
@@ -8,8 +8,8 @@
  * return), "common practice" (WCAG relative luminance: white 1, black 0).
  */
 import { OfficeMockObject } from "office-addin-mock";
-import { luminance, OfficeSheetHost } from "../../taskpane/officeSheetHost";
-import { SheetHostError, type ReportSheet } from "../../taskpane/sheetHost";
+import { luminance, OfficeSheetHost } from "../../../taskpane/host/officeSheetHost";
+import { SheetHostError, type ReportSheet } from "../../../taskpane/host/sheetHost";
 
 type Handler = (event: { address: string }) => Promise<void> | void;
 

@@ -42,14 +42,14 @@
  *   Other       pane-message (last range pick / action message)
  * In the standalone preview, `window.__shrinkwisePreview` = { host, pane, view } (taskpane.ts).
  */
-import { CancelledError } from "../engine/errors";
-import type { FitResult } from "../engine/fit";
-import { errorWithSe, MIX_LABEL, RULE_WORDS } from "../engine/words";
-import { prepare } from "../functions/api";
-import { sharedRunner } from "../functions/functions";
-import { cancelSource, type FitRunner } from "../functions/runner";
-import { formatAddress, parseAddress } from "./address";
-import { mountChart, type ChartHandle } from "./charts";
+import { CancelledError } from "../../engine/errors";
+import type { FitResult } from "../../engine/fit";
+import { errorWithSe, MIX_LABEL, RULE_WORDS } from "../../engine/words";
+import { prepare } from "../../functions/api";
+import { sharedRunner } from "../../functions/functions";
+import { cancelSource, type FitRunner } from "../../functions/runner";
+import { formatAddress, parseAddress } from "../host/address";
+import { mountChart, type ChartHandle } from "../charts/charts";
 import {
   filledLines,
   findFilledCells,
@@ -81,10 +81,10 @@ import {
   type PaneRanges,
 } from "./paneState";
 import { renderRangePicker, type RangePicker, type RangePickerSpec } from "./rangePickers";
-import { buildReport } from "./report";
+import { buildReport } from "../report/report";
 import { coefficientRows, coefficientTsv, copyText, renderCoefficientTable } from "./resultsTable";
 import { renderSettingsForm } from "./settingsForm";
-import type { SheetHost } from "./sheetHost";
+import type { SheetHost } from "../host/sheetHost";
 
 export interface PaneOptions {
   /** Ranges to start with when the workbook has none saved (the demo workbook's). */
@@ -829,12 +829,31 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
     query.addEventListener?.("change", onTheme);
     cleanups.push(() => query.removeEventListener?.("change", onTheme));
   }
-  if (typeof ResizeObserver !== "undefined") {
-    const observer = new ResizeObserver(() => {
+  if (typeof ResizeObserver !== "undefined" && typeof requestAnimationFrame === "function") {
+    // A chart's height follows its width (suggestedHeight), so resizing the charts inside the
+    // observer's callback changes chartArea's size again before the browser has delivered the
+    // first change: Chromium then reports "ResizeObserver loop completed with undelivered
+    // notifications" as a window error (the dev server's overlay shows it). So the callback only
+    // asks for one redraw in the next animation frame (notifications until then share it), and
+    // the redraw skips when the width is the one last drawn: the height change the redraw itself
+    // causes notifies the observer once more, and that notification must not redraw again.
+    let frame = 0;
+    let drawnWidth = -1;
+    const resizeCharts = (): void => {
+      frame = 0;
+      const width = chartArea.clientWidth;
+      if (width === drawnWidth) return;
+      drawnWidth = width;
       for (const chart of CHARTS) charts[chart.kind]?.handle?.resize();
+    };
+    const observer = new ResizeObserver(() => {
+      if (frame === 0) frame = requestAnimationFrame(resizeCharts);
     });
     observer.observe(chartArea);
-    cleanups.push(() => observer.disconnect());
+    cleanups.push(() => {
+      observer.disconnect();
+      if (frame !== 0) cancelAnimationFrame(frame);
+    });
   }
 
   form.load();

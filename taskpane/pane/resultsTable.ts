@@ -5,8 +5,8 @@
  * to zero are kept, muted, at the end. "Copy" puts the table on the clipboard as tab-separated
  * text (full precision), ready to paste into a sheet.
  */
-import type { FitResult } from "../engine/fit";
-import { INTERCEPT_LABEL } from "../engine/words";
+import type { FitResult } from "../../engine/fit";
+import { INTERCEPT_LABEL } from "../../engine/words";
 import { formatNumber } from "./paneState";
 
 export interface CoefficientRow {

@@ -2,8 +2,8 @@
  * The coefficient table's order and its tab-separated copy: intercept first, then terms by
  * standardized size (largest effect first), zeros last and flagged; full precision in the copy.
  */
-import type { FitResult } from "../../engine/fit";
-import { coefficientRows, coefficientTsv } from "../../taskpane/resultsTable";
+import type { FitResult } from "../../../engine/fit";
+import { coefficientRows, coefficientTsv } from "../../../taskpane/pane/resultsTable";
 
 const result = {
   terms: ["size", "temp", "origin: Highland", "humidity"],

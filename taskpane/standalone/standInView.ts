@@ -16,8 +16,8 @@
  * a text description and a legend list. Colours follow the host's theme (light or dark) with
  * text contrast of at least 4.5:1.
  */
-import { cellName, columnLetters, formatAddress, MAX_COLUMNS, MAX_ROWS, parseAddress, RangeAddress, rangeOf } from "./address";
-import { mountSeriesChart } from "./charts";
+import { cellName, columnLetters, formatAddress, MAX_COLUMNS, MAX_ROWS, parseAddress, RangeAddress, rangeOf } from "../host/address";
+import { mountSeriesChart } from "../charts/charts";
 import type { StandInCell, StandInChart, StandInSheet, StandInSheetHost } from "./standInSheetHost";
 
 /** Grid size drawn: at least this, and a margin past the used cells and the selection. */

@@ -1,14 +1,14 @@
 /**
- * What the stand-in view shows in a cell (taskpane/standInView.ts, the parts without a DOM; the
+ * What the stand-in view shows in a cell (taskpane/standalone/standInView.ts, the parts without a DOM; the
  * grid itself is exercised in a browser). Expected texts follow spreadsheet display conventions
  * (common practice: "0.00" fixed decimals, "0.000E+00" scientific with a two-digit exponent,
  * TRUE/FALSE in capitals, General showing integers whole).
  */
-import { displayValue, formatNumber, generalNumber } from "../../taskpane/standInView";
+import { displayValue, formatNumber, generalNumber } from "../../../taskpane/standalone/standInView";
 
 // The view draws report charts with echarts, whose ES modules jest (CommonJS) cannot load; the
-// parts tested here draw nothing, and the charts are exercised in test/taskpane/charts.test.ts.
-jest.mock("../../taskpane/charts", () => ({ mountSeriesChart: jest.fn() }));
+// parts tested here draw nothing, and the charts are exercised in test/taskpane/charts/charts.test.ts.
+jest.mock("../../../taskpane/charts/charts", () => ({ mountSeriesChart: jest.fn() }));
 
 test("General: integers whole, others to 8 significant digits, E notation when very small or large", () => {
   expect(generalNumber(116)).toBe("116");

@@ -1,18 +1,18 @@
 /**
- * The report sheet (taskpane/report.ts) built from a real fit on the demo data: every block's
+ * The report sheet (taskpane/report/report.ts) built from a real fit on the demo data: every block's
  * content against the engine's result, the demo data themselves, or a hand computation.
  *
  * Sources: "engine result" (the FitResult the report is built from), "demo data"
  * (addin/demo/roasteryData.ts, README), "common practice" (arithmetic mean; sample SD with n − 1).
  */
-import type { FitResult } from "../../engine/fit";
-import { prepare } from "../../functions/api";
-import type { Dataset } from "../../functions/dataset";
-import { InProcessRunner } from "../../functions/inProcessRunner";
-import { roasteryColumns, roasteryRows, roasteryTruth } from "../../addin/demo/roasteryData";
-import { parseAddress, rangeSize } from "../../taskpane/address";
-import { blockArea, buildReport, CAUTION, meanAndSd, REPORT_TITLE } from "../../taskpane/report";
-import type { CellValue, ReportBlock, ReportSheet } from "../../taskpane/sheetHost";
+import type { FitResult } from "../../../engine/fit";
+import { prepare } from "../../../functions/api";
+import type { Dataset } from "../../../functions/dataset";
+import { InProcessRunner } from "../../../functions/inProcessRunner";
+import { roasteryColumns, roasteryRows, roasteryTruth } from "../../../addin/demo/roasteryData";
+import { parseAddress, rangeSize } from "../../../taskpane/host/address";
+import { blockArea, buildReport, CAUTION, meanAndSd, REPORT_TITLE } from "../../../taskpane/report/report";
+import type { CellValue, ReportBlock, ReportSheet } from "../../../taskpane/host/sheetHost";
 
 const SETTINGS_TEXT = "folds=5; seed=3; grid size=40";
 

@@ -15,12 +15,12 @@
  * opened. DOM work is confined to `renderPreview`; the examples and the number formatting are plain
  * functions, so tests can run them without a browser.
  */
-import * as api from "../functions/api";
-import type { Spill, SpillCell } from "../functions/api";
-import { isCellError } from "../functions/errors";
-import type { FitProgress, FitRunner } from "../functions/runner";
-import { roasteryColumns, roasteryNewRows, roasteryNewRowsExpected, roasteryRows } from "../addin/demo/roasteryData";
-import type { FunctionHelp } from "./taskpane";
+import * as api from "../../functions/api";
+import type { Spill, SpillCell } from "../../functions/api";
+import { isCellError } from "../../functions/errors";
+import type { FitProgress, FitRunner } from "../../functions/runner";
+import { roasteryColumns, roasteryNewRows, roasteryNewRowsExpected, roasteryRows } from "../../addin/demo/roasteryData";
+import type { FunctionHelp } from "../functionHelp";
 
 /** The worksheet ranges the examples use, as Excel would pass them (rows of cells; blanks null). */
 export interface DemoSheet {

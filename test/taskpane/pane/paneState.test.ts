@@ -3,8 +3,8 @@
  * check them (messages word for word from functions/settings.ts), the settings and mixes text
  * the formulas carry, and restoring saved inputs.
  */
-import type { FitResult } from "../../engine/fit";
-import { parseSettings } from "../../functions/settings";
+import type { FitResult } from "../../../engine/fit";
+import { parseSettings } from "../../../functions/settings";
 import {
   checkSettings,
   columnNames,
@@ -23,7 +23,7 @@ import {
   settingProblem,
   settingsText,
   shownOutcome,
-} from "../../taskpane/paneState";
+} from "../../../taskpane/pane/paneState";
 
 function fakeOutcome(label = "a"): FitOutcome {
   const result = {

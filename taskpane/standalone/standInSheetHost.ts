@@ -33,11 +33,11 @@
  * SheetHost contract) fires on edits (setCell, setCells, writeFormulas) to watched cells, not on
  * recalculated results, as Excel's worksheet change event does.
  */
-import * as api from "../functions/api";
-import type { Spill } from "../functions/api";
-import { sharedRunner } from "../functions/functions";
-import type { FitRunner } from "../functions/runner";
-import { roasteryColumns, roasteryNewRows, roasteryRows } from "../addin/demo/roasteryData";
+import * as api from "../../functions/api";
+import type { Spill } from "../../functions/api";
+import { sharedRunner } from "../../functions/functions";
+import type { FitRunner } from "../../functions/runner";
+import { roasteryColumns, roasteryNewRows, roasteryRows } from "../../addin/demo/roasteryData";
 import {
   CellPosition,
   cellName,
@@ -51,10 +51,10 @@ import {
   rangeSize,
   sameSheetName,
   spillArea,
-} from "./address";
-import { blockArea, blockRows } from "./report";
-import type { CellValue, ReportSheet, SheetHost } from "./sheetHost";
-import { SheetHostError } from "./sheetHost";
+} from "../host/address";
+import { blockArea, blockRows } from "../report/report";
+import type { CellValue, ReportSheet, SheetHost } from "../host/sheetHost";
+import { SheetHostError } from "../host/sheetHost";
 
 // ---------------------------------------------------------------------------------------------
 // The workbook

@@ -15,11 +15,11 @@
  *
  * Numbers are written at full precision; number formats only change how they look.
  */
-import type { FitResult } from "../engine/fit";
-import { INTERCEPT_LABEL, MIX_LABEL, RULE_WORDS } from "../engine/words";
-import type { Dataset } from "../functions/dataset";
-import { cellName, parseAddress, RangeAddress, spillArea } from "./address";
-import type { CellValue, ReportBlock, ReportChart, ReportSheet } from "./sheetHost";
+import type { FitResult } from "../../engine/fit";
+import { INTERCEPT_LABEL, MIX_LABEL, RULE_WORDS } from "../../engine/words";
+import type { Dataset } from "../../functions/dataset";
+import { cellName, parseAddress, RangeAddress, spillArea } from "../host/address";
+import type { CellValue, ReportBlock, ReportChart, ReportSheet } from "../host/sheetHost";
 
 export interface ReportInput {
   result: FitResult;

@@ -24,7 +24,7 @@
  *   (Non-category axes stack by data index; both series share the mix's strengths, in order.)
  * - Colours: two palettes of our own (light and dark Office themes). Text ≥ 4.5:1 against the
  *   background, lines ≥ 3:1; the six line hues stay apart under simulated protan, deutan and
- *   tritan colour vision (checked in test/taskpane/charts.test.ts). Past six terms the hues
+ *   tritan colour vision (checked in test/taskpane/charts/charts.test.ts). Past six terms the hues
  *   repeat with dashed, then dotted lines; the largest terms get the solid lines.
  * - Text: 11 px below 400 px wide, 12 px above; names truncated with "…" (tooltips show them
  *   whole, HTML-escaped: names come from the sheet). Below 400 px the path chart drops its
@@ -48,7 +48,7 @@
  * (constant columns included) are drawn as flat lines at 0.
  *
  * In jest (CommonJS) the echarts/* subpath modules, which are ES modules, need mapping: see
- * test/taskpane/charts.test.ts for a jest.mock set-up, or mock this module.
+ * test/taskpane/charts/charts.test.ts for a jest.mock set-up, or mock this module.
  */
 import * as echarts from "echarts/core";
 import { BarChart, LineChart } from "echarts/charts";
@@ -72,7 +72,7 @@ import type {
 import { LabelLayout } from "echarts/features";
 import { CanvasRenderer, SVGRenderer } from "echarts/renderers";
 import type { ComposeOption } from "echarts/core";
-import type { FitResult } from "../engine/fit";
+import type { FitResult } from "../../engine/fit";
 
 echarts.use([
   LineChart,

@@ -1,0 +1,26 @@
+/**
+ * The SHRINK cell functions as the page describes them: the guide at the foot of the pane
+ * (taskpane.ts, `#help`) and the standalone preview's "What the cells return"
+ * (standalone/preview.ts) both read this list. Its own module so that neither of those two
+ * imports the other.
+ */
+/** One SHRINK function as the pane describes it. */
+export interface FunctionHelp {
+  /** Function id as registered (COEFS, …); users type SHRINK.<id>. */
+  id: string;
+  /** Arguments as typed, optional ones in brackets. */
+  signature: string;
+  /** What it returns, in one line. */
+  summary: string;
+}
+
+export const FUNCTION_HELP: readonly FunctionHelp[] = [
+  { id: "COEFS", signature: "target, predictors, [mixes], [settings]", summary: "the chosen model's coefficients, intercept first, one row per term." },
+  { id: "CHOICE", signature: "target, predictors, [mixes], [settings]", summary: "how the model was chosen: strength, mix, cross-validated error ± SE, rule (lowest error or one-SE rule), terms kept, rows used and skipped." },
+  { id: "PREDICT", signature: "target, predictors, new_rows, [mixes], [settings]", summary: "fits the same model and predicts one value per row of new_rows." },
+  { id: "APPLY", signature: "coefficient_table, new_rows", summary: "predictions from a coefficient table (e.g. a COEFS result), without fitting again." },
+  { id: "PATH", signature: "target, predictors, [mix], [settings]", summary: "every coefficient at every penalty strength of one mix, strongest first." },
+  { id: "CVCURVE", signature: "target, predictors, [mixes], [settings]", summary: "cross-validated error, its SE and the terms kept for every mix and strength tried." },
+  { id: "SCORE", signature: "actual, predicted", summary: "accuracy of predictions: MAE, RMSE, R², mean error, pairs used and skipped." },
+  { id: "BASELINE", signature: "target, predictors", summary: "plain least squares (no penalty) with standard errors, to compare with." },
+];
