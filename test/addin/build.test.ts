@@ -26,17 +26,18 @@ const makeConfig = require("../../addin/webpack.config.js") as (env: object, arg
 const CHROMIUM = "/usr/bin/chromium";
 let out: string;
 let stats: webpack.StatsCompilation;
+let buildStarted = 0;
 let buildSeconds = 0;
 
 beforeAll(async () => {
   out = mkdtempSync(join(tmpdir(), "shrinkwise-build-"));
   const config = makeConfig({}, { mode: "production" });
   config.output = { ...config.output, path: out };
-  const started = Date.now();
+  buildStarted = Date.now();
   const result = await new Promise<webpack.Stats>((resolve, reject) => {
     webpack(config, (error, s) => (error || !s ? reject(error ?? new Error("no stats")) : resolve(s)));
   });
-  buildSeconds = (Date.now() - started) / 1000;
+  buildSeconds = (Date.now() - buildStarted) / 1000;
   stats = result.toJson({ all: false, errors: true, warnings: true, assets: true, cachedAssets: true });
 }, 180_000);
 
@@ -100,6 +101,13 @@ test("no eval: source maps are separate files and the bundles hold no eval calls
   expect(file("functions.js")).not.toMatch(/associate\("COEFS"/);
   // The worker bundle holds its bootstrap.
   expect(file("fit.worker.js")).toMatch(/WorkerGlobalScope/);
+});
+
+test("ends with build-stamp.json holding when the build started (npm test's pretest reads it)", () => {
+  const stamp = JSON.parse(file("build-stamp.json")) as { startedAt: number };
+  // Between this test's call to webpack and the end of the build.
+  expect(stamp.startedAt).toBeGreaterThanOrEqual(buildStarted);
+  expect(stamp.startedAt).toBeLessThanOrEqual(buildStarted + buildSeconds * 1000);
 });
 
 function signalGroup(pid: number, signal: NodeJS.Signals): void {
