@@ -17,6 +17,8 @@
  *     office-js/             office.js loader + Excel host files + locale strings, copied from
  *                            @microsoft/office-js (served locally: these machines are offline)
  *     *.map                  source maps (no eval: the add-in's page may run under a strict CSP)
+ *     build-stamp.json       production builds only: when the build started (read by
+ *                            addin/ensure-build.js, npm test's pretest)
  *
  * `npm run build:addin` = `webpack --config addin/webpack.config.js --mode production`.
  * `webpack serve --config addin/webpack.config.js` serves https://localhost:3000 with the
@@ -90,6 +92,31 @@ class FunctionsMetadataFinish {
         }
         const text = postProcessMetadata(asset.source.source().toString());
         compilation.updateAsset("functions.json", new webpack.sources.RawSource(text));
+      });
+    });
+  }
+}
+
+/**
+ * Ends a production build with build-stamp.json: the time this build started. addin/ensure-build.js
+ * (npm test's pretest) compares it with the sources' modification times to decide whether dist/
+ * is fresh or must be built again. Emitted as an asset, so it is written only with a complete
+ * build (a production build with errors emits nothing).
+ */
+class BuildStamp {
+  apply(compiler) {
+    const name = "BuildStamp";
+    let startedAt = Date.now();
+    const start = (_compiler, done) => {
+      startedAt = Date.now();
+      done();
+    };
+    compiler.hooks.run.tapAsync(name, start);
+    compiler.hooks.watchRun.tapAsync(name, start);
+    compiler.hooks.thisCompilation.tap(name, (compilation) => {
+      compilation.hooks.processAssets.tap({ name, stage: webpack.Compilation.PROCESS_ASSETS_STAGE_REPORT }, () => {
+        const text = JSON.stringify({ startedAt, startedAtIso: new Date(startedAt).toISOString(), writtenBy: "addin/webpack.config.js" }, null, 2);
+        compilation.emitAsset("build-stamp.json", new webpack.sources.RawSource(text));
       });
     });
   }
@@ -192,6 +219,7 @@ module.exports = (_env = {}, argv = {}) => {
       maxEntrypointSize: 800 * 1024,
     },
     plugins: [
+      ...(production ? [new BuildStamp()] : []),
       new CustomFunctionsMetadataPlugin({ input: FUNCTIONS_SOURCE, output: "functions.json" }),
       new FunctionsMetadataFinish(),
       new HtmlWebpackPlugin({

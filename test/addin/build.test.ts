@@ -5,10 +5,10 @@
  * locale strings marked as already minimized, the manifest and icons, no eval.
  * Takes about 15 s here, so it runs with the other tests.
  *
- * Where Chromium is installed (/usr/bin/chromium; CI installs it), the built functions bundle
- * is also run in a real browser page: SHRINK.COEFS must fit in the real Web Worker
- * (fit.worker.js) and return exactly what the in-process engine returns (determinism: same
- * request, same result).
+ * Where Chromium is installed (/usr/bin/chromium; CI installs it and requires this check), the
+ * built functions bundle is also run in a real browser page: SHRINK.COEFS must fit in the real
+ * Web Worker (fit.worker.js) and return exactly what the in-process engine returns
+ * (determinism: same request, same result).
  */
 import { ChildProcess, spawn } from "child_process";
 import { existsSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from "fs";
@@ -19,24 +19,25 @@ import { extname, join, normalize } from "path";
 import webpack from "webpack";
 import * as api from "../../functions/api";
 import { InProcessRunner } from "../../functions/inProcessRunner";
+import { CHROMIUM, chromiumNeed, suiteGate } from "../helpers/requirements";
 
 // eslint-disable-next-line @typescript-eslint/no-require-imports
 const makeConfig = require("../../addin/webpack.config.js") as (env: object, argv: { mode: string }) => webpack.Configuration;
 
-const CHROMIUM = "/usr/bin/chromium";
 let out: string;
 let stats: webpack.StatsCompilation;
+let buildStarted = 0;
 let buildSeconds = 0;
 
 beforeAll(async () => {
   out = mkdtempSync(join(tmpdir(), "shrinkwise-build-"));
   const config = makeConfig({}, { mode: "production" });
   config.output = { ...config.output, path: out };
-  const started = Date.now();
+  buildStarted = Date.now();
   const result = await new Promise<webpack.Stats>((resolve, reject) => {
     webpack(config, (error, s) => (error || !s ? reject(error ?? new Error("no stats")) : resolve(s)));
   });
-  buildSeconds = (Date.now() - started) / 1000;
+  buildSeconds = (Date.now() - buildStarted) / 1000;
   stats = result.toJson({ all: false, errors: true, warnings: true, assets: true, cachedAssets: true });
 }, 180_000);
 
@@ -102,6 +103,13 @@ test("no eval: source maps are separate files and the bundles hold no eval calls
   expect(file("fit.worker.js")).toMatch(/WorkerGlobalScope/);
 });
 
+test("ends with build-stamp.json holding when the build started (npm test's pretest reads it)", () => {
+  const stamp = JSON.parse(file("build-stamp.json")) as { startedAt: number };
+  // Between this test's call to webpack and the end of the build.
+  expect(stamp.startedAt).toBeGreaterThanOrEqual(buildStarted);
+  expect(stamp.startedAt).toBeLessThanOrEqual(buildStarted + buildSeconds * 1000);
+});
+
 function signalGroup(pid: number, signal: NodeJS.Signals): void {
   try {
     process.kill(-pid, signal);
@@ -112,7 +120,7 @@ function signalGroup(pid: number, signal: NodeJS.Signals): void {
 
 const TYPES: Record<string, string> = { ".html": "text/html", ".js": "text/javascript", ".json": "application/json" };
 
-(existsSync(CHROMIUM) ? test : test.skip)(
+suiteGate("the built bundle in Chromium (test/addin/build.test.ts)", [chromiumNeed()]).test(
   "in Chromium, SHRINK.COEFS fits in the Web Worker and matches the in-process result",
   async () => {
     const target: number[][] = [];

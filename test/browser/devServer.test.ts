@@ -11,19 +11,19 @@
  *   changes the transport; the client script and its overlay settings are the same for both, and
  *   a free port keeps the test clear of a developer's running `npm start`.
  * - `--host 127.0.0.1` and `--port <free>` on the command line, which override the config's.
- * The first compile takes about 20 s, hence the long timeouts. Skips without /usr/bin/chromium.
+ * The first compile takes about 20 s, hence the long timeouts. Gated on Chromium like the other browser suites.
  */
 import { ChildProcess, spawn } from "child_process";
-import { existsSync } from "fs";
 import { get } from "http";
 import { createServer } from "net";
 import { join } from "path";
 import type { Browser, Page } from "playwright-core";
-import { CHROMIUM, launchBrowser, ROOT } from "./harness";
+import { chromiumNeed, suiteGate } from "../helpers/requirements";
+import { launchBrowser, ROOT } from "./harness";
 
-const available = existsSync(CHROMIUM);
-const suite = available ? describe : describe.skip;
-if (!available) console.warn(`dev-server browser test skipped: ${CHROMIUM} is missing (apt-get install -y chromium)`);
+// Needs Chromium only (the dev server compiles the sources itself): skips with a one-line fix,
+// or fails under SHRINKWISE_REQUIRE_ALL=1 (CI).
+const suite = suiteGate("the preview under the dev server in Chromium (test/browser/devServer.test.ts)", [chromiumNeed()]).describe;
 
 /** The id of the iframe webpack-dev-server's client puts over the page to show errors. */
 const OVERLAY = "webpack-dev-server-client-overlay";

@@ -7,24 +7,31 @@
  *   needs (no sandbox as root, no background networking: the machine has no network).
  * - `scanAccessibility(page)`: injects axe-core and returns the serious and critical violations.
  * - `saveScreenshot(page, name)`: PNG into test-artifacts/ (ignored by git).
- * `browserAvailable()` is false when Chromium or dist/ is missing; suites then skip with a message
- * (CI installs Chromium and builds first, so there they always run).
+ * `browserGate(suite)`: the suites' gate (test/helpers/requirements.ts). Without Chromium or dist/
+ * they skip with one line saying how to fix it, or fail under SHRINKWISE_REQUIRE_ALL=1 (CI). A
+ * dist/ older than the sources gets a one-line warning: `npm test` rebuilds it, `npx jest` doesn't.
  */
 import { createReadStream, existsSync, mkdirSync, statSync } from "fs";
 import { createServer, Server } from "http";
 import { AddressInfo } from "net";
-import { extname, join, normalize, resolve } from "path";
+import { extname, join, normalize } from "path";
 import { chromium, Browser, Page } from "playwright-core";
+import { CHROMIUM, chromiumNeed, DIST, distNeed, ROOT, suiteGate, SuiteGate } from "../helpers/requirements";
 
-export const ROOT = resolve(__dirname, "..", "..");
-export const DIST = join(ROOT, "dist");
+export { CHROMIUM, DIST, ROOT };
 export const ARTIFACTS = join(ROOT, "test-artifacts");
-export const CHROMIUM = "/usr/bin/chromium";
 
-export function browserAvailable(): { ok: boolean; reason: string } {
-  if (!existsSync(CHROMIUM)) return { ok: false, reason: `${CHROMIUM} is missing (apt-get install -y chromium)` };
-  if (!existsSync(join(DIST, "taskpane.html"))) return { ok: false, reason: "dist/taskpane.html is missing (run npm run build first)" };
-  return { ok: true, reason: "" };
+// eslint-disable-next-line @typescript-eslint/no-require-imports
+const { buildState } = require("../../addin/ensure-build.js") as { buildState(root?: string): { fresh: boolean; reason: string } };
+
+/** The gate for a browser suite: needs Chromium and the built dist/. */
+export function browserGate(suite: string): SuiteGate {
+  const gate = suiteGate(suite, [chromiumNeed(), distNeed()]);
+  if (gate.gate.kind === "run") {
+    const state = buildState(ROOT);
+    if (!state.fresh) process.stderr.write(`${suite} tests an old dist/: ${state.reason}. Fix: npm run build (npm test does it first)\n`);
+  }
+  return gate;
 }
 
 const TYPES: Record<string, string> = {

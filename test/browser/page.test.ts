@@ -4,11 +4,9 @@
  * pass an automated accessibility scan with no serious or critical violation (axe-core).
  */
 import type { Browser, Page } from "playwright-core";
-import { browserAvailable, launchBrowser, saveScreenshot, scanAccessibility, startServer, StaticServer } from "./harness";
+import { browserGate, launchBrowser, saveScreenshot, scanAccessibility, startServer, StaticServer } from "./harness";
 
-const available = browserAvailable();
-const suite = available.ok ? describe : describe.skip;
-if (!available.ok) console.warn(`browser tests skipped: ${available.reason}`);
+const suite = browserGate("the standalone page in Chromium (test/browser/page.test.ts)").describe;
 
 suite("standalone page in Chromium", () => {
   let server: StaticServer;

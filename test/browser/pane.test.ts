@@ -9,11 +9,9 @@ import type { Browser, Page } from "playwright-core";
 import { prepare } from "../../functions/api";
 import { InProcessRunner } from "../../functions/inProcessRunner";
 import { roasteryColumns, roasteryRows } from "../../addin/demo/roasteryData";
-import { browserAvailable, launchBrowser, saveScreenshot, scanAccessibility, startServer, StaticServer } from "./harness";
+import { browserGate, launchBrowser, saveScreenshot, scanAccessibility, startServer, StaticServer } from "./harness";
 
-const available = browserAvailable();
-const suite = available.ok ? describe : describe.skip;
-if (!available.ok) console.warn(`browser tests skipped: ${available.reason}`);
+const suite = browserGate("the side pane in Chromium (test/browser/pane.test.ts)").describe;
 
 const SHEET = "'Roast log'";
 

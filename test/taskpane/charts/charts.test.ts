@@ -29,7 +29,7 @@ jest.mock("echarts/features", () => ({ LabelLayout: () => undefined }));
 jest.mock("echarts/renderers", () => ({ SVGRenderer: () => undefined, CanvasRenderer: () => undefined }));
 
 import { spawnSync } from "child_process";
-import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from "fs";
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from "fs";
 import { tmpdir } from "os";
 import { join, resolve } from "path";
 import webpack from "webpack";
@@ -56,9 +56,9 @@ import {
   type ChartTheme,
   type Palette,
 } from "../../../taskpane/charts/charts";
+import { CHROMIUM, chromiumNeed, suiteGate } from "../../helpers/requirements";
 
 const ROOT = resolve(__dirname, "..", "..", "..");
-const CHROMIUM = "/usr/bin/chromium";
 const THEMES: ChartTheme[] = ["light", "dark"];
 const KINDS: ChartKind[] = ["path", "cv", "bars"];
 const NAMES = [
@@ -635,7 +635,7 @@ describe("SVG rendering (echarts server-side rendering)", () => {
 // ------------------------------------------------------------------------------------------
 // DOM half in Chromium, from a production webpack bundle
 
-(existsSync(CHROMIUM) ? describe : describe.skip)("mountChart in Chromium (webpack production bundle)", () => {
+suiteGate("mountChart in Chromium (test/taskpane/charts.test.ts)", [chromiumNeed()]).describe("mountChart in Chromium (webpack production bundle)", () => {
   let out = "";
   let bundle = "";
 
