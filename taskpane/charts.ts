@@ -22,10 +22,15 @@
  * - Error band: echarts' native stacking. Per mix, an invisible line at mean − SE and a
  *   second, stacked series of height 2·SE whose area is filled: the fill spans mean ± SE.
  *   (Non-category axes stack by data index; both series share the mix's strengths, in order.)
- * - Colours: two palettes of our own (light and dark Office themes). Text ≥ 4.5:1 against the
- *   background, lines ≥ 3:1; the six line hues stay apart under simulated protan, deutan and
- *   tritan colour vision (checked in test/taskpane/charts.test.ts). Past six terms the hues
- *   repeat with dashed, then dotted lines; the largest terms get the solid lines.
+ * - Colours: two palettes of our own (light and dark Office themes), the same six hues in the
+ *   same order in both. The first is the pane's teal accent. The other five were searched for
+ *   (widest smallest CIE L*a*b* difference to the rest, under typical and simulated colour
+ *   vision, hues ≥ 35° apart) and put in order on the light palette: each next one the farthest
+ *   from those before it, so the largest terms get the most distinct lines. Text and lines
+ *   ≥ 4.5:1 against the background, axes ≥ 3:1; every pair of line hues ≥ 20 ΔE*ab apart
+ *   under simulated protan, deutan and tritan colour vision (checked in
+ *   test/taskpane/charts.test.ts). Past six terms the hues repeat with dashed, then dotted
+ *   lines; the largest terms get the solid lines.
  * - Text: 11 px below 400 px wide, 12 px above; names truncated with "…" (tooltips show them
  *   whole, HTML-escaped: names come from the sheet). Below 400 px the path chart drops its
  *   legend (the largest terms are labelled at the line ends) and the λ axis name takes 2 lines.
@@ -148,7 +153,7 @@ export interface Palette {
   axis: string;
   /** Decorative grid lines. */
   gridLine: string;
-  /** Line hues in order of use: ≥ 3:1 each, apart under colour-vision simulation. */
+  /** Line hues in order of use, the pane's accent first: ≥ 4.5:1 each, apart under colour-vision simulation. */
   lines: readonly string[];
   /** Bars: positive and negative coefficients (sign is also in the label and direction). */
   positive: string;
@@ -162,9 +167,10 @@ export const PALETTES: Readonly<Record<ChartTheme, Palette>> = {
     muted: "#595959",
     axis: "#767676",
     gridLine: "#e3e3e3",
-    lines: ["#1a4f96", "#d0600a", "#2a8a4a", "#a070e0", "#6b2c1a", "#c4508a"],
-    positive: "#1a4f96",
-    negative: "#d0600a",
+    // teal (the pane's accent, --accent in taskpane.html), violet, olive, raspberry, azure, copper
+    lines: ["#145a52", "#8020d8", "#807810", "#d03880", "#0878c8", "#885030"],
+    positive: "#145a52",
+    negative: "#885030",
   },
   dark: {
     background: "#1f1f1f",
@@ -172,9 +178,10 @@ export const PALETTES: Readonly<Record<ChartTheme, Palette>> = {
     muted: "#b5b5b5",
     axis: "#8f8f8f",
     gridLine: "#3a3a3a",
-    lines: ["#5aa9ff", "#ff9a3c", "#5fd88a", "#e0c8ff", "#b08050", "#ff6f9f"],
-    positive: "#5aa9ff",
-    negative: "#ff9a3c",
+    // The same six hues, lighter: mint teal (the dark theme's --accent), violet, citron, rose, periwinkle, apricot
+    lines: ["#7fd8c8", "#d058f8", "#d8c808", "#f85080", "#98a8e0", "#e08840"],
+    positive: "#7fd8c8",
+    negative: "#e08840",
   },
 };
 

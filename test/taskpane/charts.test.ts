@@ -453,29 +453,35 @@ describe("palettes", () => {
     expect(Math.abs(contrast("#767676", "#ffffff") - 4.54)).toBeLessThan(0.01);
   });
 
-  test.each(THEMES)("%s: text ≥ 4.5:1 and graphics ≥ 3:1 against the background (WCAG 2.x, common practice)", (theme) => {
+  test.each(THEMES)("%s: text, lines and bars ≥ 4.5:1, axes ≥ 3:1 against the background (WCAG 2.x, common practice)", (theme) => {
     const p = PALETTES[theme];
-    for (const [what, colour] of [
-      ["text", p.text],
-      ["muted", p.muted],
-    ]) {
+    // Lines and bars are held to the text level (4.5:1), above WCAG's 3:1 for graphics.
+    for (const [what, colour] of [["text", p.text], ["muted", p.muted], ["positive", p.positive], ["negative", p.negative], ...p.lines.map((c, k) => [`line ${k}`, c])]) {
       expect([what, contrast(colour, p.background) >= 4.5]).toEqual([what, true]);
     }
-    for (const [what, colour] of [["axis", p.axis], ["positive", p.positive], ["negative", p.negative], ...p.lines.map((c, k) => [`line ${k}`, c])]) {
-      expect([what, contrast(colour, p.background) >= 3]).toEqual([what, true]);
-    }
+    expect(["axis", contrast(p.axis, p.background) >= 3]).toEqual(["axis", true]);
   });
 
-  test.each(THEMES)("%s: the six line hues stay apart (ΔE*ab ≥ 15) under simulated protan, deutan and tritan vision", (theme) => {
-    const lines = PALETTES[theme].lines;
+  test.each(THEMES)("%s: the first line hue and the positive bars are the pane's own accent (taskpane.html --accent)", (theme) => {
+    const html = readFileSync(join(ROOT, "taskpane", "taskpane.html"), "utf8");
+    const block = theme === "light" ? /:root\s*\{([^}]*)\}/.exec(html) : /:root\[data-theme="dark"\]\s*\{([^}]*)\}/.exec(html);
+    const accent = /--accent:\s*(#[0-9a-f]{6})/i.exec(block?.[1] ?? "")?.[1];
+    expect(accent).toBeDefined();
+    expect(PALETTES[theme].lines[0]).toBe(accent);
+    expect(PALETTES[theme].positive).toBe(accent);
+  });
+
+  test.each(THEMES)("%s: the six line hues, and the two bar colours, stay apart (ΔE*ab ≥ 20) under typical and simulated protan, deutan and tritan vision", (theme) => {
+    const { lines, positive, negative } = PALETTES[theme];
     expect(lines).toHaveLength(6);
+    expect(new Set(lines).size).toBe(6);
+    const pairs: [string, string][] = [[positive, negative]];
+    for (let a = 0; a < lines.length; a++) for (let b = a + 1; b < lines.length; b++) pairs.push([lines[a], lines[b]]);
     for (const [vision, matrix] of Object.entries(SIMULATIONS)) {
-      for (let a = 0; a < lines.length; a++) {
-        for (let b = a + 1; b < lines.length; b++) {
-          const [p, q] = [simulatedLab(lines[a], matrix), simulatedLab(lines[b], matrix)];
-          const difference = Math.hypot(p[0] - q[0], p[1] - q[1], p[2] - q[2]);
-          expect([vision, lines[a], lines[b], difference >= 15]).toEqual([vision, lines[a], lines[b], true]);
-        }
+      for (const [a, b] of pairs) {
+        const [p, q] = [simulatedLab(a, matrix), simulatedLab(b, matrix)];
+        const difference = Math.hypot(p[0] - q[0], p[1] - q[1], p[2] - q[2]);
+        expect([vision, a, b, difference >= 20]).toEqual([vision, a, b, true]);
       }
     }
   });
