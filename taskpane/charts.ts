@@ -4,8 +4,10 @@
  *
  * Three charts:
  * - "path": every term's coefficient along the strengths tried for the chosen mix, in
- *   standardized units (coefficient × the term's population SD, so terms compare), with
- *   vertical markers at the lowest-error and one-SE strengths;
+ *   standardized units (coefficient × the term's population SD, so terms compare), with a
+ *   light band "within 1 SE" spanning the strengths from the one-SE rule's to the lowest
+ *   error's, and one solid line "chosen" at the strength the rule picked (no band when both
+ *   rules pick the same strength);
  * - "cv": cross-validated error (mean ± 1 SE as a shaded band) against strength, one line per
  *   mix, the lowest-error and one-SE points marked;
  * - "bars": the chosen model's standardized coefficients as horizontal bars, largest first.
@@ -61,6 +63,7 @@ import type { BarSeriesOption, LineSeriesOption } from "echarts/charts";
 import {
   GridComponent,
   LegendComponent,
+  MarkAreaComponent,
   MarkLineComponent,
   MarkPointComponent,
   TitleComponent,
@@ -69,6 +72,7 @@ import {
 import type {
   GridComponentOption,
   LegendComponentOption,
+  MarkAreaComponentOption,
   MarkLineComponentOption,
   MarkPointComponentOption,
   TitleComponentOption,
@@ -84,6 +88,7 @@ echarts.use([
   BarChart,
   GridComponent,
   LegendComponent,
+  MarkAreaComponent,
   MarkLineComponent,
   MarkPointComponent,
   TitleComponent,
@@ -102,6 +107,7 @@ export type ChartOption = ComposeOption<
   | BarSeriesOption
   | GridComponentOption
   | LegendComponentOption
+  | MarkAreaComponentOption
   | MarkLineComponentOption
   | MarkPointComponentOption
   | TitleComponentOption
@@ -153,6 +159,8 @@ export interface Palette {
   axis: string;
   /** Decorative grid lines. */
   gridLine: string;
+  /** Fill of the path chart's "within 1 SE" band, drawn at BAND_OPACITY over the grid. */
+  band: string;
   /** Line hues in order of use, the pane's accent first: ≥ 4.5:1 each, apart under colour-vision simulation. */
   lines: readonly string[];
   /** Bars: positive and negative coefficients (sign is also in the label and direction). */
@@ -167,6 +175,7 @@ export const PALETTES: Readonly<Record<ChartTheme, Palette>> = {
     muted: "#595959",
     axis: "#767676",
     gridLine: "#e3e3e3",
+    band: "#5c5c5c",
     // teal (the pane's accent, --accent in taskpane.html), violet, olive, raspberry, azure, copper
     lines: ["#145a52", "#8020d8", "#807810", "#d03880", "#0878c8", "#885030"],
     positive: "#145a52",
@@ -178,12 +187,16 @@ export const PALETTES: Readonly<Record<ChartTheme, Palette>> = {
     muted: "#b5b5b5",
     axis: "#8f8f8f",
     gridLine: "#3a3a3a",
+    band: "#c8c8c8",
     // The same six hues, lighter: mint teal (the dark theme's --accent), violet, citron, rose, periwinkle, apricot
     lines: ["#7fd8c8", "#d058f8", "#d8c808", "#f85080", "#98a8e0", "#e08840"],
     positive: "#7fd8c8",
     negative: "#e08840",
   },
 };
+
+/** Opacity of the "within 1 SE" band: light enough that the grid and every line show through. */
+export const BAND_OPACITY = 0.13;
 
 /** Line patterns cycled once the hues run out (rank k by size: hue k mod 6, pattern ⌊k/6⌋ mod 3). */
 export const LINE_PATTERNS: readonly ("solid" | "dashed" | "dotted")[] = ["solid", "dashed", "dotted"];
@@ -260,7 +273,7 @@ function measureName(result: FitResult): string {
 }
 
 function ruleText(result: FitResult): string {
-  if (result.rule === "min") return "lowest cross-validated error";
+  if (result.rule === "min") return "lowest error";
   if (result.rule === "onese") return "one-SE rule";
   return "fixed strength";
 }
@@ -471,31 +484,36 @@ function rankedTerms(result: FitResult, spreads?: ArrayLike<number | null> | nul
   return terms.sort((a, b) => Math.abs(b.chosen) - Math.abs(a.chosen) || a.index - b.index);
 }
 
-interface ChoiceMarker {
-  strength: number;
-  label: string;
-  chosen: boolean;
-  dashed: boolean;
+/**
+ * What the path chart marks: a band over the strengths within 1 SE (from the one-SE rule's
+ * strength to the lowest error's; both on the chosen mix, the path's), and one line at the
+ * strength the rule picked. A fixed-strength fit has only its line; least squares neither.
+ */
+export interface PathMarks {
+  /** [one-SE rule's strength, lowest error's strength], or null when they are the same (or no CV ran). */
+  band: [number, number] | null;
+  line: { strength: number; label: "chosen" | "fitted" } | null;
 }
 
-function choiceMarkers(result: FitResult): ChoiceMarker[] {
+export function pathMarks(result: FitResult): PathMarks {
   if (result.choices) {
     const { min, onese } = result.choices;
-    if (onese.strength === min.strength) return [{ strength: min.strength, label: "min = 1 SE", chosen: true, dashed: false }];
-    return [
-      { strength: min.strength, label: "min", chosen: result.rule === "min", dashed: result.rule !== "min" },
-      { strength: onese.strength, label: "1 SE", chosen: result.rule === "onese", dashed: result.rule !== "onese" },
-    ];
+    return {
+      band: onese.strength !== min.strength ? [onese.strength, min.strength] : null,
+      line: { strength: result.strength, label: "chosen" },
+    };
   }
-  return result.strength > 0 ? [{ strength: result.strength, label: "fitted", chosen: true, dashed: false }] : [];
+  return { band: null, line: result.strength > 0 ? { strength: result.strength, label: "fitted" } : null };
 }
 
-/** What the markers mean, for the note under the title. */
-function markerNote(result: FitResult): string {
-  if (result.choices) {
-    return `Markers: min = lowest cross-validated error, 1 SE = one-SE rule; solid = chosen (${result.rule === "onese" ? "1 SE" : "min"}).`;
-  }
-  return result.strength > 0 ? "Marker: the fixed strength fitted." : "";
+/** What the band and the line mean, for the note under the title. */
+function marksNote(result: FitResult): string {
+  const marks = pathMarks(result);
+  if (!marks.line) return "";
+  if (!result.choices) return "Line: the fixed strength fitted.";
+  const rule = ruleText(result);
+  if (!marks.band) return `Line: chosen (${rule}; both rules pick this λ).`;
+  return `Shaded: within 1 SE, from the one-SE rule's λ to the lowest error's. Line: chosen (${rule}).`;
 }
 
 type AxisParam = { seriesId?: string; seriesName?: string; value?: unknown; marker?: unknown; color?: unknown };
@@ -515,7 +533,7 @@ export function pathChartOptions(result: FitResult, settings: ChartSettings): Ch
     if (s > 0 && Number.isFinite(s)) keep.push(k);
   });
   const notes: string[] = [];
-  const markerText = keep.length > 0 ? markerNote(result) : "";
+  const markerText = keep.length > 0 ? marksNote(result) : "";
   if (markerText) notes.push(markerText);
   if (missing.length > 0) {
     notes.push(
@@ -557,40 +575,59 @@ export function pathChartOptions(result: FitResult, settings: ChartSettings): Ch
       labelLayout: { moveOverlap: "shiftY" },
     };
   });
-  const markers = choiceMarkers(result);
-  if (markers.length > 0 && keep.length > 0) {
+  const marks = keep.length > 0 ? pathMarks(result) : { band: null, line: null };
+  const labelFont = layout.font - 1;
+  if (marks.band) {
+    // Behind the term lines (z 1), full plot height; its label sits above the plot, one row
+    // higher than the line's label so the two never collide.
+    series.push({
+      type: "line",
+      id: "choice-band",
+      name: "within 1 SE",
+      data: [],
+      silent: true,
+      z: 1,
+      lineStyle: { opacity: 0 },
+      markArea: {
+        silent: true,
+        animation: false,
+        itemStyle: { color: palette.band, opacity: BAND_OPACITY, borderColor: palette.band, borderWidth: 0 },
+        label: { show: true, position: "top", distance: labelFont + 7, color: palette.muted, fontSize: labelFont },
+        data: [[{ xAxis: marks.band[0], name: "within 1 SE" }, { xAxis: marks.band[1] }]],
+      },
+    });
+  }
+  if (marks.line) {
     series.push({
       type: "line",
       id: "choices",
-      name: "choices",
+      name: marks.line.label,
       data: [],
       silent: true,
-      color: palette.muted,
+      color: palette.text,
       lineStyle: { opacity: 0 },
       markLine: {
         silent: true,
         symbol: ["none", "none"],
         animation: false,
-        data: markers.map((m) => ({
-          xAxis: m.strength,
-          name: m.label,
-          lineStyle: { color: m.chosen ? palette.text : palette.muted, type: m.dashed ? "dashed" : "solid", width: m.chosen ? 1.5 : 1 },
-          label: {
-            show: true,
-            formatter: m.label,
-            position: "end",
-            distance: 3,
-            color: palette.text,
-            fontSize: layout.font - 1,
-            fontWeight: m.chosen ? 600 : 400,
+        // echarts rounds a mark line's value to `precision` decimals (default 2) before placing
+        // it: 0.022 would be drawn at 0.02. A negative precision keeps the value as it is.
+        precision: -1,
+        data: [
+          {
+            xAxis: marks.line.strength,
+            name: marks.line.label,
+            lineStyle: { color: palette.text, type: "solid", width: 1.5 },
+            label: { show: true, formatter: marks.line.label, position: "end", distance: 3, color: palette.text, fontSize: labelFont, fontWeight: 600 },
           },
-        })),
+        ],
       },
     });
   }
   const legendShown = !layout.compact && drawn.length > 1;
-  // Marker labels sit above the plot.
-  const top = titleHeight(note, layout, settings.width) + (markers.length > 0 ? layout.font + 8 : 6);
+  // The line's label sits above the plot, the band's a row higher.
+  const labelRows = (marks.line ? 1 : 0) + (marks.band ? 1 : 0);
+  const top = titleHeight(note, layout, settings.width) + (labelRows > 0 ? labelRows * (labelFont + 7) + 2 : 6);
   const endLabelWidth = Math.max(0, ...drawn.filter((t) => labelled.has(t.index)).map((t) => textWidth(truncate(t.name, layout.nameChars), layout.font)));
   const title = result.choices || result.strength > 0 ? `Coefficient path, ${mixLabel(result.path.mix)}` : "Coefficient path";
   let yLow = 0;
@@ -725,6 +762,7 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
         silent: true,
         symbol: ["none", "none"],
         animation: false,
+        precision: -1, // place the line at the exact value (see the path chart's line)
         data: [
           {
             yAxis: min.error + min.se,
@@ -988,10 +1026,23 @@ export function describeChart(kind: ChartKind, result: FitResult, spreads?: Arra
     const missing = ranked.length - drawn.length;
     const nonzero = result.coefficients.filter((b) => b !== 0).length;
     const top = drawn.filter((t) => t.chosen !== 0).map((t) => ({ name: t.name, value: t.chosen }));
+    const marks = pathMarks(result);
+    let marked = "";
+    if (marks.band && result.choices) {
+      marked =
+        `A shaded band marks the strengths within 1 SE, from λ ${formatNumber(result.choices.onese.strength)} (one-SE rule) ` +
+        `to λ ${formatNumber(result.choices.min.strength)} (lowest error). `;
+    }
+    if (marks.line) {
+      const why = !result.choices ? "the fixed strength" : marks.band ? ruleText(result) : "both rules pick it";
+      marked += `A solid line marks the ${marks.line.label} λ ${formatNumber(marks.line.strength)} (${why}), with ${nonzero} terms kept`;
+    } else {
+      marked += `At λ ${formatNumber(result.strength)}, ${nonzero} terms kept`;
+    }
     return (
       `Coefficient path for ${mixLabel(result.path.mix)}: ${drawn.length} of ${result.terms.length} terms, ` +
       `λ from ${formatNumber(Math.max(...strengths))} down to ${formatNumber(Math.min(...strengths))} (log scale). ` +
-      `At the chosen λ ${formatNumber(result.strength)} (${ruleText(result)}) ${nonzero} terms are nonzero` +
+      marked +
       (top.length ? `; largest per SD: ${largest(top)}.` : ".") +
       (missing ? ` ${missing} terms not drawn (their SD is unknown).` : "")
     );

@@ -20,6 +20,7 @@ jest.mock("echarts/charts", () => ({ LineChart: () => undefined, BarChart: () =>
 jest.mock("echarts/components", () => ({
   GridComponent: () => undefined,
   LegendComponent: () => undefined,
+  MarkAreaComponent: () => undefined,
   MarkLineComponent: () => undefined,
   MarkPointComponent: () => undefined,
   TitleComponent: () => undefined,
@@ -33,6 +34,7 @@ import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from "fs
 import { tmpdir } from "os";
 import { join, resolve } from "path";
 import webpack from "webpack";
+import * as echarts from "echarts";
 import { fit, type FitResult } from "../../engine/fit";
 import { roasteryRows } from "../../addin/demo/roasteryData";
 import {
@@ -46,6 +48,7 @@ import {
   LINE_PATTERNS,
   PALETTES,
   pathChartOptions,
+  pathMarks,
   renderChartSvg,
   seriesChartOptions,
   spreadsMatch,
@@ -227,25 +230,79 @@ describe("coefficient path", () => {
     });
   });
 
-  test("vertical markers at the lowest-error and one-SE strengths (engine result); the rule's pick drawn solid", () => {
+  test("a light band 'within 1 SE' from the one-SE rule's strength to the lowest error's, one solid line 'chosen' at the rule's pick (engine result)", () => {
     for (const result of [lowestRule, onese]) {
       const option = pathChartOptions(result, { theme: "light", width: 360 });
-      const marker = withIdPrefix(option, "choices")[0];
-      const data = (marker.markLine as { data: { xAxis: number; name: string; lineStyle: { type: string } }[] }).data;
       const choices = result.choices as NonNullable<FitResult["choices"]>;
       expect(choices.onese.strength).toBeGreaterThan(choices.min.strength);
-      expect(data.map((d) => d.xAxis)).toEqual([choices.min.strength, choices.onese.strength]);
-      expect(data.map((d) => d.lineStyle.type)).toEqual(result.rule === "min" ? ["solid", "dashed"] : ["dashed", "solid"]);
+      const band = withIdPrefix(option, "choice-band")[0];
+      const area = band.markArea as { data: [{ xAxis: number; name: string }, { xAxis: number }][]; itemStyle: { color: string; opacity: number }; label: { show: boolean } };
+      expect(area.data).toHaveLength(1);
+      expect([area.data[0][0].xAxis, area.data[0][1].xAxis]).toEqual([choices.onese.strength, choices.min.strength]);
+      expect(area.data[0][0].name).toBe("within 1 SE");
+      expect(area.label.show).toBe(true);
+      expect(area.itemStyle.opacity).toBeLessThanOrEqual(0.2); // light: the lines show through
+      expect(band.z).toBeLessThan(withIdPrefix(option, "term-")[0].z as number); // behind the lines
+      const line = withIdPrefix(option, "choices");
+      expect(line).toHaveLength(1);
+      const data = (line[0].markLine as { data: { xAxis: number; name: string; lineStyle: { type: string }; label: { formatter: string } }[] }).data;
+      expect(data).toHaveLength(1);
+      expect(data[0].xAxis).toBe(result.strength);
+      expect(data[0].xAxis).toBe(result.rule === "min" ? choices.min.strength : choices.onese.strength);
+      expect(data[0].lineStyle.type).toBe("solid");
+      expect(data[0].label.formatter).toBe("chosen");
+      expect(pathMarks(result)).toEqual({ band: [choices.onese.strength, choices.min.strength], line: { strength: result.strength, label: "chosen" } });
+      const note = String((option.title as AnyRecord).subtext);
+      expect(note).toContain("within 1 SE");
+      expect(note).toContain(`chosen (${result.rule === "min" ? "lowest error" : "one-SE rule"})`);
     }
   });
 
-  test("a fixed-strength fit gets one marker at its strength; least squares (λ 0) has no path and says so", () => {
+  test("when both rules pick the same strength there is no band, just the line", () => {
+    const choices = lowestRule.choices as NonNullable<FitResult["choices"]>;
+    const same: FitResult = { ...lowestRule, choices: { min: choices.min, onese: { ...choices.min } } };
+    const option = pathChartOptions(same, { theme: "light", width: 360 });
+    expect(withIdPrefix(option, "choice-band")).toHaveLength(0);
+    const data = (withIdPrefix(option, "choices")[0].markLine as { data: { xAxis: number; label: { formatter: string } }[] }).data;
+    expect(data.map((d) => [d.xAxis, d.label.formatter])).toEqual([[same.strength, "chosen"]]);
+    expect(String((option.title as AnyRecord).subtext)).not.toContain("within 1 SE");
+    const text = describeChart("path", same);
+    expect(text).not.toContain("band");
+    expect(text).toContain(`chosen λ ${formatNumber(same.strength)} (both rules pick it)`);
+  });
+
+  test("the band and the line are drawn at their exact strengths (echarts would round a mark line's value to 2 decimals)", () => {
+    for (const result of [lowestRule, onese]) {
+      const chart = echarts.init(null, null, { renderer: "svg", ssr: true, width: 360, height: 400 });
+      try {
+        chart.setOption(pathChartOptions(result, { theme: "light", width: 360 }));
+        const choices = result.choices as NonNullable<FitResult["choices"]>;
+        const pixel = (strength: number): number => chart.convertToPixel({ xAxisIndex: 0 }, strength) as unknown as number;
+        const svg = chart.renderToSVGString();
+        // The line: a vertical path in the text colour, 1.5 px wide (echarts snaps it to the pixel grid).
+        const line = new RegExp(`<path d="M([\\d.]+) [\\d.]+L([\\d.]+) [\\d.]+"[^>]*stroke="${PALETTES.light.text}" stroke-width="1.5"`).exec(svg);
+        expect(line).not.toBeNull();
+        expect(Math.abs(Number(line?.[1]) - pixel(result.strength))).toBeLessThanOrEqual(1);
+        // The band: a polygon in the band colour, its left and right edges at the two strengths.
+        const band = new RegExp(`<polygon points="([^"]+)" fill="${PALETTES.light.band}"`).exec(svg);
+        const xs = (band?.[1] ?? "").split(" ").filter((_, k) => k % 2 === 0).map(Number);
+        expect(Math.abs(Math.min(...xs) - pixel(choices.onese.strength))).toBeLessThanOrEqual(0.5);
+        expect(Math.abs(Math.max(...xs) - pixel(choices.min.strength))).toBeLessThanOrEqual(0.5);
+      } finally {
+        chart.dispose();
+      }
+    }
+  });
+
+  test("a fixed-strength fit gets one line at its strength and no band; least squares (λ 0) has no path and says so", () => {
     const option = pathChartOptions(fixed, { theme: "light", width: 360 });
-    const data = (withIdPrefix(option, "choices")[0].markLine as { data: { xAxis: number }[] }).data;
-    expect(data.map((d) => d.xAxis)).toEqual([0.05]);
+    const data = (withIdPrefix(option, "choices")[0].markLine as { data: { xAxis: number; label: { formatter: string } }[] }).data;
+    expect(data.map((d) => [d.xAxis, d.label.formatter])).toEqual([[0.05, "fitted"]]);
+    expect(withIdPrefix(option, "choice-band")).toHaveLength(0);
     const ls = pathChartOptions(leastSquares, { theme: "light", width: 360 });
     for (const line of withIdPrefix(ls, "term-")) expect(line.data).toEqual([]);
     expect(withIdPrefix(ls, "choices")).toHaveLength(0);
+    expect(withIdPrefix(ls, "choice-band")).toHaveLength(0);
     expect(String((ls.title as AnyRecord).subtext)).toContain("no path");
     expect(describeChart("path", leastSquares)).toContain("not available");
   });
@@ -563,6 +620,12 @@ describe("text alternatives", () => {
     const top = NAMES[lowestRule.standardizedCoefficients.map(Math.abs).indexOf(Math.max(...lowestRule.standardizedCoefficients.map(Math.abs)))];
     expect(path).toContain(top);
     const choices = lowestRule.choices as NonNullable<FitResult["choices"]>;
+    // The band and the line, in words (engine result: the two rules' strengths, the rule's pick).
+    expect(path).toContain(
+      `A shaded band marks the strengths within 1 SE, from λ ${formatNumber(choices.onese.strength)} (one-SE rule) to λ ${formatNumber(choices.min.strength)} (lowest error).`,
+    );
+    expect(path).toContain(`A solid line marks the chosen λ ${formatNumber(lowestRule.strength)} (lowest error), with ${lowestRule.coefficients.filter((b) => b !== 0).length} terms kept`);
+    expect(describeChart("path", onese)).toContain(`A solid line marks the chosen λ ${formatNumber(onese.strength)} (one-SE rule)`);
     const cv = describeChart("cv", lowestRule);
     expect(cv).toContain("5 mixes");
     expect(cv).toContain(formatNumber(choices.min.error));
@@ -598,8 +661,9 @@ describe("SVG rendering (echarts server-side rendering)", () => {
     }
     const lassoPath = renderChartSvg("path", lowestRule, { theme, width: 360 });
     expect(termLinePaths(lassoPath, PALETTES[theme])).toBe(withIdPrefix(pathChartOptions(lowestRule, { theme, width: 360 }), "term-").length);
-    expect(lassoPath).toContain(">min<");
-    expect(lassoPath).toContain(">1 SE<");
+    expect(lassoPath).toContain(">chosen<");
+    expect(lassoPath).toContain(">within 1 SE<");
+    expect(lassoPath).not.toMatch(/>(min|1 SE)</);
     const bars = renderChartSvg("bars", lowestRule, { theme, width: 360 });
     for (const entry of barEntries(lowestRule).nonzero.slice(0, 3)) expect(bars).toContain(`>${entry.name}<`);
   });
