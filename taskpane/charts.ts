@@ -262,11 +262,23 @@ export function escapeHtml(text: string): string {
   return text.replace(/[&<>"']/g, (c) => ({ "&": "&amp;", "<": "&lt;", ">": "&gt;", '"': "&quot;", "'": "&#39;" })[c] as string);
 }
 
+/** The name of the mix wherever a title, note or text alternative names it. */
+export const MIX_TITLE = "Mix α (lasso share)";
+
+/** Short form for legend entries and hover rows, where space is tight: "α = 0.25", "α = 0 (ridge)". */
 export function mixLabel(mix: number): string {
-  if (mix === 0) return "mix 0 (ridge)";
-  if (mix === 1) return "mix 1 (lasso)";
-  return `mix ${formatNumber(mix)}`;
+  if (mix === 0) return "α = 0 (ridge)";
+  if (mix === 1) return "α = 1 (lasso)";
+  return `α = ${formatNumber(mix)}`;
 }
+
+/** Long form for titles, notes and text alternatives: "Mix α (lasso share) = 0.25". */
+export function mixTitle(mix: number): string {
+  return `${MIX_TITLE} = ${mixLabel(mix).slice("α = ".length)}`;
+}
+
+/** The y axis of the path chart and the x axis of the bars: coefficient × the term's population SD. */
+export const STANDARDIZED_TITLE = "standardized coefficient (per SD)";
 
 function measureName(result: FitResult): string {
   return (result.cv?.measure ?? "mse").toUpperCase();
@@ -533,6 +545,7 @@ export function pathChartOptions(result: FitResult, settings: ChartSettings): Ch
     if (s > 0 && Number.isFinite(s)) keep.push(k);
   });
   const notes: string[] = [];
+  if (result.choices || result.strength > 0) notes.push(`${mixTitle(result.path.mix)}.`);
   const markerText = keep.length > 0 ? marksNote(result) : "";
   if (markerText) notes.push(markerText);
   if (missing.length > 0) {
@@ -629,7 +642,7 @@ export function pathChartOptions(result: FitResult, settings: ChartSettings): Ch
   const labelRows = (marks.line ? 1 : 0) + (marks.band ? 1 : 0);
   const top = titleHeight(note, layout, settings.width) + (labelRows > 0 ? labelRows * (labelFont + 7) + 2 : 6);
   const endLabelWidth = Math.max(0, ...drawn.filter((t) => labelled.has(t.index)).map((t) => textWidth(truncate(t.name, layout.nameChars), layout.font)));
-  const title = result.choices || result.strength > 0 ? `Coefficient path, ${mixLabel(result.path.mix)}` : "Coefficient path";
+  const title = "Coefficient path";
   let yLow = 0;
   let yHigh = 0;
   for (const s of series) {
@@ -645,7 +658,7 @@ export function pathChartOptions(result: FitResult, settings: ChartSettings): Ch
     title: titleOption(title, note, palette, layout, settings.width),
     grid,
     xAxis: strengthAxis(extent, palette, layout),
-    yAxis: { type: "value", ...valueAxisStyle("coefficient × SD of term", palette, layout), nameGap: yNameGap },
+    yAxis: { type: "value", ...valueAxisStyle(STANDARDIZED_TITLE, palette, layout), nameGap: yNameGap },
     tooltip: {
       ...tooltipBase(palette, layout),
       trigger: "axis",
@@ -659,7 +672,7 @@ export function pathChartOptions(result: FitResult, settings: ChartSettings): Ch
           .slice(0, layout.tooltipRows)
           .map((p) => `${typeof p.marker === "string" ? p.marker : ""}${escapeHtml(String(p.seriesName))}: ${formatNumber((p.value as number[])[1])}`);
         if (rows.length > layout.tooltipRows) lines.push(`+${rows.length - layout.tooltipRows} more`);
-        return [`λ ${formatNumber(strength)} (coefficient × SD)`, ...lines].join("<br/>");
+        return [`λ ${formatNumber(strength)} (${STANDARDIZED_TITLE})`, ...lines].join("<br/>");
       },
     },
     legend: {
@@ -735,8 +748,8 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
     if (isBest && result.choices) {
       const { min, onese } = result.choices;
       const points = [
-        { label: "lowest", point: min, chosen: result.rule === "min", symbol: "circle", position: "top" as const },
-        { label: "one-SE", point: onese, chosen: result.rule === "onese", symbol: "diamond", position: "bottom" as const },
+        { label: "lowest error", point: min, chosen: result.rule === "min", symbol: "circle", position: "top" as const },
+        { label: "one-SE rule", point: onese, chosen: result.rule === "onese", symbol: "diamond", position: "bottom" as const },
       ];
       line.markPoint = {
         animation: false,
@@ -766,9 +779,9 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
         data: [
           {
             yAxis: min.error + min.se,
-            name: "lowest + 1 SE",
+            name: "lowest error + 1 SE",
             lineStyle: { color: palette.muted, type: "dashed", width: 1 },
-            label: { show: true, formatter: "lowest + 1 SE", position: "insideEndTop", color: palette.muted, fontSize: layout.font - 1 },
+            label: { show: true, formatter: "lowest error + 1 SE", position: "insideEndTop", color: palette.muted, fontSize: layout.font - 1 },
           },
         ],
       };
@@ -802,8 +815,9 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
     });
   });
   const legendShown = mixes.length > 1;
-  const note = `${legendShown ? "One line per mix α; shaded" : "Shaded"}: ± 1 SE over ${result.cv.folds} folds.`;
-  const title = mixes.length > 1 ? `Cross-validated ${measure} by mix` : `Cross-validated ${measure}, ${mixLabel(mixes[0])}`;
+  // The note is the legend's title: it names the mix in full, the legend entries say "α = …".
+  const note = `${legendShown ? `Lines: ${MIX_TITLE}.` : `${mixTitle(mixes[0])}.`} Shaded: ± 1 SE over ${result.cv.folds} folds.`;
+  const title = `Cross-validated ${measure}`;
   let yLow = Infinity;
   let yHigh = -Infinity;
   for (const r of table) {
@@ -837,7 +851,7 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
           let near = rows[0];
           for (const r of rows) if (Math.abs(Math.log(r.strength / at)) < Math.abs(Math.log(near.strength / at))) near = r;
           const swatch = `<span style="display:inline-block;width:9px;height:9px;border-radius:50%;margin-right:5px;background:${palette.lines[i % palette.lines.length]}"></span>`;
-          lines.push(`${swatch}${escapeHtml(mixLabel(mix))}: ${formatNumber(near.error)} ± ${formatNumber(near.se)}, ${near.nonzero} terms`);
+          lines.push(`${swatch}${escapeHtml(mixLabel(mix))}: ${formatNumber(near.error)} ± ${formatNumber(near.se)}, ${near.nonzero} terms kept`);
         });
         if (lines.length === 0) return "";
         return [`cross-validated ${measure} ± 1 SE at λ ≈ ${formatNumber(at)}`, ...lines].join("<br/>");
@@ -850,8 +864,8 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
       left: 4,
       right: 4,
       data: mixes.map(mixLabel),
-      // Compact: "0 (ridge)", "0.25", … (the note says the lines are mixes).
-      formatter: layout.compact ? (name: string) => name.replace(/^mix /, "") : undefined,
+      // Compact: "0 (ridge)", "0.25", … (the note names the mix in full).
+      formatter: layout.compact ? (name: string) => name.replace(/^α = /, "") : undefined,
       itemWidth: 14,
       itemHeight: 8,
       itemGap: 8,
@@ -888,7 +902,11 @@ export function barEntries(result: FitResult): { nonzero: BarEntry[]; zero: stri
 
 function choiceTitle(result: FitResult): string {
   if (result.rule === "fixed" && result.strength === 0) return "least squares (λ 0)";
-  return `${mixLabel(result.mix)}, λ ${formatNumber(result.strength)}`;
+  return `λ ${formatNumber(result.strength)}`;
+}
+
+function leastSquares(result: FitResult): boolean {
+  return result.rule === "fixed" && result.strength === 0;
 }
 
 export function coefficientBarOptions(result: FitResult, settings: ChartSettings): ChartOption {
@@ -896,8 +914,9 @@ export function coefficientBarOptions(result: FitResult, settings: ChartSettings
   const layout = layoutFor(settings.width);
   const { nonzero, zero } = barEntries(result);
   const shown = nonzero.slice(0, MAX_BARS);
-  const notes = ["Per SD of each term; intercept not shown."];
-  if (nonzero.length > shown.length) notes.push(`${nonzero.length - shown.length} smaller nonzero terms not shown.`);
+  const notes = leastSquares(result) ? [] : [`${mixTitle(result.mix)}.`];
+  notes.push("Per SD of each term; intercept not shown.");
+  if (nonzero.length > shown.length) notes.push(`${nonzero.length - shown.length} smaller terms kept but not drawn.`);
   if (zero.length > 0) notes.push(`Zero, not drawn: ${nameList(zero, layout.compact ? 4 : 8, layout.nameChars)}`);
   if (nonzero.length === 0) notes.push("Every coefficient is 0: the model predicts the average.");
   const note = notes.join("\n");
@@ -926,7 +945,7 @@ export function coefficientBarOptions(result: FitResult, settings: ChartSettings
       type: "value",
       min: low < 0 ? low - pad : 0,
       max: high > 0 ? high + pad : 0,
-      ...valueAxisStyle("coefficient × SD of term", palette, layout),
+      ...valueAxisStyle(STANDARDIZED_TITLE, palette, layout),
       nameGap: layout.font + 12,
       axisLabel: {
         color: palette.text,
@@ -963,7 +982,7 @@ export function coefficientBarOptions(result: FitResult, settings: ChartSettings
       {
         type: "bar",
         id: "bars",
-        name: "coefficient × SD",
+        name: STANDARDIZED_TITLE,
         barMaxWidth: 18,
         barCategoryGap: "35%",
         data: shown.map((e) => ({
@@ -1040,7 +1059,7 @@ export function describeChart(kind: ChartKind, result: FitResult, spreads?: Arra
       marked += `At λ ${formatNumber(result.strength)}, ${nonzero} terms kept`;
     }
     return (
-      `Coefficient path for ${mixLabel(result.path.mix)}: ${drawn.length} of ${result.terms.length} terms, ` +
+      `Coefficient path for ${mixTitle(result.path.mix)}: ${drawn.length} of ${result.terms.length} terms, ` +
       `λ from ${formatNumber(Math.max(...strengths))} down to ${formatNumber(Math.min(...strengths))} (log scale). ` +
       marked +
       (top.length ? `; largest per SD: ${largest(top)}.` : ".") +
@@ -1053,14 +1072,14 @@ export function describeChart(kind: ChartKind, result: FitResult, spreads?: Arra
     const mixes = [...new Set(result.cv.table.map((r) => r.mix))];
     const { min, onese } = result.choices;
     return (
-      `Cross-validated ${measure} against λ for ${mixes.length === 1 ? mixLabel(mixes[0]) : `${mixes.length} mixes`}, with ± 1 SE bands. ` +
-      `Lowest: ${formatNumber(min.error)} ± ${formatNumber(min.se)} at ${mixLabel(min.mix)}, λ ${formatNumber(min.strength)}, ${min.nonzero} terms. ` +
-      `One-SE rule: λ ${formatNumber(onese.strength)}, ${onese.nonzero} terms. Chosen by ${ruleText(result)}.`
+      `Cross-validated ${measure} against λ for ${mixes.length === 1 ? mixTitle(mixes[0]) : `${mixes.length} values of ${MIX_TITLE}`}, with ± 1 SE bands. ` +
+      `Marked: lowest error ${formatNumber(min.error)} ± ${formatNumber(min.se)} at ${mixTitle(min.mix)}, λ ${formatNumber(min.strength)}, ${min.nonzero} terms kept; ` +
+      `one-SE rule at λ ${formatNumber(onese.strength)}, ${onese.nonzero} terms kept. Chosen: ${ruleText(result)}.`
     );
   }
   const { nonzero, zero } = barEntries(result);
   return (
-    `Coefficients per SD of each term at ${choiceTitle(result)}: ` +
+    `Coefficients per SD of each term at ${choiceTitle(result)}${leastSquares(result) ? "" : `, ${mixTitle(result.mix)}`}: ` +
     (nonzero.length ? `${largest(nonzero)}${nonzero.length > 3 ? `, and ${nonzero.length - 3} more` : ""}. ` : "all zero. ") +
     (zero.length ? `${zero.length} terms are zero.` : "No term is zero.")
   );

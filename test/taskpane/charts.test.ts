@@ -46,12 +46,14 @@ import {
   escapeHtml,
   formatNumber,
   LINE_PATTERNS,
+  MIX_TITLE,
   PALETTES,
   pathChartOptions,
   pathMarks,
   renderChartSvg,
   seriesChartOptions,
   spreadsMatch,
+  STANDARDIZED_TITLE,
   suggestedHeight,
   termSpreads,
   type ChartKind,
@@ -211,6 +213,7 @@ describe("coefficient path", () => {
     expect(xAxis.type).toBe("log");
     expect(xAxis.inverse).toBe(true);
     expect(String(xAxis.name)).toContain("penalty strength λ (log scale)");
+    expect(axis(option, "yAxis").name).toBe("standardized coefficient (per SD)");
     const chosen = ridge.path.strengths.indexOf(ridge.strength);
     expect(chosen).toBeGreaterThanOrEqual(0);
     for (const line of lines) {
@@ -422,7 +425,8 @@ describe("cross-validation curve", () => {
       const choices = result.choices as NonNullable<FitResult["choices"]>;
       const mixes = [...new Set((result.cv as NonNullable<FitResult["cv"]>).table.map((r) => r.mix))];
       const best = withIdPrefix(option, `cv-mix-${mixes.indexOf(choices.min.mix)}`)[0];
-      const points = (best.markPoint as { data: { coord: number[]; label: { formatter: string } }[] }).data;
+      const points = (best.markPoint as { data: { coord: number[]; name: string; label: { formatter: string } }[] }).data;
+      expect(points.map((p) => p.name)).toEqual(["lowest error", "one-SE rule"]);
       expect(points.map((p) => p.coord)).toEqual([
         [choices.min.strength, choices.min.error],
         [choices.onese.strength, choices.onese.error],
@@ -442,11 +446,11 @@ describe("cross-validation curve", () => {
     const table = (lowestRule.cv as NonNullable<FitResult["cv"]>).table;
     const at = choices.min.strength;
     const html = formatter([{ seriesId: "cv-mix-4", axisValue: at, value: [at, choices.min.error, choices.min.se, choices.min.nonzero] }]);
-    expect(html).toContain(`mix 1 (lasso): ${formatNumber(choices.min.error)} ± ${formatNumber(choices.min.se)}, ${choices.min.nonzero} terms`);
+    expect(html).toContain(`α = 1 (lasso): ${formatNumber(choices.min.error)} ± ${formatNumber(choices.min.se)}, ${choices.min.nonzero} terms kept`);
     for (const mix of [0.25, 0.5, 0.75]) {
       const rows = table.filter((r) => r.mix === mix);
       const near = rows.reduce((a, b) => (Math.abs(Math.log(b.strength / at)) < Math.abs(Math.log(a.strength / at)) ? b : a));
-      expect(html).toContain(`mix ${mix}: ${formatNumber(near.error)} ± ${formatNumber(near.se)}`);
+      expect(html).toContain(`α = ${mix}: ${formatNumber(near.error)} ± ${formatNumber(near.se)}`);
     }
     // Ridge's grid stops well above this strength (engine result): not listed.
     expect(Math.min(...table.filter((r) => r.mix === 0).map((r) => r.strength))).toBeGreaterThan(1.15 * at);
@@ -593,7 +597,7 @@ describe("narrow widths", () => {
     expect((axis(barsNarrow, "yAxis").axisLabel as AnyRecord).overflow).toBe("truncate");
     // The CV legend stays (mixes are few) but drops the word "mix" when narrow.
     const legendFormatter = (cvChartOptions(lowestRule, { theme: "light", width: 320 }).legend as { formatter: (n: string) => string }).formatter;
-    expect(legendFormatter("mix 0 (ridge)")).toBe("0 (ridge)");
+    expect(legendFormatter("α = 0 (ridge)")).toBe("0 (ridge)");
   });
 
   test("plot margins leave the plot most of the width, and the suggested height grows with the notes and bars", () => {
@@ -610,12 +614,63 @@ describe("narrow widths", () => {
 });
 
 // ------------------------------------------------------------------------------------------
+// Wording
+
+/** Every text a reader sees in an option: titles, notes, axis names, legend entries, series names, mark labels. */
+function shownTexts(option: ChartOption): string[] {
+  const texts: string[] = [];
+  const walk = (node: unknown, key: string): void => {
+    if (typeof node === "string") {
+      if (["text", "subtext", "name", "formatter", "legend"].includes(key)) texts.push(node);
+    } else if (Array.isArray(node)) node.forEach((n) => walk(n, key));
+    else if (node && typeof node === "object") for (const [k, v] of Object.entries(node)) walk(v, k === "data" && key === "legend" ? "legend" : k);
+  };
+  walk(option, "");
+  return texts;
+}
+
+describe("wording", () => {
+  test("rule names are 'lowest error' and 'one-SE rule', counts say 'terms kept', the mix is 'Mix α (lasso share)' (legend entries 'α = …')", () => {
+    const seen = new Set<string>();
+    for (const result of [lowestRule, onese, ridge, mae, fixed, leastSquares]) {
+      for (const width of [320, 450]) {
+        for (const kind of KINDS) {
+          const option = (kind === "path" ? pathChartOptions : kind === "cv" ? cvChartOptions : coefficientBarOptions)(result, { theme: "light", width });
+          for (const text of [...shownTexts(option), describeChart(kind, result)]) {
+            seen.add(text);
+            expect([text, /\bmin\b|\bnonzero\b|\blowest(?! error)|one-SE(?! rule)|(?<!(within|±|\+) )1 SE/i.test(text)]).toEqual([text, false]);
+            // "mix" only inside the full name; the short form "α = …" is fine.
+            expect([text, /mix/i.test(text.split(MIX_TITLE).join(""))]).toEqual([text, false]);
+          }
+        }
+      }
+    }
+    const all = [...seen].join("\n");
+    for (const wanted of ["lowest error", "one-SE rule", "terms kept", "within 1 SE", "chosen", MIX_TITLE, "α = 0.25"]) expect([wanted, all.includes(wanted)]).toEqual([wanted, true]);
+  });
+
+  test("the CV chart's legend says 'α = …'; its note, the legend's title, names the mix in full", () => {
+    const option = cvChartOptions(lowestRule, { theme: "light", width: 450 });
+    expect((option.legend as { data: string[] }).data).toEqual(["α = 0 (ridge)", "α = 0.25", "α = 0.5", "α = 0.75", "α = 1 (lasso)"]);
+    expect(String((option.title as AnyRecord).subtext)).toContain(`Lines: ${MIX_TITLE}.`);
+    const single = cvChartOptions(ridge, { theme: "light", width: 450 });
+    expect(String((single.title as AnyRecord).subtext)).toContain(`${MIX_TITLE} = 0 (ridge).`);
+  });
+
+  test("axis titles: per SD on the pane's path and bars (the report sheet's chart says data units, see report.test.ts)", () => {
+    expect(STANDARDIZED_TITLE).toBe("standardized coefficient (per SD)");
+    expect(axis(pathChartOptions(lowestRule, { theme: "light", width: 360 }), "yAxis").name).toBe(STANDARDIZED_TITLE);
+    expect(axis(coefficientBarOptions(lowestRule, { theme: "light", width: 360 }), "xAxis").name).toBe(STANDARDIZED_TITLE);
+  });
+});
+
+// ------------------------------------------------------------------------------------------
 // Text alternatives and numbers
 
 describe("text alternatives", () => {
   test("each chart's description states what it shows from the engine result", () => {
     const path = describeChart("path", lowestRule);
-    expect(path).toContain("mix 1 (lasso)");
+    expect(path).toContain("Mix α (lasso share) = 1 (lasso)");
     expect(path).toContain(`${NAMES.length - NAMES.filter((_, j) => lowestRule.coefficients[j] === 0 && lowestRule.path.coefficients.some((r) => r[j] !== 0)).length} of ${NAMES.length} terms`);
     const top = NAMES[lowestRule.standardizedCoefficients.map(Math.abs).indexOf(Math.max(...lowestRule.standardizedCoefficients.map(Math.abs)))];
     expect(path).toContain(top);
@@ -627,7 +682,7 @@ describe("text alternatives", () => {
     expect(path).toContain(`A solid line marks the chosen λ ${formatNumber(lowestRule.strength)} (lowest error), with ${lowestRule.coefficients.filter((b) => b !== 0).length} terms kept`);
     expect(describeChart("path", onese)).toContain(`A solid line marks the chosen λ ${formatNumber(onese.strength)} (one-SE rule)`);
     const cv = describeChart("cv", lowestRule);
-    expect(cv).toContain("5 mixes");
+    expect(cv).toContain("5 values of Mix α (lasso share)");
     expect(cv).toContain(formatNumber(choices.min.error));
     expect(cv).toContain(formatNumber(choices.onese.strength));
     const bars = describeChart("bars", lowestRule);
