@@ -9,7 +9,8 @@
  *   error's, and one solid line "chosen" at the strength the rule picked (no band when both
  *   rules pick the same strength);
  * - "cv": cross-validated error (mean ± 1 SE as a shaded band) against strength, one line per
- *   mix, the lowest-error and one-SE points marked;
+ *   mix, the lowest-error and one-SE points marked. Its x axis is either the strength λ or
+ *   "strength ÷ top of grid" (settings.cvAxis, see CvAxis);
  * - "bars": the chosen model's standardized coefficients as horizontal bars, largest first.
  *
  * Two halves:
@@ -101,6 +102,29 @@ echarts.use([
 export type ChartKind = "path" | "cv" | "bars";
 export type ChartTheme = "light" | "dark";
 
+/**
+ * The CV chart's x axis. Every mix is cross-validated on a grid of its own, from the top of
+ * its grid (the weakest strength that zeroes every coefficient; ridge's is set as if α were
+ * small but positive, so it sits far above the others) down to a fixed fraction of it. On one
+ * λ axis the mixes' curves therefore start far apart and bunch at one side.
+ * - "strength": the penalty strength λ itself, shared by all mixes;
+ * - "fraction": each mix's λ divided by the top of its own grid, so every curve starts at 1.
+ * FitResult carries the top of the chosen mix's grid only (path.top); every mix's top is the
+ * first strength of its rows in the CV table (the grid runs from its top down), see gridTops.
+ */
+export type CvAxis = "strength" | "fraction";
+export const CV_AXES: readonly CvAxis[] = ["strength", "fraction"];
+/**
+ * Chosen by looking at both on the demo data (five mixes). On the λ axis ridge's curve fills
+ * the left half and the other four share the right half, but side by side, in the order of
+ * their mixes, each one readable, with the marked points clear of the "+ 1 SE" label. Divided
+ * by their tops, the four curves with α > 0 fall almost on top of one another (their tops are
+ * what set them apart) and only ridge's stands out, stretched across the width.
+ */
+export const DEFAULT_CV_AXIS: CvAxis = "strength";
+/** Short names of the two axes, for a control that switches between them. */
+export const CV_AXIS_NAMES: Readonly<Record<CvAxis, string>> = { strength: "strength λ", fraction: "strength ÷ top of grid" };
+
 /** An echarts option object as built here. */
 export type ChartOption = ComposeOption<
   | LineSeriesOption
@@ -124,11 +148,14 @@ export interface ChartSettings {
    * ignored whole when it disagrees with the result (see spreadsMatch).
    */
   spreads?: ArrayLike<number | null> | null;
+  /** The CV chart's x axis (default DEFAULT_CV_AXIS); the other charts ignore it. */
+  cvAxis?: CvAxis;
 }
 
 export interface MountSettings {
   theme: ChartTheme;
   spreads?: ArrayLike<number | null> | null;
+  cvAxis?: CvAxis;
 }
 
 export interface ChartHandle {
@@ -138,6 +165,8 @@ export interface ChartHandle {
    */
   update(result: FitResult, spreads?: ArrayLike<number | null> | null): void;
   setTheme(theme: ChartTheme): void;
+  /** Switches the CV chart's x axis (stored, and ignored, by the other charts). */
+  setCvAxis(axis: CvAxis): void;
   /** Call after the element's size changed: layout (fonts, legend, truncation) follows width. */
   resize(): void;
   dispose(): void;
@@ -345,7 +374,13 @@ interface StrengthAxisInput {
   max: number;
 }
 
-function strengthAxis(extent: StrengthAxisInput, palette: Palette, layout: Layout) {
+/** The x axis's title: what it measures, then "(log scale)" and the direction. */
+function strengthAxisName(quantity: string, layout: Layout): string {
+  // Two lines when compact: one line would not fit under a ~200 px plot.
+  return layout.compact ? `${quantity} (log scale)\nweaker to the right →` : `${quantity} (log scale), weaker →`;
+}
+
+function strengthAxis(extent: StrengthAxisInput, palette: Palette, layout: Layout, quantity = "penalty strength λ") {
   let { min, max } = extent;
   if (!(max > min)) {
     // One strength (or none): a decade either side so the log axis has a range.
@@ -359,8 +394,7 @@ function strengthAxis(extent: StrengthAxisInput, palette: Palette, layout: Layou
     inverse: true,
     min,
     max,
-    // Two lines when compact: one line would not fit under a ~200 px plot.
-    name: layout.compact ? "penalty strength λ (log scale)\nweaker to the right →" : "penalty strength λ (log scale), weaker →",
+    name: strengthAxisName(quantity, layout),
     nameLocation: "middle" as const,
     nameGap: layout.font + 10,
     // An explicit line height: browsers otherwise space the two lines by the font's own metrics.
@@ -698,7 +732,22 @@ export function pathChartOptions(result: FitResult, settings: ChartSettings): Ch
 // ---------------------------------------------------------------------------------------------
 // Cross-validation chart
 
+/**
+ * The top of each mix's grid: the first strength of that mix's rows in the CV table (the grid
+ * runs from its top down; FitResult's path.top covers the chosen mix only). Mixes whose first
+ * strength isn't positive are left out (no ratio to take).
+ */
+export function gridTops(result: FitResult): Map<number, number> {
+  const tops = new Map<number, number>();
+  for (const row of result.cv?.table ?? []) {
+    if (!tops.has(row.mix)) tops.set(row.mix, row.strength);
+  }
+  for (const [mix, top] of tops) if (!(top > 0 && Number.isFinite(top))) tops.delete(mix);
+  return tops;
+}
+
 export function cvChartOptions(result: FitResult, settings: ChartSettings): ChartOption {
+  const axisKind = settings.cvAxis ?? DEFAULT_CV_AXIS;
   const palette = PALETTES[settings.theme];
   const layout = layoutFor(settings.width);
   const measure = measureName(result);
@@ -719,15 +768,24 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
   const mixes: number[] = [];
   for (const row of table) if (!mixes.includes(row.mix)) mixes.push(row.mix);
   const best = result.choices?.min.mix ?? result.mix;
+  const tops = gridTops(result);
+  const fraction = axisKind === "fraction";
+  /** Where a strength of `mix` sits on the x axis (NaN when the mix has no grid top). */
+  const xOf = (mix: number, strength: number): number => (fraction ? strength / (tops.get(mix) ?? NaN) : strength);
+  const rowsOf = (mix: number) => table.filter((r) => r.mix === mix && r.strength > 0 && xOf(mix, r.strength) > 0);
   const series: LineSeriesOption[] = [];
   let lo = Infinity;
   let hi = 0;
-  mixes.forEach((mix, i) => {
-    const rows = table.filter((r) => r.mix === mix && r.strength > 0);
-    for (const r of rows) {
-      lo = Math.min(lo, r.strength);
-      hi = Math.max(hi, r.strength);
+  for (const mix of mixes) {
+    for (const r of rowsOf(mix)) {
+      lo = Math.min(lo, xOf(mix, r.strength));
+      hi = Math.max(hi, xOf(mix, r.strength));
     }
+  }
+  /** Share of the plot's width from its left edge (the axis is log and inverted: strong at the left). */
+  const across = (x: number): number => (hi > lo ? Math.log(hi / x) / Math.log(hi / lo) : 0.5);
+  mixes.forEach((mix, i) => {
+    const rows = rowsOf(mix);
     const color = palette.lines[i % palette.lines.length];
     const pattern = LINE_PATTERNS[Math.floor(i / palette.lines.length) % LINE_PATTERNS.length];
     const isBest = mix === best;
@@ -736,7 +794,7 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
       type: "line",
       id: `cv-mix-${i}`,
       name,
-      data: rows.map((r) => [r.strength, r.error, r.se, r.nonzero]),
+      data: rows.map((r) => [xOf(mix, r.strength), r.error, r.se, r.nonzero]),
       encode: { x: 0, y: 1 },
       showSymbol: false,
       symbolSize: 5,
@@ -755,7 +813,7 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
         animation: false,
         data: points.map((p) => ({
           name: p.label,
-          coord: [p.point.strength, p.point.error],
+          coord: [xOf(mix, p.point.strength), p.point.error],
           value: p.point.error,
           symbol: p.symbol,
           symbolSize: p.chosen ? 12 : 9,
@@ -771,6 +829,9 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
           },
         })),
       };
+      // The "+ 1 SE" label goes to the side of the plot away from the marked points. On the
+      // inverted axis the line's end is its left end.
+      const pointsLeft = across(xOf(mix, Math.sqrt(min.strength * onese.strength))) < 0.5;
       line.markLine = {
         silent: true,
         symbol: ["none", "none"],
@@ -781,7 +842,7 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
             yAxis: min.error + min.se,
             name: "lowest error + 1 SE",
             lineStyle: { color: palette.muted, type: "dashed", width: 1 },
-            label: { show: true, formatter: "lowest error + 1 SE", position: "insideEndTop", color: palette.muted, fontSize: layout.font - 1 },
+            label: { show: true, formatter: "lowest error + 1 SE", position: pointsLeft ? "insideStartTop" : "insideEndTop", color: palette.muted, fontSize: layout.font - 1 },
           },
         ],
       };
@@ -793,7 +854,7 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
       id: `cv-band-low-${i}`,
       name,
       stack: `band-${i}`,
-      data: rows.map((r) => [r.strength, r.error - r.se]),
+      data: rows.map((r) => [xOf(mix, r.strength), r.error - r.se]),
       symbol: "none",
       silent: true,
       lineStyle: { opacity: 0 },
@@ -805,7 +866,7 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
       id: `cv-band-${i}`,
       name,
       stack: `band-${i}`,
-      data: rows.map((r) => [r.strength, 2 * r.se]),
+      data: rows.map((r) => [xOf(mix, r.strength), 2 * r.se]),
       symbol: "none",
       silent: true,
       lineStyle: { opacity: 0 },
@@ -816,7 +877,9 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
   });
   const legendShown = mixes.length > 1;
   // The note is the legend's title: it names the mix in full, the legend entries say "α = …".
-  const note = `${legendShown ? `Lines: ${MIX_TITLE}.` : `${mixTitle(mixes[0])}.`} Shaded: ± 1 SE over ${result.cv.folds} folds.`;
+  const note =
+    `${legendShown ? `Lines: ${MIX_TITLE}.` : `${mixTitle(mixes[0])}.`} Shaded: ± 1 SE over ${result.cv.folds} folds.` +
+    (fraction ? " Each mix's λ is divided by the top of its own grid." : "");
   const title = `Cross-validated ${measure}`;
   let yLow = Infinity;
   let yHigh = -Infinity;
@@ -829,7 +892,7 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
     ...baseOption(palette, layout),
     title: titleOption(title, note, palette, layout, settings.width),
     grid,
-    xAxis: strengthAxis({ min: lo, max: hi }, palette, layout),
+    xAxis: strengthAxis({ min: lo, max: hi }, palette, layout, CV_AXIS_NAMES[axisKind]),
     yAxis: { type: "value", scale: true, ...valueAxisStyle(`cross-validated ${measure}`, palette, layout), nameGap: yNameGap },
     tooltip: {
       ...tooltipBase(palette, layout),
@@ -843,18 +906,20 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
         if (!(at > 0)) return "";
         const lines: string[] = [];
         mixes.forEach((mix, i) => {
-          const rows = table.filter((r) => r.mix === mix && r.strength > 0);
+          const rows = rowsOf(mix);
           if (rows.length === 0) return;
-          const top = rows[0].strength;
-          const bottom = rows[rows.length - 1].strength;
+          const x = (r: (typeof rows)[number]): number => xOf(mix, r.strength);
+          const top = x(rows[0]);
+          const bottom = x(rows[rows.length - 1]);
           if (at > top * 1.15 || at < bottom / 1.15) return; // outside this mix's grid
           let near = rows[0];
-          for (const r of rows) if (Math.abs(Math.log(r.strength / at)) < Math.abs(Math.log(near.strength / at))) near = r;
+          for (const r of rows) if (Math.abs(Math.log(x(r) / at)) < Math.abs(Math.log(x(near) / at))) near = r;
           const swatch = `<span style="display:inline-block;width:9px;height:9px;border-radius:50%;margin-right:5px;background:${palette.lines[i % palette.lines.length]}"></span>`;
-          lines.push(`${swatch}${escapeHtml(mixLabel(mix))}: ${formatNumber(near.error)} ± ${formatNumber(near.se)}, ${near.nonzero} terms kept`);
+          const where = fraction ? ` at λ ${formatNumber(near.strength)}` : "";
+          lines.push(`${swatch}${escapeHtml(mixLabel(mix))}: ${formatNumber(near.error)} ± ${formatNumber(near.se)}${where}, ${near.nonzero} terms kept`);
         });
         if (lines.length === 0) return "";
-        return [`cross-validated ${measure} ± 1 SE at λ ≈ ${formatNumber(at)}`, ...lines].join("<br/>");
+        return [`cross-validated ${measure} ± 1 SE at ${fraction ? "strength ÷ top of grid" : "λ"} ≈ ${formatNumber(at)}`, ...lines].join("<br/>");
       },
     },
     legend: {
@@ -1018,8 +1083,8 @@ export function chartOptions(kind: ChartKind, result: FitResult, settings: Chart
  * A height (px) that fits the chart at this width: the title and notes, axes and legend, plus a
  * plot area of about 0.55 × width (170–280 px) for the line charts, or 22–24 px a bar.
  */
-export function suggestedHeight(kind: ChartKind, result: FitResult, width: number, spreads?: ArrayLike<number | null> | null): number {
-  const options = chartOptions(kind, result, { theme: "light", width, spreads });
+export function suggestedHeight(kind: ChartKind, result: FitResult, width: number, spreads?: ArrayLike<number | null> | null, cvAxis?: CvAxis): number {
+  const options = chartOptions(kind, result, { theme: "light", width, spreads, cvAxis });
   const grid = options.grid as GridComponentOption | undefined;
   if (!grid || (Array.isArray(options.series) && options.series.length === 0)) return 120;
   const margins = Number(grid.top ?? 0) + Number(grid.bottom ?? 0);
@@ -1031,7 +1096,7 @@ export function suggestedHeight(kind: ChartKind, result: FitResult, width: numbe
 }
 
 /** Short text alternative for screen readers. */
-export function describeChart(kind: ChartKind, result: FitResult, spreads?: ArrayLike<number | null> | null): string {
+export function describeChart(kind: ChartKind, result: FitResult, spreads?: ArrayLike<number | null> | null, cvAxis: CvAxis = DEFAULT_CV_AXIS): string {
   const largest = (entries: { name: string; value: number }[]): string =>
     entries
       .slice(0, 3)
@@ -1072,7 +1137,8 @@ export function describeChart(kind: ChartKind, result: FitResult, spreads?: Arra
     const mixes = [...new Set(result.cv.table.map((r) => r.mix))];
     const { min, onese } = result.choices;
     return (
-      `Cross-validated ${measure} against λ for ${mixes.length === 1 ? mixTitle(mixes[0]) : `${mixes.length} values of ${MIX_TITLE}`}, with ± 1 SE bands. ` +
+      `Cross-validated ${measure} against ${cvAxis === "fraction" ? "strength ÷ top of grid (each mix's λ over the top of its own grid)" : "λ"} ` +
+      `for ${mixes.length === 1 ? mixTitle(mixes[0]) : `${mixes.length} values of ${MIX_TITLE}`}, with ± 1 SE bands (log scale). ` +
       `Marked: lowest error ${formatNumber(min.error)} ± ${formatNumber(min.se)} at ${mixTitle(min.mix)}, λ ${formatNumber(min.strength)}, ${min.nonzero} terms kept; ` +
       `one-SE rule at λ ${formatNumber(onese.strength)}, ${onese.nonzero} terms kept. Chosen: ${ruleText(result)}.`
     );
@@ -1090,7 +1156,7 @@ export function describeChart(kind: ChartKind, result: FitResult, spreads?: Arra
 
 /** The chart as SVG text, rendered without a DOM (echarts server-side rendering). */
 export function renderChartSvg(kind: ChartKind, result: FitResult, settings: ChartSettings & { height?: number }): string {
-  const height = settings.height ?? suggestedHeight(kind, result, settings.width, settings.spreads);
+  const height = settings.height ?? suggestedHeight(kind, result, settings.width, settings.spreads, settings.cvAxis);
   const chart = echarts.init(null, null, { renderer: "svg", ssr: true, width: settings.width, height });
   try {
     chart.setOption(chartOptions(kind, result, settings));
@@ -1112,17 +1178,18 @@ export function mountChart(el: HTMLElement, kind: ChartKind, result: FitResult, 
   let current = result;
   let theme = settings.theme;
   let spreads = settings.spreads ?? null;
+  let cvAxis = settings.cvAxis ?? DEFAULT_CV_AXIS;
   const ownHeight = el.clientHeight === 0;
   const fitHeight = (): void => {
-    if (ownHeight) el.style.height = `${suggestedHeight(kind, current, widthOf(el), spreads)}px`;
+    if (ownHeight) el.style.height = `${suggestedHeight(kind, current, widthOf(el), spreads, cvAxis)}px`;
   };
   fitHeight();
   const chart = echarts.init(el, null, { renderer: "svg" });
   let disposed = false;
   const draw = (): void => {
-    chart.setOption(chartOptions(kind, current, { theme, width: widthOf(el), spreads }), { notMerge: true });
+    chart.setOption(chartOptions(kind, current, { theme, width: widthOf(el), spreads, cvAxis }), { notMerge: true });
     el.setAttribute("role", "img");
-    el.setAttribute("aria-label", describeChart(kind, current, spreads));
+    el.setAttribute("aria-label", describeChart(kind, current, spreads, cvAxis));
   };
   const live = (): void => {
     if (disposed) throw new Error("this chart was disposed");
@@ -1140,6 +1207,15 @@ export function mountChart(el: HTMLElement, kind: ChartKind, result: FitResult, 
     setTheme(next: ChartTheme): void {
       live();
       theme = next;
+      draw();
+    },
+    setCvAxis(next: CvAxis): void {
+      live();
+      if (next === cvAxis) return;
+      cvAxis = next;
+      if (kind !== "cv") return;
+      fitHeight();
+      chart.resize();
       draw();
     },
     resize(): void {
@@ -1162,7 +1238,7 @@ export function mountChart(el: HTMLElement, kind: ChartKind, result: FitResult, 
       const holder = document.createElement("div");
       const offscreen = echarts.init(holder, null, { renderer: "canvas", width, height });
       try {
-        offscreen.setOption(chartOptions(kind, current, { theme, width, spreads }));
+        offscreen.setOption(chartOptions(kind, current, { theme, width, spreads, cvAxis }));
         return offscreen.getDataURL({ type: "png", pixelRatio: 2, backgroundColor: PALETTES[theme].background });
       } finally {
         offscreen.dispose();
@@ -1170,10 +1246,10 @@ export function mountChart(el: HTMLElement, kind: ChartKind, result: FitResult, 
     },
     exportSvg(): string {
       live();
-      return renderChartSvg(kind, current, { theme, width: chart.getWidth(), height: chart.getHeight(), spreads });
+      return renderChartSvg(kind, current, { theme, width: chart.getWidth(), height: chart.getHeight(), spreads, cvAxis });
     },
     describe(): string {
-      return describeChart(kind, current, spreads);
+      return describeChart(kind, current, spreads, cvAxis);
     },
   };
 }

@@ -41,10 +41,13 @@ import {
   barEntries,
   coefficientBarOptions,
   COMPACT_WIDTH,
+  CV_AXES,
   cvChartOptions,
+  DEFAULT_CV_AXIS,
   describeChart,
   escapeHtml,
   formatNumber,
+  gridTops,
   LINE_PATTERNS,
   MIX_TITLE,
   PALETTES,
@@ -399,7 +402,7 @@ describe("coefficient path", () => {
 
 describe("cross-validation curve", () => {
   test("one line per mix in the engine's table, each with a ± SE band drawn by stacking", () => {
-    const option = cvChartOptions(lowestRule, { theme: "light", width: 360 });
+    const option = cvChartOptions(lowestRule, { theme: "light", width: 360, cvAxis: "strength" });
     const table = (lowestRule.cv as NonNullable<FitResult["cv"]>).table;
     const mixes = [...new Set(table.map((r) => r.mix))];
     expect(mixes).toEqual([0, 0.25, 0.5, 0.75, 1]); // engine default mixes (engine result)
@@ -421,7 +424,7 @@ describe("cross-validation curve", () => {
 
   test("the lowest-error and one-SE points are marked on the winning mix at the engine's choices", () => {
     for (const result of [lowestRule, onese]) {
-      const option = cvChartOptions(result, { theme: "light", width: 450 });
+      const option = cvChartOptions(result, { theme: "light", width: 450, cvAxis: "strength" });
       const choices = result.choices as NonNullable<FitResult["choices"]>;
       const mixes = [...new Set((result.cv as NonNullable<FitResult["cv"]>).table.map((r) => r.mix))];
       const best = withIdPrefix(option, `cv-mix-${mixes.indexOf(choices.min.mix)}`)[0];
@@ -440,7 +443,7 @@ describe("cross-validation curve", () => {
   });
 
   test("the hover text lists each mix whose grid covers the pointer, at its nearest strength (engine result)", () => {
-    const option = cvChartOptions(lowestRule, { theme: "light", width: 360 });
+    const option = cvChartOptions(lowestRule, { theme: "light", width: 360, cvAxis: "strength" });
     const formatter = (option.tooltip as { formatter: (p: unknown) => string }).formatter;
     const choices = lowestRule.choices as NonNullable<FitResult["choices"]>;
     const table = (lowestRule.cv as NonNullable<FitResult["cv"]>).table;
@@ -455,6 +458,80 @@ describe("cross-validation curve", () => {
     // Ridge's grid stops well above this strength (engine result): not listed.
     expect(Math.min(...table.filter((r) => r.mix === 0).map((r) => r.strength))).toBeGreaterThan(1.15 * at);
     expect(html).not.toContain("ridge");
+  });
+
+  test("each mix's grid top is the first strength of its rows; the engine's own figures agree (path.top, strengthFraction)", () => {
+    const table = (lowestRule.cv as NonNullable<FitResult["cv"]>).table;
+    const tops = gridTops(lowestRule);
+    expect([...tops.keys()]).toEqual([0, 0.25, 0.5, 0.75, 1]);
+    for (const [mix, top] of tops) {
+      const rows = table.filter((r) => r.mix === mix);
+      expect(top).toBe(rows[0].strength);
+      expect(Math.max(...rows.map((r) => r.strength))).toBe(top); // the grid runs down from its top
+    }
+    // Engine result: the chosen mix's path starts at its grid top, and the choices' strengthFraction is strength ÷ that top.
+    const choices = lowestRule.choices as NonNullable<FitResult["choices"]>;
+    expect(lowestRule.path.mix).toBe(choices.min.mix);
+    expect(tops.get(lowestRule.path.mix)).toBe(lowestRule.path.top);
+    for (const point of [choices.min, choices.onese]) expect(relative(point.strength / (tops.get(point.mix) as number), point.strengthFraction)).toBeLessThan(1e-15);
+    // Ridge's top sits far above the others' (the reason for the second axis).
+    expect(tops.get(0) as number).toBeGreaterThan(50 * (tops.get(1) as number));
+    expect(gridTops(fixed).size).toBe(0);
+  });
+
+  test.each(CV_AXES)("x axis '%s': x = strength (or strength ÷ that mix's top) for every line, band and marked point; log axis, inverted, titled", (cvAxis) => {
+    const option = cvChartOptions(lowestRule, { theme: "light", width: 450, cvAxis });
+    const table = (lowestRule.cv as NonNullable<FitResult["cv"]>).table;
+    const tops = gridTops(lowestRule);
+    const mixes = [...tops.keys()];
+    const x = (mix: number, strength: number): number => (cvAxis === "fraction" ? strength / (tops.get(mix) as number) : strength);
+    mixes.forEach((mix, i) => {
+      const rows = table.filter((r) => r.mix === mix);
+      const expected = rows.map((r) => x(mix, r.strength));
+      expect((withIdPrefix(option, `cv-mix-${i}`)[0].data as number[][]).map((p) => p[0])).toEqual(expected);
+      expect((withIdPrefix(option, `cv-band-low-${i}`)[0].data as number[][]).map((p) => p[0])).toEqual(expected);
+      expect((withIdPrefix(option, `cv-band-${i}`)[0].data as number[][]).map((p) => p[0])).toEqual(expected);
+      if (cvAxis === "fraction") expect(expected[0]).toBe(1); // every mix starts at its own top
+    });
+    const choices = lowestRule.choices as NonNullable<FitResult["choices"]>;
+    const best = withIdPrefix(option, `cv-mix-${mixes.indexOf(choices.min.mix)}`)[0];
+    const coords = (best.markPoint as { data: { coord: number[] }[] }).data.map((p) => p.coord[0]);
+    // Engine result: on the fraction axis the marks sit at the choices' own strengthFraction.
+    const wanted = cvAxis === "fraction" ? [choices.min.strengthFraction, choices.onese.strengthFraction] : [choices.min.strength, choices.onese.strength];
+    coords.forEach((c, k) => expect(relative(c, wanted[k])).toBeLessThan(1e-15));
+    const xAxis = axis(option, "xAxis");
+    expect(xAxis.type).toBe("log");
+    expect(xAxis.inverse).toBe(true);
+    const all = table.map((r) => x(r.mix, r.strength));
+    expect([xAxis.min, xAxis.max]).toEqual([Math.min(...all), Math.max(...all)]);
+    const title = cvAxis === "fraction" ? "strength ÷ top of grid (log scale)" : "strength λ (log scale)";
+    expect(String(xAxis.name)).toContain(title);
+    expect(String(xAxis.name)).toContain("weaker");
+    const compact = cvChartOptions(lowestRule, { theme: "light", width: 320, cvAxis });
+    expect(String(axis(compact, "xAxis").name).split("\n")[0]).toBe(title);
+    expect(describeChart("cv", lowestRule, null, cvAxis)).toContain(cvAxis === "fraction" ? "against strength ÷ top of grid" : "against λ");
+  });
+
+  test("the default x axis is λ itself (it reads better on the demo data; see DEFAULT_CV_AXIS)", () => {
+    expect(DEFAULT_CV_AXIS).toBe("strength");
+    // (The options hold formatter functions, new each time: compare their data.)
+    expect(JSON.stringify(cvChartOptions(lowestRule, { theme: "light", width: 360 }))).toBe(JSON.stringify(cvChartOptions(lowestRule, { theme: "light", width: 360, cvAxis: "strength" })));
+    expect(String((cvChartOptions(lowestRule, { theme: "light", width: 360, cvAxis: "fraction" }).title as AnyRecord).subtext)).toContain("divided by the top of its own grid");
+  });
+
+  test("on the fraction axis the hover text finds each mix's nearest point by its own fraction, and gives its λ", () => {
+    const option = cvChartOptions(lowestRule, { theme: "light", width: 360, cvAxis: "fraction" });
+    const formatter = (option.tooltip as { formatter: (p: unknown) => string }).formatter;
+    const table = (lowestRule.cv as NonNullable<FitResult["cv"]>).table;
+    const tops = gridTops(lowestRule);
+    const at = 0.05;
+    const html = formatter([{ seriesId: "cv-mix-0", axisValue: at }]);
+    expect(html).toContain("strength ÷ top of grid ≈ 0.05");
+    for (const [mix, top] of tops) {
+      const rows = table.filter((r) => r.mix === mix);
+      const near = rows.reduce((a, b) => (Math.abs(Math.log(b.strength / top / at)) < Math.abs(Math.log(a.strength / top / at)) ? b : a));
+      expect(html).toContain(`${mix === 0 ? "α = 0 (ridge)" : mix === 1 ? "α = 1 (lasso)" : `α = ${mix}`}: ${formatNumber(near.error)} ± ${formatNumber(near.se)} at λ ${formatNumber(near.strength)}`);
+    }
   });
 
   test("the y axis names the error measure", () => {
@@ -821,6 +898,7 @@ describe("SVG rendering (echarts server-side rendering)", () => {
           type Handle = {
             update(r: unknown): void;
             setTheme(t: string): void;
+            setCvAxis(a: string): void;
             resize(): void;
             dispose(): void;
             exportPng(): string;
@@ -846,6 +924,12 @@ describe("SVG rendering (echarts server-side rendering)", () => {
               pngSize: [u32(16), u32(20)],
               svg: handle.exportSvg().slice(0, 120),
             };
+            // The CV chart's x axis switches in place (the other charts keep theirs).
+            const svgText = (): string => el.querySelector("svg")?.textContent ?? "";
+            handle.setCvAxis("fraction");
+            const fraction = { text: svgText(), label: el.getAttribute("aria-label") ?? "" };
+            handle.setCvAxis("strength");
+            const strength = { text: svgText(), label: el.getAttribute("aria-label") ?? "" };
             handle.setTheme("dark");
             const darkShown = el.innerHTML.includes("#1f1f1f");
             el.style.width = "450px";
@@ -860,7 +944,7 @@ describe("SVG rendering (echarts server-side rendering)", () => {
             } catch (error) {
               afterDispose = String(error);
             }
-            results[kind] = { light, darkShown, resizedSvg, updatedLabel, emptied: el.querySelector("svg") === null && el.getAttribute("aria-label") === null, afterDispose };
+            results[kind] = { light, fraction, strength, darkShown, resizedSvg, updatedLabel, emptied: el.querySelector("svg") === null && el.getAttribute("aria-label") === null, afterDispose };
             el.style.width = "360px";
             el.style.height = "";
           }
@@ -872,6 +956,8 @@ describe("SVG rendering (echarts server-side rendering)", () => {
       for (const kind of KINDS) {
         const r = report[kind] as {
           light: { height: string; svgCount: number; canvasCount: number; role: string; label: string; describe: string; pngPrefix: string; pngSize: number[]; svg: string };
+          fraction: { text: string; label: string };
+          strength: { text: string; label: string };
           darkShown: boolean;
           resizedSvg: string;
           updatedLabel: string;
@@ -887,6 +973,15 @@ describe("SVG rendering (echarts server-side rendering)", () => {
         expect(r.light.pngPrefix).toBe("data:image/png;base64,");
         expect(r.light.pngSize).toEqual([720, 2 * suggestedHeight(kind, lowestRule, 360)]); // 2× pixel ratio
         expect(r.light.svg).toMatch(/^<svg width="360"/);
+        if (kind === "cv") {
+          expect(r.fraction.text).toContain("strength ÷ top of grid (log scale)");
+          expect(r.fraction.label).toBe(describeChart("cv", lowestRule, null, "fraction"));
+          expect(r.strength.text).not.toContain("top of grid");
+          expect(r.strength.text).toContain("strength λ (log scale)");
+          expect(r.strength.label).toBe(describeChart("cv", lowestRule, null, "strength"));
+        } else {
+          expect(r.fraction.text).toBe(r.strength.text);
+        }
         expect(r.darkShown).toBe(true);
         expect(r.resizedSvg).toMatch(/^<svg width="450"/);
         expect(r.updatedLabel).toBe(describeChart(kind, ridge));
