@@ -4,10 +4,13 @@
  *
  * Three charts:
  * - "path": every term's coefficient along the strengths tried for the chosen mix, in
- *   standardized units (coefficient × the term's population SD, so terms compare), with
- *   vertical markers at the lowest-error and one-SE strengths;
+ *   standardized units (coefficient × the term's population SD, so terms compare), with a
+ *   light band "within 1 SE" spanning the strengths from the one-SE rule's to the lowest
+ *   error's, and one solid line "chosen" at the strength the rule picked (no band when both
+ *   rules pick the same strength);
  * - "cv": cross-validated error (mean ± 1 SE as a shaded band) against strength, one line per
- *   mix, the lowest-error and one-SE points marked;
+ *   mix, the lowest-error and one-SE points marked. Its x axis is either the strength λ or
+ *   "strength ÷ top of grid" (settings.cvAxis, see CvAxis);
  * - "bars": the chosen model's standardized coefficients as horizontal bars, largest first.
  *
  * Two halves:
@@ -22,10 +25,15 @@
  * - Error band: echarts' native stacking. Per mix, an invisible line at mean − SE and a
  *   second, stacked series of height 2·SE whose area is filled: the fill spans mean ± SE.
  *   (Non-category axes stack by data index; both series share the mix's strengths, in order.)
- * - Colours: two palettes of our own (light and dark Office themes). Text ≥ 4.5:1 against the
- *   background, lines ≥ 3:1; the six line hues stay apart under simulated protan, deutan and
- *   tritan colour vision (checked in test/taskpane/charts/charts.test.ts). Past six terms the hues
- *   repeat with dashed, then dotted lines; the largest terms get the solid lines.
+ * - Colours: two palettes of our own (light and dark Office themes), the same six hues in the
+ *   same order in both. The first is the pane's teal accent. The other five were searched for
+ *   (widest smallest CIE L*a*b* difference to the rest, under typical and simulated colour
+ *   vision, hues ≥ 35° apart) and put in order on the light palette: each next one the farthest
+ *   from those before it, so the largest terms get the most distinct lines. Text and lines
+ *   ≥ 4.5:1 against the background, axes ≥ 3:1; every pair of line hues ≥ 20 ΔE*ab apart
+ *   under simulated protan, deutan and tritan colour vision (checked in
+ *   test/taskpane/charts.test.ts). Past six terms the hues repeat with dashed, then dotted
+ *   lines; the largest terms get the solid lines.
  * - Text: 11 px below 400 px wide, 12 px above; names truncated with "…" (tooltips show them
  *   whole, HTML-escaped: names come from the sheet). Below 400 px the path chart drops its
  *   legend (the largest terms are labelled at the line ends) and the λ axis name takes 2 lines.
@@ -56,6 +64,7 @@ import type { BarSeriesOption, LineSeriesOption } from "echarts/charts";
 import {
   GridComponent,
   LegendComponent,
+  MarkAreaComponent,
   MarkLineComponent,
   MarkPointComponent,
   TitleComponent,
@@ -64,6 +73,7 @@ import {
 import type {
   GridComponentOption,
   LegendComponentOption,
+  MarkAreaComponentOption,
   MarkLineComponentOption,
   MarkPointComponentOption,
   TitleComponentOption,
@@ -79,6 +89,7 @@ echarts.use([
   BarChart,
   GridComponent,
   LegendComponent,
+  MarkAreaComponent,
   MarkLineComponent,
   MarkPointComponent,
   TitleComponent,
@@ -91,12 +102,36 @@ echarts.use([
 export type ChartKind = "path" | "cv" | "bars";
 export type ChartTheme = "light" | "dark";
 
+/**
+ * The CV chart's x axis. Every mix is cross-validated on a grid of its own, from the top of
+ * its grid (the weakest strength that zeroes every coefficient; ridge's is set as if α were
+ * small but positive, so it sits far above the others) down to a fixed fraction of it. On one
+ * λ axis the mixes' curves therefore start far apart and bunch at one side.
+ * - "strength": the penalty strength λ itself, shared by all mixes;
+ * - "fraction": each mix's λ divided by the top of its own grid, so every curve starts at 1.
+ * FitResult carries the top of the chosen mix's grid only (path.top); every mix's top is the
+ * first strength of its rows in the CV table (the grid runs from its top down), see gridTops.
+ */
+export type CvAxis = "strength" | "fraction";
+export const CV_AXES: readonly CvAxis[] = ["strength", "fraction"];
+/**
+ * Chosen by looking at both on the demo data (five mixes). On the λ axis ridge's curve fills
+ * the left half and the other four share the right half, but side by side, in the order of
+ * their mixes, each one readable, with the marked points clear of the "+ 1 SE" label. Divided
+ * by their tops, the four curves with α > 0 fall almost on top of one another (their tops are
+ * what set them apart) and only ridge's stands out, stretched across the width.
+ */
+export const DEFAULT_CV_AXIS: CvAxis = "strength";
+/** Short names of the two axes, for a control that switches between them. */
+export const CV_AXIS_NAMES: Readonly<Record<CvAxis, string>> = { strength: "strength λ", fraction: "strength ÷ top of grid" };
+
 /** An echarts option object as built here. */
 export type ChartOption = ComposeOption<
   | LineSeriesOption
   | BarSeriesOption
   | GridComponentOption
   | LegendComponentOption
+  | MarkAreaComponentOption
   | MarkLineComponentOption
   | MarkPointComponentOption
   | TitleComponentOption
@@ -113,11 +148,14 @@ export interface ChartSettings {
    * ignored whole when it disagrees with the result (see spreadsMatch).
    */
   spreads?: ArrayLike<number | null> | null;
+  /** The CV chart's x axis (default DEFAULT_CV_AXIS); the other charts ignore it. */
+  cvAxis?: CvAxis;
 }
 
 export interface MountSettings {
   theme: ChartTheme;
   spreads?: ArrayLike<number | null> | null;
+  cvAxis?: CvAxis;
 }
 
 export interface ChartHandle {
@@ -127,6 +165,8 @@ export interface ChartHandle {
    */
   update(result: FitResult, spreads?: ArrayLike<number | null> | null): void;
   setTheme(theme: ChartTheme): void;
+  /** Switches the CV chart's x axis (stored, and ignored, by the other charts). */
+  setCvAxis(axis: CvAxis): void;
   /** Call after the element's size changed: layout (fonts, legend, truncation) follows width. */
   resize(): void;
   dispose(): void;
@@ -148,7 +188,9 @@ export interface Palette {
   axis: string;
   /** Decorative grid lines. */
   gridLine: string;
-  /** Line hues in order of use: ≥ 3:1 each, apart under colour-vision simulation. */
+  /** Fill of the path chart's "within 1 SE" band, drawn at BAND_OPACITY over the grid. */
+  band: string;
+  /** Line hues in order of use, the pane's accent first: ≥ 4.5:1 each, apart under colour-vision simulation. */
   lines: readonly string[];
   /** Bars: positive and negative coefficients (sign is also in the label and direction). */
   positive: string;
@@ -162,9 +204,11 @@ export const PALETTES: Readonly<Record<ChartTheme, Palette>> = {
     muted: "#595959",
     axis: "#767676",
     gridLine: "#e3e3e3",
-    lines: ["#1a4f96", "#d0600a", "#2a8a4a", "#a070e0", "#6b2c1a", "#c4508a"],
-    positive: "#1a4f96",
-    negative: "#d0600a",
+    band: "#5c5c5c",
+    // teal (the pane's accent, --accent in taskpane.html), violet, olive, raspberry, azure, copper
+    lines: ["#145a52", "#8020d8", "#807810", "#d03880", "#0878c8", "#885030"],
+    positive: "#145a52",
+    negative: "#885030",
   },
   dark: {
     background: "#1f1f1f",
@@ -172,11 +216,16 @@ export const PALETTES: Readonly<Record<ChartTheme, Palette>> = {
     muted: "#b5b5b5",
     axis: "#8f8f8f",
     gridLine: "#3a3a3a",
-    lines: ["#5aa9ff", "#ff9a3c", "#5fd88a", "#e0c8ff", "#b08050", "#ff6f9f"],
-    positive: "#5aa9ff",
-    negative: "#ff9a3c",
+    band: "#c8c8c8",
+    // The same six hues, lighter: mint teal (the dark theme's --accent), violet, citron, rose, periwinkle, apricot
+    lines: ["#7fd8c8", "#d058f8", "#d8c808", "#f85080", "#98a8e0", "#e08840"],
+    positive: "#7fd8c8",
+    negative: "#e08840",
   },
 };
+
+/** Opacity of the "within 1 SE" band: light enough that the grid and every line show through. */
+export const BAND_OPACITY = 0.13;
 
 /** Line patterns cycled once the hues run out (rank k by size: hue k mod 6, pattern ⌊k/6⌋ mod 3). */
 export const LINE_PATTERNS: readonly ("solid" | "dashed" | "dotted")[] = ["solid", "dashed", "dotted"];
@@ -242,18 +291,30 @@ export function escapeHtml(text: string): string {
   return text.replace(/[&<>"']/g, (c) => ({ "&": "&amp;", "<": "&lt;", ">": "&gt;", '"': "&quot;", "'": "&#39;" })[c] as string);
 }
 
+/** The name of the mix wherever a title, note or text alternative names it. */
+export const MIX_TITLE = "Mix α (lasso share)";
+
+/** Short form for legend entries and hover rows, where space is tight: "α = 0.25", "α = 0 (ridge)". */
 export function mixLabel(mix: number): string {
-  if (mix === 0) return "mix 0 (ridge)";
-  if (mix === 1) return "mix 1 (lasso)";
-  return `mix ${formatNumber(mix)}`;
+  if (mix === 0) return "α = 0 (ridge)";
+  if (mix === 1) return "α = 1 (lasso)";
+  return `α = ${formatNumber(mix)}`;
 }
+
+/** Long form for titles, notes and text alternatives: "Mix α (lasso share) = 0.25". */
+export function mixTitle(mix: number): string {
+  return `${MIX_TITLE} = ${mixLabel(mix).slice("α = ".length)}`;
+}
+
+/** The y axis of the path chart and the x axis of the bars: coefficient × the term's population SD. */
+export const STANDARDIZED_TITLE = "standardized coefficient (per SD)";
 
 function measureName(result: FitResult): string {
   return (result.cv?.measure ?? "mse").toUpperCase();
 }
 
 function ruleText(result: FitResult): string {
-  if (result.rule === "lowest") return "lowest cross-validated error";
+  if (result.rule === "lowest") return "lowest error";
   if (result.rule === "one-se") return "one-SE rule";
   return "fixed strength";
 }
@@ -313,7 +374,13 @@ interface StrengthAxisInput {
   max: number;
 }
 
-function strengthAxis(extent: StrengthAxisInput, palette: Palette, layout: Layout) {
+/** The x axis's title: what it measures, then "(log scale)" and the direction. */
+function strengthAxisName(quantity: string, layout: Layout): string {
+  // Two lines when compact: one line would not fit under a ~200 px plot.
+  return layout.compact ? `${quantity} (log scale)\nweaker to the right →` : `${quantity} (log scale), weaker →`;
+}
+
+function strengthAxis(extent: StrengthAxisInput, palette: Palette, layout: Layout, quantity = "penalty strength λ") {
   let { min, max } = extent;
   if (!(max > min)) {
     // One strength (or none): a decade either side so the log axis has a range.
@@ -327,8 +394,7 @@ function strengthAxis(extent: StrengthAxisInput, palette: Palette, layout: Layou
     inverse: true,
     min,
     max,
-    // Two lines when compact: one line would not fit under a ~200 px plot.
-    name: layout.compact ? "penalty strength λ (log scale)\nweaker to the right →" : "penalty strength λ (log scale), weaker →",
+    name: strengthAxisName(quantity, layout),
     nameLocation: "middle" as const,
     nameGap: layout.font + 10,
     // An explicit line height: browsers otherwise space the two lines by the font's own metrics.
@@ -464,31 +530,36 @@ function rankedTerms(result: FitResult, spreads?: ArrayLike<number | null> | nul
   return terms.sort((a, b) => Math.abs(b.chosen) - Math.abs(a.chosen) || a.index - b.index);
 }
 
-interface ChoiceMarker {
-  strength: number;
-  label: string;
-  chosen: boolean;
-  dashed: boolean;
+/**
+ * What the path chart marks: a band over the strengths within 1 SE (from the one-SE rule's
+ * strength to the lowest error's; both on the chosen mix, the path's), and one line at the
+ * strength the rule picked. A fixed-strength fit has only its line; least squares neither.
+ */
+export interface PathMarks {
+  /** [one-SE rule's strength, lowest error's strength], or null when they are the same (or no CV ran). */
+  band: [number, number] | null;
+  line: { strength: number; label: "chosen" | "fitted" } | null;
 }
 
-function choiceMarkers(result: FitResult): ChoiceMarker[] {
+export function pathMarks(result: FitResult): PathMarks {
   if (result.choices) {
     const { lowest: min, oneSe: onese } = result.choices;
-    if (onese.strength === min.strength) return [{ strength: min.strength, label: "min = 1 SE", chosen: true, dashed: false }];
-    return [
-      { strength: min.strength, label: "min", chosen: result.rule === "lowest", dashed: result.rule !== "lowest" },
-      { strength: onese.strength, label: "1 SE", chosen: result.rule === "one-se", dashed: result.rule !== "one-se" },
-    ];
+    return {
+      band: onese.strength !== min.strength ? [onese.strength, min.strength] : null,
+      line: { strength: result.strength, label: "chosen" },
+    };
   }
-  return result.strength > 0 ? [{ strength: result.strength, label: "fitted", chosen: true, dashed: false }] : [];
+  return { band: null, line: result.strength > 0 ? { strength: result.strength, label: "fitted" } : null };
 }
 
-/** What the markers mean, for the note under the title. */
-function markerNote(result: FitResult): string {
-  if (result.choices) {
-    return `Markers: min = lowest cross-validated error, 1 SE = one-SE rule; solid = chosen (${result.rule === "one-se" ? "1 SE" : "min"}).`;
-  }
-  return result.strength > 0 ? "Marker: the fixed strength fitted." : "";
+/** What the band and the line mean, for the note under the title. */
+function marksNote(result: FitResult): string {
+  const marks = pathMarks(result);
+  if (!marks.line) return "";
+  if (!result.choices) return "Line: the fixed strength fitted.";
+  const rule = ruleText(result);
+  if (!marks.band) return `Line: chosen (${rule}; both rules pick this λ).`;
+  return `Shaded: within 1 SE, from the one-SE rule's λ to the lowest error's. Line: chosen (${rule}).`;
 }
 
 type AxisParam = { seriesId?: string; seriesName?: string; value?: unknown; marker?: unknown; color?: unknown };
@@ -508,7 +579,8 @@ export function pathChartOptions(result: FitResult, settings: ChartSettings): Ch
     if (s > 0 && Number.isFinite(s)) keep.push(k);
   });
   const notes: string[] = [];
-  const markerText = keep.length > 0 ? markerNote(result) : "";
+  if (result.choices || result.strength > 0) notes.push(`${mixTitle(result.path.mix)}.`);
+  const markerText = keep.length > 0 ? marksNote(result) : "";
   if (markerText) notes.push(markerText);
   if (missing.length > 0) {
     notes.push(
@@ -550,42 +622,61 @@ export function pathChartOptions(result: FitResult, settings: ChartSettings): Ch
       labelLayout: { moveOverlap: "shiftY" },
     };
   });
-  const markers = choiceMarkers(result);
-  if (markers.length > 0 && keep.length > 0) {
+  const marks = keep.length > 0 ? pathMarks(result) : { band: null, line: null };
+  const labelFont = layout.font - 1;
+  if (marks.band) {
+    // Behind the term lines (z 1), full plot height; its label sits above the plot, one row
+    // higher than the line's label so the two never collide.
+    series.push({
+      type: "line",
+      id: "choice-band",
+      name: "within 1 SE",
+      data: [],
+      silent: true,
+      z: 1,
+      lineStyle: { opacity: 0 },
+      markArea: {
+        silent: true,
+        animation: false,
+        itemStyle: { color: palette.band, opacity: BAND_OPACITY, borderColor: palette.band, borderWidth: 0 },
+        label: { show: true, position: "top", distance: labelFont + 7, color: palette.muted, fontSize: labelFont },
+        data: [[{ xAxis: marks.band[0], name: "within 1 SE" }, { xAxis: marks.band[1] }]],
+      },
+    });
+  }
+  if (marks.line) {
     series.push({
       type: "line",
       id: "choices",
-      name: "choices",
+      name: marks.line.label,
       data: [],
       silent: true,
-      color: palette.muted,
+      color: palette.text,
       lineStyle: { opacity: 0 },
       markLine: {
         silent: true,
         symbol: ["none", "none"],
         animation: false,
-        data: markers.map((m) => ({
-          xAxis: m.strength,
-          name: m.label,
-          lineStyle: { color: m.chosen ? palette.text : palette.muted, type: m.dashed ? "dashed" : "solid", width: m.chosen ? 1.5 : 1 },
-          label: {
-            show: true,
-            formatter: m.label,
-            position: "end",
-            distance: 3,
-            color: palette.text,
-            fontSize: layout.font - 1,
-            fontWeight: m.chosen ? 600 : 400,
+        // echarts rounds a mark line's value to `precision` decimals (default 2) before placing
+        // it: 0.022 would be drawn at 0.02. A negative precision keeps the value as it is.
+        precision: -1,
+        data: [
+          {
+            xAxis: marks.line.strength,
+            name: marks.line.label,
+            lineStyle: { color: palette.text, type: "solid", width: 1.5 },
+            label: { show: true, formatter: marks.line.label, position: "end", distance: 3, color: palette.text, fontSize: labelFont, fontWeight: 600 },
           },
-        })),
+        ],
       },
     });
   }
   const legendShown = !layout.compact && drawn.length > 1;
-  // Marker labels sit above the plot.
-  const top = titleHeight(note, layout, settings.width) + (markers.length > 0 ? layout.font + 8 : 6);
+  // The line's label sits above the plot, the band's a row higher.
+  const labelRows = (marks.line ? 1 : 0) + (marks.band ? 1 : 0);
+  const top = titleHeight(note, layout, settings.width) + (labelRows > 0 ? labelRows * (labelFont + 7) + 2 : 6);
   const endLabelWidth = Math.max(0, ...drawn.filter((t) => labelled.has(t.index)).map((t) => textWidth(truncate(t.name, layout.nameChars), layout.font)));
-  const title = result.choices || result.strength > 0 ? `Coefficient path, ${mixLabel(result.path.mix)}` : "Coefficient path";
+  const title = "Coefficient path";
   let yLow = 0;
   let yHigh = 0;
   for (const s of series) {
@@ -601,7 +692,7 @@ export function pathChartOptions(result: FitResult, settings: ChartSettings): Ch
     title: titleOption(title, note, palette, layout, settings.width),
     grid,
     xAxis: strengthAxis(extent, palette, layout),
-    yAxis: { type: "value", ...valueAxisStyle("coefficient × SD of term", palette, layout), nameGap: yNameGap },
+    yAxis: { type: "value", ...valueAxisStyle(STANDARDIZED_TITLE, palette, layout), nameGap: yNameGap },
     tooltip: {
       ...tooltipBase(palette, layout),
       trigger: "axis",
@@ -615,7 +706,7 @@ export function pathChartOptions(result: FitResult, settings: ChartSettings): Ch
           .slice(0, layout.tooltipRows)
           .map((p) => `${typeof p.marker === "string" ? p.marker : ""}${escapeHtml(String(p.seriesName))}: ${formatNumber((p.value as number[])[1])}`);
         if (rows.length > layout.tooltipRows) lines.push(`+${rows.length - layout.tooltipRows} more`);
-        return [`λ ${formatNumber(strength)} (coefficient × SD)`, ...lines].join("<br/>");
+        return [`λ ${formatNumber(strength)} (${STANDARDIZED_TITLE})`, ...lines].join("<br/>");
       },
     },
     legend: {
@@ -641,7 +732,22 @@ export function pathChartOptions(result: FitResult, settings: ChartSettings): Ch
 // ---------------------------------------------------------------------------------------------
 // Cross-validation chart
 
+/**
+ * The top of each mix's grid: the first strength of that mix's rows in the CV table (the grid
+ * runs from its top down; FitResult's path.top covers the chosen mix only). Mixes whose first
+ * strength isn't positive are left out (no ratio to take).
+ */
+export function gridTops(result: FitResult): Map<number, number> {
+  const tops = new Map<number, number>();
+  for (const row of result.cv?.table ?? []) {
+    if (!tops.has(row.mix)) tops.set(row.mix, row.strength);
+  }
+  for (const [mix, top] of tops) if (!(top > 0 && Number.isFinite(top))) tops.delete(mix);
+  return tops;
+}
+
 export function cvChartOptions(result: FitResult, settings: ChartSettings): ChartOption {
+  const axisKind = settings.cvAxis ?? DEFAULT_CV_AXIS;
   const palette = PALETTES[settings.theme];
   const layout = layoutFor(settings.width);
   const measure = measureName(result);
@@ -662,15 +768,24 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
   const mixes: number[] = [];
   for (const row of table) if (!mixes.includes(row.mix)) mixes.push(row.mix);
   const best = result.choices?.lowest.mix ?? result.mix;
+  const tops = gridTops(result);
+  const fraction = axisKind === "fraction";
+  /** Where a strength of `mix` sits on the x axis (NaN when the mix has no grid top). */
+  const xOf = (mix: number, strength: number): number => (fraction ? strength / (tops.get(mix) ?? NaN) : strength);
+  const rowsOf = (mix: number) => table.filter((r) => r.mix === mix && r.strength > 0 && xOf(mix, r.strength) > 0);
   const series: LineSeriesOption[] = [];
   let lo = Infinity;
   let hi = 0;
-  mixes.forEach((mix, i) => {
-    const rows = table.filter((r) => r.mix === mix && r.strength > 0);
-    for (const r of rows) {
-      lo = Math.min(lo, r.strength);
-      hi = Math.max(hi, r.strength);
+  for (const mix of mixes) {
+    for (const r of rowsOf(mix)) {
+      lo = Math.min(lo, xOf(mix, r.strength));
+      hi = Math.max(hi, xOf(mix, r.strength));
     }
+  }
+  /** Share of the plot's width from its left edge (the axis is log and inverted: strong at the left). */
+  const across = (x: number): number => (hi > lo ? Math.log(hi / x) / Math.log(hi / lo) : 0.5);
+  mixes.forEach((mix, i) => {
+    const rows = rowsOf(mix);
     const color = palette.lines[i % palette.lines.length];
     const pattern = LINE_PATTERNS[Math.floor(i / palette.lines.length) % LINE_PATTERNS.length];
     const isBest = mix === best;
@@ -679,7 +794,7 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
       type: "line",
       id: `cv-mix-${i}`,
       name,
-      data: rows.map((r) => [r.strength, r.error, r.se, r.termsKept]),
+      data: rows.map((r) => [xOf(mix, r.strength), r.error, r.se, r.termsKept]),
       encode: { x: 0, y: 1 },
       showSymbol: false,
       symbolSize: 5,
@@ -691,14 +806,14 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
     if (isBest && result.choices) {
       const { lowest: min, oneSe: onese } = result.choices;
       const points = [
-        { label: "lowest", point: min, chosen: result.rule === "lowest", symbol: "circle", position: "top" as const },
-        { label: "one-SE", point: onese, chosen: result.rule === "one-se", symbol: "diamond", position: "bottom" as const },
+        { label: "lowest error", point: min, chosen: result.rule === "lowest", symbol: "circle", position: "top" as const },
+        { label: "one-SE rule", point: onese, chosen: result.rule === "one-se", symbol: "diamond", position: "bottom" as const },
       ];
       line.markPoint = {
         animation: false,
         data: points.map((p) => ({
           name: p.label,
-          coord: [p.point.strength, p.point.error],
+          coord: [xOf(mix, p.point.strength), p.point.error],
           value: p.point.error,
           symbol: p.symbol,
           symbolSize: p.chosen ? 12 : 9,
@@ -714,16 +829,20 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
           },
         })),
       };
+      // The "+ 1 SE" label goes to the side of the plot away from the marked points. On the
+      // inverted axis the line's end is its left end.
+      const pointsLeft = across(xOf(mix, Math.sqrt(min.strength * onese.strength))) < 0.5;
       line.markLine = {
         silent: true,
         symbol: ["none", "none"],
         animation: false,
+        precision: -1, // place the line at the exact value (see the path chart's line)
         data: [
           {
             yAxis: min.error + min.se,
-            name: "lowest + 1 SE",
+            name: "lowest error + 1 SE",
             lineStyle: { color: palette.muted, type: "dashed", width: 1 },
-            label: { show: true, formatter: "lowest + 1 SE", position: "insideEndTop", color: palette.muted, fontSize: layout.font - 1 },
+            label: { show: true, formatter: "lowest error + 1 SE", position: pointsLeft ? "insideStartTop" : "insideEndTop", color: palette.muted, fontSize: layout.font - 1 },
           },
         ],
       };
@@ -735,7 +854,7 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
       id: `cv-band-low-${i}`,
       name,
       stack: `band-${i}`,
-      data: rows.map((r) => [r.strength, r.error - r.se]),
+      data: rows.map((r) => [xOf(mix, r.strength), r.error - r.se]),
       symbol: "none",
       silent: true,
       lineStyle: { opacity: 0 },
@@ -747,7 +866,7 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
       id: `cv-band-${i}`,
       name,
       stack: `band-${i}`,
-      data: rows.map((r) => [r.strength, 2 * r.se]),
+      data: rows.map((r) => [xOf(mix, r.strength), 2 * r.se]),
       symbol: "none",
       silent: true,
       lineStyle: { opacity: 0 },
@@ -757,8 +876,11 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
     });
   });
   const legendShown = mixes.length > 1;
-  const note = `${legendShown ? "One line per mix α; shaded" : "Shaded"}: ± 1 SE over ${result.cv.folds} folds.`;
-  const title = mixes.length > 1 ? `Cross-validated ${measure} by mix` : `Cross-validated ${measure}, ${mixLabel(mixes[0])}`;
+  // The note is the legend's title: it names the mix in full, the legend entries say "α = …".
+  const note =
+    `${legendShown ? `Lines: ${MIX_TITLE}.` : `${mixTitle(mixes[0])}.`} Shaded: ± 1 SE over ${result.cv.folds} folds.` +
+    (fraction ? " Each mix's λ is divided by the top of its own grid." : "");
+  const title = `Cross-validated ${measure}`;
   let yLow = Infinity;
   let yHigh = -Infinity;
   for (const r of table) {
@@ -770,7 +892,7 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
     ...baseOption(palette, layout),
     title: titleOption(title, note, palette, layout, settings.width),
     grid,
-    xAxis: strengthAxis({ min: lo, max: hi }, palette, layout),
+    xAxis: strengthAxis({ min: lo, max: hi }, palette, layout, CV_AXIS_NAMES[axisKind]),
     yAxis: { type: "value", scale: true, ...valueAxisStyle(`cross-validated ${measure}`, palette, layout), nameGap: yNameGap },
     tooltip: {
       ...tooltipBase(palette, layout),
@@ -784,18 +906,20 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
         if (!(at > 0)) return "";
         const lines: string[] = [];
         mixes.forEach((mix, i) => {
-          const rows = table.filter((r) => r.mix === mix && r.strength > 0);
+          const rows = rowsOf(mix);
           if (rows.length === 0) return;
-          const top = rows[0].strength;
-          const bottom = rows[rows.length - 1].strength;
+          const x = (r: (typeof rows)[number]): number => xOf(mix, r.strength);
+          const top = x(rows[0]);
+          const bottom = x(rows[rows.length - 1]);
           if (at > top * 1.15 || at < bottom / 1.15) return; // outside this mix's grid
           let near = rows[0];
-          for (const r of rows) if (Math.abs(Math.log(r.strength / at)) < Math.abs(Math.log(near.strength / at))) near = r;
+          for (const r of rows) if (Math.abs(Math.log(x(r) / at)) < Math.abs(Math.log(x(near) / at))) near = r;
           const swatch = `<span style="display:inline-block;width:9px;height:9px;border-radius:50%;margin-right:5px;background:${palette.lines[i % palette.lines.length]}"></span>`;
-          lines.push(`${swatch}${escapeHtml(mixLabel(mix))}: ${formatNumber(near.error)} ± ${formatNumber(near.se)}, ${near.termsKept} terms`);
+          const where = fraction ? ` at λ ${formatNumber(near.strength)}` : "";
+          lines.push(`${swatch}${escapeHtml(mixLabel(mix))}: ${formatNumber(near.error)} ± ${formatNumber(near.se)}${where}, ${near.termsKept} terms kept`);
         });
         if (lines.length === 0) return "";
-        return [`cross-validated ${measure} ± 1 SE at λ ≈ ${formatNumber(at)}`, ...lines].join("<br/>");
+        return [`cross-validated ${measure} ± 1 SE at ${fraction ? "strength ÷ top of grid" : "λ"} ≈ ${formatNumber(at)}`, ...lines].join("<br/>");
       },
     },
     legend: {
@@ -805,8 +929,8 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
       left: 4,
       right: 4,
       data: mixes.map(mixLabel),
-      // Compact: "0 (ridge)", "0.25", … (the note says the lines are mixes).
-      formatter: layout.compact ? (name: string) => name.replace(/^mix /, "") : undefined,
+      // Compact: "0 (ridge)", "0.25", … (the note names the mix in full).
+      formatter: layout.compact ? (name: string) => name.replace(/^α = /, "") : undefined,
       itemWidth: 14,
       itemHeight: 8,
       itemGap: 8,
@@ -843,7 +967,11 @@ export function barEntries(result: FitResult): { nonzero: BarEntry[]; zero: stri
 
 function choiceTitle(result: FitResult): string {
   if (result.rule === "fixed" && result.strength === 0) return "least squares (λ 0)";
-  return `${mixLabel(result.mix)}, λ ${formatNumber(result.strength)}`;
+  return `λ ${formatNumber(result.strength)}`;
+}
+
+function leastSquares(result: FitResult): boolean {
+  return result.rule === "fixed" && result.strength === 0;
 }
 
 export function coefficientBarOptions(result: FitResult, settings: ChartSettings): ChartOption {
@@ -851,8 +979,9 @@ export function coefficientBarOptions(result: FitResult, settings: ChartSettings
   const layout = layoutFor(settings.width);
   const { nonzero, zero } = barEntries(result);
   const shown = nonzero.slice(0, MAX_BARS);
-  const notes = ["Per SD of each term; intercept not shown."];
-  if (nonzero.length > shown.length) notes.push(`${nonzero.length - shown.length} smaller nonzero terms not shown.`);
+  const notes = leastSquares(result) ? [] : [`${mixTitle(result.mix)}.`];
+  notes.push("Per SD of each term; intercept not shown.");
+  if (nonzero.length > shown.length) notes.push(`${nonzero.length - shown.length} smaller terms kept but not drawn.`);
   if (zero.length > 0) notes.push(`Zero, not drawn: ${nameList(zero, layout.compact ? 4 : 8, layout.nameChars)}`);
   if (nonzero.length === 0) notes.push("Every coefficient is 0: the model predicts the average.");
   const note = notes.join("\n");
@@ -881,7 +1010,7 @@ export function coefficientBarOptions(result: FitResult, settings: ChartSettings
       type: "value",
       min: low < 0 ? low - pad : 0,
       max: high > 0 ? high + pad : 0,
-      ...valueAxisStyle("coefficient × SD of term", palette, layout),
+      ...valueAxisStyle(STANDARDIZED_TITLE, palette, layout),
       nameGap: layout.font + 12,
       axisLabel: {
         color: palette.text,
@@ -918,7 +1047,7 @@ export function coefficientBarOptions(result: FitResult, settings: ChartSettings
       {
         type: "bar",
         id: "bars",
-        name: "coefficient × SD",
+        name: STANDARDIZED_TITLE,
         barMaxWidth: 18,
         barCategoryGap: "35%",
         data: shown.map((e) => ({
@@ -954,8 +1083,8 @@ export function chartOptions(kind: ChartKind, result: FitResult, settings: Chart
  * A height (px) that fits the chart at this width: the title and notes, axes and legend, plus a
  * plot area of about 0.55 × width (170–280 px) for the line charts, or 22–24 px a bar.
  */
-export function suggestedHeight(kind: ChartKind, result: FitResult, width: number, spreads?: ArrayLike<number | null> | null): number {
-  const options = chartOptions(kind, result, { theme: "light", width, spreads });
+export function suggestedHeight(kind: ChartKind, result: FitResult, width: number, spreads?: ArrayLike<number | null> | null, cvAxis?: CvAxis): number {
+  const options = chartOptions(kind, result, { theme: "light", width, spreads, cvAxis });
   const grid = options.grid as GridComponentOption | undefined;
   if (!grid || (Array.isArray(options.series) && options.series.length === 0)) return 120;
   const margins = Number(grid.top ?? 0) + Number(grid.bottom ?? 0);
@@ -967,7 +1096,7 @@ export function suggestedHeight(kind: ChartKind, result: FitResult, width: numbe
 }
 
 /** Short text alternative for screen readers. */
-export function describeChart(kind: ChartKind, result: FitResult, spreads?: ArrayLike<number | null> | null): string {
+export function describeChart(kind: ChartKind, result: FitResult, spreads?: ArrayLike<number | null> | null, cvAxis: CvAxis = DEFAULT_CV_AXIS): string {
   const largest = (entries: { name: string; value: number }[]): string =>
     entries
       .slice(0, 3)
@@ -981,10 +1110,23 @@ export function describeChart(kind: ChartKind, result: FitResult, spreads?: Arra
     const missing = ranked.length - drawn.length;
     const nonzero = result.coefficients.filter((b) => b !== 0).length;
     const top = drawn.filter((t) => t.chosen !== 0).map((t) => ({ name: t.name, value: t.chosen }));
+    const marks = pathMarks(result);
+    let marked = "";
+    if (marks.band && result.choices) {
+      marked =
+        `A shaded band marks the strengths within 1 SE, from λ ${formatNumber(result.choices.oneSe.strength)} (one-SE rule) ` +
+        `to λ ${formatNumber(result.choices.lowest.strength)} (lowest error). `;
+    }
+    if (marks.line) {
+      const why = !result.choices ? "the fixed strength" : marks.band ? ruleText(result) : "both rules pick it";
+      marked += `A solid line marks the ${marks.line.label} λ ${formatNumber(marks.line.strength)} (${why}), with ${nonzero} terms kept`;
+    } else {
+      marked += `At λ ${formatNumber(result.strength)}, ${nonzero} terms kept`;
+    }
     return (
-      `Coefficient path for ${mixLabel(result.path.mix)}: ${drawn.length} of ${result.terms.length} terms, ` +
+      `Coefficient path for ${mixTitle(result.path.mix)}: ${drawn.length} of ${result.terms.length} terms, ` +
       `λ from ${formatNumber(Math.max(...strengths))} down to ${formatNumber(Math.min(...strengths))} (log scale). ` +
-      `At the chosen λ ${formatNumber(result.strength)} (${ruleText(result)}) ${nonzero} terms are nonzero` +
+      marked +
       (top.length ? `; largest per SD: ${largest(top)}.` : ".") +
       (missing ? ` ${missing} terms not drawn (their SD is unknown).` : "")
     );
@@ -995,14 +1137,15 @@ export function describeChart(kind: ChartKind, result: FitResult, spreads?: Arra
     const mixes = [...new Set(result.cv.table.map((r) => r.mix))];
     const { lowest: min, oneSe: onese } = result.choices;
     return (
-      `Cross-validated ${measure} against λ for ${mixes.length === 1 ? mixLabel(mixes[0]) : `${mixes.length} mixes`}, with ± 1 SE bands. ` +
-      `Lowest: ${formatNumber(min.error)} ± ${formatNumber(min.se)} at ${mixLabel(min.mix)}, λ ${formatNumber(min.strength)}, ${min.termsKept} terms. ` +
-      `One-SE rule: λ ${formatNumber(onese.strength)}, ${onese.termsKept} terms. Chosen by ${ruleText(result)}.`
+      `Cross-validated ${measure} against ${cvAxis === "fraction" ? "strength ÷ top of grid (each mix's λ over the top of its own grid)" : "λ"} ` +
+      `for ${mixes.length === 1 ? mixTitle(mixes[0]) : `${mixes.length} values of ${MIX_TITLE}`}, with ± 1 SE bands (log scale). ` +
+      `Marked: lowest error ${formatNumber(min.error)} ± ${formatNumber(min.se)} at ${mixTitle(min.mix)}, λ ${formatNumber(min.strength)}, ${min.termsKept} terms kept; ` +
+      `one-SE rule at λ ${formatNumber(onese.strength)}, ${onese.termsKept} terms kept. Chosen: ${ruleText(result)}.`
     );
   }
   const { nonzero, zero } = barEntries(result);
   return (
-    `Coefficients per SD of each term at ${choiceTitle(result)}: ` +
+    `Coefficients per SD of each term at ${choiceTitle(result)}${leastSquares(result) ? "" : `, ${mixTitle(result.mix)}`}: ` +
     (nonzero.length ? `${largest(nonzero)}${nonzero.length > 3 ? `, and ${nonzero.length - 3} more` : ""}. ` : "all zero. ") +
     (zero.length ? `${zero.length} terms are zero.` : "No term is zero.")
   );
@@ -1013,7 +1156,7 @@ export function describeChart(kind: ChartKind, result: FitResult, spreads?: Arra
 
 /** The chart as SVG text, rendered without a DOM (echarts server-side rendering). */
 export function renderChartSvg(kind: ChartKind, result: FitResult, settings: ChartSettings & { height?: number }): string {
-  const height = settings.height ?? suggestedHeight(kind, result, settings.width, settings.spreads);
+  const height = settings.height ?? suggestedHeight(kind, result, settings.width, settings.spreads, settings.cvAxis);
   const chart = echarts.init(null, null, { renderer: "svg", ssr: true, width: settings.width, height });
   try {
     chart.setOption(chartOptions(kind, result, settings));
@@ -1035,17 +1178,18 @@ export function mountChart(el: HTMLElement, kind: ChartKind, result: FitResult, 
   let current = result;
   let theme = settings.theme;
   let spreads = settings.spreads ?? null;
+  let cvAxis = settings.cvAxis ?? DEFAULT_CV_AXIS;
   const ownHeight = el.clientHeight === 0;
   const fitHeight = (): void => {
-    if (ownHeight) el.style.height = `${suggestedHeight(kind, current, widthOf(el), spreads)}px`;
+    if (ownHeight) el.style.height = `${suggestedHeight(kind, current, widthOf(el), spreads, cvAxis)}px`;
   };
   fitHeight();
   const chart = echarts.init(el, null, { renderer: "svg" });
   let disposed = false;
   const draw = (): void => {
-    chart.setOption(chartOptions(kind, current, { theme, width: widthOf(el), spreads }), { notMerge: true });
+    chart.setOption(chartOptions(kind, current, { theme, width: widthOf(el), spreads, cvAxis }), { notMerge: true });
     el.setAttribute("role", "img");
-    el.setAttribute("aria-label", describeChart(kind, current, spreads));
+    el.setAttribute("aria-label", describeChart(kind, current, spreads, cvAxis));
   };
   const live = (): void => {
     if (disposed) throw new Error("this chart was disposed");
@@ -1063,6 +1207,15 @@ export function mountChart(el: HTMLElement, kind: ChartKind, result: FitResult, 
     setTheme(next: ChartTheme): void {
       live();
       theme = next;
+      draw();
+    },
+    setCvAxis(next: CvAxis): void {
+      live();
+      if (next === cvAxis) return;
+      cvAxis = next;
+      if (kind !== "cv") return;
+      fitHeight();
+      chart.resize();
       draw();
     },
     resize(): void {
@@ -1085,7 +1238,7 @@ export function mountChart(el: HTMLElement, kind: ChartKind, result: FitResult, 
       const holder = document.createElement("div");
       const offscreen = echarts.init(holder, null, { renderer: "canvas", width, height });
       try {
-        offscreen.setOption(chartOptions(kind, current, { theme, width, spreads }));
+        offscreen.setOption(chartOptions(kind, current, { theme, width, spreads, cvAxis }));
         return offscreen.getDataURL({ type: "png", pixelRatio: 2, backgroundColor: PALETTES[theme].background });
       } finally {
         offscreen.dispose();
@@ -1093,10 +1246,10 @@ export function mountChart(el: HTMLElement, kind: ChartKind, result: FitResult, 
     },
     exportSvg(): string {
       live();
-      return renderChartSvg(kind, current, { theme, width: chart.getWidth(), height: chart.getHeight(), spreads });
+      return renderChartSvg(kind, current, { theme, width: chart.getWidth(), height: chart.getHeight(), spreads, cvAxis });
     },
     describe(): string {
-      return describeChart(kind, current, spreads);
+      return describeChart(kind, current, spreads, cvAxis);
     },
   };
 }

@@ -32,6 +32,8 @@
  *               chosen-rows, fit-notes;
  *               chart-path, chart-cv, chart-bars (chart containers; role img, aria-label = the
  *               chart's describe()), chart-path-caption, chart-cv-caption, chart-bars-caption,
+ *               cv-axis (the CV chart's x-axis choice, a radio group: cv-axis-strength,
+ *               cv-axis-fraction; hidden with the CV chart),
  *               save-png-path, save-svg-path, save-png-cv, save-svg-cv, save-png-bars,
  *               save-svg-bars; results-table, copy-button, copy-status
  *   Formulas    destination-address, destination-use-selection, destination-prompt,
@@ -49,7 +51,7 @@ import { prepare } from "../../functions/api";
 import { sharedRunner } from "../../functions/functions";
 import { cancelSource, type FitRunner } from "../../functions/runner";
 import { formatAddress, parseAddress } from "../host/address";
-import { mountChart, type ChartHandle } from "../charts/charts";
+import { CV_AXES, CV_AXIS_NAMES, DEFAULT_CV_AXIS, mountChart, type ChartHandle, type CvAxis } from "../charts/charts";
 import {
   filledLines,
   findFilledCells,
@@ -348,10 +350,16 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
   notes.setAttribute("aria-label", "Notes on the fit");
 
   const chartArea = el("div", { className: "charts" });
-  const charts: Partial<Record<ChartKind, { handle: ChartHandle | null; box: HTMLElement; caption: HTMLElement; png: HTMLButtonElement; svg: HTMLButtonElement; note: HTMLElement }>> = {};
+  const charts: Partial<
+    Record<ChartKind, { handle: ChartHandle | null; box: HTMLElement; caption: HTMLElement; png: HTMLButtonElement; svg: HTMLButtonElement; note: HTMLElement; control: HTMLElement | null }>
+  > = {};
+  // The CV chart's x axis: λ itself, or each mix's λ over the top of its own grid (charts.ts
+  // CvAxis). Kept while the pane is open, across fits.
+  let cvAxis: CvAxis = DEFAULT_CV_AXIS;
   for (const chart of CHARTS) {
     const figure = el("figure", { className: "chart" });
     const heading = el("h3", { text: chart.title, id: `chart-${chart.kind}-title` });
+    const control = chart.kind === "cv" ? cvAxisControl() : null;
     const box = el("div", { className: "chart-box", testid: `chart-${chart.kind}`, id: `chart-${chart.kind}` });
     // mountChart makes the box an image labelled with its description (describe()).
     const note = el("p", { className: "hint" });
@@ -364,9 +372,9 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
     const saveButtons = el("div", { className: "buttons" });
     saveButtons.append(png, svg);
     figure.setAttribute("aria-labelledby", heading.id);
-    figure.append(heading, box, note, caption, saveButtons);
+    figure.append(heading, ...(control ? [control] : []), box, note, caption, saveButtons);
     chartArea.append(figure);
-    charts[chart.kind] = { handle: null, box, caption, png, svg, note };
+    charts[chart.kind] = { handle: null, box, caption, png, svg, note, control };
     png.addEventListener("click", () => {
       const handle = charts[chart.kind]?.handle;
       if (!handle) return;
@@ -389,6 +397,38 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
         say(`Could not save the picture: ${messageOf(error)}`, true);
       }
     });
+  }
+
+  /**
+   * Two radio buttons shown as a segmented switch: a labelled group (fieldset and legend), each
+   * option a real radio input (Tab to the group, arrow keys to choose), visible focus ring.
+   */
+  function cvAxisControl(): HTMLElement {
+    const group = el("fieldset", { className: "segmented", testid: "cv-axis" });
+    group.append(el("legend", { text: "X axis" }));
+    for (const axis of CV_AXES) {
+      const label = el("label");
+      const input = el("input", { testid: `cv-axis-${axis}`, id: `cv-axis-${axis}` });
+      input.type = "radio";
+      input.name = "cv-axis";
+      input.value = axis;
+      input.checked = axis === cvAxis;
+      input.addEventListener("change", () => {
+        if (!input.checked) return;
+        cvAxis = axis;
+        const slot = charts.cv;
+        if (!slot?.handle) return;
+        try {
+          slot.handle.setCvAxis(axis);
+          slot.caption.textContent = slot.handle.describe();
+        } catch (error) {
+          slot.caption.textContent = `The chart could not be drawn: ${messageOf(error)}`;
+        }
+      });
+      label.append(input, el("span", { text: CV_AXIS_NAMES[axis] }));
+      group.append(label);
+    }
+    return group;
   }
 
   const tableHeading = el("h3", { text: "Coefficients", id: "coefficients-title" });
@@ -580,6 +620,7 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
       slot.note.hidden = !unavailable;
       slot.note.textContent = unavailable ? "No cross-validation ran: the strength was fixed in the settings." : "";
       slot.box.hidden = unavailable;
+      if (slot.control) slot.control.hidden = unavailable;
       slot.png.disabled = unavailable;
       slot.svg.disabled = unavailable;
       if (unavailable) {
@@ -588,7 +629,7 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
       }
       try {
         if (slot.handle) slot.handle.update(result, spreads);
-        else slot.handle = mountChart(slot.box, chart.kind, result, { theme: host.theme(), spreads });
+        else slot.handle = mountChart(slot.box, chart.kind, result, { theme: host.theme(), spreads, cvAxis });
         slot.caption.textContent = slot.handle.describe();
       } catch (error) {
         slot.caption.textContent = `The chart could not be drawn: ${messageOf(error)}`;

@@ -9,7 +9,8 @@
  *   A…   inputs (range addresses), settings, data summary (rows used and skipped, mean and SD of
  *        every column as fitted), text columns with their reference level, notes,
  *        the chosen point beside the other rule's point, the coefficient table
- *   G3   the chart of the coefficient path (log strength axis)
+ *   G3   the chart of the coefficient path (log strength axis; coefficients in data units, as in
+ *        the path table it plots, unlike the pane's path chart, which is per SD)
  *   G25  the cross-validation table (mix, strength, CV error, ± SE, terms kept)
  *   M25  the path table (strength, one column per term): the chart's data
  *
@@ -226,12 +227,12 @@ export function buildReport(input: ReportInput): ReportSheet {
   };
   blocks.push(pathBlock);
   const chart: ReportChart = {
-    title: `Coefficient path (mix ${result.path.mix})`,
+    title: `Coefficient path, Mix α (lasso share) = ${result.path.mix}`,
     block: pathBlock,
     // A log axis needs positive strengths (a least-squares fit has strength 0 only).
     logX: path.strengths.length > 0 && path.strengths.every((s) => s > 0),
-    xTitle: "strength λ",
-    // The report's path table is in the data's own units (the pane's chart is per SD).
+    xTitle: "penalty strength λ",
+    // The path table holds the coefficients as fitted, in each column's own units.
     yTitle: "coefficient (data units)",
     at: CHART_AT,
   };

@@ -3,7 +3,8 @@
  * built standalone preview: the same pane as in Excel, on the stand-in workbook with the demo
  * data. Covers the issue's flows: pick ranges, fit with progress, charts, the chosen strength
  * against the engine, cancel and fit again, insert formulas without silent overwrites, the
- * report sheet, the accessibility scan, and screenshots (test-artifacts/).
+ * report sheet, the CV chart's x-axis switch, the accessibility scan, and screenshots
+ * (test-artifacts/).
  */
 import type { Browser, Page } from "playwright-core";
 import { prepare } from "../../functions/api";
@@ -100,6 +101,42 @@ suite("side pane in Chromium (standalone preview)", () => {
   }, 120000);
 
   test("the accessibility scan finds no serious or critical violation with results on screen", async () => {
+    expect(await scanAccessibility(page)).toEqual([]);
+  }, 60000);
+
+  test("the CV chart's x axis: a labelled radio pair beside the chart, worked by keyboard or pointer, redraws the chart with the other axis title", async () => {
+    const cvText = () => page.evaluate(() => document.querySelector('[data-testid="chart-cv"] svg')?.textContent ?? "");
+    const waitForAxis = (title: string) =>
+      page.waitForFunction((t) => (document.querySelector('[data-testid="chart-cv"] svg')?.textContent ?? "").includes(t), title, { timeout: 10000 });
+    // A group named by its legend, two radios named by their text.
+    const group = page.getByRole("group", { name: "X axis" });
+    expect(await group.getAttribute("data-testid")).toBe("cv-axis");
+    const strength = group.getByRole("radio", { name: "strength λ" });
+    const fraction = group.getByRole("radio", { name: "strength ÷ top of grid" });
+    // Default: λ itself.
+    expect(await strength.isChecked()).toBe(true);
+    expect(await fraction.isChecked()).toBe(false);
+    expect(await cvText()).toContain("strength λ (log scale)");
+    expect(await cvText()).not.toContain("top of grid");
+
+    // Keyboard: focus the checked radio, the arrow key moves the choice.
+    await strength.focus();
+    await page.keyboard.press("ArrowRight");
+    expect(await fraction.isChecked()).toBe(true);
+    await waitForAxis("strength ÷ top of grid (log scale)");
+    expect(await cvText()).not.toContain("strength λ (log scale)");
+    expect(await page.getByTestId("chart-cv").getAttribute("aria-label")).toContain("against strength ÷ top of grid");
+    expect(await page.getByTestId("chart-cv-caption").textContent()).toContain("against strength ÷ top of grid");
+    // The focused radio shows a focus ring (on its visible part, the text beside it).
+    const ring = await page.evaluate(() => getComputedStyle(document.querySelector('[data-testid="cv-axis-fraction"] + span') as Element).outlineStyle);
+    expect(ring).toBe("solid");
+    await saveScreenshot(page, "pane-cv-axis-fraction");
+
+    // Pointer: back to λ.
+    await strength.check();
+    await waitForAxis("strength λ (log scale)");
+    expect(await cvText()).not.toContain("top of grid");
+    expect(await page.getByTestId("chart-cv").getAttribute("aria-label")).toContain("against λ");
     expect(await scanAccessibility(page)).toEqual([]);
   }, 60000);
 

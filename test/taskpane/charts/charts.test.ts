@@ -20,6 +20,7 @@ jest.mock("echarts/charts", () => ({ LineChart: () => undefined, BarChart: () =>
 jest.mock("echarts/components", () => ({
   GridComponent: () => undefined,
   LegendComponent: () => undefined,
+  MarkAreaComponent: () => undefined,
   MarkLineComponent: () => undefined,
   MarkPointComponent: () => undefined,
   TitleComponent: () => undefined,
@@ -33,22 +34,29 @@ import { mkdtempSync, readFileSync, rmSync, writeFileSync } from "fs";
 import { tmpdir } from "os";
 import { join, resolve } from "path";
 import webpack from "webpack";
+import * as echarts from "echarts";
 import { fit, type FitResult } from "../../../engine/fit";
 import { roasteryRows } from "../../../addin/demo/roasteryData";
 import {
   barEntries,
   coefficientBarOptions,
   COMPACT_WIDTH,
+  CV_AXES,
   cvChartOptions,
+  DEFAULT_CV_AXIS,
   describeChart,
   escapeHtml,
   formatNumber,
+  gridTops,
   LINE_PATTERNS,
+  MIX_TITLE,
   PALETTES,
   pathChartOptions,
+  pathMarks,
   renderChartSvg,
   seriesChartOptions,
   spreadsMatch,
+  STANDARDIZED_TITLE,
   suggestedHeight,
   termSpreads,
   type ChartKind,
@@ -208,6 +216,7 @@ describe("coefficient path", () => {
     expect(xAxis.type).toBe("log");
     expect(xAxis.inverse).toBe(true);
     expect(String(xAxis.name)).toContain("penalty strength λ (log scale)");
+    expect(axis(option, "yAxis").name).toBe("standardized coefficient (per SD)");
     const chosen = ridge.path.strengths.indexOf(ridge.strength);
     expect(chosen).toBeGreaterThanOrEqual(0);
     for (const line of lines) {
@@ -227,25 +236,79 @@ describe("coefficient path", () => {
     });
   });
 
-  test("vertical markers at the lowest-error and one-SE strengths (engine result); the rule's pick drawn solid", () => {
+  test("a light band 'within 1 SE' from the one-SE rule's strength to the lowest error's, one solid line 'chosen' at the rule's pick (engine result)", () => {
     for (const result of [lowestRule, onese]) {
       const option = pathChartOptions(result, { theme: "light", width: 360 });
-      const marker = withIdPrefix(option, "choices")[0];
-      const data = (marker.markLine as { data: { xAxis: number; name: string; lineStyle: { type: string } }[] }).data;
       const choices = result.choices as NonNullable<FitResult["choices"]>;
       expect(choices.oneSe.strength).toBeGreaterThan(choices.lowest.strength);
-      expect(data.map((d) => d.xAxis)).toEqual([choices.lowest.strength, choices.oneSe.strength]);
-      expect(data.map((d) => d.lineStyle.type)).toEqual(result.rule === "lowest" ? ["solid", "dashed"] : ["dashed", "solid"]);
+      const band = withIdPrefix(option, "choice-band")[0];
+      const area = band.markArea as { data: [{ xAxis: number; name: string }, { xAxis: number }][]; itemStyle: { color: string; opacity: number }; label: { show: boolean } };
+      expect(area.data).toHaveLength(1);
+      expect([area.data[0][0].xAxis, area.data[0][1].xAxis]).toEqual([choices.oneSe.strength, choices.lowest.strength]);
+      expect(area.data[0][0].name).toBe("within 1 SE");
+      expect(area.label.show).toBe(true);
+      expect(area.itemStyle.opacity).toBeLessThanOrEqual(0.2); // light: the lines show through
+      expect(band.z).toBeLessThan(withIdPrefix(option, "term-")[0].z as number); // behind the lines
+      const line = withIdPrefix(option, "choices");
+      expect(line).toHaveLength(1);
+      const data = (line[0].markLine as { data: { xAxis: number; name: string; lineStyle: { type: string }; label: { formatter: string } }[] }).data;
+      expect(data).toHaveLength(1);
+      expect(data[0].xAxis).toBe(result.strength);
+      expect(data[0].xAxis).toBe(result.rule === "lowest" ? choices.lowest.strength : choices.oneSe.strength);
+      expect(data[0].lineStyle.type).toBe("solid");
+      expect(data[0].label.formatter).toBe("chosen");
+      expect(pathMarks(result)).toEqual({ band: [choices.oneSe.strength, choices.lowest.strength], line: { strength: result.strength, label: "chosen" } });
+      const note = String((option.title as AnyRecord).subtext);
+      expect(note).toContain("within 1 SE");
+      expect(note).toContain(`chosen (${result.rule === "lowest" ? "lowest error" : "one-SE rule"})`);
     }
   });
 
-  test("a fixed-strength fit gets one marker at its strength; least squares (λ 0) has no path and says so", () => {
+  test("when both rules pick the same strength there is no band, just the line", () => {
+    const choices = lowestRule.choices as NonNullable<FitResult["choices"]>;
+    const same: FitResult = { ...lowestRule, choices: { lowest: choices.lowest, oneSe: { ...choices.lowest } } };
+    const option = pathChartOptions(same, { theme: "light", width: 360 });
+    expect(withIdPrefix(option, "choice-band")).toHaveLength(0);
+    const data = (withIdPrefix(option, "choices")[0].markLine as { data: { xAxis: number; label: { formatter: string } }[] }).data;
+    expect(data.map((d) => [d.xAxis, d.label.formatter])).toEqual([[same.strength, "chosen"]]);
+    expect(String((option.title as AnyRecord).subtext)).not.toContain("within 1 SE");
+    const text = describeChart("path", same);
+    expect(text).not.toContain("band");
+    expect(text).toContain(`chosen λ ${formatNumber(same.strength)} (both rules pick it)`);
+  });
+
+  test("the band and the line are drawn at their exact strengths (echarts would round a mark line's value to 2 decimals)", () => {
+    for (const result of [lowestRule, onese]) {
+      const chart = echarts.init(null, null, { renderer: "svg", ssr: true, width: 360, height: 400 });
+      try {
+        chart.setOption(pathChartOptions(result, { theme: "light", width: 360 }));
+        const choices = result.choices as NonNullable<FitResult["choices"]>;
+        const pixel = (strength: number): number => chart.convertToPixel({ xAxisIndex: 0 }, strength) as unknown as number;
+        const svg = chart.renderToSVGString();
+        // The line: a vertical path in the text colour, 1.5 px wide (echarts snaps it to the pixel grid).
+        const line = new RegExp(`<path d="M([\\d.]+) [\\d.]+L([\\d.]+) [\\d.]+"[^>]*stroke="${PALETTES.light.text}" stroke-width="1.5"`).exec(svg);
+        expect(line).not.toBeNull();
+        expect(Math.abs(Number(line?.[1]) - pixel(result.strength))).toBeLessThanOrEqual(1);
+        // The band: a polygon in the band colour, its left and right edges at the two strengths.
+        const band = new RegExp(`<polygon points="([^"]+)" fill="${PALETTES.light.band}"`).exec(svg);
+        const xs = (band?.[1] ?? "").split(" ").filter((_, k) => k % 2 === 0).map(Number);
+        expect(Math.abs(Math.min(...xs) - pixel(choices.oneSe.strength))).toBeLessThanOrEqual(0.5);
+        expect(Math.abs(Math.max(...xs) - pixel(choices.lowest.strength))).toBeLessThanOrEqual(0.5);
+      } finally {
+        chart.dispose();
+      }
+    }
+  });
+
+  test("a fixed-strength fit gets one line at its strength and no band; least squares (λ 0) has no path and says so", () => {
     const option = pathChartOptions(fixed, { theme: "light", width: 360 });
-    const data = (withIdPrefix(option, "choices")[0].markLine as { data: { xAxis: number }[] }).data;
-    expect(data.map((d) => d.xAxis)).toEqual([0.05]);
+    const data = (withIdPrefix(option, "choices")[0].markLine as { data: { xAxis: number; label: { formatter: string } }[] }).data;
+    expect(data.map((d) => [d.xAxis, d.label.formatter])).toEqual([[0.05, "fitted"]]);
+    expect(withIdPrefix(option, "choice-band")).toHaveLength(0);
     const ls = pathChartOptions(leastSquares, { theme: "light", width: 360 });
     for (const line of withIdPrefix(ls, "term-")) expect(line.data).toEqual([]);
     expect(withIdPrefix(ls, "choices")).toHaveLength(0);
+    expect(withIdPrefix(ls, "choice-band")).toHaveLength(0);
     expect(String((ls.title as AnyRecord).subtext)).toContain("no path");
     expect(describeChart("path", leastSquares)).toContain("not available");
   });
@@ -339,7 +402,7 @@ describe("coefficient path", () => {
 
 describe("cross-validation curve", () => {
   test("one line per mix in the engine's table, each with a ± SE band drawn by stacking", () => {
-    const option = cvChartOptions(lowestRule, { theme: "light", width: 360 });
+    const option = cvChartOptions(lowestRule, { theme: "light", width: 360, cvAxis: "strength" });
     const table = (lowestRule.cv as NonNullable<FitResult["cv"]>).table;
     const mixes = [...new Set(table.map((r) => r.mix))];
     expect(mixes).toEqual([0, 0.25, 0.5, 0.75, 1]); // engine default mixes (engine result)
@@ -361,11 +424,12 @@ describe("cross-validation curve", () => {
 
   test("the lowest-error and one-SE points are marked on the winning mix at the engine's choices", () => {
     for (const result of [lowestRule, onese]) {
-      const option = cvChartOptions(result, { theme: "light", width: 450 });
+      const option = cvChartOptions(result, { theme: "light", width: 450, cvAxis: "strength" });
       const choices = result.choices as NonNullable<FitResult["choices"]>;
       const mixes = [...new Set((result.cv as NonNullable<FitResult["cv"]>).table.map((r) => r.mix))];
       const best = withIdPrefix(option, `cv-mix-${mixes.indexOf(choices.lowest.mix)}`)[0];
-      const points = (best.markPoint as { data: { coord: number[]; label: { formatter: string } }[] }).data;
+      const points = (best.markPoint as { data: { coord: number[]; name: string; label: { formatter: string } }[] }).data;
+      expect(points.map((p) => p.name)).toEqual(["lowest error", "one-SE rule"]);
       expect(points.map((p) => p.coord)).toEqual([
         [choices.lowest.strength, choices.lowest.error],
         [choices.oneSe.strength, choices.oneSe.error],
@@ -379,21 +443,95 @@ describe("cross-validation curve", () => {
   });
 
   test("the hover text lists each mix whose grid covers the pointer, at its nearest strength (engine result)", () => {
-    const option = cvChartOptions(lowestRule, { theme: "light", width: 360 });
+    const option = cvChartOptions(lowestRule, { theme: "light", width: 360, cvAxis: "strength" });
     const formatter = (option.tooltip as { formatter: (p: unknown) => string }).formatter;
     const choices = lowestRule.choices as NonNullable<FitResult["choices"]>;
     const table = (lowestRule.cv as NonNullable<FitResult["cv"]>).table;
     const at = choices.lowest.strength;
     const html = formatter([{ seriesId: "cv-mix-4", axisValue: at, value: [at, choices.lowest.error, choices.lowest.se, choices.lowest.termsKept] }]);
-    expect(html).toContain(`mix 1 (lasso): ${formatNumber(choices.lowest.error)} ± ${formatNumber(choices.lowest.se)}, ${choices.lowest.termsKept} terms`);
+    expect(html).toContain(`α = 1 (lasso): ${formatNumber(choices.lowest.error)} ± ${formatNumber(choices.lowest.se)}, ${choices.lowest.termsKept} terms kept`);
     for (const mix of [0.25, 0.5, 0.75]) {
       const rows = table.filter((r) => r.mix === mix);
       const near = rows.reduce((a, b) => (Math.abs(Math.log(b.strength / at)) < Math.abs(Math.log(a.strength / at)) ? b : a));
-      expect(html).toContain(`mix ${mix}: ${formatNumber(near.error)} ± ${formatNumber(near.se)}`);
+      expect(html).toContain(`α = ${mix}: ${formatNumber(near.error)} ± ${formatNumber(near.se)}`);
     }
     // Ridge's grid stops well above this strength (engine result): not listed.
     expect(Math.min(...table.filter((r) => r.mix === 0).map((r) => r.strength))).toBeGreaterThan(1.15 * at);
     expect(html).not.toContain("ridge");
+  });
+
+  test("each mix's grid top is the first strength of its rows; the engine's own figures agree (path.top, strengthFraction)", () => {
+    const table = (lowestRule.cv as NonNullable<FitResult["cv"]>).table;
+    const tops = gridTops(lowestRule);
+    expect([...tops.keys()]).toEqual([0, 0.25, 0.5, 0.75, 1]);
+    for (const [mix, top] of tops) {
+      const rows = table.filter((r) => r.mix === mix);
+      expect(top).toBe(rows[0].strength);
+      expect(Math.max(...rows.map((r) => r.strength))).toBe(top); // the grid runs down from its top
+    }
+    // Engine result: the chosen mix's path starts at its grid top, and the choices' strengthFraction is strength ÷ that top.
+    const choices = lowestRule.choices as NonNullable<FitResult["choices"]>;
+    expect(lowestRule.path.mix).toBe(choices.lowest.mix);
+    expect(tops.get(lowestRule.path.mix)).toBe(lowestRule.path.top);
+    for (const point of [choices.lowest, choices.oneSe]) expect(relative(point.strength / (tops.get(point.mix) as number), point.strengthFraction)).toBeLessThan(1e-15);
+    // Ridge's top sits far above the others' (the reason for the second axis).
+    expect(tops.get(0) as number).toBeGreaterThan(50 * (tops.get(1) as number));
+    expect(gridTops(fixed).size).toBe(0);
+  });
+
+  test.each(CV_AXES)("x axis '%s': x = strength (or strength ÷ that mix's top) for every line, band and marked point; log axis, inverted, titled", (cvAxis) => {
+    const option = cvChartOptions(lowestRule, { theme: "light", width: 450, cvAxis });
+    const table = (lowestRule.cv as NonNullable<FitResult["cv"]>).table;
+    const tops = gridTops(lowestRule);
+    const mixes = [...tops.keys()];
+    const x = (mix: number, strength: number): number => (cvAxis === "fraction" ? strength / (tops.get(mix) as number) : strength);
+    mixes.forEach((mix, i) => {
+      const rows = table.filter((r) => r.mix === mix);
+      const expected = rows.map((r) => x(mix, r.strength));
+      expect((withIdPrefix(option, `cv-mix-${i}`)[0].data as number[][]).map((p) => p[0])).toEqual(expected);
+      expect((withIdPrefix(option, `cv-band-low-${i}`)[0].data as number[][]).map((p) => p[0])).toEqual(expected);
+      expect((withIdPrefix(option, `cv-band-${i}`)[0].data as number[][]).map((p) => p[0])).toEqual(expected);
+      if (cvAxis === "fraction") expect(expected[0]).toBe(1); // every mix starts at its own top
+    });
+    const choices = lowestRule.choices as NonNullable<FitResult["choices"]>;
+    const best = withIdPrefix(option, `cv-mix-${mixes.indexOf(choices.lowest.mix)}`)[0];
+    const coords = (best.markPoint as { data: { coord: number[] }[] }).data.map((p) => p.coord[0]);
+    // Engine result: on the fraction axis the marks sit at the choices' own strengthFraction.
+    const wanted = cvAxis === "fraction" ? [choices.lowest.strengthFraction, choices.oneSe.strengthFraction] : [choices.lowest.strength, choices.oneSe.strength];
+    coords.forEach((c, k) => expect(relative(c, wanted[k])).toBeLessThan(1e-15));
+    const xAxis = axis(option, "xAxis");
+    expect(xAxis.type).toBe("log");
+    expect(xAxis.inverse).toBe(true);
+    const all = table.map((r) => x(r.mix, r.strength));
+    expect([xAxis.min, xAxis.max]).toEqual([Math.min(...all), Math.max(...all)]);
+    const title = cvAxis === "fraction" ? "strength ÷ top of grid (log scale)" : "strength λ (log scale)";
+    expect(String(xAxis.name)).toContain(title);
+    expect(String(xAxis.name)).toContain("weaker");
+    const compact = cvChartOptions(lowestRule, { theme: "light", width: 320, cvAxis });
+    expect(String(axis(compact, "xAxis").name).split("\n")[0]).toBe(title);
+    expect(describeChart("cv", lowestRule, null, cvAxis)).toContain(cvAxis === "fraction" ? "against strength ÷ top of grid" : "against λ");
+  });
+
+  test("the default x axis is λ itself (it reads better on the demo data; see DEFAULT_CV_AXIS)", () => {
+    expect(DEFAULT_CV_AXIS).toBe("strength");
+    // (The options hold formatter functions, new each time: compare their data.)
+    expect(JSON.stringify(cvChartOptions(lowestRule, { theme: "light", width: 360 }))).toBe(JSON.stringify(cvChartOptions(lowestRule, { theme: "light", width: 360, cvAxis: "strength" })));
+    expect(String((cvChartOptions(lowestRule, { theme: "light", width: 360, cvAxis: "fraction" }).title as AnyRecord).subtext)).toContain("divided by the top of its own grid");
+  });
+
+  test("on the fraction axis the hover text finds each mix's nearest point by its own fraction, and gives its λ", () => {
+    const option = cvChartOptions(lowestRule, { theme: "light", width: 360, cvAxis: "fraction" });
+    const formatter = (option.tooltip as { formatter: (p: unknown) => string }).formatter;
+    const table = (lowestRule.cv as NonNullable<FitResult["cv"]>).table;
+    const tops = gridTops(lowestRule);
+    const at = 0.05;
+    const html = formatter([{ seriesId: "cv-mix-0", axisValue: at }]);
+    expect(html).toContain("strength ÷ top of grid ≈ 0.05");
+    for (const [mix, top] of tops) {
+      const rows = table.filter((r) => r.mix === mix);
+      const near = rows.reduce((a, b) => (Math.abs(Math.log(b.strength / top / at)) < Math.abs(Math.log(a.strength / top / at)) ? b : a));
+      expect(html).toContain(`${mix === 0 ? "α = 0 (ridge)" : mix === 1 ? "α = 1 (lasso)" : `α = ${mix}`}: ${formatNumber(near.error)} ± ${formatNumber(near.se)} at λ ${formatNumber(near.strength)}`);
+    }
   });
 
   test("the y axis names the error measure", () => {
@@ -453,29 +591,35 @@ describe("palettes", () => {
     expect(Math.abs(contrast("#767676", "#ffffff") - 4.54)).toBeLessThan(0.01);
   });
 
-  test.each(THEMES)("%s: text ≥ 4.5:1 and graphics ≥ 3:1 against the background (WCAG 2.x, common practice)", (theme) => {
+  test.each(THEMES)("%s: text, lines and bars ≥ 4.5:1, axes ≥ 3:1 against the background (WCAG 2.x, common practice)", (theme) => {
     const p = PALETTES[theme];
-    for (const [what, colour] of [
-      ["text", p.text],
-      ["muted", p.muted],
-    ]) {
+    // Lines and bars are held to the text level (4.5:1), above WCAG's 3:1 for graphics.
+    for (const [what, colour] of [["text", p.text], ["muted", p.muted], ["positive", p.positive], ["negative", p.negative], ...p.lines.map((c, k) => [`line ${k}`, c])]) {
       expect([what, contrast(colour, p.background) >= 4.5]).toEqual([what, true]);
     }
-    for (const [what, colour] of [["axis", p.axis], ["positive", p.positive], ["negative", p.negative], ...p.lines.map((c, k) => [`line ${k}`, c])]) {
-      expect([what, contrast(colour, p.background) >= 3]).toEqual([what, true]);
-    }
+    expect(["axis", contrast(p.axis, p.background) >= 3]).toEqual(["axis", true]);
   });
 
-  test.each(THEMES)("%s: the six line hues stay apart (ΔE*ab ≥ 15) under simulated protan, deutan and tritan vision", (theme) => {
-    const lines = PALETTES[theme].lines;
+  test.each(THEMES)("%s: the first line hue and the positive bars are the pane's own accent (taskpane.html --accent)", (theme) => {
+    const html = readFileSync(join(ROOT, "taskpane", "taskpane.html"), "utf8");
+    const block = theme === "light" ? /:root\s*\{([^}]*)\}/.exec(html) : /:root\[data-theme="dark"\]\s*\{([^}]*)\}/.exec(html);
+    const accent = /--accent:\s*(#[0-9a-f]{6})/i.exec(block?.[1] ?? "")?.[1];
+    expect(accent).toBeDefined();
+    expect(PALETTES[theme].lines[0]).toBe(accent);
+    expect(PALETTES[theme].positive).toBe(accent);
+  });
+
+  test.each(THEMES)("%s: the six line hues, and the two bar colours, stay apart (ΔE*ab ≥ 20) under typical and simulated protan, deutan and tritan vision", (theme) => {
+    const { lines, positive, negative } = PALETTES[theme];
     expect(lines).toHaveLength(6);
+    expect(new Set(lines).size).toBe(6);
+    const pairs: [string, string][] = [[positive, negative]];
+    for (let a = 0; a < lines.length; a++) for (let b = a + 1; b < lines.length; b++) pairs.push([lines[a], lines[b]]);
     for (const [vision, matrix] of Object.entries(SIMULATIONS)) {
-      for (let a = 0; a < lines.length; a++) {
-        for (let b = a + 1; b < lines.length; b++) {
-          const [p, q] = [simulatedLab(lines[a], matrix), simulatedLab(lines[b], matrix)];
-          const difference = Math.hypot(p[0] - q[0], p[1] - q[1], p[2] - q[2]);
-          expect([vision, lines[a], lines[b], difference >= 15]).toEqual([vision, lines[a], lines[b], true]);
-        }
+      for (const [a, b] of pairs) {
+        const [p, q] = [simulatedLab(a, matrix), simulatedLab(b, matrix)];
+        const difference = Math.hypot(p[0] - q[0], p[1] - q[1], p[2] - q[2]);
+        expect([vision, a, b, difference >= 20]).toEqual([vision, a, b, true]);
       }
     }
   });
@@ -530,7 +674,7 @@ describe("narrow widths", () => {
     expect((axis(barsNarrow, "yAxis").axisLabel as AnyRecord).overflow).toBe("truncate");
     // The CV legend stays (mixes are few) but drops the word "mix" when narrow.
     const legendFormatter = (cvChartOptions(lowestRule, { theme: "light", width: 320 }).legend as { formatter: (n: string) => string }).formatter;
-    expect(legendFormatter("mix 0 (ridge)")).toBe("0 (ridge)");
+    expect(legendFormatter("α = 0 (ridge)")).toBe("0 (ridge)");
   });
 
   test("plot margins leave the plot most of the width, and the suggested height grows with the notes and bars", () => {
@@ -547,18 +691,75 @@ describe("narrow widths", () => {
 });
 
 // ------------------------------------------------------------------------------------------
+// Wording
+
+/** Every text a reader sees in an option: titles, notes, axis names, legend entries, series names, mark labels. */
+function shownTexts(option: ChartOption): string[] {
+  const texts: string[] = [];
+  const walk = (node: unknown, key: string): void => {
+    if (typeof node === "string") {
+      if (["text", "subtext", "name", "formatter", "legend"].includes(key)) texts.push(node);
+    } else if (Array.isArray(node)) node.forEach((n) => walk(n, key));
+    else if (node && typeof node === "object") for (const [k, v] of Object.entries(node)) walk(v, k === "data" && key === "legend" ? "legend" : k);
+  };
+  walk(option, "");
+  return texts;
+}
+
+describe("wording", () => {
+  test("rule names are 'lowest error' and 'one-SE rule', counts say 'terms kept', the mix is 'Mix α (lasso share)' (legend entries 'α = …')", () => {
+    const seen = new Set<string>();
+    for (const result of [lowestRule, onese, ridge, mae, fixed, leastSquares]) {
+      for (const width of [320, 450]) {
+        for (const kind of KINDS) {
+          const option = (kind === "path" ? pathChartOptions : kind === "cv" ? cvChartOptions : coefficientBarOptions)(result, { theme: "light", width });
+          for (const text of [...shownTexts(option), describeChart(kind, result)]) {
+            seen.add(text);
+            expect([text, /\bmin\b|\bnonzero\b|\blowest(?! error)|one-SE(?! rule)|(?<!(within|±|\+) )1 SE/i.test(text)]).toEqual([text, false]);
+            // "mix" only inside the full name; the short form "α = …" is fine.
+            expect([text, /mix/i.test(text.split(MIX_TITLE).join(""))]).toEqual([text, false]);
+          }
+        }
+      }
+    }
+    const all = [...seen].join("\n");
+    for (const wanted of ["lowest error", "one-SE rule", "terms kept", "within 1 SE", "chosen", MIX_TITLE, "α = 0.25"]) expect([wanted, all.includes(wanted)]).toEqual([wanted, true]);
+  });
+
+  test("the CV chart's legend says 'α = …'; its note, the legend's title, names the mix in full", () => {
+    const option = cvChartOptions(lowestRule, { theme: "light", width: 450 });
+    expect((option.legend as { data: string[] }).data).toEqual(["α = 0 (ridge)", "α = 0.25", "α = 0.5", "α = 0.75", "α = 1 (lasso)"]);
+    expect(String((option.title as AnyRecord).subtext)).toContain(`Lines: ${MIX_TITLE}.`);
+    const single = cvChartOptions(ridge, { theme: "light", width: 450 });
+    expect(String((single.title as AnyRecord).subtext)).toContain(`${MIX_TITLE} = 0 (ridge).`);
+  });
+
+  test("axis titles: per SD on the pane's path and bars (the report sheet's chart says data units, see report.test.ts)", () => {
+    expect(STANDARDIZED_TITLE).toBe("standardized coefficient (per SD)");
+    expect(axis(pathChartOptions(lowestRule, { theme: "light", width: 360 }), "yAxis").name).toBe(STANDARDIZED_TITLE);
+    expect(axis(coefficientBarOptions(lowestRule, { theme: "light", width: 360 }), "xAxis").name).toBe(STANDARDIZED_TITLE);
+  });
+});
+
+// ------------------------------------------------------------------------------------------
 // Text alternatives and numbers
 
 describe("text alternatives", () => {
   test("each chart's description states what it shows from the engine result", () => {
     const path = describeChart("path", lowestRule);
-    expect(path).toContain("mix 1 (lasso)");
+    expect(path).toContain("Mix α (lasso share) = 1 (lasso)");
     expect(path).toContain(`${NAMES.length - NAMES.filter((_, j) => lowestRule.coefficients[j] === 0 && lowestRule.path.coefficients.some((r) => r[j] !== 0)).length} of ${NAMES.length} terms`);
     const top = NAMES[lowestRule.standardizedCoefficients.map(Math.abs).indexOf(Math.max(...lowestRule.standardizedCoefficients.map(Math.abs)))];
     expect(path).toContain(top);
     const choices = lowestRule.choices as NonNullable<FitResult["choices"]>;
+    // The band and the line, in words (engine result: the two rules' strengths, the rule's pick).
+    expect(path).toContain(
+      `A shaded band marks the strengths within 1 SE, from λ ${formatNumber(choices.oneSe.strength)} (one-SE rule) to λ ${formatNumber(choices.lowest.strength)} (lowest error).`,
+    );
+    expect(path).toContain(`A solid line marks the chosen λ ${formatNumber(lowestRule.strength)} (lowest error), with ${lowestRule.coefficients.filter((b) => b !== 0).length} terms kept`);
+    expect(describeChart("path", onese)).toContain(`A solid line marks the chosen λ ${formatNumber(onese.strength)} (one-SE rule)`);
     const cv = describeChart("cv", lowestRule);
-    expect(cv).toContain("5 mixes");
+    expect(cv).toContain("5 values of Mix α (lasso share)");
     expect(cv).toContain(formatNumber(choices.lowest.error));
     expect(cv).toContain(formatNumber(choices.oneSe.strength));
     const bars = describeChart("bars", lowestRule);
@@ -592,8 +793,9 @@ describe("SVG rendering (echarts server-side rendering)", () => {
     }
     const lassoPath = renderChartSvg("path", lowestRule, { theme, width: 360 });
     expect(termLinePaths(lassoPath, PALETTES[theme])).toBe(withIdPrefix(pathChartOptions(lowestRule, { theme, width: 360 }), "term-").length);
-    expect(lassoPath).toContain(">min<");
-    expect(lassoPath).toContain(">1 SE<");
+    expect(lassoPath).toContain(">chosen<");
+    expect(lassoPath).toContain(">within 1 SE<");
+    expect(lassoPath).not.toMatch(/>(min|1 SE)</);
     const bars = renderChartSvg("bars", lowestRule, { theme, width: 360 });
     for (const entry of barEntries(lowestRule).nonzero.slice(0, 3)) expect(bars).toContain(`>${entry.name}<`);
   });
@@ -696,6 +898,7 @@ suiteGate("mountChart in Chromium (test/taskpane/charts.test.ts)", [chromiumNeed
           type Handle = {
             update(r: unknown): void;
             setTheme(t: string): void;
+            setCvAxis(a: string): void;
             resize(): void;
             dispose(): void;
             exportPng(): string;
@@ -721,6 +924,12 @@ suiteGate("mountChart in Chromium (test/taskpane/charts.test.ts)", [chromiumNeed
               pngSize: [u32(16), u32(20)],
               svg: handle.exportSvg().slice(0, 120),
             };
+            // The CV chart's x axis switches in place (the other charts keep theirs).
+            const svgText = (): string => el.querySelector("svg")?.textContent ?? "";
+            handle.setCvAxis("fraction");
+            const fraction = { text: svgText(), label: el.getAttribute("aria-label") ?? "" };
+            handle.setCvAxis("strength");
+            const strength = { text: svgText(), label: el.getAttribute("aria-label") ?? "" };
             handle.setTheme("dark");
             const darkShown = el.innerHTML.includes("#1f1f1f");
             el.style.width = "450px";
@@ -735,7 +944,7 @@ suiteGate("mountChart in Chromium (test/taskpane/charts.test.ts)", [chromiumNeed
             } catch (error) {
               afterDispose = String(error);
             }
-            results[kind] = { light, darkShown, resizedSvg, updatedLabel, emptied: el.querySelector("svg") === null && el.getAttribute("aria-label") === null, afterDispose };
+            results[kind] = { light, fraction, strength, darkShown, resizedSvg, updatedLabel, emptied: el.querySelector("svg") === null && el.getAttribute("aria-label") === null, afterDispose };
             el.style.width = "360px";
             el.style.height = "";
           }
@@ -747,6 +956,8 @@ suiteGate("mountChart in Chromium (test/taskpane/charts.test.ts)", [chromiumNeed
       for (const kind of KINDS) {
         const r = report[kind] as {
           light: { height: string; svgCount: number; canvasCount: number; role: string; label: string; describe: string; pngPrefix: string; pngSize: number[]; svg: string };
+          fraction: { text: string; label: string };
+          strength: { text: string; label: string };
           darkShown: boolean;
           resizedSvg: string;
           updatedLabel: string;
@@ -762,6 +973,15 @@ suiteGate("mountChart in Chromium (test/taskpane/charts.test.ts)", [chromiumNeed
         expect(r.light.pngPrefix).toBe("data:image/png;base64,");
         expect(r.light.pngSize).toEqual([720, 2 * suggestedHeight(kind, lowestRule, 360)]); // 2× pixel ratio
         expect(r.light.svg).toMatch(/^<svg width="360"/);
+        if (kind === "cv") {
+          expect(r.fraction.text).toContain("strength ÷ top of grid (log scale)");
+          expect(r.fraction.label).toBe(describeChart("cv", lowestRule, null, "fraction"));
+          expect(r.strength.text).not.toContain("top of grid");
+          expect(r.strength.text).toContain("strength λ (log scale)");
+          expect(r.strength.label).toBe(describeChart("cv", lowestRule, null, "strength"));
+        } else {
+          expect(r.fraction.text).toBe(r.strength.text);
+        }
         expect(r.darkShown).toBe(true);
         expect(r.resizedSvg).toMatch(/^<svg width="450"/);
         expect(r.updatedLabel).toBe(describeChart(kind, ridge));

@@ -352,7 +352,7 @@ describe("report sheet", () => {
   const report: ReportSheet = {
     name: "Shrinkwise report",
     blocks: [{ at: "A1", rows: [["Shrinkwise report"], ["Made today"]], header: true }, pathBlock],
-    charts: [{ title: "Coefficient path (mix 1)", block: pathBlock, logX: true, xTitle: "penalty strength", yTitle: "coefficient", at: "H2" }],
+    charts: [{ title: "Coefficient path, Mix α (lasso share) = 1", block: pathBlock, logX: true, xTitle: "penalty strength λ", yTitle: "coefficient (data units)", at: "H2" }],
   };
 
   test("a unique name, the blocks with formats and bold headers, an XY scatter chart with a log x axis; the sheet is activated", async () => {
@@ -384,10 +384,10 @@ describe("report sheet", () => {
       { deleted: true },
     ]);
     const chart = mock.context.workbook.worksheets.report.charts.chart;
-    expect(chart.title.text).toBe("Coefficient path (mix 1)");
+    expect(chart.title.text).toBe("Coefficient path, Mix α (lasso share) = 1");
     expect(chart.axes.categoryAxis.scaleType).toBe("Logarithmic");
-    expect(chart.axes.categoryAxis.title.text).toBe("penalty strength");
-    expect(chart.axes.valueAxis.title.text).toBe("coefficient");
+    expect(chart.axes.categoryAxis.title.text).toBe("penalty strength λ");
+    expect(chart.axes.valueAxis.title.text).toBe("coefficient (data units)");
     expect(chart.width).toBeGreaterThan(0);
     expect(recorded.activated).toBe(1);
   });

@@ -192,7 +192,10 @@ test("path table and its chart: strength then one column per term; log strength 
   const chart = report.charts[0];
   expect(chart.block).toBe(block);
   expect(chart.logX).toBe(true);
-  expect(chart.title).toContain(String(result.path.mix));
+  expect(chart.title).toBe(`Coefficient path, Mix α (lasso share) = ${result.path.mix}`);
+  // It plots the path table, whose coefficients are as fitted (data units), not per SD: the axis says so.
+  expect(chart.yTitle).toBe("coefficient (data units)");
+  expect(chart.xTitle).toBe("penalty strength λ");
   // The chart sits clear of the tables below it.
   expect(parseAddress(chart.at).top).toBeLessThan(parseAddress(block.at).top);
   expect(rangeSize(blockArea(block)).columns).toBe(1 + result.terms.length);
