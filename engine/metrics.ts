@@ -31,11 +31,50 @@ export function meanError(actual: ArrayLike<number>, predicted: ArrayLike<number
   return score(actual, predicted).bias;
 }
 
-/** All four measures in one pass (two for R²). Cost O(n). */
+/** Values (and weights) whose largest magnitude lies in [2^-500, 2^500] are used as they are: no square or sum of them can overflow or underflow. */
+const SAFE_LOW = 2 ** -500;
+const SAFE_HIGH = 2 ** 500;
+const BITS = new DataView(new ArrayBuffer(8));
+
+/** 2^k, exactly, for -1022 ≤ k ≤ 1023 (built from its bits: Math.pow promises no exactness). */
+function powerOfTwo(k: number): number {
+  BITS.setUint32(0, (k + 1023) * 2 ** 20);
+  BITS.setUint32(4, 0);
+  return BITS.getFloat64(0);
+}
+
+/**
+ * A power of two that brings `largest` near 1, or 1 when `largest` is already in the safe range
+ * (so ordinary data give bit-for-bit the sums they always gave). Multiplying by a power of two is
+ * exact, so the scaled measures differ from the exact ones only by the rounding of the sums.
+ */
+function scaleFor(largest: number): number {
+  if (!(largest > 0) || (largest >= SAFE_LOW && largest <= SAFE_HIGH)) return 1;
+  const exponent = Math.min(1000, Math.max(-1000, Math.floor(Math.log2(largest))));
+  return powerOfTwo(-exponent);
+}
+
+/**
+ * All four measures in one pass (two for R²). Cost O(n).
+ * Scale-safe: values are first multiplied by a power of two chosen from the largest |actual| or
+ * |predicted| (and weights by one chosen from the largest weight), so squares neither overflow
+ * (values near 1e200) nor underflow (values near 1e-200); the measures are then scaled back
+ * (MAE, RMSE and bias in the data's units; R² is unit-free).
+ */
 export function score(actual: ArrayLike<number>, predicted: ArrayLike<number>, weights?: ArrayLike<number> | null): Score {
   if (actual.length !== predicted.length) {
     throw new RangeError(`score requires equally long inputs; got ${actual.length} actual and ${predicted.length} predicted`);
   }
+  const used = (i: number): boolean => Number.isFinite(actual[i]) && Number.isFinite(predicted[i]) && (weights ? weights[i] > 0 : true);
+  let largest = 0;
+  let heaviest = 0;
+  for (let i = 0; i < actual.length; i++) {
+    if (!used(i)) continue;
+    largest = Math.max(largest, Math.abs(actual[i]), Math.abs(predicted[i]));
+    if (weights) heaviest = Math.max(heaviest, weights[i]);
+  }
+  const sv = scaleFor(largest);
+  const sw = weights ? scaleFor(heaviest) : 1;
   let total = 0;
   let count = 0;
   let sumActual = 0;
@@ -43,11 +82,10 @@ export function score(actual: ArrayLike<number>, predicted: ArrayLike<number>, w
   let squared = 0;
   let signed = 0;
   for (let i = 0; i < actual.length; i++) {
-    const a = actual[i];
-    const f = predicted[i];
-    const w = weights ? weights[i] : 1;
-    if (!Number.isFinite(a) || !Number.isFinite(f) || !(w > 0)) continue;
-    const e = f - a;
+    if (!used(i)) continue;
+    const a = actual[i] * sv;
+    const w = (weights ? weights[i] : 1) * sw;
+    const e = predicted[i] * sv - a;
     total += w;
     count++;
     sumActual += w * a;
@@ -59,16 +97,16 @@ export function score(actual: ArrayLike<number>, predicted: ArrayLike<number>, w
   const mean = sumActual / total;
   let spread = 0;
   for (let i = 0; i < actual.length; i++) {
-    const a = actual[i];
-    const w = weights ? weights[i] : 1;
-    if (!Number.isFinite(a) || !Number.isFinite(predicted[i]) || !(w > 0)) continue;
+    if (!used(i)) continue;
+    const a = actual[i] * sv;
+    const w = (weights ? weights[i] : 1) * sw;
     spread += w * (a - mean) * (a - mean);
   }
   return {
-    mae: absolute / total,
-    rmse: Math.sqrt(squared / total),
+    mae: absolute / total / sv,
+    rmse: Math.sqrt(squared / total) / sv,
     r2: spread > 0 ? 1 - squared / spread : NaN,
-    bias: signed / total,
+    bias: signed / total / sv,
     count,
   };
 }
