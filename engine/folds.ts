@@ -140,18 +140,32 @@ function positiveRows(rows: Int32Array, weights: Float64Array | null): number {
   return count;
 }
 
+/**
+ * Every fold must score at least one positively weighted row and train on at least
+ * MIN_TRAINING_ROWS. Messages suggest what can help: fewer folds for random and time-ordered
+ * folds; for fold labels (whose count the labels fix) merging small groups or checking the labels,
+ * with each label as it was given.
+ */
 function checkPlan(plan: FoldPlan, weights: Float64Array | null): void {
+  const labels = plan.scheme === "labels";
   for (let k = 0; k < plan.validateBlock.length; k++) {
     const validate = plan.blocks[plan.validateBlock[k]];
     if (positiveRows(validate, weights) === 0) {
-      throw new InputError("folds", `fold ${plan.names[k]} has no rows with a positive weight to score: use fewer folds or other fold labels`);
+      throw new InputError(
+        "folds",
+        labels
+          ? `fold label '${plan.names[k]}' has no rows with a positive weight to score: give some of its rows a weight above 0, merge it into another group, or check the fold column`
+          : `fold ${plan.names[k]} has no rows with a positive weight to score: use fewer folds or other fold labels`,
+      );
     }
     let training = 0;
     for (const b of plan.trainBlocks[k]) training += positiveRows(plan.blocks[b], weights);
     if (training < MIN_TRAINING_ROWS) {
       throw new InputError(
         "too-few-rows",
-        `fold ${plan.names[k]} would train on only ${training} rows (at least ${MIN_TRAINING_ROWS} needed): use fewer folds or add rows`,
+        labels
+          ? `holding out fold label '${plan.names[k]}' leaves only ${training} row${training === 1 ? "" : "s"} to train on (at least ${MIN_TRAINING_ROWS} needed): the other groups are too small; merge small groups into larger ones, or check the fold column`
+          : `fold ${plan.names[k]} would train on only ${training} rows (at least ${MIN_TRAINING_ROWS} needed): use fewer folds or add rows`,
       );
     }
   }

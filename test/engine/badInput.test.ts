@@ -106,6 +106,25 @@ describe("folds", () => {
     const { x, y } = data();
     expectInputError(() => fit(x, y, { ...quick, foldLabels: new Array(24).fill("A") }), "fold-labels", /single group \('A'\)/);
   });
+  test("fold labels whose other groups are too small to train on: the label as given, and what can help", () => {
+    const { x, y } = data();
+    const labels = y.map((_, i) => (i < 22 ? "Big Site" : "Tiny"));
+    expectInputError(
+      () => fit(x, y, { ...quick, foldLabels: labels }),
+      "too-few-rows",
+      /^holding out fold label 'Big Site' leaves only 2 rows to train on \(at least 3 needed\): the other groups are too small; merge small groups into larger ones, or check the fold column$/,
+    );
+  });
+  test("a fold label whose rows all weigh 0: the label as given, and what can help", () => {
+    const { x, y } = data();
+    const labels = y.map((_, i) => ["North", "South", "Quarry"][i % 3]);
+    const weights = y.map((_, i) => (i % 3 === 2 ? 0 : 1));
+    expectInputError(
+      () => fit(x, y, { ...quick, foldLabels: labels, weights }),
+      "folds",
+      /^fold label 'Quarry' has no rows with a positive weight to score: give some of its rows a weight above 0, merge it into another group, or check the fold column$/,
+    );
+  });
   test("a blank fold label", () => {
     const { x, y } = data();
     const labels: (string | number)[] = y.map((_, i) => (i % 2 ? "odd" : "even"));
