@@ -86,7 +86,9 @@ Output
   --json                    print one JSON object
   --help                    show this text
 
-Rows with a blank cell in any column the fit uses are skipped and counted.
+Numbers use '.' as the decimal point; ',' between groups of three digits is allowed
+("1,234.5", quoted in a comma-separated file). Rows with a blank cell in any column the fit
+uses are skipped and counted.
 Exit codes: 0 success, 2 bad input or usage, 1 unexpected failure.`;
 
 type Kind = "text" | "number" | "list" | "numberList" | "flag";
@@ -117,6 +119,9 @@ const OPTIONS: Record<string, Kind> = {
 
 const NUMBER_PATTERN = /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/;
 
+/** Largest seed magnitude the engine takes (its fold generator's range). */
+const MAX_SEED = 4294967295;
+
 /**
  * Reads a plain decimal number ("12", "-0.5", "1e-3", ".5"); surrounding spaces allowed.
  * Returns null for anything else (text, hexadecimal, "Infinity", empty).
@@ -129,7 +134,7 @@ export function parseNumber(text: string): number | null {
 }
 
 function splitList(option: string, value: string): string[] {
-  const items = value.split(",").map((item) => item.trim());
+  const items = value.split(",").map((item) => item.trim().normalize("NFC"));
   if (items.some((item) => item === "")) {
     throw new CommandError(`--${option} has an empty item in '${value}': separate names or numbers with single commas`);
   }
@@ -191,9 +196,10 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
   if (positional.length > 1) {
     throw new CommandError(`one data file expected, got ${positional.length}: ${positional.join(", ")}`);
   }
+  // Column names are compared in Unicode NFC, as the file's header is read (table.ts).
   const text = (name: string): string | null => {
     const value = seen.get(name);
-    return typeof value === "string" ? value.trim() : null;
+    return typeof value === "string" ? value.trim().normalize("NFC") : null;
   };
   const number = (name: string): number | null => {
     const value = text(name);
@@ -232,6 +238,16 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
   if (strength !== null && mixes === null && strength !== 0) {
     throw new CommandError("--strength fits one point: give a single --mix as well (0 ridge, 1 lasso, or between)");
   }
+  const seed = number("seed");
+  if (seed !== null && !(Number.isInteger(seed) && Math.abs(seed) <= MAX_SEED)) {
+    throw new CommandError(`--seed must be a whole number from -${MAX_SEED} to ${MAX_SEED}; got '${text("seed") as string}'`);
+  }
+  const count = number("count");
+  if (count === 1 && strength === null) {
+    throw new CommandError(
+      "--count 1 tries only the top of the grid, where every penalized coefficient is 0, so the model would be the intercept alone: use 2 or more (default 100), or fit one point with --strength",
+    );
+  }
 
   return {
     help: false,
@@ -244,10 +260,10 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
       mixes: mixes === null && strength === 0 ? [0] : mixes,
       strength,
       folds: number("folds"),
-      seed: number("seed"),
+      seed,
       rule,
       measure: measure as ErrorMeasure | null,
-      count: number("count"),
+      count,
       lowEnd: number("low-end"),
       timeOrdered: seen.has("time-ordered"),
       foldColumn: text("fold-column"),

@@ -41,6 +41,16 @@ export function runCommand(argv: readonly string[], read: (file: string) => stri
       weightsColumn: options.weightsColumn,
       foldColumn: options.foldColumn,
     });
+    if (options.folds !== null && table.foldLabels !== null) {
+      // With a fold column the labels fix the folds: a different --folds would be ignored.
+      const groups = [...new Set(table.foldLabels)];
+      if (groups.length !== options.folds) {
+        const shown = groups.slice(0, 6).map((g) => `'${g}'`).join(", ") + (groups.length > 6 ? ", …" : "");
+        throw new CommandError(
+          `--folds ${options.folds} can't apply with --fold-column ${options.foldColumn as string}: that column makes one fold per distinct value, and it has ${groups.length} (${shown}); leave --folds out`,
+        );
+      }
+    }
     const result = fit(
       table.predictors,
       table.targetValues,

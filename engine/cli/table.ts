@@ -9,12 +9,18 @@
  *   delimiters are skipped silently.
  * - Cells are trimmed. A blank cell in any column the fit uses (target, predictors, weights,
  *   fold labels) skips that row; skipped rows are counted and listed.
- * - A non-blank cell that is not a plain decimal number in a numeric column used by the fit is
- *   an error naming the column, the data row (1-based, header not counted) and the value.
+ * - Names and cells are read in Unicode NFC (an accented letter typed either way is one name).
+ * - Numbers are read as engine/numberText.ts reads them, the same convention as numbers stored as
+ *   text in a worksheet: '.' decimal point, optional ',' between groups of three digits (quote the
+ *   cell in a comma-separated file: "1,234.5"), sign, exponent.
+ * - A non-blank cell that is not a number in a numeric column used by the fit is an error naming
+ *   the column, the data row (1-based, header not counted) and the value, with a hint when it
+ *   looks like a number in another convention (a decimal comma) or a date.
  *   Fold labels may be text. Columns the fit doesn't use are never checked.
  */
 import Papa from "papaparse";
-import { CommandError, parseNumber } from "./args";
+import { numberFromText, numberTextHint } from "../numberText";
+import { CommandError } from "./args";
 
 /** The file as text cells: trimmed header names and the data rows below them. */
 export interface TextTable {
@@ -68,8 +74,9 @@ export function parseDelimited(text: string): TextTable {
   }
   const lines = parsed.data;
   if (lines.length === 0) throw new CommandError("the file is empty: it needs a header row and rows of data");
-  let columns = lines[0].map((name) => String(name).trim());
-  let rows = lines.slice(1).map((line) => line.map((cell) => String(cell).trim()));
+  // Names and cells in Unicode NFC, so 'é' typed either way is one name (and one fold label).
+  let columns = lines[0].map((name) => String(name).trim().normalize("NFC"));
+  let rows = lines.slice(1).map((line) => line.map((cell) => String(cell).trim().normalize("NFC")));
   for (let r = 0; r < rows.length; r++) {
     const row = rows[r];
     if (row.length > columns.length && row.slice(columns.length).some((cell) => cell !== "")) {
@@ -152,12 +159,12 @@ export function buildFitTable(table: TextTable, roles: ColumnRoles): FitTable {
   for (const j of [...numeric].sort((a, b) => a - b)) {
     for (let r = 0; r < table.rows.length; r++) {
       const cell = table.rows[r][j];
-      if (cell !== "" && parseNumber(cell) === null) {
+      if (cell !== "" && numberFromText(cell) === null) {
         const hint =
           defaultPredictors && predictors.includes(j)
             ? `; leave the column out with --exclude ${table.columns[j]}`
             : ": use numbers only (leave a cell empty to skip its row)";
-        throw new CommandError(`column '${table.columns[j]}' has text in data row ${r + 1} ('${cell}')${hint}`);
+        throw new CommandError(`column '${table.columns[j]}' has text in data row ${r + 1} ('${cell}')${numberTextHint(cell, "file")}${hint}`);
       }
     }
   }
@@ -183,9 +190,9 @@ export function buildFitTable(table: TextTable, roles: ColumnRoles): FitTable {
       for (const j of blanks) blankCounts[j]++;
       continue;
     }
-    out.targetValues.push(parseNumber(row[target]) as number);
-    out.predictors.push(predictors.map((j) => parseNumber(row[j]) as number));
-    if (out.weights) out.weights.push(parseNumber(row[weights]) as number);
+    out.targetValues.push(numberFromText(row[target]) as number);
+    out.predictors.push(predictors.map((j) => numberFromText(row[j]) as number));
+    if (out.weights) out.weights.push(numberFromText(row[weights]) as number);
     if (out.foldLabels) out.foldLabels.push(row[folds]);
     out.rowsUsed++;
   }

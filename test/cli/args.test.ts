@@ -168,6 +168,26 @@ describe("parseArgs", () => {
     expect(options(["--target", "y", "--", "--odd-name.csv"]).file).toBe("--odd-name.csv");
   });
 
+  it("--seed out of range or not whole: the message gives the range (exact)", () => {
+    expect(usageError(["d.csv", "--target", "y", "--seed", "1e20"])).toBe("--seed must be a whole number from -4294967295 to 4294967295; got '1e20'");
+    expect(usageError(["d.csv", "--target", "y", "--seed", "1.5"])).toBe("--seed must be a whole number from -4294967295 to 4294967295; got '1.5'");
+    expect(options(["d.csv", "--target", "y", "--seed", "-4294967295"]).seed).toBe(-4294967295);
+  });
+
+  it("--count 1 without --strength says why the model would be the intercept alone (exact)", () => {
+    expect(usageError(["d.csv", "--target", "y", "--count", "1"])).toBe(
+      "--count 1 tries only the top of the grid, where every penalized coefficient is 0, so the model would be the intercept alone: use 2 or more (default 100), or fit one point with --strength",
+    );
+    expect(options(["d.csv", "--target", "y", "--count", "1", "--strength", "0.1", "--mix", "1"]).count).toBe(1);
+  });
+
+  it("reads column names in Unicode NFC (e + combining accent is é)", () => {
+    const o = options(["d.csv", "--target", "cafe\u0301", "--predictors", "cre\u0300me, x", "--fold-column", "Ma\u0301laga"]);
+    expect(o.target).toBe("caf\u00e9");
+    expect(o.predictors).toEqual(["cr\u00e8me", "x"]);
+    expect(o.foldColumn).toBe("M\u00e1laga");
+  });
+
   it("returns help for --help or -h, whatever else is given", () => {
     expect(parseArgs(["--help"])).toEqual({ help: true });
     expect(parseArgs(["data.csv", "--bogus", "-h"])).toEqual({ help: true });

@@ -37,6 +37,14 @@ function expectFailure(argv: string[], message: string | RegExp): void {
 }
 
 describe("runCommand", () => {
+
+  it("--folds with --fold-column: a count other than the column's groups is refused (exact); the same count is fine", () => {
+    expectFailure(
+      ["good.csv", "--target", "y", "--fold-column", "site", "--folds", "10", "--mix", "1", "--count", "10"],
+      "--folds 10 can't apply with --fold-column site: that column makes one fold per distinct value, and it has 3 ('n', 's', 'e'); leave --folds out",
+    );
+    expect(runCommand(["good.csv", "--target", "y", "--fold-column", "site", "--folds", "3", "--mix", "1", "--count", "10"], read).exitCode).toBe(0);
+  });
   it("prints help with exit 0", () => {
     const outcome = runCommand(["--help"], read);
     expect(outcome.exitCode).toBe(0);

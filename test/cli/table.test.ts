@@ -2,6 +2,7 @@
  * Reading delimited text into the engine's input: one test per rule of the policy in
  * engine/cli/table.ts (header, delimiters, blanks, text, column roles).
  */
+import fc from "fast-check";
 import { CommandError } from "../../engine/cli/args";
 import { buildFitTable, parseDelimited, readFitTable, skippedRowsMessage } from "../../engine/cli/table";
 
@@ -153,6 +154,42 @@ describe("buildFitTable", () => {
     );
     expect(failure(() => readFitTable("y,x,w\n1,2,heavy\n2,3,1\n", { target: "y", weightsColumn: "w" }))).toMatch(
       /^column 'w' has text in data row 1/,
+    );
+  });
+
+  it("reads numbers with spaces around and ',' between groups of three digits (engine/numberText.ts)", () => {
+    const table = readFitTable('y,x\n"1,234.5", 2 \n 3 ,"-12,000"\n5,7e-1\n', { target: "y" });
+    // The decimal values written, from memory.
+    expect(table.targetValues).toEqual([1234.5, 3, 5]);
+    expect(table.predictors).toEqual([[2], [-12000], [0.7]]);
+  });
+
+  it("says when a cell looks like a number with a decimal comma, or like a date (exact)", () => {
+    expect(failure(() => readFitTable("y;x\n1;0,5\n2;1,5\n", { target: "y" }))).toBe(
+      "column 'x' has text in data row 1 ('0,5') (a decimal comma or another digit grouping? numbers are read with '.' as the decimal point and ',' between groups of three digits); leave the column out with --exclude x",
+    );
+    expect(failure(() => readFitTable("y,day\n1,2024-02-01\n2,2024-02-02\n", { target: "y", predictors: ["day"] }))).toBe(
+      "column 'day' has text in data row 1 ('2024-02-01') (a date? the command line reads numbers only: write dates as numbers, such as days since a start date): use numbers only (leave a cell empty to skip its row)",
+    );
+  });
+
+  it("reads header names and cells in Unicode NFC, so a name typed either way is found", () => {
+    const table = readFitTable("cafe\u0301,x,site\n1,2,Ma\u0301laga\n2,3,M\u00e1laga\n3,5,Vigo\n", { target: "caf\u00e9", foldColumn: "site" });
+    expect(table.target).toBe("caf\u00e9");
+    expect(table.foldLabels).toEqual(["M\u00e1laga", "M\u00e1laga", "Vigo"]);
+  });
+
+  it("property: a table written with en-US digit grouping (Intl.NumberFormat) reads as the same numbers as written plainly", () => {
+    // Reference: Intl.NumberFormat groups digits on its own; String() writes the plain form.
+    const grouped = new Intl.NumberFormat("en-US", { maximumFractionDigits: 3 });
+    fc.assert(
+      fc.property(fc.array(fc.tuple(fc.integer({ min: -1e10, max: 1e10 }), fc.integer({ min: -1e10, max: 1e10 })), { minLength: 1, maxLength: 20 }), (pairs) => {
+        const rows = pairs.map(([a, b]) => [a / 1000, b / 1000]);
+        const plain = readFitTable(["y,x", ...rows.map((r) => r.map(String).join(","))].join("\n"), { target: "y" });
+        const written = readFitTable(["y,x", ...rows.map((r) => r.map((v) => `" ${grouped.format(v)} "`).join(","))].join("\n"), { target: "y" });
+        expect(written).toEqual(plain);
+      }),
+      { numRuns: 100, seed: 8 },
     );
   });
 
