@@ -15,23 +15,32 @@
  * | `0` in a column named by `zero is missing`    | blank   | row skipped      | row skipped       | row skipped         | row skipped           | as blank                              | –                     | –            |
  * | a finite number (dates are serial numbers)   | number  | used             | used              | error (mixed)       | label / weight        | used                                  | number                | used         |
  * | `TRUE` / `FALSE`                              | boolean | 1 / 0            | 1 / 0             | error (mixed)       | label / weight 1 / 0  | 1 / 0                                 | yes / no              | 1 / 0        |
- * | text (not an error text)                     | text    | error            | error (mixed)     | a level: indicators | label / error         | level (unseen: error) / error         | read as the value     | error*       |
+ * | text that is a number (see below)            | text    | the number†      | the number†       | –  (column is numbers) | label / weight†    | the number / level                    | read as the value     | error*       |
+ * | other text (not an error text)               | text    | error            | error (mixed)     | a level: indicators | label / error         | level (unseen: error) / error         | read as the value     | error*       |
  * | an error value in any shape (see below)      | error   | row skipped      | row skipped       | row skipped         | row skipped           | `#N/A` cell for that row              | error                 | pair skipped |
  * | `NaN`, `±Infinity`, any other object         | error   | row skipped      | row skipped       | row skipped         | row skipped           | `#N/A` cell for that row              | error                 | pair skipped |
  *
  * - "row skipped": the row is left out of the fit and counted (SHRINK.CHOICE shows
  *   "rows skipped"); a row blank in every cell (target and all predictors) is padding and is
  *   not counted. An error cell never turns into a number.
- * - "error (mixed)": a column is a number column when it holds more numbers/booleans than
- *   texts, otherwise a text column; the first cell of the other kind is an error naming the
- *   column, the row and the value ("predictors column 'Moisture' row 7 has text 'n/a' in a
- *   number column: fix it or clear the cell"). A text that looks like a number gets the hint
- *   "a number stored as text?".
+ * - Texts are kept in Unicode NFC (an "é" typed as e + combining accent is the same text), and
+ *   compared (textKey) ignoring case and spacing.
+ * - †Numbers stored as text: a text that reads as a number under engine/numberText.ts ('.'
+ *   decimal point, optional ',' between groups of three digits, sign, exponent, spaces around;
+ *   the same whatever the workbook's locale) counts as that number in number columns, the target,
+ *   the weights column and new rows; SHRINK.CHOICE's notes name each column read that way.
+ * - "error (mixed)": a column is a number column when at least half of its values look like
+ *   numbers (numbers, booleans, numbers stored as text, or numbers written with a decimal comma),
+ *   a date column (an error: convert to real dates) when at least half are dates written as text,
+ *   otherwise a text column; a cell of the other kind is an error naming the column, the row and
+ *   the value ("predictors column 'Moisture' row 7 has text 'n/a' in a number column: fix it or
+ *   clear the cell"). A text that looks like a number in another convention or like a date gets a
+ *   hint saying so.
  * - Text columns become indicator (0/1) columns, one per level except the reference level,
  *   the most frequent level (ties: the first to appear). Levels match ignoring case and
  *   surrounding spaces.
- * - *SCORE: a first row of text in both ranges is a header and is dropped; any other text is
- *   an error.
+ * - *SCORE: a first cell of text that isn't a number, on either side, is a header and is
+ *   dropped; any other text is an error (numbers stored as text get the hint, not a reading).
  * - Blanks arriving as 0: the setting `zero is missing = Moisture, Density` (or `= all`)
  *   treats the zeros of those columns (the target may be named too) as blank cells.
  *
@@ -44,6 +53,8 @@
  * cell whose text is exactly an error's text is read as that error). Cell values wrapped as
  * `{ type: "Double" | "String" | "Boolean", basicValue }` are unwrapped first.
  */
+
+import { numberFromText, numberTextHint } from "../engine/numberText";
 
 export type CellKind = "blank" | "number" | "boolean" | "text" | "error";
 
@@ -129,7 +140,8 @@ export function classifyCell(raw: unknown): Cell {
   if (typeof raw === "string") {
     if (raw.trim() === "") return BLANK;
     const error = errorText(raw);
-    return error ? { kind: "error", text: error } : { kind: "text", value: raw.trim() };
+    // NFC: a name typed as "é" and one pasted as "e" + combining accent are the same text.
+    return error ? { kind: "error", text: error } : { kind: "text", value: raw.trim().normalize("NFC") };
   }
   if (typeof raw === "object") return classifyObject(raw as Record<string, unknown>);
   return { kind: "error", text: "#VALUE!" };
@@ -194,14 +206,29 @@ export function parseNumberText(text: string): number | null {
   return Number.isFinite(value) ? value : null;
 }
 
-/** " (a number stored as text?)" when the text reads as a number, else "". */
+/**
+ * A parenthesized hint for a text where a number belongs: " (a number stored as text?)" when
+ * it reads as one (engine/numberText.ts), a decimal-comma or date hint when it looks like one in
+ * another convention, else "".
+ */
 export function storedAsTextHint(text: string): string {
-  return parseNumberText(text) !== null ? " (a number stored as text?)" : "";
+  return numberTextHint(text);
 }
 
-/** Key under which text levels and names are compared: trimmed, lower case, inner spaces collapsed. */
+/** The number a cell stands for: a number, TRUE/FALSE as 1/0, or a number stored as text (engine/numberText.ts); else null. */
+export function numberOfCell(cell: Cell): number | null {
+  if (cell.kind === "number") return cell.value;
+  if (cell.kind === "boolean") return cell.value ? 1 : 0;
+  if (cell.kind === "text") return numberFromText(cell.value);
+  return null;
+}
+
+/**
+ * Key under which text levels and names are compared: Unicode NFC, trimmed, lower case, inner
+ * spaces collapsed.
+ */
 export function textKey(text: string): string {
-  return text.trim().replace(/\s+/g, " ").toLowerCase();
+  return text.normalize("NFC").trim().replace(/\s+/g, " ").toLowerCase();
 }
 
 /**

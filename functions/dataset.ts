@@ -2,27 +2,54 @@
  * Worksheet ranges → encoded numeric data for the engine, and the same encoding for new rows.
  *
  * Training data (`buildDataset`):
- * 1. Header: the first row of predictors is a header when every cell of it is text and some
- *    column has a number or TRUE/FALSE below it (or the target, aligned with predictors, has
- *    text on top and numbers below). The setting `header` = yes / no forces it. Without a
- *    header, columns are named x1, x2, …
+ * 1. Header (setting `header` = yes / no forces it; with auto, the first rule that applies):
+ *    a. predictors has one row: a row of names (texts that aren't numbers) is an error saying there
+ *       are no data rows; otherwise no header;
+ *    b. row 1 is all text and some column has a number or TRUE/FALSE below it: a header;
+ *    c. row 1 is all text, not all numbers stored as text, and some column has a number stored as
+ *       text below it: a header;
+ *    d. predictors hold only text: a header when the target, as long as predictors, has a name on
+ *       top and numbers below; or when the target is one row shorter and no text of row 1 appears
+ *       again below it in its column (a note says so); otherwise no header;
+ *    e. row 1 is all numbers (or numbers stored as text) and the target, as long as predictors, has
+ *       a name on top and numbers below: a header named by those numbers (a note says so);
+ *    f. row 1 looks like labels made of numbers — two or more whole numbers rising from left to
+ *       right, while fewer than half of the complete rows below rise that way (years 2019, 2020,
+ *       2021 over the data) — and the target doesn't sit one row above predictors with a name on
+ *       top: an error asking for header=yes or header=no rather than a guess;
+ *    g. otherwise no header. Without a header, columns are named x1, x2, …
  * 2. Target: one column. It may be as long as predictors (its first cell then sits beside the
- *    header: its text names the target), as long as the data rows only, or — when predictors
- *    have no header — one longer with a text header of its own.
- * 3. Cells are classified (cells.ts); zeros of columns named by `zero is missing` become blank.
- * 4. Each predictors column is a number column (numbers, TRUE/FALSE as 1/0) or a text column
- *    (levels); a cell of the other kind is an error naming column, row and value. The columns
- *    named by `fold column` and `weights column` are taken out of the predictors.
+ *    header: its text names the target; beside a header of numbers a number may name it too), as
+ *    long as the data rows only, or — when predictors have no header — one longer with a text
+ *    header of its own. One row shorter than predictors without a header is an error suggesting
+ *    header=yes.
+ * 3. Cells are classified (cells.ts; texts in Unicode NFC); zeros of columns named by
+ *    `zero is missing` become blank.
+ * 4. Each predictors column is read as numbers when at least half of its values look like numbers
+ *    (numbers, TRUE/FALSE as 1/0, numbers stored as text in the convention of
+ *    engine/numberText.ts, or texts written like numbers in another convention), as dates when at
+ *    least half are dates written as text (an error: convert them to real dates), else as text
+ *    (levels). In a number column, numbers stored as text are read as numbers and a note names
+ *    the column; any other text is an error naming column, row and value (with a decimal-comma or
+ *    date hint when it looks like one); in a text column a number is an error. The target and the
+ *    weights column read numbers stored as text the same way (with a note); a fold column whose
+ *    texts are all numbers stored as text labels folds by those numbers. The columns named by
+ *    `fold column` and `weights column` are taken out of the predictors.
  * 5. Rows with a blank or error cell in the target or any used column are skipped and counted;
  *    rows blank everywhere are padding and not counted.
  * 6. Text columns become indicator columns `Column: level`, one per level except the reference
  *    level (the most frequent level in the rows used; ties: the first to appear).
+ * 7. Every name a coefficient table would list (number columns, each level's `Column: level`,
+ *    reference rows included) must differ from the others as term lookup compares names (NFC,
+ *    case, spaces: textKey) and must not end in "(reference)"; a clash is an error naming the
+ *    column to rename (a number column 'Region: North' beside a text column 'Region' with the level
+ *    North would otherwise spill two rows SHRINK.APPLY can't tell apart).
  * Row numbers in messages count from the top of the selected range (a header row is row 1).
  *
  * New rows (`encodeNewRows`, `applyCoefficientTable`): the same columns, matched by header name
- * when new_rows has a header row, else by position; blank rows give a blank result, a row with
- * a blank or error cell gives a "missing" row (the cell shows #N/A); a level not seen in
- * training is an error naming it and its column.
+ * when new_rows has a header row, else by position; numbers stored as text are read as numbers;
+ * blank rows give a blank result, a row with a blank or error cell gives a "missing" row (the
+ * cell shows #N/A); a level not seen in training is an error naming it and its column.
  *
  * Cost: O(rows × columns) throughout.
  */
@@ -32,11 +59,12 @@ import {
   describeCell,
   isBlankGrid,
   isNumeric,
-  numericValue,
+  numberOfCell,
   storedAsTextHint,
   textKey,
   toGrid,
 } from "./cells";
+import { numberFromText, readNumberText } from "../engine/numberText";
 import { DataError, SettingError } from "./errors";
 import type { Settings } from "./settings";
 
@@ -133,23 +161,217 @@ function zeroHint(column: string): string {
   return ` (if that cell looks empty, Excel may have passed it as 0: add 'zero is missing=${column}' to settings)`;
 }
 
-/** Header decision for predictors (see the file comment). */
-function detectHeader(cells: Cell[][], target: Cell[], mode: Settings["header"]): boolean {
-  if (mode === "no") return false;
+/** A text cell that is not a number (not even one stored as text): a header name or a level. */
+function isNameText(c: Cell): boolean {
+  return c.kind === "text" && numberFromText(c.value) === null;
+}
+
+/** A cell that counts as a number: a number, TRUE/FALSE, or a number stored as text. */
+function isNumberLike(c: Cell): boolean {
+  return numberOfCell(c) !== null;
+}
+
+/** How a row of cells is shown in messages: 2019, 2020, 2021 (at most 6, then "…"). */
+function showRow(row: readonly Cell[]): string {
+  const shown = row.slice(0, 6).map((c) => (c.kind === "text" ? `'${c.value}'` : describeCell(c)));
+  return row.length > 6 ? `${shown.join(", ")}, …` : shown.join(", ");
+}
+
+/** Strictly increasing whole numbers, at least two. */
+function risingWholeNumbers(row: readonly Cell[]): boolean {
+  if (row.length < 2) return false;
+  let previous = -Infinity;
+  for (const c of row) {
+    if (c.kind === "boolean") return false;
+    const v = numberOfCell(c);
+    if (v === null || !Number.isInteger(v) || !(v > previous)) return false;
+    previous = v;
+  }
+  return true;
+}
+
+/**
+ * Row 1 of predictors looks like column labels made of numbers (years 2019, 2020, 2021): two or
+ * more whole numbers rising from left to right, while fewer than half of the complete rows below
+ * rise that way (so columns such as year built | year sold, which rise in every row, are data).
+ */
+function looksLikeNumberLabels(cells: Cell[][]): boolean {
+  if (!risingWholeNumbers(cells[0])) return false;
+  let complete = 0;
+  let rising = 0;
+  for (let i = 1; i < cells.length; i++) {
+    if (!cells[i].every(isNumberLike)) continue;
+    complete++;
+    if (risingWholeNumbers(cells[i])) rising++;
+  }
+  return complete === 0 || 2 * rising < complete;
+}
+
+interface HeaderDecision {
+  header: boolean;
+  /** What was decided and why, for SHRINK.CHOICE's notes (auto mode, when it wasn't obvious). */
+  note: string | null;
+}
+
+/**
+ * Header decision for predictors (the rules are listed in the file comment). Throws DataError
+ * when there are no data rows, or when row 1 is a row of numbers that looks like labels and
+ * nothing else settles it.
+ */
+function detectHeader(cells: Cell[][], target: Cell[], mode: Settings["header"]): HeaderDecision {
+  const no: HeaderDecision = { header: false, note: null };
+  const yes: HeaderDecision = { header: true, note: null };
+  if (mode === "no") return no;
   if (mode === "yes") {
     if (cells.length < 2) throw new DataError("settings say header=yes but predictors has only one row: select the header row and the data below it");
-    return true;
+    return yes;
   }
-  if (cells.length < 2) return false;
-  if (!cells[0].every((c) => c.kind === "text")) return false;
-  for (let j = 0; j < cells[0].length; j++) {
-    for (let i = 1; i < cells.length; i++) if (isNumeric(cells[i][j])) return true;
+  const first = cells[0];
+  if (cells.length < 2) {
+    if (first.every(isNameText)) {
+      if (target.length === 1 && isNameText(target[0])) {
+        throw new DataError(
+          `predictors and target hold only their header rows (${showRow(first)} and '${(target[0] as { value: string }).value}'): there are no data rows; select the rows of data below the headers too`,
+        );
+      }
+      throw new DataError(`predictors holds only a header row (${showRow(first)}): there are no data rows; select the rows of data below it too`);
+    }
+    return no;
   }
-  // All-text predictors: the target, aligned with them, may still show a header.
-  if (target.length === cells.length && target[0].kind === "text") {
-    for (let i = 1; i < target.length; i++) if (isNumeric(target[i])) return true;
+  const width = first.length;
+  const below = (test: (c: Cell) => boolean): boolean => {
+    for (let j = 0; j < width; j++) for (let i = 1; i < cells.length; i++) if (test(cells[i][j])) return true;
+    return false;
+  };
+  const targetHeader = target.length === cells.length && isNameText(target[0]) && target.slice(1).some(isNumberLike);
+  if (first.every((c) => c.kind === "text")) {
+    if (below(isNumeric)) return yes;
+    if (!first.every(isNumberLike)) {
+      if (below(isNumberLike)) return yes;
+      // Predictors hold only text: the target may still show the header.
+      if (targetHeader) return yes;
+      if (target.length === cells.length - 1) {
+        // One row more than the target: row 1 is a header unless one of its texts is also a level below it.
+        const repeats = first.some((c, j) => cells.slice(1).some((row) => row[j].kind === "text" && textKey((row[j] as { value: string }).value) === textKey((c as { value: string }).value)));
+        if (!repeats) {
+          return {
+            header: true,
+            note: `predictors row 1 (${showRow(first)}) is read as the header: predictors hold only text and have one row more than the target (add header=yes to settings to say so)`,
+          };
+        }
+      }
+      return no;
+    }
+    // Row 1 holds numbers stored as text above more of them: decided below as a row of numbers.
   }
-  return false;
+  if (!first.every(isNumberLike)) return no;
+  if (targetHeader) {
+    return {
+      header: true,
+      note: `predictors row 1 (${showRow(first)}) is read as the header because the target's row 1 ('${(target[0] as { value: string }).value}') is a header beside it (add header=yes to settings to say so)`,
+    };
+  }
+  const targetAbove = target.length === cells.length + 1 && isNameText(target[0]);
+  if (!targetAbove && looksLikeNumberLabels(cells)) {
+    throw new DataError(
+      `predictors row 1 (${showRow(first)}) looks like column labels (whole numbers rising from left to right, like years) but could be data: add header=yes to settings if it names the columns, or header=no if it is data`,
+    );
+  }
+  return no;
+}
+
+/** Counts over the data cells of one column, for deciding how it is read. Rows are 0-based indices into the range. */
+interface ColumnScan {
+  /** Number and TRUE/FALSE cells. */
+  numbers: number;
+  texts: number;
+  /** Texts that read as numbers (engine/numberText.ts). */
+  numericTexts: number;
+  /** Texts written like numbers in another convention (decimal comma, …). */
+  foreignTexts: number;
+  /** Texts written like dates. */
+  dateTexts: number;
+  firstText: number;
+  firstNumber: number;
+  /** First text read as a number, and the first one using ',' thousands separators. */
+  firstNumericText: number;
+  firstGrouped: number;
+  /** First text that is not a number in the convention. */
+  firstOtherText: number;
+  firstDate: number;
+}
+
+function scanColumn(cellAt: (i: number) => Cell, from: number, to: number): ColumnScan {
+  const scan: ColumnScan = {
+    numbers: 0,
+    texts: 0,
+    numericTexts: 0,
+    foreignTexts: 0,
+    dateTexts: 0,
+    firstText: -1,
+    firstNumber: -1,
+    firstNumericText: -1,
+    firstGrouped: -1,
+    firstOtherText: -1,
+    firstDate: -1,
+  };
+  for (let i = from; i < to; i++) {
+    const c = cellAt(i);
+    if (isNumeric(c)) {
+      scan.numbers++;
+      if (scan.firstNumber < 0) scan.firstNumber = i;
+      continue;
+    }
+    if (c.kind !== "text") continue;
+    scan.texts++;
+    if (scan.firstText < 0) scan.firstText = i;
+    const reading = readNumberText(c.value);
+    if (reading.kind === "number") {
+      scan.numericTexts++;
+      if (scan.firstNumericText < 0) scan.firstNumericText = i;
+      if (reading.grouped && scan.firstGrouped < 0) scan.firstGrouped = i;
+      continue;
+    }
+    if (scan.firstOtherText < 0) scan.firstOtherText = i;
+    if (reading.kind === "foreign" || reading.kind === "too-large") scan.foreignTexts++;
+    if (reading.kind === "date") {
+      scan.dateTexts++;
+      if (scan.firstDate < 0) scan.firstDate = i;
+    }
+  }
+  return scan;
+}
+
+/**
+ * How a column is read: "number" when at least half of its values look like numbers (numbers,
+ * TRUE/FALSE, numbers stored as text, or numbers written in another convention), "date" when
+ * at least half are dates written as text, else "text" (levels).
+ */
+function columnReading(scan: ColumnScan): "number" | "date" | "text" {
+  const total = scan.numbers + scan.texts;
+  if (2 * (scan.numbers + scan.numericTexts + scan.foreignTexts) >= total) return "number";
+  if (2 * scan.dateTexts >= total) return "date";
+  return "text";
+}
+
+/** The note for a column read from numbers stored as text. */
+function fromTextNote(what: string, scan: ColumnScan, cellAt: (i: number) => Cell, categoriesHint: boolean): string {
+  const first = cellAt(scan.firstNumericText) as { kind: "text"; value: string };
+  let note = `${what} read as numbers: its cells hold numbers stored as text (first: row ${scan.firstNumericText + 1}, '${first.value}')`;
+  if (scan.firstGrouped >= 0) {
+    const grouped = (cellAt(scan.firstGrouped) as { kind: "text"; value: string }).value;
+    note += `; ',' is read as a thousands separator, so '${grouped}' is ${String(numberFromText(grouped))}`;
+  }
+  if (categoriesHint) note += "; to use them as categories, write labels that aren't numbers";
+  return note;
+}
+
+/** The error for a column of dates written as text. */
+function datesError(what: string, scan: ColumnScan, cellAt: (i: number) => Cell, leaveOut: string): DataError {
+  const first = cellAt(scan.firstDate) as { kind: "text"; value: string };
+  return new DataError(
+    `${what} holds dates stored as text (row ${scan.firstDate + 1}: '${first.value}'): as text, each date would become a 0/1 term of its own; convert them to real dates (for example with DATEVALUE), which Excel keeps as numbers, or ${leaveOut}`,
+  );
 }
 
 /**
@@ -176,15 +398,18 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   const cells = classifyGrid(predictorGrid);
   const targetCells = targetGrid.map((row) => classifyCell(row[0]));
   const width = cells[0].length;
-  const header = detectHeader(cells, targetCells, settings.header);
+  const decision = detectHeader(cells, targetCells, settings.header);
+  const header = decision.header;
   const h = header ? 1 : 0;
   const dataRows = cells.length - h;
+  const notes: string[] = [];
+  if (decision.note !== null) notes.push(decision.note);
 
   // Column names.
   const names: string[] = [];
   for (let j = 0; j < width; j++) {
     const c = header ? cells[0][j] : null;
-    const name = c && c.kind === "text" ? c.value : c && c.kind === "number" ? String(c.value) : `x${j + 1}`;
+    const name = c && c.kind === "text" ? c.value : c && c.kind !== "blank" && c.kind !== "error" ? describeCell(c) : `x${j + 1}`;
     names.push(name);
   }
   for (let j = 0; j < width; j++) {
@@ -205,7 +430,9 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
     targetStart = h;
     if (header) {
       const first = targetCells[0];
+      const numberHeader = cells[0].every(isNumberLike);
       if (first.kind === "text") targetName = first.value;
+      else if (numberHeader && isNumeric(first)) targetName = describeCell(first);
       else if (first.kind !== "blank") {
         throw new DataError(
           `target row 1 is ${describeCell(first)} but it sits beside the predictors' header row: give the target a header too, or start the target range one row lower`,
@@ -217,6 +444,11 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   } else if (!header && targetCells.length === cells.length + 1 && targetCells[0].kind === "text") {
     targetName = targetCells[0].value;
     targetStart = 1;
+  } else if (!header && targetCells.length === cells.length - 1) {
+    const textOnly = cells[0].every(isNameText);
+    throw new DataError(
+      `predictors has ${cells.length} rows but target has ${targetCells.length}: if predictors' row 1 is a header, add header=yes to settings${textOnly ? " (predictors hold only text, and a text of row 1 also appears below it, so Shrinkwise can't tell a header from data)" : ""}; otherwise select the same rows in both`,
+    );
   } else {
     throw new DataError(`predictors has ${cells.length} rows but target has ${targetCells.length}: select the same rows in both`);
   }
@@ -272,61 +504,62 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
 
   // Column kinds.
   const kinds: ("number" | "text" | "labels")[] = [];
+  let numericFoldLabels = false;
   for (let j = 0; j < width; j++) {
-    let numbers = 0;
-    let texts = 0;
-    let firstText = -1;
-    let firstNumber = -1;
-    for (let i = h; i < cells.length; i++) {
-      const c = cells[i][j];
-      if (c.kind === "text") {
-        texts++;
-        if (firstText < 0) firstText = i;
-      } else if (isNumeric(c)) {
-        numbers++;
-        if (firstNumber < 0) firstNumber = i;
-      }
-    }
+    const cellAt = (i: number): Cell => cells[i][j];
+    const scan = scanColumn(cellAt, h, cells.length);
     const label = j === foldIndex ? "fold column" : j === weightsIndex ? "weights column" : "predictors column";
-    if (numbers === 0 && texts === 0) {
+    if (scan.numbers === 0 && scan.texts === 0) {
       throw new DataError(`${label} '${names[j]}' has no values (only blank or error cells): fill it in or leave it out of predictors`);
     }
     if (j === foldIndex) {
+      // Labels; texts that are all numbers stored as text label the same folds as those numbers.
+      numericFoldLabels = scan.texts > 0 && scan.numericTexts === scan.texts;
       kinds.push("labels");
       continue;
     }
-    if (j === weightsIndex && texts > 0) {
-      const c = cells[firstText][j] as { kind: "text"; value: string };
-      throw new DataError(`weights column '${names[j]}' row ${firstText + 1} has text '${c.value}'${storedAsTextHint(c.value)}: weights must be numbers of 0 or more`);
-    }
-    if (texts > 0 && numbers > 0) {
-      if (numbers >= texts) {
-        const c = cells[firstText][j] as { kind: "text"; value: string };
-        const headerHint =
-          firstText === 0 && settings.header === "auto" ? " (if row 1 is a header, give every column a name there, or add header=yes to settings)" : "";
-        throw new DataError(
-          `${label} '${names[j]}' row ${firstText + 1} has text '${c.value}' in a number column${storedAsTextHint(c.value)}: fix it or clear the cell${headerHint}`,
-        );
-      }
-      const c = cells[firstNumber][j];
-      const hint = c.kind === "number" && c.value === 0 ? zeroHint(names[j]) : "";
+    const reading = columnReading(scan);
+    if (j === weightsIndex && scan.firstOtherText >= 0) {
+      const c = cells[scan.firstOtherText][j] as { kind: "text"; value: string };
       throw new DataError(
-        `${label} '${names[j]}' row ${firstNumber + 1} has ${describeCell(c)} in a text column: make it a text level or clear the cell${hint}`,
+        `weights column '${names[j]}' row ${scan.firstOtherText + 1} has text '${c.value}'${storedAsTextHint(c.value)}: weights must be numbers of 0 or more`,
       );
     }
-    kinds.push(texts > 0 ? "text" : "number");
+    if (reading === "date") throw datesError(`${label} '${names[j]}'`, scan, cellAt, "leave the column out of predictors");
+    if (reading === "number") {
+      if (scan.firstOtherText >= 0) {
+        const c = cells[scan.firstOtherText][j] as { kind: "text"; value: string };
+        const headerHint =
+          scan.firstOtherText === 0 && settings.header === "auto" ? " (if row 1 is a header, give every column a name there, or add header=yes to settings)" : "";
+        throw new DataError(
+          `${label} '${names[j]}' row ${scan.firstOtherText + 1} has text '${c.value}' in a number column${storedAsTextHint(c.value)}: fix it or clear the cell${headerHint}`,
+        );
+      }
+      if (scan.numericTexts > 0) notes.push(fromTextNote(`${label} '${names[j]}'`, scan, cellAt, j !== weightsIndex));
+      kinds.push("number");
+      continue;
+    }
+    if (scan.numbers > 0) {
+      const c = cells[scan.firstNumber][j];
+      const hint = c.kind === "number" && c.value === 0 ? zeroHint(names[j]) : "";
+      throw new DataError(
+        `${label} '${names[j]}' row ${scan.firstNumber + 1} has ${describeCell(c)} in a text column: make it a text level or clear the cell${hint}`,
+      );
+    }
+    kinds.push("text");
   }
 
-  // Target values must be numbers (blank and error cells skip the row).
-  for (let d = 0; d < dataRows; d++) {
-    const c = targetCells[targetStart + d];
-    if (c.kind === "text") {
-      const row = targetStart + d + 1;
-      const headerHint =
-        row !== 1 ? "" : settings.header === "no" ? " (settings say header=no, so row 1 is data)" : " (if it is a header, give predictors a header row too)";
-      throw new DataError(`target row ${row} has text '${c.value}'${storedAsTextHint(c.value)}: the target must be numbers, so fix the cell or clear it${headerHint}`);
-    }
+  // Target values must be numbers (numbers stored as text count; blank and error cells skip the row).
+  const targetAt = (i: number): Cell => targetCells[i];
+  const targetScan = scanColumn(targetAt, targetStart, targetStart + dataRows);
+  if (targetScan.firstOtherText >= 0) {
+    const row = targetScan.firstOtherText + 1;
+    const c = targetCells[targetScan.firstOtherText] as { kind: "text"; value: string };
+    const headerHint =
+      row !== 1 ? "" : settings.header === "no" ? " (settings say header=no, so row 1 is data)" : " (if it is a header, give predictors a header row too)";
+    throw new DataError(`target row ${row} has text '${c.value}'${storedAsTextHint(c.value)}: the target must be numbers, so fix the cell or clear it${headerHint}`);
   }
+  if (targetScan.numericTexts > 0) notes.push(fromTextNote(`target '${targetName}'`, targetScan, targetAt, false));
 
   // Rows used, skipped, ignored.
   const used: number[] = [];
@@ -363,19 +596,23 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   if (weightsIndex !== null) {
     weights = [];
     for (const d of used) {
-      const c = cells[h + d][weightsIndex];
-      const w = numericValue(c as { kind: "number"; value: number });
+      const w = numberOfCell(cells[h + d][weightsIndex]) as number;
       if (w < 0) throw new DataError(`weights column '${names[weightsIndex]}' row ${h + d + 1} is ${w}: weights must be 0 or more`);
       weights.push(w);
     }
   }
-  // Fold labels.
+  // Fold labels: texts grouped ignoring case and spacing, each group shown as first typed.
   let foldLabels: (number | string)[] | null = null;
   if (foldIndex !== null) {
+    const shown = new Map<string, string>();
     foldLabels = used.map((d) => {
       const c = cells[h + d][foldIndex];
-      if (c.kind === "text") return textKey(c.value);
-      return numericValue(c as { kind: "number"; value: number });
+      if (c.kind === "text" && !numericFoldLabels) {
+        const key = textKey(c.value);
+        if (!shown.has(key)) shown.set(key, c.value);
+        return shown.get(key) as string;
+      }
+      return numberOfCell(c) as number;
     });
   }
 
@@ -383,7 +620,35 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   const columns: ColumnCode[] = [];
   const terms: string[] = [];
   const referenceLevels: { column: string; level: string }[] = [];
-  const notes: string[] = [];
+  // Every name a COEFS table shows (number columns, each level's term, reference rows included),
+  // by textKey (how terms are looked up), so two that read alike are caught here rather than
+  // in SHRINK.APPLY or a setting.
+  // Column names are claimed too (the fold and weights columns included): new rows carry them,
+  // and a term named like one would be read from it.
+  const shownNames = new Map<string, { column: string; level: string | null; role: string }>();
+  const owner = (o: { column: string; level: string | null; role: string }): string =>
+    o.level === null ? `${o.role} '${o.column}'` : `level '${o.level}' of the text column '${o.column}'`;
+  const claim = (name: string, column: string, level: string | null, role = "predictors column"): void => {
+    const mine = { column, level, role };
+    if (REFERENCE_SUFFIX.test(name)) {
+      throw new DataError(
+        `${owner(mine)} would be listed as '${name}', which coefficient tables read as a reference-level mark: rename the ${level === null ? "column" : "level"} so it doesn't end in '(reference)'`,
+      );
+    }
+    const other = shownNames.get(textKey(name));
+    if (other) {
+      const rename = other.level === null ? `the column '${other.column}'` : `the column '${other.column}' or '${column}'`;
+      throw new DataError(`${owner(other)} and ${owner(mine)} would both be listed as '${name}', so SHRINK.APPLY and settings could not tell them apart: rename ${rename}`);
+    }
+    shownNames.set(textKey(name), mine);
+  };
+  // Every column's own name is claimed: SHRINK.APPLY reads a term that equals a column of new
+  // rows as that number column, whatever kind the column is.
+  for (let j = 0; j < width; j++) {
+    if (j === foldIndex) claim(names[j], names[j], null, "the fold column");
+    else if (j === weightsIndex) claim(names[j], names[j], null, "the weights column");
+    else claim(names[j], names[j], null);
+  }
   for (let j = 0; j < width; j++) {
     if (j === foldIndex || j === weightsIndex) continue;
     if (kinds[j] === "number") {
@@ -405,18 +670,25 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
       }
       counts.set(key, (counts.get(key) as number) + 1);
     }
+    if (order.length > MAX_LEVELS) {
+      throw new DataError(
+        `predictors column '${names[j]}' has ${order.length} different texts: a text column becomes one 0/1 column per level (at most ${MAX_LEVELS}), so this looks like a name or an identifier; leave it out of predictors`,
+      );
+    }
     let reference = order[0];
     for (const key of order) if ((counts.get(key) as number) > (counts.get(reference) as number)) reference = key;
     const levelIndex = new Map<string, number>();
     const levels: string[] = [];
     for (const key of order) {
+      const level = display.get(key) as string;
+      claim(`${names[j]}: ${level}`, names[j], level);
       if (key === reference) {
         levelIndex.set(key, -1);
         continue;
       }
       levelIndex.set(key, levels.length);
-      levels.push(display.get(key) as string);
-      terms.push(`${names[j]}: ${display.get(key) as string}`);
+      levels.push(level);
+      terms.push(`${names[j]}: ${level}`);
     }
     // Levels seen only in skipped rows are still known (they encode as unseen otherwise).
     for (let i = h; i < cells.length; i++) {
@@ -425,11 +697,6 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
         notes.push(`'${names[j]}' level '${c.value}' appears only in skipped rows, so the model has no term for it`);
         levelIndex.set(textKey(c.value), -2);
       }
-    }
-    if (order.length > MAX_LEVELS) {
-      throw new DataError(
-        `predictors column '${names[j]}' has ${order.length} different texts: a text column becomes one 0/1 column per level (at most ${MAX_LEVELS}), so this looks like a name or an identifier; leave it out of predictors`,
-      );
     }
     const referenceText = display.get(reference) as string;
     referenceLevels.push({ column: names[j], level: referenceText });
@@ -442,12 +709,26 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   if (columns.length === 0) {
     throw new DataError("no predictor is left to fit: every predictors column is the fold column, the weights column, or a text column with one level");
   }
-  const termKeys = new Set<string>();
-  for (const term of terms) {
-    if (termKeys.has(textKey(term))) {
-      throw new DataError(`two terms would both be named '${term}' (a column name clashes with an indicator name): rename the column`);
+  // A level's term must read as that column's level only: SHRINK.APPLY splits a term at a colon
+  // into a column of new rows that isn't a number term and a level, so a term that also splits
+  // into another such column (column 'a' level 'b: c' beside column 'a: b'; the fold and weights
+  // columns and one-level text columns count, as new rows carry them too) is ambiguous.
+  const textColumnKeys = new Map<string, string>();
+  for (let j = 0; j < width; j++) if (j === foldIndex || j === weightsIndex || kinds[j] !== "number") textColumnKeys.set(textKey(names[j]), names[j]);
+  for (const column of columns) {
+    if (column.kind !== "text") continue;
+    for (const level of [column.reference, ...column.levels]) {
+      if (level === null) continue;
+      const term = `${column.name}: ${level}`;
+      for (let at = term.indexOf(":"); at > 0; at = term.indexOf(":", at + 1)) {
+        const other = textColumnKeys.get(textKey(term.slice(0, at)));
+        const rest = term.slice(at + 1).trim();
+        if (other === undefined || textKey(other) === textKey(column.name) || rest === "") continue;
+        throw new DataError(
+          `level '${level}' of the text column '${column.name}' would be listed as '${term}', which also reads as '${rest}' in the column '${other}', so SHRINK.APPLY could not tell them apart: rename the column '${column.name}' or '${other}'`,
+        );
+      }
     }
-    termKeys.add(textKey(term));
   }
 
   const encoder: RowEncoder = { columns, terms, width, sourceNames: names, source: "predictors" };
@@ -459,7 +740,7 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
     const values = new Array<number>(terms.length);
     encodeInto(encoder, (column) => cells[i][column.position], values, () => "training");
     rows.push(values);
-    const t = numericValue(targetCells[targetStart + d] as { kind: "number"; value: number });
+    const t = numberOfCell(targetCells[targetStart + d]) as number;
     target.push(t);
     let allZero = t === 0;
     for (const column of columns) {
@@ -511,11 +792,13 @@ function encodeInto(
   for (const column of encoder.columns) {
     const c = cellOf(column);
     if (column.kind === "number") {
-      if (!isNumeric(c)) {
+      // Numbers stored as text are read as in training (engine/numberText.ts).
+      const value = numberOfCell(c);
+      if (value === null) {
         const text = c.kind === "text" ? `text '${c.value}'${storedAsTextHint(c.value)}` : describeCell(c);
         throw new DataError(`${where(column)} has ${text}, but '${column.name}' is a number column: fix it or clear the cell`);
       }
-      out[t++] = numericValue(c);
+      out[t++] = value;
       continue;
     }
     if (c.kind !== "text") {
@@ -615,6 +898,23 @@ function newRowCells(raw: unknown): Cell[][] {
   return classifyGrid(grid);
 }
 
+/**
+ * A first row of new_rows that names columns: texts and blanks, at least one text a known name;
+ * numbers count as names only when each is a known name (columns named 2019, 2020, … by a header of
+ * numbers), so a row of data is never taken for one.
+ */
+function isNameRow(first: readonly Cell[], known: (key: string) => boolean): boolean {
+  let named = false;
+  for (const c of first) {
+    if (c.kind === "blank") continue;
+    const key = c.kind === "text" ? textKey(c.value) : c.kind === "number" ? textKey(describeCell(c)) : null;
+    if (key === null) return false;
+    if (known(key)) named = true;
+    else if (c.kind !== "text") return false;
+  }
+  return named;
+}
+
 /** Position of each wanted name in a header row, or an error naming the first one missing. */
 function headerPositions(first: Cell[], wanted: readonly string[], missingMessage: (name: string, have: string[]) => string): number[] {
   const have = first.map((c) => (c.kind === "text" ? c.value : describeCell(c)));
@@ -636,8 +936,7 @@ export function encodeNewRows(encoder: RowEncoder, raw: unknown): EncodedRows {
   const cells = newRowCells(raw);
   const first = cells[0];
   const known = new Set(encoder.sourceNames.map(textKey));
-  const header =
-    first.every((c) => c.kind === "text" || c.kind === "blank") && first.some((c) => c.kind === "text" && known.has(textKey(c.value)));
+  const header = isNameRow(first, (key) => known.has(key));
   if (header) {
     if (cells.length < 2) throw new DataError("new_rows has a header row but no rows below it");
     const positions = headerPositions(
@@ -672,9 +971,11 @@ const REFERENCE_SUFFIX = /\s*\(reference\)\s*$/i;
 
 /**
  * Reads a coefficient table (SHRINK.COEFS or SHRINK.BASELINE output, or typed by hand): term |
- * coefficient rows, an optional header row (second cell text), ending at the first blank row.
+ * coefficient rows, an optional header row (see below), ending at the first blank row.
  * "intercept" (or "(intercept)", or "constant" when no intercept row is present) is the
- * intercept (0 when absent); a term ending in " (reference)" marks a text column's reference level.
+ * intercept, and the table must have one (`intercept | 0` says a model has none); a first row
+ * naming the intercept is never a header. A coefficient stored as text is an error with the
+ * stored-as-text hint. A term ending in " (reference)" marks a text column's reference level.
  */
 export function readCoefficientTable(raw: unknown): CoefficientTable {
   const grid = toGrid(raw);
@@ -683,8 +984,11 @@ export function readCoefficientTable(raw: unknown): CoefficientTable {
     throw new DataError("coefficient_table needs two columns, term | coefficient: select both columns of the table SHRINK.COEFS returned");
   }
   const cells = classifyGrid(grid);
-  let start = 0;
-  if (cells[0][1].kind === "text") start = 1;
+  // A header row: its second cell is text that isn't a number, and its first cell doesn't name the intercept.
+  const firstTerm = cells[0][0];
+  const namesIntercept = firstTerm.kind === "text" && (INTERCEPT_KEYS.has(textKey(firstTerm.value)) || textKey(firstTerm.value) === CONSTANT_KEY);
+  const second = cells[0][1];
+  const start = !namesIntercept && second.kind === "text" && numberFromText(second.value) === null ? 1 : 0;
   let intercept: number | null = null;
   const terms: CoefficientTable["terms"] = [];
   const seen = new Set<string>();
@@ -698,7 +1002,7 @@ export function readCoefficientTable(raw: unknown): CoefficientTable {
     }
     const term = termCell.kind === "text" ? termCell.value : String(termCell.value);
     if (coefficientCell.kind !== "number") {
-      const what = coefficientCell.kind === "text" ? `text '${coefficientCell.value}'` : describeCell(coefficientCell);
+      const what = coefficientCell.kind === "text" ? `text '${coefficientCell.value}'${storedAsTextHint(coefficientCell.value)}` : describeCell(coefficientCell);
       throw new DataError(`coefficient_table row ${i + 1} ('${term}') has ${what} where its coefficient belongs: give a number`);
     }
     const key = textKey(term);
@@ -717,20 +1021,30 @@ export function readCoefficientTable(raw: unknown): CoefficientTable {
     const constant = terms.findIndex((t) => !t.reference && textKey(t.term) === CONSTANT_KEY);
     if (constant >= 0) intercept = terms.splice(constant, 1)[0].coefficient;
   }
+  if (intercept === null) {
+    throw new DataError(
+      "coefficient_table has no intercept row: add a row 'intercept' with the model's intercept (intercept | 0 for a model without one), or select the whole table SHRINK.COEFS returned",
+    );
+  }
   if (terms.length === 0) throw new DataError("coefficient_table has no terms besides the intercept: select the whole table");
-  return { intercept: intercept ?? 0, terms };
+  return { intercept, terms };
 }
 
-/** A term split into a column that exists in `header` and a level, or null. */
-function splitTerm(term: string, headerKeys: Map<string, string>): { column: string; level: string } | null {
+/**
+ * The ways a term splits, at one of its colons, into a column of new_rows' header (not one of
+ * `exclude`, the number columns) and a level. More than one means the term is ambiguous.
+ */
+function splitTerm(term: string, headerKeys: Map<string, string>, exclude: ReadonlySet<string>): { column: string; level: string }[] {
+  const out: { column: string; level: string }[] = [];
   let at = term.indexOf(":");
   while (at > 0) {
-    const column = headerKeys.get(textKey(term.slice(0, at)));
+    const key = textKey(term.slice(0, at));
+    const column = headerKeys.get(key);
     const level = term.slice(at + 1).trim();
-    if (column !== undefined && level !== "") return { column, level };
+    if (column !== undefined && !exclude.has(key) && level !== "" && !out.some((o) => textKey(o.column) === key)) out.push({ column, level });
     at = term.indexOf(":", at + 1);
   }
-  return null;
+  return out;
 }
 
 /**
@@ -744,13 +1058,7 @@ export function applyCoefficientTable(table: CoefficientTable, raw: unknown): { 
   const cells = newRowCells(raw);
   const first = cells[0];
   const termKeys = table.terms.map((t) => textKey(t.term));
-  const headerLike =
-    first.every((c) => c.kind === "text" || c.kind === "blank") &&
-    first.some((c) => {
-      if (c.kind !== "text") return false;
-      const key = textKey(c.value);
-      return termKeys.some((t) => t === key || t.startsWith(`${key}:`));
-    });
+  const headerLike = isNameRow(first, (key) => termKeys.some((t) => t === key || t.startsWith(`${key}:`)));
   const plain = table.terms.filter((t) => !t.reference);
   if (!headerLike) {
     const looksIndicator = plain.some((t) => t.term.includes(":"));
@@ -776,6 +1084,10 @@ export function applyCoefficientTable(table: CoefficientTable, raw: unknown): { 
   const byColumn = new Map<string, ColumnCode>();
   const order: ColumnCode[] = [];
   const coefficientOf = new Map<string, number>();
+  // Terms naming a header column exactly are number columns; the others split at a colon into a
+  // column that isn't one of those and a level.
+  const numberKeys = new Set<string>();
+  for (const t of table.terms) if (!t.reference && headerKeys.has(textKey(t.term))) numberKeys.add(textKey(t.term));
   for (const t of table.terms) {
     const exact = headerKeys.get(textKey(t.term));
     if (exact !== undefined && !t.reference) {
@@ -787,13 +1099,20 @@ export function applyCoefficientTable(table: CoefficientTable, raw: unknown): { 
       coefficientOf.set(`${key}\u0000`, t.coefficient);
       continue;
     }
-    const split = splitTerm(t.term, headerKeys);
-    if (!split) {
+    const splits = splitTerm(t.term, headerKeys, numberKeys);
+    if (splits.length === 0) {
       const prefix = t.term.includes(":") ? t.term.slice(0, t.term.indexOf(":")).trim() : t.term;
       throw new DataError(
         `new_rows has no column '${prefix}' (needed for the term '${t.term}' of coefficient_table; new_rows' header has ${listNames(headerNames)}): add the column or fix the header`,
       );
     }
+    if (splits.length > 1) {
+      const [a, b] = splits;
+      throw new DataError(
+        `coefficient_table's term '${t.term}' reads both as level '${a.level}' of '${a.column}' and as level '${b.level}' of '${b.column}': rename one of these columns (in the data and the table) so no column name is another's followed by ':'`,
+      );
+    }
+    const split = splits[0];
     const key = textKey(split.column);
     let column = byColumn.get(key);
     if (!column) {

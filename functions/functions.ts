@@ -28,7 +28,7 @@ import { browserWorkerFactory, workersAvailable, WorkerRunner } from "./workerRu
  * by cross-validation, and returns each term with its coefficient, the intercept first.
  * @customfunction COEFS
  * @param target The column to predict, one value per row. A header cell on top is fine; rows with a blank or error are skipped.
- * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one. Text columns become one 0/1 column per level.
+ * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one. Numbers stored as text count as numbers; other text columns become one 0/1 column per level.
  * @param [mixes] The mixes to try: 0 is ridge, 1 is lasso, between is elastic net. A number, a range of numbers or text like "0, 0.5, 1". Leave out to try 0, 0.25, 0.5, 0.75 and 1.
  * @param [settings] Optional settings as text, like "folds=5; seed=7; rule=one-se", or a two-column range of setting names and values.
  * @param invocation Supplied by Excel.
@@ -92,7 +92,7 @@ export async function predict(
  * Predicts from a coefficient table (the output of SHRINK.COEFS or SHRINK.BASELINE, or typed
  * in) without fitting again.
  * @customfunction APPLY
- * @param coefficient_table Two columns, term and coefficient, with intercept as one of the terms.
+ * @param coefficient_table Two columns, term and coefficient, with an intercept row (write intercept and 0 for a model without one).
  * @param new_rows The rows to predict, with a header row naming the terms' columns (or the columns in the table's order).
  * @returns One prediction per row of new_rows.
  */
@@ -147,7 +147,7 @@ export async function cvcurve(
  * error, R², mean error, and the pairs used and skipped.
  * @customfunction SCORE
  * @param actual The actual values, one column. Pairs with a blank or error cell are skipped.
- * @param predicted The predicted values, one column the same length as actual.
+ * @param predicted The predicted values, one column the same length as actual (a text header on top of either is dropped).
  * @returns A table of label and value.
  */
 export async function score(actual: any[][], predicted: any[][]): Promise<any[][]> {

@@ -209,7 +209,10 @@ export function checkSettings(inputs: PaneInputs): SettingsCheck {
 /** Column names for the weights and fold column choices: the header row's texts, or x1, x2, … */
 export function columnNames(firstRow: readonly unknown[] | undefined, header: HeaderChoice): string[] {
   if (!firstRow || firstRow.length === 0) return [];
-  const texts = firstRow.map((cell) => (typeof cell === "string" ? cell.trim() : ""));
+  // As the cell functions name columns: texts in Unicode NFC; numbers (years) when the header is said to be there.
+  const texts = firstRow.map((cell) =>
+    typeof cell === "string" ? cell.trim().normalize("NFC") : typeof cell === "number" && header === "yes" && Number.isFinite(cell) ? String(cell) : "",
+  );
   const allText = texts.every((t) => t !== "" && !/^#[A-Z0-9/!?]+$/i.test(t));
   if (header !== "no" && allText) return texts;
   return firstRow.map((_, j) => `x${j + 1}`);

@@ -234,19 +234,27 @@ describe("header detection", () => {
     });
     const numbersOnly = predictors.map((row) => [row[0], row[2]]);
     const aligned = [[1, 2], ...numbersOnly.slice(1)];
-    expect((await rejection(coefs(new CountingRunner(), target, aligned, 1, QUICK))).message).toBe(
-      "target row 1 has text 'Sales': the target must be numbers, so fix the cell or clear it (if it is a header, give predictors a header row too)",
+    // A row of numbers beside the target's text header: read as the header, and CHOICE says so.
+    const numbered = new CountingRunner();
+    const decided = labelled(await choice(numbered, target, aligned, 1, QUICK));
+    expect(numbered.last().options.names).toEqual(["1", "2"]);
+    expect(numbered.last().target).toHaveLength(42);
+    expect(String(decided.get("notes"))).toContain(
+      "predictors row 1 (1, 2) is read as the header because the target's row 1 ('Sales') is a header beside it (add header=yes to settings to say so)",
     );
     expect((await rejection(coefs(new CountingRunner(), target, aligned, 1, "header=no"))).message).toBe(
       "target row 1 has text 'Sales': the target must be numbers, so fix the cell or clear it (settings say header=no, so row 1 is data)",
     );
-    // Text-only predictors under a header, target without one: auto sees no header.
+    // Text-only predictors under a header, target without one: one row more than the target, and
+    // 'Region' is no level below it, so row 1 is the header (and CHOICE says how that was decided).
     const region = predictors.map((row) => [row[1]]);
     const y = target.slice(1);
-    expect((await rejection(coefs(new CountingRunner(), y, region, 1, QUICK))).message).toBe(
-      "predictors has 43 rows but target has 42: select the same rows in both",
-    );
     const runner = new CountingRunner();
+    const notes = String(labelled(await choice(runner, y, region, 1, QUICK)).get("notes"));
+    expect(runner.last().options.names).toEqual(["Region: North", "Region: West", "Region: South"]);
+    expect(notes).toContain(
+      "predictors row 1 ('Region') is read as the header: predictors hold only text and have one row more than the target (add header=yes to settings to say so)",
+    );
     await coefs(runner, y, region, 1, `${QUICK}; header=yes`);
     expect(runner.last().options.names).toEqual(["Region: North", "Region: West", "Region: South"]);
   });
@@ -449,9 +457,10 @@ describe("bad input: error code and message", () => {
       code: "#VALUE!",
       message: "predictors column 'Moisture' row 7 has text 'n/a' in a number column: fix it or clear the cell",
     });
-    x[6][0] = "12";
+    // Written with a decimal comma: not a number in the convention of engine/numberText.ts, and said so.
+    x[6][0] = "1,5";
     expect((await rejection(coefs(runner, y, x, 1, QUICK))).message).toBe(
-      "predictors column 'Moisture' row 7 has text '12' in a number column (a number stored as text?): fix it or clear the cell",
+      "predictors column 'Moisture' row 7 has text '1,5' in a number column (a decimal comma or another digit grouping? numbers are read with '.' as the decimal point and ',' between groups of three digits): fix it or clear the cell",
     );
   });
 

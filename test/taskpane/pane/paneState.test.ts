@@ -255,5 +255,11 @@ describe("settings text, mixes text and restore", () => {
     expect(columnNames(["temp", "moisture"], "no")).toEqual(["x1", "x2"]);
     expect(columnNames(undefined, "auto")).toEqual([]);
   });
+
+  test("column names as the cells name them: NFC texts, and a header of numbers (years) when header is yes", () => {
+    expect(columnNames(["Re\u0301gion", "temp"], "auto")).toEqual(["R\u00e9gion", "temp"]);
+    expect(columnNames([2019, 2020, 2021], "yes")).toEqual(["2019", "2020", "2021"]);
+    expect(columnNames([2019, 2020, 2021], "auto")).toEqual(["x1", "x2", "x3"]);
+  });
 });
 
