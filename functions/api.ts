@@ -21,6 +21,7 @@
  * APPLY and SCORE fit nothing and take no runner.
  */
 import { score as scoreValues } from "../engine/metrics";
+import { numberFromText } from "../engine/numberText";
 import { linearModel, predict as predictWithModel } from "../engine/model";
 import { Cell, classifyCell, isNumeric, numericValue, storedAsTextHint, toGrid } from "./cells";
 import {
@@ -29,6 +30,7 @@ import {
   Dataset,
   EncodedRows,
   encodeNewRows,
+  listNames,
   readCoefficientTable,
   termIndices,
 } from "./dataset";
@@ -105,9 +107,26 @@ function fitOptions(dataset: Dataset, settings: Settings, mixes: number[] | null
     }
     options.strength = settings.strength;
   }
-  if (settings.gridSize !== null) options.strengthCount = settings.gridSize;
+  if (settings.gridSize !== null) {
+    if (settings.gridSize === 1 && settings.strength === null) {
+      throw new SettingError(
+        "'grid size' is 1: cross-validation would try only the top of the grid, where every penalized coefficient is 0, so the model would be the intercept alone; use 2 or more (100 by default), or give a fixed 'strength'",
+      );
+    }
+    options.strengthCount = settings.gridSize;
+  }
   if (settings.lowEnd !== null) options.lowEndRatio = settings.lowEnd;
-  if (settings.folds !== null) options.folds = settings.folds;
+  if (settings.folds !== null) {
+    if (dataset.foldLabels) {
+      const groups = [...new Set(dataset.foldLabels)];
+      if (groups.length !== settings.folds) {
+        throw new SettingError(
+          `'folds' is ${settings.folds} but 'fold column' makes one fold per group of '${dataset.foldColumn ?? ""}', and it has ${groups.length} (${listNames(groups.map(String), 6)}): remove 'folds' from settings`,
+        );
+      }
+    }
+    options.folds = settings.folds;
+  }
   if (settings.seed !== null) options.seed = settings.seed;
   if (dataset.foldLabels) options.foldLabels = dataset.foldLabels;
   if (settings.timeOrdered !== null) options.timeOrdered = settings.timeOrdered;
@@ -122,6 +141,11 @@ function fitOptions(dataset: Dataset, settings: Settings, mixes: number[] | null
   if (lower) options.lowerBounds = lower;
   const upper = bounds(dataset, settings.upper, "upper");
   if (upper) options.upperBounds = upper;
+  if (lower && upper && lower.every((l, j) => l === 0 && upper[j] === 0)) {
+    throw new SettingError(
+      "'lower' and 'upper' are both 0 for every term, which fixes every coefficient at 0: nothing is left to fit; keep one of them (lower=0 alone keeps coefficients from going negative, upper=0 alone from going positive)",
+    );
+  }
   return options;
 }
 
@@ -296,7 +320,8 @@ function flatten(grid: unknown[][], label: string): Vector {
 
 /**
  * SHRINK.SCORE: accuracy of predictions. Pairs with a blank or error cell are skipped (and
- * counted); a text header on top of both ranges is dropped. Returns [["label", "value"],
+ * counted); a first cell of text (not a number stored as text) is a header and is dropped, on
+ * either side; the values below the headers must pair up one to one. Returns [["label", "value"],
  * ["MAE", …], ["RMSE", …], ["R²", …], ["mean error (predicted − actual)", …], ["pairs used", n],
  * ["pairs skipped", m]].
  */
@@ -318,22 +343,23 @@ export function score(actual: unknown, predicted: unknown): Promise<Spill> {
       av = flatten(a.grid, "actual");
       pv = flatten(p.grid, "predicted");
     }
-    // Headers: text on top of both (or on top of the longer one by a single cell).
-    let aStart = 0;
-    let pStart = 0;
-    const aHead = av.cells[0].kind === "text";
-    const pHead = pv.cells[0].kind === "text";
-    if (aHead && pHead && av.cells.length === pv.cells.length) {
-      aStart = 1;
-      pStart = 1;
-    } else if (aHead && av.cells.length === pv.cells.length + 1) {
-      aStart = 1;
-    } else if (pHead && pv.cells.length === av.cells.length + 1) {
-      pStart = 1;
-    }
+    // Headers: a first cell of text that isn't a number (a number stored as text is a value, refused below).
+    const headerOf = (v: Vector): string | null => {
+      const c = v.cells[0];
+      return c.kind === "text" && numberFromText(c.value) === null ? c.value : null;
+    };
+    const aHeader = headerOf(av);
+    const pHeader = headerOf(pv);
+    const aStart = aHeader === null ? 0 : 1;
+    const pStart = pHeader === null ? 0 : 1;
     const n = av.cells.length - aStart;
     if (n !== pv.cells.length - pStart) {
-      throw new DataError(`actual has ${av.cells.length} values but predicted has ${pv.cells.length}: give one prediction per actual value`);
+      const values = (count: number): string => `${count} value${count === 1 ? "" : "s"}`;
+      const side = (label: string, count: number, header: string | null, noun: boolean): string =>
+        header === null ? `${label} has ${noun ? values(count) : count}` : `${label} has ${values(count)} below its header '${header}'`;
+      throw new DataError(
+        `${side("actual", n, aHeader, true)} but ${side("predicted", pv.cells.length - pStart, pHeader, false)}: give one prediction per actual value`,
+      );
     }
     const actualValues: number[] = [];
     const predictedValues: number[] = [];
