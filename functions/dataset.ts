@@ -291,7 +291,6 @@ interface ColumnScan {
   foreignTexts: number;
   /** Texts written like dates. */
   dateTexts: number;
-  firstText: number;
   firstNumber: number;
   /** First text read as a number, and the first one using ',' thousands separators. */
   firstNumericText: number;
@@ -308,7 +307,6 @@ function scanColumn(cellAt: (i: number) => Cell, from: number, to: number): Colu
     numericTexts: 0,
     foreignTexts: 0,
     dateTexts: 0,
-    firstText: -1,
     firstNumber: -1,
     firstNumericText: -1,
     firstGrouped: -1,
@@ -324,7 +322,6 @@ function scanColumn(cellAt: (i: number) => Cell, from: number, to: number): Colu
     }
     if (c.kind !== "text") continue;
     scan.texts++;
-    if (scan.firstText < 0) scan.firstText = i;
     const reading = readNumberText(c.value);
     if (reading.kind === "number") {
       scan.numericTexts++;
@@ -531,8 +528,13 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
         const c = cells[scan.firstOtherText][j] as { kind: "text"; value: string };
         const headerHint =
           scan.firstOtherText === 0 && settings.header === "auto" ? " (if row 1 is a header, give every column a name there, or add header=yes to settings)" : "";
+        // All text, mostly numbers stored as text, and an ordinary label: perhaps codes meant as categories.
+        const categoriesHint =
+          headerHint === "" && scan.numbers === 0 && storedAsTextHint(c.value) === ""
+            ? " (most of its cells are numbers stored as text; to use the column as categories, write every value as a label that isn't a number, such as 'grade 1')"
+            : "";
         throw new DataError(
-          `${label} '${names[j]}' row ${scan.firstOtherText + 1} has text '${c.value}' in a number column${storedAsTextHint(c.value)}: fix it or clear the cell${headerHint}`,
+          `${label} '${names[j]}' row ${scan.firstOtherText + 1} has text '${c.value}' in a number column${storedAsTextHint(c.value)}: fix it or clear the cell${headerHint}${categoriesHint}`,
         );
       }
       if (scan.numericTexts > 0) notes.push(fromTextNote(`${label} '${names[j]}'`, scan, cellAt, j !== weightsIndex));

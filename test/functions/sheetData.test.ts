@@ -85,6 +85,12 @@ describe("numbers stored as text", () => {
     const x = predictors.map((row, i) => (i === 0 ? row : [String(row[0]), row[1], row[2]]));
     x[4][0] = "about 3";
     x[9][0] = "n/a";
+    // All text, mostly numbers stored as text: the message also says how to keep codes as categories.
+    expect(refusal(() => dataset(target, x))).toBe(
+      "predictors column 'Size' row 5 has text 'about 3' in a number column: fix it or clear the cell (most of its cells are numbers stored as text; to use the column as categories, write every value as a label that isn't a number, such as 'grade 1')",
+    );
+    // Real numbers beside the texts: a plain number column with a bad cell.
+    x[2][0] = predictors[2][0];
     expect(refusal(() => dataset(target, x))).toBe("predictors column 'Size' row 5 has text 'about 3' in a number column: fix it or clear the cell");
   });
 
