@@ -17,8 +17,9 @@
  *   change Δ in b̃_j costs O(p) (g −= Δ G̃_j·). The KKT check needs no extra pass.
  * - naive form ("residual updates"): the residual r is kept; g_j costs O(n) when needed.
  *
- * Convergence: a sweep converges when max_j (d_j + λ(1−α)m_j)·|Δb̃_j| <= tol · max(λ, 1e-6·sd(y)),
- * i.e. no coordinate's own optimality residual exceeded tol relative to λ during the sweep.
+ * Convergence: a sweep converges when max_j (d_j + λ(1−α)m_j)·|Δb̃_j| <= tol · max(λ, 1e-6·sd(ỹ)),
+ * i.e. no coordinate's own optimality residual exceeded tol relative to λ during the sweep. The
+ * target is standardized (problem.ts: sd(ỹ) = 1), so the test and the KKT figure are unit-free.
  * Each strength has a sweep cap; hitting it is reported (converged = false), never silent.
  *
  * Active-set Newton step: when coordinate descent crawls (strongly correlated active

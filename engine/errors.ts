@@ -25,7 +25,8 @@ export type InputErrorCode =
   | "fold-labels"
   | "multipliers"
   | "setting"
-  | "no-predictors";
+  | "no-predictors"
+  | "out-of-range";
 
 export class InputError extends Error {
   readonly code: InputErrorCode;
@@ -44,13 +45,29 @@ export class CancelledError extends Error {
   }
 }
 
+/** A cancel flag the engine reads at its checkpoints (see throwIfCancelled). */
+export interface CancelSignal {
+  readonly aborted: boolean;
+}
+
+/**
+ * A checkpoint: throws CancelledError when the signal is raised. Long computations call it
+ * between slices of their work (rows of a matrix, sweeps, iterations) small enough that no two
+ * checkpoints are more than about 0.1 s apart on one core; reading the flag never changes the
+ * arithmetic, so results are bit-identical with or without a signal.
+ */
+export function throwIfCancelled(signal: CancelSignal | undefined): void {
+  if (signal?.aborted) throw new CancelledError();
+}
+
 export type WarningCode =
   | "constant-column"
   | "aliased"
   | "early-stop"
   | "not-converged"
   | "rows-skipped"
-  | "fold-constant";
+  | "fold-constant"
+  | "out-of-range";
 
 export interface FitWarning {
   code: WarningCode;

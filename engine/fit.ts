@@ -4,35 +4,50 @@
  *
  * Objective, for a mix α in [0, 1] and strength λ >= 0 (conventions in problem.ts):
  *
- *   (1 / (2 Σw)) Σ_i w_i (y_i − b0 − x_i·b)²  +  λ Σ_j m_j [ α |b̃_j| + (1 − α)/2 · b̃_j² ]
+ *   (1 / (2 Σw)) Σ_i w_i (ỹ_i − x̃_i·b̃)²  +  λ Σ_j m_j [ α |b̃_j| + (1 − α)/2 · b̃_j² ]
  *
- * where b̃_j = b_j · scale_j are the coefficients on standardized predictors. Results are
- * reported in the data's own units (b_j = b̃_j / scale_j, b0 = ȳ − Σ b_j x̄_j).
+ * on the standardized target ỹ = (y − ȳ)/s_y (s_y its weighted population SD) and standardized
+ * predictors x̃_j = (x_j − x̄_j)/scale_j, so λ is unit-free: the target or a predictor recorded in
+ * other units gives the same model. Results are reported in the data's own units
+ * (b_j = s_y · b̃_j / scale_j, b0 = ȳ − Σ b_j x̄_j). In the target's units (loss on y, coefficients
+ * β_j = s_y · b̃_j on standardized predictors) the same minimizer has lasso weight λ·s_y and ridge
+ * weight λ: multiplying the objective by s_y² leaves the ridge term's λ as it was.
+ *
+ * Any finite data fit: every column, the target and the weights are first scaled by powers of two
+ * to a largest magnitude near 1 (exact; scale.ts), all arithmetic runs on that working copy, and
+ * results move back by the same powers. A result that can't be represented as a double (a
+ * coefficient beyond ±1.8e308, or below 2.2e-308) is an InputError naming the column; a
+ * cross-validated error that can't be is shown as non-finite with a warning.
  *
  * Cross-validation (Hastie, Tibshirani & Friedman, ESL 2nd ed. §7.10): the full data fix
  * each mix's grid and path; every fold then solves down the same strengths on its training
- * rows (its own standardization) and is scored on its held-out rows. The same folds serve
- * every mix. In gram form every fold's problem and its held-out squared error come from
- * per-block sums, so all folds together cost one pass over the data.
+ * rows (its own standardization, target included) and is scored on its held-out rows. The same
+ * folds serve every mix. In gram form every fold's problem and its held-out squared error come
+ * from per-block sums, so all folds together cost one pass over the data.
  */
-import { CancelledError, FitWarning, InputError } from "./errors";
+import { CancelSignal, FitWarning, InputError, throwIfCancelled } from "./errors";
 import { FoldPlan, FoldScheme, planFolds, rowsOfBlocks } from "./folds";
 import { leastSquares } from "./leastSquares";
 import { ColumnMatrix, selectRows } from "./matrix";
 import { LinearModel, linearModel, predict } from "./model";
 import { score, Score } from "./metrics";
-import { CancelSignal, PathRun, runPath, spectralApplies, strengthGrid, topStrength } from "./path";
+import { PathRun, runPath, spectralApplies, strengthGrid, topStrength } from "./path";
 import { SpectralRidge } from "./ridgeSpectral";
 import {
   accumulateSums,
   blockSums,
   BlockSums,
+  CONSTANT_SPREAD_RATIO,
   emptySums,
   problemFromRows,
   problemFromSums,
+  stableCentre,
+  stableMean,
+  takeLargest,
   TrainingProblem,
 } from "./problem";
-import type { PenaltySpec } from "./descent";
+import { CoordinateDescent, PenaltySpec } from "./descent";
+import { scaleByPowerOfTwo, powerOfTwo, SMALLEST_NORMAL, unitExponent } from "./scale";
 import {
   checkInteger,
   checkMixes,
@@ -64,7 +79,7 @@ export type UpdateScheme = "auto" | "gram" | "residual";
 export interface FitOptions {
   /** Mixes α to try (0 ridge … 1 lasso). Default [0, 0.25, 0.5, 0.75, 1]. */
   mixes?: readonly number[];
-  /** Fit exactly this strength with the single mix given: no cross-validation. 0 = least squares. */
+  /** Fit exactly this strength (unit-free λ, see above) with the single mix given: no cross-validation. 0 = least squares. */
   strength?: number | null;
   /** Number of strengths in the grid. Default 100. */
   strengthCount?: number;
@@ -138,12 +153,18 @@ export interface FitResult {
   kind: "shrinkwise-fit";
   terms: string[];
   intercept: number;
-  /** Original units. */
+  /** Original units: the change in the target per unit of the predictor. */
   coefficients: number[];
-  /** Coefficient × the predictor's population SD (per unit of spread). */
+  /**
+   * Coefficient × the predictor's population SD: the change in the target, in the target's
+   * units, per SD of the predictor (so predictors compare). Divided by `targetSpread` it is the
+   * unit-free b̃_j the penalty acts on.
+   */
   standardizedCoefficients: number[];
   /** Each predictor's weighted population SD on the rows used (0 for a constant column). */
   predictorSpreads: number[];
+  /** s_y: the target's weighted population SD on the rows used (root mean square without an intercept), the unit λ is measured against. */
+  targetSpread: number;
   mix: number;
   strength: number;
   strengthFraction: number;
@@ -206,14 +227,28 @@ export const DEFAULT_MIXES: readonly number[] = [0, 0.25, 0.5, 0.75, 1];
 /** Largest predictor count for gram (covariance) updates: p² doubles per fold. */
 export const MAX_GRAM_PREDICTORS = 2000;
 
+/**
+ * Checked input, and the working copy every computation uses: column j of x is the data's
+ * column × 2^xExponent[j], y the target × 2^yExponent, the weights × 2^weightExponent, each
+ * exponent bringing the largest magnitude (over rows with positive weight) into [0.5, 1)
+ * (scale.ts). Rows with weight 0 are stored as 0 in x and y: they take no part in any sum,
+ * and an extreme value there can't overflow one. Bounds are moved to the working units too.
+ */
 interface Prepared {
   x: ColumnMatrix;
   y: Float64Array;
   weights: Float64Array | null;
+  /** The data as given (for the in-sample score). */
+  original: { x: ColumnMatrix; y: Float64Array; weights: Float64Array | null };
+  xExponent: Int32Array;
+  yExponent: number;
   names: string[];
   multipliers: Float64Array;
+  /** Bounds on the working copy's coefficients (b × 2^(yExponent − xExponent[j])). */
   lower: Float64Array;
   upper: Float64Array;
+  /** Whether any bound is finite (as given). */
+  bounded: boolean;
   mixes: number[];
   intercept: boolean;
   standardize: boolean;
@@ -276,31 +311,55 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
     throw new InputError("setting", `gram updates keep a ${p} × ${p} matrix per fold; they are limited to ${MAX_GRAM_PREDICTORS} predictors: use residual updates`);
   }
   const gram = updates === "gram" || (updates === "auto" && n >= p && p <= 500);
-  // Constant target: nothing to predict.
+  const work = workingCopy(x, y, weights);
+  // Constant target (the rule problem.ts applies to columns): nothing to predict.
+  const omega = new Float64Array(n);
   let total = 0;
-  let mean = 0;
+  for (let i = 0; i < n; i++) total += work.weights ? work.weights[i] : 1;
+  for (let i = 0; i < n; i++) omega[i] = (work.weights ? work.weights[i] : 1) / total;
+  const centre = intercept ? stableMean(work.y, omega, n) : 0;
+  let meanSquare = 0;
+  let largest = 0;
   for (let i = 0; i < n; i++) {
-    const w = weights ? weights[i] : 1;
-    total += w;
-    mean += w * y[i];
+    meanSquare += omega[i] * (work.y[i] - centre) * (work.y[i] - centre);
+    if (omega[i] > 0) largest = Math.max(largest, Math.abs(work.y[i]));
   }
-  mean = intercept ? mean / total : 0;
-  let spread = 0;
-  for (let i = 0; i < n; i++) {
-    const w = weights ? weights[i] : 1;
-    if (w > 0) spread = Math.max(spread, Math.abs(y[i] - mean));
+  if (!(meanSquare > 0) || !(Math.sqrt(meanSquare) > CONSTANT_SPREAD_RATIO * largest)) {
+    let first = 0;
+    while (weights && !(weights[first] > 0)) first++;
+    throw new InputError("constant-target", `the target has the same value (${y[first]}) in every row: there is nothing to predict`);
   }
-  if (!(spread > 1e-12 * Math.abs(mean)) || spread === 0) {
-    throw new InputError("constant-target", `the target has the same value (${mean}) in every row: there is nothing to predict`);
+  if (!standardize) {
+    // Unstandardized columns are penalized in their own units: beyond about 1e±135 their
+    // Gram matrix would overflow or underflow (standardized columns have no such limit).
+    for (let j = 0; j < p; j++) {
+      if (Math.abs(work.xExponent[j]) > 450) {
+        const size = work.xExponent[j] < 0 ? "too large (beyond 1e135)" : "too small (below 1e-135)";
+        throw new InputError(
+          "out-of-range",
+          `with standardization off, predictor ${describeColumn(names, j)} is penalized in its own units, and its values are ${size} for that: standardize the predictors, or record it in other units`,
+        );
+      }
+    }
+  }
+  const workLower = new Float64Array(p);
+  const workUpper = new Float64Array(p);
+  for (let j = 0; j < p; j++) {
+    workLower[j] = scaleByPowerOfTwo(lower[j], work.yExponent - work.xExponent[j]);
+    workUpper[j] = scaleByPowerOfTwo(upper[j], work.yExponent - work.xExponent[j]);
   }
   return {
-    x,
-    y,
-    weights,
+    x: work.x,
+    y: work.y,
+    weights: work.weights,
+    original: { x, y, weights },
+    xExponent: work.xExponent,
+    yExponent: work.yExponent,
     names: names ?? Array.from({ length: p }, (_, j) => `x${j + 1}`),
     multipliers,
-    lower,
-    upper,
+    lower: workLower,
+    upper: workUpper,
+    bounded: lower.some(Number.isFinite) || upper.some(Number.isFinite),
     mixes,
     intercept,
     standardize,
@@ -312,29 +371,95 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
   };
 }
 
-/** Penalty for one problem: bounds moved to its standardized units (b̃ = b × scale). */
+/**
+ * The working copy (see Prepared): each column, the target and the weights scaled by the power
+ * of two that brings its largest magnitude on rows with positive weight into [0.5, 1); rows with
+ * weight 0 stored as 0. Exact (powers of two), so the standardized problems built from it are
+ * the ones the unscaled data would give, without overflow or underflow. Cost O(n·p).
+ */
+function workingCopy(
+  x: ColumnMatrix,
+  y: Float64Array,
+  weights: Float64Array | null,
+): { x: ColumnMatrix; y: Float64Array; weights: Float64Array | null; xExponent: Int32Array; yExponent: number } {
+  const n = x.rows;
+  const p = x.columns;
+  const used = (i: number): boolean => !weights || weights[i] > 0;
+  let workWeights: Float64Array | null = null;
+  if (weights) {
+    let heaviest = 0;
+    for (let i = 0; i < n; i++) heaviest = Math.max(heaviest, weights[i]);
+    const factor = powerOfTwo(unitExponent(heaviest));
+    workWeights = new Float64Array(n);
+    for (let i = 0; i < n; i++) workWeights[i] = weights[i] * factor;
+  }
+  const largestOf = (values: Float64Array, offset: number): number => {
+    let largest = 0;
+    for (let i = 0; i < n; i++) if (used(i)) largest = Math.max(largest, Math.abs(values[offset + i]));
+    return largest;
+  };
+  const yExponent = unitExponent(largestOf(y, 0));
+  const yFactor = powerOfTwo(yExponent);
+  const workY = new Float64Array(n);
+  for (let i = 0; i < n; i++) workY[i] = used(i) ? y[i] * yFactor : 0;
+  const xExponent = new Int32Array(p);
+  const data = new Float64Array(n * p);
+  for (let j = 0; j < p; j++) {
+    const off = j * n;
+    xExponent[j] = unitExponent(largestOf(x.data, off));
+    const factor = powerOfTwo(xExponent[j]);
+    for (let i = 0; i < n; i++) data[off + i] = used(i) ? x.data[off + i] * factor : 0;
+  }
+  return { x: { rows: n, columns: p, data }, y: workY, weights: workWeights, xExponent, yExponent };
+}
+
+/** Penalty for one problem: bounds moved to its standardized units (b̃ = b × scale / s_y). */
 function penaltyFor(problem: TrainingProblem, data: Prepared, mix: number): PenaltySpec {
   const p = problem.p;
   const lower = new Float64Array(p);
   const upper = new Float64Array(p);
+  const yScale = problem.std.yScale;
   for (let j = 0; j < p; j++) {
-    lower[j] = data.lower[j] * problem.std.xScale[j];
-    upper[j] = data.upper[j] * problem.std.xScale[j];
+    lower[j] = (data.lower[j] * problem.std.xScale[j]) / yScale;
+    upper[j] = (data.upper[j] * problem.std.xScale[j]) / yScale;
   }
   return { mix, multipliers: data.multipliers, lower, upper };
 }
 
-/** Original-units intercept and coefficients from standardized ones. */
+/**
+ * Intercept and coefficients in the data's units (of the values the problem was built from: the
+ * working copy) from standardized ones: b_j = s_y · b̃_j / scale_j, b0 = ȳ − Σ b_j x̄_j.
+ */
 function toOriginal(problem: TrainingProblem, standardized: Float64Array): { intercept: number; coefficients: Float64Array } {
   const std = problem.std;
   const coefficients = new Float64Array(problem.p);
   let intercept = std.yCentre;
   for (let j = 0; j < problem.p; j++) {
-    const b = std.frozen[j] ? 0 : standardized[j] / std.xScale[j];
+    const b = std.frozen[j] ? 0 : (std.yScale * standardized[j]) / std.xScale[j];
     coefficients[j] = b;
     intercept -= b * std.xCentre[j];
   }
   return { intercept, coefficients };
+}
+
+/**
+ * A working-copy coefficient of column j (or the intercept, j = -1) in the data's own units:
+ * b × 2^(xExponent[j] − yExponent). A value beyond the doubles' range (or below their normal
+ * range, where it would lose digits) is an InputError naming the column: never a wrong number.
+ */
+function coefficientInDataUnits(data: Prepared, j: number, value: number): number {
+  if (value === 0) return 0;
+  const exponent = (j >= 0 ? data.xExponent[j] : 0) - data.yExponent;
+  const out = scaleByPowerOfTwo(value, exponent);
+  if (Number.isFinite(out) && Math.abs(out) >= SMALLEST_NORMAL) return out;
+  const what = j >= 0 ? `the coefficient of '${data.names[j]}'` : "the intercept";
+  const size = Math.abs(out) >= SMALLEST_NORMAL ? "too large" : "too small";
+  const bound = Math.abs(out) >= SMALLEST_NORMAL ? "beyond ±1.8e308" : "below 2.2e-308";
+  const hint =
+    j >= 0
+      ? `the target's values and '${data.names[j]}'s are too far apart in size; record one of them in other units (e.g. divide it by a power of ten)`
+      : "record the target in other units (e.g. divide it by a power of ten)";
+  throw new InputError("out-of-range", `${what} is ${size} to represent as a number (${bound}): ${hint}`);
 }
 
 /** Problems for the full data and each fold, built once and shared by every mix. */
@@ -347,46 +472,44 @@ interface Problems {
   shiftY: number;
 }
 
+/**
+ * The shifts block sums are taken about: the anchors of the full data's centres (stableCentre:
+ * the values nearest the weighted means), so every shifted value is exact; 0 without an intercept.
+ */
 function fullShift(data: Prepared): { shiftX: Float64Array; shiftY: number } {
   const { x, y, weights } = data;
   const n = x.rows;
   const shiftX = new Float64Array(x.columns);
-  let shiftY = 0;
-  if (!data.intercept) return { shiftX, shiftY };
+  if (!data.intercept) return { shiftX, shiftY: 0 };
+  const omega = new Float64Array(n);
   let total = 0;
-  for (let i = 0; i < n; i++) {
-    const w = weights ? weights[i] : 1;
-    total += w;
-    shiftY += w * y[i];
-  }
-  shiftY /= total;
-  for (let j = 0; j < x.columns; j++) {
-    let s = 0;
-    const off = j * n;
-    for (let i = 0; i < n; i++) s += (weights ? weights[i] : 1) * x.data[off + i];
-    shiftX[j] = s / total;
-  }
+  for (let i = 0; i < n; i++) total += weights ? weights[i] : 1;
+  for (let i = 0; i < n; i++) omega[i] = (weights ? weights[i] : 1) / total;
+  const shiftY = stableCentre(y, omega, n).anchor;
+  for (let j = 0; j < x.columns; j++) shiftX[j] = stableCentre(x.data.subarray(j * n, (j + 1) * n), omega, n).anchor;
   return { shiftX, shiftY };
 }
 
 function buildProblems(data: Prepared, plan: FoldPlan | null): Problems {
   const { x, y, weights } = data;
-  const options = { intercept: data.intercept, standardize: data.standardize };
+  const signal = data.settings.signal;
+  const columnUnits = Float64Array.from(data.xExponent, (e) => powerOfTwo(e));
+  const options = { intercept: data.intercept, standardize: data.standardize, columnUnits };
   const { shiftX, shiftY } = fullShift(data);
   if (!data.gram) {
-    const full = problemFromRows(x, y, weights, null, options);
-    const folds = plan ? plan.trainBlocks.map((blocks) => problemFromRows(x, y, weights, rowsOfBlocks(plan, blocks), options)) : [];
+    const full = problemFromRows(x, y, weights, null, options, signal);
+    const folds = plan ? plan.trainBlocks.map((blocks) => problemFromRows(x, y, weights, rowsOfBlocks(plan, blocks), options, signal)) : [];
     return { full, folds, heldOutSums: null, shiftX, shiftY };
   }
   if (!plan) {
     const all = new Int32Array(x.rows);
     for (let i = 0; i < x.rows; i++) all[i] = i;
-    const sums = blockSums(x, y, weights, all, shiftX, shiftY);
+    const sums = blockSums(x, y, weights, all, shiftX, shiftY, signal);
     return { full: problemFromSums(sums, shiftX, shiftY, options), folds: [], heldOutSums: null, shiftX, shiftY };
   }
   // One pass: every block's sums; the total is their sum; a fold's training sums are the
   // sum of its training blocks (total minus its own block when it trains on all the rest).
-  const sums = plan.blocks.map((rows) => blockSums(x, y, weights, rows, shiftX, shiftY));
+  const sums = plan.blocks.map((rows) => blockSums(x, y, weights, rows, shiftX, shiftY, signal));
   const total = emptySums(x.columns);
   for (const s of sums) accumulateSums(total, s, 1);
   const full = problemFromSums(total, shiftX, shiftY, options);
@@ -395,6 +518,10 @@ function buildProblems(data: Prepared, plan: FoldPlan | null): Problems {
     if (blocks.length === plan.blocks.length - 1) {
       accumulateSums(training, total, 1);
       accumulateSums(training, sums[plan.validateBlock[k]], -1);
+      // A maximum can't be subtracted: the training rows' largest magnitudes from their blocks.
+      training.largest.fill(0);
+      training.largestY = 0;
+      for (const b of blocks) takeLargest(training, sums[b]);
     } else {
       for (const b of blocks) accumulateSums(training, sums[b], 1);
     }
@@ -437,18 +564,21 @@ function foldErrors(
 ): Float64Array {
   const errors = new Float64Array(run.strengths.length);
   const p = problem.p;
+  const std = problem.std;
   if (sums && measure === "mse") {
     // Σw(y' − c − bᵀx')² expanded over the block's sums (x' = x − shift, y' = y − shift):
     // yy − 2c·Σy' − 2bᵀxy + c²W + 2c·bᵀΣx' + bᵀ xx b. Cost O(nonzero²) per point.
+    // c = b0 − shiftY + bᵀshiftX, formed from the centres' parts relative to the shifts (the fold's
+    // anchors are these shifts), never from b0 itself, which a large offset would make imprecise.
     const nz = new Int32Array(p);
     for (let k = 0; k < run.strengths.length; k++) {
-      const { intercept, coefficients } = toOriginal(problem, run.coefficients[k]);
-      let c = intercept - shiftY;
+      const { coefficients } = toOriginal(problem, run.coefficients[k]);
+      let c = std.yAnchor - shiftY + std.yOffset;
       let count = 0;
       for (let j = 0; j < p; j++) {
         if (coefficients[j] !== 0) {
           nz[count++] = j;
-          c += coefficients[j] * shiftX[j];
+          c -= coefficients[j] * (std.xAnchor[j] - shiftX[j] + std.xOffset[j]);
         }
       }
       let sse = sums.yy - 2 * c * sums.sumY + c * c * sums.weight;
@@ -467,19 +597,23 @@ function foldErrors(
   }
   const held = heldOut();
   const m = held.y.length;
+  // Predictions of y − yAnchor in centred form, ȳ-offset + Σ b_j ((x_j − anchor_j) − offset_j):
+  // no large intercept cancels against large slopes × values.
   const prediction = new Float64Array(m);
   for (let k = 0; k < run.strengths.length; k++) {
-    const { intercept, coefficients } = toOriginal(problem, run.coefficients[k]);
-    prediction.fill(intercept);
+    const { coefficients } = toOriginal(problem, run.coefficients[k]);
+    prediction.fill(std.yOffset);
     for (let j = 0; j < p; j++) {
       const b = coefficients[j];
       if (b === 0) continue;
       const off = j * m;
-      for (let t = 0; t < m; t++) prediction[t] += b * held.x.data[off + t];
+      const anchor = std.xAnchor[j];
+      const offset = std.xOffset[j];
+      for (let t = 0; t < m; t++) prediction[t] += b * (held.x.data[off + t] - anchor - offset);
     }
     let loss = 0;
     for (let t = 0; t < m; t++) {
-      const e = held.y[t] - prediction[t];
+      const e = held.y[t] - std.yAnchor - prediction[t];
       loss += held.w[t] * (measure === "mse" ? e * e : Math.abs(e));
     }
     errors[k] = loss / held.totalWeight;
@@ -498,11 +632,12 @@ function spectralFoldErrors(
   const predictAt = new SpectralRidge(problem, penalty.multipliers).heldOutPredictor(held.x);
   const prediction = new Float64Array(held.y.length);
   const errors = new Float64Array(strengths.length);
+  const anchor = problem.std.yAnchor;
   for (let k = 0; k < strengths.length; k++) {
     predictAt(strengths[k], prediction);
     let loss = 0;
     for (let t = 0; t < prediction.length; t++) {
-      const e = held.y[t] - prediction[t];
+      const e = held.y[t] - anchor - prediction[t];
       loss += held.w[t] * (measure === "mse" ? e * e : Math.abs(e));
     }
     errors[k] = loss / held.totalWeight;
@@ -624,10 +759,16 @@ export function* fitSteps(
     });
   }
   if (fixed !== null) {
-    if (fixed === 0 && !data.lower.some(Number.isFinite) && !data.upper.some(Number.isFinite)) {
+    if (fixed === 0 && !data.bounded) {
       return leastSquaresResult(data, full, constantColumns, warnings);
     }
     return fixedResult(data, full, fixed, constantColumns, warnings);
+  }
+  if (data.strengthCount === 1) {
+    throw new InputError(
+      "setting",
+      "the number of strengths is 1: a grid of one strength leaves cross-validation nothing to choose (its one point is the top of the grid, the strongest penalty); use 2 or more (100 by default), or fit one point with a fixed strength",
+    );
   }
   const activePlan = plan as FoldPlan;
   const measure = options.measure ?? "mse";
@@ -651,9 +792,7 @@ export function* fitSteps(
   for (const mix of data.mixes) {
     const penalty = penaltyFor(full, data, mix);
     const top = topStrength(full, penalty, data.settings);
-    if (!(top > 0)) {
-      throw new InputError("constant-target", "the unpenalized predictors already explain the target exactly: there is nothing left for the penalty to choose");
-    }
+    if (!(top > 0) || explainedExactly(data, full, penalty)) throw nothingToChoose(data, full, penalty);
     const grid = strengthGrid(top, data.strengthCount, data.lowEndRatio);
     const run = runPath(full, penalty, grid, pathSettings);
     sweeps += run.sweeps;
@@ -663,7 +802,7 @@ export function* fitSteps(
     yield;
     const errors: Float64Array[] = [];
     for (let f = 0; f < K; f++) {
-      if (data.settings.signal?.aborted) throw new CancelledError();
+      throwIfCancelled(data.settings.signal);
       const problem = problems.folds[f];
       const foldPenalty = penaltyFor(problem, data, mix);
       const heldOut = (): HeldOut => (heldOutCache[f] ??= gatherHeldOut(data, activePlan.blocks[activePlan.validateBlock[f]]));
@@ -714,13 +853,15 @@ export function* fitSteps(
       break;
     }
   }
+  // The choice was made on the working copy's errors; the reported ones are in the target's units.
+  const units = errorUnits(data, measure);
   const point = (outcome: MixOutcome, index: number): ChoicePoint => ({
     mix: outcome.mix,
     strength: outcome.run.strengths[index],
     strengthFraction: outcome.run.strengths[index] / outcome.top,
     index,
-    error: outcome.mean[index],
-    se: outcome.se[index],
+    error: units.convert(outcome.mean[index]),
+    se: units.convert(outcome.se[index]),
     termsKept: outcome.run.nonzero[index],
   });
   const choices = { lowest: point(best, bestIndex), oneSe: point(best, oneSeIndex) };
@@ -728,9 +869,17 @@ export function* fitSteps(
   const table: CvRow[] = [];
   for (const outcome of outcomes) {
     for (let k = 0; k < outcome.mean.length; k++) {
-      table.push({ mix: outcome.mix, strength: outcome.run.strengths[k], error: outcome.mean[k], se: outcome.se[k], termsKept: outcome.run.nonzero[k] });
+      table.push({
+        mix: outcome.mix,
+        strength: outcome.run.strengths[k],
+        error: units.convert(outcome.mean[k]),
+        se: units.convert(outcome.se[k]),
+        termsKept: outcome.run.nonzero[k],
+      });
     }
   }
+  const unshown = units.warning();
+  if (unshown) warnings.push(unshown);
   if (bestIndex === best.run.strengths.length - 1 && !best.run.stoppedEarly) {
     warnings.push({
       code: "early-stop",
@@ -757,6 +906,109 @@ export function* fitSteps(
   return result;
 }
 
+/** As coefficientInDataUnits, but a value below the normal range is returned rounded (it only loses digits); overflow still throws. */
+function pathValueInDataUnits(data: Prepared, j: number, value: number): number {
+  const out = scaleByPowerOfTwo(value, (j >= 0 ? data.xExponent[j] : 0) - data.yExponent);
+  return Number.isFinite(out) ? out : coefficientInDataUnits(data, j, value);
+}
+
+/**
+ * Moves cross-validated errors from the working copy to the target's units (MSE × 2^(−2·yExponent),
+ * MAE × 2^(−yExponent)). An error that can't be represented there (a target near 1e200 squares
+ * past 1.8e308; one near 1e-200 below 2.2e-308) becomes Infinity (too large) or NaN (too small),
+ * so it shows as non-finite (#NUM! in a cell, null in JSON), never as a wrong number, and
+ * `warning()` says why. The choice is unaffected: it compares the working copy's errors, which
+ * order exactly as the true ones do.
+ */
+function errorUnits(data: Prepared, measure: ErrorMeasure): { convert: (value: number) => number; warning: () => FitWarning | null } {
+  const exponent = (measure === "mse" ? -2 : -1) * data.yExponent;
+  let tooLarge = false;
+  let tooSmall = false;
+  return {
+    convert: (value: number): number => {
+      if (value === 0 || !Number.isFinite(value)) return value;
+      const out = scaleByPowerOfTwo(value, exponent);
+      if (!Number.isFinite(out)) {
+        tooLarge = true;
+        return Infinity;
+      }
+      if (Math.abs(out) < SMALLEST_NORMAL) {
+        tooSmall = true;
+        return NaN;
+      }
+      return out;
+    },
+    warning: (): FitWarning | null => {
+      if (!tooLarge && !tooSmall) return null;
+      const name = measure === "mse" ? "mean squared errors" : "mean absolute errors";
+      const range = tooLarge ? "above 1.8e308" : "below 2.2e-308";
+      return {
+        code: "out-of-range",
+        message: `some cross-validated ${name} are ${range} in the target's units and can't be shown as numbers (they are left non-finite); the choice compared them exactly on the target scaled by a power of two, so it is unaffected: to see them, record the target in other units (e.g. divide it by a power of ten)`,
+      };
+    },
+  };
+}
+
+/**
+ * True when unpenalized predictors (m_j = 0) leave a residual whose SD is below 1e-12 of the
+ * target's: the fit is exact up to rounding, and the "top of the grid" would be a gradient of
+ * rounding noise. False at once when every multiplier is positive.
+ */
+function explainedExactly(data: Prepared, full: TrainingProblem, penalty: PenaltySpec): boolean {
+  let unpenalized = false;
+  for (let j = 0; j < full.p; j++) if (!full.std.frozen[j] && !(data.multipliers[j] > 0)) unpenalized = true;
+  if (!unpenalized) return false;
+  const solver = new CoordinateDescent(full, penalty, data.settings);
+  solver.fitUnpenalized();
+  return solver.residualMeanSquare() <= 1e-24 * full.std.yVariance;
+}
+
+/**
+ * Why the top of the grid is 0 (no penalized term would leave 0 at any strength), in words:
+ * every penalized term is held at 0 by bounds of 0 and 0; or the bounds allow each one to move
+ * only the way the target doesn't pull it; or the unpenalized predictors (with the intercept)
+ * already explain the target exactly.
+ */
+function nothingToChoose(data: Prepared, full: TrainingProblem, penalty: PenaltySpec): InputError {
+  const solver = new CoordinateDescent(full, penalty, data.settings);
+  solver.fitUnpenalized();
+  const fixed: string[] = [];
+  const blocked: string[] = [];
+  let free = 0;
+  for (let j = 0; j < full.p; j++) {
+    if (full.std.frozen[j] || !(data.multipliers[j] > 0)) continue;
+    const lower = penalty.lower[j];
+    const upper = penalty.upper[j];
+    if (lower === 0 && upper === 0) {
+      fixed.push(`'${data.names[j]}'`);
+      continue;
+    }
+    free++;
+    const g = solver.grad[j];
+    if ((g > 0 && !(upper > 0)) || (g < 0 && !(lower < 0))) {
+      blocked.push(`'${data.names[j]}' (${g > 0 ? "upper" : "lower"} bound 0, the target pulls it ${g > 0 ? "above" : "below"} 0)`);
+    }
+  }
+  const list = (names: string[]): string => (names.length > 6 ? `${names.slice(0, 6).join(", ")}, …` : names.join(", "));
+  if (free === 0) {
+    return new InputError(
+      "bounds",
+      `every penalized term is held at 0 by its bounds (lower 0 and upper 0: ${list(fixed)}): there is nothing for the penalty to choose; loosen the bounds of the terms that should enter the model`,
+    );
+  }
+  if (blocked.length > 0 && blocked.length === free && !explainedExactly(data, full, penalty)) {
+    return new InputError(
+      "bounds",
+      `no penalized term can move from 0 at any strength: the bounds allow each one only the direction the target doesn't pull it (${list(blocked)})${fixed.length > 0 ? ` or hold it at 0 (${list(fixed)})` : ""}; loosen those bounds, or check their signs`,
+    );
+  }
+  return new InputError(
+    "constant-target",
+    "the unpenalized predictors already explain the target exactly: there is nothing left for the penalty to choose",
+  );
+}
+
 function makePlan(data: Prepared, options: FitOptions): FoldPlan {
   const labels = options.foldLabels ?? null;
   const timeOrdered = options.timeOrdered ?? false;
@@ -767,7 +1019,7 @@ function makePlan(data: Prepared, options: FitOptions): FoldPlan {
   const folds = checkInteger(options.folds ?? 10, "folds", 2, 1000, "folds");
   const seed = options.seed ?? 1;
   if (typeof seed !== "number" || !Number.isInteger(seed) || Math.abs(seed) > 4294967295) {
-    throw new InputError("setting", `seed must be a whole number; got ${String(seed)}`);
+    throw new InputError("setting", `seed must be a whole number from -4294967295 to 4294967295; got ${String(seed)}`);
   }
   return planFolds(data.x.rows, data.weights, { scheme, folds, seed, labels });
 }
@@ -806,15 +1058,19 @@ function assemble(
 ): FitResult {
   const intercepts: number[] = [];
   const coefficientRows: number[][] = [];
-  for (const standardized of run.coefficients) {
-    const original = toOriginal(full, standardized);
-    intercepts.push(original.intercept);
-    coefficientRows.push(Array.from(original.coefficients));
+  for (let k = 0; k < run.coefficients.length; k++) {
+    const work = toOriginal(full, run.coefficients[k]);
+    // The chosen point must be exact to the last digit; along the path a value that falls below
+    // the normal range only loses digits it can't show, so only the chosen point refuses that.
+    const convert = (j: number, value: number): number => (k === index ? coefficientInDataUnits(data, j, value) : pathValueInDataUnits(data, j, value));
+    intercepts.push(convert(-1, work.intercept));
+    coefficientRows.push(Array.from(work.coefficients, (b, j) => convert(j, b)));
   }
   const coefficients = coefficientRows[index];
   const intercept = intercepts[index];
   const model = linearModel(data.names, intercept, coefficients);
-  const predictions = predict(model, data.x);
+  const predictions = predict(model, data.original.x);
+  const chosenWork = toOriginal(full, run.coefficients[index]).coefficients;
   if (run.stoppedEarly) {
     const last = run.strengths.length - 1;
     warnings.push({
@@ -827,8 +1083,9 @@ function assemble(
     terms: data.names.slice(),
     intercept,
     coefficients,
-    standardizedCoefficients: coefficients.map((b, j) => b * full.std.xSpread[j]),
-    predictorSpreads: Array.from(full.std.xSpread),
+    standardizedCoefficients: Array.from(chosenWork, (b, j) => scaleByPowerOfTwo(b * full.std.xSpread[j], -data.yExponent)),
+    predictorSpreads: Array.from(full.std.xSpread, (spread, j) => scaleByPowerOfTwo(spread, -data.xExponent[j])),
+    targetSpread: scaleByPowerOfTwo(full.std.yScale, -data.yExponent),
     mix,
     strength: run.strengths[index],
     strengthFraction: top > 0 ? run.strengths[index] / top : 0,
@@ -844,7 +1101,7 @@ function assemble(
       termsKept: run.nonzero.slice(),
       r2: run.r2.slice(),
     },
-    fit: score(data.y, predictions, data.weights),
+    fit: score(data.original.y, predictions, data.original.weights),
     baseline: null,
     rowsUsed: data.x.rows,
     constantColumns,
@@ -867,35 +1124,39 @@ function assemble(
 
 /** Strength 0 without bounds: the exact least-squares baseline (Householder QR). */
 function leastSquaresResult(data: Prepared, full: TrainingProblem, constantColumns: string[], warnings: FitWarning[]): FitResult {
-  const baseline = leastSquares(data.x, data.y, { intercept: data.intercept, weights: data.weights ?? undefined });
+  const baseline = leastSquares(data.x, data.y, { intercept: data.intercept, weights: data.weights ?? undefined, signal: data.settings.signal });
   if (baseline.aliased.length > 0) {
     warnings.push({
       code: "aliased",
       message: `${baseline.aliased.map((j) => data.names[j]).join(", ")} ${baseline.aliased.length === 1 ? "is" : "are"} an exact combination of other predictors: coefficient set to 0`,
     });
   }
-  const coefficients = baseline.coefficients.slice();
-  const model = linearModel(data.names, baseline.intercept, coefficients);
-  const predictions = predict(model, data.x);
+  // The baseline was solved on the working copy: move everything back to the data's units.
+  const coefficients = baseline.coefficients.map((b, j) => coefficientInDataUnits(data, j, b));
+  const intercept = coefficientInDataUnits(data, -1, baseline.intercept);
+  const inTargetUnits = (value: number): number => scaleByPowerOfTwo(value, -data.yExponent);
+  const model = linearModel(data.names, intercept, coefficients);
+  const predictions = predict(model, data.original.x);
   return {
     kind: "shrinkwise-fit",
     terms: data.names.slice(),
-    intercept: baseline.intercept,
+    intercept,
     coefficients,
-    standardizedCoefficients: coefficients.map((b, j) => b * full.std.xSpread[j]),
-    predictorSpreads: Array.from(full.std.xSpread),
+    standardizedCoefficients: baseline.coefficients.map((b, j) => inTargetUnits(b * full.std.xSpread[j])),
+    predictorSpreads: Array.from(full.std.xSpread, (spread, j) => scaleByPowerOfTwo(spread, -data.xExponent[j])),
+    targetSpread: inTargetUnits(full.std.yScale),
     mix: data.mixes[0],
     strength: 0,
     strengthFraction: 0,
     rule: "fixed",
     choices: null,
     cv: null,
-    path: { mix: data.mixes[0], top: 0, strengths: [0], intercepts: [baseline.intercept], coefficients: [coefficients], termsKept: [coefficients.filter((b) => b !== 0).length], r2: [baseline.r2] },
-    fit: score(data.y, predictions, data.weights),
+    path: { mix: data.mixes[0], top: 0, strengths: [0], intercepts: [intercept], coefficients: [coefficients], termsKept: [coefficients.filter((b) => b !== 0).length], r2: [baseline.r2] },
+    fit: score(data.original.y, predictions, data.original.weights),
     baseline: {
-      standardErrors: baseline.standardErrors.slice(),
-      interceptStandardError: baseline.interceptStandardError,
-      residualStandardDeviation: baseline.residualStandardDeviation,
+      standardErrors: baseline.standardErrors.map((se, j) => (se === null ? null : scaleByPowerOfTwo(se, data.xExponent[j] - data.yExponent))),
+      interceptStandardError: baseline.interceptStandardError === null ? null : inTargetUnits(baseline.interceptStandardError),
+      residualStandardDeviation: inTargetUnits(baseline.residualStandardDeviation),
       degreesOfFreedom: baseline.degreesOfFreedom,
       r2: baseline.r2,
       aliased: baseline.aliased.map((j) => data.names[j]),

@@ -7,9 +7,11 @@
  * the least-squares solve, §5.4.1 for QR with column pivoting and rank detection):
  * 1. Rows with weight 0 are set aside; the others are multiplied by √wᵢ, so minimising
  *    Σ wᵢ rᵢ² becomes an ordinary least-squares problem.
- * 2. With an intercept, y and every column are centred about their weighted means. Centred
- *    columns are orthogonal to √w, so the intercept separates from the slopes exactly and never
- *    needs a column of ones (the ill-conditioning that a far-from-zero mean would add is gone).
+ * 2. With an intercept, y and every column are centred about their weighted means, taken
+ *    stably (about one of the values first, then corrected once: a large offset such as a date
+ *    serial number or a timestamp costs no digits). Centred columns are orthogonal to √w, so the
+ *    intercept separates from the slopes exactly and never needs a column of ones (the
+ *    ill-conditioning that a far-from-zero mean would add is gone).
  * 3. Each centred column is scaled to unit Euclidean length (undone at the end), so the rank
  *    test and the conditioning do not depend on the units a user typed.
  * 4. Householder QR, A = Q R, with column pivoting restricted to deficient columns: columns are
@@ -18,9 +20,10 @@
  *    columns have unit length this is the test |R_kk| ≤ rankTolerance·|R_11|; because it keeps
  *    the user's order, the column reported as aliased is always a combination of columns to
  *    its left (a duplicated column: the second copy), which is what a spreadsheet user expects.
- *    With an intercept the test is made relative to the column's length before centring, i.e.
- *    as if the constant column had been factorised first, so a column that is constant up to
- *    rounding is aliased too. At most (rows with weight > 0) − (intercept ? 1 : 0) columns can
+ *    A column that is constant on the rows used (with an intercept: its weighted SD about its
+ *    mean is 0 or at most 2^-52 of its largest |value|, so its values differ by rounding only;
+ *    the rule of problem.ts) is aliased with the intercept. A large offset is not a constant:
+ *    1e15 + z keeps its slope. At most (rows with weight > 0) − (intercept ? 1 : 0) columns can
  *    be kept; any later ones are aliased.
  * 5. Solve R c = Qᵀ z by back substitution, then one step of iterative refinement: the residual
  *    is recomputed from the original, uncentred data in double-double arithmetic, and the
@@ -36,12 +39,16 @@
  * solve and refinement, O(p³) for the standard errors. Memory: one n×p working copy.
  *
  * Throws a plain `Error` only on internal misuse (mismatched lengths); the caller validates user
- * input (finite values, weights ≥ 0 and not all 0).
+ * input (finite values, weights ≥ 0 and not all 0) and keeps magnitudes where products can't
+ * overflow (fit.ts passes a copy scaled by powers of two). An optional cancel signal is read
+ * before each column's reflection (errors.ts).
  *
  * Example: x = [[1], [2], [3]], y = [1, 3, 5] gives intercept −1, coefficients [2], residual
  * standard deviation 0 and r2 = 1.
  */
-import { ColumnMatrix, dot } from "./matrix";
+import { CancelSignal, throwIfCancelled } from "./errors";
+import { ColumnMatrix } from "./matrix";
+import { CONSTANT_SPREAD_RATIO } from "./problem";
 
 export interface LeastSquaresOptions {
   /** Fit an intercept (default true). The intercept is never aliased. */
@@ -50,6 +57,8 @@ export interface LeastSquaresOptions {
   weights?: ArrayLike<number>;
   /** Relative tolerance on |R_kk| for rank detection, after column scaling (default 1e-10). */
   rankTolerance?: number;
+  /** Read before each column's reflection; when `aborted`, CancelledError. */
+  signal?: CancelSignal;
 }
 
 export interface LeastSquaresResult {
@@ -121,30 +130,42 @@ export function leastSquares(
   for (let t = 0; t < m; t++) weightTotal += rowWeight[t];
 
   // Weighted means (zero without an intercept).
+  // Each mean in two parts, anchor (one of the values) + offset: centred values are
+  // (v − anchor) − offset, exact in the first step (see weightedCentre).
   const columnMean = new Float64Array(p);
-  const responseMean = withIntercept ? weightedMean(y, 0, rowIndex, rowWeight, weightTotal) : 0;
+  const columnAnchor = new Float64Array(p);
+  const columnOffset = new Float64Array(p);
+  const response = withIntercept ? weightedCentre(y, 0, rowIndex, rowWeight, weightTotal) : { anchor: 0, offset: 0 };
   if (withIntercept) {
-    for (let j = 0; j < p; j++) columnMean[j] = weightedMean(x.data, j * n, rowIndex, rowWeight, weightTotal);
+    for (let j = 0; j < p; j++) {
+      const centre = weightedCentre(x.data, j * n, rowIndex, rowWeight, weightTotal);
+      columnAnchor[j] = centre.anchor;
+      columnOffset[j] = centre.offset;
+      columnMean[j] = centre.anchor + centre.offset;
+    }
   }
 
   // Working matrix A (m×p, column-major): √w·(x − x̄), then each column scaled to unit length.
   const work = new Float64Array(m * p);
   const columnLength = new Float64Array(p); // length of √w·(x − x̄): the unit-length scale factor
   const aliasThreshold = new Float64Array(p); // aliased when the remaining length is at most this
+  const rootTotal = Math.sqrt(weightTotal);
   for (let j = 0; j < p; j++) {
     const source = j * n;
     const target = j * m;
-    // First fill √w·x only to measure the column's length before centring (for the rank test).
-    for (let t = 0; t < m; t++) work[target + t] = rootWeight[t] * x.data[source + rowIndex[t]];
-    const rawLength = euclideanLength(work, target, m);
-    for (let t = 0; t < m; t++) work[target + t] = rootWeight[t] * (x.data[source + rowIndex[t]] - columnMean[j]);
+    let largest = 0;
+    for (let t = 0; t < m; t++) {
+      const v = x.data[source + rowIndex[t]];
+      largest = Math.max(largest, Math.abs(v));
+      work[target + t] = rootWeight[t] * (v - columnAnchor[j] - columnOffset[j]);
+    }
     const centredLength = euclideanLength(work, target, m);
     columnLength[j] = centredLength;
-    if (centredLength > 0 && centredLength > rankTolerance * rawLength) {
+    // centredLength / √Σw is the column's weighted SD about its centre (its RMS without an intercept).
+    if (centredLength > 0 && centredLength / rootTotal > CONSTANT_SPREAD_RATIO * largest) {
       const inverse = 1 / centredLength;
       for (let t = 0; t < m; t++) work[target + t] *= inverse;
-      // Relative to the length before centring: as if the constant column came first.
-      aliasThreshold[j] = rankTolerance * (rawLength / centredLength);
+      aliasThreshold[j] = rankTolerance;
     } else {
       // Zero, or constant up to rounding: aliased with the intercept (or simply zero).
       aliasThreshold[j] = Infinity;
@@ -157,6 +178,7 @@ export function leastSquares(
   const aliased: number[] = [];
   const tau = new Float64Array(Math.min(m, p));
   for (let j = 0; j < p; j++) {
+    throwIfCancelled(options.signal);
     const k = kept.length;
     if (k >= maxRank || aliasThreshold[j] === Infinity) {
       aliased.push(j);
@@ -192,10 +214,13 @@ export function leastSquares(
   // Solve, in the scaled space: c = R⁻¹ (Qᵀz)[0..rank), then b_j = c_k / length_j.
   const coefficients = new Float64Array(p);
   const scratch = new Float64Array(m);
-  for (let t = 0; t < m; t++) scratch[t] = rootWeight[t] * (y[rowIndex[t]] - responseMean);
+  for (let t = 0; t < m; t++) scratch[t] = rootWeight[t] * (y[rowIndex[t]] - response.anchor - response.offset);
   solveWithFactor(work, rStart, tau, m, rank, scratch);
   for (let k = 0; k < rank; k++) coefficients[kept[k]] = scratch[k] / columnLength[kept[k]];
-  let intercept = withIntercept ? responseMean - dot(columnMean, coefficients) : 0;
+  // The intercept ȳ − Σ b_j x̄_j in double-double (see interceptPair): rounded to one double it
+  // would carry an error of its own size × 1e-16, which a column far from 0 (1e15 + z) makes
+  // larger than the residuals themselves.
+  let intercept = withIntercept ? interceptPair(response, columnAnchor, columnOffset, coefficients) : { high: 0, low: 0 };
 
   // One step of iterative refinement: the residual is recomputed from the original, uncentred
   // data (compensated, see fitWithCompensation) and the correction solved with the same factors.
@@ -215,9 +240,13 @@ export function leastSquares(
   const correction = new Float64Array(p);
   for (let k = 0; k < rank; k++) correction[kept[k]] = scratch[k] / columnLength[kept[k]];
   for (let j = 0; j < p; j++) coefficients[j] += correction[j];
-  // The slopes' correction moves the weighted mean of the fit by x̄·δb; the intercept takes
-  // up the rest of the residual's weighted mean.
-  if (withIntercept) intercept += residualMean - dot(columnMean, correction);
+  // The intercept follows the corrected slopes (ȳ − Σ b_j x̄_j again) and takes up what the
+  // residual's weighted mean says the means' rounding left.
+  if (withIntercept) {
+    intercept = interceptPair(response, columnAnchor, columnOffset, coefficients);
+    const [high, low] = twoSum(intercept.high, residualMean);
+    intercept = { high, low: low + intercept.low };
+  }
   fitWithCompensation(x, coefficients, intercept, fitted, fittedLow);
 
   // Fit statistics over the rows with positive weight. y − fitted uses the compensated fit, so
@@ -227,7 +256,7 @@ export function leastSquares(
   for (let t = 0; t < m; t++) {
     const i = rowIndex[t];
     const residual = y[i] - fitted[i] - fittedLow[i];
-    const deviation = y[i] - responseMean;
+    const deviation = y[i] - response.anchor - response.offset;
     residualSumOfSquares += rowWeight[t] * residual * residual;
     totalSumOfSquares += rowWeight[t] * deviation * deviation;
   }
@@ -272,7 +301,7 @@ export function leastSquares(
   // Aliased coefficients were never written, so they are exactly 0; `aliased` was filled in
   // increasing column order, so it is already sorted.
   return {
-    intercept,
+    intercept: intercept.high + intercept.low,
     interceptStandardError,
     coefficients: Array.from(coefficients),
     standardErrors,
@@ -287,22 +316,25 @@ export function leastSquares(
 }
 
 /**
- * Weighted mean of `values[offset + rowIndex[t]]`, with one correction pass
- * (mean + weighted mean of the deviations) to remove most of the rounding in the first sum.
+ * Weighted mean of `values[offset + rowIndex[t]]` in two parts: the anchor is the first value,
+ * the offset the weighted mean of the differences from it with one correction pass (offset +
+ * weighted mean of what is left). Equal values give that value and offset 0 exactly, and a large
+ * offset costs no digits of the differences, which are exact for values near the anchor.
  */
-function weightedMean(
+function weightedCentre(
   values: ArrayLike<number>,
   offset: number,
   rowIndex: Int32Array,
   rowWeight: Float64Array,
   weightTotal: number,
-): number {
+): { anchor: number; offset: number } {
+  const anchor = values[offset + rowIndex[0]];
   let sum = 0;
-  for (let t = 0; t < rowIndex.length; t++) sum += rowWeight[t] * values[offset + rowIndex[t]];
-  const mean = sum / weightTotal;
+  for (let t = 0; t < rowIndex.length; t++) sum += rowWeight[t] * (values[offset + rowIndex[t]] - anchor);
+  const shift = sum / weightTotal;
   let deviation = 0;
-  for (let t = 0; t < rowIndex.length; t++) deviation += rowWeight[t] * (values[offset + rowIndex[t]] - mean);
-  return mean + deviation / weightTotal;
+  for (let t = 0; t < rowIndex.length; t++) deviation += rowWeight[t] * (values[offset + rowIndex[t]] - anchor - shift);
+  return { anchor, offset: shift + deviation / weightTotal };
 }
 
 /** Euclidean length of `data[start .. start+length)`, scaled by the largest entry so that squares cannot overflow. */
@@ -381,7 +413,8 @@ function invertUpperTriangular(work: Float64Array, rStart: Int32Array, rank: num
 const SPLITTER = 134217729;
 
 /**
- * fitted_i = intercept + Σ_j x_ij b_j for every row, accumulated in double-double arithmetic
+ * fitted_i = intercept + Σ_j x_ij b_j for every row (the intercept itself a double-double pair),
+ * accumulated in double-double arithmetic
  * (error-free TwoSum and Dekker's TwoProduct; Ogita, Rump & Oishi, "Accurate sum and dot
  * product", SIAM J. Sci. Comput. 26(6), 2005): `high[i] + low[i]` carries about twice the
  * working precision, so y − high − low is accurate even when the terms nearly cancel (a large
@@ -391,13 +424,13 @@ const SPLITTER = 134217729;
 function fitWithCompensation(
   x: ColumnMatrix,
   coefficients: Float64Array,
-  intercept: number,
+  intercept: { high: number; low: number },
   high: Float64Array,
   low: Float64Array,
 ): void {
   const n = x.rows;
-  high.fill(intercept);
-  low.fill(0);
+  high.fill(intercept.high);
+  low.fill(intercept.low);
   for (let j = 0; j < x.columns; j++) {
     const b = coefficients[j];
     if (b === 0) continue;
@@ -422,4 +455,49 @@ function fitWithCompensation(
       low[i] += sumError + productError;
     }
   }
+}
+
+/** a + b = sum + error exactly (Knuth's TwoSum; Ogita, Rump & Oishi 2005, Algorithm 3.1). */
+function twoSum(a: number, b: number): [number, number] {
+  const sum = a + b;
+  const virtual = sum - a;
+  return [sum, a - (sum - virtual) + (b - virtual)];
+}
+
+/** a·b = product + error exactly (Dekker's TwoProduct with Veltkamp's split; same paper, Algorithm 3.3). */
+function twoProduct(a: number, b: number): [number, number] {
+  const product = a * b;
+  const aSplit = SPLITTER * a;
+  const aHigh = aSplit - (aSplit - a);
+  const aLow = a - aHigh;
+  const bSplit = SPLITTER * b;
+  const bHigh = bSplit - (bSplit - b);
+  const bLow = b - bHigh;
+  return [product, aLow * bLow - (product - aHigh * bHigh - aLow * bHigh - aHigh * bLow)];
+}
+
+/**
+ * b0 = ȳ − Σ_j b_j x̄_j as a double-double pair (high + low), with each mean in its two parts
+ * (anchor + offset, see weightedCentre): every product and sum is taken exactly and only their
+ * rounding errors are summed, so the pair carries about twice the working precision. Cost O(p).
+ */
+function interceptPair(
+  response: { anchor: number; offset: number },
+  anchors: Float64Array,
+  offsets: Float64Array,
+  coefficients: Float64Array,
+): { high: number; low: number } {
+  let [high, low] = twoSum(response.anchor, response.offset);
+  for (let j = 0; j < coefficients.length; j++) {
+    const b = coefficients[j];
+    if (b === 0) continue;
+    for (const part of [anchors[j], offsets[j]]) {
+      const [product, productError] = twoProduct(b, part);
+      const [sum, sumError] = twoSum(high, -product);
+      high = sum;
+      low += sumError - productError;
+    }
+  }
+  const [renormalized, rest] = twoSum(high, low);
+  return { high: renormalized, low: rest };
 }

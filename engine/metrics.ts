@@ -3,6 +3,8 @@
  * weighted version (Σ w·loss / Σ w). Pairs where either value is not finite are skipped;
  * `count` reports how many were used.
  */
+import { powerOfTwo } from "./scale";
+
 export interface Score {
   /** Mean absolute error. */
   mae: number;
@@ -34,14 +36,6 @@ export function meanError(actual: ArrayLike<number>, predicted: ArrayLike<number
 /** Values (and weights) whose largest magnitude lies in [2^-500, 2^500] are used as they are: no square or sum of them can overflow or underflow. */
 const SAFE_LOW = 2 ** -500;
 const SAFE_HIGH = 2 ** 500;
-const BITS = new DataView(new ArrayBuffer(8));
-
-/** 2^k, exactly, for -1022 ≤ k ≤ 1023 (built from its bits: Math.pow promises no exactness). */
-function powerOfTwo(k: number): number {
-  BITS.setUint32(0, (k + 1023) * 2 ** 20);
-  BITS.setUint32(4, 0);
-  return BITS.getFloat64(0);
-}
 
 /**
  * A power of two that brings `largest` near 1, or 1 when `largest` is already in the safe range

@@ -1,7 +1,7 @@
 /**
  * The strength grid and one path of solutions down it, warm-started point to point.
  */
-import { CancelledError } from "./errors";
+import { CancelledError, CancelSignal } from "./errors";
 import { CoordinateDescent, DescentSettings, PenaltySpec } from "./descent";
 import type { TrainingProblem } from "./problem";
 import { SpectralRidge } from "./ridgeSpectral";
@@ -33,9 +33,7 @@ export function strengthGrid(top: number, count: number, lowEndRatio: number): n
   return out;
 }
 
-export interface CancelSignal {
-  readonly aborted: boolean;
-}
+export type { CancelSignal } from "./errors";
 
 export interface PathSettings extends DescentSettings {
   /** Stop when the fit saturates (see SATURATED_R2 / SATURATED_GAIN). */

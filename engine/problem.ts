@@ -4,39 +4,78 @@
  * Conventions (the contract documented in the README's method section):
  * - Observation weights w_i >= 0 are normalised to ω_i = w_i / Σw.
  * - With an intercept, each predictor is centred at its weighted mean and divided by its
- *   weighted population standard deviation sqrt(Σ ω_i (x_ij − x̄_j)²) (divisor Σw, not Σw − 1);
- *   y is centred but not scaled, so the penalty strength λ is in y's units.
- * - Without an intercept nothing is centred; each predictor is divided by its weighted root
- *   mean square sqrt(Σ ω_i x_ij²), its spread about the model's origin.
- * - With standardization off the divisor is 1 (columns are only centred).
- * - A column whose spread on these rows is negligible (variance <= 1e-12 × its second moment)
- *   is "frozen": its coefficient is held at zero. On the full data it is reported as constant;
- *   inside a cross-validation fold it simply sits that fold out.
+ *   weighted population standard deviation sqrt(Σ ω_i (x_ij − x̄_j)²) (divisor Σw, not Σw − 1).
+ * - The target is standardized too: ỹ = (y − ȳ) / s_y, s_y its weighted population standard
+ *   deviation, so the penalty strength λ is unit-free: the same model whatever units the target
+ *   is recorded in. Coefficients go back to the data's units as b_j = s_y · b̃_j / scale_j.
+ * - Without an intercept nothing is centred; each predictor and the target are divided by their
+ *   weighted root mean square sqrt(Σ ω_i v_i²), their spread about the model's origin.
+ * - With standardization off the predictors' divisor is their unit (`columnUnits`, default 1:
+ *   columns are only centred); the target is still divided by s_y, so λ stays unit-free.
+ * - Centring is numerically stable: a centre is held in two parts, an anchor (one of the values,
+ *   the one nearest the mean) and an offset (the weighted mean of the values less the anchor,
+ *   corrected by one more pass), and values are centred as (x − anchor) − offset. The first
+ *   difference is exact for values near the anchor, so a column of equal values centres to exact
+ *   zeros and a large offset (dates as serial numbers, millisecond timestamps, 1e15 + z) costs no
+ *   digits of the spread, though the centre itself, rounded to one double, would.
+ * - A column is "frozen" (coefficient held at zero) when it is constant on these rows: its
+ *   weighted SD about its centre is 0 or at most CONSTANT_SPREAD_RATIO (2^-52, one unit in the
+ *   last place) times its largest |value| on rows with positive weight, i.e. its values differ
+ *   by no more than rounding. In gram form, where spreads come from subtracting sums, a column
+ *   whose variance is at most SUMS_CANCELLATION_RATIO times its mean square about the sums'
+ *   shift is frozen too: that much is what the subtraction leaves from rounding (on the full data
+ *   the shift is the column's own mean, so this only bites inside a fold). On the full data a
+ *   frozen column is reported as constant; inside a cross-validation fold it sits that fold out.
+ *   A target constant on a fold's training rows gives ỹ = 0 there (s_y taken as 1).
+ * - Values are expected near 1 in magnitude: the caller (fit.ts) scales every column, the target
+ *   and the weights by powers of two first (scale.ts), so no square overflows or underflows.
+ *   Rows with weight 0 take no part; their standardized values are stored as 0.
  *
  * Two storage forms, chosen by the caller:
  * - "gram" (covariance updates): G̃ = X̃ᵀΩX̃ (p × p) and c̃ = X̃ᵀΩỹ. Built from block sums, so
  *   every cross-validation fold's problem costs O(p²) once the one pass over the data is done.
  * - "naive" (residual updates): the standardized rows X̃ (column-major), ω and ỹ.
+ *
+ * Long loops take an optional cancel signal and check it between columns (errors.ts).
  */
+import { CancelSignal, throwIfCancelled } from "./errors";
 import { ColumnMatrix, zeroMatrix } from "./matrix";
 
-/** Relative spread below which a column counts as constant (see module comment). */
-export const CONSTANT_COLUMN_RATIO = 1e-12;
+/**
+ * A column (or target) is constant when its weighted SD about its centre is at most this times
+ * its largest |value|: 2^-52, the spacing of doubles at 1, so its values differ by rounding only.
+ */
+export const CONSTANT_SPREAD_RATIO = 2 ** -52;
+
+/**
+ * Gram form: a variance from subtracted sums at most this times the mean square about the sums'
+ * shift is rounding left by the subtraction, and the column (or target) counts as constant.
+ */
+export const SUMS_CANCELLATION_RATIO = 1e-12;
 
 export interface Standardization {
-  /** Centre of each predictor, original units (0 without an intercept). */
+  /** Centre of each predictor, in the units of the values given (0 without an intercept), rounded: xAnchor + xOffset. */
   xCentre: Float64Array;
-  /** Divisor of each predictor (1 when not standardizing, and for frozen columns). */
+  /** The centre in two parts (see the module comment): an anchor (one of the values, or the sums' shift) … */
+  xAnchor: Float64Array;
+  /** … and the weighted mean less the anchor, at full precision. Centred value: (x − xAnchor) − xOffset. */
+  xOffset: Float64Array;
+  /** Divisor of each predictor (its unit when not standardizing; 1 for frozen columns). */
   xScale: Float64Array;
   /** Weighted population standard deviation of each predictor on these rows (0 if frozen). */
   xSpread: Float64Array;
-  /** Centre of the target (0 without an intercept). */
+  /** Centre of the target (0 without an intercept), rounded: yAnchor + yOffset. */
   yCentre: number;
+  /** The target's centre in two parts, as for the predictors. */
+  yAnchor: number;
+  yOffset: number;
+  /** Divisor of the target, s_y: its weighted population SD (root mean square without an intercept); 1 when constant on these rows. */
+  yScale: number;
   /** 1 where the column is constant on these rows: coefficient held at 0. */
   frozen: Uint8Array;
   /** Σw over these rows. */
   totalWeight: number;
-  /** Σ ω (y − ȳ)²: the weighted variance of the target about its centre. */
+  /** Σ ω ỹ²: the standardized target's mean square, 1 up to rounding (0 when the target is constant on these rows). */
   yVariance: number;
 }
 
@@ -49,7 +88,7 @@ export interface TrainingProblem {
   std: Standardization;
   /** d_j = Σ ω x̃_j²: 1 for standardized columns, 0 for frozen ones. */
   curvature: Float64Array;
-  /** c̃_j = Σ ω x̃_j ỹ. */
+  /** c̃_j = Σ ω x̃_j ỹ (unit-free). */
   cross: Float64Array;
   /** G̃, p × p symmetric (gram form only). */
   gram: Float64Array | null;
@@ -64,12 +103,19 @@ export interface TrainingProblem {
 export interface ProblemOptions {
   intercept: boolean;
   standardize: boolean;
+  /**
+   * Each column's unit in the values given, the divisor used when `standardize` is off (default
+   * 1). fit.ts passes the powers of two it scaled the columns by, so without standardization the
+   * columns are penalized in the data's own units.
+   */
+  columnUnits?: Float64Array;
 }
 
 /**
- * Weighted sums of one block of rows, about fixed shifts (the full-data centres), which keeps
- * the cancellation in "centred = raw − mean²" small. Sums of blocks add up exactly in the
- * algebra, so a fold's training sums are total minus the fold's own.
+ * Weighted sums of one block of rows, about fixed shifts (the full data's centre anchors: values
+ * nearest the means), which keeps the cancellation in "centred = raw − mean²" small and makes
+ * each shifted value exact. Sums of blocks add up exactly in the algebra, so a fold's training
+ * sums are total minus the fold's own.
  */
 export interface BlockSums {
   p: number;
@@ -81,6 +127,10 @@ export interface BlockSums {
   xx: Float64Array;
   xy: Float64Array;
   yy: number;
+  /** Largest |x_ij| of each column over the block's rows with positive weight (not shifted). */
+  largest: Float64Array;
+  /** Largest |y_i| over the block's rows with positive weight (not shifted). */
+  largestY: number;
 }
 
 export function emptySums(p: number): BlockSums {
@@ -93,11 +143,17 @@ export function emptySums(p: number): BlockSums {
     xx: new Float64Array(p * p),
     xy: new Float64Array(p),
     yy: 0,
+    largest: new Float64Array(p),
+    largestY: 0,
   };
 }
 
-/** `into += sign × from`, elementwise. Cost O(p²). */
+/**
+ * `into += sign × from`, elementwise. Cost O(p²). The largest magnitudes combine only when
+ * adding (a maximum can't be subtracted): after a subtraction set them with `takeLargest`.
+ */
 export function accumulateSums(into: BlockSums, from: BlockSums, sign: 1 | -1): void {
+  if (sign === 1) takeLargest(into, from);
   into.weight += sign * from.weight;
   into.rows += sign * from.rows;
   into.sumY += sign * from.sumY;
@@ -109,6 +165,12 @@ export function accumulateSums(into: BlockSums, from: BlockSums, sign: 1 | -1): 
   const xx = into.xx;
   const src = from.xx;
   for (let t = 0; t < xx.length; t++) xx[t] += sign * src[t];
+}
+
+/** `into`'s largest magnitudes become at least `from`'s. Cost O(p). */
+export function takeLargest(into: BlockSums, from: BlockSums): void {
+  for (let j = 0; j < into.p; j++) if (from.largest[j] > into.largest[j]) into.largest[j] = from.largest[j];
+  if (from.largestY > into.largestY) into.largestY = from.largestY;
 }
 
 /**
@@ -142,6 +204,7 @@ export function dotRange(
 /**
  * Sums of the listed rows about the shifts. One gather into a contiguous buffer (so the
  * p²/2 dot products are stride-1), then the products. Cost O(rows·p²/2).
+ * Values must be finite; rows with weight 0 add nothing.
  */
 export function blockSums(
   x: ColumnMatrix,
@@ -150,6 +213,7 @@ export function blockSums(
   rows: ArrayLike<number>,
   shiftX: Float64Array,
   shiftY: number,
+  signal?: CancelSignal,
 ): BlockSums {
   const p = x.columns;
   const n = x.rows;
@@ -160,15 +224,25 @@ export function blockSums(
   const weighted = weights ? new Float64Array(m * p) : shifted;
   const ys = new Float64Array(m);
   const ws = new Float64Array(m);
+  let largestY = 0;
   for (let t = 0; t < m; t++) {
     const i = rows[t];
     ws[t] = weights ? weights[i] : 1;
     ys[t] = y[i] - shiftY;
+    if (ws[t] > 0 && Math.abs(y[i]) > largestY) largestY = Math.abs(y[i]);
   }
+  out.largestY = largestY;
   for (let j = 0; j < p; j++) {
     const src = j * n;
     const dst = j * m;
-    for (let t = 0; t < m; t++) shifted[dst + t] = x.data[src + rows[t]] - shiftX[j];
+    const shift = shiftX[j];
+    let largest = 0;
+    for (let t = 0; t < m; t++) {
+      const v = x.data[src + rows[t]];
+      shifted[dst + t] = v - shift;
+      if (ws[t] > 0 && Math.abs(v) > largest) largest = Math.abs(v);
+    }
+    out.largest[j] = largest;
     if (weights) for (let t = 0; t < m; t++) weighted[dst + t] = ws[t] * shifted[dst + t];
   }
   let weight = 0;
@@ -185,6 +259,8 @@ export function blockSums(
   const wy = weights ? new Float64Array(m) : ys;
   if (weights) for (let t = 0; t < m; t++) wy[t] = ws[t] * ys[t];
   for (let j = 0; j < p; j++) {
+    // Column j's products cost m·(p − j): a checkpoint per column keeps them short.
+    throwIfCancelled(signal);
     let sx = 0;
     const off = j * m;
     for (let t = 0; t < m; t++) sx += weighted[off + t];
@@ -232,14 +308,21 @@ export function problemFromSums(
   for (let j = 0; j < p; j++) {
     const variance = centred[j * p + j] / W;
     const second = sums.xx[j * p + j] / W;
-    const frozen = !(variance > CONSTANT_COLUMN_RATIO * second) || !(variance > 0);
+    const frozen = !(variance > SUMS_CANCELLATION_RATIO * second) || !(Math.sqrt(variance) > CONSTANT_SPREAD_RATIO * sums.largest[j]);
     std.frozen[j] = frozen ? 1 : 0;
-    std.xCentre[j] = options.intercept ? sums.sumX[j] / W + shiftX[j] : 0;
+    std.xAnchor[j] = options.intercept ? shiftX[j] : 0;
+    std.xOffset[j] = options.intercept ? sums.sumX[j] / W : 0;
+    std.xCentre[j] = std.xOffset[j] + std.xAnchor[j];
     std.xSpread[j] = frozen ? 0 : Math.sqrt(variance);
-    scale[j] = frozen || !options.standardize ? 1 : Math.sqrt(variance);
+    scale[j] = frozen ? 1 : options.standardize ? Math.sqrt(variance) : (options.columnUnits?.[j] ?? 1);
   }
-  std.yCentre = options.intercept ? sums.sumY / W + shiftY : 0;
-  std.yVariance = Math.max(yv / W, 0);
+  std.yAnchor = options.intercept ? shiftY : 0;
+  std.yOffset = options.intercept ? sums.sumY / W : 0;
+  std.yCentre = std.yOffset + std.yAnchor;
+  const yMeanSquare = yv / W;
+  const yConstant = !(yMeanSquare > SUMS_CANCELLATION_RATIO * (sums.yy / W)) || !(Math.sqrt(yMeanSquare) > CONSTANT_SPREAD_RATIO * sums.largestY);
+  std.yScale = yConstant ? 1 : Math.sqrt(yMeanSquare);
+  std.yVariance = yConstant ? 0 : yMeanSquare / (std.yScale * std.yScale);
   const gram = new Float64Array(p * p);
   const cross = new Float64Array(p);
   const curvature = new Float64Array(p);
@@ -249,7 +332,7 @@ export function problemFromSums(
       if (std.frozen[k]) continue;
       gram[j * p + k] = centred[j * p + k] / (W * scale[j] * scale[k]);
     }
-    cross[j] = cy[j] / (W * scale[j]);
+    cross[j] = yConstant ? 0 : cy[j] / (W * scale[j] * std.yScale);
     curvature[j] = gram[j * p + j];
   }
   return { kind: "gram", p, n: 0, std, curvature, cross, gram, xs: null, omega: null, yc: null };
@@ -258,18 +341,66 @@ export function problemFromSums(
 function newStandardization(p: number, totalWeight: number): Standardization {
   return {
     xCentre: new Float64Array(p),
+    xAnchor: new Float64Array(p),
+    xOffset: new Float64Array(p),
     xScale: new Float64Array(p).fill(1),
     xSpread: new Float64Array(p),
     yCentre: 0,
+    yAnchor: 0,
+    yOffset: 0,
+    yScale: 1,
     frozen: new Uint8Array(p),
     totalWeight,
     yVariance: 0,
   };
 }
 
+/** A centre in two parts: `anchor` (one of the values) + `offset` (small, at full precision). */
+export interface Centre {
+  anchor: number;
+  offset: number;
+}
+
+/**
+ * Weighted mean Σ ω v of `values[0..m)` (ω summing to 1), computed stably and kept in two parts:
+ * the anchor is the positively weighted value nearest a first rough mean, the offset the
+ * weighted mean of (v − anchor), corrected by the weighted mean of what is left. Equal values
+ * give that value and offset 0 exactly; differences v − anchor are exact for values near the
+ * anchor, so an offset far larger than the spread costs no digits. Values must be finite and of
+ * moderate size (fit.ts scales them near 1). Cost O(m).
+ * @example stableCentre(Float64Array.of(1e15 + 1, 1e15 + 3), Float64Array.of(0.5, 0.5), 2) // { anchor: 1e15 + 1, offset: 1 }
+ */
+export function stableCentre(values: ArrayLike<number>, omega: ArrayLike<number>, m: number): Centre {
+  let rough = 0;
+  for (let t = 0; t < m; t++) rough += omega[t] * values[t];
+  let anchor = NaN;
+  let nearest = Infinity;
+  for (let t = 0; t < m; t++) {
+    if (!(omega[t] > 0)) continue;
+    const distance = Math.abs(values[t] - rough);
+    if (distance < nearest) {
+      nearest = distance;
+      anchor = values[t];
+    }
+  }
+  if (Number.isNaN(anchor)) return { anchor: 0, offset: 0 };
+  let sum = 0;
+  for (let t = 0; t < m; t++) sum += omega[t] * (values[t] - anchor);
+  let correction = 0;
+  for (let t = 0; t < m; t++) correction += omega[t] * (values[t] - anchor - sum);
+  return { anchor, offset: sum + correction };
+}
+
+/** The centre of `stableCentre` rounded to one double. */
+export function stableMean(values: ArrayLike<number>, omega: ArrayLike<number>, m: number): number {
+  const { anchor, offset } = stableCentre(values, omega, m);
+  return anchor + offset;
+}
+
 /**
  * Naive-form problem over the listed rows (all rows when `rows` is null): standardized copy
- * of those rows, column-major. Means and spreads by two passes (accurate). Cost O(rows·p).
+ * of those rows, column-major. Centres by `stableCentre`, spreads by a second pass about them.
+ * Cost O(rows·p).
  */
 export function problemFromRows(
   x: ColumnMatrix,
@@ -277,6 +408,7 @@ export function problemFromRows(
   weights: ArrayLike<number> | null,
   rows: ArrayLike<number> | null,
   options: ProblemOptions,
+  signal?: CancelSignal,
 ): TrainingProblem {
   const n = x.rows;
   const p = x.columns;
@@ -290,37 +422,55 @@ export function problemFromRows(
   }
   for (let t = 0; t < m; t++) omega[t] /= W;
   const std = newStandardization(p, W);
-  let yMean = 0;
-  if (options.intercept) for (let t = 0; t < m; t++) yMean += omega[t] * y[index(t)];
   const yc = new Float64Array(m);
+  let largestY = 0;
+  for (let t = 0; t < m; t++) {
+    yc[t] = y[index(t)];
+    if (omega[t] > 0 && Math.abs(yc[t]) > largestY) largestY = Math.abs(yc[t]);
+  }
+  const yCentre = options.intercept ? stableCentre(yc, omega, m) : { anchor: 0, offset: 0 };
+  let yMeanSquare = 0;
+  for (let t = 0; t < m; t++) {
+    yc[t] = omega[t] > 0 ? yc[t] - yCentre.anchor - yCentre.offset : 0;
+    yMeanSquare += omega[t] * yc[t] * yc[t];
+  }
+  const yConstant = !(yMeanSquare > 0) || !(Math.sqrt(yMeanSquare) > CONSTANT_SPREAD_RATIO * largestY);
+  const yScale = yConstant ? 1 : Math.sqrt(yMeanSquare);
   let yVariance = 0;
   for (let t = 0; t < m; t++) {
-    yc[t] = y[index(t)] - yMean;
+    yc[t] = yConstant ? 0 : yc[t] / yScale;
     yVariance += omega[t] * yc[t] * yc[t];
   }
-  std.yCentre = yMean;
+  std.yAnchor = yCentre.anchor;
+  std.yOffset = yCentre.offset;
+  std.yCentre = yCentre.anchor + yCentre.offset;
+  std.yScale = yScale;
   std.yVariance = yVariance;
   const xs = zeroMatrix(m, p);
   const cross = new Float64Array(p);
   const curvature = new Float64Array(p);
   for (let j = 0; j < p; j++) {
+    throwIfCancelled(signal);
     const src = j * n;
     const col = xs.data.subarray(j * m, (j + 1) * m);
-    for (let t = 0; t < m; t++) col[t] = x.data[src + index(t)];
-    let mean = 0;
-    if (options.intercept) for (let t = 0; t < m; t++) mean += omega[t] * col[t];
-    let variance = 0;
-    let second = 0;
+    let largest = 0;
     for (let t = 0; t < m; t++) {
-      const v = col[t] - mean;
-      variance += omega[t] * v * v;
-      second += omega[t] * col[t] * col[t];
+      col[t] = x.data[src + index(t)];
+      if (omega[t] > 0 && Math.abs(col[t]) > largest) largest = Math.abs(col[t]);
     }
-    const frozen = !(variance > CONSTANT_COLUMN_RATIO * second) || !(variance > 0);
+    const { anchor, offset } = options.intercept ? stableCentre(col, omega, m) : { anchor: 0, offset: 0 };
+    let variance = 0;
+    for (let t = 0; t < m; t++) {
+      col[t] = col[t] - anchor - offset;
+      variance += omega[t] * col[t] * col[t];
+    }
+    const frozen = !(variance > 0) || !(Math.sqrt(variance) > CONSTANT_SPREAD_RATIO * largest);
     std.frozen[j] = frozen ? 1 : 0;
-    std.xCentre[j] = mean;
+    std.xAnchor[j] = anchor;
+    std.xOffset[j] = offset;
+    std.xCentre[j] = anchor + offset;
     std.xSpread[j] = frozen ? 0 : Math.sqrt(variance);
-    const scale = frozen || !options.standardize ? 1 : Math.sqrt(variance);
+    const scale = frozen ? 1 : options.standardize ? Math.sqrt(variance) : (options.columnUnits?.[j] ?? 1);
     std.xScale[j] = scale;
     if (frozen) {
       col.fill(0);
@@ -329,7 +479,7 @@ export function problemFromRows(
     let c = 0;
     let d = 0;
     for (let t = 0; t < m; t++) {
-      const v = (col[t] - mean) / scale;
+      const v = omega[t] > 0 ? col[t] / scale : 0;
       col[t] = v;
       c += omega[t] * v * yc[t];
       d += omega[t] * v * v;

@@ -135,8 +135,11 @@ export class SpectralRidge {
    * Predictions on held-out rows at any strength without forming the coefficients, for
    * cross-validation in the kernel form (p > n), where forming them costs O(n·p) a strength.
    * With x̂ the held-out rows standardized by this problem's centres and scales,
-   * prediction = ȳ + x̂ D⁻² X̃ᵀ Ω^½ U s(λ), s_t = q_t/(σ_t + λ); the n_v × n matrix in front of
-   * s(λ) is built once (O(n_v·n·p)), then each strength costs O(n_v·n).
+   * prediction = ȳ + s_y · x̂ D⁻² X̃ᵀ Ω^½ U s(λ), s_t = q_t/(σ_t + λ) (s_y: the target's scale,
+   * problem.ts); the n_v × n matrix in front of s(λ) is built once (O(n_v·n·p)), then each
+   * strength costs O(n_v·n). Predictions are written less the target's centre anchor
+   * (std.yAnchor), and held-out values centred in two parts ((x − anchor) − offset), so a large
+   * offset in the data costs no digits.
    * Gram form: forms the coefficients (O(p²)) and applies them.
    */
   heldOutPredictor(heldOut: { rows: number; columns: number; data: Float64Array }): (lambda: number, out: Float64Array) => void {
@@ -147,13 +150,15 @@ export class SpectralRidge {
       const coefficients = new Float64Array(problem.p);
       return (lambda, out) => {
         this.coefficientsAt(lambda, coefficients);
-        out.fill(std.yCentre);
+        out.fill(std.yOffset);
         for (let j = 0; j < problem.p; j++) {
           const b = coefficients[j];
           if (b === 0) continue;
-          const scaled = b / std.xScale[j];
+          const scaled = (std.yScale * b) / std.xScale[j];
           const off = j * rows;
-          for (let t = 0; t < rows; t++) out[t] += scaled * (heldOut.data[off + t] - std.xCentre[j]);
+          const anchor = std.xAnchor[j];
+          const offset = std.xOffset[j];
+          for (let t = 0; t < rows; t++) out[t] += scaled * (heldOut.data[off + t] - anchor - offset);
         }
       };
     }
@@ -168,7 +173,9 @@ export class SpectralRidge {
       const j = this.free[a];
       const inverse = 1 / (this.rootMultiplier[a] * this.rootMultiplier[a]);
       const off = j * rows;
-      for (let t = 0; t < rows; t++) standardized[t] = ((heldOut.data[off + t] - std.xCentre[j]) / std.xScale[j]) * inverse;
+      const anchor = std.xAnchor[j];
+      const offset = std.xOffset[j];
+      for (let t = 0; t < rows; t++) standardized[t] = ((heldOut.data[off + t] - anchor - offset) / std.xScale[j]) * inverse;
       const col = j * n;
       for (let t = 0; t < rows; t++) {
         const v = standardized[t];
@@ -187,7 +194,7 @@ export class SpectralRidge {
     const shrink = new Float64Array(size);
     return (lambda, out) => {
       for (let e = 0; e < size; e++) shrink[e] = this.projected[e] / (this.values[e] + lambda);
-      for (let t = 0; t < rows; t++) out[t] = std.yCentre + dotRange(projector, t * size, shrink, 0, size);
+      for (let t = 0; t < rows; t++) out[t] = std.yOffset + std.yScale * dotRange(projector, t * size, shrink, 0, size);
     };
   }
 

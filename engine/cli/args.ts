@@ -89,6 +89,9 @@ Output
 Numbers use '.' as the decimal point; ',' between groups of three digits is allowed
 ("1,234.5", quoted in a comma-separated file). Rows with a blank cell in any column the fit
 uses are skipped and counted.
+Strengths are unit-free: the penalty acts on the standardized target, so recording the target
+(or a predictor) in other units gives the same model. Coefficients are in the data's units;
+'per SD' is a coefficient × its predictor's SD (the target's units per SD of the predictor).
 Exit codes: 0 success, 2 bad input or usage, 1 unexpected failure.`;
 
 type Kind = "text" | "number" | "list" | "numberList" | "flag";

@@ -38,7 +38,10 @@ export interface JsonReport {
   predictors: string[];
   intercept: number | null;
   coefficients: Record<string, number | null>;
-  /** Coefficient × the predictor's population SD: comparable across predictors. */
+  /**
+   * Coefficient × the predictor's population SD: the change in the target, in the target's
+   * units, per SD of the predictor (comparable across predictors; not the unit-free b̃).
+   */
   standardizedCoefficients: Record<string, number | null>;
   /** Terms with a nonzero coefficient in the model. */
   termsKept: number;
@@ -224,7 +227,7 @@ export function textReport(result: FitResult, context: ReportContext): string {
   lines.push("");
   const baseline = result.baseline;
   const seText = (value: number | null | undefined): string => (value === null || value === undefined ? "aliased" : formatNumber(value));
-  const termRows: string[][] = [["term", "coefficient", "standardized", ...(baseline ? ["LS SE"] : [])]];
+  const termRows: string[][] = [["term", "coefficient", "per SD", ...(baseline ? ["LS SE"] : [])]];
   termRows.push(["intercept", formatNumber(result.intercept), "", ...(baseline ? [seText(baseline.interceptStandardError)] : [])]);
   result.terms.forEach((term, j) => {
     termRows.push([

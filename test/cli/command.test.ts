@@ -97,7 +97,7 @@ describe("npx tsx engine/cli/fit.ts", () => {
     const outcome = outcomes.text;
     expect(outcome.stderr).toBe("");
     expect(outcome.status).toBe(0);
-    expect(outcome.stdout).toMatch(/term\s+coefficient\s+standardized/);
+    expect(outcome.stdout).toMatch(/term\s+coefficient\s+per SD/);
     expect(outcome.stdout).toMatch(/Cross-validation: 5 random folds \(seed 7\)/);
     expect(outcome.stdout).toMatch(/Rows: 30 used, 0 skipped/);
   });

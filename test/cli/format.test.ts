@@ -138,7 +138,7 @@ describe("textReport", () => {
     const { result, table } = run(["data.csv", "--target", "y", "--mix", "1", "--count", "30", "--folds", "4"]);
     const text = textReport(result, { table });
     expect(text).toMatch(/^Shrinkwise fit of 'y' on 3 predictors\n/);
-    expect(text).toMatch(/term\s+coefficient\s+standardized/);
+    expect(text).toMatch(/term\s+coefficient\s+per SD/);
     expect(text).toMatch(/\n {2}intercept\s+-?\d/);
     for (const term of ["size", "age", "extra"]) expect(text).toMatch(new RegExp(`\\n  ${term}\\s+-?\\d`));
     expect(text).toMatch(/Chosen point \(lowest error\): mix 1, strength λ /);
@@ -159,7 +159,7 @@ describe("textReport", () => {
     const { result, table } = run(["data.csv", "--target", "y", "--strength", "0"]);
     const text = textReport(result, { table });
     expect(text).toMatch(/Fixed point: least squares \(strength 0\), 3 of 3 terms kept; no cross-validation/);
-    expect(text).toMatch(/term\s+coefficient\s+standardized\s+LS SE\n/);
+    expect(text).toMatch(/term\s+coefficient\s+per SD\s+LS SE\n/);
     // residual df = rows − coefficients (intercept + 3 terms): common practice.
     expect(text).toMatch(/\nLeast squares: residual SD [\d.]+, residual df 36 \(40 rows − 4 coefficients\)\n/);
     expect(text).not.toMatch(/degrees of freedom|std\. error/);

@@ -8,7 +8,11 @@
  * or AR(1) columns, a sparse truth, noise; optional weights (some zero), penalty multipliers (some 0,
  * some 2) and sign bounds (some coefficients >= 0, some <= 0).
  *
- * Tolerance: 1e-7 relative to λ (the brief's requirement). The engine stops when no coordinate moves
+ * The checker works in the target's units (lasso weight λ·α·s_y, ridge weight λ·(1−α), see
+ * test/helpers/kkt.ts), an independent formulation of the engine's unit-free problem, and reports
+ * violations relative to λ·s_y.
+ *
+ * Tolerance: 1e-7 relative to λ·s_y (the brief's requirement). The engine stops when no coordinate moves
  * by more than 1e-9·λ in a sweep; a coordinate's residual after the sweep is bounded by the moves of
  * the others through the Gram matrix (at most p of them), which leaves the 1e-7 bar a margin.
  *
@@ -16,7 +20,7 @@
  */
 import fc from "fast-check";
 import { fit, FitOptions, FitResult, UpdateScheme } from "../../engine/fit";
-import { checkKkt, columnScales } from "../helpers/kkt";
+import { checkKkt, columnScales, targetSpread } from "../helpers/kkt";
 import { makeProblem, Design } from "../helpers/problems";
 import { TestRandom } from "../helpers/random";
 
@@ -58,9 +62,10 @@ const caseArbitrary = fc.record({
   crossValidated: fc.boolean(),
 });
 
-/** λ_max by hand for the penalized columns (Friedman et al. 2010 §2.5), ignoring unpenalized ones. */
+/** λ_max by hand for the penalized columns (Friedman et al. 2010 §2.5, on the standardized target), ignoring unpenalized ones. */
 function roughTop(x: number[][], y: number[], weights: number[] | null, alpha: number): number {
   const { totalWeight, centre, scale } = columnScales(x, weights, true, true);
+  const sy = targetSpread(y, weights);
   let ybar = 0;
   for (let i = 0; i < y.length; i++) ybar += (weights ? weights[i] : 1) * y[i];
   ybar /= totalWeight;
@@ -68,7 +73,7 @@ function roughTop(x: number[][], y: number[], weights: number[] | null, alpha: n
   for (let j = 0; j < x[0].length; j++) {
     let s = 0;
     for (let i = 0; i < y.length; i++) s += (weights ? weights[i] : 1) * ((x[i][j] - centre[j]) / scale[j]) * (y[i] - ybar);
-    top = Math.max(top, Math.abs(s) / (totalWeight * Math.max(alpha, 0.001)));
+    top = Math.max(top, Math.abs(s) / (totalWeight * sy * Math.max(alpha, 0.001)));
   }
   return top;
 }
@@ -237,26 +242,27 @@ describe("the checker itself can fail", () => {
   const problem = makeProblem({ seed: 7, rows: 30, columns: 5, design: "ar1", rho: 0.5, nonzero: 2, noise: 0.5 });
 
   test("one predictor: the closed-form elastic-net solution passes, a perturbed one fails", () => {
-    // Single standardized predictor: b̃ = S(c, λα) / (1 + λ(1−α)), c = x̃ᵀ(y − ȳ)/n
-    // (Friedman, Hastie & Tibshirani 2010 §2.1, eq. 5 with one coordinate).
+    // Single standardized predictor and standardized target: b̃ = S(c, λα) / (1 + λ(1−α)),
+    // c = x̃ᵀ(y − ȳ)/(n·s_y) (Friedman, Hastie & Tibshirani 2010 §2.1, eq. 5 with one coordinate).
     const x = problem.x.map((row) => [row[0]]);
     const { centre, scale } = columnScales(x, null, true, true);
     const n = x.length;
     const ybar = problem.y.reduce((a, b) => a + b, 0) / n;
+    const sy = targetSpread(problem.y, null);
     let c = 0;
     for (let i = 0; i < n; i++) c += ((x[i][0] - centre[0]) / scale[0]) * (problem.y[i] - ybar);
-    c /= n;
+    c /= n * sy;
     const alpha = 0.3;
     const lambda = Math.abs(c) / 2;
     const soft = Math.sign(c) * Math.max(Math.abs(c) - lambda * alpha, 0);
     const bt = soft / (1 + lambda * (1 - alpha));
-    const b = bt / scale[0];
+    const b = (sy * bt) / scale[0];
     const b0 = ybar - b * centre[0];
     const good = checkKkt({ x, y: problem.y, intercept: b0, coefficients: [b], lambda, alpha });
     expect(good.max).toBeLessThan(1e-12); // closed form above: exact up to rounding
     const bad = checkKkt({ x, y: problem.y, intercept: b0, coefficients: [b * (1 + 1e-4)], lambda, alpha });
     expect(bad.coordinate).toBeGreaterThan(KKT_TOLERANCE);
-    const shifted = checkKkt({ x, y: problem.y, intercept: b0 + 1e-4 * lambda, coefficients: [b], lambda, alpha });
+    const shifted = checkKkt({ x, y: problem.y, intercept: b0 + 1e-4 * lambda * sy, coefficients: [b], lambda, alpha });
     expect(shifted.interceptViolation).toBeGreaterThan(KKT_TOLERANCE);
   });
 

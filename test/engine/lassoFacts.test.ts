@@ -1,22 +1,24 @@
 /**
  * Facts of the trade about the lasso end of the path (common practice), and the top of the grid
- * computed by hand: λ_max = max_j |x̃_jᵀ W (y − ȳ)| / (Σw · α · m_j)
- * (Friedman, Hastie & Tibshirani 2010, J. Stat. Software 33(1) §2.5, with weights and multipliers),
- * and α replaced by 0.001 for ridge, where λ_max would be infinite (engine/path.ts RIDGE_TOP_MIX).
+ * computed by hand: λ_max = max_j |x̃_jᵀ W ỹ| / (Σw · α · m_j), ỹ = (y − ȳ)/s_y the standardized
+ * target (Friedman, Hastie & Tibshirani 2010, J. Stat. Software 33(1) §2.5, with weights and
+ * multipliers), and α replaced by 0.001 for ridge, where λ_max would be infinite (engine/path.ts
+ * RIDGE_TOP_MIX).
  */
 import { fit, UpdateScheme } from "../../engine/fit";
-import { columnScales } from "../helpers/kkt";
+import { columnScales, targetSpread } from "../helpers/kkt";
 import { expectRelative, weightedMean } from "../helpers/numeric";
 import { makeProblem } from "../helpers/problems";
 import { TestRandom } from "../helpers/random";
 
-/** Inner products x̃_jᵀ W (y − ȳ) / Σw, computed from the raw data. */
+/** Inner products x̃_jᵀ W ỹ / Σw with ỹ = (y − ȳ)/s_y, computed from the raw data. */
 function correlations(x: number[][], y: number[], weights: number[] | null): number[] {
   const { totalWeight, centre, scale } = columnScales(x, weights, true, true);
   const ybar = weightedMean(y, weights);
+  const sy = targetSpread(y, weights);
   return x[0].map((_, j) => {
     let s = 0;
-    for (let i = 0; i < y.length; i++) s += (weights ? weights[i] : 1) * ((x[i][j] - centre[j]) / scale[j]) * (y[i] - ybar);
+    for (let i = 0; i < y.length; i++) s += (weights ? weights[i] : 1) * ((x[i][j] - centre[j]) / scale[j]) * ((y[i] - ybar) / sy);
     return s / totalWeight;
   });
 }
@@ -78,7 +80,7 @@ describe("the top of the path (common practice)", () => {
     [0.5, "gram", true, false],
     [0.5, "residual", true, true],
     [0.3, "auto", true, true],
-  ])("λ_max equals max_j |x̃_jᵀ W(y − ȳ)| / (Σw α m_j) by hand: α = %p, %s updates, weighted %p, multipliers %p", (alpha, updates, weighted, withMultipliers) => {
+  ])("λ_max equals max_j |x̃_jᵀ W ỹ| / (Σw α m_j) by hand: α = %p, %s updates, weighted %p, multipliers %p", (alpha, updates, weighted, withMultipliers) => {
     const random = new TestRandom(5);
     const weights = weighted ? sparse.y.map(() => 0.1 + 3 * random.uniform()) : null;
     const multipliers = withMultipliers ? sparse.x[0].map((_, j) => [1, 2, 0.5][j % 3]) : null;
