@@ -15,8 +15,19 @@ function timeSeries(): string {
   return lines.join("\n");
 }
 
+/** The time series with column a × `aFactor` and y × `yFactor`, written as the file would hold them. */
+function scaledSeries(aFactor: number, yFactor: number): string {
+  const [header, ...rows] = timeSeries().split("\n");
+  return [header, ...rows.map((line) => {
+    const [t, a, b, y] = line.split(",").map(Number);
+    return [t, a * aFactor, b, y * yFactor].map(String).join(",");
+  })].join("\n");
+}
+
 const files: Record<string, string> = {
   "time.csv": timeSeries(),
+  "huge-a.csv": scaledSeries(1e200, 1),
+  "huge-y.csv": scaledSeries(1, 1e200),
   "good.csv": "a,b,y,w,site\n1,5,3.1,1,n\n2,3,4.9,1,n\n3,4,7.2,2,s\n4,1,9.1,1,s\n5,2,10.8,1,e\n6,6,13.2,1,e\n",
   "constant.csv": "a,y\n1,5\n2,5\n3,5\n",
   "negative-weight.csv": "a,y,w\n1,2,1\n2,3,-1\n3,5,1\n",
@@ -52,6 +63,30 @@ describe("runCommand", () => {
     for (const option of ["--mix", "--strength", "--folds", "--seed", "--rule", "--json", "--predictors", "--exclude", "--error", "--count", "--low-end", "--time-ordered", "--fold-column", "--weights-column", "--no-standardize", "--no-intercept"]) {
       expect(outcome.stdout).toContain(option);
     }
+  });
+
+  it("a predictor × 1e200 fits: its coefficient ÷ 1e200, the others as before (not 'constant')", () => {
+    const json = (file: string): { coefficients: Record<string, number>; warnings: string[]; mix: number; strength: number } => {
+      const outcome = runCommand([file, "--target", "y", "--exclude", "t", "--folds", "4", "--count", "30", "--json"], read);
+      expect(outcome.exitCode).toBe(0);
+      return JSON.parse(outcome.stdout);
+    };
+    const plain = json("time.csv");
+    const huge = json("huge-a.csv");
+    expect(huge.warnings).toEqual(plain.warnings);
+    expect(huge.mix).toBe(plain.mix);
+    // the unit-free contract (engine/fit.ts): a column × c moves its coefficient by 1/c; 1e-8 as in test/engine/extremes.test.ts
+    expect(Math.abs((huge.coefficients.a * 1e200) / plain.coefficients.a - 1)).toBeLessThan(1e-8);
+    expect(Math.abs(huge.coefficients.b / plain.coefficients.b - 1)).toBeLessThan(1e-8);
+  });
+
+  it("a target × 1e200 fits; a cross-validated MSE beyond the doubles is null in JSON with a warning", () => {
+    const outcome = runCommand(["huge-y.csv", "--target", "y", "--exclude", "t", "--folds", "4", "--count", "30", "--json"], read);
+    expect(outcome.exitCode).toBe(0);
+    const parsed = JSON.parse(outcome.stdout);
+    expect(parsed.cv.error).toBeNull();
+    expect(parsed.warnings.join(" ")).toMatch(/cross-validated mean squared errors are above 1\.8e308/);
+    expect(Number.isFinite(parsed.coefficients.a)).toBe(true);
   });
 
   it("fits with weights and fold labels from columns", () => {
