@@ -311,7 +311,10 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
     throw new InputError("setting", `gram updates keep a ${p} × ${p} matrix per fold; they are limited to ${MAX_GRAM_PREDICTORS} predictors: use residual updates`);
   }
   const gram = updates === "gram" || (updates === "auto" && n >= p && p <= 500);
+  // Checkpoints between the O(n·p) passes over the input (checks, working copy).
+  throwIfCancelled(options.signal);
   const work = workingCopy(x, y, weights);
+  throwIfCancelled(options.signal);
   // Constant target (the rule problem.ts applies to columns): nothing to predict.
   const omega = new Float64Array(n);
   let total = 0;
@@ -572,6 +575,7 @@ function foldErrors(
     // anchors are these shifts), never from b0 itself, which a large offset would make imprecise.
     const nz = new Int32Array(p);
     for (let k = 0; k < run.strengths.length; k++) {
+      throwIfCancelled(data.settings.signal);
       const { coefficients } = toOriginal(problem, run.coefficients[k]);
       let c = std.yAnchor - shiftY + std.yOffset;
       let count = 0;
@@ -601,6 +605,7 @@ function foldErrors(
   // no large intercept cancels against large slopes × values.
   const prediction = new Float64Array(m);
   for (let k = 0; k < run.strengths.length; k++) {
+    throwIfCancelled(data.settings.signal);
     const { coefficients } = toOriginal(problem, run.coefficients[k]);
     prediction.fill(std.yOffset);
     for (let j = 0; j < p; j++) {
@@ -628,12 +633,14 @@ function spectralFoldErrors(
   strengths: readonly number[],
   held: HeldOut,
   measure: ErrorMeasure,
+  signal: CancelSignal | undefined,
 ): Float64Array {
-  const predictAt = new SpectralRidge(problem, penalty.multipliers).heldOutPredictor(held.x);
+  const predictAt = new SpectralRidge(problem, penalty.multipliers, signal).heldOutPredictor(held.x);
   const prediction = new Float64Array(held.y.length);
   const errors = new Float64Array(strengths.length);
   const anchor = problem.std.yAnchor;
   for (let k = 0; k < strengths.length; k++) {
+    throwIfCancelled(signal);
     predictAt(strengths[k], prediction);
     let loss = 0;
     for (let t = 0; t < prediction.length; t++) {
@@ -745,6 +752,7 @@ export function* fitSteps(
     }
   }
   const plan = fixed === null ? makePlan(data, options) : null;
+  throwIfCancelled(data.settings.signal);
   const problems = buildProblems(data, plan);
   const full = problems.full;
   const constantColumns: string[] = [];
@@ -808,7 +816,7 @@ export function* fitSteps(
       const heldOut = (): HeldOut => (heldOutCache[f] ??= gatherHeldOut(data, activePlan.blocks[activePlan.validateBlock[f]]));
       if (problem.kind === "naive" && data.settings.exactRidge && spectralApplies(problem, foldPenalty)) {
         // Exact ridge in kernel form: score held-out rows straight from the factorization.
-        errors.push(spectralFoldErrors(problem, foldPenalty, run.strengths, heldOut(), measure));
+        errors.push(spectralFoldErrors(problem, foldPenalty, run.strengths, heldOut(), measure, data.settings.signal));
       } else {
         const foldRun = runPath(problem, foldPenalty, run.strengths, { ...pathSettings, stopWhenSaturated: false });
         sweeps += foldRun.sweeps;

@@ -62,9 +62,20 @@ export interface PathRun {
   solver: "descent" | "spectral";
 }
 
-/** True when the exact eigendecomposition path applies (α = 0, positive multipliers, no bounds). */
+/**
+ * Largest row count for the residual form's n × n kernel factorization when rows outnumber
+ * predictors (residual updates asked for on tall data): beyond it the kernel would not fit in
+ * memory (100000 rows: 80 GB), and coordinate descent solves the ridge path instead.
+ */
+export const MAX_KERNEL_ROWS = 2000;
+
+/**
+ * True when the exact eigendecomposition path applies (α = 0, positive multipliers, no bounds;
+ * in residual form, at most max(p, MAX_KERNEL_ROWS) rows).
+ */
 export function spectralApplies(problem: TrainingProblem, penalty: PenaltySpec): boolean {
   if (penalty.mix !== 0) return false;
+  if (problem.kind === "naive" && problem.n > Math.max(problem.p, MAX_KERNEL_ROWS)) return false;
   for (let j = 0; j < problem.p; j++) {
     if (problem.std.frozen[j]) continue;
     if (!(penalty.multipliers[j] > 0)) return false;
@@ -98,7 +109,7 @@ export function runPath(
 ): PathRun {
   const solver = new CoordinateDescent(problem, penalty, settings);
   const top = solver.fitUnpenalized();
-  const spectral = settings.exactRidge && spectralApplies(problem, penalty) ? new SpectralRidge(problem, penalty.multipliers) : null;
+  const spectral = settings.exactRidge && spectralApplies(problem, penalty) ? new SpectralRidge(problem, penalty.multipliers, settings.signal) : null;
   const run: PathRun = {
     strengths: [],
     coefficients: [],

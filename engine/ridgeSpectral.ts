@@ -12,11 +12,13 @@
  * §18.3.5). Usable only when every free multiplier is positive and no bound is finite; the
  * caller falls back to coordinate descent otherwise.
  */
-import { EigenvalueDecomposition, Matrix } from "ml-matrix";
+import { symmetricEigen } from "./eigen";
+import { CancelSignal, throwIfCancelled } from "./errors";
 import { dotRange, TrainingProblem } from "./problem";
 
 export class SpectralRidge {
   private readonly problem: TrainingProblem;
+  private readonly signal: CancelSignal | undefined;
   private readonly free: Int32Array;
   private readonly rootMultiplier: Float64Array;
   private readonly values: Float64Array;
@@ -28,8 +30,10 @@ export class SpectralRidge {
   /** Σω ỹ² less the part of it the factorization's range holds (the part no λ can fit). */
   private readonly unreachable: number;
 
-  constructor(problem: TrainingProblem, multipliers: Float64Array) {
+  /** `signal` is read between rows of the kernel, inside the eigen-decomposition (eigen.ts) and between rows of held-out set-up. */
+  constructor(problem: TrainingProblem, multipliers: Float64Array, signal?: CancelSignal) {
     this.problem = problem;
+    this.signal = signal;
     const frozen = problem.std.frozen;
     const freeList: number[] = [];
     for (let j = 0; j < problem.p; j++) if (!frozen[j]) freeList.push(j);
@@ -70,6 +74,8 @@ export class SpectralRidge {
       const rootOmega = new Float64Array(n);
       for (let i = 0; i < n; i++) rootOmega[i] = Math.sqrt(omega[i]);
       for (let i = 0; i < n; i++) {
+        // Row i of the kernel costs (n − i)·p: a checkpoint per row.
+        throwIfCancelled(signal);
         for (let k = i; k < n; k++) {
           const v = dotRange(rowsMajor, i * f, rowsMajor, k * f, f) * rootOmega[i] * rootOmega[k];
           symmetric[i * n + k] = v;
@@ -81,18 +87,11 @@ export class SpectralRidge {
       for (let i = 0; i < n; i++) rhs[i] = rootOmega[i] * yc[i];
     }
     const size = this.size;
-    const decomposition = new EigenvalueDecomposition(Matrix.from1DArray(size, size, symmetric), {
-      assumeSymmetric: true,
-    });
-    const eigenvalues = decomposition.realEigenvalues;
-    const vectorMatrix = decomposition.eigenvectorMatrix;
-    this.values = new Float64Array(size);
-    this.vectors = new Float64Array(size * size);
-    for (let t = 0; t < size; t++) {
-      // Tiny negative eigenvalues are rounding; the matrix is positive semidefinite.
-      this.values[t] = Math.max(eigenvalues[t], 0);
-      for (let i = 0; i < size; i++) this.vectors[t * size + i] = vectorMatrix.get(i, t);
-    }
+    const decomposition = symmetricEigen(symmetric, size, signal);
+    this.values = decomposition.values;
+    this.vectors = decomposition.vectors;
+    // Tiny negative eigenvalues are rounding; the matrix is positive semidefinite.
+    for (let t = 0; t < size; t++) this.values[t] = Math.max(this.values[t], 0);
     this.projected = new Float64Array(size);
     for (let t = 0; t < size; t++) {
       let s = 0;
@@ -170,6 +169,8 @@ export class SpectralRidge {
     const cross = new Float64Array(rows * n);
     const standardized = new Float64Array(rows);
     for (let a = 0; a < this.free.length; a++) {
+      // Each free column adds rows · n products: checkpoints every 64 columns.
+      if (a % 64 === 63) throwIfCancelled(this.signal);
       const j = this.free[a];
       const inverse = 1 / (this.rootMultiplier[a] * this.rootMultiplier[a]);
       const off = j * rows;
@@ -188,6 +189,7 @@ export class SpectralRidge {
     const projector = new Float64Array(rows * size);
     const weighted = new Float64Array(n);
     for (let t = 0; t < rows; t++) {
+      throwIfCancelled(this.signal);
       for (let i = 0; i < n; i++) weighted[i] = cross[t * n + i] * Math.sqrt(omega[i]);
       for (let e = 0; e < size; e++) projector[t * size + e] = dotRange(weighted, 0, this.vectors, e * size, n);
     }
