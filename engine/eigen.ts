@@ -17,6 +17,7 @@
  * Storage: `vectors` is size × size with eigenvector t in vectors[t·size .. (t + 1)·size), the
  * layout SpectralRidge reads; eigenvalues ascend.
  */
+import { hypotenuse } from "./elementary";
 import { CancelSignal, throwIfCancelled } from "./errors";
 
 export interface SymmetricEigen {
@@ -129,19 +130,6 @@ function tridiagonalize(n: number, e: Float64Array, d: Float64Array, v: Float64A
   }
   v[(n - 1) * n + n - 1] = 1;
   e[0] = 0;
-}
-
-/** sqrt(a² + b²) without overflow, in the order ml-matrix computes it. */
-function hypotenuse(a: number, b: number): number {
-  if (Math.abs(a) > Math.abs(b)) {
-    const r = b / a;
-    return Math.abs(a) * Math.sqrt(1 + r * r);
-  }
-  if (b !== 0) {
-    const r = a / b;
-    return Math.abs(b) * Math.sqrt(1 + r * r);
-  }
-  return 0;
 }
 
 /** Implicit QL iterations on the tridiagonal (d, e), rotations accumulated in v; eigenvalues sorted ascending (tql2). */

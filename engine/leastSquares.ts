@@ -46,6 +46,7 @@
  * Example: x = [[1], [2], [3]], y = [1, 3, 5] gives intercept −1, coefficients [2], residual
  * standard deviation 0 and r2 = 1.
  */
+import { hypotenuse } from "./elementary";
 import { CancelSignal, throwIfCancelled } from "./errors";
 import { ColumnMatrix } from "./matrix";
 import { CONSTANT_SPREAD_RATIO } from "./problem";
@@ -187,7 +188,7 @@ export function leastSquares(
     const columnStart = j * m;
     const diagonal = work[columnStart + k];
     const belowLength = euclideanLength(work, columnStart + k + 1, m - k - 1);
-    const remaining = Math.hypot(diagonal, belowLength);
+    const remaining = hypotenuse(diagonal, belowLength);
     if (remaining <= aliasThreshold[j]) {
       aliased.push(j);
       continue;

@@ -3,7 +3,7 @@
  * weighted version (Σ w·loss / Σ w). Pairs where either value is not finite are skipped;
  * `count` reports how many were used.
  */
-import { powerOfTwo } from "./scale";
+import { binaryExponent, powerOfTwo } from "./scale";
 
 export interface Score {
   /** Mean absolute error. */
@@ -44,7 +44,7 @@ const SAFE_HIGH = 2 ** 500;
  */
 function scaleFor(largest: number): number {
   if (!(largest > 0) || (largest >= SAFE_LOW && largest <= SAFE_HIGH)) return 1;
-  const exponent = Math.min(1000, Math.max(-1000, Math.floor(Math.log2(largest))));
+  const exponent = Math.min(1000, Math.max(-1000, binaryExponent(largest)));
   return powerOfTwo(-exponent);
 }
 

@@ -3,6 +3,7 @@
  */
 import { CancelledError, CancelSignal } from "./errors";
 import { CoordinateDescent, DescentSettings, PenaltySpec } from "./descent";
+import { portableExp, portableLog } from "./elementary";
 import type { TrainingProblem } from "./problem";
 import { SpectralRidge } from "./ridgeSpectral";
 
@@ -26,9 +27,11 @@ export const MIN_POINTS_BEFORE_STOP = 5;
 export function strengthGrid(top: number, count: number, lowEndRatio: number): number[] {
   if (count === 1) return [top];
   const out = new Array<number>(count);
-  const logTop = Math.log(top);
-  const step = Math.log(lowEndRatio) / (count - 1);
-  for (let k = 0; k < count; k++) out[k] = Math.exp(logTop + k * step);
+  // portableLog/portableExp rather than Math.log/Math.exp: the same grid, bit for bit, in every
+  // JavaScript engine (the add-in's worker and the command line), so fits down it are too.
+  const logTop = portableLog(top);
+  const step = portableLog(lowEndRatio) / (count - 1);
+  for (let k = 0; k < count; k++) out[k] = portableExp(logTop + k * step);
   out[0] = top;
   return out;
 }
