@@ -21,7 +21,7 @@ import { leastSquares } from "./leastSquares";
 import { ColumnMatrix, selectRows } from "./matrix";
 import { LinearModel, linearModel, predict } from "./model";
 import { score, Score } from "./metrics";
-import { CancelSignal, PathRun, runPath, spectralApplies, strengthGrid, topStrength } from "./path";
+import { CancelSignal, PathRun, ridgeFactorization, runPath, spectralApplies, strengthGrid, topStrength } from "./path";
 import { SpectralRidge } from "./ridgeSpectral";
 import {
   accumulateSums,
@@ -634,12 +634,13 @@ export function* fitSteps(
   let sweeps = 0;
   for (const mix of data.mixes) {
     const penalty = penaltyFor(full, data, mix);
-    const top = topStrength(full, penalty, data.settings);
+    const factorization = ridgeFactorization(full, penalty, data.settings.exactRidge);
+    const top = topStrength(full, penalty, data.settings, factorization);
     if (!(top > 0)) {
       throw new InputError("constant-target", "the unpenalized predictors already explain the target exactly: there is nothing left for the penalty to choose");
     }
     const grid = strengthGrid(top, data.strengthCount, data.lowEndRatio);
-    const run = runPath(full, penalty, grid, pathSettings);
+    const run = runPath(full, penalty, grid, pathSettings, factorization);
     sweeps += run.sweeps;
     allKkt = Math.max(allKkt, run.maxKktViolation);
     if (run.notConverged.length > 0) allConverged = false;
@@ -764,10 +765,11 @@ function formatNumber(value: number): string {
 function fixedResult(data: Prepared, full: TrainingProblem, strength: number, constantColumns: string[], warnings: FitWarning[]): FitResult {
   const mix = data.mixes[0];
   const penalty = penaltyFor(full, data, mix);
-  const top = topStrength(full, penalty, data.settings);
+  const factorization = ridgeFactorization(full, penalty, data.settings.exactRidge);
+  const top = topStrength(full, penalty, data.settings, factorization);
   const grid = top > 0 ? strengthGrid(top, data.strengthCount, data.lowEndRatio).filter((s) => s > strength) : [];
   grid.push(strength);
-  const run = runPath(full, penalty, grid, { ...data.settings, stopWhenSaturated: false });
+  const run = runPath(full, penalty, grid, { ...data.settings, stopWhenSaturated: false }, factorization);
   if (run.notConverged.length > 0) {
     warnings.push({ code: "not-converged", message: "the fit hit the sweep cap before converging: raise the sweep cap or loosen the tolerance" });
   }

@@ -4,10 +4,18 @@
 import { CancelledError } from "./errors";
 import { CoordinateDescent, DescentSettings, PenaltySpec } from "./descent";
 import type { TrainingProblem } from "./problem";
-import { SpectralRidge } from "./ridgeSpectral";
+import { penalizedSpectrum, SpectralRidge, strengthForDegreesOfFreedom } from "./ridgeSpectral";
 
-/** Mix used in place of α = 0 to define the top of a ridge grid (λ_max would be infinite). */
-export const RIDGE_TOP_MIX = 0.001;
+/**
+ * Effective degrees of freedom of the penalized terms at the top of a ridge grid (α = 0 has no
+ * strength at which every coefficient is zero). With shrink factors s_t = d_t²/(d_t² + λ)
+ * summing to df = δ, each s_t ≤ δ, and the ridge fit explains Σ_t (2s_t − s_t²) q_t² of the
+ * target's variance, where least squares explains Σ_t q_t² (q_t: the target's part along
+ * component t). So at the top the training R² is at most 2δ − δ² = 0.0975 of least squares'
+ * (under a tenth): the grid starts near the intercept-only fit, as a lasso grid does at λ_max,
+ * whatever the data's scale, correlation or number of predictors.
+ */
+export const RIDGE_TOP_DF = 0.05;
 
 /**
  * Path stops once the fraction of variance explained reaches this value…
@@ -76,18 +84,39 @@ export function spectralApplies(problem: TrainingProblem, penalty: PenaltySpec):
 }
 
 /**
- * Top of the grid for this problem and penalty: fits the unpenalized predictors, then the
- * smallest λ with every penalized coefficient zero (α replaced by RIDGE_TOP_MIX when α = 0).
- * Returns 0 when nothing is left to explain.
+ * The exact ridge factorization of this problem when it applies and is wanted (see
+ * spectralApplies), else null. Built once per problem: it serves both the top of the grid and
+ * every point of the path.
  */
-export function topStrength(problem: TrainingProblem, penalty: PenaltySpec, settings: DescentSettings): number {
+export function ridgeFactorization(problem: TrainingProblem, penalty: PenaltySpec, exactRidge: boolean): SpectralRidge | null {
+  return exactRidge && spectralApplies(problem, penalty) ? new SpectralRidge(problem, penalty.multipliers) : null;
+}
+
+/**
+ * Top of the grid for this problem and penalty, after fitting the unpenalized predictors:
+ * - α > 0: the smallest λ with every penalized coefficient zero (λ_max, Friedman, Hastie &
+ *   Tibshirani 2010 §2.5, with multipliers and bounds).
+ * - α = 0: the λ at which the ridge fit's effective degrees of freedom over the penalized terms,
+ *   df(λ) = Σ_t d_t²/(d_t² + λ) (ESL 2nd ed. eq. 3.50), equal RIDGE_TOP_DF; d_t² are the
+ *   eigenvalues of the objective's penalized Gram matrix with unpenalized terms projected out
+ *   (ridgeSpectral.ts penalizedSpectrum). `spectral`, when given, supplies them without a
+ *   second factorization (no multiplier is 0 then). Bounds don't move this top: it places the
+ *   grid, and the bounded path is solved down it by coordinate descent.
+ * Returns 0 when nothing is left to explain (no penalized predictor correlates with what the
+ * unpenalized ones leave, in a direction its bounds allow).
+ */
+export function topStrength(problem: TrainingProblem, penalty: PenaltySpec, settings: DescentSettings, spectral: SpectralRidge | null = null): number {
   const solver = new CoordinateDescent(problem, penalty, settings);
   solver.fitUnpenalized();
-  return solver.topStrength(penalty.mix > 0 ? penalty.mix : RIDGE_TOP_MIX);
+  if (penalty.mix > 0) return solver.topStrength(penalty.mix);
+  if (!(solver.topStrength(1) > 0)) return 0;
+  const values = spectral ? spectral.eigenvalues : penalizedSpectrum(problem, penalty.multipliers);
+  return strengthForDegreesOfFreedom(values, RIDGE_TOP_DF);
 }
 
 /**
  * Solves down `strengths` (decreasing), each point warm-started from the previous one.
+ * `factorization`: this problem's ridgeFactorization when the caller already built it.
  * Cost per point: sweeps × (active set × p) in gram form, sweeps × (active set × n) in
  * naive form, plus one O(n·p) KKT pass in naive form; the spectral ridge path costs one
  * factorization, then O(p²) or O(n·p) per point.
@@ -97,10 +126,11 @@ export function runPath(
   penalty: PenaltySpec,
   strengths: readonly number[],
   settings: PathSettings,
+  factorization: SpectralRidge | null = null,
 ): PathRun {
   const solver = new CoordinateDescent(problem, penalty, settings);
   const top = solver.fitUnpenalized();
-  const spectral = settings.exactRidge && spectralApplies(problem, penalty) ? new SpectralRidge(problem, penalty.multipliers) : null;
+  const spectral = factorization ?? ridgeFactorization(problem, penalty, settings.exactRidge);
   const run: PathRun = {
     strengths: [],
     coefficients: [],
