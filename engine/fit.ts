@@ -21,7 +21,7 @@ import { leastSquares } from "./leastSquares";
 import { ColumnMatrix, selectRows } from "./matrix";
 import { LinearModel, linearModel, predict } from "./model";
 import { score, Score } from "./metrics";
-import { CancelSignal, PathRun, ridgeFactorization, runPath, spectralApplies, strengthGrid, topStrength } from "./path";
+import { CancelSignal, EarlyStop, PathRun, ridgeFactorization, runPath, spectralApplies, strengthGrid, topStrength } from "./path";
 import { SpectralRidge } from "./ridgeSpectral";
 import {
   accumulateSums,
@@ -89,8 +89,12 @@ export interface FitOptions {
   tolerance?: number;
   /** Sweep cap per strength. Default 10000. */
   maxSweeps?: number;
-  /** Stop a path once the fit saturates (see path.ts). Default true. */
-  stopWhenSaturated?: boolean;
+  /**
+   * End the full-data paths once a tenfold drop in strength improves the training fit by less
+   * than 1% (path.ts PLATEAU_SPAN, PLATEAU_GAIN). Default false: every path covers its whole
+   * grid, except that a path always ends once its training fit is exact (path.ts EXACT_FIT_RATIO).
+   */
+  stopEarly?: boolean;
   /** Term names, one per predictor column. Default x1, x2, … */
   names?: readonly string[];
   /** Called after each unit of work (one mix's full-data path or one fold of one mix). */
@@ -177,8 +181,8 @@ export interface FitResult {
     maxKktViolationAllFits: number;
     converged: boolean;
     strongRuleMisses: number;
-    /** Where the chosen mix's path stopped because the fit saturated, or null. */
-    earlyStop: { index: number; strength: number } | null;
+    /** Where and why the chosen mix's path ended before its grid did, or null. */
+    earlyStop: { index: number; strength: number; reason: EarlyStop } | null;
     lowEndRatio: number;
     strengthCount: number;
   };
@@ -205,7 +209,7 @@ interface Prepared {
   strengthCount: number;
   lowEndRatio: number;
   settings: { tolerance: number; maxSweeps: number; exactRidge: boolean; signal?: CancelSignal };
-  stopWhenSaturated: boolean;
+  stopEarly: boolean;
 }
 
 function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target: ArrayLike<number>, options: FitOptions): Prepared {
@@ -292,7 +296,7 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
     strengthCount,
     lowEndRatio,
     settings: { tolerance, maxSweeps, exactRidge: options.exactRidge ?? true, signal: options.signal },
-    stopWhenSaturated: options.stopWhenSaturated ?? true,
+    stopEarly: options.stopEarly ?? false,
   };
 }
 
@@ -498,9 +502,14 @@ function spectralFoldErrors(
  * Mean and standard error over folds at each strength. Folds are weighted by their held-out
  * weight W_k: mean = Σ W_k e_k / Σ W_k; SE = sqrt( [Σ W_k (e_k − mean)² / Σ W_k] · K/(K − 1) / K ),
  * which for equal folds is the SD over folds (divisor K − 1) / √K.
+ * `points` is the full-data path's length (shorter than the grid when that path ended early);
+ * every fold has an error for each of those strengths, never fewer (fold paths don't end early).
  */
 function summarise(errors: Float64Array[], foldWeights: number[], points: number): { mean: Float64Array; se: Float64Array } {
   const K = errors.length;
+  for (const fold of errors) {
+    if (fold.length !== points) throw new Error(`a fold has ${fold.length} errors for a path of ${points} strengths`);
+  }
   const mean = new Float64Array(points);
   const se = new Float64Array(points);
   let totalWeight = 0;
@@ -627,7 +636,7 @@ export function* fitSteps(
     for (const i of activePlan.blocks[b]) s += data.weights ? data.weights[i] : 1;
     return s;
   });
-  const pathSettings = { ...data.settings, stopWhenSaturated: data.stopWhenSaturated };
+  const pathSettings = { ...data.settings, stopWhenExact: true, stopWhenFlat: data.stopEarly };
   const outcomes: MixOutcome[] = [];
   let allKkt = 0;
   let allConverged = true;
@@ -656,7 +665,9 @@ export function* fitSteps(
         // Exact ridge in kernel form: score held-out rows straight from the factorization.
         errors.push(spectralFoldErrors(problem, foldPenalty, run.strengths, heldOut(), measure));
       } else {
-        const foldRun = runPath(problem, foldPenalty, run.strengths, { ...pathSettings, stopWhenSaturated: false });
+        // Every fold solves exactly the strengths the full-data path computed (a fold's path
+        // never ends on its own), so each strength's error averages all K folds.
+        const foldRun = runPath(problem, foldPenalty, run.strengths, { ...pathSettings, stopWhenExact: false, stopWhenFlat: false });
         sweeps += foldRun.sweeps;
         allKkt = Math.max(allKkt, foldRun.maxKktViolation);
         if (foldRun.notConverged.length > 0) allConverged = false;
@@ -716,9 +727,9 @@ export function* fitSteps(
       table.push({ mix: outcome.mix, strength: outcome.run.strengths[k], error: outcome.mean[k], se: outcome.se[k], nonzero: outcome.run.nonzero[k] });
     }
   }
-  if (bestIndex === best.run.strengths.length - 1 && !best.run.stoppedEarly) {
+  if (bestIndex === best.run.strengths.length - 1 && best.run.earlyStop === null) {
     warnings.push({
-      code: "early-stop",
+      code: "grid-edge",
       message: `the lowest cross-validated error is at the weakest strength tried (${formatNumber(best.run.strengths[bestIndex])}): a smaller low-end ratio may find a better model`,
     });
   }
@@ -769,7 +780,7 @@ function fixedResult(data: Prepared, full: TrainingProblem, strength: number, co
   const top = topStrength(full, penalty, data.settings, factorization);
   const grid = top > 0 ? strengthGrid(top, data.strengthCount, data.lowEndRatio).filter((s) => s > strength) : [];
   grid.push(strength);
-  const run = runPath(full, penalty, grid, { ...data.settings, stopWhenSaturated: false }, factorization);
+  const run = runPath(full, penalty, grid, { ...data.settings, stopWhenExact: false, stopWhenFlat: false }, factorization);
   if (run.notConverged.length > 0) {
     warnings.push({ code: "not-converged", message: "the fit hit the sweep cap before converging: raise the sweep cap or loosen the tolerance" });
   }
@@ -801,11 +812,15 @@ function assemble(
   const intercept = intercepts[index];
   const model = linearModel(data.names, intercept, coefficients);
   const predictions = predict(model, data.x);
-  if (run.stoppedEarly) {
+  if (run.earlyStop) {
     const last = run.strengths.length - 1;
+    const where = `the path stopped at strength ${formatNumber(run.strengths[last])} (point ${last + 1} of ${data.strengthCount})`;
     warnings.push({
       code: "early-stop",
-      message: `the path stopped at strength ${formatNumber(run.strengths[last])} (point ${last + 1} of ${data.strengthCount}) because the fit stopped improving`,
+      message:
+        run.earlyStop === "exact-fit"
+          ? `${where}: the fit reproduces the training rows exactly there, so weaker strengths can't fit them any better`
+          : `${where}, as 'stop early' allows: over the last tenfold drop in strength the fit improved by less than 1%`,
     });
   }
   return {
@@ -842,7 +857,9 @@ function assemble(
       maxKktViolationAllFits: run.maxKktViolation,
       converged: run.notConverged.length === 0,
       strongRuleMisses: run.strongRuleMisses,
-      earlyStop: run.stoppedEarly ? { index: run.strengths.length - 1, strength: run.strengths[run.strengths.length - 1] } : null,
+      earlyStop: run.earlyStop
+        ? { index: run.strengths.length - 1, strength: run.strengths[run.strengths.length - 1], reason: run.earlyStop }
+        : null,
       lowEndRatio: data.lowEndRatio,
       strengthCount: data.strengthCount,
     },

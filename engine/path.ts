@@ -18,14 +18,27 @@ import { penalizedSpectrum, SpectralRidge, strengthForDegreesOfFreedom } from ".
 export const RIDGE_TOP_DF = 0.05;
 
 /**
- * Path stops once the fraction of variance explained reaches this value…
- * (Friedman, Hastie & Tibshirani 2010 §2.5 stop the path when the fit saturates.)
+ * A full-data path ends early, always, once its training fit is exact: the residual mean
+ * square at or below this fraction of the target's variance (about six digits of the target's
+ * spread reproduced; e.g. predictors ≥ rows at weak strengths). Weaker strengths could only
+ * fit the same rows as well again, and the model would interpolate noise. 1e-12 sits well above
+ * the rounding of the residual's computation (~1e-16 of the variance) and far below any real
+ * fit's residual.
  */
-export const SATURATED_R2 = 0.999;
-/** …or improves by less than this fraction of itself from one strength to the next. */
-export const SATURATED_GAIN = 1e-5;
-/** Points always computed before the saturation test may stop a path. */
-export const MIN_POINTS_BEFORE_STOP = 5;
+export const EXACT_FIT_RATIO = 1e-12;
+/**
+ * With the `stop early` setting, a path also ends once a tenfold drop in strength (from the
+ * strength PLATEAU_SPAN times the current one) lowered the training residual mean square by
+ * less than PLATEAU_GAIN of its value there: the fit has stopped changing, so the weaker
+ * strengths below would give the same model. Measured per tenfold drop, the rule does not
+ * depend on how densely the grid is laid out.
+ */
+export const PLATEAU_SPAN = 10;
+/** See PLATEAU_SPAN: 1% of the residual mean square per tenfold drop. */
+export const PLATEAU_GAIN = 0.01;
+
+/** Why a path ended before its grid did. */
+export type EarlyStop = "exact-fit" | "no-gain";
 
 /**
  * Log-spaced strengths from `top` down to `top × lowEndRatio`, `count` values.
@@ -46,8 +59,10 @@ export interface CancelSignal {
 }
 
 export interface PathSettings extends DescentSettings {
-  /** Stop when the fit saturates (see SATURATED_R2 / SATURATED_GAIN). */
-  stopWhenSaturated: boolean;
+  /** End the path once the training fit is exact (see EXACT_FIT_RATIO). */
+  stopWhenExact: boolean;
+  /** End the path once a tenfold drop in strength no longer improves the fit (see PLATEAU_SPAN). */
+  stopWhenFlat: boolean;
   /** Use the eigendecomposition for ridge when allowed (exact, faster); else coordinate descent. */
   exactRidge: boolean;
   signal?: CancelSignal;
@@ -67,8 +82,8 @@ export interface PathRun {
   /** Indices of strengths at which the sweep cap was hit. */
   notConverged: number[];
   strongRuleMisses: number;
-  /** True when the saturation test ended the path before the grid's end. */
-  stoppedEarly: boolean;
+  /** Why the path ended before the grid's end, or null when it covered the whole grid. */
+  earlyStop: EarlyStop | null;
   solver: "descent" | "spectral";
 }
 
@@ -140,22 +155,26 @@ export function runPath(
     maxKktViolation: 0,
     notConverged: top.converged ? [] : [0],
     strongRuleMisses: 0,
-    stoppedEarly: false,
+    earlyStop: null,
     solver: spectral ? "spectral" : "descent",
   };
   const yVariance = problem.std.yVariance;
   const exact = new Float64Array(problem.p);
+  // Residual mean square at each computed point, and the point a tenfold drop above the
+  // current one (PLATEAU_SPAN; strengths decrease, so it only moves forward).
+  const residuals: number[] = [];
+  let anchor = 0;
   for (let k = 0; k < strengths.length; k++) {
     if (settings.signal?.aborted) throw new CancelledError();
     const lambda = strengths[k];
     let kkt: number;
-    let r2: number;
+    let residual: number;
     if (spectral) {
       spectral.coefficientsAt(lambda, exact);
       // The residual's size comes from the factorization (O(n) or O(p)); the gradient, which
       // costs a pass over the data in residual form, is rebuilt to certify the path's ends
       // (gram form: every point, it is cheap there).
-      r2 = yVariance > 0 ? 1 - spectral.residualMeanSquareAt(lambda) / yVariance : 0;
+      residual = spectral.residualMeanSquareAt(lambda);
       if (problem.kind === "gram" || k === 0 || k === strengths.length - 1) {
         solver.setCoefficients(exact);
         kkt = solver.kktViolation(lambda);
@@ -168,8 +187,9 @@ export function runPath(
       run.strongRuleMisses += report.strongRuleMisses;
       if (!report.converged) run.notConverged.push(k);
       kkt = report.kktViolation;
-      r2 = yVariance > 0 ? 1 - solver.residualMeanSquare() / yVariance : 0;
+      residual = solver.residualMeanSquare();
     }
+    const r2 = yVariance > 0 ? 1 - residual / yVariance : 0;
     if (kkt > run.maxKktViolation) run.maxKktViolation = kkt;
     const coef = Float64Array.from(spectral ? exact : solver.coef);
     let nonzero = 0;
@@ -178,10 +198,18 @@ export function runPath(
     run.coefficients.push(coef);
     run.r2.push(r2);
     run.nonzero.push(nonzero);
-    if (settings.stopWhenSaturated && k + 1 >= MIN_POINTS_BEFORE_STOP && k + 1 < strengths.length) {
-      const previous = run.r2[k - 1];
-      if (r2 >= SATURATED_R2 || r2 - previous < SATURATED_GAIN * r2) {
-        run.stoppedEarly = true;
+    residuals.push(residual);
+    if (k + 1 === strengths.length) break;
+    if (settings.stopWhenExact && residual <= EXACT_FIT_RATIO * yVariance) {
+      run.earlyStop = "exact-fit";
+      break;
+    }
+    if (settings.stopWhenFlat) {
+      // 1e-9: a grid laid out as exact powers of ten may land a hair off in floating point.
+      const reach = PLATEAU_SPAN * lambda * (1 - 1e-9);
+      while (anchor + 1 < k && strengths[anchor + 1] >= reach) anchor++;
+      if (strengths[anchor] >= reach && residuals[anchor] - residual < PLATEAU_GAIN * residuals[anchor]) {
+        run.earlyStop = "no-gain";
         break;
       }
     }

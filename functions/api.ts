@@ -107,6 +107,7 @@ function fitOptions(dataset: Dataset, settings: Settings, mixes: number[] | null
   }
   if (settings.gridSize !== null) options.strengthCount = settings.gridSize;
   if (settings.lowEnd !== null) options.lowEndRatio = settings.lowEnd;
+  if (settings.stopEarly !== null) options.stopEarly = settings.stopEarly;
   if (settings.folds !== null) options.folds = settings.folds;
   if (settings.seed !== null) options.seed = settings.seed;
   if (dataset.foldLabels) options.foldLabels = dataset.foldLabels;

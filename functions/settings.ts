@@ -19,6 +19,7 @@
  * | `intercept`      |                                    | yes / no                                                  | yes                      |
  * | `grid size`      | `strength count`                   | whole number 1 to 10000                                   | 100                      |
  * | `low end`        | `low end ratio`                    | number strictly between 0 and 1                           | 1e-4 (1e-2 when predictors ≥ rows) |
+ * | `stop early`     | `early stop`                       | yes / no: end a path once a tenfold drop in strength improves the fit by < 1% | no |
  * | `strength`       | `fixed strength`, `lambda`         | number ≥ 0: fit this strength only, no cross-validation   | (cross-validate)         |
  * | `fold column`    | `fold labels`                      | a predictors column name: its values label the folds     | (random folds)           |
  * | `time order`     | `time ordered`                     | yes / no: rows are in time order                          | no                       |
@@ -62,6 +63,7 @@ export interface Settings {
   intercept: boolean | null;
   gridSize: number | null;
   lowEnd: number | null;
+  stopEarly: boolean | null;
   strength: number | null;
   foldColumn: string | null;
   timeOrdered: boolean | null;
@@ -84,6 +86,7 @@ export function defaultSettings(): Settings {
     intercept: null,
     gridSize: null,
     lowEnd: null,
+    stopEarly: null,
     strength: null,
     foldColumn: null,
     timeOrdered: null,
@@ -259,6 +262,7 @@ const SPECS: SettingSpec[] = [
       s.lowEnd = n;
     },
   },
+  { name: "stop early", aliases: ["early stop"], apply: (s, v) => (s.stopEarly = yesNo("stop early", v)) },
   {
     name: "strength",
     aliases: ["fixed strength", "lambda"],

@@ -89,6 +89,17 @@ export const FIELDS: readonly FieldSpec[] = [
     more: true,
   },
   {
+    name: "stop early",
+    label: "Stop paths early",
+    hint: "Yes ends each path once a tenfold drop in strength improves the fit by less than 1% (faster; fewer rows in the path). No covers the whole grid.",
+    kind: "choice",
+    choices: [
+      { value: "", label: "No (default)" },
+      { value: "yes", label: "Yes" },
+    ],
+    more: true,
+  },
+  {
     name: "time order",
     label: "Rows are in time order",
     hint: "Yes validates each fold on later rows only, never on the past.",

@@ -39,6 +39,8 @@ export interface CommandOptions {
   count: number | null;
   /** Bottom of the grid as a fraction of its top. */
   lowEnd: number | null;
+  /** End a path once a tenfold drop in strength improves the fit by less than 1%. */
+  stopEarly: boolean;
   timeOrdered: boolean;
   /** Column whose values label the folds (grouped cross-validation). */
   foldColumn: string | null;
@@ -70,6 +72,8 @@ Model
                             0 gives the exact least-squares fit
   --count <n>               number of strengths in the grid (default 100)
   --low-end <ratio>         bottom of the grid as a fraction of its top
+  --stop-early              end a path once a tenfold drop in strength improves the training
+                            fit by less than 1% (default: every path covers its whole grid)
   --no-standardize          penalize predictors in their own units
   --no-intercept            fit without an intercept
 
@@ -100,6 +104,7 @@ const OPTIONS: Record<string, Kind> = {
   strength: "number",
   count: "number",
   "low-end": "number",
+  "stop-early": "flag",
   "no-standardize": "flag",
   "no-intercept": "flag",
   folds: "number",
@@ -239,6 +244,7 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
       measure: measure as ErrorMeasure | null,
       count: number("count"),
       lowEnd: number("low-end"),
+      stopEarly: seen.has("stop-early"),
       timeOrdered: seen.has("time-ordered"),
       foldColumn: text("fold-column"),
       weightsColumn: text("weights-column"),
@@ -271,6 +277,7 @@ export function toFitOptions(
   if (options.measure !== null) out.measure = options.measure;
   if (options.count !== null) out.strengthCount = options.count;
   if (options.lowEnd !== null) out.lowEndRatio = options.lowEnd;
+  if (options.stopEarly) out.stopEarly = true;
   if (data.weights !== null) out.weights = data.weights;
   if (data.foldLabels !== null) out.foldLabels = data.foldLabels;
   return out;

@@ -71,7 +71,7 @@ export interface JsonReport {
     maxKktViolationAllFits: number | null;
     strengthCount: number;
     lowEndRatio: number | null;
-    earlyStop: { index: number; strength: number | null } | null;
+    earlyStop: { index: number; strength: number | null; reason: string } | null;
   };
   /** The fitted model as the engine saves it (terms, intercept, coefficients). */
   model: LinearModel;
@@ -162,7 +162,7 @@ export function jsonReport(result: FitResult, context: ReportContext): JsonRepor
       maxKktViolationAllFits: finiteOrNull(d.maxKktViolationAllFits),
       strengthCount: d.strengthCount,
       lowEndRatio: finiteOrNull(d.lowEndRatio),
-      earlyStop: d.earlyStop ? { index: d.earlyStop.index, strength: finiteOrNull(d.earlyStop.strength) } : null,
+      earlyStop: d.earlyStop ? { index: d.earlyStop.index, strength: finiteOrNull(d.earlyStop.strength), reason: d.earlyStop.reason } : null,
     },
     model: {
       kind: result.model.kind,

@@ -53,6 +53,7 @@ describe("parseArgs", () => {
       measure: null,
       count: null,
       lowEnd: null,
+      stopEarly: false,
       timeOrdered: false,
       foldColumn: null,
       weightsColumn: null,
@@ -80,6 +81,7 @@ describe("parseArgs", () => {
       "30",
       "--low-end",
       "0.001",
+      "--stop-early",
       "--time-ordered",
       "--weights-column",
       "w",
@@ -99,6 +101,7 @@ describe("parseArgs", () => {
       measure: "mae",
       count: 30,
       lowEnd: 0.001,
+      stopEarly: true,
       timeOrdered: true,
       weightsColumn: "w",
       standardize: false,
@@ -118,6 +121,7 @@ describe("parseArgs", () => {
       measure: "mae",
       strengthCount: 30,
       lowEndRatio: 0.001,
+      stopEarly: true,
       weights: [1, 2],
     });
   });

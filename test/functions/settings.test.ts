@@ -20,7 +20,7 @@ function settingError(raw: unknown): string {
 describe("text form", () => {
   test("every setting, with the accepted spellings", () => {
     const s = parseSettings(
-      "folds=5; Seed = 7; rule=one-se; error=mae; standardize=no; intercept=yes; Grid_Size=30; low-end=0.001; " +
+      "folds=5; Seed = 7; rule=one-se; error=mae; standardize=no; intercept=yes; Grid_Size=30; low-end=0.001; Stop_Early=yes; " +
         "fold column=Batch; weights column=W; penalty=Size:2, Region: North:0.5; no penalty=Temp; lower=0; upper=Size:3, Temp:none; header=yes; zero is missing=Size, Temp",
     );
     expect(s).toEqual({
@@ -32,6 +32,7 @@ describe("text form", () => {
       intercept: true,
       gridSize: 30,
       lowEnd: 0.001,
+      stopEarly: true,
       strength: null,
       foldColumn: "Batch",
       timeOrdered: null,
@@ -107,10 +108,10 @@ describe("range form", () => {
 describe("mistakes", () => {
   test("an unknown name lists every valid name", () => {
     expect(settingError("foldz=3")).toBe(
-      "unknown setting 'foldz': the settings are folds, seed, rule, error, standardize, intercept, grid size, low end, strength, " +
+      "unknown setting 'foldz': the settings are folds, seed, rule, error, standardize, intercept, grid size, low end, stop early, strength, " +
         "fold column, time order, weights column, penalty, no penalty, lower, upper, header, zero is missing",
     );
-    expect(SETTING_NAMES).toHaveLength(18);
+    expect(SETTING_NAMES).toHaveLength(19);
   });
   test("values out of range say the allowed range", () => {
     expect(settingError("folds=1")).toBe("'folds' must be a whole number from 2 to 1000; got '1'");
@@ -160,10 +161,10 @@ describe("mixes argument", () => {
 });
 
 describe("settings reach the engine", () => {
-  test("options in the request: folds, seed, rule, measure, grid, low end, standardize, intercept, time order", async () => {
+  test("options in the request: folds, seed, rule, measure, grid, low end, stop early, standardize, intercept, time order", async () => {
     const runner = new CountingRunner();
     const { target, predictors } = sheet();
-    await coefs(runner, target, predictors, "0.5, 1", "folds=4; seed=9; rule=onese; error=mae; grid size=15; low end=0.01; standardize=no; intercept=yes; time order=yes", null);
+    await coefs(runner, target, predictors, "0.5, 1", "folds=4; seed=9; rule=onese; error=mae; grid size=15; low end=0.01; early stop=on; standardize=no; intercept=yes; time order=yes", null);
     expect(runner.calls).toBe(1);
     const options = runner.last().options;
     expect(options).toMatchObject({
@@ -174,6 +175,7 @@ describe("settings reach the engine", () => {
       measure: "mae",
       strengthCount: 15,
       lowEndRatio: 0.01,
+      stopEarly: true,
       standardize: false,
       intercept: true,
       timeOrdered: true,
