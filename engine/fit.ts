@@ -21,7 +21,20 @@ import { leastSquares } from "./leastSquares";
 import { ColumnMatrix, selectRows } from "./matrix";
 import { LinearModel, linearModel, predict } from "./model";
 import { score, Score } from "./metrics";
-import { CancelSignal, EarlyStop, PathRun, ridgeFactorization, runPath, spectralApplies, strengthGrid, topStrength } from "./path";
+import {
+  CancelSignal,
+  DEFAULT_GRID_DENSITY,
+  EarlyStop,
+  gridDensity,
+  gridSize,
+  MAX_GRID_SIZE,
+  PathRun,
+  ridgeFactorization,
+  runPath,
+  spectralApplies,
+  strengthGrid,
+  topStrength,
+} from "./path";
 import { SpectralRidge } from "./ridgeSpectral";
 import {
   accumulateSums,
@@ -53,7 +66,12 @@ export interface FitOptions {
   mixes?: readonly number[];
   /** Fit exactly this strength with the single mix given: no cross-validation. 0 = least squares. */
   strength?: number | null;
-  /** Number of strengths in the grid. Default 100. */
+  /**
+   * Strengths per tenfold drop of the grid, a whole number 1 to 1000. Default 20. The grid then
+   * has round(gridDensity × log10(1/lowEndRatio)) + 1 strengths (path.ts gridSize): 81 at a low end of 1e-4.
+   */
+  gridDensity?: number;
+  /** Number of strengths in the grid (1 to 10000), instead of deriving it from gridDensity: give one or the other. */
   strengthCount?: number;
   /** Bottom of the grid as a fraction of its top. Default 1e-4 when rows > predictors, else 1e-2. */
   lowEndRatio?: number | null;
@@ -184,7 +202,10 @@ export interface FitResult {
     /** Where and why the chosen mix's path ended before its grid did, or null. */
     earlyStop: { index: number; strength: number; reason: EarlyStop } | null;
     lowEndRatio: number;
+    /** Strengths in the grid (the paths may end earlier: see earlyStop). */
     strengthCount: number;
+    /** Strengths per tenfold drop of the grid used, (strengthCount − 1) / log10(1/lowEndRatio). */
+    gridDensity: number;
   };
   warnings: FitWarning[];
   model: LinearModel;
@@ -248,10 +269,25 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
     if (upper[j] < 0) throw new InputError("bounds", `upper bound for ${label} is ${upper[j]}: bounds must allow zero (upper bound 0 or above)`);
   }
   const mixes = checkMixes(options.mixes ?? DEFAULT_MIXES);
-  const strengthCount = checkInteger(options.strengthCount ?? 100, "the number of strengths", 1, 10000, "setting");
   const lowEndRatio = options.lowEndRatio ?? (n > p ? 1e-4 : 1e-2);
   if (typeof lowEndRatio !== "number" || !(lowEndRatio > 0 && lowEndRatio < 1)) {
     throw new InputError("setting", `the low-end ratio must be between 0 and 1 (exclusive); got ${String(lowEndRatio)}`);
+  }
+  let strengthCount: number;
+  if (options.strengthCount !== undefined && options.strengthCount !== null) {
+    if (options.gridDensity !== undefined && options.gridDensity !== null) {
+      throw new InputError("setting", "the grid's size and its density were both given: give one (the size fixes the number of strengths, the density the strengths per tenfold drop)");
+    }
+    strengthCount = checkInteger(options.strengthCount, "the number of strengths", 1, MAX_GRID_SIZE, "setting");
+  } else {
+    const density = checkInteger(options.gridDensity ?? DEFAULT_GRID_DENSITY, "the grid density (strengths per tenfold drop)", 1, 1000, "setting");
+    strengthCount = gridSize(density, lowEndRatio);
+    if (strengthCount > MAX_GRID_SIZE) {
+      throw new InputError(
+        "setting",
+        `a grid density of ${density} down to a low end of ${lowEndRatio} gives ${strengthCount} strengths, more than ${MAX_GRID_SIZE}: lower the density or raise the low end`,
+      );
+    }
   }
   const tolerance = options.tolerance ?? 1e-9;
   if (!(tolerance > 0 && tolerance < 1)) throw new InputError("setting", `tolerance must be between 0 and 1; got ${String(tolerance)}`);
@@ -862,6 +898,7 @@ function assemble(
         : null,
       lowEndRatio: data.lowEndRatio,
       strengthCount: data.strengthCount,
+      gridDensity: gridDensity(data.strengthCount, data.lowEndRatio),
     },
     warnings,
     model,
@@ -916,6 +953,7 @@ function leastSquaresResult(data: Prepared, full: TrainingProblem, constantColum
       earlyStop: null,
       lowEndRatio: data.lowEndRatio,
       strengthCount: data.strengthCount,
+      gridDensity: gridDensity(data.strengthCount, data.lowEndRatio),
     },
     warnings,
     model,

@@ -41,8 +41,36 @@ export const PLATEAU_GAIN = 0.01;
 export type EarlyStop = "exact-fit" | "no-gain";
 
 /**
- * Log-spaced strengths from `top` down to `top × lowEndRatio`, `count` values.
- * Cost O(count). @example strengthGrid(1, 3, 0.01) // [1, 0.1, 0.01]
+ * Strengths per tenfold drop of the grid, by default. Neighbouring strengths then differ by a
+ * factor 10^(1/20) ≈ 1.12, fine enough that the cross-validated minimum found on the grid is
+ * within a fraction of a standard error of the minimum on a much finer grid (see the README's
+ * Method section and bench/lowEnd.ts), and a grid spanning 10⁴ has 81 strengths.
+ */
+export const DEFAULT_GRID_DENSITY = 20;
+/** Most strengths a grid may have (from a size, or from a density and low end). */
+export const MAX_GRID_SIZE = 10000;
+
+/**
+ * Number of strengths of a grid laid out with `density` strengths per tenfold drop from its
+ * top down to top × lowEndRatio: round(density × log10(1/lowEndRatio)) + 1, and at least 2, so
+ * both ends are on it. Spread evenly on a log scale (strengthGrid), the grid's realised density,
+ * gridDensity(count, lowEndRatio), is then within half a strength per span of the one asked for,
+ * and equal to it when density × log10(1/lowEndRatio) is whole.
+ * @example gridSize(20, 1e-4) // 81
+ */
+export function gridSize(density: number, lowEndRatio: number): number {
+  return Math.max(2, Math.round(density * Math.log10(1 / lowEndRatio)) + 1);
+}
+
+/** Strengths per tenfold drop of a grid of `count` strengths: (count − 1) / log10(1/lowEndRatio). */
+export function gridDensity(count: number, lowEndRatio: number): number {
+  return count > 1 ? (count - 1) / Math.log10(1 / lowEndRatio) : 0;
+}
+
+/**
+ * `count` strengths evenly spaced on a log scale from `top` down to `top × lowEndRatio`, both
+ * ends exact: strength k is top × lowEndRatio^(k/(count − 1)). Cost O(count).
+ * @example strengthGrid(1, 3, 0.01) // [1, 0.1, 0.01]
  */
 export function strengthGrid(top: number, count: number, lowEndRatio: number): number[] {
   if (count === 1) return [top];
@@ -51,6 +79,7 @@ export function strengthGrid(top: number, count: number, lowEndRatio: number): n
   const step = Math.log(lowEndRatio) / (count - 1);
   for (let k = 0; k < count; k++) out[k] = Math.exp(logTop + k * step);
   out[0] = top;
+  out[count - 1] = top * lowEndRatio;
   return out;
 }
 

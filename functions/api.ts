@@ -105,6 +105,7 @@ function fitOptions(dataset: Dataset, settings: Settings, mixes: number[] | null
     }
     options.strength = settings.strength;
   }
+  if (settings.gridDensity !== null) options.gridDensity = settings.gridDensity;
   if (settings.gridSize !== null) options.strengthCount = settings.gridSize;
   if (settings.lowEnd !== null) options.lowEndRatio = settings.lowEnd;
   if (settings.stopEarly !== null) options.stopEarly = settings.stopEarly;

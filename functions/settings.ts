@@ -17,7 +17,8 @@
  * | `error`          | `error measure`, `measure`         | `mse` / `squared`, `mae` / `absolute`                     | mse                      |
  * | `standardize`    | `standardise`                      | yes / no (also true/false, on/off, 1/0)                   | yes                      |
  * | `intercept`      |                                    | yes / no                                                  | yes                      |
- * | `grid size`      | `strength count`                   | whole number 1 to 10000                                   | 100                      |
+ * | `grid density`   | `strengths per decade`, `strengths per tenfold drop` | whole number 1 to 1000: strengths per tenfold drop in strength | 20           |
+ * | `grid size`      | `strength count`                   | whole number 1 to 10000, instead of a density             | from the density         |
  * | `low end`        | `low end ratio`                    | number strictly between 0 and 1                           | 1e-4 (1e-2 when predictors ≥ rows) |
  * | `stop early`     | `early stop`                       | yes / no: end a path once a tenfold drop in strength improves the fit by < 1% | no |
  * | `strength`       | `fixed strength`, `lambda`         | number ≥ 0: fit this strength only, no cross-validation   | (cross-validate)         |
@@ -61,6 +62,7 @@ export interface Settings {
   measure: ErrorMeasure | null;
   standardize: boolean | null;
   intercept: boolean | null;
+  gridDensity: number | null;
   gridSize: number | null;
   lowEnd: number | null;
   stopEarly: boolean | null;
@@ -84,6 +86,7 @@ export function defaultSettings(): Settings {
     measure: null,
     standardize: null,
     intercept: null,
+    gridDensity: null,
     gridSize: null,
     lowEnd: null,
     stopEarly: null,
@@ -251,6 +254,11 @@ const SPECS: SettingSpec[] = [
   { name: "error", aliases: ["error measure", "measure"], apply: (s, v) => (s.measure = word("error", v, MEASURES, "mse or mae") as ErrorMeasure) },
   { name: "standardize", aliases: ["standardise"], apply: (s, v) => (s.standardize = yesNo("standardize", v)) },
   { name: "intercept", aliases: [], apply: (s, v) => (s.intercept = yesNo("intercept", v)) },
+  {
+    name: "grid density",
+    aliases: ["strengths per decade", "strengths per tenfold drop"],
+    apply: (s, v) => (s.gridDensity = wholeNumber("grid density", v, 1, 1000)),
+  },
   { name: "grid size", aliases: ["strength count"], apply: (s, v) => (s.gridSize = wholeNumber("grid size", v, 1, 10000)) },
   {
     name: "low end",
@@ -429,6 +437,9 @@ export function parseSettings(raw: unknown): Settings {
     if (seen.has(spec)) throw new SettingError(`'${spec.name}' is given twice: give each setting once`);
     seen.add(spec);
     spec.apply(settings, entry.value);
+  }
+  if (settings.gridDensity !== null && settings.gridSize !== null) {
+    throw new SettingError("'grid density' and 'grid size' both set how many strengths the grid has: give one");
   }
   if (settings.foldColumn !== null && settings.timeOrdered) {
     throw new SettingError("'fold column' and 'time order' can't be used together: choose one way to form the folds");

@@ -35,7 +35,9 @@ export interface CommandOptions {
   seed: number | null;
   rule: ChoiceRule | null;
   measure: ErrorMeasure | null;
-  /** Number of strengths in the grid. */
+  /** Strengths per tenfold drop of the grid. */
+  gridDensity: number | null;
+  /** Number of strengths in the grid (instead of a density). */
   count: number | null;
   /** Bottom of the grid as a fraction of its top. */
   lowEnd: number | null;
@@ -70,7 +72,9 @@ Model
   --mix 0,0.5,1             mixes to try: 0 ridge, 1 lasso (default 0,0.25,0.5,0.75,1)
   --strength <value>        fit exactly this strength at a single --mix, no cross-validation;
                             0 gives the exact least-squares fit
-  --count <n>               number of strengths in the grid (default 100)
+  --grid-density <n>        strengths per tenfold drop in strength (default 20: 81 strengths
+                            down to a low end of 1e-4)
+  --count <n>               number of strengths in the grid, instead of --grid-density
   --low-end <ratio>         bottom of the grid as a fraction of its top
   --stop-early              end a path once a tenfold drop in strength improves the training
                             fit by less than 1% (default: every path covers its whole grid)
@@ -102,6 +106,7 @@ const OPTIONS: Record<string, Kind> = {
   "fold-column": "text",
   mix: "numberList",
   strength: "number",
+  "grid-density": "number",
   count: "number",
   "low-end": "number",
   "stop-early": "flag",
@@ -216,6 +221,9 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
   if (measure !== null && measure !== "mse" && measure !== "mae") {
     throw new CommandError(`--measure must be mse or mae; got '${measure}'`);
   }
+  if (seen.has("grid-density") && seen.has("count")) {
+    throw new CommandError("--grid-density and --count both set how many strengths the grid has: give one");
+  }
   const predictors = list("predictors");
   const exclude = list("exclude");
   if (predictors !== null && exclude !== null) {
@@ -242,6 +250,7 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
       seed: number("seed"),
       rule: rule as ChoiceRule | null,
       measure: measure as ErrorMeasure | null,
+      gridDensity: number("grid-density"),
       count: number("count"),
       lowEnd: number("low-end"),
       stopEarly: seen.has("stop-early"),
@@ -275,6 +284,7 @@ export function toFitOptions(
   if (options.seed !== null) out.seed = options.seed;
   if (options.rule !== null) out.rule = options.rule;
   if (options.measure !== null) out.measure = options.measure;
+  if (options.gridDensity !== null) out.gridDensity = options.gridDensity;
   if (options.count !== null) out.strengthCount = options.count;
   if (options.lowEnd !== null) out.lowEndRatio = options.lowEnd;
   if (options.stopEarly) out.stopEarly = true;

@@ -70,6 +70,7 @@ export interface JsonReport {
     maxKktViolation: number | null;
     maxKktViolationAllFits: number | null;
     strengthCount: number;
+    gridDensity: number | null;
     lowEndRatio: number | null;
     earlyStop: { index: number; strength: number | null; reason: string } | null;
   };
@@ -161,6 +162,7 @@ export function jsonReport(result: FitResult, context: ReportContext): JsonRepor
       maxKktViolation: finiteOrNull(d.maxKktViolation),
       maxKktViolationAllFits: finiteOrNull(d.maxKktViolationAllFits),
       strengthCount: d.strengthCount,
+      gridDensity: finiteOrNull(d.gridDensity),
       lowEndRatio: finiteOrNull(d.lowEndRatio),
       earlyStop: d.earlyStop ? { index: d.earlyStop.index, strength: finiteOrNull(d.earlyStop.strength), reason: d.earlyStop.reason } : null,
     },
@@ -246,6 +248,10 @@ export function textReport(result: FitResult, context: ReportContext): string {
   }
   if (result.choices && result.cv) {
     lines.push(`Cross-validation: ${schemeText(result, context.foldColumn)}, error measure ${result.cv.measure}`);
+    const d = result.diagnostics;
+    lines.push(
+      `Grid: ${d.strengthCount} strengths per mix (${formatNumber(d.gridDensity, 4)} per tenfold drop), from each mix's top down to ${formatNumber(d.lowEndRatio)} of it`,
+    );
     const rows: string[][] = [["rule", "mix", "strength", "error", "SE", "nonzero"]];
     for (const rule of ["min", "onese"] as const) {
       const c = result.choices[rule];

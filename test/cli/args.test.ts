@@ -51,6 +51,7 @@ describe("parseArgs", () => {
       seed: null,
       rule: null,
       measure: null,
+      gridDensity: null,
       count: null,
       lowEnd: null,
       stopEarly: false,
@@ -124,6 +125,16 @@ describe("parseArgs", () => {
       stopEarly: true,
       weights: [1, 2],
     });
+  });
+
+  it("reads --grid-density; refuses it together with --count", () => {
+    const o = options(["d.csv", "--target", "y", "--grid-density", "12"]);
+    expect(o.gridDensity).toBe(12);
+    expect(toFitOptions(o, noData)).toMatchObject({ gridDensity: 12 });
+    expect(toFitOptions(o, noData).strengthCount).toBeUndefined();
+    expect(() => options(["d.csv", "--target", "y", "--grid-density=12", "--count", "40"])).toThrow(
+      "--grid-density and --count both set how many strengths the grid has: give one",
+    );
   });
 
   it("reads --exclude and --fold-column; fold labels go to the engine as given", () => {

@@ -1,12 +1,15 @@
 /**
- * The strength grid and where a path ends (engine/path.ts): by default every path covers its
+ * The strength grid and where a path ends (engine/path.ts). The grid has a density of strengths
+ * per tenfold drop (or a size), log-spaced with exact ends. By default every path covers its
  * whole grid; it ends early only when its training fit is exact (EXACT_FIT_RATIO), or, when
  * asked (`stopEarly`), once a tenfold drop in strength improves the fit by less than PLATEAU_GAIN.
  * The stopping rules are checked as properties of the reported path (the residual mean square
  * is (1 − R²) × the target's variance), not against hand-picked stopping points.
  */
+import fc from "fast-check";
 import { fit, FitResult } from "../../engine/fit";
-import { EXACT_FIT_RATIO, PLATEAU_GAIN, PLATEAU_SPAN } from "../../engine/path";
+import { DEFAULT_GRID_DENSITY, EXACT_FIT_RATIO, gridDensity, gridSize, PLATEAU_GAIN, PLATEAU_SPAN, strengthGrid } from "../../engine/path";
+import { expectRelative } from "../helpers/numeric";
 import { makeProblem } from "../helpers/problems";
 
 const tall = makeProblem({ seed: 8, rows: 80, columns: 12, design: "ar1", rho: 0.7, nonzero: 4, noise: 0.8 });
@@ -96,5 +99,45 @@ describe("stop early: a tenfold drop in strength that improves the fit by less t
     const b = fine.diagnostics.earlyStop?.strength as number;
     // Within one coarse grid step (10^(6/40), about 1.41): the stop depends on the fit, not the spacing (definition).
     expect(Math.abs(Math.log10(a / b))).toBeLessThanOrEqual(6 / 40 + 1e-9);
+  });
+});
+
+describe("the grid: a density of strengths per tenfold drop, both ends exact", () => {
+  test("gridSize = round(density × log10(1/low end)) + 1 (at least 2); strengthGrid spreads it evenly on a log scale (property)", () => {
+    fc.assert(
+      fc.property(fc.integer({ min: 1, max: 200 }), fc.double({ min: -9, max: -0.05, noNaN: true }), fc.double({ min: 1e-3, max: 1e6, noNaN: true }), (density, logLow, top) => {
+        const lowEnd = 10 ** logLow;
+        const span = Math.log10(1 / lowEnd);
+        const count = gridSize(density, lowEnd);
+        expect(count).toBe(Math.max(2, Math.round(density * span) + 1)); // the documented rule
+        const grid = strengthGrid(top, count, lowEnd);
+        expect(grid).toHaveLength(count);
+        expect(grid[0]).toBe(top); // exact ends (definition)
+        expect(grid[count - 1]).toBe(top * lowEnd);
+        // one common ratio between neighbours (log spacing), to rounding
+        const step = Math.log(lowEnd) / (count - 1);
+        for (let k = 1; k < count; k++) expect(Math.abs(Math.log(grid[k] / grid[k - 1]) - step)).toBeLessThan(1e-9);
+        // the realised density is within half a strength per tenfold drop of the one asked for, when the rounding kept more than one step
+        if (Math.round(density * span) >= 1) expect(Math.abs(gridDensity(count, lowEnd) - density)).toBeLessThanOrEqual(0.5 / span + 1e-9);
+      }),
+      { numRuns: 300, seed: 20 },
+    );
+  });
+
+  test("defaults: 20 per tenfold drop; the fit reports the count and density it used", () => {
+    const result = fit(tall.x, tall.y, { mixes: [1], folds: 4 });
+    const span = Math.log10(1 / result.diagnostics.lowEndRatio);
+    expect(result.diagnostics.strengthCount).toBe(Math.round(DEFAULT_GRID_DENSITY * span) + 1);
+    expectRelative(result.diagnostics.gridDensity, DEFAULT_GRID_DENSITY, 1e-12, "realised density"); // (count − 1)/log10(1/low end), whole here (definition); 1e-12 allows log10's rounding
+    expect(result.path.strengths).toHaveLength(result.diagnostics.strengthCount);
+    expect(result.path.strengths[result.path.strengths.length - 1]).toBe(result.path.top * result.diagnostics.lowEndRatio);
+  });
+
+  test("a grid size replaces the density; the density reported is the one it gives", () => {
+    const sized = fit(tall.x, tall.y, { mixes: [1], folds: 4, strengthCount: 31, lowEndRatio: 1e-3 });
+    expect(sized.path.strengths).toHaveLength(31);
+    expect(sized.diagnostics.gridDensity).toBe(10); // 30 steps over 3 tenfold drops (definition)
+    const dense = fit(tall.x, tall.y, { mixes: [1], folds: 4, gridDensity: 7, lowEndRatio: 1e-3 });
+    expect(dense.diagnostics.strengthCount).toBe(22); // 7 × 3 + 1 (definition)
   });
 });
