@@ -27,6 +27,8 @@ import {
   EarlyStop,
   gridDensity,
   gridSize,
+  LOW_END_TALL,
+  LOW_END_WIDE,
   MAX_GRID_SIZE,
   PathRun,
   ridgeFactorization,
@@ -68,12 +70,12 @@ export interface FitOptions {
   strength?: number | null;
   /**
    * Strengths per tenfold drop of the grid, a whole number 1 to 1000. Default 20. The grid then
-   * has round(gridDensity × log10(1/lowEndRatio)) + 1 strengths (path.ts gridSize): 81 at a low end of 1e-4.
+   * has round(gridDensity × log10(1/lowEndRatio)) + 1 strengths (path.ts gridSize): 101 at a low end of 1e-5.
    */
   gridDensity?: number;
   /** Number of strengths in the grid (1 to 10000), instead of deriving it from gridDensity: give one or the other. */
   strengthCount?: number;
-  /** Bottom of the grid as a fraction of its top. Default 1e-4 when rows > predictors, else 1e-2. */
+  /** Bottom of the grid as a fraction of its top. Default 1e-5 when rows > predictors, else 1e-3 (path.ts LOW_END_TALL, LOW_END_WIDE). */
   lowEndRatio?: number | null;
   /** Number of folds (random or time-ordered). Default 10. */
   folds?: number;
@@ -269,7 +271,7 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
     if (upper[j] < 0) throw new InputError("bounds", `upper bound for ${label} is ${upper[j]}: bounds must allow zero (upper bound 0 or above)`);
   }
   const mixes = checkMixes(options.mixes ?? DEFAULT_MIXES);
-  const lowEndRatio = options.lowEndRatio ?? (n > p ? 1e-4 : 1e-2);
+  const lowEndRatio = options.lowEndRatio ?? (n > p ? LOW_END_TALL : LOW_END_WIDE);
   if (typeof lowEndRatio !== "number" || !(lowEndRatio > 0 && lowEndRatio < 1)) {
     throw new InputError("setting", `the low-end ratio must be between 0 and 1 (exclusive); got ${String(lowEndRatio)}`);
   }

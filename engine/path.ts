@@ -43,10 +43,25 @@ export type EarlyStop = "exact-fit" | "no-gain";
 /**
  * Strengths per tenfold drop of the grid, by default. Neighbouring strengths then differ by a
  * factor 10^(1/20) ≈ 1.12, fine enough that the cross-validated minimum found on the grid is
- * within a fraction of a standard error of the minimum on a much finer grid (see the README's
- * Method section and bench/lowEnd.ts), and a grid spanning 10⁴ has 81 strengths.
+ * within a fraction of a standard error of the minimum on a much finer grid, and a grid
+ * spanning 10⁵ (the default low end when rows > predictors) has 101 strengths.
  */
 export const DEFAULT_GRID_DENSITY = 20;
+/**
+ * Default low end of the grid (its bottom as a fraction of its top) when rows > predictors.
+ * Measured (bench/lowEnd.ts, table in the README's Method section): on the demo data and the
+ * reference data with noise, every mix's lowest cross-validated error lies at or above 10^-3.5
+ * of its top, or cutting the grid there costs under 0.1 standard error; 1e-5 leaves a further
+ * factor of 30 of margin. At 20 strengths per tenfold drop that is 101 strengths.
+ */
+export const LOW_END_TALL = 1e-5;
+/**
+ * Default low end when predictors ≥ rows. Measured likewise on the quadratic diabetes and
+ * prostate models over blocks of rows: cutting at 1e-3 costs the choice over all mixes nothing
+ * measurable. Further down, the fit approaches interpolation and the lasso end of the path
+ * slows sharply (coordinate descent needs about ten times the work per tenfold drop there).
+ */
+export const LOW_END_WIDE = 1e-3;
 /** Most strengths a grid may have (from a size, or from a density and low end). */
 export const MAX_GRID_SIZE = 10000;
 

@@ -81,7 +81,7 @@ export const FIELDS: readonly FieldSpec[] = [
   {
     name: "grid density",
     label: "Grid density (strengths per tenfold drop)",
-    hint: "How many strengths are tried per tenfold drop in strength, 1 to 1000. Empty: 20 (81 strengths down to a low end of 0.0001).",
+    hint: "How many strengths are tried per tenfold drop in strength, 1 to 1000. Empty: 20 (101 strengths down to a low end of 0.00001).",
     kind: "text",
     placeholder: "20",
     inputMode: "numeric",
@@ -99,9 +99,9 @@ export const FIELDS: readonly FieldSpec[] = [
   {
     name: "low end",
     label: "Low end of the grid",
-    hint: "The weakest strength tried, as a fraction of the strongest (between 0 and 1). Empty: 0.0001, or 0.01 when there are more predictors than rows.",
+    hint: "The weakest strength tried, as a fraction of the strongest (between 0 and 1). Empty: 0.00001, or 0.001 when there are at least as many predictors as rows.",
     kind: "text",
-    placeholder: "0.0001",
+    placeholder: "0.00001",
     inputMode: "decimal",
     more: true,
   },

@@ -72,10 +72,11 @@ Model
   --mix 0,0.5,1             mixes to try: 0 ridge, 1 lasso (default 0,0.25,0.5,0.75,1)
   --strength <value>        fit exactly this strength at a single --mix, no cross-validation;
                             0 gives the exact least-squares fit
-  --grid-density <n>        strengths per tenfold drop in strength (default 20: 81 strengths
-                            down to a low end of 1e-4)
+  --grid-density <n>        strengths per tenfold drop in strength (default 20: 101 strengths
+                            down to a low end of 1e-5)
   --count <n>               number of strengths in the grid, instead of --grid-density
-  --low-end <ratio>         bottom of the grid as a fraction of its top
+  --low-end <ratio>         bottom of the grid as a fraction of its top (default 1e-5 when
+                            rows > predictors, 1e-3 when predictors >= rows)
   --stop-early              end a path once a tenfold drop in strength improves the training
                             fit by less than 1% (default: every path covers its whole grid)
   --no-standardize          penalize predictors in their own units
