@@ -75,7 +75,7 @@ export interface FitOptions {
   gridDensity?: number;
   /** Number of strengths in the grid (1 to 10000), instead of deriving it from gridDensity: give one or the other. */
   strengthCount?: number;
-  /** Bottom of the grid as a fraction of its top. Default 1e-5 when rows > predictors, else 1e-3 (path.ts LOW_END_TALL, LOW_END_WIDE). */
+  /** Bottom of the grid as a fraction of its top. Default 1e-5 when rows > predictors, else 1e-2 (path.ts LOW_END_TALL, LOW_END_WIDE). */
   lowEndRatio?: number | null;
   /** Number of folds (random or time-ordered). Default 10. */
   folds?: number;

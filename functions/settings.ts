@@ -19,7 +19,7 @@
  * | `intercept`      |                                    | yes / no                                                  | yes                      |
  * | `grid density`   | `strengths per decade`, `strengths per tenfold drop` | whole number 1 to 1000: strengths per tenfold drop in strength | 20           |
  * | `grid size`      | `strength count`                   | whole number 1 to 10000, instead of a density             | from the density         |
- * | `low end`        | `low end ratio`                    | number strictly between 0 and 1                           | 1e-5 (1e-3 when predictors ≥ rows) |
+ * | `low end`        | `low end ratio`                    | number strictly between 0 and 1                           | 1e-5 (1e-2 when predictors ≥ rows) |
  * | `stop early`     | `early stop`                       | yes / no: end a path once a tenfold drop in strength improves the fit by < 1% | no |
  * | `strength`       | `fixed strength`, `lambda`         | number ≥ 0: fit this strength only, no cross-validation   | (cross-validate)         |
  * | `fold column`    | `fold labels`                      | a predictors column name: its values label the folds     | (random folds)           |

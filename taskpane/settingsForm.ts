@@ -99,7 +99,7 @@ export const FIELDS: readonly FieldSpec[] = [
   {
     name: "low end",
     label: "Low end of the grid",
-    hint: "The weakest strength tried, as a fraction of the strongest (between 0 and 1). Empty: 0.00001, or 0.001 when there are at least as many predictors as rows.",
+    hint: "The weakest strength tried, as a fraction of the strongest (between 0 and 1). Empty: 0.00001, or 0.01 when there are at least as many predictors as rows.",
     kind: "text",
     placeholder: "0.00001",
     inputMode: "decimal",

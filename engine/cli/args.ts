@@ -76,7 +76,7 @@ Model
                             down to a low end of 1e-5)
   --count <n>               number of strengths in the grid, instead of --grid-density
   --low-end <ratio>         bottom of the grid as a fraction of its top (default 1e-5 when
-                            rows > predictors, 1e-3 when predictors >= rows)
+                            rows > predictors, 1e-2 when predictors >= rows)
   --stop-early              end a path once a tenfold drop in strength improves the training
                             fit by less than 1% (default: every path covers its whole grid)
   --no-standardize          penalize predictors in their own units

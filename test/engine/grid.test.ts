@@ -143,12 +143,12 @@ describe("the grid: a density of strengths per tenfold drop, both ends exact", (
     expect(result.path.strengths[result.path.strengths.length - 1]).toBe(result.path.top * result.diagnostics.lowEndRatio);
   });
 
-  test("default low ends: 1e-5 when rows > predictors (101 strengths), 1e-3 when predictors ≥ rows (61)", () => {
+  test("default low ends: 1e-5 when rows > predictors (101 strengths), 1e-2 when predictors ≥ rows (41)", () => {
     expect(fit(tall.x, tall.y, { mixes: [1], folds: 4 }).diagnostics).toMatchObject({ lowEndRatio: LOW_END_TALL, strengthCount: 101 });
-    expect(fit(wide.x, wide.y, { mixes: [0], folds: 4 }).diagnostics).toMatchObject({ lowEndRatio: LOW_END_WIDE, strengthCount: 61 });
+    expect(fit(wide.x, wide.y, { mixes: [0], folds: 4 }).diagnostics).toMatchObject({ lowEndRatio: LOW_END_WIDE, strengthCount: 41 });
     const square = { x: tall.x.slice(0, 12), y: tall.y.slice(0, 12) }; // as many rows as predictors
     expect(fit(square.x, square.y, { mixes: [0], folds: 3 }).diagnostics.lowEndRatio).toBe(LOW_END_WIDE);
-    expect([LOW_END_TALL, LOW_END_WIDE]).toEqual([1e-5, 1e-3]); // README, Method: how the defaults were chosen
+    expect([LOW_END_TALL, LOW_END_WIDE]).toEqual([1e-5, 1e-2]); // README, Method: how the defaults were chosen
   });
 
   test("a grid size replaces the density; the density reported is the one it gives", () => {

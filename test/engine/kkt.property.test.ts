@@ -111,10 +111,7 @@ function runCase(c: Case, rows: number, columns: number, alpha: number, label: s
   };
   let result: FitResult;
   if (c.crossValidated) {
-    // With more predictors than rows the grid stops at 1e-2 of its top here: further down the fit
-    // nears interpolation, where the lasso with bounds can need more sweeps than the cap allows
-    // at a point (reported as converged = false; README, Method: the low end).
-    result = fit(problem.x, problem.y, { ...options, folds: 3, seed: c.seed % 1000, strengthCount: 60, ...(rows > columns ? {} : { lowEndRatio: 1e-2 }) });
+    result = fit(problem.x, problem.y, { ...options, folds: 3, seed: c.seed % 1000, strengthCount: 60 });
   } else {
     const bottom = rows > columns ? 1e-3 : 3e-2;
     result = fit(problem.x, problem.y, { ...options, strength: bottom * roughTop(problem.x, problem.y, weights, alpha), strengthCount: 40 });
