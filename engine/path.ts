@@ -209,18 +209,32 @@ export function runPath(
   // current one (PLATEAU_SPAN; strengths decrease, so it only moves forward).
   const residuals: number[] = [];
   let anchor = 0;
+  /** Why the path ends at point k (after it), or null when it goes on. */
+  const endsAt = (k: number, residual: number): EarlyStop | null => {
+    if (k + 1 === strengths.length) return null;
+    if (settings.stopWhenExact && residual <= EXACT_FIT_RATIO * yVariance) return "exact-fit";
+    if (settings.stopWhenFlat) {
+      // 1e-9: a grid laid out as exact powers of ten may land a hair off in floating point.
+      const reach = PLATEAU_SPAN * strengths[k] * (1 - 1e-9);
+      while (anchor + 1 < k && strengths[anchor + 1] >= reach) anchor++;
+      if (strengths[anchor] >= reach && residuals[anchor] - residual < PLATEAU_GAIN * residuals[anchor]) return "no-gain";
+    }
+    return null;
+  };
   for (let k = 0; k < strengths.length; k++) {
     if (settings.signal?.aborted) throw new CancelledError();
     const lambda = strengths[k];
     let kkt: number;
     let residual: number;
+    let stop: EarlyStop | null;
     if (spectral) {
       spectral.coefficientsAt(lambda, exact);
       // The residual's size comes from the factorization (O(n) or O(p)); the gradient, which
       // costs a pass over the data in residual form, is rebuilt to certify the path's ends
       // (gram form: every point, it is cheap there).
       residual = spectral.residualMeanSquareAt(lambda);
-      if (problem.kind === "gram" || k === 0 || k === strengths.length - 1) {
+      stop = endsAt(k, residual);
+      if (problem.kind === "gram" || k === 0 || k === strengths.length - 1 || stop !== null) {
         solver.setCoefficients(exact);
         kkt = solver.kktViolation(lambda);
       } else {
@@ -233,6 +247,7 @@ export function runPath(
       if (!report.converged) run.notConverged.push(k);
       kkt = report.kktViolation;
       residual = solver.residualMeanSquare();
+      stop = endsAt(k, residual);
     }
     const r2 = yVariance > 0 ? 1 - residual / yVariance : 0;
     if (kkt > run.maxKktViolation) run.maxKktViolation = kkt;
@@ -244,19 +259,9 @@ export function runPath(
     run.r2.push(r2);
     run.nonzero.push(nonzero);
     residuals.push(residual);
-    if (k + 1 === strengths.length) break;
-    if (settings.stopWhenExact && residual <= EXACT_FIT_RATIO * yVariance) {
-      run.earlyStop = "exact-fit";
+    if (stop !== null) {
+      run.earlyStop = stop;
       break;
-    }
-    if (settings.stopWhenFlat) {
-      // 1e-9: a grid laid out as exact powers of ten may land a hair off in floating point.
-      const reach = PLATEAU_SPAN * lambda * (1 - 1e-9);
-      while (anchor + 1 < k && strengths[anchor + 1] >= reach) anchor++;
-      if (strengths[anchor] >= reach && residuals[anchor] - residual < PLATEAU_GAIN * residuals[anchor]) {
-        run.earlyStop = "no-gain";
-        break;
-      }
     }
   }
   return run;
