@@ -50,12 +50,12 @@ describe("the top of the path (common practice)", () => {
     // precondition: distinct inner products, the second at most 90% of the first
     expect(sorted[1]).toBeLessThan(0.9 * sorted[0]);
     const leader = c.map(Math.abs).indexOf(sorted[0]);
-    const result = fit(distinct.x, distinct.y, { mixes: [1], strength: 1e-3, strengthCount: 100 });
+    const result = fit(distinct.x, distinct.y, { mixes: [1], strength: 1e-3, gridDensity: 25, lowEndRatio: 1e-4 });
     const path = result.path;
     expect(path.coefficients[0].every((b) => b === 0)).toBe(true); // common practice: λ_max is the smallest λ with b = 0
     expect(path.nonzero[0]).toBe(0);
     expectRelative(path.intercepts[0], weightedMean(distinct.y, null), 1e-13, "intercept at λ_max"); // with b = 0 the intercept is ȳ (common practice); 1e-13 allows summation-order rounding
-    // the grid step is 10^(−4/99) ≈ 0.91, while the second inner product is below 0.9·λ_max: one entrant
+    // the grid step is 10^(−1/25) ≈ 0.91, while the second inner product is below 0.9·λ_max: one entrant
     expect(path.nonzero[1]).toBe(1);
     expect(path.coefficients[1].findIndex((b) => b !== 0)).toBe(leader);
     expect(Math.sign(path.coefficients[1][leader])).toBe(Math.sign(c[leader])); // enters with the sign of its inner product
