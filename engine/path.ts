@@ -3,6 +3,7 @@
  */
 import { CancelledError } from "./errors";
 import { CoordinateDescent, DescentSettings, PenaltySpec } from "./descent";
+import { portableExp, portableLog } from "./portableMath";
 import type { TrainingProblem } from "./problem";
 import { penalizedSpectrum, SpectralRidge, strengthForDegreesOfFreedom } from "./ridgeSpectral";
 
@@ -75,6 +76,8 @@ export const MAX_GRID_SIZE = 10000;
  * @example gridSize(20, 1e-4) // 81
  */
 export function gridSize(density: number, lowEndRatio: number): number {
+  // Math.log10 is exact at powers of ten, and a last-bit difference between engines could
+  // change the rounded count only at an exact half: safe here, unlike the grid's powers.
   return Math.max(2, Math.round(density * Math.log10(1 / lowEndRatio)) + 1);
 }
 
@@ -85,15 +88,16 @@ export function gridDensity(count: number, lowEndRatio: number): number {
 
 /**
  * `count` strengths evenly spaced on a log scale from `top` down to `top × lowEndRatio`, both
- * ends exact: strength k is top × lowEndRatio^(k/(count − 1)). Cost O(count).
+ * ends exact: strength k is top × lowEndRatio^(k/(count − 1)). The powers come from
+ * portableExp/portableLog, so the grid (and every fit on it) is the same in every JavaScript
+ * engine. Cost O(count).
  * @example strengthGrid(1, 3, 0.01) // [1, 0.1, 0.01]
  */
 export function strengthGrid(top: number, count: number, lowEndRatio: number): number[] {
   if (count === 1) return [top];
   const out = new Array<number>(count);
-  const logTop = Math.log(top);
-  const step = Math.log(lowEndRatio) / (count - 1);
-  for (let k = 0; k < count; k++) out[k] = Math.exp(logTop + k * step);
+  const step = portableLog(lowEndRatio) / (count - 1);
+  for (let k = 0; k < count; k++) out[k] = top * portableExp(k * step);
   out[0] = top;
   out[count - 1] = top * lowEndRatio;
   return out;

@@ -13,6 +13,7 @@
  * caller falls back to coordinate descent otherwise.
  */
 import { EigenvalueDecomposition, Matrix } from "ml-matrix";
+import { portableExp, portableLog } from "./portableMath";
 import { dotRange, TrainingProblem } from "./problem";
 
 /** Eigenvalues of a symmetric matrix (row-major, size × size), rounding negatives clipped to 0. */
@@ -163,17 +164,18 @@ export function strengthForDegreesOfFreedom(values: ArrayLike<number>, target: n
   }
   if (!(largest > 0)) return 0;
   if (!(target > 0 && target < rank)) throw new Error(`degrees of freedom ${target} must be between 0 and the rank ${rank}`);
-  let hi = Math.log(trace / target);
+  // portableExp/portableLog: the same top in every JavaScript engine.
+  let hi = portableLog(trace / target);
   let lo: number;
   if (target < 1) {
-    lo = Math.log((largest * (1 - target)) / target);
+    lo = portableLog((largest * (1 - target)) / target);
   } else {
     lo = hi;
-    while (ridgeDegreesOfFreedom(values, Math.exp(lo)) < target) lo -= Math.LN10;
+    while (ridgeDegreesOfFreedom(values, portableExp(lo)) < target) lo -= Math.LN10;
   }
   let u = hi;
   for (let step = 0; step < 200; step++) {
-    const lambda = Math.exp(u);
+    const lambda = portableExp(u);
     let df = 0;
     let slope = 0;
     for (let t = 0; t < values.length; t++) {
@@ -189,11 +191,11 @@ export function strengthForDegreesOfFreedom(values: ArrayLike<number>, target: n
     let next = u - gap / slope;
     if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
     if (Math.abs(next - u) <= 4 * Number.EPSILON * Math.max(1, Math.abs(u)) || hi - lo <= 4 * Number.EPSILON * Math.max(1, Math.abs(u))) {
-      return Math.exp(next);
+      return portableExp(next);
     }
     u = next;
   }
-  return Math.exp(u);
+  return portableExp(u);
 }
 
 export class SpectralRidge {
