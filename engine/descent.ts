@@ -36,8 +36,8 @@
  * j when |g_j(λ_prev)| >= α m_j (2λ − λ_prev); after convergence on the kept set every
  * discarded predictor's KKT condition is checked and violators are added back.
  */
-import { portableLog } from "./elementary";
 import { CancelSignal, throwIfCancelled } from "./errors";
+import { portableLog } from "./portableMath";
 import { dotRange, TrainingProblem } from "./problem";
 
 export interface PenaltySpec {
@@ -667,7 +667,7 @@ export class CoordinateDescent {
             // Linear convergence: the sweeps still needed are about log(limit/change)/log(rate).
             // Try the Newton step only when those sweeps would cost more than the solve.
             const rate = change / previousChange;
-            // portableLog: the decision, hence the iterates, must be the same in every engine.
+            // (portableLog: the same decision, so the same iterates, in every JavaScript engine.)
             const remaining = rate < 1 ? portableLog(limit / change) / portableLog(rate) : Infinity;
             // Costs in multiply-adds: a sweep updates the gradient (gram: p per coordinate) or
             // computes and applies it (residual: 2n per coordinate); the step copies the cached

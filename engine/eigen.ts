@@ -17,7 +17,7 @@
  * Storage: `vectors` is size × size with eigenvector t in vectors[t·size .. (t + 1)·size), the
  * layout SpectralRidge reads; eigenvalues ascend.
  */
-import { hypotenuse } from "./elementary";
+import { hypotenuse } from "./portableMath";
 import { CancelSignal, throwIfCancelled } from "./errors";
 
 export interface SymmetricEigen {

@@ -64,6 +64,7 @@ export type WarningCode =
   | "constant-column"
   | "aliased"
   | "early-stop"
+  | "grid-edge"
   | "not-converged"
   | "rows-skipped"
   | "fold-constant"

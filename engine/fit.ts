@@ -31,7 +31,21 @@ import { leastSquares } from "./leastSquares";
 import { ColumnMatrix, selectRows } from "./matrix";
 import { LinearModel, linearModel, predict } from "./model";
 import { score, Score } from "./metrics";
-import { PathRun, runPath, spectralApplies, strengthGrid, topStrength } from "./path";
+import {
+  DEFAULT_GRID_DENSITY,
+  EarlyStop,
+  gridDensity,
+  gridSize,
+  LOW_END_TALL,
+  LOW_END_WIDE,
+  MAX_GRID_SIZE,
+  PathRun,
+  ridgeFactorization,
+  runPath,
+  spectralApplies,
+  strengthGrid,
+  topStrength,
+} from "./path";
 import { SpectralRidge } from "./ridgeSpectral";
 import {
   accumulateSums,
@@ -81,9 +95,14 @@ export interface FitOptions {
   mixes?: readonly number[];
   /** Fit exactly this strength (unit-free λ, see above) with the single mix given: no cross-validation. 0 = least squares. */
   strength?: number | null;
-  /** Number of strengths in the grid. Default 100. */
+  /**
+   * Strengths per tenfold drop of the grid, a whole number 1 to 1000. Default 20. The grid then
+   * has round(gridDensity × log10(1/lowEndRatio)) + 1 strengths (path.ts gridSize): 101 at a low end of 1e-5.
+   */
+  gridDensity?: number;
+  /** Number of strengths in the grid (1 to 10000), instead of deriving it from gridDensity: give one or the other. */
   strengthCount?: number;
-  /** Bottom of the grid as a fraction of its top. Default 1e-4 when rows > predictors, else 1e-2. */
+  /** Bottom of the grid as a fraction of its top. Default 1e-5 when rows > predictors, else 1e-2 (path.ts LOW_END_TALL, LOW_END_WIDE). */
   lowEndRatio?: number | null;
   /** Number of folds (random or time-ordered). Default 10. */
   folds?: number;
@@ -117,8 +136,12 @@ export interface FitOptions {
   tolerance?: number;
   /** Sweep cap per strength. Default 10000. */
   maxSweeps?: number;
-  /** Stop a path once the fit saturates (see path.ts). Default true. */
-  stopWhenSaturated?: boolean;
+  /**
+   * End the full-data paths once a tenfold drop in strength improves the training fit by less
+   * than 1% (path.ts PLATEAU_SPAN, PLATEAU_GAIN). Default false: every path covers its whole
+   * grid, except that a path always ends once its training fit is exact (path.ts EXACT_FIT_RATIO).
+   */
+  stopEarly?: boolean;
   /** Term names, one per predictor column. Default x1, x2, … */
   names?: readonly string[];
   /** Called after each unit of work (one mix's full-data path or one fold of one mix). */
@@ -214,10 +237,13 @@ export interface FitResult {
     maxKktViolationAllFits: number;
     converged: boolean;
     strongRuleMisses: number;
-    /** Where the chosen mix's path stopped because the fit saturated, or null. */
-    earlyStop: { index: number; strength: number } | null;
+    /** Where and why the chosen mix's path ended before its grid did, or null. */
+    earlyStop: { index: number; strength: number; reason: EarlyStop } | null;
     lowEndRatio: number;
+    /** Strengths in the grid (the paths may end earlier: see earlyStop). */
     strengthCount: number;
+    /** Strengths per tenfold drop of the grid used, (strengthCount − 1) / log10(1/lowEndRatio). */
+    gridDensity: number;
   };
   warnings: FitWarning[];
   model: LinearModel;
@@ -256,7 +282,7 @@ interface Prepared {
   strengthCount: number;
   lowEndRatio: number;
   settings: { tolerance: number; maxSweeps: number; exactRidge: boolean; signal?: CancelSignal };
-  stopWhenSaturated: boolean;
+  stopEarly: boolean;
 }
 
 function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target: ArrayLike<number>, options: FitOptions): Prepared {
@@ -295,10 +321,25 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
     if (upper[j] < 0) throw new InputError("bounds", `upper bound for ${label} is ${upper[j]}: bounds must allow zero (upper bound 0 or above)`);
   }
   const mixes = checkMixes(options.mixes ?? DEFAULT_MIXES);
-  const strengthCount = checkInteger(options.strengthCount ?? 100, "the number of strengths", 1, 10000, "setting");
-  const lowEndRatio = options.lowEndRatio ?? (n > p ? 1e-4 : 1e-2);
+  const lowEndRatio = options.lowEndRatio ?? (n > p ? LOW_END_TALL : LOW_END_WIDE);
   if (typeof lowEndRatio !== "number" || !(lowEndRatio > 0 && lowEndRatio < 1)) {
     throw new InputError("setting", `the low-end ratio must be between 0 and 1 (exclusive); got ${String(lowEndRatio)}`);
+  }
+  let strengthCount: number;
+  if (options.strengthCount !== undefined && options.strengthCount !== null) {
+    if (options.gridDensity !== undefined && options.gridDensity !== null) {
+      throw new InputError("setting", "the grid's size and its density were both given: give one (the size fixes the number of strengths, the density the strengths per tenfold drop)");
+    }
+    strengthCount = checkInteger(options.strengthCount, "the number of strengths", 1, MAX_GRID_SIZE, "setting");
+  } else {
+    const density = checkInteger(options.gridDensity ?? DEFAULT_GRID_DENSITY, "the grid density (strengths per tenfold drop)", 1, 1000, "setting");
+    strengthCount = gridSize(density, lowEndRatio);
+    if (strengthCount > MAX_GRID_SIZE) {
+      throw new InputError(
+        "setting",
+        `a grid density of ${density} down to a low end of ${lowEndRatio} gives ${strengthCount} strengths, more than ${MAX_GRID_SIZE}: lower the density or raise the low end`,
+      );
+    }
   }
   const tolerance = options.tolerance ?? 1e-9;
   if (!(tolerance > 0 && tolerance < 1)) throw new InputError("setting", `tolerance must be between 0 and 1; got ${String(tolerance)}`);
@@ -370,7 +411,7 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
     strengthCount,
     lowEndRatio,
     settings: { tolerance, maxSweeps, exactRidge: options.exactRidge ?? true, signal: options.signal },
-    stopWhenSaturated: options.stopWhenSaturated ?? true,
+    stopEarly: options.stopEarly ?? false,
   };
 }
 
@@ -656,9 +697,14 @@ function spectralFoldErrors(
  * Mean and standard error over folds at each strength. Folds are weighted by their held-out
  * weight W_k: mean = Σ W_k e_k / Σ W_k; SE = sqrt( [Σ W_k (e_k − mean)² / Σ W_k] · K/(K − 1) / K ),
  * which for equal folds is the SD over folds (divisor K − 1) / √K.
+ * `points` is the full-data path's length (shorter than the grid when that path ended early);
+ * every fold has an error for each of those strengths, never fewer (fold paths don't end early).
  */
 function summarise(errors: Float64Array[], foldWeights: number[], points: number): { mean: Float64Array; se: Float64Array } {
   const K = errors.length;
+  for (const fold of errors) {
+    if (fold.length !== points) throw new Error(`a fold has ${fold.length} errors for a path of ${points} strengths`);
+  }
   const mean = new Float64Array(points);
   const se = new Float64Array(points);
   let totalWeight = 0;
@@ -775,7 +821,7 @@ export function* fitSteps(
   if (data.strengthCount === 1) {
     throw new InputError(
       "setting",
-      "the number of strengths is 1: a grid of one strength leaves cross-validation nothing to choose (its one point is the top of the grid, the strongest penalty); use 2 or more (100 by default), or fit one point with a fixed strength",
+      "the number of strengths is 1: a grid of one strength leaves cross-validation nothing to choose (its one point is the top of the grid, the strongest penalty); use 2 or more (by default the grid has 20 per tenfold drop), or fit one point with a fixed strength",
     );
   }
   const activePlan = plan as FoldPlan;
@@ -792,17 +838,18 @@ export function* fitSteps(
     for (const i of activePlan.blocks[b]) s += data.weights ? data.weights[i] : 1;
     return s;
   });
-  const pathSettings = { ...data.settings, stopWhenSaturated: data.stopWhenSaturated };
+  const pathSettings = { ...data.settings, stopWhenExact: true, stopWhenFlat: data.stopEarly };
   const outcomes: MixOutcome[] = [];
   let allKkt = 0;
   let allConverged = true;
   let sweeps = 0;
   for (const mix of data.mixes) {
     const penalty = penaltyFor(full, data, mix);
-    const top = topStrength(full, penalty, data.settings);
+    const factorization = ridgeFactorization(full, penalty, data.settings.exactRidge, data.settings.signal);
+    const top = topStrength(full, penalty, data.settings, factorization);
     if (!(top > 0) || explainedExactly(data, full, penalty)) throw nothingToChoose(data, full, penalty);
     const grid = strengthGrid(top, data.strengthCount, data.lowEndRatio);
-    const run = runPath(full, penalty, grid, pathSettings);
+    const run = runPath(full, penalty, grid, pathSettings, factorization);
     sweeps += run.sweeps;
     allKkt = Math.max(allKkt, run.maxKktViolation);
     if (run.notConverged.length > 0) allConverged = false;
@@ -818,7 +865,9 @@ export function* fitSteps(
         // Exact ridge in kernel form: score held-out rows straight from the factorization.
         errors.push(spectralFoldErrors(problem, foldPenalty, run.strengths, heldOut(), measure, data.settings.signal));
       } else {
-        const foldRun = runPath(problem, foldPenalty, run.strengths, { ...pathSettings, stopWhenSaturated: false });
+        // Every fold solves exactly the strengths the full-data path computed (a fold's path
+        // never ends on its own), so each strength's error averages all K folds.
+        const foldRun = runPath(problem, foldPenalty, run.strengths, { ...pathSettings, stopWhenExact: false, stopWhenFlat: false });
         sweeps += foldRun.sweeps;
         allKkt = Math.max(allKkt, foldRun.maxKktViolation);
         if (foldRun.notConverged.length > 0) allConverged = false;
@@ -888,9 +937,9 @@ export function* fitSteps(
   }
   const unshown = units.warning();
   if (unshown) warnings.push(unshown);
-  if (bestIndex === best.run.strengths.length - 1 && !best.run.stoppedEarly) {
+  if (bestIndex === best.run.strengths.length - 1 && best.run.earlyStop === null) {
     warnings.push({
-      code: "early-stop",
+      code: "grid-edge",
       message: `the lowest cross-validated error is at the weakest strength tried (${formatNumber(best.run.strengths[bestIndex])}): a smaller low-end ratio may find a better model`,
     });
   }
@@ -1040,10 +1089,11 @@ function formatNumber(value: number): string {
 function fixedResult(data: Prepared, full: TrainingProblem, strength: number, constantColumns: string[], warnings: FitWarning[]): FitResult {
   const mix = data.mixes[0];
   const penalty = penaltyFor(full, data, mix);
-  const top = topStrength(full, penalty, data.settings);
+  const factorization = ridgeFactorization(full, penalty, data.settings.exactRidge, data.settings.signal);
+  const top = topStrength(full, penalty, data.settings, factorization);
   const grid = top > 0 ? strengthGrid(top, data.strengthCount, data.lowEndRatio).filter((s) => s > strength) : [];
   grid.push(strength);
-  const run = runPath(full, penalty, grid, { ...data.settings, stopWhenSaturated: false });
+  const run = runPath(full, penalty, grid, { ...data.settings, stopWhenExact: false, stopWhenFlat: false }, factorization);
   if (run.notConverged.length > 0) {
     warnings.push({ code: "not-converged", message: "the fit hit the sweep cap before converging: raise the sweep cap or loosen the tolerance" });
   }
@@ -1079,11 +1129,15 @@ function assemble(
   const model = linearModel(data.names, intercept, coefficients);
   const predictions = predict(model, data.original.x);
   const chosenWork = toOriginal(full, run.coefficients[index]).coefficients;
-  if (run.stoppedEarly) {
+  if (run.earlyStop) {
     const last = run.strengths.length - 1;
+    const where = `the path stopped at strength ${formatNumber(run.strengths[last])} (point ${last + 1} of ${data.strengthCount})`;
     warnings.push({
       code: "early-stop",
-      message: `the path stopped at strength ${formatNumber(run.strengths[last])} (point ${last + 1} of ${data.strengthCount}) because the fit stopped improving`,
+      message:
+        run.earlyStop === "exact-fit"
+          ? `${where}: the fit reproduces the training rows exactly there, so weaker strengths can't fit them any better`
+          : `${where}, as 'stop early' allows: over the last tenfold drop in strength the fit improved by less than 1%`,
     });
   }
   return {
@@ -1121,9 +1175,12 @@ function assemble(
       maxKktViolationAllFits: run.maxKktViolation,
       converged: run.notConverged.length === 0,
       strongRuleMisses: run.strongRuleMisses,
-      earlyStop: run.stoppedEarly ? { index: run.strengths.length - 1, strength: run.strengths[run.strengths.length - 1] } : null,
+      earlyStop: run.earlyStop
+        ? { index: run.strengths.length - 1, strength: run.strengths[run.strengths.length - 1], reason: run.earlyStop }
+        : null,
       lowEndRatio: data.lowEndRatio,
       strengthCount: data.strengthCount,
+      gridDensity: gridDensity(data.strengthCount, data.lowEndRatio),
     },
     warnings,
     model,
@@ -1182,6 +1239,7 @@ function leastSquaresResult(data: Prepared, full: TrainingProblem, constantColum
       earlyStop: null,
       lowEndRatio: data.lowEndRatio,
       strengthCount: data.strengthCount,
+      gridDensity: gridDensity(data.strengthCount, data.lowEndRatio),
     },
     warnings,
     model,

@@ -13,7 +13,8 @@ export type { LinearModel } from "./model";
 export { score, meanAbsoluteError, rootMeanSquaredError, rSquared, meanError } from "./metrics";
 export type { Score } from "./metrics";
 // Building blocks
-export { strengthGrid, runPath, topStrength, RIDGE_TOP_MIX } from "./path";
+export { strengthGrid, runPath, topStrength, RIDGE_TOP_DF } from "./path";
+export { penalizedSpectrum, ridgeDegreesOfFreedom, strengthForDegreesOfFreedom } from "./ridgeSpectral";
 export { softThreshold, coordinateViolation } from "./descent";
 export { RULE_WORDS, INTERCEPT_LABEL, MIX_LABEL, errorWithSe } from "./words";
 export { planFolds } from "./folds";

@@ -46,7 +46,7 @@
  * Example: x = [[1], [2], [3]], y = [1, 3, 5] gives intercept −1, coefficients [2], residual
  * standard deviation 0 and r2 = 1.
  */
-import { hypotenuse } from "./elementary";
+import { hypotenuse } from "./portableMath";
 import { CancelSignal, throwIfCancelled } from "./errors";
 import { ColumnMatrix } from "./matrix";
 import { CONSTANT_SPREAD_RATIO } from "./problem";

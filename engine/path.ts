@@ -3,44 +3,113 @@
  */
 import { CancelledError, CancelSignal } from "./errors";
 import { CoordinateDescent, DescentSettings, PenaltySpec } from "./descent";
-import { portableExp, portableLog } from "./elementary";
+import { portableExp, portableLog } from "./portableMath";
 import type { TrainingProblem } from "./problem";
-import { SpectralRidge } from "./ridgeSpectral";
-
-/** Mix used in place of α = 0 to define the top of a ridge grid (λ_max would be infinite). */
-export const RIDGE_TOP_MIX = 0.001;
+import { penalizedSpectrum, SpectralRidge, strengthForDegreesOfFreedom } from "./ridgeSpectral";
 
 /**
- * Path stops once the fraction of variance explained reaches this value…
- * (Friedman, Hastie & Tibshirani 2010 §2.5 stop the path when the fit saturates.)
+ * Effective degrees of freedom of the penalized terms at the top of a ridge grid (α = 0 has no
+ * strength at which every coefficient is zero). With shrink factors s_t = d_t²/(d_t² + λ)
+ * summing to df = δ, each s_t ≤ δ, and the ridge fit explains Σ_t (2s_t − s_t²) q_t² of the
+ * target's variance, where least squares explains Σ_t q_t² (q_t: the target's part along
+ * component t). So at the top the training R² is at most 2δ − δ² = 0.0975 of least squares'
+ * (under a tenth): the grid starts near the intercept-only fit, as a lasso grid does at λ_max,
+ * whatever the data's scale, correlation or number of predictors.
  */
-export const SATURATED_R2 = 0.999;
-/** …or improves by less than this fraction of itself from one strength to the next. */
-export const SATURATED_GAIN = 1e-5;
-/** Points always computed before the saturation test may stop a path. */
-export const MIN_POINTS_BEFORE_STOP = 5;
+export const RIDGE_TOP_DF = 0.05;
 
 /**
- * Log-spaced strengths from `top` down to `top × lowEndRatio`, `count` values.
- * Cost O(count). @example strengthGrid(1, 3, 0.01) // [1, 0.1, 0.01]
+ * A full-data path ends early, always, once its training fit is exact: the residual mean
+ * square at or below this fraction of the target's variance (about six digits of the target's
+ * spread reproduced; e.g. predictors ≥ rows at weak strengths). Weaker strengths could only
+ * fit the same rows as well again, and the model would interpolate noise. 1e-12 sits well above
+ * the rounding of the residual's computation (~1e-16 of the variance) and far below any real
+ * fit's residual.
+ */
+export const EXACT_FIT_RATIO = 1e-12;
+/**
+ * With the `stop early` setting, a path also ends once a tenfold drop in strength (from the
+ * strength PLATEAU_SPAN times the current one) lowered the training residual mean square by
+ * less than PLATEAU_GAIN of its value there: the fit has stopped changing, so the weaker
+ * strengths below would give the same model. Measured per tenfold drop, the rule does not
+ * depend on how densely the grid is laid out.
+ */
+export const PLATEAU_SPAN = 10;
+/** See PLATEAU_SPAN: 1% of the residual mean square per tenfold drop. */
+export const PLATEAU_GAIN = 0.01;
+
+/** Why a path ended before its grid did. */
+export type EarlyStop = "exact-fit" | "no-gain";
+
+/**
+ * Strengths per tenfold drop of the grid, by default. Neighbouring strengths then differ by a
+ * factor 10^(1/20) ≈ 1.12, fine enough that the cross-validated minimum found on the grid is
+ * within a fraction of a standard error of the minimum on a much finer grid, and a grid
+ * spanning 10⁵ (the default low end when rows > predictors) has 101 strengths.
+ */
+export const DEFAULT_GRID_DENSITY = 20;
+/**
+ * Default low end of the grid (its bottom as a fraction of its top) when rows > predictors.
+ * Measured (bench/lowEnd.ts, table in the README's Method section): on the demo data and the
+ * reference data with noise, every mix's lowest cross-validated error lies at or above 10^-3.5
+ * of its top, or cutting the grid there costs under 0.1 standard error; 1e-5 leaves a further
+ * factor of 30 of margin. At 20 strengths per tenfold drop that is 101 strengths.
+ */
+export const LOW_END_TALL = 1e-5;
+/**
+ * Default low end when predictors ≥ rows. Measured likewise on the quadratic diabetes and
+ * prostate models over blocks of rows: cut at 1e-2, the choice over all mixes gives up at most
+ * 0.13 standard error, and the mixes from 0.5 to the lasso are content on every block. Below,
+ * the fit nears interpolation and the lasso end slows sharply: a tenfold drop further costs ten
+ * times the time on the benchmark's 200 × 2000 case, for the same choice.
+ */
+export const LOW_END_WIDE = 1e-2;
+/** Most strengths a grid may have (from a size, or from a density and low end). */
+export const MAX_GRID_SIZE = 10000;
+
+/**
+ * Number of strengths of a grid laid out with `density` strengths per tenfold drop from its
+ * top down to top × lowEndRatio: round(density × log10(1/lowEndRatio)) + 1, and at least 2, so
+ * both ends are on it. Spread evenly on a log scale (strengthGrid), the grid's realised density,
+ * gridDensity(count, lowEndRatio), is then within half a strength per span of the one asked for,
+ * and equal to it when density × log10(1/lowEndRatio) is whole.
+ * @example gridSize(20, 1e-4) // 81
+ */
+export function gridSize(density: number, lowEndRatio: number): number {
+  // Math.log10 is exact at powers of ten, and a last-bit difference between engines could
+  // change the rounded count only at an exact half: safe here, unlike the grid's powers.
+  return Math.max(2, Math.round(density * Math.log10(1 / lowEndRatio)) + 1);
+}
+
+/** Strengths per tenfold drop of a grid of `count` strengths: (count − 1) / log10(1/lowEndRatio). */
+export function gridDensity(count: number, lowEndRatio: number): number {
+  return count > 1 ? (count - 1) / Math.log10(1 / lowEndRatio) : 0;
+}
+
+/**
+ * `count` strengths evenly spaced on a log scale from `top` down to `top × lowEndRatio`, both
+ * ends exact: strength k is top × lowEndRatio^(k/(count − 1)). The powers come from
+ * portableExp/portableLog, so the grid (and every fit on it) is the same in every JavaScript
+ * engine. Cost O(count).
+ * @example strengthGrid(1, 3, 0.01) // [1, 0.1, 0.01]
  */
 export function strengthGrid(top: number, count: number, lowEndRatio: number): number[] {
   if (count === 1) return [top];
   const out = new Array<number>(count);
-  // portableLog/portableExp rather than Math.log/Math.exp: the same grid, bit for bit, in every
-  // JavaScript engine (the add-in's worker and the command line), so fits down it are too.
-  const logTop = portableLog(top);
   const step = portableLog(lowEndRatio) / (count - 1);
-  for (let k = 0; k < count; k++) out[k] = portableExp(logTop + k * step);
+  for (let k = 0; k < count; k++) out[k] = top * portableExp(k * step);
   out[0] = top;
+  out[count - 1] = top * lowEndRatio;
   return out;
 }
 
 export type { CancelSignal } from "./errors";
 
 export interface PathSettings extends DescentSettings {
-  /** Stop when the fit saturates (see SATURATED_R2 / SATURATED_GAIN). */
-  stopWhenSaturated: boolean;
+  /** End the path once the training fit is exact (see EXACT_FIT_RATIO). */
+  stopWhenExact: boolean;
+  /** End the path once a tenfold drop in strength no longer improves the fit (see PLATEAU_SPAN). */
+  stopWhenFlat: boolean;
   /** Use the eigendecomposition for ridge when allowed (exact, faster); else coordinate descent. */
   exactRidge: boolean;
   signal?: CancelSignal;
@@ -60,8 +129,8 @@ export interface PathRun {
   /** Indices of strengths at which the sweep cap was hit. */
   notConverged: number[];
   strongRuleMisses: number;
-  /** True when the saturation test ended the path before the grid's end. */
-  stoppedEarly: boolean;
+  /** Why the path ended before the grid's end, or null when it covered the whole grid. */
+  earlyStop: EarlyStop | null;
   solver: "descent" | "spectral";
 }
 
@@ -88,18 +157,39 @@ export function spectralApplies(problem: TrainingProblem, penalty: PenaltySpec):
 }
 
 /**
- * Top of the grid for this problem and penalty: fits the unpenalized predictors, then the
- * smallest λ with every penalized coefficient zero (α replaced by RIDGE_TOP_MIX when α = 0).
- * Returns 0 when nothing is left to explain.
+ * The exact ridge factorization of this problem when it applies and is wanted (see
+ * spectralApplies), else null. Built once per problem: it serves both the top of the grid and
+ * every point of the path.
  */
-export function topStrength(problem: TrainingProblem, penalty: PenaltySpec, settings: DescentSettings): number {
+export function ridgeFactorization(problem: TrainingProblem, penalty: PenaltySpec, exactRidge: boolean, signal?: CancelSignal): SpectralRidge | null {
+  return exactRidge && spectralApplies(problem, penalty) ? new SpectralRidge(problem, penalty.multipliers, signal) : null;
+}
+
+/**
+ * Top of the grid for this problem and penalty, after fitting the unpenalized predictors:
+ * - α > 0: the smallest λ with every penalized coefficient zero (λ_max, Friedman, Hastie &
+ *   Tibshirani 2010 §2.5, with multipliers and bounds).
+ * - α = 0: the λ at which the ridge fit's effective degrees of freedom over the penalized terms,
+ *   df(λ) = Σ_t d_t²/(d_t² + λ) (ESL 2nd ed. eq. 3.50), equal RIDGE_TOP_DF; d_t² are the
+ *   eigenvalues of the objective's penalized Gram matrix with unpenalized terms projected out
+ *   (ridgeSpectral.ts penalizedSpectrum). `spectral`, when given, supplies them without a
+ *   second factorization (no multiplier is 0 then). Bounds don't move this top: it places the
+ *   grid, and the bounded path is solved down it by coordinate descent.
+ * Returns 0 when nothing is left to explain (no penalized predictor correlates with what the
+ * unpenalized ones leave, in a direction its bounds allow).
+ */
+export function topStrength(problem: TrainingProblem, penalty: PenaltySpec, settings: DescentSettings, spectral: SpectralRidge | null = null): number {
   const solver = new CoordinateDescent(problem, penalty, settings);
   solver.fitUnpenalized();
-  return solver.topStrength(penalty.mix > 0 ? penalty.mix : RIDGE_TOP_MIX);
+  if (penalty.mix > 0) return solver.topStrength(penalty.mix);
+  if (!(solver.topStrength(1) > 0)) return 0;
+  const values = spectral ? spectral.eigenvalues : penalizedSpectrum(problem, penalty.multipliers, settings.signal);
+  return strengthForDegreesOfFreedom(values, RIDGE_TOP_DF);
 }
 
 /**
  * Solves down `strengths` (decreasing), each point warm-started from the previous one.
+ * `factorization`: this problem's ridgeFactorization when the caller already built it.
  * Cost per point: sweeps × (active set × p) in gram form, sweeps × (active set × n) in
  * naive form, plus one O(n·p) KKT pass in naive form; the spectral ridge path costs one
  * factorization, then O(p²) or O(n·p) per point.
@@ -109,10 +199,11 @@ export function runPath(
   penalty: PenaltySpec,
   strengths: readonly number[],
   settings: PathSettings,
+  factorization: SpectralRidge | null = null,
 ): PathRun {
   const solver = new CoordinateDescent(problem, penalty, settings);
   const top = solver.fitUnpenalized();
-  const spectral = settings.exactRidge && spectralApplies(problem, penalty) ? new SpectralRidge(problem, penalty.multipliers, settings.signal) : null;
+  const spectral = factorization ?? ridgeFactorization(problem, penalty, settings.exactRidge, settings.signal);
   const run: PathRun = {
     strengths: [],
     coefficients: [],
@@ -122,23 +213,41 @@ export function runPath(
     maxKktViolation: 0,
     notConverged: top.converged ? [] : [0],
     strongRuleMisses: 0,
-    stoppedEarly: false,
+    earlyStop: null,
     solver: spectral ? "spectral" : "descent",
   };
   const yVariance = problem.std.yVariance;
   const exact = new Float64Array(problem.p);
+  // Residual mean square at each computed point, and the point a tenfold drop above the
+  // current one (PLATEAU_SPAN; strengths decrease, so it only moves forward).
+  const residuals: number[] = [];
+  let anchor = 0;
+  /** Why the path ends at point k (after it), or null when it goes on. */
+  const endsAt = (k: number, residual: number): EarlyStop | null => {
+    if (k + 1 === strengths.length) return null;
+    if (settings.stopWhenExact && residual <= EXACT_FIT_RATIO * yVariance) return "exact-fit";
+    if (settings.stopWhenFlat) {
+      // 1e-9: a grid laid out as exact powers of ten may land a hair off in floating point.
+      const reach = PLATEAU_SPAN * strengths[k] * (1 - 1e-9);
+      while (anchor + 1 < k && strengths[anchor + 1] >= reach) anchor++;
+      if (strengths[anchor] >= reach && residuals[anchor] - residual < PLATEAU_GAIN * residuals[anchor]) return "no-gain";
+    }
+    return null;
+  };
   for (let k = 0; k < strengths.length; k++) {
     if (settings.signal?.aborted) throw new CancelledError();
     const lambda = strengths[k];
     let kkt: number;
-    let r2: number;
+    let residual: number;
+    let stop: EarlyStop | null;
     if (spectral) {
       spectral.coefficientsAt(lambda, exact);
       // The residual's size comes from the factorization (O(n) or O(p)); the gradient, which
       // costs a pass over the data in residual form, is rebuilt to certify the path's ends
       // (gram form: every point, it is cheap there).
-      r2 = yVariance > 0 ? 1 - spectral.residualMeanSquareAt(lambda) / yVariance : 0;
-      if (problem.kind === "gram" || k === 0 || k === strengths.length - 1) {
+      residual = spectral.residualMeanSquareAt(lambda);
+      stop = endsAt(k, residual);
+      if (problem.kind === "gram" || k === 0 || k === strengths.length - 1 || stop !== null) {
         solver.setCoefficients(exact);
         kkt = solver.kktViolation(lambda);
       } else {
@@ -150,8 +259,10 @@ export function runPath(
       run.strongRuleMisses += report.strongRuleMisses;
       if (!report.converged) run.notConverged.push(k);
       kkt = report.kktViolation;
-      r2 = yVariance > 0 ? 1 - solver.residualMeanSquare() / yVariance : 0;
+      residual = solver.residualMeanSquare();
+      stop = endsAt(k, residual);
     }
+    const r2 = yVariance > 0 ? 1 - residual / yVariance : 0;
     if (kkt > run.maxKktViolation) run.maxKktViolation = kkt;
     const coef = Float64Array.from(spectral ? exact : solver.coef);
     let nonzero = 0;
@@ -160,12 +271,10 @@ export function runPath(
     run.coefficients.push(coef);
     run.r2.push(r2);
     run.nonzero.push(nonzero);
-    if (settings.stopWhenSaturated && k + 1 >= MIN_POINTS_BEFORE_STOP && k + 1 < strengths.length) {
-      const previous = run.r2[k - 1];
-      if (r2 >= SATURATED_R2 || r2 - previous < SATURATED_GAIN * r2) {
-        run.stoppedEarly = true;
-        break;
-      }
+    residuals.push(residual);
+    if (stop !== null) {
+      run.earlyStop = stop;
+      break;
     }
   }
   return run;

@@ -14,7 +14,205 @@
  */
 import { symmetricEigen } from "./eigen";
 import { CancelSignal, throwIfCancelled } from "./errors";
+import { portableExp, portableLog } from "./portableMath";
 import { dotRange, TrainingProblem } from "./problem";
+
+/**
+ * Eigenvalues of a symmetric matrix (row-major, size × size), rounding negatives clipped to 0
+ * (eigen.ts: the same bits ml-matrix's decomposition gave, with cancel checkpoints).
+ */
+function symmetricEigenvalues(symmetric: Float64Array, size: number, signal?: CancelSignal): Float64Array {
+  const out = new Float64Array(size);
+  if (size === 0) return out;
+  const values = symmetricEigen(symmetric, size, signal).values;
+  for (let t = 0; t < size; t++) out[t] = Math.max(values[t], 0);
+  return out;
+}
+
+/**
+ * Eigenvalues d_t² of the penalized part of the ridge problem, as the objective scales it:
+ * those of D⁻¹ S D⁻¹, where D = diag(√m_j) over the penalized free predictors and S is their
+ * block of G̃ = X̃ᵀΩX̃ (Ω = w/Σw) with the unpenalized free predictors (m_j = 0) projected out,
+ * S = G̃_PP − G̃_PU G̃_UU⁺ G̃_UP. The ridge fit at strength λ is then the unpenalized fit plus
+ * Σ_t d_t²/(d_t² + λ) × (component t of what is left), so these values give its effective
+ * degrees of freedom (Hastie, Tibshirani & Friedman, ESL 2nd ed. eq. 3.50) without the
+ * unpenalized terms, which are fitted at every strength and do not count.
+ *
+ * Works for any multipliers and bounds (the bounds don't enter: this describes the
+ * unconstrained ridge problem). Gram form: eigen-decompositions of G̃_UU (u × u) and of the
+ * |P| × |P| matrix. Naive form: the projection is applied to the rows Ω^½ X̃_P D⁻¹ (n × |P|),
+ * whose smaller Gram matrix (|P| × |P| or the n × n kernel) has the same nonzero eigenvalues.
+ * Cost O(min(n, |P|)³ + n·|P|·min(n, |P|)) in naive form, O(|P|³ + |P|²·u) in gram form.
+ */
+export function penalizedSpectrum(problem: TrainingProblem, multipliers: ArrayLike<number>, signal?: CancelSignal): Float64Array {
+  const frozen = problem.std.frozen;
+  const penalized: number[] = [];
+  const unpenalized: number[] = [];
+  for (let j = 0; j < problem.p; j++) {
+    if (frozen[j]) continue;
+    if (multipliers[j] > 0) penalized.push(j);
+    else unpenalized.push(j);
+  }
+  const f = penalized.length;
+  const u = unpenalized.length;
+  const root = penalized.map((j) => Math.sqrt(multipliers[j]));
+  // Orthonormal eigenvectors and eigenvalues of G̃_UU, keeping the numerically nonzero ones
+  // (a relative cut of 1e-12 drops exact collinearity among the unpenalized columns).
+  const cross = (a: number, b: number): number => {
+    if (problem.kind === "gram") return (problem.gram as Float64Array)[a * problem.p + b];
+    const xs = (problem.xs as { data: Float64Array }).data;
+    const omega = problem.omega as Float64Array;
+    const n = problem.n;
+    let s = 0;
+    for (let i = 0; i < n; i++) s += omega[i] * xs[a * n + i] * xs[b * n + i];
+    return s;
+  };
+  const basis: { vector: Float64Array; value: number }[] = [];
+  if (u > 0) {
+    const guu = new Float64Array(u * u);
+    for (let a = 0; a < u; a++) {
+      throwIfCancelled(signal);
+      for (let b = a; b < u; b++) guu[a * u + b] = guu[b * u + a] = cross(unpenalized[a], unpenalized[b]);
+    }
+    const decomposition = symmetricEigen(guu, u, signal);
+    const values = decomposition.values;
+    let largest = -Infinity;
+    for (let t = 0; t < u; t++) largest = Math.max(largest, values[t]);
+    for (let t = 0; t < u; t++) {
+      if (values[t] > 1e-12 * largest) basis.push({ vector: decomposition.vectors.slice(t * u, (t + 1) * u), value: values[t] });
+    }
+  }
+  if (problem.kind === "gram") {
+    const p = problem.p;
+    const gram = problem.gram as Float64Array;
+    const symmetric = new Float64Array(f * f);
+    for (let a = 0; a < f; a++) for (let b = 0; b < f; b++) symmetric[a * f + b] = gram[penalized[a] * p + penalized[b]];
+    // S = G̃_PP − Σ_t r_t r_tᵀ with r_t = G̃_PU q_t / √μ_t over the kept eigenpairs (q_t, μ_t) of G̃_UU.
+    const r = new Float64Array(f);
+    for (const { vector, value } of basis) {
+      throwIfCancelled(signal);
+      const scale = 1 / Math.sqrt(value);
+      for (let a = 0; a < f; a++) {
+        let s = 0;
+        for (let c = 0; c < u; c++) s += gram[penalized[a] * p + unpenalized[c]] * vector[c];
+        r[a] = s * scale;
+      }
+      for (let a = 0; a < f; a++) for (let b = 0; b < f; b++) symmetric[a * f + b] -= r[a] * r[b];
+    }
+    for (let a = 0; a < f; a++) for (let b = 0; b < f; b++) symmetric[a * f + b] /= root[a] * root[b];
+    return symmetricEigenvalues(symmetric, f, signal);
+  }
+  const n = problem.n;
+  const xs = (problem.xs as { data: Float64Array }).data;
+  const omega = problem.omega as Float64Array;
+  const rootOmega = new Float64Array(n);
+  for (let i = 0; i < n; i++) rootOmega[i] = Math.sqrt(omega[i]);
+  // Z = Ω^½ X̃_P D⁻¹, column-major n × f.
+  const z = new Float64Array(n * f);
+  for (let a = 0; a < f; a++) {
+    const off = penalized[a] * n;
+    for (let i = 0; i < n; i++) z[a * n + i] = (rootOmega[i] * xs[off + i]) / root[a];
+  }
+  // Project out span(Ω^½ X̃_U): its orthonormal basis is b_t = Ω^½ X̃_U q_t / √μ_t.
+  const direction = new Float64Array(n);
+  for (const { vector, value } of basis) {
+    throwIfCancelled(signal);
+    direction.fill(0);
+    for (let c = 0; c < u; c++) {
+      const off = unpenalized[c] * n;
+      const weight = vector[c] / Math.sqrt(value);
+      for (let i = 0; i < n; i++) direction[i] += weight * rootOmega[i] * xs[off + i];
+    }
+    for (let a = 0; a < f; a++) {
+      const along = dotRange(direction, 0, z, a * n, n);
+      for (let i = 0; i < n; i++) z[a * n + i] -= along * direction[i];
+    }
+  }
+  if (f <= n) {
+    const symmetric = new Float64Array(f * f);
+    for (let a = 0; a < f; a++) {
+      throwIfCancelled(signal);
+      for (let b = a; b < f; b++) symmetric[a * f + b] = symmetric[b * f + a] = dotRange(z, a * n, z, b * n, n);
+    }
+    return symmetricEigenvalues(symmetric, f, signal);
+  }
+  // The n × n kernel Z Zᵀ, from rows copied out once so each entry is one stride-1 dot product.
+  const rows = new Float64Array(n * f);
+  for (let a = 0; a < f; a++) for (let i = 0; i < n; i++) rows[i * f + a] = z[a * n + i];
+  const kernel = new Float64Array(n * n);
+  for (let i = 0; i < n; i++) {
+    throwIfCancelled(signal);
+    for (let k = i; k < n; k++) kernel[i * n + k] = kernel[k * n + i] = dotRange(rows, i * f, rows, k * f, f);
+  }
+  return symmetricEigenvalues(kernel, n, signal);
+}
+
+/**
+ * Effective degrees of freedom of the ridge fit at strength λ over the penalized terms,
+ * df(λ) = Σ_t d_t² / (d_t² + λ) (ESL 2nd ed. eq. 3.50), from `penalizedSpectrum`'s values.
+ */
+export function ridgeDegreesOfFreedom(values: ArrayLike<number>, lambda: number): number {
+  let df = 0;
+  for (let t = 0; t < values.length; t++) if (values[t] > 0) df += values[t] / (values[t] + lambda);
+  return df;
+}
+
+/**
+ * The strength λ > 0 at which df(λ) = `target`, or 0 when every value is 0. `target` must be
+ * positive and below the rank (the number of positive values). df falls strictly from the rank
+ * at λ = 0 to 0, so the root is unique. Its bracket: λ_hi = Σd²/target (df ≤ Σd²/λ = target
+ * there) and, for target < 1, λ_lo = d_max²(1 − target)/target (the largest term alone gives
+ * df ≥ target there), a ratio of at most rank/(1 − target); for larger targets λ_lo steps down
+ * from λ_hi tenfold until df ≥ target. Newton steps on u = log λ (df is smooth and monotone
+ * there, slope −Σ s_t(1 − s_t) with s_t = d_t²/(d_t² + λ)) fall back to bisection when a step
+ * leaves the bracket. Converges to rounding in a handful of steps; cost O(values) a step.
+ */
+export function strengthForDegreesOfFreedom(values: ArrayLike<number>, target: number): number {
+  let trace = 0;
+  let largest = 0;
+  let rank = 0;
+  for (let t = 0; t < values.length; t++) {
+    if (values[t] > 0) {
+      trace += values[t];
+      rank++;
+    }
+    if (values[t] > largest) largest = values[t];
+  }
+  if (!(largest > 0)) return 0;
+  if (!(target > 0 && target < rank)) throw new Error(`degrees of freedom ${target} must be between 0 and the rank ${rank}`);
+  // portableExp/portableLog: the same top in every JavaScript engine.
+  let hi = portableLog(trace / target);
+  let lo: number;
+  if (target < 1) {
+    lo = portableLog((largest * (1 - target)) / target);
+  } else {
+    lo = hi;
+    while (ridgeDegreesOfFreedom(values, portableExp(lo)) < target) lo -= Math.LN10;
+  }
+  let u = hi;
+  for (let step = 0; step < 200; step++) {
+    const lambda = portableExp(u);
+    let df = 0;
+    let slope = 0;
+    for (let t = 0; t < values.length; t++) {
+      if (!(values[t] > 0)) continue;
+      const s = values[t] / (values[t] + lambda);
+      df += s;
+      slope -= s * (1 - s);
+    }
+    const gap = df - target;
+    if (gap === 0) return lambda;
+    if (gap > 0) lo = u;
+    else hi = u;
+    let next = u - gap / slope;
+    if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
+    if (Math.abs(next - u) <= 4 * Number.EPSILON * Math.max(1, Math.abs(u)) || hi - lo <= 4 * Number.EPSILON * Math.max(1, Math.abs(u))) {
+      return portableExp(next);
+    }
+    u = next;
+  }
+  return portableExp(u);
+}
 
 export class SpectralRidge {
   private readonly problem: TrainingProblem;
@@ -105,6 +303,11 @@ export class SpectralRidge {
     let projectedSquare = 0;
     for (let t = 0; t < size; t++) projectedSquare += this.projected[t] * this.projected[t];
     this.unreachable = problem.kind === "gram" ? NaN : Math.max(problem.std.yVariance - projectedSquare, 0);
+  }
+
+  /** Eigenvalues of the factorized matrix (penalizedSpectrum's values, as no multiplier is 0 here). */
+  get eigenvalues(): Float64Array {
+    return this.values;
   }
 
   /**

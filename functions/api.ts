@@ -107,15 +107,17 @@ function fitOptions(dataset: Dataset, settings: Settings, mixes: number[] | null
     }
     options.strength = settings.strength;
   }
+  if (settings.gridDensity !== null) options.gridDensity = settings.gridDensity;
   if (settings.gridSize !== null) {
     if (settings.gridSize === 1 && settings.strength === null) {
       throw new SettingError(
-        "'grid size' is 1: cross-validation would try only the top of the grid, where every penalized coefficient is 0, so the model would be the intercept alone; use 2 or more (100 by default), or give a fixed 'strength'",
+        "'grid size' is 1: cross-validation would try only the top of the grid, where every penalized coefficient is 0, so the model would be the intercept alone; use 2 or more (by default the grid has 20 per tenfold drop), or give a fixed 'strength'",
       );
     }
     options.strengthCount = settings.gridSize;
   }
   if (settings.lowEnd !== null) options.lowEndRatio = settings.lowEnd;
+  if (settings.stopEarly !== null) options.stopEarly = settings.stopEarly;
   if (settings.folds !== null) {
     if (dataset.foldLabels) {
       const groups = [...new Set(dataset.foldLabels)];

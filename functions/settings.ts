@@ -17,8 +17,10 @@
  * | `error`          | `error measure`, `measure`         | `mse` / `squared`, `mae` / `absolute`                     | mse                      |
  * | `standardize`    | `standardise`                      | yes / no (also true/false, on/off, 1/0)                   | yes                      |
  * | `intercept`      |                                    | yes / no                                                  | yes                      |
- * | `grid size`      | `strength count`                   | whole number 1 to 10000                                   | 100                      |
- * | `low end`        | `low end ratio`                    | number strictly between 0 and 1                           | 1e-4 (1e-2 when predictors ≥ rows) |
+ * | `grid density`   | `strengths per decade`, `strengths per tenfold drop` | whole number 1 to 1000: strengths per tenfold drop in strength | 20           |
+ * | `grid size`      | `strength count`                   | whole number 1 to 10000, instead of a density             | from the density         |
+ * | `low end`        | `low end ratio`                    | number strictly between 0 and 1                           | 1e-5 (1e-2 when predictors ≥ rows) |
+ * | `stop early`     | `early stop`                       | yes / no: end a path once a tenfold drop in strength improves the fit by < 1% | no |
  * | `strength`       | `fixed strength`, `lambda`         | number ≥ 0: fit this strength only, no cross-validation   | (cross-validate)         |
  * | `fold column`    | `fold labels`                      | a predictors column name: its values label the folds     | (random folds)           |
  * | `time order`     | `time ordered`                     | yes / no: rows are in time order                          | no                       |
@@ -60,8 +62,10 @@ export interface Settings {
   measure: ErrorMeasure | null;
   standardize: boolean | null;
   intercept: boolean | null;
+  gridDensity: number | null;
   gridSize: number | null;
   lowEnd: number | null;
+  stopEarly: boolean | null;
   strength: number | null;
   foldColumn: string | null;
   timeOrdered: boolean | null;
@@ -82,8 +86,10 @@ export function defaultSettings(): Settings {
     measure: null,
     standardize: null,
     intercept: null,
+    gridDensity: null,
     gridSize: null,
     lowEnd: null,
+    stopEarly: null,
     strength: null,
     foldColumn: null,
     timeOrdered: null,
@@ -251,6 +257,11 @@ const SPECS: SettingSpec[] = [
   { name: "error", aliases: ["error measure", "measure"], apply: (s, v) => (s.measure = word("error", v, MEASURES, "mse or mae") as ErrorMeasure) },
   { name: "standardize", aliases: ["standardise"], apply: (s, v) => (s.standardize = yesNo("standardize", v)) },
   { name: "intercept", aliases: [], apply: (s, v) => (s.intercept = yesNo("intercept", v)) },
+  {
+    name: "grid density",
+    aliases: ["strengths per decade", "strengths per tenfold drop"],
+    apply: (s, v) => (s.gridDensity = wholeNumber("grid density", v, 1, 1000)),
+  },
   { name: "grid size", aliases: ["strength count"], apply: (s, v) => (s.gridSize = wholeNumber("grid size", v, 1, 10000)) },
   {
     name: "low end",
@@ -262,6 +273,7 @@ const SPECS: SettingSpec[] = [
       s.lowEnd = n;
     },
   },
+  { name: "stop early", aliases: ["early stop"], apply: (s, v) => (s.stopEarly = yesNo("stop early", v)) },
   {
     name: "strength",
     aliases: ["fixed strength", "lambda"],
@@ -428,6 +440,9 @@ export function parseSettings(raw: unknown): Settings {
     if (seen.has(spec)) throw new SettingError(`'${spec.name}' is given twice: give each setting once`);
     seen.add(spec);
     spec.apply(settings, entry.value);
+  }
+  if (settings.gridDensity !== null && settings.gridSize !== null) {
+    throw new SettingError("'grid density' and 'grid size' both set how many strengths the grid has: give one");
   }
   if (settings.foldColumn !== null && settings.timeOrdered) {
     throw new SettingError("'fold column' and 'time order' can't be used together: choose one way to form the folds");

@@ -36,10 +36,14 @@ export interface CommandOptions {
   seed: number | null;
   rule: ChoiceRule | null;
   measure: ErrorMeasure | null;
-  /** Number of strengths in the grid. */
+  /** Strengths per tenfold drop of the grid. */
+  gridDensity: number | null;
+  /** Number of strengths in the grid (instead of a density). */
   count: number | null;
   /** Bottom of the grid as a fraction of its top. */
   lowEnd: number | null;
+  /** End a path once a tenfold drop in strength improves the fit by less than 1%. */
+  stopEarly: boolean;
   timeOrdered: boolean;
   /** Column whose values label the folds (grouped cross-validation). */
   foldColumn: string | null;
@@ -69,8 +73,13 @@ Model
   --mix 0,0.5,1             mixes to try: 0 ridge, 1 lasso (default 0,0.25,0.5,0.75,1)
   --strength <value>        fit exactly this strength at a single --mix, no cross-validation;
                             0 gives the exact least-squares fit
-  --count <n>               number of strengths in the grid (default 100)
-  --low-end <ratio>         bottom of the grid as a fraction of its top
+  --grid-density <n>        strengths per tenfold drop in strength (default 20: 101 strengths
+                            down to a low end of 1e-5)
+  --count <n>               number of strengths in the grid, instead of --grid-density
+  --low-end <ratio>         bottom of the grid as a fraction of its top (default 1e-5 when
+                            rows > predictors, 1e-2 when predictors >= rows)
+  --stop-early              end a path once a tenfold drop in strength improves the training
+                            fit by less than 1% (default: every path covers its whole grid)
   --no-standardize          penalize predictors in their own units
   --no-intercept            fit without an intercept
 
@@ -105,8 +114,10 @@ const OPTIONS: Record<string, Kind> = {
   "fold-column": "text",
   mix: "numberList",
   strength: "number",
+  "grid-density": "number",
   count: "number",
   "low-end": "number",
+  "stop-early": "flag",
   "no-standardize": "flag",
   "no-intercept": "flag",
   folds: "number",
@@ -230,6 +241,9 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
   if (measure !== null && measure !== "mse" && measure !== "mae") {
     throw new CommandError(`--error must be mse or mae; got '${text(errorFlag)}'`);
   }
+  if (seen.has("grid-density") && seen.has("count")) {
+    throw new CommandError("--grid-density and --count both set how many strengths the grid has: give one");
+  }
   const predictors = list("predictors");
   const exclude = list("exclude");
   if (predictors !== null && exclude !== null) {
@@ -248,7 +262,7 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
   const count = number("count");
   if (count === 1 && strength === null) {
     throw new CommandError(
-      "--count 1 tries only the top of the grid, where every penalized coefficient is 0, so the model would be the intercept alone: use 2 or more (default 100), or fit one point with --strength",
+      "--count 1 tries only the top of the grid, where every penalized coefficient is 0, so the model would be the intercept alone: use 2 or more (by default 20 per tenfold drop), or fit one point with --strength",
     );
   }
 
@@ -266,8 +280,10 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
       seed,
       rule,
       measure: measure as ErrorMeasure | null,
+      gridDensity: number("grid-density"),
       count,
       lowEnd: number("low-end"),
+      stopEarly: seen.has("stop-early"),
       timeOrdered: seen.has("time-ordered"),
       foldColumn: text("fold-column"),
       weightsColumn: text("weights-column"),
@@ -298,8 +314,10 @@ export function toFitOptions(
   if (options.seed !== null) out.seed = options.seed;
   if (options.rule !== null) out.rule = options.rule;
   if (options.measure !== null) out.measure = options.measure;
+  if (options.gridDensity !== null) out.gridDensity = options.gridDensity;
   if (options.count !== null) out.strengthCount = options.count;
   if (options.lowEnd !== null) out.lowEndRatio = options.lowEnd;
+  if (options.stopEarly) out.stopEarly = true;
   if (data.weights !== null) out.weights = data.weights;
   if (data.foldLabels !== null) out.foldLabels = data.foldLabels;
   return out;

@@ -78,8 +78,9 @@ export interface JsonReport {
     maxKktViolation: number | null;
     maxKktViolationAllFits: number | null;
     strengthCount: number;
+    gridDensity: number | null;
     lowEndRatio: number | null;
-    earlyStop: { index: number; strength: number | null } | null;
+    earlyStop: { index: number; strength: number | null; reason: string } | null;
   };
   /** The fitted model as the engine saves it (terms, intercept, coefficients). */
   model: LinearModel;
@@ -169,8 +170,9 @@ export function jsonReport(result: FitResult, context: ReportContext): JsonRepor
       maxKktViolation: finiteOrNull(d.maxKktViolation),
       maxKktViolationAllFits: finiteOrNull(d.maxKktViolationAllFits),
       strengthCount: d.strengthCount,
+      gridDensity: finiteOrNull(d.gridDensity),
       lowEndRatio: finiteOrNull(d.lowEndRatio),
-      earlyStop: d.earlyStop ? { index: d.earlyStop.index, strength: finiteOrNull(d.earlyStop.strength) } : null,
+      earlyStop: d.earlyStop ? { index: d.earlyStop.index, strength: finiteOrNull(d.earlyStop.strength), reason: d.earlyStop.reason } : null,
     },
     model: {
       kind: result.model.kind,
@@ -255,6 +257,10 @@ export function textReport(result: FitResult, context: ReportContext): string {
   if (result.choices && result.cv) {
     const measure = result.cv.measure.toUpperCase();
     lines.push(`Cross-validation: ${schemeText(result, context.foldColumn)}, scored by ${measure}`);
+    const d = result.diagnostics;
+    lines.push(
+      `Grid: ${d.strengthCount} strengths per mix (${formatNumber(d.gridDensity, 4)} per tenfold drop), from each mix's top down to ${formatNumber(d.lowEndRatio)} of it`,
+    );
     // One column per rule, the chosen one marked in its heading.
     const rules = ["lowest", "one-se"] as const;
     const points = [result.choices.lowest, result.choices.oneSe];

@@ -18,8 +18,8 @@
  *               header-toggle (select: auto / yes / no); setting-weights-column (select of the
  *               predictors' column names)
  *   Settings    setting-mixes, setting-folds, setting-rule, setting-error, setting-seed,
- *               setting-standardize, setting-intercept, setting-strength, setting-grid-size,
- *               setting-low-end, setting-time-order, setting-fold-column, setting-penalty,
+ *               setting-standardize, setting-intercept, setting-strength, setting-grid-density,
+ *               setting-grid-size, setting-low-end, setting-stop-early, setting-time-order, setting-fold-column, setting-penalty,
  *               setting-no-penalty, setting-lower, setting-upper, setting-zero-is-missing;
  *               each message under a field: <field id>-error (e.g. setting-folds-error);
  *               settings-problem (a clash between settings); more-settings (the <details>)

@@ -95,7 +95,7 @@ export const EXAMPLES: readonly Example[] = [
     id: "PATH",
     formula: `=SHRINK.PATH(${T}, ${P})`,
     caption: "coefficient path",
-    note: "The coefficients of the chosen mix at every strength, from the strongest penalty (all zero) down; the path stops early once the fit stops improving.",
+    note: "The coefficients of the chosen mix at every strength, from the strongest penalty (all zero) down to the grid's low end: one row per strength.",
     run: (runner, sheet) => api.path(runner, sheet.target, sheet.predictors, null, null),
   },
   {

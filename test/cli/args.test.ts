@@ -51,8 +51,10 @@ describe("parseArgs", () => {
       seed: null,
       rule: null,
       measure: null,
+      gridDensity: null,
       count: null,
       lowEnd: null,
+      stopEarly: false,
       timeOrdered: false,
       foldColumn: null,
       weightsColumn: null,
@@ -80,6 +82,7 @@ describe("parseArgs", () => {
       "30",
       "--low-end",
       "0.001",
+      "--stop-early",
       "--time-ordered",
       "--weights-column",
       "w",
@@ -99,6 +102,7 @@ describe("parseArgs", () => {
       measure: "mae",
       count: 30,
       lowEnd: 0.001,
+      stopEarly: true,
       timeOrdered: true,
       weightsColumn: "w",
       standardize: false,
@@ -118,6 +122,7 @@ describe("parseArgs", () => {
       measure: "mae",
       strengthCount: 30,
       lowEndRatio: 0.001,
+      stopEarly: true,
       weights: [1, 2],
     });
   });
@@ -135,6 +140,16 @@ describe("parseArgs", () => {
     expect(USAGE).toContain("--error mse|mae");
     expect(USAGE).toContain("--rule lowest|one-se");
     for (const old of ["--measure", "onese", "min|", "1se"]) expect(USAGE).not.toContain(old);
+  });
+
+  it("reads --grid-density; refuses it together with --count", () => {
+    const o = options(["d.csv", "--target", "y", "--grid-density", "12"]);
+    expect(o.gridDensity).toBe(12);
+    expect(toFitOptions(o, noData)).toMatchObject({ gridDensity: 12 });
+    expect(toFitOptions(o, noData).strengthCount).toBeUndefined();
+    expect(() => options(["d.csv", "--target", "y", "--grid-density=12", "--count", "40"])).toThrow(
+      "--grid-density and --count both set how many strengths the grid has: give one",
+    );
   });
 
   it("reads --exclude and --fold-column; fold labels go to the engine as given", () => {
@@ -176,7 +191,7 @@ describe("parseArgs", () => {
 
   it("--count 1 without --strength says why the model would be the intercept alone (exact)", () => {
     expect(usageError(["d.csv", "--target", "y", "--count", "1"])).toBe(
-      "--count 1 tries only the top of the grid, where every penalized coefficient is 0, so the model would be the intercept alone: use 2 or more (default 100), or fit one point with --strength",
+      "--count 1 tries only the top of the grid, where every penalized coefficient is 0, so the model would be the intercept alone: use 2 or more (by default 20 per tenfold drop), or fit one point with --strength",
     );
     expect(options(["d.csv", "--target", "y", "--count", "1", "--strength", "0.1", "--mix", "1"]).count).toBe(1);
   });

@@ -97,6 +97,8 @@ describe("jsonReport with cross-validation", () => {
     expect(typeof parsed.diagnostics.solver).toBe("string");
     expect(typeof parsed.diagnostics.converged).toBe("boolean");
     expect(parsed.diagnostics.strengthCount).toBe(40);
+    // realised density (N − 1)/log10(1/low end) (engine/path.ts gridDensity, definition)
+    expect(parsed.diagnostics.gridDensity).toBe(39 / Math.log10(1 / parsed.diagnostics.lowEndRatio));
     expect(parsed.model.kind).toBe("shrinkwise-linear-model");
     expect(parsed.model.terms).toEqual(["size", "age", "extra"]);
   });
@@ -135,7 +137,7 @@ describe("jsonReport for a fixed strength", () => {
 
 describe("textReport", () => {
   it("shows the term table, the chosen point, both rules, in-sample scores, rows and warnings", () => {
-    const { result, table } = run(["data.csv", "--target", "y", "--mix", "1", "--count", "30", "--folds", "4"]);
+    const { result, table } = run(["data.csv", "--target", "y", "--mix", "1", "--count", "30", "--low-end", "0.001", "--folds", "4"]);
     const text = textReport(result, { table });
     expect(text).toMatch(/^Shrinkwise fit of 'y' on 3 predictors\n/);
     expect(text).toMatch(/term\s+coefficient\s+per SD/);
@@ -143,6 +145,8 @@ describe("textReport", () => {
     for (const term of ["size", "age", "extra"]) expect(text).toMatch(new RegExp(`\\n  ${term}\\s+-?\\d`));
     expect(text).toMatch(/Chosen point \(lowest error\): mix 1, strength λ /);
     expect(text).toMatch(/Cross-validation: 4 random folds \(seed 1\), scored by MSE/);
+    // 29 steps over 3 tenfold drops: 9.667 per drop (engine/path.ts gridDensity, definition)
+    expect(text).toMatch(/\nGrid: 30 strengths per mix \(9\.667 per tenfold drop\), from each mix's top down to 0\.001 of it\n/);
     // Sideways summary: one column per rule, the chosen one marked; rows mix, strength, error ± SE, terms kept.
     expect(text).toMatch(/\n\s+lowest error \(chosen\)\s+one-SE rule\n/);
     expect(text).toMatch(/\n {2}mix\s+1\s+1\n/);

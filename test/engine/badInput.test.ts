@@ -205,6 +205,18 @@ describe("settings", () => {
     expectInputError(() => fit(x, y, { ...quick, strengthCount: 0 }), "setting", /number of strengths must be a whole number from 1/);
     expectInputError(() => fit(x, y, { ...quick, lowEndRatio: 1.5 }), "setting", /low-end ratio must be between 0 and 1/);
   });
+  test("grid density out of range, too dense for its low end, or given with a grid size", () => {
+    const { x, y } = data();
+    const dense = { mixes: [1], folds: 3 };
+    expectInputError(() => fit(x, y, { ...dense, gridDensity: 0 }), "setting", /grid density \(strengths per tenfold drop\) must be a whole number from 1 to 1000/);
+    expectInputError(() => fit(x, y, { ...dense, gridDensity: 2.5 }), "setting", /grid density .* must be a whole number/);
+    expectInputError(
+      () => fit(x, y, { ...dense, gridDensity: 1000, lowEndRatio: 1e-12 }),
+      "setting",
+      /a grid density of 1000 down to a low end of 1e-12 gives 12001 strengths, more than 10000: lower the density or raise the low end/,
+    );
+    expectInputError(() => fit(x, y, { ...quick, gridDensity: 10 }), "setting", /size and its density were both given: give one/);
+  });
   test("an unknown error measure or rule", () => {
     const { x, y } = data();
     expectInputError(() => fit(x, y, { ...quick, measure: "rmse" as never }), "setting", /error measure must be mse or mae/);

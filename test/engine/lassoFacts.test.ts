@@ -2,10 +2,12 @@
  * Facts of the trade about the lasso end of the path (common practice), and the top of the grid
  * computed by hand: λ_max = max_j |x̃_jᵀ W ỹ| / (Σw · α · m_j), ỹ = (y − ȳ)/s_y the standardized
  * target (Friedman, Hastie & Tibshirani 2010, J. Stat. Software 33(1) §2.5, with weights and
- * multipliers), and α replaced by 0.001 for ridge, where λ_max would be infinite (engine/path.ts
- * RIDGE_TOP_MIX).
+ * multipliers). Ridge has no such λ; its top is set by effective degrees of freedom
+ * (engine/path.ts RIDGE_TOP_DF, checked against the hat matrix's trace in ridge.test.ts); here,
+ * what that top means for the fit.
  */
 import { fit, UpdateScheme } from "../../engine/fit";
+import { RIDGE_TOP_DF } from "../../engine/path";
 import { columnScales, targetSpread } from "../helpers/kkt";
 import { expectRelative, weightedMean } from "../helpers/numeric";
 import { makeProblem } from "../helpers/problems";
@@ -50,12 +52,12 @@ describe("the top of the path (common practice)", () => {
     // precondition: distinct inner products, the second at most 90% of the first
     expect(sorted[1]).toBeLessThan(0.9 * sorted[0]);
     const leader = c.map(Math.abs).indexOf(sorted[0]);
-    const result = fit(distinct.x, distinct.y, { mixes: [1], strength: 1e-3, strengthCount: 100 });
+    const result = fit(distinct.x, distinct.y, { mixes: [1], strength: 1e-3, gridDensity: 25, lowEndRatio: 1e-4 });
     const path = result.path;
     expect(path.coefficients[0].every((b) => b === 0)).toBe(true); // common practice: λ_max is the smallest λ with b = 0
     expect(path.termsKept[0]).toBe(0);
     expectRelative(path.intercepts[0], weightedMean(distinct.y, null), 1e-13, "intercept at λ_max"); // with b = 0 the intercept is ȳ (common practice); 1e-13 allows summation-order rounding
-    // the grid step is 10^(−4/99) ≈ 0.91, while the second inner product is below 0.9·λ_max: one entrant
+    // the grid step is 10^(−1/25) ≈ 0.91, while the second inner product is below 0.9·λ_max: one entrant
     expect(path.termsKept[1]).toBe(1);
     expect(path.coefficients[1].findIndex((b) => b !== 0)).toBe(leader);
     expect(Math.sign(path.coefficients[1][leader])).toBe(Math.sign(c[leader])); // enters with the sign of its inner product
@@ -111,12 +113,23 @@ describe("the top of the path (common practice)", () => {
     }
   });
 
-  test("ridge (α = 0): the top uses α = 0.001 in the same formula", () => {
-    for (const weights of [null, sparse.y.map((_, i) => 1 + (i % 3))]) {
-      const result = fit(sparse.x, sparse.y, { mixes: [0], weights, strength: 1, strengthCount: 10 });
-      expectRelative(result.path.top, handTop(sparse.x, sparse.y, weights, 0.001, null), 1e-10, "ridge top"); // engine/path.ts RIDGE_TOP_MIX = 0.001 in Friedman et al. 2010 §2.5
-      // ridge has no finite λ_max: at its conventional top every coefficient is small but nonzero (common practice)
-      expect(result.path.termsKept[0]).toBe(20);
+  test("ridge (α = 0): at its top the training fit explains at most 2δ − δ² of what least squares explains", () => {
+    // With shrink factors s_t summing to δ = RIDGE_TOP_DF, the ridge R² is Σ(2s_t − s_t²)q_t² ≤
+    // (2δ − δ²)Σq_t² = (2δ − δ²)·R²(least squares) (algebra on ESL 2nd ed. eq. 3.47); the bound is
+    // reached when one component carries everything, so it is checked on a one-factor design too.
+    const oneFactor = makeProblem({ seed: 31, rows: 60, columns: 8, design: "equicorrelated", rho: 0.95, nonzero: 8, noise: 0.1 });
+    for (const [problem, weights] of [
+      [sparse, null],
+      [sparse, sparse.y.map((_, i) => 1 + (i % 3))],
+      [oneFactor, null],
+    ] as const) {
+      const result = fit(problem.x, problem.y, { mixes: [0], weights, strength: 1 });
+      const leastSquares = fit(problem.x, problem.y, { mixes: [0], weights, strength: 0 });
+      const bound = 2 * RIDGE_TOP_DF - RIDGE_TOP_DF ** 2;
+      expect(result.path.r2[0]).toBeGreaterThan(0);
+      expect(result.path.r2[0]).toBeLessThanOrEqual(bound * (leastSquares.baseline as { r2: number }).r2 * (1 + 1e-12));
+      // ridge has no finite λ_max: at its top every coefficient is small but nonzero (common practice)
+      expect(result.path.termsKept[0]).toBe(problem.x[0].length);
     }
   });
 });

@@ -124,7 +124,7 @@ describe("settings that leave nothing to choose", () => {
   test("grid size=1 with cross-validation says the model would be the intercept alone; with a fixed strength it is fine", async () => {
     const { target, predictors } = sheet();
     expect((await rejection(coefs(new CountingRunner(), target, predictors, 1, "grid size=1"))).message).toBe(
-      "'grid size' is 1: cross-validation would try only the top of the grid, where every penalized coefficient is 0, so the model would be the intercept alone; use 2 or more (100 by default), or give a fixed 'strength'",
+      "'grid size' is 1: cross-validation would try only the top of the grid, where every penalized coefficient is 0, so the model would be the intercept alone; use 2 or more (by default the grid has 20 per tenfold drop), or give a fixed 'strength'",
     );
     const runner = new CountingRunner();
     await coefs(runner, target, predictors, 1, `grid size=1; ${FIXED}`);

@@ -20,7 +20,7 @@ function settingError(raw: unknown): string {
 describe("text form", () => {
   test("every setting, with the accepted spellings", () => {
     const s = parseSettings(
-      "folds=5; Seed = 7; rule=one-se; error=mae; standardize=no; intercept=yes; Grid_Size=30; low-end=0.001; " +
+      "folds=5; Seed = 7; rule=one-se; error=mae; standardize=no; intercept=yes; Grid_Size=30; low-end=0.001; Stop_Early=yes; " +
         "fold column=Batch; weights column=W; penalty=Size:2, Region: North:0.5; no penalty=Temp; lower=0; upper=Size:3, Temp:none; header=yes; zero is missing=Size, Temp",
     );
     expect(s).toEqual({
@@ -30,8 +30,10 @@ describe("text form", () => {
       measure: "mae",
       standardize: false,
       intercept: true,
+      gridDensity: null,
       gridSize: 30,
       lowEnd: 0.001,
+      stopEarly: true,
       strength: null,
       foldColumn: "Batch",
       timeOrdered: null,
@@ -107,16 +109,19 @@ describe("range form", () => {
 describe("mistakes", () => {
   test("an unknown name lists every valid name", () => {
     expect(settingError("foldz=3")).toBe(
-      "unknown setting 'foldz': the settings are folds, seed, rule, error, standardize, intercept, grid size, low end, strength, " +
+      "unknown setting 'foldz': the settings are folds, seed, rule, error, standardize, intercept, grid density, grid size, low end, stop early, strength, " +
         "fold column, time order, weights column, penalty, no penalty, lower, upper, header, zero is missing",
     );
-    expect(SETTING_NAMES).toHaveLength(18);
+    expect(SETTING_NAMES).toHaveLength(20);
   });
   test("values out of range say the allowed range", () => {
     expect(settingError("folds=1")).toBe("'folds' must be a whole number from 2 to 1000; got '1'");
     expect(settingError([["folds", 2.5]])).toBe("'folds' must be a whole number from 2 to 1000; got 2.5");
     expect(settingError("seed=1.5")).toBe("'seed' must be a whole number from -4294967295 to 4294967295; got '1.5'");
     expect(settingError("grid size=0")).toBe("'grid size' must be a whole number from 1 to 10000; got '0'");
+    expect(settingError("grid density=0")).toBe("'grid density' must be a whole number from 1 to 1000; got '0'");
+    expect(settingError("strengths per decade=12.5")).toBe("'grid density' must be a whole number from 1 to 1000; got '12.5'");
+    expect(settingError("grid density=10; grid size=40")).toBe("'grid density' and 'grid size' both set how many strengths the grid has: give one");
     expect(settingError("low end=1")).toBe(
       "'low end' must be a number between 0 and 1 (not 0 or 1), the bottom of the strength grid as a fraction of its top; got '1'",
     );
@@ -160,10 +165,10 @@ describe("mixes argument", () => {
 });
 
 describe("settings reach the engine", () => {
-  test("options in the request: folds, seed, rule, measure, grid, low end, standardize, intercept, time order", async () => {
+  test("options in the request: folds, seed, rule, measure, grid, low end, stop early, standardize, intercept, time order", async () => {
     const runner = new CountingRunner();
     const { target, predictors } = sheet();
-    await coefs(runner, target, predictors, "0.5, 1", "folds=4; seed=9; rule=onese; error=mae; grid size=15; low end=0.01; standardize=no; intercept=yes; time order=yes", null);
+    await coefs(runner, target, predictors, "0.5, 1", "folds=4; seed=9; rule=onese; error=mae; grid size=15; low end=0.01; early stop=on; standardize=no; intercept=yes; time order=yes", null);
     expect(runner.calls).toBe(1);
     const options = runner.last().options;
     expect(options).toMatchObject({
@@ -174,11 +179,21 @@ describe("settings reach the engine", () => {
       measure: "mae",
       strengthCount: 15,
       lowEndRatio: 0.01,
+      stopEarly: true,
       standardize: false,
       intercept: true,
       timeOrdered: true,
       names: ["Size", "Region: North", "Region: West", "Region: South", "Temp"],
     });
+  });
+  test("grid density (or its other spellings) reaches the engine as gridDensity, without a strength count", async () => {
+    const { target, predictors } = sheet();
+    for (const text of ["grid density=12", "Strengths per decade=12", "strengths_per_tenfold_drop=12"]) {
+      const runner = new CountingRunner();
+      await coefs(runner, target, predictors, "1", `folds=4; ${text}`, null);
+      expect(runner.last().options.gridDensity).toBe(12);
+      expect(runner.last().options.strengthCount).toBeUndefined();
+    }
   });
   test("penalty by term and by column, no penalty, bounds per term and for all", async () => {
     const runner = new CountingRunner();

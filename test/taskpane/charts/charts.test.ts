@@ -455,9 +455,17 @@ describe("cross-validation curve", () => {
       const near = rows.reduce((a, b) => (Math.abs(Math.log(b.strength / at)) < Math.abs(Math.log(a.strength / at)) ? b : a));
       expect(html).toContain(`α = ${mix}: ${formatNumber(near.error)} ± ${formatNumber(near.se)}`);
     }
-    // Ridge's grid stops well above this strength (engine result): not listed.
-    expect(Math.min(...table.filter((r) => r.mix === 0).map((r) => r.strength))).toBeGreaterThan(1.15 * at);
-    expect(html).not.toContain("ridge");
+    // At the lasso grid's weakest strength the elastic-net grids have ended: their tops are
+    // λ_max/α, 4, 2 and 4/3 times the lasso's (Friedman et al. 2010 §2.5), with the same low end,
+    // so their bottoms lie more than 15% above it (engine result): not listed.
+    const lasso = table.filter((r) => r.mix === 1);
+    const bottom = lasso[lasso.length - 1].strength;
+    const below = formatter([{ seriesId: "cv-mix-4", axisValue: bottom, value: [bottom, lasso[lasso.length - 1].error, 0, 0] }]);
+    expect(below).toContain("α = 1 (lasso)");
+    for (const mix of [0.25, 0.5, 0.75]) {
+      expect(Math.min(...table.filter((r) => r.mix === mix).map((r) => r.strength))).toBeGreaterThan(1.15 * bottom);
+      expect(below).not.toContain(`α = ${mix}:`);
+    }
   });
 
   test("each mix's grid top is the first strength of its rows; the engine's own figures agree (path.top, strengthFraction)", () => {

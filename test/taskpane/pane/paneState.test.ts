@@ -5,10 +5,12 @@
  */
 import type { FitResult } from "../../../engine/fit";
 import { parseSettings } from "../../../functions/settings";
+import { FIELDS, WEIGHTS_FIELD } from "../../../taskpane/pane/settingsForm";
 import {
   checkSettings,
   columnNames,
   emptyInputs,
+  FORM_SETTING_NAMES,
   FitOutcome,
   FitState,
   fitStatusText,
@@ -145,9 +147,19 @@ describe("settings checked as the cells check them", () => {
     expect(settingProblem("folds", "1")).toBe(cellMessage("folds=1"));
     expect(settingProblem("folds", "1")).toMatch(/folds/);
     expect(settingProblem("low end", "2")).toBe(cellMessage("low end=2"));
+    expect(settingProblem("grid density", "0")).toBe(cellMessage("grid density=0"));
+    expect(settingProblem("stop early", "maybe")).toBe(cellMessage("stop early=maybe"));
     expect(settingProblem("strength", "-1")).toBe(cellMessage("strength=-1"));
     expect(settingProblem("lower", "3")).toBe(cellMessage("lower=3"));
     expect(settingProblem("rule", "fastest")).toBe(cellMessage("rule=fastest"));
+  });
+
+  test("the form has a field for every setting it offers (grid density beside grid size)", () => {
+    const names = [...FIELDS.map((field) => field.name), WEIGHTS_FIELD.name];
+    for (const name of FORM_SETTING_NAMES) expect([name, names.includes(name)]).toEqual([name, true]);
+    const at = (name: string): number => FIELDS.findIndex((field) => field.name === name);
+    expect(at("grid size")).toBe(at("grid density") + 1);
+    expect(FIELDS[at("grid density")].label).toBe("Grid density (strengths per tenfold drop)");
   });
 
   test("good and empty values pass", () => {
@@ -185,6 +197,11 @@ describe("settings checked as the cells check them", () => {
     clash.settings["fold column"] = "group";
     clash.settings["time order"] = "yes";
     expect(checkSettings(clash)).toMatchObject({ fields: {}, ok: false, overall: cellMessage("fold column=group; time order=yes") });
+    // The grid's size and density, each fine alone, clash together.
+    const grid = emptyInputs();
+    grid.settings["grid density"] = "10";
+    grid.settings["grid size"] = "40";
+    expect(checkSettings(grid)).toMatchObject({ fields: {}, ok: false, overall: cellMessage("grid density=10; grid size=40") });
     // A fixed strength needs a single mix.
     const strength = emptyInputs();
     strength.settings.strength = "0.1";
