@@ -15,7 +15,7 @@ export const INTERCEPT_LABEL = "intercept";
 export const MIX_LABEL = "Mix α (lasso share)";
 
 /** A number to `digits` significant digits, exponent form when very large or very small. */
-function significant(value: number, digits: number): string {
+export function significant(value: number, digits: number): string {
   if (value === 0) return "0";
   const size = Math.abs(value);
   if (size >= 1e9 || size < 1e-4) {

@@ -39,7 +39,7 @@
  * Every mistake is a SettingError (→ #VALUE!) saying what is allowed; an unknown name lists
  * the valid names.
  */
-import type { ChoiceRule, ErrorMeasure } from "../engine/fit";
+import { parseRule, type ChoiceRule, type ErrorMeasure } from "../engine/fit";
 import { classifyCell, describeCell, parseNumberText, toGrid } from "./cells";
 import { SettingError } from "./errors";
 
@@ -222,18 +222,6 @@ function bound(name: string, value: RawValue, side: "lower" | "upper"): BoundSet
   throw new SettingError(`'${name}' must be a number or a list like ${example}; got ${show(value)}`);
 }
 
-/** Rule words (keys as `key()` leaves them). `min`, `onese` and `1se` are older tokens, still accepted. */
-const RULES: Record<string, ChoiceRule> = {
-  lowest: "lowest",
-  lowesterror: "lowest",
-  min: "lowest",
-  minimum: "lowest",
-  onese: "one-se",
-  oneserule: "one-se",
-  "1se": "one-se",
-  onestandarderror: "one-se",
-  onestandarderrorrule: "one-se",
-};
 
 const MEASURES: Record<string, string> = {
   mse: "mse",
@@ -252,7 +240,12 @@ const SPECS: SettingSpec[] = [
   {
     name: "rule",
     aliases: ["choice rule"],
-    apply: (s, v) => (s.rule = word("rule", v, RULES, "lowest (lowest error) or one-se (one-SE rule)") as ChoiceRule),
+    apply: (s, v) => {
+      // The engine's own reading of rule words (older tokens min, onese, 1se included).
+      const rule = v.kind === "text" ? parseRule(v.text) : null;
+      if (rule === null) throw new SettingError(`'rule' must be lowest (lowest error) or one-se (one-SE rule); got ${show(v)}`);
+      s.rule = rule;
+    },
   },
   { name: "error", aliases: ["error measure", "measure"], apply: (s, v) => (s.measure = word("error", v, MEASURES, "mse or mae") as ErrorMeasure) },
   { name: "standardize", aliases: ["standardise"], apply: (s, v) => (s.standardize = yesNo("standardize", v)) },

@@ -11,7 +11,7 @@ import type { LinearModel } from "../model";
 import { CommandError } from "./args";
 import type { FitTable } from "./table";
 import { skippedRowsMessage } from "./table";
-import { errorWithSe, RULE_WORDS } from "../words";
+import { errorWithSe, RULE_WORDS, significant } from "../words";
 
 export { errorWithSe, RULE_WORDS };
 
@@ -193,14 +193,7 @@ export function jsonText(result: FitResult, context: ReportContext): string {
  * "n/a" when not finite.
  */
 export function formatNumber(value: number, digits = 6): string {
-  if (!Number.isFinite(value)) return "n/a";
-  if (value === 0) return "0";
-  const size = Math.abs(value);
-  if (size >= 1e9 || size < 1e-4) {
-    const [mantissa, exponent] = value.toExponential(digits - 1).split("e");
-    return `${mantissa.replace(/\.?0+$/, "")}e${exponent}`;
-  }
-  return String(Number(value.toPrecision(digits)));
+  return Number.isFinite(value) ? significant(value, digits) : "n/a";
 }
 
 /** Rows of cells as aligned columns: first column left-aligned, the others right-aligned. */

@@ -35,6 +35,12 @@ const YES_DEFAULT: Choice[] = [
   { value: "no", label: "No" },
 ];
 
+/** Yes/no settings whose default is no (the empty value leaves the cells' default). */
+const NO_DEFAULT: Choice[] = [
+  { value: "", label: "No (default)" },
+  { value: "yes", label: "Yes" },
+];
+
 /** The fields in page order. `weights column` is drawn with the ranges (see `renderColumnField`). */
 export const FIELDS: readonly FieldSpec[] = [
   {
@@ -110,10 +116,7 @@ export const FIELDS: readonly FieldSpec[] = [
     label: "Stop paths early",
     hint: "Yes ends each path once a tenfold drop in strength improves the fit by less than 1% (faster; fewer rows in the path). No covers the whole grid.",
     kind: "choice",
-    choices: [
-      { value: "", label: "No (default)" },
-      { value: "yes", label: "Yes" },
-    ],
+    choices: NO_DEFAULT,
     more: true,
   },
   {
@@ -121,10 +124,7 @@ export const FIELDS: readonly FieldSpec[] = [
     label: "Rows are in time order",
     hint: "Yes validates each fold on later rows only, never on the past.",
     kind: "choice",
-    choices: [
-      { value: "", label: "No (default)" },
-      { value: "yes", label: "Yes" },
-    ],
+    choices: NO_DEFAULT,
     more: true,
   },
   { name: "fold column", label: "Fold column", hint: "A predictors column whose values say which fold each row belongs to. It is not used as a predictor.", kind: "column", more: true },
