@@ -84,7 +84,7 @@ function main(): void {
   const repeatAt = args.indexOf("--repeat");
   const repeat = repeatAt >= 0 ? Math.max(1, Number(args[repeatAt + 1])) : 1;
   const lines: string[] = [];
-  const rows: string[][] = [["case", "n", "p", "ms", "gram ms", "ratio", "chosen mix", "strength", "nonzero", "sweeps", "max KKT", "target"]];
+  const rows: string[][] = [["case", "n", "p", "ms", "gram ms", "ratio", "chosen mix", "strength", "terms kept", "sweeps", "max KKT", "target"]];
   for (const c of CASES) {
     if (only && !only.has(c.name)) continue;
     const { x, y } = makeData(c.n, c.p, 20261201);
