@@ -31,6 +31,8 @@ import { leastSquares } from "./leastSquares";
 import { ColumnMatrix, selectRows } from "./matrix";
 import { LinearModel, linearModel, predict } from "./model";
 import { score, Score } from "./metrics";
+import type { TwoClassScore } from "./classMetrics";
+import type { OutcomeKind } from "./outcome";
 import {
   DEFAULT_GRID_DENSITY,
   EarlyStop,
@@ -86,7 +88,21 @@ export function parseRule(text: string): ChoiceRule | null {
   if (["onese", "oneserule", "1se", "1serule", "onestandarderror", "onestandarderrorrule"].includes(key)) return "one-se";
   return null;
 }
-export type ErrorMeasure = "mse" | "mae";
+/**
+ * Cross-validation measures. Numeric outcomes: mean squared or absolute error. Two-class outcomes
+ * (classMetrics.ts): binomial deviance per row (the default), the share misclassified at the
+ * cutoff, or the AUC, which is the one measure where higher is better (see higherIsBetter).
+ */
+export type ErrorMeasure = "mse" | "mae" | "deviance" | "misclassified" | "auc";
+/** The measures each outcome accepts; the first is its default. */
+export const MEASURES: Readonly<Record<OutcomeKind, readonly ErrorMeasure[]>> = {
+  number: ["mse", "mae"],
+  "two-class": ["deviance", "misclassified", "auc"],
+};
+/** True for the AUC: "lowest error" then means the highest AUC, and the one-SE rule looks one SE below the best. */
+export function higherIsBetter(measure: ErrorMeasure): boolean {
+  return measure === "auc";
+}
 export type UpdateScheme = "auto" | "gram" | "residual";
 
 /** Options, each with its default. */
@@ -112,8 +128,16 @@ export interface FitOptions {
   foldLabels?: ArrayLike<number | string> | null;
   /** Rows are in time order: train on earlier blocks, score on the next. Default false. */
   timeOrdered?: boolean;
-  /** Cross-validation error measure. Default "mse". */
+  /**
+   * "number" (default) fits squared error; "two-class" fits the binomial log-likelihood
+   * (penalized logistic regression): the target must then hold 0 and 1 (1 = the event; see
+   * outcome.ts for reading labels) and coefficients are log-odds of the event per unit.
+   */
+  outcome?: OutcomeKind;
+  /** Cross-validation measure. Default "mse" for a number outcome, "deviance" for two-class; each outcome refuses the other's measures. */
   measure?: ErrorMeasure;
+  /** Two-class: the probability at or above which a row counts as the event (misclassified share, classFit). Default 0.5; strictly between 0 and 1. */
+  cutoff?: number;
   /** Which cross-validated point becomes the model. Default "lowest" ("min", "onese" also accepted). */
   rule?: ChoiceRule | "min" | "onese" | "1se";
   /** Standardize predictors before penalizing. Default true. */
@@ -174,6 +198,8 @@ export interface CvRow {
 
 export interface FitResult {
   kind: "shrinkwise-fit";
+  /** "two-class": coefficients are log-odds of the event, `model.link` is "logistic", predictions are probabilities. */
+  outcome: OutcomeKind;
   terms: string[];
   intercept: number;
   /** Original units: the change in the target per unit of the predictor. */
@@ -210,8 +236,10 @@ export interface FitResult {
     termsKept: number[];
     r2: number[];
   };
-  /** In-sample accuracy of the chosen model (weighted when weights are given). */
+  /** In-sample accuracy of the chosen model (weighted when weights are given); two-class: of its probabilities against 0/1 (rmse² is the Brier score). */
   fit: Score;
+  /** Two-class only: in-sample log loss, Brier score, AUC and the table at the cutoff. Null for a number outcome. */
+  classFit: TwoClassScore | null;
   /**
    * Strength 0 only: the exact least-squares baseline's standard errors (null where aliased),
    * residual SD on its degrees of freedom, and the aliased terms. Null otherwise.
@@ -219,10 +247,25 @@ export interface FitResult {
   baseline: {
     standardErrors: (number | null)[];
     interceptStandardError: number | null;
+    /** Number outcome: the residual SD; two-class: NaN (see deviance). */
     residualStandardDeviation: number;
+    /** Residual degrees of freedom: rows used − coefficients kept (intercept included). */
     degreesOfFreedom: number;
+    /** Number outcome: R²; two-class: the share of the null deviance explained. */
     r2: number;
     aliased: string[];
+    /** Two-class only: estimate / SE (null where aliased or separated). */
+    zValues?: (number | null)[];
+    interceptZ?: number | null;
+    /** Two-class only: two-sided normal p-values of the z values. */
+    pValues?: (number | null)[];
+    interceptP?: number | null;
+    /** Two-class only: residual and null deviance (totals, not per row), and the null model's degrees of freedom. */
+    deviance?: number;
+    nullDeviance?: number;
+    nullDegreesOfFreedom?: number;
+    /** Two-class only: set when the classes are (nearly) separated and the unpenalized estimates do not exist. */
+    separation?: { kind: "complete" | "quasi"; terms: string[]; message: string } | null;
   } | null;
   rowsUsed: number;
   /** Names of predictors dropped because they are constant. */
@@ -244,6 +287,8 @@ export interface FitResult {
     strengthCount: number;
     /** Strengths per tenfold drop of the grid used, (strengthCount − 1) / log10(1/lowEndRatio). */
     gridDensity: number;
+    /** Two-class: how many times the step control had to shorten a step so the objective would not rise (0 for a number outcome). */
+    stepHalvings: number;
   };
   warnings: FitWarning[];
   model: LinearModel;
@@ -786,6 +831,14 @@ export function* fitSteps(
   target: ArrayLike<number>,
   options: FitOptions = {},
 ): Generator<void, FitResult, void> {
+  const outcome = options.outcome ?? "number";
+  if (outcome !== "number" && outcome !== "two-class") {
+    throw new InputError("setting", `the outcome must be number or two-class; got ${String(outcome)}`);
+  }
+  checkMeasure(options.measure, outcome);
+  if (outcome === "two-class") {
+    throw new InputError("setting", "two-class outcomes can't be fitted by this version of the engine yet");
+  }
   const data = prepare(predictors, target, options);
   const warnings: FitWarning[] = [];
   const fixed = options.strength ?? null;
@@ -825,8 +878,7 @@ export function* fitSteps(
     );
   }
   const activePlan = plan as FoldPlan;
-  const measure = options.measure ?? "mse";
-  if (measure !== "mse" && measure !== "mae") throw new InputError("setting", `the error measure must be mse or mae; got ${String(measure)}`);
+  const measure = checkMeasure(options.measure, "number");
   const rule = typeof options.rule === "string" ? parseRule(options.rule) : options.rule == null ? "lowest" : null;
   if (rule === null) throw new InputError("setting", `the rule must be lowest or one-se; got ${String(options.rule)}`);
   const K = activePlan.trainBlocks.length;
@@ -1066,6 +1118,23 @@ function nothingToChoose(data: Prepared, full: TrainingProblem, penalty: Penalty
   );
 }
 
+/** The measure to use for this outcome (its default when none is given); refuses the other outcome's measures with a message. */
+export function checkMeasure(measure: ErrorMeasure | undefined | null, outcome: OutcomeKind): ErrorMeasure {
+  const allowed = MEASURES[outcome];
+  if (measure === undefined || measure === null) return allowed[0];
+  if (allowed.includes(measure)) return measure;
+  const other: OutcomeKind = outcome === "number" ? "two-class" : "number";
+  if (MEASURES[other].includes(measure)) {
+    throw new InputError(
+      "setting",
+      outcome === "number"
+        ? `the error measure ${measure} is for yes/no (two-class) outcomes, and this target is a number: use mse or mae`
+        : `the error measure ${measure} is for number outcomes, and this target is yes/no (two-class): use deviance, misclassified or auc`,
+    );
+  }
+  throw new InputError("setting", `the error measure must be one of ${allowed.join(", ")}; got ${String(measure)}`);
+}
+
 function makePlan(data: Prepared, options: FitOptions): FoldPlan {
   const labels = options.foldLabels ?? null;
   const timeOrdered = options.timeOrdered ?? false;
@@ -1142,6 +1211,7 @@ function assemble(
   }
   return {
     kind: "shrinkwise-fit",
+    outcome: "number",
     terms: data.names.slice(),
     intercept,
     coefficients,
@@ -1164,6 +1234,7 @@ function assemble(
       r2: run.r2.slice(),
     },
     fit: score(data.original.y, predictions, data.original.weights),
+    classFit: null,
     baseline: null,
     rowsUsed: data.x.rows,
     constantColumns,
@@ -1181,6 +1252,7 @@ function assemble(
       lowEndRatio: data.lowEndRatio,
       strengthCount: data.strengthCount,
       gridDensity: gridDensity(data.strengthCount, data.lowEndRatio),
+      stepHalvings: 0,
     },
     warnings,
     model,
@@ -1204,6 +1276,7 @@ function leastSquaresResult(data: Prepared, full: TrainingProblem, constantColum
   const predictions = predict(model, data.original.x);
   return {
     kind: "shrinkwise-fit",
+    outcome: "number",
     terms: data.names.slice(),
     intercept,
     coefficients,
@@ -1218,6 +1291,7 @@ function leastSquaresResult(data: Prepared, full: TrainingProblem, constantColum
     cv: null,
     path: { mix: data.mixes[0], top: 0, strengths: [0], intercepts: [intercept], coefficients: [coefficients], termsKept: [coefficients.filter((b) => b !== 0).length], r2: [baseline.r2] },
     fit: score(data.original.y, predictions, data.original.weights),
+    classFit: null,
     baseline: {
       standardErrors: baseline.standardErrors.map((se, j) => (se === null ? null : scaleByPowerOfTwo(se, data.xExponent[j] - data.yExponent))),
       interceptStandardError: baseline.interceptStandardError === null ? null : inTargetUnits(baseline.interceptStandardError),
@@ -1240,6 +1314,7 @@ function leastSquaresResult(data: Prepared, full: TrainingProblem, constantColum
       lowEndRatio: data.lowEndRatio,
       strengthCount: data.strengthCount,
       gridDensity: gridDensity(data.strengthCount, data.lowEndRatio),
+      stepHalvings: 0,
     },
     warnings,
     model,

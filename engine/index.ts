@@ -3,15 +3,19 @@
  * cross-validation. Pure TypeScript; no Office or DOM dependency.
  */
 // Fitting
-export { fit, fitAsync, fitSteps, parseRule, DEFAULT_MIXES } from "./fit";
+export { fit, fitAsync, fitSteps, parseRule, DEFAULT_MIXES, MEASURES, higherIsBetter, checkMeasure } from "./fit";
 export type { FitOptions, FitResult, ChoicePoint, CvRow, ChoiceRule, ErrorMeasure, UpdateScheme } from "./fit";
 export { leastSquares } from "./leastSquares";
 export type { LeastSquaresOptions, LeastSquaresResult } from "./leastSquares";
 // Models and accuracy
-export { predict, linearModel, modelFromJSON } from "./model";
-export type { LinearModel } from "./model";
+export { predict, linearScore, logistic, linearModel, modelFromJSON } from "./model";
+export type { LinearModel, ModelLink } from "./model";
 export { score, meanAbsoluteError, rootMeanSquaredError, rSquared, meanError } from "./metrics";
 export type { Score } from "./metrics";
+export { scoreTwoClass, areaUnderCurve, binomialDeviance, devianceFromScores, misclassifiedShare, softplus } from "./classMetrics";
+export type { TwoClassScore } from "./classMetrics";
+export { readOutcome, parseOutcome, outcomeLabel } from "./outcome";
+export type { OutcomeKind, OutcomeSetting, OutcomeValue, OutcomeReading } from "./outcome";
 // Building blocks
 export { strengthGrid, runPath, topStrength, RIDGE_TOP_DF } from "./path";
 export { penalizedSpectrum, ridgeDegreesOfFreedom, strengthForDegreesOfFreedom } from "./ridgeSpectral";

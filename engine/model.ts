@@ -1,20 +1,41 @@
 /**
  * A fitted linear model as plain serialisable data, and its pure predict function.
  * The task pane saves and restores it; SHRINK.APPLY-style use needs nothing else.
+ *
+ * `link` says what the linear score η = b0 + Σ b_j x_j means: "identity" (the default, and what
+ * a saved model without the field means) predicts η itself; "logistic" is a two-class model whose
+ * coefficients are log-odds of the event, and predicts the event's probability 1 / (1 + e^−η).
  */
 import { InputError } from "./errors";
 import type { ColumnMatrix } from "./matrix";
+import { portableExp } from "./portableMath";
+
+export type ModelLink = "identity" | "logistic";
 
 export interface LinearModel {
   kind: "shrinkwise-linear-model";
   terms: string[];
   intercept: number;
-  /** Original units, one per term. */
+  /** Original units, one per term (log-odds per unit for a logistic model). */
   coefficients: number[];
+  /** Absent means "identity". */
+  link?: ModelLink;
 }
 
-export function linearModel(terms: string[], intercept: number, coefficients: number[]): LinearModel {
-  return { kind: "shrinkwise-linear-model", terms: terms.slice(), intercept, coefficients: coefficients.slice() };
+export function linearModel(terms: string[], intercept: number, coefficients: number[], link: ModelLink = "identity"): LinearModel {
+  const model: LinearModel = { kind: "shrinkwise-linear-model", terms: terms.slice(), intercept, coefficients: coefficients.slice() };
+  if (link !== "identity") model.link = link;
+  return model;
+}
+
+/**
+ * The logistic function 1 / (1 + e^−η), evaluated without overflow on either side and with the
+ * portable exponential (bit-identical in every JavaScript engine).
+ */
+export function logistic(eta: number): number {
+  if (eta >= 0) return 1 / (1 + portableExp(-eta));
+  const e = portableExp(eta);
+  return e / (1 + e);
 }
 
 /** Reads a model back from JSON text or a parsed object, checking its shape. */
@@ -31,14 +52,26 @@ export function modelFromJSON(source: string | unknown): LinearModel {
   ) {
     throw new InputError("shape", "this is not a saved Shrinkwise model (expected terms, coefficients and an intercept)");
   }
-  return linearModel(model.terms as string[], model.intercept, model.coefficients as number[]);
+  const link = model.link ?? "identity";
+  if (link !== "identity" && link !== "logistic") {
+    throw new InputError("shape", `this saved Shrinkwise model has an unknown link '${String(link)}' (expected identity or logistic)`);
+  }
+  return linearModel(model.terms as string[], model.intercept, model.coefficients as number[], link);
 }
 
 /**
- * Predictions b0 + Σ b_j x_ij for each row. Rows are arrays in term order, or a column-major
- * matrix. Cost O(rows·terms).
+ * Predictions for each row: the linear score b0 + Σ b_j x_ij, passed through the model's link
+ * (a logistic model gives the event's probability). Rows are arrays in term order, or a
+ * column-major matrix. Cost O(rows·terms).
  */
 export function predict(model: LinearModel, rows: ArrayLike<ArrayLike<number>> | ColumnMatrix): Float64Array {
+  const out = linearScore(model, rows);
+  if (model.link === "logistic") for (let i = 0; i < out.length; i++) out[i] = logistic(out[i]);
+  return out;
+}
+
+/** The linear score b0 + Σ b_j x_ij for each row (log-odds for a logistic model), before the link. */
+export function linearScore(model: LinearModel, rows: ArrayLike<ArrayLike<number>> | ColumnMatrix): Float64Array {
   const p = model.coefficients.length;
   if ("data" in rows && (rows as ColumnMatrix).data instanceof Float64Array) {
     const matrix = rows as ColumnMatrix;

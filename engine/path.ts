@@ -39,7 +39,8 @@ export const PLATEAU_SPAN = 10;
 export const PLATEAU_GAIN = 0.01;
 
 /** Why a path ended before its grid did. */
-export type EarlyStop = "exact-fit" | "no-gain";
+/** Why a path ended early: an exact fit, no gain over a tenfold drop, or (two-class) saturated probabilities (see logistic solver). */
+export type EarlyStop = "exact-fit" | "no-gain" | "saturated";
 
 /**
  * Strengths per tenfold drop of the grid, by default. Neighbouring strengths then differ by a
