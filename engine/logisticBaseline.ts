@@ -87,8 +87,8 @@
  * Throws: a plain Error on misuse the caller should have caught (mismatched lengths, y not 0/1,
  * non-finite values, negative weights, no positive weight, bad options); InputError('constant-target')
  * when the rows used hold only one class; InputError('out-of-range') when a coefficient or the
- * intercept would lie beyond the doubles' range (a column of values near 1e-308, say). The cancel signal is read each iteration and between the
- * columns of every factorisation.
+ * intercept would lie beyond the doubles' range (a column of values near 1e-308, say). The cancel
+ * signal is read each iteration, between the columns of every factorisation and between halvings.
  *
  * Example: a 0/1 predictor reproduces the two groups' log-odds. x = [[0], [0], [0], [1], [1], [1]],
  * y = [0, 0, 1, 0, 1, 1] gives intercept log(1/2) = −0.6931 (log-odds of the x = 0 group),
