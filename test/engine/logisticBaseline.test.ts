@@ -7,9 +7,7 @@
  * - Space-shuttle O-ring data, 23 launches before the Challenger accident (Dalal, Fowlkes & Hoadley
  *   1989, JASA 84(408), Table 1): launch temperature (°F) and whether any O-ring showed damage.
  *   Typed from the flight-by-flight table (flight, temperature, leak-check pressure, failure 0/1)
- *   reproduced at https://gist.github.com/jtrive84/835514a76f7afd552c999e4d9134baa8, which is the
- *   UCI machine-learning repository's "Challenger USA Space Shuttle O-Ring" data (donated by
- *   D. Draper, 1993). Cross-checked: the same 23 temperatures with 7 damaged launches (53, 57, 58,
+ *   of the UCI machine-learning repository's "Challenger USA Space Shuttle O-Ring" data set (1993). Cross-checked: the same 23 temperatures with 7 damaged launches (53, 57, 58,
  *   63, 70, 70, 75 °F) appear in the 23-mission table of damaged O-ring counts widely reprinted.
  * - A 24-launch version of the table (it has a launch at 80 °F and one at 56 °F, none at 58 °F, and
  *   some failures recorded differently), with its Minitab fit: Montgomery & Runger, Applied Statistics and Probability for
