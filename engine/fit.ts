@@ -1457,12 +1457,19 @@ function startTwoClass(
   y: Float64Array,
   penalty: PenaltySpec,
   fullData: boolean,
+  warnings: FitWarning[],
 ): { solver: LogisticDescent; start: LogisticReport } {
   const solver = new LogisticDescent(problem, y, penalty, logisticSettings(data));
   const start = solver.fitUnpenalized();
+  const unpenalized: string[] = [];
+  for (let j = 0; j < problem.p; j++) if (!problem.std.frozen[j] && !(data.multipliers[j] > 0)) unpenalized.push(`'${data.names[j]}'`);
+  if (fullData && !start.converged && !warnings.some((w) => w.code === "separated")) {
+    warnings.push({
+      code: "separated",
+      message: `the fit of the intercept and the unpenalized predictors (${unpenalized.join(", ")}) did not settle: they nearly separate the two classes, so their coefficients keep growing; the path starts from where that fit stopped (give them a penalty multiplier above 0 to keep them finite)`,
+    });
+  }
   if (fullData && solver.saturated()) {
-    const unpenalized: string[] = [];
-    for (let j = 0; j < problem.p; j++) if (!problem.std.frozen[j] && !(data.multipliers[j] > 0)) unpenalized.push(`'${data.names[j]}'`);
     throw new InputError(
       "constant-target",
       `the unpenalized predictors (${unpenalized.join(", ")}) already separate the two classes: every probability is within ${SATURATION} of its class before any penalized term enters, so there is nothing left for the penalty to choose (and those coefficients have no finite value); give them a penalty multiplier above 0`,
@@ -1614,7 +1621,7 @@ function* twoClassSteps(
   let halvings = 0;
   for (const mix of data.mixes) {
     const penalty = penaltyFor(full, data, mix);
-    const { solver, start } = startTwoClass(data, full, data.y, penalty, true);
+    const { solver, start } = startTwoClass(data, full, data.y, penalty, true, warnings);
     const top = twoClassTop(data, full, penalty, solver);
     const grid = strengthGrid(top, data.strengthCount, data.lowEndRatio);
     const run = runLogisticPath(solver, start, grid, { stopWhenSaturated: true, stopWhenFlat: data.stopEarly, signal });
@@ -1629,7 +1636,7 @@ function* twoClassSteps(
       throwIfCancelled(signal);
       const problem = problems.folds[f];
       const foldPenalty = penaltyFor(problem, data, mix);
-      const fold = startTwoClass(data, problem, trainingOutcomes[f], foldPenalty, false);
+      const fold = startTwoClass(data, problem, trainingOutcomes[f], foldPenalty, false, warnings);
       // Every fold solves exactly the strengths the full-data path computed.
       const foldRun = runLogisticPath(fold.solver, fold.start, run.strengths, { stopWhenSaturated: false, stopWhenFlat: false, skipLoss: true, signal });
       sweeps += foldRun.sweeps;
@@ -1723,7 +1730,7 @@ function fixedTwoClass(data: Prepared, full: TrainingProblem, strength: number, 
   }
   const mix = data.mixes[0];
   const penalty = penaltyFor(full, data, mix);
-  const { solver, start } = startTwoClass(data, full, data.y, penalty, true);
+  const { solver, start } = startTwoClass(data, full, data.y, penalty, true, warnings);
   const top = logisticTopStrength(solver);
   const grid = top > 0 ? strengthGrid(top, data.strengthCount, data.lowEndRatio).filter((s) => s > strength) : [];
   grid.push(strength);
