@@ -32,7 +32,7 @@ import { ColumnMatrix, selectRows } from "./matrix";
 import { LinearModel, linearModel, logistic, predict } from "./model";
 import { score, Score } from "./metrics";
 import { areaUnderCurve, devianceFromScores, misclassifiedShare, scoreTwoClass, TwoClassScore } from "./classMetrics";
-import { LogisticDescent, LogisticReport, LogisticRun, LogisticSettings, logisticTopStrength, runLogisticPath, SATURATION } from "./logistic";
+import { LogisticDescent, LogisticReport, LogisticRun, LogisticSettings, logisticTopStrength, runLogisticPath } from "./logistic";
 import type { OutcomeKind } from "./outcome";
 import {
   DEFAULT_GRID_DENSITY,
@@ -1472,7 +1472,7 @@ function startTwoClass(
   if (fullData && solver.saturated()) {
     throw new InputError(
       "constant-target",
-      `the unpenalized predictors (${unpenalized.join(", ")}) already separate the two classes: every probability is within ${SATURATION} of its class before any penalized term enters, so there is nothing left for the penalty to choose (and those coefficients have no finite value); give them a penalty multiplier above 0`,
+      `the intercept and the unpenalized predictors (${unpenalized.join(", ")}) already separate the two classes: they explain all but 1e-5 of the deviance before any penalized term enters, so there is nothing left for the penalty to choose (and their coefficients have no finite value); give them a penalty multiplier above 0`,
     );
   }
   return { solver, start };
@@ -1741,7 +1741,7 @@ function fixedTwoClass(data: Prepared, full: TrainingProblem, strength: number, 
   if (solver.saturated()) {
     warnings.push({
       code: "separated",
-      message: `the training rows are separated: at strength ${formatNumber(strength)} every probability is within ${SATURATION} of its class, and at weaker strengths the coefficients would only grow without bound`,
+      message: `the training rows are separated: at strength ${formatNumber(strength)} the model explains all but 1e-5 of the deviance, reproducing the two classes almost exactly, and at weaker strengths its coefficients would only grow without bound`,
     });
   }
   const result = assembleTwoClass(data, full, run, top, run.strengths.length - 1, mix, constantColumns, warnings, run.stepHalvings);
@@ -1796,7 +1796,7 @@ function assembleTwoClass(
       code: "early-stop",
       message:
         run.earlyStop === "saturated"
-          ? `the training rows are separated: from strength ${formatNumber(run.strengths[last])} down every probability is within ${SATURATION} of its class, so the path stops there (${where}); at weaker strengths the coefficients would only grow without bound`
+          ? `the training rows are separated: from strength ${formatNumber(run.strengths[last])} down the model explains all but 1e-5 of the deviance, reproducing the two classes almost exactly, so the path stops there (${where}); at weaker strengths its coefficients would only grow without bound`
           : `the path stopped at strength ${formatNumber(run.strengths[last])} (${where}), as 'stop early' allows: over the last tenfold drop in strength the deviance improved by less than 1%`,
     });
   }

@@ -50,9 +50,14 @@
  *
  * Separation (a rule of our own): when the classes can be separated, the fitted probabilities
  * run to 0 and 1 as λ falls and the coefficients grow without bound (like log(1/λ)). `saturated`
- * says when every row with positive weight has a probability within SATURATION of its class;
- * the full-data path ends there (fit.ts, early stop "saturated"), as the number outcome's path ends
- * at an exact fit: weaker strengths would only stretch the same separating direction.
+ * says when the fit explains all but SATURATION (1e-5) of the null deviance, i.e. the deviance
+ * explained exceeds 1 − 1e-5: the training classes are reproduced almost exactly. The full-data
+ * path ends there (fit.ts, early stop "saturated"), as the number outcome's path ends at an exact
+ * fit: weaker strengths would only stretch the same separating direction. (Of the two rules one
+ * could use, this one rather than "every probability within 1e-5 of its class": on separated data
+ * the lasso's KKT conditions give the rows nearest the boundary e^−|η| ≈ n·λ, so probabilities
+ * come within 1e-5 only below λ ≈ 1e-5/n, far under a default grid, while the deviance left is
+ * about λ itself and falls below 1e-5 of the null deviance near the default grid's low end.)
  *
  * All exponentials and logarithms are the portable ones (portableMath.ts, via logistic and
  * softplus), so fits are bit-identical in Node and in the browser.
@@ -274,7 +279,7 @@ export class LogisticDescent {
     for (let i = 0; i < this.n; i++) {
       if (i % ROWS_PER_CHECK === ROWS_PER_CHECK - 1) throwIfCancelled(this.settings.signal);
       const score = eta[i];
-      const e = tableExp(-Math.abs(score));
+      const e = tableExp(score > 0 ? -score : score);
       prob[i] = logisticFrom(score, e);
       complement[i] = logisticFrom(-score, e);
     }
@@ -292,7 +297,7 @@ export class LogisticDescent {
       if (!(omega[i] > 0)) continue;
       const score = eta[i];
       // y η − log(1 + e^η) is −log(1 + e^−η) for an event and −log(1 + e^η) otherwise.
-      sum += omega[i] * softplusFrom(y[i] === 1 ? -score : score, tableExp(-Math.abs(score)));
+      sum += omega[i] * softplusFrom(y[i] === 1 ? -score : score, tableExp(score > 0 ? -score : score));
     }
     return sum;
   }
@@ -491,7 +496,7 @@ export class LogisticDescent {
       const old = coef[j];
       const m = multipliers[j];
       // A coefficient at 0 whose gradient the soft threshold absorbs stays at 0: no curvature needed.
-      if (old === 0 && Math.abs(g) <= l1 * m) continue;
+      if (old === 0 && (g > 0 ? g : -g) <= l1 * m) continue;
       this.prepareColumn(j);
       const d = this.curvature[j];
       const denominator = d + l2 * m;
@@ -506,7 +511,7 @@ export class LogisticDescent {
       const c = this.centre[j];
       this.intercept -= delta * c;
       for (let i = 0; i < n; i++) residual[i] -= delta * working[i] * (xs[off + i] - c);
-      const change = denominator * Math.abs(delta);
+      const change = denominator * (delta > 0 ? delta : -delta);
       if (change > largest) largest = change;
     }
     if (this.settings.intercept) {
@@ -1026,15 +1031,25 @@ export class LogisticDescent {
     return this.violation(lambda, null, 0) / Math.max(lambda, this.floor);
   }
 
-  /** True when every row with positive weight has a probability within SATURATION of its class. */
+  /** True when the fit leaves at most SATURATION of the null deviance (module comment). Cost O(n). */
   saturated(): boolean {
+    return isSaturated(this.loss(), this.nullLoss);
+  }
+
+  /** True when every row with positive weight has a probability within `distance` of its class. */
+  probabilitiesWithin(distance: number): boolean {
     const { prob, complement, y, omega } = this;
     for (let i = 0; i < this.n; i++) {
       if (!(omega[i] > 0)) continue;
-      if ((y[i] === 1 ? complement[i] : prob[i]) > SATURATION) return false;
+      if ((y[i] === 1 ? complement[i] : prob[i]) > distance) return false;
     }
     return true;
   }
+}
+
+/** The saturation rule (module comment): the loss at most SATURATION of the null model's. */
+function isSaturated(loss: number, nullLoss: number): boolean {
+  return loss <= SATURATION * nullLoss;
 }
 
 /**
@@ -1060,7 +1075,7 @@ export function logisticTopStrength(solver: LogisticDescent): number {
 }
 
 export interface LogisticPathSettings {
-  /** End the path once every training probability is within SATURATION of its class. */
+  /** End the path once the fit leaves at most SATURATION of the null deviance (see saturated). */
   stopWhenSaturated: boolean;
   /** End the path once a tenfold drop in strength lowers the loss by less than PLATEAU_GAIN (path.ts). */
   stopWhenFlat: boolean;
@@ -1109,7 +1124,7 @@ export function runLogisticPath(
   let anchor = 0;
   const endsAt = (k: number, loss: number): EarlyStop | null => {
     if (k + 1 === strengths.length) return null;
-    if (settings.stopWhenSaturated && solver.saturated()) return "saturated";
+    if (settings.stopWhenSaturated && isSaturated(loss, solver.nullLoss)) return "saturated";
     if (settings.stopWhenFlat) {
       const reach = PLATEAU_SPAN * strengths[k] * (1 - 1e-9);
       while (anchor + 1 < k && strengths[anchor + 1] >= reach) anchor++;
