@@ -8,7 +8,7 @@
 import fc from "fast-check";
 import { CholeskyDecomposition, Matrix } from "ml-matrix";
 import { InputError } from "../../engine/errors";
-import { fit, FitOptions, FitResult } from "../../engine/fit";
+import { fit, fitAsync, FitOptions, FitResult } from "../../engine/fit";
 import { LogisticDescent } from "../../engine/logistic";
 import { problemFromRows } from "../../engine/problem";
 import { columnScales } from "../helpers/kkt";
@@ -288,6 +288,24 @@ describe("results", () => {
     const second = fit(x, y, options);
     expect(second).toEqual(first);
     expect(JSON.stringify(second)).toBe(JSON.stringify(first));
+  });
+
+  test("progress counts one unit per full path and per fold, and fitAsync gives the same result", async () => {
+    const calls: [number, number][] = [];
+    const options: FitOptions = { outcome: "two-class", mixes: [0, 1], folds: 3, strengthCount: 10 };
+    const result = fit(x, y, { ...options, onProgress: (done, total) => calls.push([done, total]) });
+    expect(calls).toEqual(Array.from({ length: 8 }, (_, k) => [k + 1, 8])); // 2 mixes × (1 + 3 folds)
+    expect(JSON.stringify(await fitAsync(x, y, options))).toBe(JSON.stringify(result));
+  });
+
+  test("a constant column is left out with coefficient 0", () => {
+    const withConstant = x.map((row) => [...row, 7]);
+    const result = fit(withConstant, y, { outcome: "two-class", mixes: [0.5], folds: 3, strengthCount: 10 });
+    expect(result.constantColumns).toEqual(["x6"]);
+    expect(result.coefficients[5]).toBe(0);
+    expect(result.warnings.some((w) => w.code === "constant-column")).toBe(true);
+    const plain = fit(x, y, { outcome: "two-class", mixes: [0.5], folds: 3, strengthCount: 10 });
+    expectVectorRelative(result.coefficients.slice(0, 5), plain.coefficients, 1e-12, "the other coefficients");
   });
 
   test("a two-class result has log-odds coefficients, a logistic model and an in-sample class score", () => {
