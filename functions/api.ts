@@ -13,8 +13,22 @@
  * | SHRINK.APPLY(coefficient_table, new_rows)              | one prediction per new row, from a table, without refitting     |
  * | SHRINK.PATH(target, predictors, [mix], [settings])     | strength | terms kept | intercept | terms…, one per strength  |
  * | SHRINK.CVCURVE(target, predictors, [mixes], [settings])| mix | strength | CV MSE | ± SE | terms kept                    |
- * | SHRINK.SCORE(actual, predicted)                        | label | value: MAE, RMSE, R², mean error, pairs used/skipped   |
- * | SHRINK.BASELINE(target, predictors)                    | term | coefficient | standard error, residual SD, R²            |
+ * | SHRINK.SCORE(actual, predicted, [settings])            | label | value: MAE, RMSE, R², mean error, pairs used/skipped   |
+ * | SHRINK.BASELINE(target, predictors, [settings])        | term | coefficient | standard error, residual SD, R²            |
+ *
+ * A yes/no target (two values: TRUE/FALSE, 0/1 or two labels; setting `outcome`, rules in
+ * engine/outcome.ts) is fitted by penalized logistic regression, and the same functions say so:
+ *
+ * | function | yes/no target                                                                                   |
+ * |----------|-------------------------------------------------------------------------------------------------|
+ * | COEFS    | term | coefficient (log-odds of 'fail') | odds ratio (e^coefficient; blank for the intercept)    |
+ * | CHOICE   | outcome, event ('fail' (62 of 300 rows used; …)), cutoff first, then the rows above; CV deviance… |
+ * | PREDICT  | probability of 'fail' per row; `predict=class`: the class at the cutoff, header `predicted class (cutoff 0.5)` |
+ * | APPLY    | a coefficient header saying log-odds: probability of the event, header `probability of 'fail'` |
+ * | PATH     | the intercept's header reads `intercept (log-odds of 'fail')`                                   |
+ * | CVCURVE  | CV deviance, CV misclassified share or CV AUC (higher is better), by `error`                    |
+ * | SCORE    | event, log loss, Brier score, AUC, cutoff, accuracy, sensitivity, specificity, events caught, events missed, false alarms, correct all-clear, pairs used/skipped, notes |
+ * | BASELINE | term | coefficient (log-odds of 'fail') | standard error | z | p-value, then deviances (a separation row on top when no estimate exists) |
  *
  * COEFS, CHOICE, PREDICT, PATH (with its mix omitted) and CVCURVE build the same FitRequest for
  * the same ranges, mixes and settings, so a caching runner fits once for all of them.
