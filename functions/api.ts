@@ -397,8 +397,9 @@ function flatten(grid: unknown[][], label: string): Vector {
 /**
  * SHRINK.SCORE: accuracy of predictions. Pairs with a blank or error cell are skipped (and
  * counted); a first cell of text (not a number stored as text) is a header and is dropped, on
- * either side — on the actual side unless the same text appears again below it (then it is a
- * class label, not a header); the values below the headers must pair up one to one.
+ * either side — on the actual side unless it is a class label: the same text appears again
+ * below it, or other labels follow it and taking it for a header would leave one prediction
+ * unpaired; the values below the headers must pair up one to one.
  *
  * Number scoring returns [["label", "value"], ["MAE", …], ["RMSE", …], ["R²", …],
  * ["mean error (predicted − actual)", …], ["pairs used", n], ["pairs skipped", m]].
@@ -441,8 +442,12 @@ export function score(actual: unknown, predicted: unknown, settingsRaw?: unknown
       }
       return c.value;
     };
-    const aHeader = headerOf(av, true);
+    let aHeader = headerOf(av, true);
     const pHeader = headerOf(pv, false);
+    // A first label that only a header would leave unpaired is a value too, when labels follow it.
+    if (aHeader !== null && settings.outcome !== "number" && av.cells.length === pv.cells.length - (pHeader === null ? 0 : 1)) {
+      if (av.cells.slice(1).some((c) => c.kind === "text" && numberFromText(c.value) === null)) aHeader = null;
+    }
     const aStart = aHeader === null ? 0 : 1;
     const pStart = pHeader === null ? 0 : 1;
     const n = av.cells.length - aStart;
