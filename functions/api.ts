@@ -190,9 +190,10 @@ function checkOutcomeSettings(dataset: Dataset, settings: Settings): void {
     settings.predictOutput !== null ? `predict=${settings.predictOutput}` : null,
   ].filter((g): g is string => g !== null);
   if (given.length === 0) return;
-  const why = settings.outcome === "number" ? "settings say outcome=number" : `it holds numbers, not two classes (TRUE/FALSE, 0/1 or two labels)`;
+  const why =
+    settings.outcome === "number" ? "settings say outcome=number" : "only TRUE/FALSE, 0/1 or two labels are read as yes/no, or any two values with outcome=two-class";
   throw new SettingError(
-    `${given.join(" and ")} ${given.length === 1 ? "applies" : "apply"} to a yes/no target, but the target '${dataset.targetName}' is read as a number (${why}): remove ${given.length === 1 ? "it" : "them"}, or give a target with two classes`,
+    `${given.join(" and ")} ${given.length === 1 ? "applies" : "apply"} to a yes/no target, but the target '${dataset.targetName}' is read as numbers (${why}): remove ${given.length === 1 ? "it" : "them"}, or give a target with two classes`,
   );
 }
 
@@ -555,6 +556,7 @@ export function baseline(runner: FitRunner, target: unknown, predictors: unknown
   return guard(async () => {
     const settings = parseSettings(settingsRaw ?? null, BASELINE_SETTINGS);
     const dataset = buildDataset(target, predictors, settings);
+    checkOutcomeSettings(dataset, settings);
     const options: PlainFitOptions = { names: dataset.names.slice(), mixes: [1], strength: 0 };
     if (dataset.outcome === "two-class") options.outcome = "two-class";
     const request: FitRequest = { predictors: dataset.predictors, target: dataset.target, options };

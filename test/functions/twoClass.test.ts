@@ -271,14 +271,14 @@ describe("what the fitting functions send, and what they refuse before fitting",
     expect(await rejection(coefs(runner, numeric.target, numeric.predictors, 1, `${QUICK}; event=fail`))).toEqual({
       code: "#VALUE!",
       message:
-        "event=fail applies to a yes/no target, but the target 'Sales' is read as a number (it holds numbers, not two classes (TRUE/FALSE, 0/1 or two labels)): remove it, or give a target with two classes",
+        "event=fail applies to a yes/no target, but the target 'Sales' is read as numbers (only TRUE/FALSE, 0/1 or two labels are read as yes/no, or any two values with outcome=two-class): remove it, or give a target with two classes",
     });
     expect((await rejection(predict(runner, numeric.target, numeric.predictors, numeric.predictors, 1, `${QUICK}; cutoff=0.3; predict=class`))).message).toBe(
-      "cutoff=0.3 and predict=class apply to a yes/no target, but the target 'Sales' is read as a number (it holds numbers, not two classes (TRUE/FALSE, 0/1 or two labels)): remove them, or give a target with two classes",
+      "cutoff=0.3 and predict=class apply to a yes/no target, but the target 'Sales' is read as numbers (only TRUE/FALSE, 0/1 or two labels are read as yes/no, or any two values with outcome=two-class): remove them, or give a target with two classes",
     );
     const zeroOne = yesNoSheet(80, "numbers");
     expect((await rejection(choice(runner, zeroOne.target, zeroOne.predictors, 1, `${QUICK}; outcome=number; predict=class`))).message).toBe(
-      "predict=class applies to a yes/no target, but the target 'Outcome' is read as a number (settings say outcome=number): remove it, or give a target with two classes",
+      "predict=class applies to a yes/no target, but the target 'Outcome' is read as numbers (settings say outcome=number): remove it, or give a target with two classes",
     );
     expect(runner.calls).toBe(0);
   });
@@ -296,7 +296,11 @@ describe("what the fitting functions send, and what they refuse before fitting",
     expect(runner.calls).toBe(0);
   });
 
-  test("BASELINE refuses settings it has no use for", async () => {
+  test("BASELINE refuses settings it has no use for, and event= on a number target", async () => {
+    const numeric = sheet();
+    expect((await rejection(baseline(new CountingRunner(), numeric.target, numeric.predictors, "event=1"))).message).toBe(
+      "event=1 applies to a yes/no target, but the target 'Sales' is read as numbers (only TRUE/FALSE, 0/1 or two labels are read as yes/no, or any two values with outcome=two-class): remove it, or give a target with two classes",
+    );
     expect(await rejection(baseline(new CountingRunner(), target, predictors, "folds=5"))).toEqual({
       code: "#VALUE!",
       message: "'folds' doesn't apply to SHRINK.BASELINE: its settings are outcome, event, header, zero is missing",
