@@ -483,6 +483,8 @@ export function score(actual: unknown, predicted: unknown, settingsRaw?: unknown
       throw new DataError(`${av.where(firstLabel)} has text '${x.value}': SHRINK.SCORE needs numbers (clear the cell to skip it)`);
     }
     let skipped = 0;
+    /** Where each pair used sits in predicted, for messages. */
+    const usedAt: number[] = [];
     for (let k = 0; k < n; k++) {
       const x = av.cells[aStart + k];
       const y = pv.cells[pStart + k];
@@ -496,11 +498,12 @@ export function score(actual: unknown, predicted: unknown, settingsRaw?: unknown
       }
       actualValues.push((x as { value: OutcomeValue }).value);
       predictedValues.push(numericValue(y));
+      usedAt.push(pStart + k);
     }
     if (actualValues.length === 0) {
       throw new DataError(`nothing to score: every pair has a blank or error cell (${skipped} pairs)`);
     }
-    const reading = scoreReading(actualValues, predictedValues, labels, settings);
+    const reading = scoreReading(actualValues, predictedValues, labels, settings, (i) => pv.where(usedAt[i]));
     if (reading !== null) return twoClassScoreSpill(scoreTwoClass(reading.values, predictedValues, { cutoff: settings.cutoff ?? DEFAULT_CUTOFF }), reading, skipped);
     if (settings.event !== null || settings.cutoff !== null) {
       throw new SettingError(
@@ -521,6 +524,7 @@ function scoreReading(
   predicted: number[],
   labels: boolean,
   settings: Settings,
+  where: (pair: number) => string,
 ): (OutcomeReading & { kind: "two-class" }) | null {
   const setting = settings.outcome ?? "auto";
   if (setting === "number") return null;
@@ -538,7 +542,7 @@ function scoreReading(
   if (reading.kind !== "two-class") return null;
   if (outside >= 0) {
     throw new DataError(
-      `predicted value ${predicted[outside]} (pair ${outside + 1} used) lies outside 0 to 1, but actual holds two classes ('${reading.event}', '${reading.other}'): give the probability of '${reading.event}' for each row${labels ? "" : ", or add outcome=number to settings to score the values as numbers"}`,
+      `${where(outside)} is ${predicted[outside]}, outside 0 to 1, but actual holds two classes ('${reading.event}', '${reading.other}'): give the probability of '${reading.event}' for each row${labels ? "" : ", or add outcome=number to settings to score the values as numbers"}`,
     );
   }
   return reading;

@@ -454,10 +454,10 @@ describe("SHRINK.SCORE with yes/no actual values", () => {
 
   test("refusals: probabilities outside 0 to 1 beside labels, class labels as predictions, three labels, stray text, settings", async () => {
     expect((await rejection(score(actual, predicted.map((row, i) => (i === 2 ? [1.4] : row))))).message).toBe(
-      "predicted value 1.4 (pair 2 used) lies outside 0 to 1, but actual holds two classes ('fail', 'pass'): give the probability of 'fail' for each row",
+      "predicted row 3 is 1.4, outside 0 to 1, but actual holds two classes ('fail', 'pass'): give the probability of 'fail' for each row",
     );
     expect((await rejection(score([[1], [0], [1]], [[0.5], [2], [0.1]], "outcome=two-class"))).message).toBe(
-      "predicted value 2 (pair 2 used) lies outside 0 to 1, but actual holds two classes ('1', '0'): give the probability of '1' for each row, or add outcome=number to settings to score the values as numbers",
+      "predicted row 2 is 2, outside 0 to 1, but actual holds two classes ('1', '0'): give the probability of '1' for each row, or add outcome=number to settings to score the values as numbers",
     );
     expect((await rejection(score([["actual"], ["fail"], ["pass"]], [["predicted"], ["fail"], ["pass"]]))).message).toBe(
       "predicted row 2 has text 'fail' (SHRINK.SCORE scores probabilities of the event: use predict=probability): SHRINK.SCORE needs numbers (clear the cell to skip it)",
