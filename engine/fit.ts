@@ -19,6 +19,14 @@
  * coefficient beyond ±1.8e308, or below 2.2e-308) is an InputError naming the column; a
  * cross-validated error that can't be is shown as non-finite with a warning.
  *
+ * Two-class outcomes (options.outcome "two-class"): the squared error is replaced by the binomial
+ * log-likelihood, −(1/Σw) Σ w [y η − log(1 + e^η)], on the same standardized predictors, with the
+ * 0/1 target left as it is (engine/logistic.ts); coefficients are log-odds per unit, the grid's top
+ * is the gradient at the intercept-only fit, and the paths end once the classes are reproduced
+ * almost exactly ("saturated"). Strength 0 is the unpenalized maximum-likelihood fit
+ * (logisticBaseline.ts). Random folds are stratified by class. Measures: deviance per row (the
+ * default), the share misclassified at the cutoff, or the AUC (higher is better).
+ *
  * Cross-validation (Hastie, Tibshirani & Friedman, ESL 2nd ed. §7.10): the full data fix
  * each mix's grid and path; every fold then solves down the same strengths on its training
  * rows (its own standardization, target included) and is scored on its held-out rows. The same
@@ -30,9 +38,10 @@ import { FoldPlan, FoldScheme, planFolds, rowsOfBlocks } from "./folds";
 import { leastSquares } from "./leastSquares";
 import { ColumnMatrix, selectRows } from "./matrix";
 import { LinearModel, linearModel, logistic, predict } from "./model";
+import { logisticBaseline } from "./logisticBaseline";
 import { score, Score } from "./metrics";
 import { areaUnderCurve, devianceFromScores, misclassifiedShare, scoreTwoClass, TwoClassScore } from "./classMetrics";
-import { LogisticDescent, LogisticReport, LogisticRun, LogisticSettings, logisticTopStrength, runLogisticPath, SATURATION } from "./logistic";
+import { LogisticDescent, LogisticReport, LogisticRun, LogisticSettings, logisticTopStrength, runLogisticPath } from "./logistic";
 import type { OutcomeKind } from "./outcome";
 import {
   DEFAULT_GRID_DENSITY,
@@ -273,7 +282,8 @@ export interface FitResult {
   constantColumns: string[];
   diagnostics: {
     updates: "gram" | "residual";
-    solver: "descent" | "spectral" | "least-squares";
+    /** "least-squares": the number outcome at strength 0; "maximum-likelihood": the two-class outcome at strength 0 (logisticBaseline.ts). */
+    solver: "descent" | "spectral" | "least-squares" | "maximum-likelihood";
     sweeps: number;
     /** Largest KKT violation relative to λ on the chosen mix's full-data path. */
     maxKktViolation: number;
@@ -1457,15 +1467,22 @@ function startTwoClass(
   y: Float64Array,
   penalty: PenaltySpec,
   fullData: boolean,
+  warnings: FitWarning[],
 ): { solver: LogisticDescent; start: LogisticReport } {
   const solver = new LogisticDescent(problem, y, penalty, logisticSettings(data));
   const start = solver.fitUnpenalized();
+  const unpenalized: string[] = [];
+  for (let j = 0; j < problem.p; j++) if (!problem.std.frozen[j] && !(data.multipliers[j] > 0)) unpenalized.push(`'${data.names[j]}'`);
+  if (fullData && !start.converged && !warnings.some((w) => w.code === "separated")) {
+    warnings.push({
+      code: "separated",
+      message: `the fit of the intercept and the unpenalized predictors (${unpenalized.join(", ")}) did not settle: they nearly separate the two classes, so their coefficients keep growing; the path starts from where that fit stopped (give them a penalty multiplier above 0 to keep them finite)`,
+    });
+  }
   if (fullData && solver.saturated()) {
-    const unpenalized: string[] = [];
-    for (let j = 0; j < problem.p; j++) if (!problem.std.frozen[j] && !(data.multipliers[j] > 0)) unpenalized.push(`'${data.names[j]}'`);
     throw new InputError(
       "constant-target",
-      `the unpenalized predictors (${unpenalized.join(", ")}) already separate the two classes: every probability is within ${SATURATION} of its class before any penalized term enters, so there is nothing left for the penalty to choose (and those coefficients have no finite value); give them a penalty multiplier above 0`,
+      `the intercept and the unpenalized predictors (${unpenalized.join(", ")}) already separate the two classes: they explain all but 1e-5 of the deviance before any penalized term enters, so there is nothing left for the penalty to choose (and their coefficients have no finite value); give them a penalty multiplier above 0`,
     );
   }
   return { solver, start };
@@ -1614,7 +1631,7 @@ function* twoClassSteps(
   let halvings = 0;
   for (const mix of data.mixes) {
     const penalty = penaltyFor(full, data, mix);
-    const { solver, start } = startTwoClass(data, full, data.y, penalty, true);
+    const { solver, start } = startTwoClass(data, full, data.y, penalty, true, warnings);
     const top = twoClassTop(data, full, penalty, solver);
     const grid = strengthGrid(top, data.strengthCount, data.lowEndRatio);
     const run = runLogisticPath(solver, start, grid, { stopWhenSaturated: true, stopWhenFlat: data.stopEarly, signal });
@@ -1629,7 +1646,7 @@ function* twoClassSteps(
       throwIfCancelled(signal);
       const problem = problems.folds[f];
       const foldPenalty = penaltyFor(problem, data, mix);
-      const fold = startTwoClass(data, problem, trainingOutcomes[f], foldPenalty, false);
+      const fold = startTwoClass(data, problem, trainingOutcomes[f], foldPenalty, false, warnings);
       // Every fold solves exactly the strengths the full-data path computed.
       const foldRun = runLogisticPath(fold.solver, fold.start, run.strengths, { stopWhenSaturated: false, stopWhenFlat: false, skipLoss: true, signal });
       sweeps += foldRun.sweeps;
@@ -1716,14 +1733,17 @@ function* twoClassSteps(
 /** Two-class result at a single fixed strength: the path from the top of the grid down to it. */
 function fixedTwoClass(data: Prepared, full: TrainingProblem, strength: number, constantColumns: string[], warnings: FitWarning[]): FitResult {
   if (strength === 0) {
-    throw new InputError(
-      "strength",
-      "strength 0 (the unpenalized fit) is not available for a two-class outcome in this version: give a small positive strength, e.g. 1e-4",
-    );
+    if (data.bounded) {
+      throw new InputError(
+        "strength",
+        "bounds apply to penalized fits: a two-class fit with bounds needs a strength above 0; give a small positive strength (e.g. 1e-4), or remove the bounds for the unpenalized fit",
+      );
+    }
+    return twoClassBaselineResult(data, full, constantColumns, warnings);
   }
   const mix = data.mixes[0];
   const penalty = penaltyFor(full, data, mix);
-  const { solver, start } = startTwoClass(data, full, data.y, penalty, true);
+  const { solver, start } = startTwoClass(data, full, data.y, penalty, true, warnings);
   const top = logisticTopStrength(solver);
   const grid = top > 0 ? strengthGrid(top, data.strengthCount, data.lowEndRatio).filter((s) => s > strength) : [];
   grid.push(strength);
@@ -1734,13 +1754,99 @@ function fixedTwoClass(data: Prepared, full: TrainingProblem, strength: number, 
   if (solver.saturated()) {
     warnings.push({
       code: "separated",
-      message: `the training rows are separated: at strength ${formatNumber(strength)} every probability is within ${SATURATION} of its class, and at weaker strengths the coefficients would only grow without bound`,
+      message: `the training rows are separated: at strength ${formatNumber(strength)} the model explains all but 1e-5 of the deviance, reproducing the two classes almost exactly, and at weaker strengths its coefficients would only grow without bound`,
     });
   }
   const result = assembleTwoClass(data, full, run, top, run.strengths.length - 1, mix, constantColumns, warnings, run.stepHalvings);
   result.rule = "fixed";
   result.strengthFraction = top > 0 ? strength / top : 0;
   return result;
+}
+
+/**
+ * Strength 0, two-class: the unpenalized maximum-likelihood fit with its standard errors, z and p
+ * values, deviances and separation check (logisticBaseline.ts), on the data as given (it standardizes
+ * and returns to the data's units itself).
+ */
+function twoClassBaselineResult(data: Prepared, full: TrainingProblem, constantColumns: string[], warnings: FitWarning[]): FitResult {
+  const original = data.original;
+  const baseline = logisticBaseline(original.x, original.y, {
+    intercept: data.intercept,
+    weights: original.weights ?? undefined,
+    names: data.names,
+    signal: data.settings.signal,
+  });
+  if (baseline.aliased.length > 0) {
+    warnings.push({
+      code: "aliased",
+      message: `${baseline.aliased.map((j) => data.names[j]).join(", ")} ${baseline.aliased.length === 1 ? "is" : "are"} an exact combination of other predictors: coefficient set to 0`,
+    });
+  }
+  if (baseline.separation) {
+    warnings.push({ code: "separated", message: baseline.separation.message });
+  } else if (!baseline.converged) {
+    warnings.push({ code: "not-converged", message: "the unpenalized fit did not converge within its step cap: its estimates are approximate" });
+  }
+  const coefficients = baseline.coefficients.slice();
+  const intercept = baseline.intercept;
+  const predictorSpreads = Array.from(full.std.xSpread, (spread, j) => scaleByPowerOfTwo(spread, -data.xExponent[j]));
+  const share = 1 - baseline.deviance / baseline.nullDeviance;
+  const probabilities = baseline.probabilities;
+  return {
+    kind: "shrinkwise-fit",
+    outcome: "two-class",
+    terms: data.names.slice(),
+    intercept,
+    coefficients,
+    standardizedCoefficients: coefficients.map((b, j) => b * predictorSpreads[j]),
+    predictorSpreads,
+    targetSpread: 1,
+    mix: data.mixes[0],
+    strength: 0,
+    strengthFraction: 0,
+    rule: "fixed",
+    choices: null,
+    cv: null,
+    path: { mix: data.mixes[0], top: 0, strengths: [0], intercepts: [intercept], coefficients: [coefficients.slice()], termsKept: [coefficients.filter((b) => b !== 0).length], r2: [share] },
+    fit: score(original.y, probabilities, original.weights),
+    classFit: scoreTwoClass(original.y, probabilities, { cutoff: data.cutoff, weights: original.weights }),
+    baseline: {
+      standardErrors: baseline.standardErrors.slice(),
+      interceptStandardError: baseline.interceptStandardError,
+      residualStandardDeviation: NaN,
+      degreesOfFreedom: baseline.degreesOfFreedom,
+      r2: share,
+      aliased: baseline.aliased.map((j) => data.names[j]),
+      zValues: baseline.zValues.slice(),
+      interceptZ: baseline.interceptZ,
+      pValues: baseline.pValues.slice(),
+      interceptP: baseline.interceptP,
+      deviance: baseline.deviance,
+      nullDeviance: baseline.nullDeviance,
+      nullDegreesOfFreedom: baseline.nullDegreesOfFreedom,
+      separation: baseline.separation
+        ? { kind: baseline.separation.kind, terms: baseline.separation.terms.map((j) => data.names[j]), message: baseline.separation.message }
+        : null,
+    },
+    rowsUsed: data.x.rows,
+    constantColumns,
+    diagnostics: {
+      updates: data.covariance ? "gram" : "residual",
+      solver: "maximum-likelihood",
+      sweeps: 0,
+      maxKktViolation: 0,
+      maxKktViolationAllFits: 0,
+      converged: baseline.converged,
+      strongRuleMisses: 0,
+      earlyStop: null,
+      lowEndRatio: data.lowEndRatio,
+      strengthCount: data.strengthCount,
+      gridDensity: gridDensity(data.strengthCount, data.lowEndRatio),
+      stepHalvings: 0,
+    },
+    warnings,
+    model: linearModel(data.names, intercept, coefficients, "logistic"),
+  };
 }
 
 /** Shared two-class result assembly from the full-data path and the chosen point on it. */
@@ -1789,7 +1895,7 @@ function assembleTwoClass(
       code: "early-stop",
       message:
         run.earlyStop === "saturated"
-          ? `the training rows are separated: from strength ${formatNumber(run.strengths[last])} down every probability is within ${SATURATION} of its class, so the path stops there (${where}); at weaker strengths the coefficients would only grow without bound`
+          ? `the training rows are separated: from strength ${formatNumber(run.strengths[last])} down the model explains all but 1e-5 of the deviance, reproducing the two classes almost exactly, so the path stops there (${where}); at weaker strengths its coefficients would only grow without bound`
           : `the path stopped at strength ${formatNumber(run.strengths[last])} (${where}), as 'stop early' allows: over the last tenfold drop in strength the deviance improved by less than 1%`,
     });
   }
