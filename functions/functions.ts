@@ -32,7 +32,7 @@ import { browserWorkerFactory, workersAvailable, WorkerRunner } from "./workerRu
  * @param [mixes] The mixes to try: 0 is ridge, 1 is lasso, between is elastic net. A number, a range of numbers or text like "0, 0.5, 1". Leave out to try 0, 0.25, 0.5, 0.75 and 1.
  * @param [settings] Optional settings as text, like "folds=5; seed=7; rule=one-se", or a two-column range of setting names and values. Yes/no targets: outcome, event (e.g. event=fail), error=deviance|misclassified|auc, cutoff.
  * @param invocation Supplied by Excel.
- * @returns A table of term and coefficient (yes/no target: term, coefficient in log-odds of the event, odds ratio).
+ * @returns A table of term and coefficient (yes/no target: term, coefficient in log-odds of the event, odds ratio e^coefficient per unit; the intercept's odds ratio is left blank, as e^intercept is the odds where every predictor is 0, not a ratio).
  */
 export async function coefs(
   target: any[][],

@@ -63,6 +63,10 @@ describe("spills for a yes/no target", () => {
     expect(v.get("event")).toBe(`'fail' (${events} of 80 rows used; the other class is 'pass')`);
     expect(v.get("cutoff")).toBe(0.5);
     expect(v.get("CV deviance") as number).toBeGreaterThan(0);
+    // A tie between the classes: the event picked, and how, in the notes.
+    const tied = [["Outcome"], ...predictors.slice(1).map((_, i) => [i % 2 === 0 ? "yes" : "no"])];
+    const notes = labelled(await choice(new CountingRunner(), tied, predictors, 1, "strength=0.01")).get("notes");
+    expect(notes).toBe("both classes have 40 rows, so the event is 'no' (first in alphabetical order); name another with event=…");
     const auc = labelled(await choice(new CountingRunner(), target, predictors, "0, 1", `${QUICK}; error=auc; cutoff=0.3`));
     expect(auc.get("cutoff")).toBe(0.3);
     const value = auc.get("CV AUC (higher is better)") as number;
