@@ -84,8 +84,8 @@ import {
   describeColumn,
 } from "./validate";
 
-/** The two choice rules: lowest cross-validated error, or the one-SE rule. */
-export type ChoiceRule = "lowest" | "one-se";
+import type { ChoiceRule } from "./words";
+export type { ChoiceRule } from "./words";
 
 /**
  * The rule a user typed, in any accepted spelling: `lowest` (also `lowest error`, and the

@@ -3,7 +3,8 @@
  * pane, report sheet, charts) says the same thing: the two choice rules in words, and how a
  * cross-validated error is written beside its standard error.
  */
-import type { ChoiceRule } from "./fit";
+/** The two choice rules: lowest cross-validated error, or the one-SE rule. */
+export type ChoiceRule = "lowest" | "one-se";
 
 /** The rules in words, as every surface prints them. Tokens: `lowest`, `one-se`. */
 export const RULE_WORDS: Record<ChoiceRule, string> = { lowest: "lowest error", "one-se": "one-SE rule" };
