@@ -78,13 +78,13 @@ export interface DemoData {
 }
 
 /** Rounds to `digits` decimals and returns a plain number (no -0). */
-function round(x: number, digits: number): number {
+export function round(x: number, digits: number): number {
   const r = Number(x.toFixed(digits));
   return r === 0 ? 0 : r;
 }
 
 /** One standard normal draw from two uniforms (Box–Muller, cosine branch). */
-function normal(next: () => number): number {
+export function normal(next: () => number): number {
   const u1 = 1 - next(); // in (0, 1]: log is finite
   const u2 = next();
   return Math.sqrt(-2 * Math.log(u1)) * Math.cos(2 * Math.PI * u2);
@@ -176,7 +176,8 @@ function tsCell(cell: Cell): string {
   return cell === null ? "null" : typeof cell === "string" ? JSON.stringify(cell) : String(cell);
 }
 
-function tsRows(rows: Cell[][]): string {
+/** Rows as TypeScript array literals, one row a line (blanks as null). */
+export function tsRows(rows: Cell[][]): string {
   return rows.map((row) => `  [${row.map(tsCell).join(", ")}],`).join("\n");
 }
 
