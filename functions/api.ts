@@ -20,10 +20,13 @@
  * the same ranges, mixes and settings, so a caching runner fits once for all of them.
  * APPLY and SCORE fit nothing and take no runner.
  */
+import { scoreTwoClass } from "../engine/classMetrics";
+import { checkMeasure } from "../engine/fit";
 import { score as scoreValues } from "../engine/metrics";
 import { numberFromText } from "../engine/numberText";
-import { linearModel, predict as predictWithModel } from "../engine/model";
-import { Cell, classifyCell, isNumeric, numericValue, storedAsTextHint, toGrid } from "./cells";
+import { linearModel, predict as predictWithModel, type ModelLink } from "../engine/model";
+import { readOutcome, type OutcomeReading, type OutcomeValue } from "../engine/outcome";
+import { Cell, classifyCell, isNumeric, numericValue, storedAsTextHint, textKey, toGrid } from "./cells";
 import {
   applyCoefficientTable,
   buildDataset,
@@ -32,20 +35,24 @@ import {
   encodeNewRows,
   listNames,
   readCoefficientTable,
+  TargetClasses,
   termIndices,
 } from "./dataset";
 import { DataError, SettingError, toCellError } from "./errors";
 import type { CancelToken, FitRequest, FitRunner, PlainFitOptions } from "./runner";
-import { defaultSettings, parseMixes, parseSettings, Settings } from "./settings";
+import { BASELINE_SETTINGS, DEFAULT_CUTOFF, parseMixes, parseSettings, SCORE_SETTINGS, Settings } from "./settings";
 import {
   baselineSpill,
   choiceSpill,
   coefficientSpill,
   cvCurveSpill,
   pathSpill,
+  PredictionOutput,
   predictionSpill,
   scoreSpill,
   Spill,
+  twoClassBaselineSpill,
+  twoClassScoreSpill,
 } from "./spill";
 
 export type { Spill, SpillCell } from "./spill";
@@ -132,6 +139,10 @@ function fitOptions(dataset: Dataset, settings: Settings, mixes: number[] | null
   if (settings.seed !== null) options.seed = settings.seed;
   if (dataset.foldLabels) options.foldLabels = dataset.foldLabels;
   if (settings.timeOrdered !== null) options.timeOrdered = settings.timeOrdered;
+  if (dataset.outcome === "two-class") {
+    options.outcome = "two-class";
+    if (settings.cutoff !== null) options.cutoff = settings.cutoff;
+  }
   if (settings.measure !== null) options.measure = settings.measure;
   if (settings.rule !== null) options.rule = settings.rule;
   if (settings.standardize !== null) options.standardize = settings.standardize;
@@ -151,6 +162,26 @@ function fitOptions(dataset: Dataset, settings: Settings, mixes: number[] | null
   return options;
 }
 
+/**
+ * Settings that only a yes/no target uses are refused on a number target (they say the user
+ * expects a yes/no target); an error measure of the other kind of target is refused with the
+ * engine's own message (checkMeasure).
+ */
+function checkOutcomeSettings(dataset: Dataset, settings: Settings): void {
+  checkMeasure(settings.measure, dataset.outcome);
+  if (dataset.outcome === "two-class") return;
+  const given = [
+    settings.event !== null ? `event=${settings.event}` : null,
+    settings.cutoff !== null ? `cutoff=${settings.cutoff}` : null,
+    settings.predictOutput !== null ? `predict=${settings.predictOutput}` : null,
+  ].filter((g): g is string => g !== null);
+  if (given.length === 0) return;
+  const why = settings.outcome === "number" ? "settings say outcome=number" : `it holds numbers, not two classes (TRUE/FALSE, 0/1 or two labels)`;
+  throw new SettingError(
+    `${given.join(" and ")} ${given.length === 1 ? "applies" : "apply"} to a yes/no target, but the target '${dataset.targetName}' is read as a number (${why}): remove ${given.length === 1 ? "it" : "them"}, or give a target with two classes`,
+  );
+}
+
 export interface Prepared {
   dataset: Dataset;
   settings: Settings;
@@ -166,6 +197,7 @@ export function prepare(target: unknown, predictors: unknown, mixesRaw: unknown,
   const settings = parseSettings(settingsRaw);
   const mixList = mixes !== undefined ? mixes : parseMixes(mixesRaw);
   const dataset = buildDataset(target, predictors, settings);
+  checkOutcomeSettings(dataset, settings);
   const options = fitOptions(dataset, settings, mixList, mixes !== undefined ? "mix" : "mixes");
   return { dataset, settings, request: { predictors: dataset.predictors, target: dataset.target, options } };
 }
@@ -208,11 +240,32 @@ export function choice(
   });
 }
 
-function predictRows(encoded: EncodedRows, terms: string[], intercept: number, coefficients: number[]): Spill {
+function predictRows(
+  encoded: EncodedRows,
+  terms: string[],
+  intercept: number,
+  coefficients: number[],
+  link: ModelLink = "identity",
+  output?: PredictionOutput,
+): Spill {
   const valueRows: number[][] = [];
   for (const row of encoded.rows) if (row.kind === "values") valueRows.push(row.values);
-  const predictions = predictWithModel(linearModel(terms, intercept, coefficients), valueRows);
-  return predictionSpill(encoded.header, encoded.rows, predictions);
+  const predictions = predictWithModel(linearModel(terms, intercept, coefficients, link), valueRows);
+  return predictionSpill(encoded.header, encoded.rows, predictions, output);
+}
+
+/** How PREDICT shows a yes/no model's predictions: the event's probability, or the predicted class. */
+function twoClassOutput(dataset: Dataset, settings: Settings): PredictionOutput {
+  const classes = dataset.classes as TargetClasses;
+  if (settings.predictOutput === "class") {
+    const cutoff = settings.cutoff ?? DEFAULT_CUTOFF;
+    return {
+      header: `predicted class (cutoff ${cutoff})`,
+      // The classes as the target's cells hold them (TRUE/FALSE stay booleans, 0/1 numbers).
+      cell: (p) => (p >= cutoff ? classes.eventValue : classes.otherValue),
+    };
+  }
+  return { header: `probability of '${classes.event}'` };
 }
 
 /**
@@ -233,6 +286,9 @@ export function predict(
     const prepared = prepare(target, predictors, mixes, settings);
     const encoded = encodeNewRows(prepared.dataset.encoder, newRows);
     const result = await runner.fit(prepared.request, cancel ?? undefined);
+    if (prepared.dataset.outcome === "two-class") {
+      return predictRows(encoded, result.terms, result.intercept, result.coefficients, "logistic", twoClassOutput(prepared.dataset, prepared.settings));
+    }
     return predictRows(encoded, result.terms, result.intercept, result.coefficients);
   });
 }
@@ -245,6 +301,10 @@ export function apply(coefficientTable: unknown, newRows: unknown): Promise<Spil
   return guard(() => {
     const table = readCoefficientTable(coefficientTable);
     const { encoded, terms, intercept, coefficients } = applyCoefficientTable(table, newRows);
+    if (table.link === "logistic") {
+      const header = table.event === null ? "probability of the event" : `probability of '${table.event}'`;
+      return predictRows(encoded, terms, intercept, coefficients, "logistic", { header });
+    }
     return predictRows(encoded, terms, intercept, coefficients);
   });
 }
@@ -270,7 +330,7 @@ export function path(
     }
     const prepared = prepare(target, predictors, null, settings, mixes);
     const result = await runner.fit(prepared.request, cancel ?? undefined);
-    return pathSpill(result);
+    return pathSpill(result, prepared.dataset);
   });
 }
 
@@ -323,12 +383,23 @@ function flatten(grid: unknown[][], label: string): Vector {
 /**
  * SHRINK.SCORE: accuracy of predictions. Pairs with a blank or error cell are skipped (and
  * counted); a first cell of text (not a number stored as text) is a header and is dropped, on
- * either side; the values below the headers must pair up one to one. Returns [["label", "value"],
- * ["MAE", …], ["RMSE", …], ["R²", …], ["mean error (predicted − actual)", …], ["pairs used", n],
- * ["pairs skipped", m]].
+ * either side — on the actual side unless the same text appears again below it (then it is a
+ * class label, not a header); the values below the headers must pair up one to one.
+ *
+ * Number scoring returns [["label", "value"], ["MAE", …], ["RMSE", …], ["R²", …],
+ * ["mean error (predicted − actual)", …], ["pairs used", n], ["pairs skipped", m]].
+ *
+ * Yes/no scoring (`twoClassScoreSpill`): when the actual values used hold two classes (TRUE/FALSE,
+ * 0/1 or two labels, read by engine/outcome.ts with setting `outcome`, default auto) and every
+ * prediction lies in [0, 1] (probabilities of the event): the event, log loss, Brier score, AUC,
+ * the cutoff and the table at it (engine/classMetrics.ts), pairs used and skipped, notes. Actual
+ * labels (texts) need probabilities: a prediction outside [0, 1] is then an error; 0/1 or
+ * TRUE/FALSE actual values beside predictions outside [0, 1] are scored as numbers, as before.
+ * Settings (optional): outcome, event, cutoff.
  */
-export function score(actual: unknown, predicted: unknown): Promise<Spill> {
+export function score(actual: unknown, predicted: unknown, settingsRaw?: unknown): Promise<Spill> {
   return guard(() => {
+    const settings = parseSettings(settingsRaw ?? null, SCORE_SETTINGS);
     const a = vectorOf(actual, "actual");
     const p = vectorOf(predicted, "predicted");
     let av: Vector;
@@ -346,12 +417,18 @@ export function score(actual: unknown, predicted: unknown): Promise<Spill> {
       pv = flatten(p.grid, "predicted");
     }
     // Headers: a first cell of text that isn't a number (a number stored as text is a value, refused below).
-    const headerOf = (v: Vector): string | null => {
+    const headerOf = (v: Vector, labels: boolean): string | null => {
       const c = v.cells[0];
-      return c.kind === "text" && numberFromText(c.value) === null ? c.value : null;
+      if (c.kind !== "text" || numberFromText(c.value) !== null) return null;
+      // On the actual side a text that appears again below is a class label, not a header.
+      if (labels && settings.outcome !== "number") {
+        const key = textKey(c.value);
+        if (v.cells.slice(1).some((other) => other.kind === "text" && textKey(other.value) === key)) return null;
+      }
+      return c.value;
     };
-    const aHeader = headerOf(av);
-    const pHeader = headerOf(pv);
+    const aHeader = headerOf(av, true);
+    const pHeader = headerOf(pv, false);
     const aStart = aHeader === null ? 0 : 1;
     const pStart = pHeader === null ? 0 : 1;
     const n = av.cells.length - aStart;
@@ -363,50 +440,107 @@ export function score(actual: unknown, predicted: unknown): Promise<Spill> {
         `${side("actual", n, aHeader, true)} but ${side("predicted", pv.cells.length - pStart, pHeader, false)}: give one prediction per actual value`,
       );
     }
-    const actualValues: number[] = [];
+    const actualValues: OutcomeValue[] = [];
     const predictedValues: number[] = [];
+    // Labels (texts that aren't numbers) among the actual values, and where the first one sits.
+    let labelCount = 0;
+    let numberCount = 0;
+    let firstLabel = -1;
+    for (let k = 0; k < n; k++) {
+      const x = av.cells[aStart + k];
+      if (x.kind === "text") {
+        if (numberFromText(x.value) !== null || settings.outcome === "number") {
+          throw new DataError(`${av.where(aStart + k)} has text '${x.value}'${storedAsTextHint(x.value)}: SHRINK.SCORE needs numbers (clear the cell to skip it)`);
+        }
+        labelCount++;
+        if (firstLabel < 0) firstLabel = aStart + k;
+      } else if (isNumeric(x)) numberCount++;
+    }
+    const labels = labelCount > 0;
+    if (labels && settings.outcome !== "two-class" && numberCount >= labelCount) {
+      // A stray text among numbers: the message it always had.
+      const x = av.cells[firstLabel] as { kind: "text"; value: string };
+      throw new DataError(`${av.where(firstLabel)} has text '${x.value}': SHRINK.SCORE needs numbers (clear the cell to skip it)`);
+    }
     let skipped = 0;
     for (let k = 0; k < n; k++) {
       const x = av.cells[aStart + k];
       const y = pv.cells[pStart + k];
-      for (const [c, vector, at] of [
-        [x, av, aStart + k],
-        [y, pv, pStart + k],
-      ] as const) {
-        if (c.kind === "text") {
-          throw new DataError(`${vector.where(at)} has text '${c.value}'${storedAsTextHint(c.value)}: SHRINK.SCORE needs numbers (clear the cell to skip it)`);
-        }
+      if (y.kind === "text") {
+        const hint = numberFromText(y.value) === null && labels ? " (SHRINK.SCORE scores probabilities of the event: use predict=probability)" : storedAsTextHint(y.value);
+        throw new DataError(`${pv.where(pStart + k)} has text '${y.value}'${hint}: SHRINK.SCORE needs numbers (clear the cell to skip it)`);
       }
-      if (!isNumeric(x) || !isNumeric(y)) {
+      if (!isNumeric(y) || (x.kind !== "text" && !isNumeric(x))) {
         skipped++;
         continue;
       }
-      actualValues.push(numericValue(x));
+      actualValues.push((x as { value: OutcomeValue }).value);
       predictedValues.push(numericValue(y));
     }
     if (actualValues.length === 0) {
       throw new DataError(`nothing to score: every pair has a blank or error cell (${skipped} pairs)`);
     }
-    return scoreSpill(scoreValues(actualValues, predictedValues), skipped);
+    const reading = scoreReading(actualValues, predictedValues, labels, settings);
+    if (reading !== null) return twoClassScoreSpill(scoreTwoClass(reading.values, predictedValues, { cutoff: settings.cutoff ?? DEFAULT_CUTOFF }), reading, skipped);
+    if (settings.event !== null || settings.cutoff !== null) {
+      throw new SettingError(
+        `${settings.event !== null ? "'event'" : "'cutoff'"} applies to yes/no scoring, but these pairs are scored as numbers (the actual values ${settings.outcome === "number" ? "are read as numbers: settings say outcome=number" : "don't hold exactly two classes, or a prediction lies outside 0 to 1"}): remove it`,
+      );
+    }
+    const numbers = actualValues.map((v) => (typeof v === "boolean" ? (v ? 1 : 0) : (v as number)));
+    return scoreSpill(scoreValues(numbers, predictedValues), skipped);
   });
 }
 
 /**
- * SHRINK.BASELINE: the exact least-squares fit (strength 0) with standard errors.
- * Returns [["term", "coefficient", "standard error"], ["intercept", b0, se0], …, ["", "", ""],
- * ["residual SD", s, ""], ["residual degrees of freedom", df, ""], ["R²", r2, ""], ["rows used", n, ""]].
+ * The yes/no reading of SCORE's actual values, or null to score them as numbers (see score).
+ * Throws when labels (or outcome=two-class) meet a prediction outside [0, 1].
  */
-export function baseline(runner: FitRunner, target: unknown, predictors: unknown, cancel?: CancelToken | null): Promise<Spill> {
-  return guard(async () => {
-    const dataset = buildDataset(target, predictors, defaultSettings());
-    const request: FitRequest = {
-      predictors: dataset.predictors,
-      target: dataset.target,
-      options: { names: dataset.names.slice(), mixes: [1], strength: 0 },
-    };
-    const result = await runner.fit(request, cancel ?? undefined);
-    if (!result.baseline) throw new Error("the least-squares fit returned no standard errors");
-    return baselineSpill(result, dataset);
-  });
+function scoreReading(
+  actual: OutcomeValue[],
+  predicted: number[],
+  labels: boolean,
+  settings: Settings,
+): (OutcomeReading & { kind: "two-class" }) | null {
+  const setting = settings.outcome ?? "auto";
+  if (setting === "number") return null;
+  let kind = setting;
+  if (setting === "auto" && !labels) {
+    // TRUE/FALSE among numbers are 1/0 (as in any number column); two classes only when the reading says so.
+    const allBoolean = actual.every((v) => typeof v === "boolean");
+    const asNumbers = allBoolean ? actual : actual.map((v) => (typeof v === "boolean" ? (v ? 1 : 0) : v));
+    if (readOutcome(asNumbers, { outcome: "auto", name: "actual" }).kind !== "two-class") return null;
+    if (predicted.some((p) => !(p >= 0 && p <= 1))) return null;
+    kind = "two-class";
+  }
+  const outside = predicted.findIndex((p) => !(p >= 0 && p <= 1));
+  const reading = readOutcome(actual, { outcome: kind === "auto" ? "two-class" : kind, event: settings.event, name: "actual" });
+  if (reading.kind !== "two-class") return null;
+  if (outside >= 0) {
+    throw new DataError(
+      `predicted value ${predicted[outside]} (pair ${outside + 1} used) lies outside 0 to 1, but actual holds two classes ('${reading.event}', '${reading.other}'): give the probability of '${reading.event}' for each row${labels ? "" : ", or add outcome=number to settings to score the values as numbers"}`,
+    );
+  }
+  return reading;
 }
 
+/**
+ * SHRINK.BASELINE: the unpenalized fit (strength 0) with standard errors. A number target gets
+ * the exact least-squares fit: [["term", "coefficient", "standard error"], ["intercept", b0, se0],
+ * …, ["", "", ""], ["residual SD", s, ""], ["residual degrees of freedom", df, ""], ["R²", r2, ""],
+ * ["rows used", n, ""]]. A yes/no target gets the unpenalized logistic fit (twoClassBaselineSpill):
+ * term | coefficient (log-odds of the event) | standard error | z | p-value, then deviances.
+ * Settings (optional): outcome, event, header, zero is missing.
+ */
+export function baseline(runner: FitRunner, target: unknown, predictors: unknown, settingsRaw?: unknown, cancel?: CancelToken | null): Promise<Spill> {
+  return guard(async () => {
+    const settings = parseSettings(settingsRaw ?? null, BASELINE_SETTINGS);
+    const dataset = buildDataset(target, predictors, settings);
+    const options: PlainFitOptions = { names: dataset.names.slice(), mixes: [1], strength: 0 };
+    if (dataset.outcome === "two-class") options.outcome = "two-class";
+    const request: FitRequest = { predictors: dataset.predictors, target: dataset.target, options };
+    const result = await runner.fit(request, cancel ?? undefined);
+    if (!result.baseline) throw new Error("the unpenalized fit returned no standard errors");
+    return dataset.outcome === "two-class" ? twoClassBaselineSpill(result, dataset) : baselineSpill(result, dataset);
+  });
+}

@@ -65,6 +65,7 @@ import {
   toGrid,
 } from "./cells";
 import { numberFromText, readNumberText } from "../engine/numberText";
+import { readOutcome, type OutcomeKind, type OutcomeValue } from "../engine/outcome";
 import { DataError, SettingError } from "./errors";
 import type { Settings } from "./settings";
 
@@ -125,10 +126,26 @@ export interface Dataset {
   /** Names of the fold and weights columns, when used. */
   foldColumn: string | null;
   weightsColumn: string | null;
+  /** "two-class": `target` holds 1 for the event, 0 for the other class (see `classes`). */
+  outcome: OutcomeKind;
+  /** The two classes of a yes/no target; null for a number target. */
+  classes: TargetClasses | null;
 }
 
-/** The settings the data layer reads. */
-export type DataSettings = Pick<Settings, "header" | "zeroIsMissing" | "foldColumn" | "weightsColumn">;
+/** The settings the data layer reads (`outcome` and `event` default to auto and the default event). */
+export type DataSettings = Pick<Settings, "header" | "zeroIsMissing" | "foldColumn" | "weightsColumn"> & Partial<Pick<Settings, "outcome" | "event">>;
+
+/** The two classes of a yes/no target, over the rows used. */
+export interface TargetClasses {
+  /** Labels as engine/outcome.ts writes them (TRUE, 1, fail). */
+  event: string;
+  other: string;
+  eventCount: number;
+  otherCount: number;
+  /** The values as the cells hold them (a boolean, a number or a text), for predicted classes. */
+  eventValue: OutcomeValue;
+  otherValue: OutcomeValue;
+}
 
 /** Names that mean the intercept everywhere (reserved: no predictor column may use them). */
 const INTERCEPT_KEYS = new Set(["(intercept)", "intercept"]);
@@ -371,6 +388,60 @@ function datesError(what: string, scan: ColumnScan, cellAt: (i: number) => Cell,
   );
 }
 
+/** A target cell as an outcome value: numbers (and numbers stored as text) as numbers, TRUE/FALSE as booleans, other text as a label; null for blank and error cells. */
+function outcomeValueOf(c: Cell): OutcomeValue | null {
+  if (c.kind === "number" || c.kind === "boolean") return c.value;
+  if (c.kind === "text") return numberFromText(c.value) ?? c.value;
+  return null;
+}
+
+/**
+ * Whether the target is a number or a yes/no outcome (setting `outcome`; rules in
+ * engine/outcome.ts), over the data rows `start` … `start + count − 1`. A stray text among numbers
+ * keeps the message it always had (row, value, hint); a stray number among labels says the target
+ * reads as labels. TRUE/FALSE mixed with numbers are 1/0, as in any number column. Throws DataError
+ * or the engine's InputError.
+ */
+function targetKind(cells: Cell[], start: number, count: number, scan: ColumnScan, settings: DataSettings, name: string | undefined): OutcomeKind {
+  const setting = settings.outcome ?? "auto";
+  const values: OutcomeValue[] = [];
+  const labels = new Set<string>();
+  let firstNumber = -1;
+  for (let i = start; i < start + count; i++) {
+    const v = outcomeValueOf(cells[i]);
+    if (v === null) continue;
+    values.push(v);
+    if (typeof v === "string") labels.add(v.toLowerCase());
+    else if (firstNumber < 0) firstNumber = i;
+  }
+  const labelCount = values.filter((v) => typeof v === "string").length;
+  const numberCount = values.length - labelCount;
+  if (labelCount === 0) {
+    if (setting === "number") return "number";
+    if (setting === "two-class") return readOutcome(values, { outcome: "two-class", name }).kind;
+    const allBoolean = values.every((v) => typeof v === "boolean");
+    const asNumbers = allBoolean ? values : values.map((v) => (typeof v === "boolean" ? (v ? 1 : 0) : v));
+    return readOutcome(asNumbers, { outcome: "auto", name }).kind;
+  }
+  if (setting === "two-class") return readOutcome(values, { outcome: "two-class", name }).kind;
+  if (numberCount === 0) {
+    // Labels only: a yes/no target when there are two (the engine's messages otherwise).
+    if (setting === "number" && labels.size === 2) readOutcome(values, { outcome: "number", name });
+    if (setting === "auto") return readOutcome(values, { outcome: "two-class", name }).kind;
+  }
+  if (setting === "auto" && labelCount > numberCount && numberCount > 0) {
+    const shown = [...new Set(values.filter((v): v is string => typeof v === "string"))];
+    throw new DataError(
+      `target row ${firstNumber + 1} has ${describeCell(cells[firstNumber])} among the labels ${listNames(shown, 4)}: a yes/no target holds two labels (or TRUE/FALSE, or 0/1), so fix the cell or clear it`,
+    );
+  }
+  const row = scan.firstOtherText + 1;
+  const c = cells[scan.firstOtherText] as { kind: "text"; value: string };
+  const headerHint =
+    row !== 1 ? "" : settings.header === "no" ? " (settings say header=no, so row 1 is data)" : " (if it is a header, give predictors a header row too)";
+  throw new DataError(`target row ${row} has text '${c.value}'${storedAsTextHint(c.value)}: the target must be numbers, so fix the cell or clear it${headerHint}`);
+}
+
 /**
  * Reads target and predictors ranges into encoded rows (see the file comment).
  * Throws DataError for anything the user must fix, SettingError for settings that name
@@ -551,16 +622,14 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
     kinds.push("text");
   }
 
-  // Target values must be numbers (numbers stored as text count; blank and error cells skip the row).
+  // Target: numbers (numbers stored as text count) or a yes/no outcome (engine/outcome.ts); blank
+  // and error cells skip the row. The kind is decided over every data row, so a third class in a
+  // skipped row is still caught; the event and the 0/1 coding come from the rows used (below).
   const targetAt = (i: number): Cell => targetCells[i];
   const targetScan = scanColumn(targetAt, targetStart, targetStart + dataRows);
-  if (targetScan.firstOtherText >= 0) {
-    const row = targetScan.firstOtherText + 1;
-    const c = targetCells[targetScan.firstOtherText] as { kind: "text"; value: string };
-    const headerHint =
-      row !== 1 ? "" : settings.header === "no" ? " (settings say header=no, so row 1 is data)" : " (if it is a header, give predictors a header row too)";
-    throw new DataError(`target row ${row} has text '${c.value}'${storedAsTextHint(c.value)}: the target must be numbers, so fix the cell or clear it${headerHint}`);
-  }
+  // readOutcome quotes a name it is given; an unnamed target is "the target" in its messages.
+  const outcomeName = targetName === "target" ? undefined : targetName;
+  const outcome = targetKind(targetCells, targetStart, dataRows, targetScan, settings, outcomeName);
   if (targetScan.numericTexts > 0) notes.push(fromTextNote(`target '${targetName}'`, targetScan, targetAt, false));
 
   // Rows used, skipped, ignored.
@@ -742,14 +811,33 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
     const values = new Array<number>(terms.length);
     encodeInto(encoder, (column) => cells[i][column.position], values, () => "training");
     rows.push(values);
-    const t = numberOfCell(targetCells[targetStart + d]) as number;
-    target.push(t);
+    const t = numberOfCell(targetCells[targetStart + d]);
+    if (outcome === "number") target.push(t as number);
     let allZero = t === 0;
     for (const column of columns) {
       const c = cells[i][column.position];
       if (column.kind !== "number" || !(c.kind === "number" && c.value === 0)) allZero = false;
     }
     if (allZero) zeroRows++;
+  }
+
+  let classes: TargetClasses | null = null;
+  if (outcome === "two-class") {
+    const values = used.map((d) => outcomeValueOf(targetCells[targetStart + d]) as OutcomeValue);
+    const reading = readOutcome(values, { outcome: "two-class", event: settings.event ?? null, name: outcomeName });
+    if (reading.kind !== "two-class") throw new Error("a two-class reading of the target came back as numbers");
+    for (const v of reading.values) target.push(v);
+    const eventAt = reading.values.indexOf(1);
+    const otherAt = reading.values.indexOf(0);
+    classes = {
+      event: reading.event,
+      other: reading.other,
+      eventCount: reading.eventCount,
+      otherCount: reading.otherCount,
+      eventValue: values[eventAt],
+      otherValue: values[otherAt],
+    };
+    if (reading.note !== null) notes.push(reading.note);
   }
 
   if (skipped > 0 && firstSkip !== null) {
@@ -775,6 +863,8 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
     notes,
     foldColumn: foldIndex === null ? null : names[foldIndex],
     weightsColumn: weightsIndex === null ? null : names[weightsIndex],
+    outcome,
+    classes,
   };
 }
 
@@ -967,9 +1057,28 @@ export function encodeNewRows(encoder: RowEncoder, raw: unknown): EncodedRows {
 export interface CoefficientTable {
   intercept: number;
   terms: { term: string; coefficient: number; reference: boolean }[];
+  /** "logistic" when the coefficient header says log-odds (a yes/no model): predictions are probabilities. */
+  link: "identity" | "logistic";
+  /** The event named in quotes in a log-odds header (`log-odds of 'fail'`), or null. */
+  event: string | null;
+}
+
+/**
+ * Reads a coefficient column's header: any text containing "log-odds" (also "log odds",
+ * "logodds"; any case) marks a yes/no model, and the first text in quotes ('…', "…", ‘…’ or “…”)
+ * after it names the event. Example: "coefficient (log-odds of 'fail')" → logistic, event fail.
+ */
+export function readCoefficientHeader(text: string): { link: "identity" | "logistic"; event: string | null } {
+  const at = text.search(/log[\s-]*odds/i);
+  if (at < 0) return { link: "identity", event: null };
+  const quoted = /'([^']+)'|"([^"]+)"|‘([^’]+)’|“([^”]+)”/.exec(text.slice(at));
+  const event = quoted ? (quoted[1] ?? quoted[2] ?? quoted[3] ?? quoted[4]).trim() : null;
+  return { link: "logistic", event: event === "" ? null : event };
 }
 
 const REFERENCE_SUFFIX = /\s*\(reference\)\s*$/i;
+/** The first cell of the row SHRINK.BASELINE puts above its header when the classes are separated (spill.ts SEPARATION_LABEL). */
+const SEPARATION_KEY = "separation";
 
 /**
  * Reads a coefficient table (SHRINK.COEFS or SHRINK.BASELINE output, or typed by hand): term |
@@ -978,6 +1087,9 @@ const REFERENCE_SUFFIX = /\s*\(reference\)\s*$/i;
  * intercept, and the table must have one (`intercept | 0` says a model has none); a first row
  * naming the intercept is never a header. A coefficient stored as text is an error with the
  * stored-as-text hint. A term ending in " (reference)" marks a text column's reference level.
+ * A header whose coefficient cell says "log-odds" marks a yes/no model (readCoefficientHeader);
+ * columns after the second (COEFS' odds ratio, BASELINE's standard error, z, p-value) are not read.
+ * A BASELINE table reporting separation (first cell `separation`) is refused.
  */
 export function readCoefficientTable(raw: unknown): CoefficientTable {
   const grid = toGrid(raw);
@@ -991,6 +1103,12 @@ export function readCoefficientTable(raw: unknown): CoefficientTable {
   const namesIntercept = firstTerm.kind === "text" && (INTERCEPT_KEYS.has(textKey(firstTerm.value)) || textKey(firstTerm.value) === CONSTANT_KEY);
   const second = cells[0][1];
   const start = !namesIntercept && second.kind === "text" && numberFromText(second.value) === null ? 1 : 0;
+  if (start === 1 && firstTerm.kind === "text" && textKey(firstTerm.value) === SEPARATION_KEY) {
+    throw new DataError(
+      "coefficient_table is a SHRINK.BASELINE table that reports separation: its coefficients are not estimates (they grow without limit as the fit goes on), so nothing can be predicted from them; use the table of SHRINK.COEFS, whose penalty keeps them finite",
+    );
+  }
+  const { link, event } = start === 1 ? readCoefficientHeader((second as { value: string }).value) : { link: "identity" as const, event: null };
   let intercept: number | null = null;
   const terms: CoefficientTable["terms"] = [];
   const seen = new Set<string>();
@@ -1029,7 +1147,7 @@ export function readCoefficientTable(raw: unknown): CoefficientTable {
     );
   }
   if (terms.length === 0) throw new DataError("coefficient_table has no terms besides the intercept: select the whole table");
-  return { intercept, terms };
+  return { intercept, terms, link, event };
 }
 
 /**

@@ -14,7 +14,7 @@
  * | `folds`          | `fold count`                       | whole number 2 to 1000                                    | 10                       |
  * | `seed`           | `random seed`                      | whole number −4294967295 to 4294967295                    | 1                        |
  * | `rule`           | `choice rule`                      | `lowest` / `lowest error`, or `one-se` / `one-SE rule` / `one standard error` | lowest error |
- * | `error`          | `error measure`, `measure`         | `mse` / `squared`, `mae` / `absolute`                     | mse                      |
+ * | `error`          | `error measure`, `measure`         | number target: `mse` / `squared`, `mae` / `absolute`; yes/no target: `deviance`, `misclassified` (`misclassification`, `error rate`), `auc` (`area under the curve`) | mse; deviance for yes/no |
  * | `standardize`    | `standardise`                      | yes / no (also true/false, on/off, 1/0)                   | yes                      |
  * | `intercept`      |                                    | yes / no                                                  | yes                      |
  * | `grid density`   | `strengths per decade`, `strengths per tenfold drop` | whole number 1 to 1000: strengths per tenfold drop in strength | 20           |
@@ -31,19 +31,39 @@
  * | `upper`          | `upper bound`, `upper bounds`      | a number ≥ 0 for every term, or `term:value, …`; `none`   | none                     |
  * | `header`         | `headers`                          | yes / no / auto                                           | auto                     |
  * | `zero is missing`| `zeros are missing`, `zeros missing` | `all`, or column names: their zeros are blank cells     | –                        |
+ * | `outcome`        | `target kind`, `outcome kind`      | `auto`, `number` (`numeric`), `two-class` (`yes/no`, `binary`) | auto              |
+ * | `event`          | `event class`, `positive class`    | the target value whose probability a yes/no model gives (TRUE, 1, fail, …) | TRUE, else 1, else the rarer label |
+ * | `cutoff`         | `threshold`, `probability cutoff`  | a probability strictly between 0 and 1 (`0.3` or `30%`): a row is flagged as the event at or above it | 0.5 |
+ * | `predict`        | `prediction`, `predictions`        | `probability` or `class`: what SHRINK.PREDICT returns for a yes/no target | probability |
  *
  * A term is a predictor column name (a text column's name covers all its indicator terms) or
  * an indicator term such as `Region: North`. In `term:value` lists the value follows the last
  * colon, so `Region: North:0` is the term `Region: North` with value 0.
  *
+ * `outcome=auto` reads a target with exactly two distinct values that are TRUE/FALSE, 0/1 or two
+ * texts as a yes/no (two-class) outcome, anything else as numbers (engine/outcome.ts). `event`,
+ * `cutoff` and `predict` apply to yes/no targets only: on a number target they are refused (they
+ * say the user expects a yes/no target, so silence would hide a mistake); so are the yes/no error
+ * measures, and mse/mae on a yes/no target (the engine's checkMeasure messages).
+ *
+ * SHRINK.SCORE and SHRINK.BASELINE take a few of these only (`parseSettings(raw, scope)`):
+ * SCORE outcome, event, cutoff; BASELINE outcome, event, header, zero is missing.
+ *
  * Every mistake is a SettingError (→ #VALUE!) saying what is allowed; an unknown name lists
  * the valid names.
  */
 import { parseRule, type ChoiceRule, type ErrorMeasure } from "../engine/fit";
+import { outcomeLabel, parseOutcome, type OutcomeSetting } from "../engine/outcome";
 import { classifyCell, describeCell, parseNumberText, toGrid } from "./cells";
 import { SettingError } from "./errors";
 
 export type HeaderMode = "yes" | "no" | "auto";
+
+/** The probability at or above which a row counts as the event when `cutoff` isn't given (the engine's default, FitOptions.cutoff). */
+export const DEFAULT_CUTOFF = 0.5;
+
+/** What SHRINK.PREDICT returns for a yes/no target: the event's probability, or the predicted label. */
+export type PredictOutput = "probability" | "class";
 
 export interface TermValue {
   /** As the user wrote it. */
@@ -76,6 +96,14 @@ export interface Settings {
   upper: BoundSetting | null;
   header: HeaderMode;
   zeroIsMissing: "all" | string[] | null;
+  /** How the target is read; null means auto. */
+  outcome: OutcomeSetting | null;
+  /** The event's label as typed (TRUE, 1, fail); null for the default. */
+  event: string | null;
+  /** Probability at or above which a row is the event; null for 0.5. */
+  cutoff: number | null;
+  /** SHRINK.PREDICT's output for a yes/no target; null for probability. */
+  predictOutput: PredictOutput | null;
 }
 
 export function defaultSettings(): Settings {
@@ -100,6 +128,10 @@ export function defaultSettings(): Settings {
     upper: null,
     header: "auto",
     zeroIsMissing: null,
+    outcome: null,
+    event: null,
+    cutoff: null,
+    predictOutput: null,
   };
 }
 
@@ -223,14 +255,56 @@ function bound(name: string, value: RawValue, side: "lower" | "upper"): BoundSet
 }
 
 
-const MEASURES: Record<string, string> = {
+const MEASURES: Record<string, ErrorMeasure> = {
   mse: "mse",
   squared: "mse",
   meansquarederror: "mse",
   mae: "mae",
   absolute: "mae",
   meanabsoluteerror: "mae",
+  deviance: "deviance",
+  binomialdeviance: "deviance",
+  misclassified: "misclassified",
+  misclassification: "misclassified",
+  misclassifiedshare: "misclassified",
+  errorrate: "misclassified",
+  auc: "auc",
+  areaunderthecurve: "auc",
+  areaundercurve: "auc",
 };
+
+const PREDICT_WORDS: Record<string, PredictOutput> = {
+  probability: "probability",
+  probabilities: "probability",
+  prob: "probability",
+  class: "class",
+  classes: "class",
+  label: "class",
+  labels: "class",
+};
+
+/** `cutoff`: a probability strictly between 0 and 1, as a number or text (`0.3`, `30%`). */
+function cutoffValue(value: RawValue): number {
+  const what = "a probability between 0 and 1 (not 0 or 1), like 0.5 or 50%";
+  let n: number | null = null;
+  if (value.kind === "number") n = value.value;
+  else if (value.kind === "text") {
+    const text = value.text.trim();
+    if (text.endsWith("%")) {
+      const percent = parseNumberText(text.slice(0, -1));
+      n = percent === null ? null : percent / 100;
+    } else n = parseNumberText(text);
+  }
+  if (n === null || !(n > 0 && n < 1)) throw new SettingError(`'cutoff' must be ${what}; got ${show(value)}`);
+  return n;
+}
+
+/** `event`: a label as the target shows it (a number or TRUE/FALSE typed in a cell reads as its label). */
+function eventValue(value: RawValue): string {
+  const label = value.kind === "text" ? value.text.trim() : outcomeLabel(value.value);
+  if (label === "") throw new SettingError("'event' is empty: name the class whose probability the model gives, like event=fail");
+  return label;
+}
 
 const HEADERS: Record<string, string> = { yes: "yes", true: "yes", on: "yes", no: "no", false: "no", off: "no", auto: "auto" };
 
@@ -247,7 +321,11 @@ const SPECS: SettingSpec[] = [
       s.rule = rule;
     },
   },
-  { name: "error", aliases: ["error measure", "measure"], apply: (s, v) => (s.measure = word("error", v, MEASURES, "mse or mae") as ErrorMeasure) },
+  {
+    name: "error",
+    aliases: ["error measure", "measure"],
+    apply: (s, v) => (s.measure = word("error", v, MEASURES, "mse or mae (number target), or deviance, misclassified or auc (yes/no target)") as ErrorMeasure),
+  },
   { name: "standardize", aliases: ["standardise"], apply: (s, v) => (s.standardize = yesNo("standardize", v)) },
   { name: "intercept", aliases: [], apply: (s, v) => (s.intercept = yesNo("intercept", v)) },
   {
@@ -308,6 +386,22 @@ const SPECS: SettingSpec[] = [
       const list = nameList("zero is missing", v);
       s.zeroIsMissing = list.length === 1 && squash(list[0]) === "all" ? "all" : list;
     },
+  },
+  {
+    name: "outcome",
+    aliases: ["target kind", "outcome kind"],
+    apply: (s, v) => {
+      const outcome = v.kind === "text" ? parseOutcome(v.text) : null;
+      if (outcome === null) throw new SettingError(`'outcome' must be auto, number or two-class (also yes/no); got ${show(v)}`);
+      s.outcome = outcome;
+    },
+  },
+  { name: "event", aliases: ["event class", "positive class"], apply: (s, v) => (s.event = eventValue(v)) },
+  { name: "cutoff", aliases: ["threshold", "probability cutoff"], apply: (s, v) => (s.cutoff = cutoffValue(v)) },
+  {
+    name: "predict",
+    aliases: ["prediction", "predictions"],
+    apply: (s, v) => (s.predictOutput = word("predict", v, PREDICT_WORDS, "probability or class") as PredictOutput),
   },
 ];
 
@@ -404,11 +498,23 @@ function rangeEntries(grid: unknown[][]): Entry[] {
   return entries;
 }
 
+/** The settings a function that fits no cross-validated model accepts, and its name for messages. */
+export interface SettingScope {
+  /** SHRINK.SCORE, SHRINK.BASELINE. */
+  fn: string;
+  /** Canonical names (as in SETTING_NAMES) it accepts. */
+  names: readonly string[];
+}
+
+export const SCORE_SETTINGS: SettingScope = { fn: "SHRINK.SCORE", names: ["outcome", "event", "cutoff"] };
+export const BASELINE_SETTINGS: SettingScope = { fn: "SHRINK.BASELINE", names: ["outcome", "event", "header", "zero is missing"] };
+
 /**
- * Reads the settings argument (text, range, or null when omitted). Throws SettingError.
+ * Reads the settings argument (text, range, or null when omitted). Throws SettingError. With a
+ * `scope`, a setting outside it is refused naming the ones the function takes.
  * Example: parseSettings("folds=5; rule=one-se") → folds 5, rule "one-se", everything else default.
  */
-export function parseSettings(raw: unknown): Settings {
+export function parseSettings(raw: unknown, scope?: SettingScope): Settings {
   const settings = defaultSettings();
   const grid = toGrid(raw);
   if (grid.length === 0 || grid[0].length === 0) return settings;
@@ -430,6 +536,9 @@ export function parseSettings(raw: unknown): Settings {
   for (const entry of entries) {
     const spec = BY_NAME.get(squash(entry.name));
     if (!spec) throw unknownName(entry.name);
+    if (scope && !scope.names.includes(spec.name)) {
+      throw new SettingError(`'${spec.name}' doesn't apply to ${scope.fn}: its settings are ${scope.names.join(", ")}`);
+    }
     if (seen.has(spec)) throw new SettingError(`'${spec.name}' is given twice: give each setting once`);
     seen.add(spec);
     spec.apply(settings, entry.value);

@@ -4,10 +4,13 @@
  * (NaN, ±Infinity) becomes a #NUM! cell. Numbers are returned at full precision: formatting is
  * the workbook's business.
  */
-import type { FitResult } from "../engine/fit";
+import type { TwoClassScore } from "../engine/classMetrics";
+import type { ErrorMeasure, FitResult } from "../engine/fit";
 import type { Score } from "../engine/metrics";
+import type { OutcomeReading } from "../engine/outcome";
+import { portableExp } from "../engine/portableMath";
 import { INTERCEPT_LABEL } from "../engine/words";
-import type { Dataset, EncodedRow } from "./dataset";
+import type { Dataset, EncodedRow, TargetClasses } from "./dataset";
 import { cellError } from "./errors";
 
 export type SpillCell = number | string | boolean | CustomFunctions.Error;
@@ -22,6 +25,30 @@ const INTERCEPT = INTERCEPT_LABEL;
 const REFERENCE = " (reference)";
 
 /**
+ * What a yes/no model's coefficients are, as every two-class header says it: `log-odds of 'fail'`.
+ * SHRINK.APPLY reads "log-odds" in a coefficient header as the logistic link (dataset.ts).
+ */
+export function logOddsOf(classes: TargetClasses): string {
+  return `log-odds of '${classes.event}'`;
+}
+
+/**
+ * A cross-validation measure as a column header or CHOICE label: CV MSE, CV MAE, CV deviance
+ * (binomial deviance per row), CV misclassified share, CV AUC (higher is better).
+ */
+export function measureLabel(measure: ErrorMeasure): string {
+  if (measure === "deviance") return "CV deviance";
+  if (measure === "misclassified") return "CV misclassified share";
+  if (measure === "auc") return "CV AUC (higher is better)";
+  return `CV ${measure.toUpperCase()}`;
+}
+
+/** e^b for the odds-ratio column: #NUM! when it overflows (b above about 709). */
+function oddsRatio(b: number): SpillCell {
+  return numberCell(portableExp(b));
+}
+
+/**
  * SHRINK.COEFS: header, then term | coefficient. "intercept" first, then every term in the
  * order of the predictors' columns; a text column's reference level is listed before its
  * indicators as `Column: level (reference)` with coefficient 0, so the table shows it and
@@ -29,6 +56,7 @@ const REFERENCE = " (reference)";
  * Example: [["term", "coefficient"], ["intercept", 1.5], ["Size", 0.2], ["Region: East (reference)", 0], ["Region: North", -0.7]]
  */
 export function coefficientSpill(result: FitResult, dataset: Dataset): Spill {
+  if (dataset.classes) return twoClassCoefficientSpill(result, dataset, dataset.classes);
   const rows: Spill = [["term", "coefficient"], [INTERCEPT, numberCell(result.intercept)]];
   let t = 0;
   for (const column of dataset.encoder.columns) {
@@ -42,6 +70,33 @@ export function coefficientSpill(result: FitResult, dataset: Dataset): Spill {
       rows.push([result.terms[t], numberCell(result.coefficients[t])]);
       t++;
     }
+  }
+  return rows;
+}
+
+/**
+ * SHRINK.COEFS for a yes/no target: term | coefficient (log-odds of 'fail') | odds ratio. The odds
+ * ratio is e^coefficient, the factor by which the odds of the event multiply per unit of the
+ * predictor (for a level: against the reference level, whose row reads 1). The intercept's cell is
+ * blank: e^intercept is no ratio but the odds where every predictor is 0, which moves with each
+ * predictor's origin (a temperature in °C or °F) and is rarely a point in the data.
+ * Example: [["term", "coefficient (log-odds of 'fail')", "odds ratio"], ["intercept", -2.1, ""], ["Size", 0.4, 1.49], …]
+ */
+function twoClassCoefficientSpill(result: FitResult, dataset: Dataset, classes: TargetClasses): Spill {
+  const rows: Spill = [["term", `coefficient (${logOddsOf(classes)})`, "odds ratio"], [INTERCEPT, numberCell(result.intercept), ""]];
+  let t = 0;
+  const termRow = (): void => {
+    const b = result.coefficients[t];
+    rows.push([result.terms[t], numberCell(b), oddsRatio(b)]);
+    t++;
+  };
+  for (const column of dataset.encoder.columns) {
+    if (column.kind === "number") {
+      termRow();
+      continue;
+    }
+    if (column.reference !== null) rows.push([`${column.name}: ${column.reference}${REFERENCE}`, 0, 1]);
+    for (let k = 0; k < column.levels.length; k++) termRow();
   }
   return rows;
 }
@@ -71,15 +126,24 @@ export function choiceSpill(result: FitResult, dataset: Dataset): Spill {
   const other = choices ? (result.rule === "one-se" ? choices.lowest : choices.oneSe) : null;
   // The other rule, named: "one-SE rule's strength" beside a lowest-error choice and back.
   const otherLabel = result.rule === "one-se" ? "lowest-error strength" : "one-SE rule's strength";
-  const measure = cv ? cv.measure.toUpperCase() : null;
   const termsKept = result.coefficients.filter((b) => b !== 0).length;
   const notes = [...dataset.notes, ...result.warnings.map((w) => w.message)];
+  // A yes/no target: what the model gives the probability of, before everything else.
+  const classes = dataset.classes;
+  const outcomeRows: Spill = classes
+    ? [
+        ["outcome", "yes/no (two-class)"],
+        ["event", `'${classes.event}' (${classes.eventCount} of ${classes.eventCount + classes.otherCount} rows used; the other class is '${classes.other}')`],
+        ["cutoff", numberCell(result.classFit ? result.classFit.cutoff : NaN)],
+      ]
+    : [];
   return [
     ["label", "value"],
+    ...outcomeRows,
     ["strength", numberCell(result.strength)],
     ["strength ÷ top of grid", numberCell(result.strengthFraction)],
     ["mix", numberCell(result.mix)],
-    [measure ? `CV ${measure}` : "CV error", chosen ? numberCell(chosen.error) : "none"],
+    [cv ? measureLabel(cv.measure) : "CV error", chosen ? numberCell(chosen.error) : "none"],
     ["± SE", chosen ? numberCell(chosen.se) : "none"],
     ["rule", ruleName(result.rule)],
     [otherLabel, other ? numberCell(other.strength) : "none"],
@@ -97,10 +161,14 @@ export function choiceSpill(result: FitResult, dataset: Dataset): Spill {
 /**
  * SHRINK.PATH: header (strength, terms kept, intercept, terms…), then one row per strength of
  * the chosen mix's path, strongest first.
+ * For a yes/no target the intercept's header reads `intercept (log-odds of 'fail')`: every
+ * coefficient of the table is in log-odds of the event.
  * Example: [["strength", "terms kept", "intercept", "x1"], [2.5, 0, 3.1, 0], [2.2, 1, 3.0, 0.04], …]
  */
-export function pathSpill(result: FitResult): Spill {
-  const rows: Spill = [["strength", "terms kept", INTERCEPT, ...result.terms]];
+export function pathSpill(result: FitResult, dataset?: Dataset): Spill {
+  // A yes/no model's path is in log-odds: the intercept's header says so for every column.
+  const interceptHeader = dataset?.classes ? `${INTERCEPT} (${logOddsOf(dataset.classes)})` : INTERCEPT;
+  const rows: Spill = [["strength", "terms kept", interceptHeader, ...result.terms]];
   const path = result.path;
   for (let k = 0; k < path.strengths.length; k++) {
     rows.push([numberCell(path.strengths[k]), path.termsKept[k], numberCell(path.intercepts[k]), ...path.coefficients[k].map(numberCell)]);
@@ -110,13 +178,14 @@ export function pathSpill(result: FitResult): Spill {
 
 /**
  * SHRINK.CVCURVE: header, then mix | strength | mean CV error | its SE | terms kept for every
- * mix and strength tried. The caller checks that cross-validation ran.
+ * mix and strength tried (the error's header from measureLabel: CV MSE, CV MAE, CV deviance, CV
+ * misclassified share, CV AUC (higher is better)). The caller checks that cross-validation ran.
  * Example: [["mix", "strength", "CV MSE", "± SE", "terms kept"], [0, 250, 10.2, 1.1, 3], …]
  */
 export function cvCurveSpill(result: FitResult): Spill {
   const cv = result.cv;
   if (!cv) throw new Error("cvCurveSpill requires a cross-validated result");
-  const rows: Spill = [["mix", "strength", `CV ${cv.measure.toUpperCase()}`, "± SE", "terms kept"]];
+  const rows: Spill = [["mix", "strength", measureLabel(cv.measure), "± SE", "terms kept"]];
   for (const row of cv.table) rows.push([row.mix, numberCell(row.strength), numberCell(row.error), numberCell(row.se), row.termsKept]);
   return rows;
 }
@@ -176,17 +245,115 @@ export function baselineSpill(result: FitResult, dataset: Dataset): Spill {
 
 /**
  * SHRINK.PREDICT / SHRINK.APPLY: one prediction per new row, as a column. A header row in
- * new_rows gives a "prediction" header cell (rows stay aligned); a blank row gives ""; a row
- * missing a value gives a #N/A cell saying which.
+ * new_rows gives a "prediction" header cell (rows stay aligned; `output.header` instead for a
+ * yes/no model: `probability of 'fail'`, `predicted class (cutoff 0.5)`); a blank row gives "";
+ * a row missing a value gives a #N/A cell saying which.
  * Example: [["prediction"], [12.5], [""], [#N/A]]
  */
-export function predictionSpill(header: boolean, rows: readonly EncodedRow[], predictions: ArrayLike<number>): Spill {
-  const out: Spill = header ? [["prediction"]] : [];
+export function predictionSpill(header: boolean, rows: readonly EncodedRow[], predictions: ArrayLike<number>, output?: PredictionOutput): Spill {
+  const out: Spill = header ? [[output ? output.header : "prediction"]] : [];
+  const cell = output?.cell ?? numberCell;
   let k = 0;
   for (const row of rows) {
     if (row.kind === "blank") out.push([""]);
     else if (row.kind === "missing") out.push([cellError("notAvailable", row.reason)]);
-    else out.push([numberCell(predictions[k++])]);
+    else out.push([cell(predictions[k++])]);
   }
   return out;
+}
+
+/** How predictions other than plain numbers are shown: a header cell, and a cell per prediction (default: the number). */
+export interface PredictionOutput {
+  /** The header cell, e.g. `probability of 'fail'` or `predicted class (cutoff 0.5)`. */
+  header: string;
+  cell?: (prediction: number) => SpillCell;
+}
+
+/** SCORE's log loss: an infinite one says why instead of showing #NUM!. */
+function logLossCell(value: number): SpillCell {
+  if (value === Infinity) return "infinite: an event was given probability 0, or a non-event probability 1";
+  return numberCell(value);
+}
+
+/**
+ * SHRINK.SCORE for a yes/no actual column: label | value. The event and its count, log loss
+ * (mean negative log-likelihood, natural log), Brier score, AUC (Mann–Whitney; Hanley & McNeil
+ * 1982), the cutoff and, at it, accuracy, sensitivity, specificity and the 2×2 table in words,
+ * then pairs used and skipped and notes (the tie-break that picked the event).
+ * Example (abridged): [["label", "value"], ["event", "'fail' (3 of 8 pairs)"], ["log loss", 0.41], …, ["events caught", 2], …]
+ */
+export function twoClassScoreSpill(score: TwoClassScore, reading: OutcomeReading & { kind: "two-class" }, skipped: number): Spill {
+  return [
+    ["label", "value"],
+    ["event", `'${reading.event}' (${reading.eventCount} of ${reading.eventCount + reading.otherCount} pairs; the other class is '${reading.other}')`],
+    ["log loss", logLossCell(score.logLoss)],
+    ["Brier score", numberCell(score.brier)],
+    ["AUC", numberCell(score.auc)],
+    ["cutoff", score.cutoff],
+    ["accuracy", numberCell(score.accuracy)],
+    ["sensitivity", numberCell(score.sensitivity)],
+    ["specificity", numberCell(score.specificity)],
+    ["events caught", score.eventsCaught],
+    ["events missed", score.eventsMissed],
+    ["false alarms", score.falseAlarms],
+    ["correct all-clear", score.correctAllClear],
+    ["pairs used", score.count],
+    ["pairs skipped", skipped],
+    ["notes", reading.note ?? "none"],
+  ];
+}
+
+/** The first cell of BASELINE's row that reports separation (SHRINK.APPLY refuses such a table). */
+export const SEPARATION_LABEL = "separation";
+
+/**
+ * SHRINK.BASELINE for a yes/no target: the unpenalized logistic fit (maximum likelihood, the
+ * engine's strength 0). Columns term | coefficient (log-odds of 'fail') | standard error | z |
+ * p-value (z = coefficient ÷ SE, two-sided normal p-value: Wald tests, common practice); reference
+ * levels listed as in SHRINK.COEFS; then a blank row and residual deviance, residual degrees of
+ * freedom, null deviance, null degrees of freedom, the share of the null deviance explained, rows
+ * used. SHRINK.APPLY reads the table down to the blank row (its header says log-odds).
+ *
+ * When the classes are separated (some combination of the predictors splits them perfectly or
+ * nearly so), the estimates don't exist: the row above the header is `separation | message`, and
+ * every standard error reads "none (separation: see row 1)" with z and p-value blank, rather than
+ * numbers that would look meaningful.
+ * Example: [["term", "coefficient (log-odds of 'fail')", "standard error", "z", "p-value"], ["intercept", -1.2, 0.4, -3, 0.0027], …]
+ */
+export function twoClassBaselineSpill(result: FitResult, dataset: Dataset): Spill {
+  const baseline = result.baseline;
+  const classes = dataset.classes;
+  if (!baseline || !classes) throw new Error("twoClassBaselineSpill requires an unpenalized two-class result");
+  const separation = baseline.separation ?? null;
+  const aliased = new Set(baseline.aliased);
+  const rows: Spill = [];
+  if (separation) rows.push([SEPARATION_LABEL, separation.message, "", "", ""]);
+  rows.push(["term", `coefficient (${logOddsOf(classes)})`, "standard error", "z", "p-value"]);
+  const statistics = (se: number | null, z: number | null | undefined, p: number | null | undefined, isAliased: boolean): SpillCell[] => {
+    if (separation) return ["none (separation: see row 1)", "", ""];
+    if (isAliased) return ["aliased (a combination of other terms)", "", ""];
+    if (se === null) return ["none (no spare rows)", "", ""];
+    return [numberCell(se), z === null || z === undefined ? "" : numberCell(z), p === null || p === undefined ? "" : numberCell(p)];
+  };
+  rows.push([INTERCEPT, numberCell(result.intercept), ...statistics(baseline.interceptStandardError, baseline.interceptZ, baseline.interceptP, false)]);
+  let t = 0;
+  for (const column of dataset.encoder.columns) {
+    if (column.kind === "text" && column.reference !== null) rows.push([`${column.name}: ${column.reference}${REFERENCE}`, 0, "", "", ""]);
+    const count = column.kind === "number" ? 1 : column.levels.length;
+    for (let k = 0; k < count; k++, t++) {
+      const term = result.terms[t];
+      rows.push([term, numberCell(result.coefficients[t]), ...statistics(baseline.standardErrors[t], baseline.zValues?.[t], baseline.pValues?.[t], aliased.has(term))]);
+    }
+  }
+  const summary = (label: string, value: SpillCell): void => {
+    rows.push([label, value, "", "", ""]);
+  };
+  rows.push(["", "", "", "", ""]);
+  summary("residual deviance", numberCell(baseline.deviance ?? NaN));
+  summary("residual degrees of freedom", baseline.degreesOfFreedom);
+  summary("null deviance", numberCell(baseline.nullDeviance ?? NaN));
+  summary("null degrees of freedom", numberCell(baseline.nullDegreesOfFreedom ?? NaN));
+  summary("share of null deviance explained", numberCell(baseline.r2));
+  summary("rows used", result.rowsUsed);
+  return rows;
 }

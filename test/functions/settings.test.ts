@@ -52,6 +52,10 @@ describe("text form", () => {
       },
       header: "yes",
       zeroIsMissing: ["Size", "Temp"],
+      outcome: null,
+      event: null,
+      cutoff: null,
+      predictOutput: null,
     });
   });
   test("rule words: lowest, lowest error, one-se, one-SE rule, one standard error; older tokens min, onese, 1se as aliases", () => {
@@ -110,9 +114,9 @@ describe("mistakes", () => {
   test("an unknown name lists every valid name", () => {
     expect(settingError("foldz=3")).toBe(
       "unknown setting 'foldz': the settings are folds, seed, rule, error, standardize, intercept, grid density, grid size, low end, stop early, strength, " +
-        "fold column, time order, weights column, penalty, no penalty, lower, upper, header, zero is missing",
+        "fold column, time order, weights column, penalty, no penalty, lower, upper, header, zero is missing, outcome, event, cutoff, predict",
     );
-    expect(SETTING_NAMES).toHaveLength(20);
+    expect(SETTING_NAMES).toHaveLength(24);
   });
   test("values out of range say the allowed range", () => {
     expect(settingError("folds=1")).toBe("'folds' must be a whole number from 2 to 1000; got '1'");
@@ -127,7 +131,7 @@ describe("mistakes", () => {
     );
     expect(settingError("strength=-1")).toBe("'strength' must be a number of 0 or more (0 is plain least squares); got '-1'");
     expect(settingError("rule=best")).toBe("'rule' must be lowest (lowest error) or one-se (one-SE rule); got 'best'");
-    expect(settingError("error=rmse")).toBe("'error' must be mse or mae; got 'rmse'");
+    expect(settingError("error=rmse")).toBe("'error' must be mse or mae (number target), or deviance, misclassified or auc (yes/no target); got 'rmse'");
     expect(settingError("header=maybe")).toBe("'header' must be yes, no or auto; got 'maybe'");
     expect(settingError("standardize=perhaps")).toBe("'standardize' must be yes or no; got 'perhaps'");
   });
