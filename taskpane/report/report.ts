@@ -89,10 +89,9 @@ function ruleText(rule: FitResult["rule"], result?: FitResult): string {
   return rule === "fixed" ? "fixed strength (no cross-validation)" : RULE_WORDS[rule];
 }
 
-/** The two classes of a yes/no target as the data layer read them, or null (a number target). */
+/** The two classes of a yes/no target as the data layer read them (functions/dataset.ts), or null (a number target). */
 export function classesOf(dataset: Dataset): ClassCounts | null {
-  const classes = (dataset as { classes?: ClassCounts | null }).classes;
-  return classes ?? null;
+  return dataset.outcome === "two-class" ? dataset.classes : null;
 }
 
 /** A finite number, or "" for a value that can't be shown (NaN, ±Infinity). */
