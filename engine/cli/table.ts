@@ -24,7 +24,8 @@
  *   TRUE or FALSE in any case when it is one of those words (as a worksheet stores them), and
  *   otherwise text. A number target with a stray text cell (at least half its cells numbers) is
  *   reported as a text cell in a numeric column, with the row and value; other text targets get
- *   readOutcome's message. With outcome `number` the target is a numeric column like any other.
+ *   readOutcome's message. With outcome `number` the target is a numeric column like any other,
+ *   except that a column of exactly two labels gets readOutcome's message (a yes/no target).
  */
 import Papa from "papaparse";
 import { InputError } from "../errors";
@@ -189,6 +190,13 @@ export function buildFitTable(table: TextTable, roles: ColumnRoles): FitTable {
   const numeric = [...(setting === "number" ? [target] : []), ...predictors, ...(weights >= 0 ? [weights] : [])];
   const used = [...(setting === "number" ? [] : [target]), ...numeric, ...(folds >= 0 ? [folds] : [])];
   const defaultPredictors = !roles.predictors;
+  if (setting === "number") {
+    // Two labels and no number: a yes/no target given --outcome number; readOutcome says so (as the cells do).
+    const cells = table.rows.map((row) => row[target]).filter((cell) => cell !== "");
+    if (cells.length > 0 && cells.every((cell) => numberFromText(cell) === null) && new Set(cells.map((cell) => cell.toLowerCase())).size === 2) {
+      readOutcome(cells.map(targetValue), { outcome: "number", name: table.columns[target] });
+    }
+  }
   // Text first, column by column in file order, so the message names the first offending row.
   for (const j of [...numeric].sort((a, b) => a - b)) {
     for (let r = 0; r < table.rows.length; r++) {

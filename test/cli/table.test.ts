@@ -288,8 +288,10 @@ describe("buildFitTable: the target read by engine/outcome.ts readOutcome", () =
     expect(message(rows(["pass", "fail"]), { target: "result", event: "ok" })).toBe("event 'ok' is not one of 'result''s two values ('pass', 'fail'): name one of them");
     expect(message(rows(["a", "b", "c"]), { target: "result", outcome: "two-class" })).toMatch(/^'result' has 3 distinct values \('a', 'b', 'c'\): a yes\/no outcome needs exactly two/);
     expect(message(rows(["pass", "pass"]), { target: "result", outcome: "two-class" })).toMatch(/^'result' has only one class \('pass'\)/);
-    // outcome number: the column is a numeric column, checked as before (row, value).
-    expect(failure(() => readFitTable(rows(["pass", "fail"]), { target: "result", outcome: "number" }))).toBe(
+    // outcome number on two labels: readOutcome's words (a yes/no target), as the cells give them.
+    expect(message(rows(["pass", "fail", "pass"]), { target: "result", outcome: "number" })).toMatch(/^'result' holds two labels \('pass', 'fail'\), not numbers: it is a yes\/no outcome/);
+    // Other text: the column is a numeric column, checked as before (row, value).
+    expect(failure(() => readFitTable(rows(["pass", "fail", "n/a"]), { target: "result", outcome: "number" }))).toBe(
       "column 'result' has text in data row 1 ('pass'): use numbers only (leave a cell empty to skip its row)",
     );
   });
