@@ -18,7 +18,7 @@
  * A probability of exactly 0 for an event (or 1 for a non-event) gives an infinite deviance and
  * log loss: reported as Infinity, never clamped to a made-up finite value.
  */
-import { portableExp, portableLog } from "./portableMath";
+import { portableLog, tableExp, tableLog1p } from "./portableMath";
 
 export interface TwoClassScore {
   /** Mean negative log-likelihood per row (natural log). */
@@ -46,19 +46,23 @@ export interface TwoClassScore {
   count: number;
 }
 
-/** log(1 + e^η) without overflow or loss of digits (common practice). */
+/**
+ * log(1 + e^η) without overflow or loss of digits (common practice): η + e^−η above 36, e^η below
+ * −36, else max(η, 0) + log(1 + e^−|η|). The exponential and log are portableMath.ts's table-driven
+ * ones (the two-class solver evaluates this once per row at every step).
+ */
 export function softplus(eta: number): number {
-  if (eta > 36) return eta + portableExp(-eta);
-  if (eta < -36) return portableExp(eta);
-  const e = portableExp(-Math.abs(eta));
-  return Math.max(eta, 0) + log1p(e);
+  return softplusFrom(eta, tableExp(-Math.abs(eta)));
 }
 
-/** log(1 + x) for x in [0, 1], accurate for small x (Goldberg 1991, ACM Computing Surveys 23(1), Theorem 4). */
-function log1p(x: number): number {
-  const u = 1 + x;
-  if (u === 1) return x;
-  return (portableLog(u) * x) / (u - 1);
+/**
+ * softplus(η) given e = tableExp(−|η|), the same value model.ts logisticFrom needs: one
+ * exponential serves both. Identical to softplus(η).
+ */
+export function softplusFrom(eta: number, e: number): number {
+  if (eta > 36) return eta + e;
+  if (eta < -36) return e;
+  return Math.max(eta, 0) + tableLog1p(e);
 }
 
 function usable(actual: ArrayLike<number>, other: ArrayLike<number>, weights: ArrayLike<number> | null | undefined, i: number): boolean {

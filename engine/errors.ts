@@ -68,7 +68,9 @@ export type WarningCode =
   | "not-converged"
   | "rows-skipped"
   | "fold-constant"
-  | "out-of-range";
+  | "out-of-range"
+  | "step-halved"
+  | "separated";
 
 export interface FitWarning {
   code: WarningCode;

@@ -29,9 +29,10 @@ import { CancelSignal, FitWarning, InputError, throwIfCancelled } from "./errors
 import { FoldPlan, FoldScheme, planFolds, rowsOfBlocks } from "./folds";
 import { leastSquares } from "./leastSquares";
 import { ColumnMatrix, selectRows } from "./matrix";
-import { LinearModel, linearModel, predict } from "./model";
+import { LinearModel, linearModel, logistic, predict } from "./model";
 import { score, Score } from "./metrics";
-import type { TwoClassScore } from "./classMetrics";
+import { areaUnderCurve, devianceFromScores, misclassifiedShare, scoreTwoClass, TwoClassScore } from "./classMetrics";
+import { LogisticDescent, LogisticReport, LogisticRun, LogisticSettings, logisticTopStrength, runLogisticPath, SATURATION } from "./logistic";
 import type { OutcomeKind } from "./outcome";
 import {
   DEFAULT_GRID_DENSITY,
@@ -328,6 +329,12 @@ interface Prepared {
   lowEndRatio: number;
   settings: { tolerance: number; maxSweeps: number; exactRidge: boolean; signal?: CancelSignal };
   stopEarly: boolean;
+  /** "two-class": y holds 0/1 as given (yExponent 0) and the logistic solver fits it. */
+  outcome: OutcomeKind;
+  /** Two-class: solve each step's quadratic in covariance form (logistic.ts), by the same rule as gram updates. */
+  covariance: boolean;
+  /** Two-class: the probability at or above which a row counts as the event. */
+  cutoff: number;
 }
 
 function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target: ArrayLike<number>, options: FitOptions): Prepared {
@@ -338,6 +345,9 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
   const y = checkRowVector(target, n, "target");
   if (n < 2) throw new InputError("too-few-rows", "there is only 1 row of data: a fit needs at least 2 rows (and more for cross-validation)");
   const weights = options.weights ? checkWeights(options.weights, n) : null;
+  const twoClass = options.outcome === "two-class";
+  const cutoff = twoClass ? checkCutoff(options.cutoff) : 0.5;
+  if (twoClass) checkClasses(y, weights);
   const intercept = options.intercept ?? true;
   const standardize = options.standardize ?? true;
   const multipliers = options.penaltyMultipliers
@@ -396,10 +406,12 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
   if (updates === "gram" && p > MAX_GRAM_PREDICTORS) {
     throw new InputError("setting", `gram updates keep a ${p} × ${p} matrix per fold; they are limited to ${MAX_GRAM_PREDICTORS} predictors: use residual updates`);
   }
-  const gram = updates === "gram" || (updates === "auto" && n >= p && p <= 500);
+  // Two-class fits always keep the rows: the quadratic's weights change at every step.
+  const covarianceForm = updates === "gram" || (updates === "auto" && n >= p && p <= 500);
+  const gram = !twoClass && covarianceForm;
   // Checkpoints between the O(n·p) passes over the input (checks, working copy).
   throwIfCancelled(options.signal);
-  const work = workingCopy(x, y, weights);
+  const work = workingCopy(x, y, weights, !twoClass);
   throwIfCancelled(options.signal);
   // Constant target (the rule problem.ts applies to columns): nothing to predict.
   const omega = new Float64Array(n);
@@ -413,7 +425,7 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
     meanSquare += omega[i] * (work.y[i] - centre) * (work.y[i] - centre);
     if (omega[i] > 0) largest = Math.max(largest, Math.abs(work.y[i]));
   }
-  if (!(meanSquare > 0) || !(Math.sqrt(meanSquare) > CONSTANT_SPREAD_RATIO * largest)) {
+  if (!twoClass && (!(meanSquare > 0) || !(Math.sqrt(meanSquare) > CONSTANT_SPREAD_RATIO * largest))) {
     let first = 0;
     while (weights && !(weights[first] > 0)) first++;
     throw new InputError("constant-target", `the target has the same value (${y[first]}) in every row: there is nothing to predict`);
@@ -457,7 +469,48 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
     lowEndRatio,
     settings: { tolerance, maxSweeps, exactRidge: options.exactRidge ?? true, signal: options.signal },
     stopEarly: options.stopEarly ?? false,
+    outcome: twoClass ? "two-class" : "number",
+    covariance: twoClass && covarianceForm,
+    cutoff,
   };
+}
+
+/** The two-class cutoff: default 0.5, strictly between 0 and 1. */
+function checkCutoff(cutoff: unknown): number {
+  if (cutoff === undefined || cutoff === null) return 0.5;
+  if (typeof cutoff !== "number" || !(cutoff > 0 && cutoff < 1)) {
+    throw new InputError("setting", `the cutoff is the probability from which a row counts as the event: it must be between 0 and 1 (not 0 or 1 themselves); got ${String(cutoff)}`);
+  }
+  return cutoff;
+}
+
+/**
+ * A two-class target holds 0 and 1 (1 = the event) in every row, and each class has rows of
+ * positive weight: with one class only, the log-odds would run to infinity.
+ */
+function checkClasses(y: Float64Array, weights: Float64Array | null): void {
+  let events = 0;
+  let others = 0;
+  for (let i = 0; i < y.length; i++) {
+    if (y[i] !== 0 && y[i] !== 1) {
+      throw new InputError(
+        "setting",
+        `target row ${i + 1} is ${y[i]}: a two-class (yes/no) target must hold 0 or 1 in every row (1 = the event); for a numeric target use outcome number`,
+      );
+    }
+    const w = weights ? weights[i] : 1;
+    if (w > 0) {
+      if (y[i] === 1) events++;
+      else others++;
+    }
+  }
+  if (events === 0 || others === 0) {
+    const only = events === 0 ? "0 (no events)" : "1 (events only)";
+    throw new InputError(
+      "constant-target",
+      `every ${weights ? "row with a positive weight" : "row"} of the target is ${only}: a two-class fit needs rows of both classes`,
+    );
+  }
 }
 
 /**
@@ -470,6 +523,7 @@ function workingCopy(
   x: ColumnMatrix,
   y: Float64Array,
   weights: Float64Array | null,
+  scaleTarget: boolean,
 ): { x: ColumnMatrix; y: Float64Array; weights: Float64Array | null; xExponent: Int32Array; yExponent: number } {
   const n = x.rows;
   const p = x.columns;
@@ -487,7 +541,8 @@ function workingCopy(
     for (let i = 0; i < n; i++) if (used(i)) largest = Math.max(largest, Math.abs(values[offset + i]));
     return largest;
   };
-  const yExponent = unitExponent(largestOf(y, 0));
+  // A two-class target stays 0/1 (exponent 0): the log-likelihood needs the classes themselves.
+  const yExponent = scaleTarget ? unitExponent(largestOf(y, 0)) : 0;
   const yFactor = powerOfTwo(yExponent);
   const workY = new Float64Array(n);
   for (let i = 0; i < n; i++) workY[i] = used(i) ? y[i] * yFactor : 0;
@@ -507,7 +562,8 @@ function penaltyFor(problem: TrainingProblem, data: Prepared, mix: number): Pena
   const p = problem.p;
   const lower = new Float64Array(p);
   const upper = new Float64Array(p);
-  const yScale = problem.std.yScale;
+  // Two-class: the target is not standardized (module comment of logistic.ts), so b̃ = b × scale.
+  const yScale = data.outcome === "two-class" ? 1 : problem.std.yScale;
   for (let j = 0; j < p; j++) {
     lower[j] = (data.lower[j] * problem.std.xScale[j]) / yScale;
     upper[j] = (data.upper[j] * problem.std.xScale[j]) / yScale;
@@ -585,7 +641,7 @@ function buildProblems(data: Prepared, plan: FoldPlan | null): Problems {
   const columnUnits = Float64Array.from(data.xExponent, (e) => powerOfTwo(e));
   const options = { intercept: data.intercept, standardize: data.standardize, columnUnits };
   const { shiftX, shiftY } = fullShift(data);
-  if (!data.gram) {
+  if (!data.gram || data.outcome === "two-class") {
     const full = problemFromRows(x, y, weights, null, options, signal);
     const folds = plan ? plan.trainBlocks.map((blocks) => problemFromRows(x, y, weights, rowsOfBlocks(plan, blocks), options, signal)) : [];
     return { full, folds, heldOutSums: null, shiftX, shiftY };
@@ -836,9 +892,6 @@ export function* fitSteps(
     throw new InputError("setting", `the outcome must be number or two-class; got ${String(outcome)}`);
   }
   checkMeasure(options.measure, outcome);
-  if (outcome === "two-class") {
-    throw new InputError("setting", "two-class outcomes can't be fitted by this version of the engine yet");
-  }
   const data = prepare(predictors, target, options);
   const warnings: FitWarning[] = [];
   const fixed = options.strength ?? null;
@@ -866,6 +919,7 @@ export function* fitSteps(
     });
   }
   if (fixed !== null) {
+    if (data.outcome === "two-class") return fixedTwoClass(data, full, fixed, constantColumns, warnings);
     if (fixed === 0 && !data.bounded) {
       return leastSquaresResult(data, full, constantColumns, warnings);
     }
@@ -878,9 +932,12 @@ export function* fitSteps(
     );
   }
   const activePlan = plan as FoldPlan;
-  const measure = checkMeasure(options.measure, "number");
+  const measure = checkMeasure(options.measure, data.outcome);
   const rule = typeof options.rule === "string" ? parseRule(options.rule) : options.rule == null ? "lowest" : null;
   if (rule === null) throw new InputError("setting", `the rule must be lowest or one-se; got ${String(options.rule)}`);
+  if (data.outcome === "two-class") {
+    return yield* twoClassSteps(data, problems, activePlan, measure, rule, options, constantColumns, warnings);
+  }
   const K = activePlan.trainBlocks.length;
   const totalUnits = data.mixes.length * (K + 1);
   let done = 0;
@@ -1082,6 +1139,24 @@ function explainedExactly(data: Prepared, full: TrainingProblem, penalty: Penalt
 function nothingToChoose(data: Prepared, full: TrainingProblem, penalty: PenaltySpec): InputError {
   const solver = new CoordinateDescent(full, penalty, data.settings);
   solver.fitUnpenalized();
+  return nothingToChooseFrom(data, full, penalty, solver.grad, () => explainedExactly(data, full, penalty), () =>
+    new InputError("constant-target", "the unpenalized predictors already explain the target exactly: there is nothing left for the penalty to choose"),
+  );
+}
+
+/**
+ * nothingToChoose from the gradient at the unpenalized fit (`gradient`), `exact()` telling
+ * whether that fit is already exact and `exactError()` the error to give then (or when nothing
+ * else explains a top of 0).
+ */
+function nothingToChooseFrom(
+  data: Prepared,
+  full: TrainingProblem,
+  penalty: PenaltySpec,
+  gradient: Float64Array,
+  exact: () => boolean,
+  exactError: () => InputError,
+): InputError {
   const fixed: string[] = [];
   const blocked: string[] = [];
   let free = 0;
@@ -1094,7 +1169,7 @@ function nothingToChoose(data: Prepared, full: TrainingProblem, penalty: Penalty
       continue;
     }
     free++;
-    const g = solver.grad[j];
+    const g = gradient[j];
     if ((g > 0 && !(upper > 0)) || (g < 0 && !(lower < 0))) {
       blocked.push(`'${data.names[j]}' (${g > 0 ? "upper" : "lower"} bound 0, the target pulls it ${g > 0 ? "above" : "below"} 0)`);
     }
@@ -1106,16 +1181,13 @@ function nothingToChoose(data: Prepared, full: TrainingProblem, penalty: Penalty
       `every penalized term is held at 0 by its bounds (lower 0 and upper 0: ${list(fixed)}): there is nothing for the penalty to choose; loosen the bounds of the terms that should enter the model`,
     );
   }
-  if (blocked.length > 0 && blocked.length === free && !explainedExactly(data, full, penalty)) {
+  if (blocked.length > 0 && blocked.length === free && !exact()) {
     return new InputError(
       "bounds",
       `no penalized term can move from 0 at any strength: the bounds allow each one only the direction the target doesn't pull it (${list(blocked)})${fixed.length > 0 ? ` or hold it at 0 (${list(fixed)})` : ""}; loosen those bounds, or check their signs`,
     );
   }
-  return new InputError(
-    "constant-target",
-    "the unpenalized predictors already explain the target exactly: there is nothing left for the penalty to choose",
-  );
+  return exactError();
 }
 
 /** The measure to use for this outcome (its default when none is given); refuses the other outcome's measures with a message. */
@@ -1147,7 +1219,40 @@ function makePlan(data: Prepared, options: FitOptions): FoldPlan {
   if (typeof seed !== "number" || !Number.isInteger(seed) || Math.abs(seed) > 4294967295) {
     throw new InputError("setting", `seed must be a whole number from -4294967295 to 4294967295; got ${String(seed)}`);
   }
-  return planFolds(data.x.rows, data.weights, { scheme, folds, seed, labels });
+  // Two-class random folds are stratified by class (each fold gets its share of events; rows of
+  // weight 0 form a stratum of their own, so they don't upset the classes' balance).
+  let strata: Float64Array | null = null;
+  if (data.outcome === "two-class" && scheme === "random") {
+    strata = Float64Array.from(data.y, (value, i) => (data.weights && !(data.weights[i] > 0) ? -1 : value));
+  }
+  const plan = planFolds(data.x.rows, data.weights, { scheme, folds, seed, labels, strata });
+  if (data.outcome === "two-class") checkFoldClasses(data, plan);
+  return plan;
+}
+
+/**
+ * Two-class: every fold must train on rows of both classes (with one, its log-odds would run to
+ * infinity). Stratified random folds manage that whenever each class has 2 or more rows.
+ */
+function checkFoldClasses(data: Prepared, plan: FoldPlan): void {
+  for (let k = 0; k < plan.trainBlocks.length; k++) {
+    let events = 0;
+    let others = 0;
+    for (const b of plan.trainBlocks[k]) {
+      for (const i of plan.blocks[b]) {
+        if (data.weights && !(data.weights[i] > 0)) continue;
+        if (data.y[i] === 1) events++;
+        else others++;
+      }
+    }
+    if (events === 0 || others === 0) {
+      const label = plan.scheme === "labels" ? `holding out fold label '${plan.names[k]}'` : `fold ${plan.names[k]}`;
+      throw new InputError(
+        "folds",
+        `${label} leaves training rows of one class only (${events === 0 ? "no events" : "no non-events"}), and a two-class fit needs both: ${plan.scheme === "labels" ? "merge groups or check the fold column" : "use fewer folds"}, or add rows of the rarer class`,
+      );
+    }
+  }
 }
 
 function formatNumber(value: number): string {
@@ -1315,6 +1420,429 @@ function leastSquaresResult(data: Prepared, full: TrainingProblem, constantColum
       strengthCount: data.strengthCount,
       gridDensity: gridDensity(data.strengthCount, data.lowEndRatio),
       stepHalvings: 0,
+    },
+    warnings,
+    model,
+  };
+}
+
+// ---------------------------------------------------------------------------------------------
+// Two-class outcomes: penalized logistic regression (logistic.ts), cross-validated the same way.
+// ---------------------------------------------------------------------------------------------
+
+/** Solver settings for a two-class problem. */
+function logisticSettings(data: Prepared): LogisticSettings {
+  return {
+    tolerance: data.settings.tolerance,
+    maxSweeps: data.settings.maxSweeps,
+    intercept: data.intercept,
+    covariance: data.covariance,
+    signal: data.settings.signal,
+  };
+}
+
+/** 0/1 outcomes of the listed rows (all rows when null), in the order problemFromRows stores them. */
+function outcomesOf(data: Prepared, rows: Int32Array | null): Float64Array {
+  return rows ? Float64Array.from(rows, (i) => data.y[i]) : data.y;
+}
+
+/**
+ * A two-class solver on `problem` at its unpenalized fit, ready to run down a path. On the full
+ * data, an unpenalized fit that already separates the classes is refused: the coefficients of the
+ * unpenalized terms would run to infinity before any penalized one entered.
+ */
+function startTwoClass(
+  data: Prepared,
+  problem: TrainingProblem,
+  y: Float64Array,
+  penalty: PenaltySpec,
+  fullData: boolean,
+): { solver: LogisticDescent; start: LogisticReport } {
+  const solver = new LogisticDescent(problem, y, penalty, logisticSettings(data));
+  const start = solver.fitUnpenalized();
+  if (fullData && solver.saturated()) {
+    const unpenalized: string[] = [];
+    for (let j = 0; j < problem.p; j++) if (!problem.std.frozen[j] && !(data.multipliers[j] > 0)) unpenalized.push(`'${data.names[j]}'`);
+    throw new InputError(
+      "constant-target",
+      `the unpenalized predictors (${unpenalized.join(", ")}) already separate the two classes: every probability is within ${SATURATION} of its class before any penalized term enters, so there is nothing left for the penalty to choose (and those coefficients have no finite value); give them a penalty multiplier above 0`,
+    );
+  }
+  return { solver, start };
+}
+
+/** Top of a two-class grid, or the InputError saying why nothing can enter the model. */
+function twoClassTop(data: Prepared, full: TrainingProblem, penalty: PenaltySpec, solver: LogisticDescent): number {
+  const top = logisticTopStrength(solver);
+  if (top > 0) return top;
+  throw nothingToChooseFrom(data, full, penalty, solver.grad, () => false, () =>
+    new InputError(
+      "constant-target",
+      "no penalized predictor is related to the outcome on these rows beyond what the intercept and the unpenalized predictors explain (every gradient is 0 there): there is nothing for the penalty to choose",
+    ),
+  );
+}
+
+/**
+ * Intercept and coefficients in the working copy's units from a two-class solution on the
+ * standardized scale (b0, b̃): b_j = b̃_j / scale_j, intercept = b0 − Σ b_j x̄_j, the centres'
+ * small parts (offsets) taken before their anchors.
+ */
+function logisticToOriginal(problem: TrainingProblem, intercept: number, standardized: Float64Array): { intercept: number; coefficients: Float64Array } {
+  const std = problem.std;
+  const coefficients = new Float64Array(problem.p);
+  let near = intercept;
+  let far = 0;
+  for (let j = 0; j < problem.p; j++) {
+    const b = std.frozen[j] ? 0 : standardized[j] / std.xScale[j];
+    coefficients[j] = b;
+    if (b === 0) continue;
+    near -= b * std.xOffset[j];
+    far += b * std.xAnchor[j];
+  }
+  return { intercept: near - far, coefficients };
+}
+
+/**
+ * Held-out measure of each point of a two-class fold path: the linear scores of the held-out rows
+ * in centred form, η = b0 + Σ b_j ((x_j − anchor_j) − offset_j) (no large intercept cancels against
+ * large slopes × values), then the binomial deviance per row (devianceFromScores), the share
+ * misclassified at the cutoff, or the AUC (NaN when the held-out rows have one class).
+ */
+function twoClassFoldErrors(data: Prepared, problem: TrainingProblem, run: LogisticRun, measure: ErrorMeasure, held: HeldOut): Float64Array {
+  const errors = new Float64Array(run.strengths.length);
+  const m = held.y.length;
+  const std = problem.std;
+  const eta = new Float64Array(m);
+  const probabilities = measure === "misclassified" ? new Float64Array(m) : null;
+  for (let k = 0; k < run.strengths.length; k++) {
+    throwIfCancelled(data.settings.signal);
+    eta.fill(run.intercepts[k]);
+    const standardized = run.coefficients[k];
+    for (let j = 0; j < problem.p; j++) {
+      if (std.frozen[j] || standardized[j] === 0) continue;
+      const b = standardized[j] / std.xScale[j];
+      const off = j * m;
+      const anchor = std.xAnchor[j];
+      const offset = std.xOffset[j];
+      for (let t = 0; t < m; t++) eta[t] += b * (held.x.data[off + t] - anchor - offset);
+    }
+    if (measure === "deviance") errors[k] = devianceFromScores(held.y, eta, held.w);
+    else if (measure === "auc") errors[k] = areaUnderCurve(held.y, eta, held.w);
+    else {
+      const probs = probabilities as Float64Array;
+      for (let t = 0; t < m; t++) probs[t] = logistic(eta[t]);
+      errors[k] = misclassifiedShare(held.y, probs, data.cutoff, held.w);
+    }
+  }
+  return errors;
+}
+
+/** Whether a fold's held-out rows (those with positive weight) include both classes. */
+function heldOutHasBothClasses(data: Prepared, rows: Int32Array): boolean {
+  let events = false;
+  let others = false;
+  for (const i of rows) {
+    if (data.weights && !(data.weights[i] > 0)) continue;
+    if (data.y[i] === 1) events = true;
+    else others = true;
+  }
+  return events && others;
+}
+
+const MEASURE_NAMES: Record<ErrorMeasure, string> = {
+  mse: "mean squared error",
+  mae: "mean absolute error",
+  deviance: "deviance",
+  misclassified: "share misclassified",
+  auc: "AUC",
+};
+
+interface TwoClassMixOutcome {
+  mix: number;
+  top: number;
+  run: LogisticRun;
+  mean: Float64Array;
+  se: Float64Array;
+}
+
+/** The cross-validated two-class fit (fitSteps from the fold plan on): one unit of work per full path and per fold. */
+function* twoClassSteps(
+  data: Prepared,
+  problems: Problems,
+  plan: FoldPlan,
+  measure: ErrorMeasure,
+  rule: ChoiceRule,
+  options: FitOptions,
+  constantColumns: string[],
+  warnings: FitWarning[],
+): Generator<void, FitResult, void> {
+  const full = problems.full;
+  const signal = data.settings.signal;
+  const K = plan.trainBlocks.length;
+  const totalUnits = data.mixes.length * (K + 1);
+  let done = 0;
+  const heldOutCache: (HeldOut | null)[] = new Array(K).fill(null);
+  const heldOut = (f: number): HeldOut => (heldOutCache[f] ??= gatherHeldOut(data, plan.blocks[plan.validateBlock[f]]));
+  const foldWeights = plan.validateBlock.map((b) => {
+    let s = 0;
+    for (const i of plan.blocks[b]) s += data.weights ? data.weights[i] : 1;
+    return s;
+  });
+  const trainingOutcomes = plan.trainBlocks.map((blocks) => outcomesOf(data, rowsOfBlocks(plan, blocks)));
+  // The AUC needs both classes among a fold's held-out rows: average over the folds that have them.
+  let scored = Array.from({ length: K }, (_, f) => f);
+  if (measure === "auc") {
+    scored = scored.filter((f) => heldOutHasBothClasses(data, plan.blocks[plan.validateBlock[f]]));
+    if (scored.length < 2) {
+      throw new InputError(
+        "folds",
+        `the AUC compares events with non-events among each fold's held-out rows, and only ${scored.length} of the ${K} folds hold out rows of both classes (at least 2 are needed): use fewer folds, or the deviance or the share misclassified`,
+      );
+    }
+    if (scored.length < K) {
+      warnings.push({
+        code: "fold-constant",
+        message: `${K - scored.length} of the ${K} folds hold out rows of one class only, which have no AUC: the cross-validated AUC and its standard error are over the other ${scored.length} folds`,
+      });
+    }
+  }
+  const outcomes: TwoClassMixOutcome[] = [];
+  let allKkt = 0;
+  let allConverged = true;
+  let sweeps = 0;
+  let halvings = 0;
+  for (const mix of data.mixes) {
+    const penalty = penaltyFor(full, data, mix);
+    const { solver, start } = startTwoClass(data, full, data.y, penalty, true);
+    const top = twoClassTop(data, full, penalty, solver);
+    const grid = strengthGrid(top, data.strengthCount, data.lowEndRatio);
+    const run = runLogisticPath(solver, start, grid, { stopWhenSaturated: true, stopWhenFlat: data.stopEarly, signal });
+    sweeps += run.sweeps;
+    halvings += run.stepHalvings;
+    allKkt = Math.max(allKkt, run.maxKktViolation);
+    if (run.notConverged.length > 0) allConverged = false;
+    options.onProgress?.(++done, totalUnits);
+    yield;
+    const errors: Float64Array[] = [];
+    for (let f = 0; f < K; f++) {
+      throwIfCancelled(signal);
+      const problem = problems.folds[f];
+      const foldPenalty = penaltyFor(problem, data, mix);
+      const fold = startTwoClass(data, problem, trainingOutcomes[f], foldPenalty, false);
+      // Every fold solves exactly the strengths the full-data path computed.
+      const foldRun = runLogisticPath(fold.solver, fold.start, run.strengths, { stopWhenSaturated: false, stopWhenFlat: false, skipLoss: true, signal });
+      sweeps += foldRun.sweeps;
+      halvings += foldRun.stepHalvings;
+      allKkt = Math.max(allKkt, foldRun.maxKktViolation);
+      if (foldRun.notConverged.length > 0) allConverged = false;
+      errors.push(twoClassFoldErrors(data, problem, foldRun, measure, heldOut(f)));
+      options.onProgress?.(++done, totalUnits);
+      yield;
+    }
+    const { mean, se } = summarise(
+      scored.map((f) => errors[f]),
+      scored.map((f) => foldWeights[f]),
+      run.strengths.length,
+    );
+    outcomes.push({ mix, top, run, mean, se });
+  }
+  // Choices as for the number outcome, with "lowest error" meaning the highest AUC: the best mean
+  // over every mix and strength (ties to the larger strength, then the earlier mix); one-SE: the
+  // largest strength of that mix whose mean is within one SE of the best (AUC: at least best − SE).
+  const higher = higherIsBetter(measure);
+  const better = (a: number, b: number): boolean => (higher ? a > b : a < b);
+  let best = outcomes[0];
+  let bestIndex = 0;
+  for (const outcome of outcomes) {
+    for (let k = 0; k < outcome.mean.length; k++) {
+      if (better(outcome.mean[k], best.mean[bestIndex])) {
+        best = outcome;
+        bestIndex = k;
+      }
+    }
+  }
+  const limit = higher ? best.mean[bestIndex] - best.se[bestIndex] : best.mean[bestIndex] + best.se[bestIndex];
+  let oneSeIndex = bestIndex;
+  for (let k = 0; k < bestIndex; k++) {
+    if (higher ? best.mean[k] >= limit : best.mean[k] <= limit) {
+      oneSeIndex = k;
+      break;
+    }
+  }
+  const point = (outcome: TwoClassMixOutcome, index: number): ChoicePoint => ({
+    mix: outcome.mix,
+    strength: outcome.run.strengths[index],
+    strengthFraction: outcome.run.strengths[index] / outcome.top,
+    index,
+    error: outcome.mean[index],
+    se: outcome.se[index],
+    termsKept: outcome.run.nonzero[index],
+  });
+  const choices = { lowest: point(best, bestIndex), oneSe: point(best, oneSeIndex) };
+  const chosen = rule === "lowest" ? choices.lowest : choices.oneSe;
+  const table: CvRow[] = [];
+  for (const outcome of outcomes) {
+    for (let k = 0; k < outcome.mean.length; k++) {
+      table.push({ mix: outcome.mix, strength: outcome.run.strengths[k], error: outcome.mean[k], se: outcome.se[k], termsKept: outcome.run.nonzero[k] });
+    }
+  }
+  if (bestIndex === best.run.strengths.length - 1 && best.run.earlyStop === null) {
+    warnings.push({
+      code: "grid-edge",
+      message: `the ${higher ? "highest" : "lowest"} cross-validated ${MEASURE_NAMES[measure]} is at the weakest strength tried (${formatNumber(best.run.strengths[bestIndex])}): a smaller low-end ratio may find a better model`,
+    });
+  }
+  if (!allConverged) {
+    warnings.push({ code: "not-converged", message: "some fits hit the sweep or step cap before converging: raise the sweep cap or loosen the tolerance; results near those strengths are approximate" });
+  }
+  const result = assembleTwoClass(data, full, best.run, best.top, chosen.index, best.mix, constantColumns, warnings, halvings);
+  result.rule = rule;
+  result.strengthFraction = chosen.strengthFraction;
+  result.choices = choices;
+  result.cv = {
+    measure,
+    scheme: plan.scheme,
+    folds: K,
+    seed: plan.scheme === "random" ? (options.seed ?? 1) : null,
+    table,
+  };
+  result.diagnostics.sweeps = sweeps;
+  result.diagnostics.maxKktViolationAllFits = allKkt;
+  result.diagnostics.converged = allConverged;
+  return result;
+}
+
+/** Two-class result at a single fixed strength: the path from the top of the grid down to it. */
+function fixedTwoClass(data: Prepared, full: TrainingProblem, strength: number, constantColumns: string[], warnings: FitWarning[]): FitResult {
+  if (strength === 0) {
+    throw new InputError(
+      "strength",
+      "strength 0 (the unpenalized fit) is not available for a two-class outcome in this version: give a small positive strength, e.g. 1e-4",
+    );
+  }
+  const mix = data.mixes[0];
+  const penalty = penaltyFor(full, data, mix);
+  const { solver, start } = startTwoClass(data, full, data.y, penalty, true);
+  const top = logisticTopStrength(solver);
+  const grid = top > 0 ? strengthGrid(top, data.strengthCount, data.lowEndRatio).filter((s) => s > strength) : [];
+  grid.push(strength);
+  const run = runLogisticPath(solver, start, grid, { stopWhenSaturated: false, stopWhenFlat: false, signal: data.settings.signal });
+  if (run.notConverged.length > 0) {
+    warnings.push({ code: "not-converged", message: "the fit hit the sweep or step cap before converging: raise the sweep cap or loosen the tolerance" });
+  }
+  if (solver.saturated()) {
+    warnings.push({
+      code: "separated",
+      message: `the training rows are separated: at strength ${formatNumber(strength)} every probability is within ${SATURATION} of its class, and at weaker strengths the coefficients would only grow without bound`,
+    });
+  }
+  const result = assembleTwoClass(data, full, run, top, run.strengths.length - 1, mix, constantColumns, warnings, run.stepHalvings);
+  result.rule = "fixed";
+  result.strengthFraction = top > 0 ? strength / top : 0;
+  return result;
+}
+
+/** Shared two-class result assembly from the full-data path and the chosen point on it. */
+function assembleTwoClass(
+  data: Prepared,
+  full: TrainingProblem,
+  run: LogisticRun,
+  top: number,
+  index: number,
+  mix: number,
+  constantColumns: string[],
+  warnings: FitWarning[],
+  stepHalvings: number,
+): FitResult {
+  const intercepts: number[] = [];
+  const coefficientRows: number[][] = [];
+  for (let k = 0; k < run.coefficients.length; k++) {
+    const work = logisticToOriginal(full, run.intercepts[k], run.coefficients[k]);
+    const convert = (j: number, value: number): number => (k === index ? coefficientInDataUnits(data, j, value) : pathValueInDataUnits(data, j, value));
+    intercepts.push(convert(-1, work.intercept));
+    coefficientRows.push(Array.from(work.coefficients, (b, j) => convert(j, b)));
+  }
+  const coefficients = coefficientRows[index];
+  const intercept = intercepts[index];
+  const model = linearModel(data.names, intercept, coefficients, "logistic");
+  // In-sample probabilities in centred form (see twoClassFoldErrors), from the data as given:
+  // the centres' parts move back to the data's units exactly (powers of two).
+  const original = data.original;
+  const n = original.x.rows;
+  const std = full.std;
+  const eta = new Float64Array(n).fill(run.intercepts[index]);
+  for (let j = 0; j < full.p; j++) {
+    const b = coefficients[j];
+    if (b === 0) continue;
+    const anchor = scaleByPowerOfTwo(std.xAnchor[j], -data.xExponent[j]);
+    const offset = scaleByPowerOfTwo(std.xOffset[j], -data.xExponent[j]);
+    const off = j * n;
+    for (let i = 0; i < n; i++) eta[i] += b * (original.x.data[off + i] - anchor - offset);
+  }
+  const probabilities = Float64Array.from(eta, logistic);
+  const chosenWork = logisticToOriginal(full, run.intercepts[index], run.coefficients[index]).coefficients;
+  if (run.earlyStop) {
+    const last = run.strengths.length - 1;
+    const where = `point ${last + 1} of ${data.strengthCount}`;
+    warnings.push({
+      code: "early-stop",
+      message:
+        run.earlyStop === "saturated"
+          ? `the training rows are separated: from strength ${formatNumber(run.strengths[last])} down every probability is within ${SATURATION} of its class, so the path stops there (${where}); at weaker strengths the coefficients would only grow without bound`
+          : `the path stopped at strength ${formatNumber(run.strengths[last])} (${where}), as 'stop early' allows: over the last tenfold drop in strength the deviance improved by less than 1%`,
+    });
+  }
+  if (stepHalvings > 0) {
+    warnings.push({
+      code: "step-halved",
+      message: `${stepHalvings} time${stepHalvings === 1 ? "" : "s"} a step of the solver would have raised the penalized objective and was halved until it no longer did (usual when probabilities run close to 0 or 1); the fits were still checked against their optimality conditions`,
+    });
+  }
+  return {
+    kind: "shrinkwise-fit",
+    outcome: "two-class",
+    terms: data.names.slice(),
+    intercept,
+    coefficients,
+    // Log-odds per SD of the predictor: b_j × SD_j (the powers of two cancel, so working units serve).
+    standardizedCoefficients: Array.from(chosenWork, (b, j) => b * full.std.xSpread[j]),
+    predictorSpreads: Array.from(full.std.xSpread, (spread, j) => scaleByPowerOfTwo(spread, -data.xExponent[j])),
+    // The log-likelihood has no units: λ is measured against log-odds as they are.
+    targetSpread: 1,
+    mix,
+    strength: run.strengths[index],
+    strengthFraction: top > 0 ? run.strengths[index] / top : 0,
+    rule: "fixed",
+    choices: null,
+    cv: null,
+    path: {
+      mix,
+      top,
+      strengths: run.strengths.slice(),
+      intercepts,
+      coefficients: coefficientRows,
+      termsKept: run.nonzero.slice(),
+      r2: run.r2.slice(),
+    },
+    fit: score(original.y, probabilities, original.weights),
+    classFit: scoreTwoClass(original.y, probabilities, { cutoff: data.cutoff, weights: original.weights }),
+    baseline: null,
+    rowsUsed: data.x.rows,
+    constantColumns,
+    diagnostics: {
+      updates: data.covariance ? "gram" : "residual",
+      solver: "descent",
+      sweeps: run.sweeps,
+      maxKktViolation: run.maxKktViolation,
+      maxKktViolationAllFits: run.maxKktViolation,
+      converged: run.notConverged.length === 0,
+      strongRuleMisses: run.strongRuleMisses,
+      earlyStop: run.earlyStop ? { index: run.strengths.length - 1, strength: run.strengths[run.strengths.length - 1], reason: run.earlyStop } : null,
+      lowEndRatio: data.lowEndRatio,
+      strengthCount: data.strengthCount,
+      gridDensity: gridDensity(data.strengthCount, data.lowEndRatio),
+      stepHalvings,
     },
     warnings,
     model,

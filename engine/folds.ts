@@ -2,7 +2,8 @@
  * Cross-validation fold plans: which rows each fold trains on and validates on.
  *
  * - "random": rows shuffled by the seeded generator in random.ts, dealt round-robin into
- *   K folds; fold k validates its own rows and trains on the rest.
+ *   K folds; fold k validates its own rows and trains on the rest. With strata (two-class
+ *   outcomes: the class), each stratum is dealt in turn, so every fold gets its share of each.
  * - "labels": one fold per distinct label (grouped CV, e.g. one fold per batch or site),
  *   in order of first appearance.
  * - "time": rows are in time order; they are cut into K + 1 contiguous blocks of near-equal
@@ -10,7 +11,7 @@
  *   block k, so no fold ever trains on rows later than the ones it is scored on.
  */
 import { InputError } from "./errors";
-import { randomFolds } from "./random";
+import { randomFolds, stratifiedFolds } from "./random";
 
 export type FoldScheme = "random" | "labels" | "time";
 
@@ -32,24 +33,35 @@ export const MIN_TRAINING_ROWS = 3;
 export function planFolds(
   rows: number,
   weights: Float64Array | null,
-  options: { scheme: FoldScheme; folds: number; seed: number; labels: ArrayLike<number | string> | null },
+  options: {
+    scheme: FoldScheme;
+    folds: number;
+    seed: number;
+    labels: ArrayLike<number | string> | null;
+    /**
+     * Random folds only: one stratum value per row (e.g. the class of a two-class outcome); each
+     * fold then gets its share of every stratum (random.ts stratifiedFolds). Null or absent: the
+     * plain shuffle, the folds every number outcome has always had.
+     */
+    strata?: ArrayLike<number> | null;
+  },
 ): FoldPlan {
   let plan: FoldPlan;
   if (options.scheme === "labels") plan = labelPlan(rows, options.labels);
   else if (options.scheme === "time") plan = timePlan(rows, options.folds);
-  else plan = randomPlan(rows, options.folds, options.seed);
+  else plan = randomPlan(rows, options.folds, options.seed, options.strata ?? null);
   checkPlan(plan, weights);
   return plan;
 }
 
-function randomPlan(rows: number, folds: number, seed: number): FoldPlan {
+function randomPlan(rows: number, folds: number, seed: number, strata: ArrayLike<number> | null): FoldPlan {
   if (rows < 2 * folds) {
     throw new InputError(
       "too-few-rows",
       `${folds} folds need at least ${2 * folds} rows (2 per fold) but there are ${rows}: use fewer folds`,
     );
   }
-  const labels = randomFolds(rows, folds, seed);
+  const labels = strata ? stratifiedFolds(rows, folds, seed, strata) : randomFolds(rows, folds, seed);
   const blocks = groupRows(labels, folds);
   return {
     scheme: "random",

@@ -8,7 +8,7 @@
  */
 import { InputError } from "./errors";
 import type { ColumnMatrix } from "./matrix";
-import { portableExp } from "./portableMath";
+import { tableExp } from "./portableMath";
 
 export type ModelLink = "identity" | "logistic";
 
@@ -30,12 +30,16 @@ export function linearModel(terms: string[], intercept: number, coefficients: nu
 
 /**
  * The logistic function 1 / (1 + e^−η), evaluated without overflow on either side and with the
- * portable exponential (bit-identical in every JavaScript engine).
+ * portable table-driven exponential (portableMath.ts tableExp: bit-identical in every JavaScript
+ * engine, and fast enough for the two-class solver's inner loop).
  */
 export function logistic(eta: number): number {
-  if (eta >= 0) return 1 / (1 + portableExp(-eta));
-  const e = portableExp(eta);
-  return e / (1 + e);
+  return logisticFrom(eta, tableExp(-Math.abs(eta)));
+}
+
+/** logistic(η) given e = tableExp(−|η|) (see classMetrics.ts softplusFrom): 1/(1 + e) for η >= 0, else e/(1 + e). Identical to logistic(η). */
+export function logisticFrom(eta: number, e: number): number {
+  return eta >= 0 ? 1 / (1 + e) : e / (1 + e);
 }
 
 /** Reads a model back from JSON text or a parsed object, checking its shape. */

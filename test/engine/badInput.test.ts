@@ -219,7 +219,7 @@ describe("settings", () => {
   });
   test("an unknown error measure or rule", () => {
     const { x, y } = data();
-    expectInputError(() => fit(x, y, { ...quick, measure: "rmse" as never }), "setting", /error measure must be mse or mae/);
+    expectInputError(() => fit(x, y, { ...quick, measure: "rmse" as never }), "setting", /error measure must be one of mse, mae/);
     expectInputError(() => fit(x, y, { ...quick, rule: "best" as never }), "setting", /rule must be lowest or one-se/);
   });
 });
