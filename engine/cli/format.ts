@@ -269,12 +269,12 @@ export function formatNumber(value: number, digits = 6): string {
   return Number.isFinite(value) ? significant(value, digits) : "n/a";
 }
 
-/** Rows of cells as aligned columns: first column left-aligned, the others right-aligned. */
-function columns(rows: string[][], indent = "  "): string[] {
+/** Rows of cells as aligned columns: first column left-aligned, the others right-aligned (or all left-aligned, for words). */
+function columns(rows: string[][], indent = "  ", allLeft = false): string[] {
   const widths: number[] = [];
   for (const row of rows) row.forEach((cell, c) => (widths[c] = Math.max(widths[c] ?? 0, [...cell].length)));
   return rows.map((row) =>
-    (indent + row.map((cell, c) => (c === 0 ? cell.padEnd(widths[c]) : cell.padStart(widths[c]))).join("  ")).trimEnd(),
+    (indent + row.map((cell, c) => (c === 0 || allLeft ? cell.padEnd(widths[c]) : cell.padStart(widths[c]))).join("  ")).trimEnd(),
   );
 }
 
@@ -290,6 +290,11 @@ function schemeText(result: FitResult, foldColumn: string | null | undefined): s
  * A cross-validation measure named for people: MSE, MAE, deviance, misclassified share, AUC.
  * `withDirection` adds "(higher is better)" to the AUC, the one measure where it is.
  */
+/** The point the "lowest" rule picks, in words: "lowest error", or "highest AUC" where higher is better. */
+export function bestPointLabel(measure: ErrorMeasure | undefined): string {
+  return measure !== undefined && higherIsBetter(measure) ? "highest AUC" : RULE_WORDS.lowest;
+}
+
 export function measureName(measure: ErrorMeasure, withDirection = false): string {
   const name = measure === "mse" || measure === "mae" || measure === "auc" ? measure.toUpperCase() : measure === "misclassified" ? "misclassified share" : measure;
   return withDirection && higherIsBetter(measure) ? `${name} (higher is better)` : name;
@@ -350,7 +355,8 @@ export function textReport(result: FitResult, context: ReportContext): string {
   lines.push(...columns(termRows));
   if (twoClass) {
     lines.push(
-      `  (log-odds of ${event} per unit of each predictor; odds ratio = e^log-odds, what the odds are multiplied by per unit; per SD = log-odds per SD of the predictor)`,
+      `  (log-odds of ${event} per unit of each predictor; odds ratio = e^log-odds, what the odds`,
+      "  are multiplied by per unit; per SD = log-odds per SD of the predictor)",
     );
   }
   lines.push("");
@@ -364,8 +370,9 @@ export function textReport(result: FitResult, context: ReportContext): string {
           : `mix ${formatNumber(result.mix)}, strength λ ${formatNumber(result.strength)}`;
     lines.push(`Fixed point: ${point}, ${kept} of ${p} terms kept; no cross-validation`);
   } else {
+    const ruleWords = (rule: "lowest" | "one-se"): string => (rule === "lowest" ? bestPointLabel(result.cv?.measure) : RULE_WORDS[rule]);
     lines.push(
-      `Chosen point (${RULE_WORDS[result.rule]}): mix ${formatNumber(result.mix)}, strength λ ${formatNumber(result.strength)}` +
+      `Chosen point (${ruleWords(result.rule)}): mix ${formatNumber(result.mix)}, strength λ ${formatNumber(result.strength)}` +
         ` (${formatNumber(result.strengthFraction, 4)} of the grid's top), ${kept} of ${p} terms kept`,
     );
   }
@@ -379,7 +386,7 @@ export function textReport(result: FitResult, context: ReportContext): string {
     const rules = ["lowest", "one-se"] as const;
     const points = [result.choices.lowest, result.choices.oneSe];
     const rows: string[][] = [
-      ["", ...rules.map((rule) => RULE_WORDS[rule] + (rule === result.rule ? " (chosen)" : ""))],
+      ["", ...rules.map((rule) => (rule === "lowest" ? bestPointLabel(result.cv?.measure) : RULE_WORDS[rule]) + (rule === result.rule ? " (chosen)" : ""))],
       ["mix", ...points.map((c) => formatNumber(c.mix))],
       ["strength λ", ...points.map((c) => formatNumber(c.strength))],
       [`CV ${measureName(result.cv.measure)} ± SE${higherIsBetter(result.cv.measure) ? " (higher is better)" : ""}`, ...points.map((c) => errorWithSe(c.error, c.se))],
@@ -431,13 +438,13 @@ export function classFitLines(score: TwoClassScore, classes: FitTable["classes"]
   const count = (value: number): string => formatNumber(value);
   const rows: string[][] = [
     ["", `flagged ${event}`, "not flagged"],
-    [`${event} (${count(score.eventsCaught + score.eventsMissed)})`, `${count(score.eventsCaught)} events caught`, `${count(score.eventsMissed)} events missed`],
-    [`${other} (${count(score.falseAlarms + score.correctAllClear)})`, `${count(score.falseAlarms)} false alarms`, `${count(score.correctAllClear)} correct all-clear`],
+    [`${event} (${count(score.eventsCaught + score.eventsMissed)} rows)`, `${count(score.eventsCaught)} events caught`, `${count(score.eventsMissed)} events missed`],
+    [`${other} (${count(score.falseAlarms + score.correctAllClear)} rows)`, `${count(score.falseAlarms)} false alarms`, `${count(score.correctAllClear)} correct all-clear`],
   ];
   return [
     `In-sample: log loss ${formatNumber(score.logLoss, 4)}, Brier ${formatNumber(score.brier, 4)}, AUC ${formatNumber(score.auc, 4)}`,
     `At cutoff ${formatNumber(score.cutoff)} (a row is flagged as ${event} when its probability is ${formatNumber(score.cutoff)} or more):`,
-    ...columns(rows),
+    ...columns(rows, "  ", true),
     `  accuracy ${formatNumber(score.accuracy, 4)}, sensitivity ${formatNumber(score.sensitivity, 4)} (share of events caught), specificity ${formatNumber(score.specificity, 4)} (share of the other class cleared)`,
   ];
 }

@@ -16,7 +16,8 @@
  * target unless they hold a value (which the cells would refuse: the field says why).
  */
 import type { OutcomeKind } from "../../engine/outcome";
-import type { ErrorMeasure } from "../../engine/fit";
+import { higherIsBetter, type ErrorMeasure } from "../../engine/fit";
+import { parseSettings } from "../../functions/settings";
 import { checkSettings, measureChoices, type PaneInputs, type SettingsCheck } from "./paneState";
 
 export interface Choice {
@@ -195,6 +196,19 @@ export const FIELDS: readonly FieldSpec[] = [
   { name: "zero is missing", label: "Zeros mean blank", hint: "all, or column names separated by commas: their zeros count as empty cells (for hosts that pass blanks as 0).", kind: "text", more: true },
 ];
 
+/** The rule's hint when the measure is the AUC (higher is better). */
+const RULE_HINT_AUC = "The one-SE rule takes the strongest penalty whose AUC is within one standard error of the highest: a simpler model.";
+
+/** The measure an error field's value names, read by the cells' parser (null: default or unreadable). */
+function measureOf(text: string): ErrorMeasure | null {
+  if (text.trim() === "") return null;
+  try {
+    return parseSettings(`error=${text.trim()}`).measure;
+  } catch {
+    return null;
+  }
+}
+
 /** The weights column field (drawn with the ranges). */
 export const WEIGHTS_FIELD: FieldSpec = {
   name: "weights column",
@@ -371,9 +385,22 @@ export function renderSettingsForm(inputs: PaneInputs, onChange: (name: string) 
     }
   }
 
+  /** The rule's words follow the measure: for the AUC the default rule takes the highest value, and the one-SE rule looks below it. */
+  function nameRules(): void {
+    const field = fields.find((f) => f.spec.name === "rule");
+    if (!field || !(field.control instanceof HTMLSelectElement)) return;
+    const measure = measureOf(readValue(inputs, "error"));
+    const auc = measure !== null && higherIsBetter(measure);
+    const first = field.control.options[0];
+    if (first && first.value === "") first.textContent = auc ? "Highest AUC (default)" : "Lowest error (default)";
+    const hint = document.getElementById(field.hintId);
+    if (hint) hint.textContent = auc ? RULE_HINT_AUC : field.spec.hint;
+  }
+
   function check(): SettingsCheck {
     const result = checkSettings(inputs, outcome);
     showTwoClassFields();
+    nameRules();
     for (const field of fields) {
       const message = field.spec.name === "mixes" ? result.mixes : (result.fields[field.spec.name] ?? null);
       showError(field, message);
