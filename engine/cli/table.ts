@@ -283,7 +283,9 @@ function readTarget(out: FitTable, cells: OutcomeValue[], table: TextTable, targ
   out.targetValues = Array.from(reading.values);
   out.outcome = reading.kind;
   if (reading.kind === "two-class") {
-    out.classes = { event: reading.event, other: reading.other, eventRows: reading.eventCount, otherRows: reading.otherCount, note: reading.note };
+    // readOutcome's note names the cells' setting (event=…); here the flag is --event.
+    const note = reading.note === null ? null : reading.note.replace(/\bevent=…/, "--event <label>");
+    out.classes = { event: reading.event, other: reading.other, eventRows: reading.eventCount, otherRows: reading.otherCount, note };
   }
 }
 
