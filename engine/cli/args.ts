@@ -91,7 +91,8 @@ Outcome
 Model
   --mix 0,0.5,1             mixes to try: 0 ridge, 1 lasso (default 0,0.25,0.5,0.75,1)
   --strength <value>        fit exactly this strength at a single --mix, no cross-validation;
-                            0 gives the exact least-squares fit
+                            0 gives the exact least-squares fit (for a yes/no target, the
+                            unpenalized logistic fit with SE, z and p-values)
   --grid-density <n>        strengths per tenfold drop in strength (default 20: 101 strengths
                             down to a low end of 1e-5)
   --count <n>               number of strengths in the grid, instead of --grid-density
