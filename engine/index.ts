@@ -29,3 +29,6 @@ export type { ColumnMatrix } from "./matrix";
 // Errors
 export { InputError, CancelledError } from "./errors";
 export type { FitWarning, InputErrorCode, WarningCode } from "./errors";
+// Two-class baseline
+export { logisticBaseline } from "./logisticBaseline";
+export type { LogisticBaselineResult, LogisticBaselineOptions, Separation } from "./logisticBaseline";
