@@ -13,8 +13,22 @@
  * | SHRINK.APPLY(coefficient_table, new_rows)              | one prediction per new row, from a table, without refitting     |
  * | SHRINK.PATH(target, predictors, [mix], [settings])     | strength | terms kept | intercept | terms…, one per strength  |
  * | SHRINK.CVCURVE(target, predictors, [mixes], [settings])| mix | strength | CV MSE | ± SE | terms kept                    |
- * | SHRINK.SCORE(actual, predicted)                        | label | value: MAE, RMSE, R², mean error, pairs used/skipped   |
- * | SHRINK.BASELINE(target, predictors)                    | term | coefficient | standard error, residual SD, R²            |
+ * | SHRINK.SCORE(actual, predicted, [settings])            | label | value: MAE, RMSE, R², mean error, pairs used/skipped   |
+ * | SHRINK.BASELINE(target, predictors, [settings])        | term | coefficient | standard error, residual SD, R²            |
+ *
+ * A yes/no target (two values: TRUE/FALSE, 0/1 or two labels; setting `outcome`, rules in
+ * engine/outcome.ts) is fitted by penalized logistic regression, and the same functions say so:
+ *
+ * | function | yes/no target                                                                                   |
+ * |----------|-------------------------------------------------------------------------------------------------|
+ * | COEFS    | term | coefficient (log-odds of 'fail') | odds ratio (e^coefficient; blank for the intercept)    |
+ * | CHOICE   | outcome, event ('fail' (62 of 300 rows used; …)), cutoff first, then the rows above; CV deviance… |
+ * | PREDICT  | probability of 'fail' per row; `predict=class`: the class at the cutoff, header `predicted class (cutoff 0.5)` |
+ * | APPLY    | a coefficient header saying log-odds: probability of the event, header `probability of 'fail'` |
+ * | PATH     | the intercept's header reads `intercept (log-odds of 'fail')`                                   |
+ * | CVCURVE  | CV deviance, CV misclassified share or CV AUC (higher is better), by `error`                    |
+ * | SCORE    | event, log loss, Brier score, AUC, cutoff, accuracy, sensitivity, specificity, events caught, events missed, false alarms, correct all-clear, pairs used/skipped, notes |
+ * | BASELINE | term | coefficient (log-odds of 'fail') | standard error | z | p-value, then deviances (a separation row on top when no estimate exists) |
  *
  * COEFS, CHOICE, PREDICT, PATH (with its mix omitted) and CVCURVE build the same FitRequest for
  * the same ranges, mixes and settings, so a caching runner fits once for all of them.
@@ -176,9 +190,10 @@ function checkOutcomeSettings(dataset: Dataset, settings: Settings): void {
     settings.predictOutput !== null ? `predict=${settings.predictOutput}` : null,
   ].filter((g): g is string => g !== null);
   if (given.length === 0) return;
-  const why = settings.outcome === "number" ? "settings say outcome=number" : `it holds numbers, not two classes (TRUE/FALSE, 0/1 or two labels)`;
+  const why =
+    settings.outcome === "number" ? "settings say outcome=number" : "only TRUE/FALSE, 0/1 or two labels are read as yes/no, or any two values with outcome=two-class";
   throw new SettingError(
-    `${given.join(" and ")} ${given.length === 1 ? "applies" : "apply"} to a yes/no target, but the target '${dataset.targetName}' is read as a number (${why}): remove ${given.length === 1 ? "it" : "them"}, or give a target with two classes`,
+    `${given.join(" and ")} ${given.length === 1 ? "applies" : "apply"} to a yes/no target, but the target '${dataset.targetName}' is read as numbers (${why}): remove ${given.length === 1 ? "it" : "them"}, or give a target with two classes`,
   );
 }
 
@@ -383,8 +398,9 @@ function flatten(grid: unknown[][], label: string): Vector {
 /**
  * SHRINK.SCORE: accuracy of predictions. Pairs with a blank or error cell are skipped (and
  * counted); a first cell of text (not a number stored as text) is a header and is dropped, on
- * either side — on the actual side unless the same text appears again below it (then it is a
- * class label, not a header); the values below the headers must pair up one to one.
+ * either side — on the actual side unless it is a class label: the same text appears again
+ * below it, or other labels follow it and taking it for a header would leave one prediction
+ * unpaired; the values below the headers must pair up one to one.
  *
  * Number scoring returns [["label", "value"], ["MAE", …], ["RMSE", …], ["R²", …],
  * ["mean error (predicted − actual)", …], ["pairs used", n], ["pairs skipped", m]].
@@ -427,8 +443,12 @@ export function score(actual: unknown, predicted: unknown, settingsRaw?: unknown
       }
       return c.value;
     };
-    const aHeader = headerOf(av, true);
+    let aHeader = headerOf(av, true);
     const pHeader = headerOf(pv, false);
+    // A first label that only a header would leave unpaired is a value too, when labels follow it.
+    if (aHeader !== null && settings.outcome !== "number" && av.cells.length === pv.cells.length - (pHeader === null ? 0 : 1)) {
+      if (av.cells.slice(1).some((c) => c.kind === "text" && numberFromText(c.value) === null)) aHeader = null;
+    }
     const aStart = aHeader === null ? 0 : 1;
     const pStart = pHeader === null ? 0 : 1;
     const n = av.cells.length - aStart;
@@ -463,6 +483,8 @@ export function score(actual: unknown, predicted: unknown, settingsRaw?: unknown
       throw new DataError(`${av.where(firstLabel)} has text '${x.value}': SHRINK.SCORE needs numbers (clear the cell to skip it)`);
     }
     let skipped = 0;
+    /** Where each pair used sits in predicted, for messages. */
+    const usedAt: number[] = [];
     for (let k = 0; k < n; k++) {
       const x = av.cells[aStart + k];
       const y = pv.cells[pStart + k];
@@ -476,11 +498,12 @@ export function score(actual: unknown, predicted: unknown, settingsRaw?: unknown
       }
       actualValues.push((x as { value: OutcomeValue }).value);
       predictedValues.push(numericValue(y));
+      usedAt.push(pStart + k);
     }
     if (actualValues.length === 0) {
       throw new DataError(`nothing to score: every pair has a blank or error cell (${skipped} pairs)`);
     }
-    const reading = scoreReading(actualValues, predictedValues, labels, settings);
+    const reading = scoreReading(actualValues, predictedValues, labels, settings, (i) => pv.where(usedAt[i]));
     if (reading !== null) return twoClassScoreSpill(scoreTwoClass(reading.values, predictedValues, { cutoff: settings.cutoff ?? DEFAULT_CUTOFF }), reading, skipped);
     if (settings.event !== null || settings.cutoff !== null) {
       throw new SettingError(
@@ -501,6 +524,7 @@ function scoreReading(
   predicted: number[],
   labels: boolean,
   settings: Settings,
+  where: (pair: number) => string,
 ): (OutcomeReading & { kind: "two-class" }) | null {
   const setting = settings.outcome ?? "auto";
   if (setting === "number") return null;
@@ -518,7 +542,7 @@ function scoreReading(
   if (reading.kind !== "two-class") return null;
   if (outside >= 0) {
     throw new DataError(
-      `predicted value ${predicted[outside]} (pair ${outside + 1} used) lies outside 0 to 1, but actual holds two classes ('${reading.event}', '${reading.other}'): give the probability of '${reading.event}' for each row${labels ? "" : ", or add outcome=number to settings to score the values as numbers"}`,
+      `${where(outside)} is ${predicted[outside]}, outside 0 to 1, but actual holds two classes ('${reading.event}', '${reading.other}'): give the probability of '${reading.event}' for each row${labels ? "" : ", or add outcome=number to settings to score the values as numbers"}`,
     );
   }
   return reading;
@@ -536,6 +560,7 @@ export function baseline(runner: FitRunner, target: unknown, predictors: unknown
   return guard(async () => {
     const settings = parseSettings(settingsRaw ?? null, BASELINE_SETTINGS);
     const dataset = buildDataset(target, predictors, settings);
+    checkOutcomeSettings(dataset, settings);
     const options: PlainFitOptions = { names: dataset.names.slice(), mixes: [1], strength: 0 };
     if (dataset.outcome === "two-class") options.outcome = "two-class";
     const request: FitRequest = { predictors: dataset.predictors, target: dataset.target, options };

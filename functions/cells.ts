@@ -16,7 +16,7 @@
  * | a finite number (dates are serial numbers)   | number  | used             | used              | error (mixed)       | label / weight        | used                                  | number                | used         |
  * | `TRUE` / `FALSE`                              | boolean | 1 / 0            | 1 / 0             | error (mixed)       | label / weight 1 / 0  | 1 / 0                                 | yes / no              | 1 / 0        |
  * | text that is a number (see below)            | text    | the number†      | the number†       | –  (column is numbers) | label / weight†    | the number / level                    | read as the value     | error*       |
- * | other text (not an error text)               | text    | error            | error (mixed)     | a level: indicators | label / error         | level (unseen: error) / error         | read as the value     | error*       |
+ * | other text (not an error text)               | text    | a class label‡   | error (mixed)     | a level: indicators | label / error         | level (unseen: error) / error         | read as the value     | error*       |
  * | an error value in any shape (see below)      | error   | row skipped      | row skipped       | row skipped         | row skipped           | `#N/A` cell for that row              | error                 | pair skipped |
  * | `NaN`, `±Infinity`, any other object         | error   | row skipped      | row skipped       | row skipped         | row skipped           | `#N/A` cell for that row              | error                 | pair skipped |
  *
@@ -39,8 +39,14 @@
  * - Text columns become indicator (0/1) columns, one per level except the reference level,
  *   the most frequent level (ties: the first to appear). Levels match ignoring case and
  *   surrounding spaces.
+ * - ‡The target: two distinct labels (or TRUE/FALSE, or 0/1) make a yes/no outcome (setting
+ *   `outcome`, default auto; engine/outcome.ts); a stray text among numbers is an error naming the
+ *   row ("target row 10 has text 'lots': the target must be numbers …"), a stray number among
+ *   labels too; three or more labels are an error listing them. TRUE/FALSE among numbers are 1/0.
  * - *SCORE: a first cell of text that isn't a number, on either side, is a header and is
- *   dropped; any other text is an error (numbers stored as text get the hint, not a reading).
+ *   dropped (on the actual side, unless it appears again below: then it is a class label);
+ *   actual values may be two class labels (yes/no scoring); any other text is an error (numbers
+ *   stored as text get the hint, not a reading).
  * - Blanks arriving as 0: the setting `zero is missing = Moisture, Density` (or `= all`)
  *   treats the zeros of those columns (the target may be named too) as blank cells.
  *

@@ -22,7 +22,10 @@
  *    header: its text names the target; beside a header of numbers a number may name it too), as
  *    long as the data rows only, or — when predictors have no header — one longer with a text
  *    header of its own. One row shorter than predictors without a header is an error suggesting
- *    header=yes.
+ *    header=yes. Its values are numbers, or a yes/no outcome (two values: TRUE/FALSE, 0/1 or two
+ *    labels; setting `outcome`, rules in engine/outcome.ts, decided over every data row): then the
+ *    target sent to the engine is 1 for the event (setting `event`, or the default: TRUE, 1, or
+ *    the rarer label, a tie noted) and 0 for the other class, over the rows used.
  * 3. Cells are classified (cells.ts; texts in Unicode NFC); zeros of columns named by
  *    `zero is missing` become blank.
  * 4. Each predictors column is read as numbers when at least half of its values look like numbers

@@ -8,6 +8,10 @@
  * | bad worksheet data (`DataError`: shapes, text in a number column, …)   | #VALUE!    | what is wrong and what to fix            |
  * | bad settings or mixes (`SettingError`)                                 | #VALUE!    | the setting, the allowed values/range    |
  * | the engine refused the input (`InputError`, any code)                  | #VALUE!    | the engine's message, unchanged          |
+ * |   e.g. a yes/no target with a third class, an event not in the data, one class only (engine/outcome.ts), a measure for the other kind of target (checkMeasure) | | |
+ * | a yes/no setting (event, cutoff, predict) on a number target (`SettingError`) | #VALUE! | the settings named, and how targets are read |
+ * | SHRINK.SCORE: labels beside a prediction outside 0 to 1 (`DataError`)    | #VALUE!    | the cell, and that probabilities are needed |
+ * | SHRINK.APPLY on a BASELINE table that reports separation (`DataError`) | #VALUE!    | why, and to use the COEFS table          |
  * | something asked for is not available (`DataError` made with `"n/a"`):  | #N/A       | why, and what to do                      |
  * |   e.g. SHRINK.CVCURVE after a fixed strength (no cross-validation ran) |            |                                          |
  * | one row of new rows has a blank or error cell (a single cell of PREDICT/APPLY) | #N/A | which row and column                 |

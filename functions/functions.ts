@@ -25,14 +25,14 @@ import { browserWorkerFactory, workersAvailable, WorkerRunner } from "./workerRu
 
 /**
  * Fits a penalized regression (ridge, lasso or a mix of the two), picks the penalty strength
- * by cross-validation, and returns each term with its coefficient, the intercept first.
+ * by cross-validation, and returns each term with its coefficient, the intercept first. For a yes/no target the coefficients are log-odds of the event, with a column of odds ratios.
  * @customfunction COEFS
- * @param target The column to predict, one value per row. A header cell on top is fine; rows with a blank or error are skipped.
+ * @param target The column to predict, one value per row: numbers, or a yes/no outcome (two values: TRUE/FALSE, 0/1 or two labels such as pass/fail). A header cell on top is fine; rows with a blank or error are skipped.
  * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one. Numbers stored as text count as numbers; other text columns become one 0/1 column per level.
  * @param [mixes] The mixes to try: 0 is ridge, 1 is lasso, between is elastic net. A number, a range of numbers or text like "0, 0.5, 1". Leave out to try 0, 0.25, 0.5, 0.75 and 1.
- * @param [settings] Optional settings as text, like "folds=5; seed=7; rule=one-se", or a two-column range of setting names and values.
+ * @param [settings] Optional settings as text, like "folds=5; seed=7; rule=one-se", or a two-column range of setting names and values. Yes/no targets: outcome, event (e.g. event=fail), error=deviance|misclassified|auc, cutoff.
  * @param invocation Supplied by Excel.
- * @returns A table of term and coefficient.
+ * @returns A table of term and coefficient (yes/no target: term, coefficient in log-odds of the event, odds ratio).
  */
 export async function coefs(
   target: any[][],
@@ -47,9 +47,9 @@ export async function coefs(
 /**
  * Shows how the model was chosen: the strength and mix picked, their cross-validated error and
  * its standard error, the rule (lowest error or one-SE rule), the terms kept, the folds, and the
- * rows used and skipped.
+ * rows used and skipped. For a yes/no target it first names the outcome, the event and the cutoff.
  * @customfunction CHOICE
- * @param target The column to predict, one value per row. A header cell on top is fine; rows with a blank or error are skipped.
+ * @param target The column to predict, one value per row: numbers, or a yes/no outcome (two values: TRUE/FALSE, 0/1 or two labels such as pass/fail). A header cell on top is fine; rows with a blank or error are skipped.
  * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one.
  * @param [mixes] The mixes to try: 0 is ridge, 1 is lasso, between is elastic net. A number, a range of numbers or text like "0, 0.5, 1". Leave out for 0, 0.25, 0.5, 0.75 and 1.
  * @param [settings] Optional settings as text, like "folds=5; rule=one-se", or a two-column range of setting names and values.
@@ -67,15 +67,15 @@ export async function choice(
 }
 
 /**
- * Fits the same model as SHRINK.COEFS and predicts the target for each row of new_rows.
+ * Fits the same model as SHRINK.COEFS and predicts the target for each row of new_rows. For a yes/no target it gives the probability of the event, or with predict=class the predicted class.
  * @customfunction PREDICT
- * @param target The column to predict, one value per row. A header cell on top is fine; rows with a blank or error are skipped.
+ * @param target The column to predict, one value per row: numbers, or a yes/no outcome (two values: TRUE/FALSE, 0/1 or two labels such as pass/fail). A header cell on top is fine; rows with a blank or error are skipped.
  * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one.
  * @param new_rows The rows to predict: the same columns as predictors, in the same order, or with a header row naming them.
  * @param [mixes] The mixes to try: 0 is ridge, 1 is lasso, between is elastic net. Leave out for 0, 0.25, 0.5, 0.75 and 1.
- * @param [settings] Optional settings as text, like "folds=5; seed=7", or a two-column range of setting names and values.
+ * @param [settings] Optional settings as text, like "folds=5; seed=7", or a two-column range of setting names and values. Yes/no targets: predict=probability (default) or predict=class, cutoff=0.5.
  * @param invocation Supplied by Excel.
- * @returns One prediction per row of new_rows.
+ * @returns One prediction per row of new_rows (yes/no target: the event's probability, or the predicted class).
  */
 export async function predict(
   target: any[][],
@@ -90,11 +90,11 @@ export async function predict(
 
 /**
  * Predicts from a coefficient table (the output of SHRINK.COEFS or SHRINK.BASELINE, or typed
- * in) without fitting again.
+ * in) without fitting again. A coefficient header containing "log-odds" (like coefficient (log-odds of 'fail')) marks a yes/no model: the results are then probabilities of the event.
  * @customfunction APPLY
- * @param coefficient_table Two columns, term and coefficient, with an intercept row (write intercept and 0 for a model without one).
+ * @param coefficient_table Two columns, term and coefficient, with an intercept row (write intercept and 0 for a model without one). A header whose coefficient cell says log-odds gives probabilities; the event in quotes is optional; further columns (odds ratio) are not read.
  * @param new_rows The rows to predict, with a header row naming the terms' columns (or the columns in the table's order).
- * @returns One prediction per row of new_rows.
+ * @returns One prediction per row of new_rows (a probability for a log-odds table).
  */
 export async function apply(coefficient_table: any[][], new_rows: any[][]): Promise<any[][]> {
   return api.apply(coefficient_table, new_rows);
@@ -102,9 +102,9 @@ export async function apply(coefficient_table: any[][], new_rows: any[][]): Prom
 
 /**
  * Lists the coefficients at every penalty strength for one mix, from the strongest penalty
- * (everything zero) down to the weakest: one row per strength.
+ * (everything zero) down to the weakest: one row per strength. For a yes/no target the coefficients are log-odds of the event, as the intercept's header says.
  * @customfunction PATH
- * @param target The column to predict, one value per row. A header cell on top is fine; rows with a blank or error are skipped.
+ * @param target The column to predict, one value per row: numbers, or a yes/no outcome (two values: TRUE/FALSE, 0/1 or two labels such as pass/fail). A header cell on top is fine; rows with a blank or error are skipped.
  * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one.
  * @param [mix] One mix: 0 is ridge, 1 is lasso, between is elastic net. Leave out for the mix that cross-validation picks.
  * @param [settings] Optional settings as text, like "folds=5; seed=7", or a two-column range of setting names and values.
@@ -123,9 +123,9 @@ export async function path(
 
 /**
  * Lists the cross-validated error, its standard error and the number of terms kept for every
- * mix and strength tried: the data behind the choice.
+ * mix and strength tried: the data behind the choice. Yes/no targets: CV deviance, misclassified share or AUC (higher is better), by the error setting.
  * @customfunction CVCURVE
- * @param target The column to predict, one value per row. A header cell on top is fine; rows with a blank or error are skipped.
+ * @param target The column to predict, one value per row: numbers, or a yes/no outcome (two values: TRUE/FALSE, 0/1 or two labels such as pass/fail). A header cell on top is fine; rows with a blank or error are skipped.
  * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one.
  * @param [mixes] The mixes to try: 0 is ridge, 1 is lasso, between is elastic net. Leave out for 0, 0.25, 0.5, 0.75 and 1.
  * @param [settings] Optional settings as text, like "folds=5; seed=7", or a two-column range of setting names and values.
@@ -144,31 +144,34 @@ export async function cvcurve(
 
 /**
  * Measures how close predictions are to actual values: mean absolute error, root mean squared
- * error, R², mean error, and the pairs used and skipped.
+ * error, R², mean error, and the pairs used and skipped. When the actual values are yes/no (two classes) and the predictions are probabilities from 0 to 1: log loss, Brier score, AUC, and at the cutoff accuracy, sensitivity, specificity and the counts of events caught, events missed, false alarms and correct all-clear.
  * @customfunction SCORE
- * @param actual The actual values, one column. Pairs with a blank or error cell are skipped.
- * @param predicted The predicted values, one column the same length as actual (a text header on top of either is dropped).
+ * @param actual The actual values, one column: numbers, or two classes (TRUE/FALSE, 0/1 or two labels). Pairs with a blank or error cell are skipped.
+ * @param predicted The predicted values, one column the same length as actual (a text header on top of either is dropped); for yes/no actual values, the probabilities of the event.
+ * @param [settings] Optional: outcome=number to score 0/1 values as numbers, event=fail to name the event, cutoff=0.5 for the table of caught and missed events.
  * @returns A table of label and value.
  */
-export async function score(actual: any[][], predicted: any[][]): Promise<any[][]> {
-  return api.score(actual, predicted);
+export async function score(actual: any[][], predicted: any[][], settings: any[][]): Promise<any[][]> {
+  return api.score(actual, predicted, settings);
 }
 
 /**
  * Fits ordinary least squares (no penalty) with standard errors, to compare with the penalized
- * model and see how much it shrinks.
+ * model and see how much it shrinks. For a yes/no target: the unpenalized logistic fit with standard errors, z and p-values, and the deviances (or a note when the classes are separated and no estimate exists).
  * @customfunction BASELINE
- * @param target The column to predict, one value per row. A header cell on top is fine; rows with a blank or error are skipped.
+ * @param target The column to predict, one value per row: numbers, or a yes/no outcome (two values: TRUE/FALSE, 0/1 or two labels such as pass/fail). A header cell on top is fine; rows with a blank or error are skipped.
  * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one.
+ * @param [settings] Optional: outcome, event (e.g. event=fail), header, zero is missing, as text like "event=fail" or a two-column range.
  * @param invocation Supplied by Excel.
- * @returns A table: term, coefficient, standard error, then residual SD, residual degrees of freedom, R² and rows used.
+ * @returns A table: term, coefficient, standard error, then residual SD, residual degrees of freedom, R² and rows used (yes/no target: z and p-value columns, then deviances).
  */
 export async function baseline(
   target: any[][],
   predictors: any[][],
+  settings: any[][],
   invocation: CustomFunctions.CancelableInvocation,
 ): Promise<any[][]> {
-  return api.baseline(sharedRunner(), target, predictors, cancelOn(invocation));
+  return api.baseline(sharedRunner(), target, predictors, settings, cancelOn(invocation));
 }
 
 // ---------------------------------------------------------------------------------------------

@@ -15,12 +15,12 @@ export interface FunctionHelp {
 }
 
 export const FUNCTION_HELP: readonly FunctionHelp[] = [
-  { id: "COEFS", signature: "target, predictors, [mixes], [settings]", summary: "the chosen model's coefficients, intercept first, one row per term." },
-  { id: "CHOICE", signature: "target, predictors, [mixes], [settings]", summary: "how the model was chosen: strength, mix, cross-validated error ± SE, rule (lowest error or one-SE rule), terms kept, rows used and skipped." },
-  { id: "PREDICT", signature: "target, predictors, new_rows, [mixes], [settings]", summary: "fits the same model and predicts one value per row of new_rows." },
-  { id: "APPLY", signature: "coefficient_table, new_rows", summary: "predictions from a coefficient table (e.g. a COEFS result), without fitting again." },
+  { id: "COEFS", signature: "target, predictors, [mixes], [settings]", summary: "the chosen model's coefficients, intercept first, one row per term (a yes/no target: log-odds of the event, with odds ratios)." },
+  { id: "CHOICE", signature: "target, predictors, [mixes], [settings]", summary: "how the model was chosen: strength, mix, cross-validated error ± SE, rule (lowest error or one-SE rule), terms kept, rows used and skipped (a yes/no target: the event and cutoff first)." },
+  { id: "PREDICT", signature: "target, predictors, new_rows, [mixes], [settings]", summary: "fits the same model and predicts one value per row of new_rows (a yes/no target: the event's probability, or the class with predict=class)." },
+  { id: "APPLY", signature: "coefficient_table, new_rows", summary: "predictions from a coefficient table (e.g. a COEFS result), without fitting again; a header saying log-odds gives probabilities." },
   { id: "PATH", signature: "target, predictors, [mix], [settings]", summary: "every coefficient at every penalty strength of one mix, strongest first." },
   { id: "CVCURVE", signature: "target, predictors, [mixes], [settings]", summary: "cross-validated error, its SE and the terms kept for every mix and strength tried." },
-  { id: "SCORE", signature: "actual, predicted", summary: "accuracy of predictions: MAE, RMSE, R², mean error, pairs used and skipped." },
-  { id: "BASELINE", signature: "target, predictors", summary: "plain least squares (no penalty) with standard errors, to compare with." },
+  { id: "SCORE", signature: "actual, predicted, [settings]", summary: "accuracy of predictions: MAE, RMSE, R², mean error, pairs used and skipped; for yes/no actual values and probabilities, log loss, Brier score, AUC and the events caught and missed at the cutoff." },
+  { id: "BASELINE", signature: "target, predictors, [settings]", summary: "the fit without penalty (least squares, or logistic for a yes/no target) with standard errors, to compare with." },
 ];

@@ -4,6 +4,7 @@
  * tables and caught cell errors.
  */
 import type { FitResult } from "../../engine/fit";
+import { mulberry32 } from "../../engine/random";
 import { InProcessRunner } from "../../functions/inProcessRunner";
 import type { CancelToken, FitProgress, FitRequest, FitRunner } from "../../functions/runner";
 import type { Spill } from "../../functions/spill";
@@ -91,4 +92,29 @@ export function expectRectangular(spill: Spill): void {
     expect(row).toHaveLength(width);
     for (const cell of row) expect(cell === null || cell === undefined).toBe(false);
   }
+}
+
+/**
+ * A yes/no worksheet of `rows` data rows (header on top): Size, Region, Temp as in `sheet`, and a
+ * target whose event ('fail', or TRUE, or 1 by `kind`) is drawn with probability
+ * 1 / (1 + e^−η), η = −1 + 0.9·(Size − 5) + (North 0.8, West −0.6) + 0.05·Temp, uniforms from the
+ * engine's own seeded generator (so the sheet is the same on every run). Invented data.
+ */
+export function yesNoSheet(
+  rows = 80,
+  kind: "labels" | "booleans" | "numbers" = "labels",
+  seed = 7,
+): { target: unknown[][]; predictors: unknown[][]; events: number } {
+  const next = mulberry32(seed);
+  const { predictors } = sheet(rows, true);
+  const target: unknown[][] = [["Outcome"]];
+  let events = 0;
+  for (let i = 1; i <= rows; i++) {
+    const [size, region, temp] = predictors[i] as [number, string, number];
+    const eta = -1 + 0.9 * (size - 5) + (region === "North" ? 0.8 : region === "West" ? -0.6 : 0) + 0.05 * temp;
+    const event = next() < 1 / (1 + Math.exp(-eta));
+    if (event) events++;
+    target.push([kind === "labels" ? (event ? "fail" : "pass") : kind === "booleans" ? event : event ? 1 : 0]);
+  }
+  return { target, predictors, events };
 }
