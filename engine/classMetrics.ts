@@ -52,7 +52,7 @@ export interface TwoClassScore {
  * ones (the two-class solver evaluates this once per row at every step).
  */
 export function softplus(eta: number): number {
-  return softplusFrom(eta, tableExp(-Math.abs(eta)));
+  return softplusFrom(eta, tableExp(eta > 0 ? -eta : eta));
 }
 
 /**
@@ -62,7 +62,7 @@ export function softplus(eta: number): number {
 export function softplusFrom(eta: number, e: number): number {
   if (eta > 36) return eta + e;
   if (eta < -36) return e;
-  return Math.max(eta, 0) + tableLog1p(e);
+  return (eta > 0 ? eta : 0) + tableLog1p(e);
 }
 
 function usable(actual: ArrayLike<number>, other: ArrayLike<number>, weights: ArrayLike<number> | null | undefined, i: number): boolean {

@@ -32,7 +32,7 @@ import { ColumnMatrix, selectRows } from "./matrix";
 import { LinearModel, linearModel, logistic, predict } from "./model";
 import { score, Score } from "./metrics";
 import { areaUnderCurve, devianceFromScores, misclassifiedShare, scoreTwoClass, TwoClassScore } from "./classMetrics";
-import { LogisticDescent, LogisticReport, LogisticRun, LogisticSettings, logisticTopStrength, runLogisticPath, SATURATION } from "./logistic";
+import { LogisticDescent, LogisticReport, LogisticRun, LogisticSettings, logisticTopStrength, runLogisticPath } from "./logistic";
 import type { OutcomeKind } from "./outcome";
 import {
   DEFAULT_GRID_DENSITY,
@@ -1457,15 +1457,22 @@ function startTwoClass(
   y: Float64Array,
   penalty: PenaltySpec,
   fullData: boolean,
+  warnings: FitWarning[],
 ): { solver: LogisticDescent; start: LogisticReport } {
   const solver = new LogisticDescent(problem, y, penalty, logisticSettings(data));
   const start = solver.fitUnpenalized();
+  const unpenalized: string[] = [];
+  for (let j = 0; j < problem.p; j++) if (!problem.std.frozen[j] && !(data.multipliers[j] > 0)) unpenalized.push(`'${data.names[j]}'`);
+  if (fullData && !start.converged && !warnings.some((w) => w.code === "separated")) {
+    warnings.push({
+      code: "separated",
+      message: `the fit of the intercept and the unpenalized predictors (${unpenalized.join(", ")}) did not settle: they nearly separate the two classes, so their coefficients keep growing; the path starts from where that fit stopped (give them a penalty multiplier above 0 to keep them finite)`,
+    });
+  }
   if (fullData && solver.saturated()) {
-    const unpenalized: string[] = [];
-    for (let j = 0; j < problem.p; j++) if (!problem.std.frozen[j] && !(data.multipliers[j] > 0)) unpenalized.push(`'${data.names[j]}'`);
     throw new InputError(
       "constant-target",
-      `the unpenalized predictors (${unpenalized.join(", ")}) already separate the two classes: every probability is within ${SATURATION} of its class before any penalized term enters, so there is nothing left for the penalty to choose (and those coefficients have no finite value); give them a penalty multiplier above 0`,
+      `the intercept and the unpenalized predictors (${unpenalized.join(", ")}) already separate the two classes: they explain all but 1e-5 of the deviance before any penalized term enters, so there is nothing left for the penalty to choose (and their coefficients have no finite value); give them a penalty multiplier above 0`,
     );
   }
   return { solver, start };
@@ -1614,7 +1621,7 @@ function* twoClassSteps(
   let halvings = 0;
   for (const mix of data.mixes) {
     const penalty = penaltyFor(full, data, mix);
-    const { solver, start } = startTwoClass(data, full, data.y, penalty, true);
+    const { solver, start } = startTwoClass(data, full, data.y, penalty, true, warnings);
     const top = twoClassTop(data, full, penalty, solver);
     const grid = strengthGrid(top, data.strengthCount, data.lowEndRatio);
     const run = runLogisticPath(solver, start, grid, { stopWhenSaturated: true, stopWhenFlat: data.stopEarly, signal });
@@ -1629,7 +1636,7 @@ function* twoClassSteps(
       throwIfCancelled(signal);
       const problem = problems.folds[f];
       const foldPenalty = penaltyFor(problem, data, mix);
-      const fold = startTwoClass(data, problem, trainingOutcomes[f], foldPenalty, false);
+      const fold = startTwoClass(data, problem, trainingOutcomes[f], foldPenalty, false, warnings);
       // Every fold solves exactly the strengths the full-data path computed.
       const foldRun = runLogisticPath(fold.solver, fold.start, run.strengths, { stopWhenSaturated: false, stopWhenFlat: false, skipLoss: true, signal });
       sweeps += foldRun.sweeps;
@@ -1723,7 +1730,7 @@ function fixedTwoClass(data: Prepared, full: TrainingProblem, strength: number, 
   }
   const mix = data.mixes[0];
   const penalty = penaltyFor(full, data, mix);
-  const { solver, start } = startTwoClass(data, full, data.y, penalty, true);
+  const { solver, start } = startTwoClass(data, full, data.y, penalty, true, warnings);
   const top = logisticTopStrength(solver);
   const grid = top > 0 ? strengthGrid(top, data.strengthCount, data.lowEndRatio).filter((s) => s > strength) : [];
   grid.push(strength);
@@ -1734,7 +1741,7 @@ function fixedTwoClass(data: Prepared, full: TrainingProblem, strength: number, 
   if (solver.saturated()) {
     warnings.push({
       code: "separated",
-      message: `the training rows are separated: at strength ${formatNumber(strength)} every probability is within ${SATURATION} of its class, and at weaker strengths the coefficients would only grow without bound`,
+      message: `the training rows are separated: at strength ${formatNumber(strength)} the model explains all but 1e-5 of the deviance, reproducing the two classes almost exactly, and at weaker strengths its coefficients would only grow without bound`,
     });
   }
   const result = assembleTwoClass(data, full, run, top, run.strengths.length - 1, mix, constantColumns, warnings, run.stepHalvings);
@@ -1789,7 +1796,7 @@ function assembleTwoClass(
       code: "early-stop",
       message:
         run.earlyStop === "saturated"
-          ? `the training rows are separated: from strength ${formatNumber(run.strengths[last])} down every probability is within ${SATURATION} of its class, so the path stops there (${where}); at weaker strengths the coefficients would only grow without bound`
+          ? `the training rows are separated: from strength ${formatNumber(run.strengths[last])} down the model explains all but 1e-5 of the deviance, reproducing the two classes almost exactly, so the path stops there (${where}); at weaker strengths its coefficients would only grow without bound`
           : `the path stopped at strength ${formatNumber(run.strengths[last])} (${where}), as 'stop early' allows: over the last tenfold drop in strength the deviance improved by less than 1%`,
     });
   }

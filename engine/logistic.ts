@@ -17,7 +17,7 @@
  * - Outer loop (iteratively reweighted least squares, i.e. Newton's method): at the current fit,
  *   p_i = 1/(1 + e^{−η_i}), the loss is replaced by its quadratic approximation
  *     (1/2) Σ v_i (z_i − b0 − x̃_i·b̃)²,  v_i = ω_i p_i(1 − p_i),  z_i = η_i + (y_i − p_i)/(p_i(1 − p_i)).
- *   p(1 − p) is kept at or above WEIGHT_FLOOR. That changes only the curvature of the
+ *   p(1 − p) (computed from e^−|η| in both tails) is kept at or above WEIGHT_FLOOR. That changes only the curvature of the
  *   approximation: its gradient at the current fit, Σ v_i x̃_ij (z_i − η_i) = Σ ω_i x̃_ij (y_i − p_i),
  *   is the true one whatever the floor, so the fixed point is the true minimizer.
  * - Inner loop: cyclic coordinate descent on that quadratic plus the penalty (the update of
@@ -50,15 +50,20 @@
  *
  * Separation (a rule of our own): when the classes can be separated, the fitted probabilities
  * run to 0 and 1 as λ falls and the coefficients grow without bound (like log(1/λ)). `saturated`
- * says when every row with positive weight has a probability within SATURATION of its class;
- * the full-data path ends there (fit.ts, early stop "saturated"), as the number outcome's path ends
- * at an exact fit: weaker strengths would only stretch the same separating direction.
+ * says when the fit explains all but SATURATION (1e-5) of the null deviance, i.e. the deviance
+ * explained exceeds 1 − 1e-5: the training classes are reproduced almost exactly. The full-data
+ * path ends there (fit.ts, early stop "saturated"), as the number outcome's path ends at an exact
+ * fit: weaker strengths would only stretch the same separating direction. (Of the two rules one
+ * could use, this one rather than "every probability within 1e-5 of its class": on separated data
+ * the lasso's KKT conditions give the rows nearest the boundary e^−|η| ≈ n·λ, so probabilities
+ * come within 1e-5 only below λ ≈ 1e-5/n, far under a default grid, while the deviance left is
+ * about λ itself and falls below 1e-5 of the null deviance near the default grid's low end.)
  *
  * All exponentials and logarithms are the portable ones (portableMath.ts, via logistic and
  * softplus), so fits are bit-identical in Node and in the browser.
  */
 import { softplusFrom } from "./classMetrics";
-import { coordinateViolation, CoordinateDescent, DescentSettings, PenaltySpec, softThreshold } from "./descent";
+import { coordinateViolation, CoordinateDescent, PenaltySpec, softThreshold } from "./descent";
 import { CancelSignal, throwIfCancelled } from "./errors";
 import { logisticFrom } from "./model";
 import type { EarlyStop, PathRun } from "./path";
@@ -67,14 +72,21 @@ import { portableLog, tableExp } from "./portableMath";
 import { dotRange, TrainingProblem } from "./problem";
 import { penalizedSpectrum, strengthForDegreesOfFreedom } from "./ridgeSpectral";
 
-/** Smallest p(1 − p) used as a working weight (the true one falls to 0 as p runs to 0 or 1). */
-export const WEIGHT_FLOOR = 1e-5;
+/**
+ * Smallest p(1 − p) used as a working weight (the true one falls to 0 as p runs to 0 or 1): 2^-53,
+ * about where a probability computed as 1/(1 + e^−η) rounds to exactly 0 or 1 (|η| near 37). It
+ * only keeps Σ v and every d_j positive. A larger floor (1e-5 is often suggested) overstates the
+ * curvature of the rows already decided, and on separated classes, where those rows are most of
+ * the data, the steps shrink by that factor: measured, fits at strengths below about 1e-7 then hit
+ * the step cap instead of converging in a few steps.
+ */
+export const WEIGHT_FLOOR = 2 ** -53;
 /** A row is saturated when its probability is within this of its class (see the module comment). */
 export const SATURATION = 1e-5;
 /** Most outer (Newton) steps at one strength. Warm-started, a strength typically takes 2 to 5. */
 export const MAX_NEWTON_STEPS = 100;
-/** Most halvings of one outer step before it is abandoned (2^-30: the step has vanished). */
-export const MAX_HALVINGS = 30;
+/** Most halvings of one outer step before it is abandoned (2^-60: the step has vanished). */
+export const MAX_HALVINGS = 60;
 /** Rise of the objective accepted as rounding: its sum over the rows is good to about this relative to its value. */
 export const RISE_SLACK = 1e-12;
 /**
@@ -103,6 +115,26 @@ export interface LogisticSettings {
    */
   covariance?: boolean;
   signal?: CancelSignal;
+  /**
+   * Called after every accepted outer step with the objective before and after it (both computed
+   * exactly for the call: a test hook, it costs two passes with logarithms per step).
+   */
+  onStep?: (step: { lambda: number; before: number; after: number; halvings: number }) => void;
+}
+
+/** A quadratic model of the objective on some columns, and the gram-form solver on it (LogisticDescent.buildModel). */
+interface CurvatureModel {
+  /** The model's columns (global indices) and their number. */
+  columns: Int32Array;
+  count: number;
+  /** count × count Gram matrix with the intercept profiled out, and u_t = Σ v x̃_t. */
+  gram: Float64Array;
+  sums: Float64Array;
+  sumWorking: number;
+  inner: CoordinateDescent;
+  innerSettings: { tolerance: number; maxSweeps: number; signal?: CancelSignal };
+  /** The model's coefficients at the start of a step (buffer). */
+  start: Float64Array;
 }
 
 export interface LogisticReport {
@@ -138,6 +170,8 @@ export class LogisticDescent {
   /** Linear scores and probabilities of the rows at the current coefficients. */
   readonly eta: Float64Array;
   readonly prob: Float64Array;
+  /** 1 − p, computed as its own quotient (not by subtraction), so it keeps its digits as p nears 1. */
+  readonly complement: Float64Array;
   /** True gradient g_j = Σ ω x̃_j (y − p), exact for every free j after each solve. */
   readonly grad: Float64Array;
   /** Σ ω (y − p), the intercept's gradient. */
@@ -176,14 +210,14 @@ export class LogisticDescent {
   private solvedLambda = NaN;
   private readonly strong: Uint8Array;
   /** Covariance form (settings.covariance): the stored curvature and the gram-form solver on it. */
-  private hessian: Float64Array | null = null;
-  private columnSums: Float64Array | null = null;
-  private residualSpare: Float64Array | null = null;
-  private inner: CoordinateDescent | null = null;
-  private innerSettings: DescentSettings | null = null;
+  private model: CurvatureModel | null = null;
+  private allColumns: Int32Array | null = null;
+  private pairBuffer: Float64Array | null = null;
   private hessianStale = true;
   /** Covariance form: how many times the curvature was rebuilt. */
   hessianBuilds = 0;
+  /** Residual form: outer steps whose quadratic was finished in gram form on the active columns. */
+  modelSteps = 0;
   private readonly setBuffer: Int32Array;
   private readonly activeBuffer: Int32Array;
   private readonly setBuffer2: Int32Array;
@@ -204,6 +238,7 @@ export class LogisticDescent {
     this.coef = new Float64Array(p);
     this.eta = new Float64Array(n);
     this.prob = new Float64Array(n);
+    this.complement = new Float64Array(n);
     this.previousEta = new Float64Array(n);
     this.grad = new Float64Array(p);
     this.residual = new Float64Array(n);
@@ -234,13 +269,19 @@ export class LogisticDescent {
     this.refreshGradient(null, 0);
   }
 
-  /** The probabilities p = logistic(η) at the current scores (model.ts: the same values as logistic). Cost O(n). */
+  /**
+   * The probabilities p = logistic(η) at the current scores (model.ts: the same values as
+   * logistic) and their complements 1 − p = logistic(−η), each as a quotient of e^−|η|, so that
+   * y − p and p(1 − p) keep their digits in both tails. Cost O(n).
+   */
   private evaluate(): void {
-    const { eta, prob } = this;
+    const { eta, prob, complement } = this;
     for (let i = 0; i < this.n; i++) {
       if (i % ROWS_PER_CHECK === ROWS_PER_CHECK - 1) throwIfCancelled(this.settings.signal);
       const score = eta[i];
-      prob[i] = logisticFrom(score, tableExp(-Math.abs(score)));
+      const e = tableExp(score > 0 ? -score : score);
+      prob[i] = logisticFrom(score, e);
+      complement[i] = logisticFrom(-score, e);
     }
   }
 
@@ -256,7 +297,7 @@ export class LogisticDescent {
       if (!(omega[i] > 0)) continue;
       const score = eta[i];
       // y η − log(1 + e^η) is −log(1 + e^−η) for an event and −log(1 + e^η) otherwise.
-      sum += omega[i] * softplusFrom(y[i] === 1 ? -score : score, tableExp(-Math.abs(score)));
+      sum += omega[i] * softplusFrom(y[i] === 1 ? -score : score, tableExp(score > 0 ? -score : score));
     }
     return sum;
   }
@@ -342,11 +383,11 @@ export class LogisticDescent {
    * `set` is null) and of the intercept. Cost O(n · count).
    */
   private refreshGradient(set: Int32Array | null, count: number): void {
-    const { residual, omega, y, prob, xs, n } = this;
+    const { residual, omega, y, prob, complement, xs, n } = this;
     let sum = 0;
     let square = 0;
     for (let i = 0; i < n; i++) {
-      const difference = y[i] - prob[i];
+      const difference = y[i] === 1 ? complement[i] : -prob[i];
       residual[i] = omega[i] * difference;
       sum += residual[i];
       square += residual[i] * difference;
@@ -455,7 +496,7 @@ export class LogisticDescent {
       const old = coef[j];
       const m = multipliers[j];
       // A coefficient at 0 whose gradient the soft threshold absorbs stays at 0: no curvature needed.
-      if (old === 0 && Math.abs(g) <= l1 * m) continue;
+      if (old === 0 && (g > 0 ? g : -g) <= l1 * m) continue;
       this.prepareColumn(j);
       const d = this.curvature[j];
       const denominator = d + l2 * m;
@@ -470,7 +511,7 @@ export class LogisticDescent {
       const c = this.centre[j];
       this.intercept -= delta * c;
       for (let i = 0; i < n; i++) residual[i] -= delta * working[i] * (xs[off + i] - c);
-      const change = denominator * Math.abs(delta);
+      const change = denominator * (delta > 0 ? delta : -delta);
       if (change > largest) largest = change;
     }
     if (this.settings.intercept) {
@@ -512,12 +553,44 @@ export class LogisticDescent {
       if (this.sweep(set, count, lambda) <= limit) return sweeps;
       let activeCount = 0;
       for (let t = 0; t < count; t++) if (coef[set[t]] !== 0) active[activeCount++] = set[t];
+      let previousChange = Infinity;
       for (;;) {
         if (sweeps >= sweepsLeft) return -sweeps;
         sweeps++;
-        if (this.sweep(active, activeCount, lambda) <= limit) break;
+        const change = this.sweep(active, activeCount, lambda);
+        if (change <= limit) break;
+        // Crawling (strongly correlated columns, e.g. uncentred ones without an intercept): when
+        // the sweeps still needed at the current rate would cost more than a Gram matrix of the
+        // active columns (n·a²/2 to build, about a³/6 for the inner solver's Newton step), solve
+        // this step's quadratic on those columns in gram form instead (buildModel).
+        const rate = change / previousChange;
+        previousChange = change;
+        if (rate < 1 && activeCount > 0) {
+          const remaining = portableLog(limit / change) / portableLog(rate);
+          const sweepCost = 3 * this.n * activeCount;
+          const modelCost = (this.n * activeCount * activeCount) / 2 + (activeCount * activeCount * activeCount) / 6;
+          if (remaining * sweepCost > modelCost) return this.activeModelStep(active, activeCount, lambda, limit, sweepsLeft - sweeps, sweeps);
+        }
       }
     }
+  }
+
+  /**
+   * Residual form, when descent crawls: this step's quadratic (its current working weights) on the
+   * active columns, in gram form. The model's gradient at the current point is the quadratic's,
+   * from the working residual s (Σ x̃_j s, and Σ s for the intercept). Coordinates outside the
+   * active set stay where they are; the outer loop's checks bring them in if they should move.
+   * Returns the sweeps used in all (negative when capped).
+   */
+  private activeModelStep(active: Int32Array, activeCount: number, lambda: number, limit: number, sweepsLeft: number, sweepsSoFar: number): number {
+    const { residual, xs, n } = this;
+    let interceptGradient = 0;
+    for (let i = 0; i < n; i++) interceptGradient += residual[i];
+    const model = this.buildModel(active, activeCount);
+    const columns = model.columns;
+    const used = this.modelStep(model, lambda, limit, sweepsLeft, (t) => dotRange(xs, columns[t] * n, residual, 0, n), interceptGradient);
+    this.modelSteps++;
+    return used < 0 ? -(sweepsSoFar - used) : sweepsSoFar + used;
   }
 
   /**
@@ -548,6 +621,7 @@ export class LogisticDescent {
       this.previousEta.set(this.eta);
       const previousIntercept = this.intercept;
       const previousPenalty = this.penaltyValue(lambda);
+      const halvingsBefore = halvings;
       // Inexact Newton: solve the quadratic to a fraction of the current violation, and to below the bar at the end.
       const relative = violation / Math.max(lambda, this.floor);
       const limit = Math.max(0.5 * bar, Math.min(0.1, relative) * violation);
@@ -595,16 +669,20 @@ export class LogisticDescent {
         }
         this.refreshGradient(set, count);
       }
+      if (this.settings.onStep) {
+        const halved = halvings - halvingsBefore;
+        this.settings.onStep({ lambda, before: this.lossOf(this.previousEta) + previousPenalty, after: this.objective(lambda), halvings: halved });
+      }
       if (used < 0) return { converged: false, halvings };
     }
   }
 
   /** v_i = ω_i max(p_i(1 − p_i), WEIGHT_FLOOR) at the current fit, and Σ v; a new outer step for the lazy column sums. */
   private setWorkingWeights(): void {
-    const { n, omega, prob, working } = this;
+    const { n, omega, prob, complement, working } = this;
     let sumWorking = 0;
     for (let i = 0; i < n; i++) {
-      const q = prob[i] * (1 - prob[i]);
+      const q = prob[i] * complement[i];
       working[i] = omega[i] * (q > WEIGHT_FLOOR ? q : WEIGHT_FLOOR);
       sumWorking += working[i];
     }
@@ -622,7 +700,7 @@ export class LogisticDescent {
    * remain at the current rate took the least time (p/4: 2× the steps; every time: 3× the rebuilds).
    */
   private hessianWanted(violation: number, lastViolation: number, bar: number): boolean {
-    if (this.hessianStale || !this.inner) return true;
+    if (this.hessianStale || !this.model) return true;
     if (!(lastViolation > 0)) return false;
     const ratio = violation / lastViolation;
     if (ratio >= 1) return true;
@@ -631,124 +709,201 @@ export class LogisticDescent {
   }
 
   /**
-   * Covariance form, rebuild: working weights v at the current fit, u_j = Σ v x̃_j, and the
-   * quadratic's Gram matrix with the intercept profiled out, H_jk = Σ v (x̃_j − c_j)(x̃_k − c_k)
-   * = Σ [v (x̃_j − c_j)] x̃_k (the other centring drops out: Σ v (x̃_j − c_j) = 0), c_j = u_j / Σ v.
-   * A gram-form problem on H (descent.ts CoordinateDescent, with its active-set Newton step) then
-   * solves each outer step's quadratic in O(p) per coordinate update. Cost O(n·p²/2).
+   * The quadratic model on a set of columns (global indices `columns[0..count)`), with the
+   * working weights v in place: u_t = Σ v x̃_t, and the Gram matrix with the intercept profiled
+   * out, H_ts = Σ v (x̃_t − c_t)(x̃_s − c_s) = Σ [v (x̃_t − c_t)] x̃_s (the other centring drops
+   * out: Σ v (x̃_t − c_t) = 0), c_t = u_t / Σ v. A gram-form problem on H (descent.ts
+   * CoordinateDescent, with its active-set Newton step) then solves the model's quadratic in O(count)
+   * per coordinate update. Cost O(n·count²/2).
    */
-  private refreshHessian(): void {
-    this.setWorkingWeights();
+  private buildModel(columns: Int32Array, count: number): CurvatureModel {
     const { n, p, xs, working } = this;
     const frozen = this.problem.std.frozen;
     const signal = this.settings.signal;
-    const gram = this.hessian ?? new Float64Array(p * p);
-    const u = this.columnSums ?? new Float64Array(p);
-    this.hessian = gram;
-    this.columnSums = u;
-    const weighted = this.residualSpare ?? new Float64Array(n);
-    this.residualSpare = weighted;
-    const curvature = new Float64Array(p);
-    gram.fill(0);
-    for (let j = 0; j < p; j++) {
-      u[j] = 0;
-      if (frozen[j]) continue;
-      // Column j's products cost n·(p − j): a checkpoint per column keeps them short.
-      throwIfCancelled(signal);
+    const gram = new Float64Array(count * count);
+    const sums = new Float64Array(count);
+    const curvature = new Float64Array(count);
+    const subFrozen = new Uint8Array(count);
+    // Two weighted columns at a time, each pass over the rows making 2 × 4 products (8 running
+    // sums from 6 loads): the build is the covariance form's largest cost.
+    const pair = this.pairBuffer ?? new Float64Array(2 * n);
+    this.pairBuffer = pair;
+    const weigh = (a: number, into: number): void => {
+      const j = columns[a];
+      subFrozen[a] = frozen[j];
+      if (frozen[j]) {
+        pair.fill(0, into, into + n);
+        return;
+      }
       const off = j * n;
       let sum = 0;
       for (let i = 0; i < n; i++) sum += working[i] * xs[off + i];
-      u[j] = sum;
+      sums[a] = sum;
       const c = this.settings.intercept ? sum / this.sumWorking : 0;
-      for (let i = 0; i < n; i++) weighted[i] = working[i] * (xs[off + i] - c);
-      // Four products per pass over the weighted column (frozen columns are zeros: products 0).
-      let k = j;
-      for (; k + 3 < p; k += 4) {
-        const o0 = k * n;
-        const o1 = o0 + n;
-        const o2 = o1 + n;
-        const o3 = o2 + n;
-        let s0 = 0;
-        let s1 = 0;
-        let s2 = 0;
-        let s3 = 0;
+      for (let i = 0; i < n; i++) pair[into + i] = working[i] * (xs[off + i] - c);
+    };
+    for (let a = 0; a < count; a += 2) {
+      // Columns a and a + 1 cost n·(count − a) products each: a checkpoint per pair keeps them short.
+      throwIfCancelled(signal);
+      const two = a + 1 < count;
+      weigh(a, 0);
+      if (two) weigh(a + 1, n);
+      else pair.fill(0, n, 2 * n);
+      let b = a;
+      for (; b + 3 < count; b += 4) {
+        const o0 = columns[b] * n;
+        const o1 = columns[b + 1] * n;
+        const o2 = columns[b + 2] * n;
+        const o3 = columns[b + 3] * n;
+        let s00 = 0;
+        let s01 = 0;
+        let s02 = 0;
+        let s03 = 0;
+        let s10 = 0;
+        let s11 = 0;
+        let s12 = 0;
+        let s13 = 0;
         for (let i = 0; i < n; i++) {
-          const w = weighted[i];
-          s0 += w * xs[o0 + i];
-          s1 += w * xs[o1 + i];
-          s2 += w * xs[o2 + i];
-          s3 += w * xs[o3 + i];
+          const u = pair[i];
+          const v = pair[n + i];
+          const x0 = xs[o0 + i];
+          const x1 = xs[o1 + i];
+          const x2 = xs[o2 + i];
+          const x3 = xs[o3 + i];
+          s00 += u * x0;
+          s01 += u * x1;
+          s02 += u * x2;
+          s03 += u * x3;
+          s10 += v * x0;
+          s11 += v * x1;
+          s12 += v * x2;
+          s13 += v * x3;
         }
-        gram[j * p + k] = gram[k * p + j] = s0;
-        gram[j * p + k + 1] = gram[(k + 1) * p + j] = s1;
-        gram[j * p + k + 2] = gram[(k + 2) * p + j] = s2;
-        gram[j * p + k + 3] = gram[(k + 3) * p + j] = s3;
+        // Entries on or above the diagonal only, mirrored: the matrix is exactly symmetric.
+        const row = a * count;
+        gram[row + b] = gram[b * count + a] = s00;
+        gram[row + b + 1] = gram[(b + 1) * count + a] = s01;
+        gram[row + b + 2] = gram[(b + 2) * count + a] = s02;
+        gram[row + b + 3] = gram[(b + 3) * count + a] = s03;
+        if (two) {
+          const next = row + count;
+          if (b >= a + 1) gram[next + b] = gram[b * count + a + 1] = s10;
+          gram[next + b + 1] = gram[(b + 1) * count + a + 1] = s11;
+          gram[next + b + 2] = gram[(b + 2) * count + a + 1] = s12;
+          gram[next + b + 3] = gram[(b + 3) * count + a + 1] = s13;
+        }
       }
-      for (; k < p; k++) {
-        const value = dotRange(weighted, 0, xs, k * n, n);
-        gram[j * p + k] = value;
-        gram[k * p + j] = value;
+      for (; b < count; b++) {
+        const off = columns[b] * n;
+        const first = dotRange(pair, 0, xs, off, n);
+        gram[a * count + b] = gram[b * count + a] = first;
+        if (two && b >= a + 1) {
+          const second = dotRange(pair, n, xs, off, n);
+          gram[(a + 1) * count + b] = gram[b * count + a + 1] = second;
+        }
       }
-      curvature[j] = gram[j * p + j];
     }
+    for (let a = 0; a < count; a++) curvature[a] = gram[a * count + a];
+    const whole = count === p;
+    const pick = (values: Float64Array): Float64Array => (whole ? values : Float64Array.from(columns.subarray(0, count), (j) => values[j]));
+    const penalty: PenaltySpec = whole
+      ? this.penalty
+      : { mix: this.penalty.mix, multipliers: pick(this.penalty.multipliers), lower: pick(this.penalty.lower), upper: pick(this.penalty.upper) };
     const quadratic: TrainingProblem = {
       kind: "gram",
-      p,
+      p: count,
       n: 0,
       // The inner solver reads the frozen columns and, for its floor, yVariance (1 here: its
-      // tolerance is set per step from the absolute limit, see covarianceStep).
-      std: { ...this.problem.std, yVariance: 1 },
+      // tolerance is set per step from the absolute limit, see modelStep).
+      std: { ...this.problem.std, frozen: subFrozen, yVariance: 1 },
       curvature,
-      cross: new Float64Array(p),
+      cross: new Float64Array(count),
       gram,
       xs: null,
       omega: null,
       yc: null,
     };
-    this.innerSettings = { tolerance: this.settings.tolerance, maxSweeps: this.settings.maxSweeps, signal };
-    this.inner = new CoordinateDescent(quadratic, this.penalty, this.innerSettings);
+    const innerSettings = { tolerance: this.settings.tolerance, maxSweeps: this.settings.maxSweeps, signal };
+    return {
+      columns: whole ? columns : columns.slice(0, count),
+      count,
+      gram,
+      sums,
+      sumWorking: this.sumWorking,
+      inner: new CoordinateDescent(quadratic, penalty, innerSettings),
+      innerSettings,
+      start: new Float64Array(count),
+    };
+  }
+
+  /** Covariance form, rebuild: working weights at the current fit and the model on every column. */
+  private refreshHessian(): void {
+    this.setWorkingWeights();
+    if (!this.allColumns) this.allColumns = Int32Array.from({ length: this.p }, (_, j) => j);
+    this.model = this.buildModel(this.allColumns, this.p);
     this.hessianStale = false;
     this.hessianBuilds++;
   }
 
   /**
-   * Covariance form, one outer step: the quadratic model of F at the current point with the stored
-   * curvature, minimized over b̃ (intercept profiled out) by the gram-form solver:
+   * One solve of a quadratic model of F at the current point, minimized over the model's
+   * coefficients (the intercept profiled out) by its gram-form solver:
    *   ½ b̃ᵀHb̃ − cᵀb̃ + penalty,  c = g − u g0/Σv + H b̃_now,
-   * whose gradient at b̃_now is the true one (profiled), so its fixed point is F's minimizer;
-   * then b0 += (g0 − uᵀδ)/Σv for the step δ. Returns the inner sweeps (negative when capped).
+   * where g and g0 are the gradients the model should have at b̃_now (`gradient(t)` for column t
+   * of the model, and `interceptGradient`): the true ones in covariance form, so the fixed point
+   * is F's minimizer. Then b0 += (g0 − uᵀδ)/Σv for the step δ. Returns the inner sweeps (negative
+   * when capped).
    */
-  private covarianceStep(lambda: number, limit: number, sweepsLeft: number): number {
-    const inner = this.inner as CoordinateDescent;
-    const gram = this.hessian as Float64Array;
-    const u = this.columnSums as Float64Array;
-    const { p, coef } = this;
-    const frozen = this.problem.std.frozen;
+  private modelStep(model: CurvatureModel, lambda: number, limit: number, sweepsLeft: number, gradient: (t: number) => number, interceptGradient: number): number {
+    const { inner, gram, sums, columns, count, start } = model;
+    const coef = this.coef;
+    const frozen = inner.problem.std.frozen;
     const cross = inner.problem.cross;
-    const shift = this.settings.intercept ? this.interceptGrad / this.sumWorking : 0;
-    for (let j = 0; j < p; j++) {
-      if (frozen[j]) {
-        cross[j] = 0;
+    const shift = this.settings.intercept ? interceptGradient / model.sumWorking : 0;
+    for (let a = 0; a < count; a++) start[a] = coef[columns[a]];
+    for (let a = 0; a < count; a++) {
+      if (frozen[a]) {
+        cross[a] = 0;
         continue;
       }
-      let value = this.grad[j] - u[j] * shift;
-      const off = j * p;
-      for (let k = 0; k < p; k++) if (coef[k] !== 0) value += gram[off + k] * coef[k];
-      cross[j] = value;
+      let value = gradient(a) - sums[a] * shift;
+      const off = a * count;
+      for (let b = 0; b < count; b++) if (start[b] !== 0) value += gram[off + b] * start[b];
+      cross[a] = value;
     }
-    const settings = this.innerSettings as { tolerance: number; maxSweeps: number };
-    settings.tolerance = limit / Math.max(lambda, 1e-6);
-    settings.maxSweeps = Math.max(1, sweepsLeft);
-    inner.setCoefficients(coef);
+    model.innerSettings.tolerance = limit / Math.max(lambda, 1e-6);
+    model.innerSettings.maxSweeps = Math.max(1, sweepsLeft);
+    inner.setCoefficients(start);
     const report = inner.solve(lambda, lambda);
     let along = 0;
-    for (let j = 0; j < p; j++) {
-      const delta = inner.coef[j] - coef[j];
-      if (delta !== 0) along += u[j] * delta;
+    for (let a = 0; a < count; a++) {
+      const delta = inner.coef[a] - start[a];
+      if (delta !== 0) along += sums[a] * delta;
+      coef[columns[a]] = inner.coef[a];
     }
-    coef.set(inner.coef);
-    if (this.settings.intercept) this.intercept += (this.interceptGrad - along) / this.sumWorking;
+    if (this.settings.intercept) this.intercept += (interceptGradient - along) / model.sumWorking;
     return report.converged ? report.sweeps : -report.sweeps;
+  }
+
+  /** Covariance form, one outer step on the stored model, with the true gradients. */
+  private covarianceStep(lambda: number, limit: number, sweepsLeft: number): number {
+    const grad = this.grad;
+    return this.modelStep(this.model as CurvatureModel, lambda, limit, sweepsLeft, (t) => grad[t], this.interceptGrad);
+  }
+
+  /**
+   * Moves the state to the given standardized intercept and coefficients (frozen columns stay 0;
+   * bounds are the caller's business), e.g. to warm-start from a model fitted elsewhere. The next
+   * solve starts there. Cost O(n · p).
+   */
+  startFrom(intercept: number, coefficients: ArrayLike<number>): void {
+    const frozen = this.problem.std.frozen;
+    for (let j = 0; j < this.p; j++) this.coef[j] = frozen[j] ? 0 : coefficients[j];
+    this.intercept = this.settings.intercept ? intercept : 0;
+    this.computeEta();
+    this.refreshGradient(null, 0);
+    this.solvedLambda = NaN;
+    this.historyLambda = NaN;
   }
 
   /**
@@ -912,15 +1067,25 @@ export class LogisticDescent {
     return this.violation(lambda, null, 0) / Math.max(lambda, this.floor);
   }
 
-  /** True when every row with positive weight has a probability within SATURATION of its class. */
+  /** True when the fit leaves at most SATURATION of the null deviance (module comment). Cost O(n). */
   saturated(): boolean {
-    const { prob, y, omega } = this;
+    return isSaturated(this.loss(), this.nullLoss);
+  }
+
+  /** True when every row with positive weight has a probability within `distance` of its class. */
+  probabilitiesWithin(distance: number): boolean {
+    const { prob, complement, y, omega } = this;
     for (let i = 0; i < this.n; i++) {
       if (!(omega[i] > 0)) continue;
-      if (y[i] === 1 ? prob[i] < 1 - SATURATION : prob[i] > SATURATION) return false;
+      if ((y[i] === 1 ? complement[i] : prob[i]) > distance) return false;
     }
     return true;
   }
+}
+
+/** The saturation rule (module comment): the loss at most SATURATION of the null model's. */
+function isSaturated(loss: number, nullLoss: number): boolean {
+  return loss <= SATURATION * nullLoss;
 }
 
 /**
@@ -940,13 +1105,13 @@ export function logisticTopStrength(solver: LogisticDescent): number {
   const problem = solver.problem;
   const omega = problem.omega as Float64Array;
   const hessian = new Float64Array(problem.n);
-  for (let i = 0; i < problem.n; i++) hessian[i] = omega[i] * solver.prob[i] * (1 - solver.prob[i]);
+  for (let i = 0; i < problem.n; i++) hessian[i] = omega[i] * solver.prob[i] * solver.complement[i];
   const values = penalizedSpectrum({ ...problem, omega: hessian }, solver.penalty.multipliers, solver.settings.signal);
   return strengthForDegreesOfFreedom(values, RIDGE_TOP_DF);
 }
 
 export interface LogisticPathSettings {
-  /** End the path once every training probability is within SATURATION of its class. */
+  /** End the path once the fit leaves at most SATURATION of the null deviance (see saturated). */
   stopWhenSaturated: boolean;
   /** End the path once a tenfold drop in strength lowers the loss by less than PLATEAU_GAIN (path.ts). */
   stopWhenFlat: boolean;
@@ -995,7 +1160,7 @@ export function runLogisticPath(
   let anchor = 0;
   const endsAt = (k: number, loss: number): EarlyStop | null => {
     if (k + 1 === strengths.length) return null;
-    if (settings.stopWhenSaturated && solver.saturated()) return "saturated";
+    if (settings.stopWhenSaturated && isSaturated(loss, solver.nullLoss)) return "saturated";
     if (settings.stopWhenFlat) {
       const reach = PLATEAU_SPAN * strengths[k] * (1 - 1e-9);
       while (anchor + 1 < k && strengths[anchor + 1] >= reach) anchor++;

@@ -34,7 +34,7 @@ export function linearModel(terms: string[], intercept: number, coefficients: nu
  * engine, and fast enough for the two-class solver's inner loop).
  */
 export function logistic(eta: number): number {
-  return logisticFrom(eta, tableExp(-Math.abs(eta)));
+  return logisticFrom(eta, tableExp(eta > 0 ? -eta : eta));
 }
 
 /** logistic(η) given e = tableExp(−|η|) (see classMetrics.ts softplusFrom): 1/(1 + e) for η >= 0, else e/(1 + e). Identical to logistic(η). */

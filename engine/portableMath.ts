@@ -137,16 +137,21 @@ const STEP_LO = LN2_LO / 32;
  * @example tableExp(1) // 2.718281828459045
  */
 export function tableExp(x: number): number {
-  if (Number.isNaN(x)) return NaN;
+  if (x !== x) return NaN;
   if (x > 709.782712893384) return Infinity;
   if (x < -745.1332191019412) return 0;
-  const k = Math.round(x * THIRTY_TWO_OVER_LN2);
+  // k = round(x·32/ln2), halves up (Math.round's rule), from integer operations: |k| < 2^16 and
+  // t = v + 0.5 is exact there. (Calls such as Math.round cost far more inside a test runner's
+  // sandbox than in a browser; this loop runs once per row at every solver step.)
+  const t = x * THIRTY_TWO_OVER_LN2 + 0.5;
+  let k = t | 0;
+  if (k > t) k -= 1;
   const r = x - k * STEP_HI - k * STEP_LO;
   const j = k & 31;
   const m = (k - j) / 32;
   const poly = 1 + r * (1 + r * (0.5 + r * (1 / 6 + r * (1 / 24 + r * (1 / 120 + r * (1 / 720))))));
-  const half = Math.trunc(m / 2);
-  return EXP_TABLE[j] * poly * twoTo(half) * twoTo(m - half);
+  const half = (m / 2) | 0;
+  return EXP_TABLE[j] * poly * POWERS[half + 1022] * POWERS[m - half + 1022];
 }
 
 /** log(1 + t) for 0 <= t < 1/32 by its series to t^11 (truncation below 3e-18 relative). */
@@ -168,6 +173,6 @@ function log1pSeries(t: number): number {
 export function tableLog1p(x: number): number {
   if (!(x >= 0 && x <= 1)) return portableLog(1 + x);
   if (x < 1 / 32) return log1pSeries(x);
-  const j = Math.floor(x * 32);
+  const j = (x * 32) | 0;
   return LOG_TABLE[j] + log1pSeries((x - j / 32) / (1 + j / 32));
 }

@@ -7,6 +7,7 @@
  * For each case: a fit whose signal records the time between reads and raises itself once a
  * budget is spent. Prints one JSON line: per case the longest gap between reads (seconds), the
  * reads, whether the fit was cancelled, the time from raising to CancelledError, and the total.
+ * Pass case names after the budget to measure only those.
  */
 import { CancelledError } from "../../engine/errors";
 import { fit, FitOptions } from "../../engine/fit";
@@ -40,7 +41,9 @@ function data(rows: number, columns: number): { x: ColumnMatrix; y: Float64Array
 }
 
 export function measure(c: GapCase, budgetSeconds: number): GapReport {
-  const { x, y } = data(c.rows, c.columns);
+  const { x, y: values } = data(c.rows, c.columns);
+  // Two-class cases: the event is a response above 0.
+  const y = c.options.outcome === "two-class" ? Float64Array.from(values, (v) => (v > 0 ? 1 : 0)) : values;
   const start = performance.now();
   let last = start;
   let worst = 0;
@@ -79,9 +82,12 @@ export const CASES: GapCase[] = [
   { name: "300 × 2000, default settings", rows: 300, columns: 2000, options: {} },
   { name: "100000 × 20, default settings", rows: 100000, columns: 20, options: {} },
   { name: "100000 × 20, residual updates", rows: 100000, columns: 20, options: { updates: "residual" } },
+  { name: "20000 × 100, two-class", rows: 20000, columns: 100, options: { outcome: "two-class" } },
+  { name: "200 × 2000, two-class", rows: 200, columns: 2000, options: { outcome: "two-class" } },
 ];
 
 if (require.main === module) {
   const budget = Number(process.argv[2] ?? "1.5");
-  console.log(JSON.stringify(CASES.map((c) => measure(c, budget))));
+  const names = process.argv.slice(3);
+  console.log(JSON.stringify(CASES.filter((c) => names.length === 0 || names.includes(c.name)).map((c) => measure(c, budget))));
 }
