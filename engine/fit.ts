@@ -19,6 +19,14 @@
  * coefficient beyond ±1.8e308, or below 2.2e-308) is an InputError naming the column; a
  * cross-validated error that can't be is shown as non-finite with a warning.
  *
+ * Two-class outcomes (options.outcome "two-class"): the squared error is replaced by the binomial
+ * log-likelihood, −(1/Σw) Σ w [y η − log(1 + e^η)], on the same standardized predictors, with the
+ * 0/1 target left as it is (engine/logistic.ts); coefficients are log-odds per unit, the grid's top
+ * is the gradient at the intercept-only fit, and the paths end once the classes are reproduced
+ * almost exactly ("saturated"). Strength 0 is the unpenalized maximum-likelihood fit
+ * (logisticBaseline.ts). Random folds are stratified by class. Measures: deviance per row (the
+ * default), the share misclassified at the cutoff, or the AUC (higher is better).
+ *
  * Cross-validation (Hastie, Tibshirani & Friedman, ESL 2nd ed. §7.10): the full data fix
  * each mix's grid and path; every fold then solves down the same strengths on its training
  * rows (its own standardization, target included) and is scored on its held-out rows. The same
@@ -30,6 +38,7 @@ import { FoldPlan, FoldScheme, planFolds, rowsOfBlocks } from "./folds";
 import { leastSquares } from "./leastSquares";
 import { ColumnMatrix, selectRows } from "./matrix";
 import { LinearModel, linearModel, logistic, predict } from "./model";
+import { logisticBaseline } from "./logisticBaseline";
 import { score, Score } from "./metrics";
 import { areaUnderCurve, devianceFromScores, misclassifiedShare, scoreTwoClass, TwoClassScore } from "./classMetrics";
 import { LogisticDescent, LogisticReport, LogisticRun, LogisticSettings, logisticTopStrength, runLogisticPath } from "./logistic";
@@ -273,7 +282,8 @@ export interface FitResult {
   constantColumns: string[];
   diagnostics: {
     updates: "gram" | "residual";
-    solver: "descent" | "spectral" | "least-squares";
+    /** "least-squares": the number outcome at strength 0; "maximum-likelihood": the two-class outcome at strength 0 (logisticBaseline.ts). */
+    solver: "descent" | "spectral" | "least-squares" | "maximum-likelihood";
     sweeps: number;
     /** Largest KKT violation relative to λ on the chosen mix's full-data path. */
     maxKktViolation: number;
@@ -1723,10 +1733,13 @@ function* twoClassSteps(
 /** Two-class result at a single fixed strength: the path from the top of the grid down to it. */
 function fixedTwoClass(data: Prepared, full: TrainingProblem, strength: number, constantColumns: string[], warnings: FitWarning[]): FitResult {
   if (strength === 0) {
-    throw new InputError(
-      "strength",
-      "strength 0 (the unpenalized fit) is not available for a two-class outcome in this version: give a small positive strength, e.g. 1e-4",
-    );
+    if (data.bounded) {
+      throw new InputError(
+        "strength",
+        "bounds apply to penalized fits: a two-class fit with bounds needs a strength above 0; give a small positive strength (e.g. 1e-4), or remove the bounds for the unpenalized fit",
+      );
+    }
+    return twoClassBaselineResult(data, full, constantColumns, warnings);
   }
   const mix = data.mixes[0];
   const penalty = penaltyFor(full, data, mix);
@@ -1748,6 +1761,92 @@ function fixedTwoClass(data: Prepared, full: TrainingProblem, strength: number, 
   result.rule = "fixed";
   result.strengthFraction = top > 0 ? strength / top : 0;
   return result;
+}
+
+/**
+ * Strength 0, two-class: the unpenalized maximum-likelihood fit with its standard errors, z and p
+ * values, deviances and separation check (logisticBaseline.ts), on the data as given (it standardizes
+ * and returns to the data's units itself).
+ */
+function twoClassBaselineResult(data: Prepared, full: TrainingProblem, constantColumns: string[], warnings: FitWarning[]): FitResult {
+  const original = data.original;
+  const baseline = logisticBaseline(original.x, original.y, {
+    intercept: data.intercept,
+    weights: original.weights ?? undefined,
+    names: data.names,
+    signal: data.settings.signal,
+  });
+  if (baseline.aliased.length > 0) {
+    warnings.push({
+      code: "aliased",
+      message: `${baseline.aliased.map((j) => data.names[j]).join(", ")} ${baseline.aliased.length === 1 ? "is" : "are"} an exact combination of other predictors: coefficient set to 0`,
+    });
+  }
+  if (baseline.separation) {
+    warnings.push({ code: "separated", message: baseline.separation.message });
+  } else if (!baseline.converged) {
+    warnings.push({ code: "not-converged", message: "the unpenalized fit did not converge within its step cap: its estimates are approximate" });
+  }
+  const coefficients = baseline.coefficients.slice();
+  const intercept = baseline.intercept;
+  const predictorSpreads = Array.from(full.std.xSpread, (spread, j) => scaleByPowerOfTwo(spread, -data.xExponent[j]));
+  const share = 1 - baseline.deviance / baseline.nullDeviance;
+  const probabilities = baseline.probabilities;
+  return {
+    kind: "shrinkwise-fit",
+    outcome: "two-class",
+    terms: data.names.slice(),
+    intercept,
+    coefficients,
+    standardizedCoefficients: coefficients.map((b, j) => b * predictorSpreads[j]),
+    predictorSpreads,
+    targetSpread: 1,
+    mix: data.mixes[0],
+    strength: 0,
+    strengthFraction: 0,
+    rule: "fixed",
+    choices: null,
+    cv: null,
+    path: { mix: data.mixes[0], top: 0, strengths: [0], intercepts: [intercept], coefficients: [coefficients.slice()], termsKept: [coefficients.filter((b) => b !== 0).length], r2: [share] },
+    fit: score(original.y, probabilities, original.weights),
+    classFit: scoreTwoClass(original.y, probabilities, { cutoff: data.cutoff, weights: original.weights }),
+    baseline: {
+      standardErrors: baseline.standardErrors.slice(),
+      interceptStandardError: baseline.interceptStandardError,
+      residualStandardDeviation: NaN,
+      degreesOfFreedom: baseline.degreesOfFreedom,
+      r2: share,
+      aliased: baseline.aliased.map((j) => data.names[j]),
+      zValues: baseline.zValues.slice(),
+      interceptZ: baseline.interceptZ,
+      pValues: baseline.pValues.slice(),
+      interceptP: baseline.interceptP,
+      deviance: baseline.deviance,
+      nullDeviance: baseline.nullDeviance,
+      nullDegreesOfFreedom: baseline.nullDegreesOfFreedom,
+      separation: baseline.separation
+        ? { kind: baseline.separation.kind, terms: baseline.separation.terms.map((j) => data.names[j]), message: baseline.separation.message }
+        : null,
+    },
+    rowsUsed: data.x.rows,
+    constantColumns,
+    diagnostics: {
+      updates: data.covariance ? "gram" : "residual",
+      solver: "maximum-likelihood",
+      sweeps: 0,
+      maxKktViolation: 0,
+      maxKktViolationAllFits: 0,
+      converged: baseline.converged,
+      strongRuleMisses: 0,
+      earlyStop: null,
+      lowEndRatio: data.lowEndRatio,
+      strengthCount: data.strengthCount,
+      gridDensity: gridDensity(data.strengthCount, data.lowEndRatio),
+      stepHalvings: 0,
+    },
+    warnings,
+    model: linearModel(data.names, intercept, coefficients, "logistic"),
+  };
 }
 
 /** Shared two-class result assembly from the full-data path and the chosen point on it. */

@@ -29,6 +29,8 @@ export type { ColumnMatrix } from "./matrix";
 // Errors
 export { InputError, CancelledError } from "./errors";
 export type { FitWarning, InputErrorCode, WarningCode } from "./errors";
-// Two-class baseline
+// Two-class outcomes: the penalized solver and the unpenalized baseline
+export { LogisticDescent, runLogisticPath, logisticTopStrength, SATURATION, WEIGHT_FLOOR } from "./logistic";
+export type { LogisticSettings, LogisticReport, LogisticRun, LogisticPathSettings } from "./logistic";
 export { logisticBaseline } from "./logisticBaseline";
 export type { LogisticBaselineResult, LogisticBaselineOptions, Separation } from "./logisticBaseline";

@@ -17,9 +17,10 @@
  * - Outer loop (iteratively reweighted least squares, i.e. Newton's method): at the current fit,
  *   p_i = 1/(1 + e^{−η_i}), the loss is replaced by its quadratic approximation
  *     (1/2) Σ v_i (z_i − b0 − x̃_i·b̃)²,  v_i = ω_i p_i(1 − p_i),  z_i = η_i + (y_i − p_i)/(p_i(1 − p_i)).
- *   p(1 − p) (computed from e^−|η| in both tails) is kept at or above WEIGHT_FLOOR. That changes only the curvature of the
- *   approximation: its gradient at the current fit, Σ v_i x̃_ij (z_i − η_i) = Σ ω_i x̃_ij (y_i − p_i),
- *   is the true one whatever the floor, so the fixed point is the true minimizer.
+ *   p(1 − p) (p and 1 − p each computed from e^−|η|, so both tails keep their digits) is kept at
+ *   or above WEIGHT_FLOOR. That changes only the curvature of the approximation: its gradient at
+ *   the current fit, Σ v_i x̃_ij (z_i − η_i) = Σ ω_i x̃_ij (y_i − p_i), is the true one whatever
+ *   the floor, so the fixed point is the true minimizer.
  * - Inner loop: cyclic coordinate descent on that quadratic plus the penalty (the update of
  *   descent.ts with weights v: b̃_j <- clip(S(g_j + d_j b̃_j, λα m_j) / (d_j + λ(1−α) m_j))), in
  *   residual form: the weighted working residual s_i = v_i (z_i − η_i) is kept, so a coordinate
@@ -30,13 +31,23 @@
  *   since Σ s = 0; a change Δ moves b0 by −Δ c_j). The standardized columns are centred in the
  *   weights ω, not v, so without this the intercept and every column would trade the same
  *   direction back and forth between sweeps. After each sweep the intercept is re-centred
- *   (b0 += Σ s / Σ v) to clear rounding.
+ *   (b0 += Σ s / Σ v) to clear rounding. When descent crawls (strongly correlated columns), the
+ *   step's quadratic is finished in gram form on the active columns (buildModel: descent.ts
+ *   CoordinateDescent, with its active-set Newton step), as the number outcome's solver does.
+ * - Covariance form (settings.covariance, rows ≫ predictors): the quadratic's p × p curvature
+ *   matrix is stored and reused across steps and strengths, rebuilt only when the steps stop
+ *   contracting fast enough to pay for it (hessianWanted); each step then minimizes that model
+ *   with the true gradient at the current point (a proximal Newton method with an inexact Hessian,
+ *   Lee, Sun & Saunders 2014, SIAM J. Optim. 24(3)), at O(p) per coordinate update instead of O(n).
  * - Inexact Newton: each quadratic is solved only to a fraction of the current violation of the
  *   optimality conditions (forcing term min(0.1, violation); Dembo, Eisenstat & Steihaug 1982,
  *   SIAM J. Numer. Anal. 19(2)): early steps are cheap and the convergence stays fast.
  * - Step control: the true penalized objective F must not rise from one outer step to the next
  *   (beyond RISE_SLACK of its value, the rounding of its sum); when it would, the step is halved
- *   toward the previous point until it doesn't (counted in stepHalvings).
+ *   toward the previous point until it doesn't (counted in stepHalvings). The check needs no
+ *   logarithms when convexity already proves the decrease (didNotRise).
+ * - Warm starts: each strength starts from the previous solution extrapolated linearly along the
+ *   path (as descent.ts does), kept only when it does not raise F.
  * - Convergence: the optimality (KKT) conditions of F itself, with the true gradient
  *   g_j = Σ ω_i x̃_ij (y_i − p_i): every coordinate's violation (descent.ts coordinateViolation)
  *   and the intercept's, |Σ ω_i (y_i − p_i)|, at most `tolerance` × max(λ, floor) (floor =
@@ -81,7 +92,7 @@ import { penalizedSpectrum, strengthForDegreesOfFreedom } from "./ridgeSpectral"
  * the step cap instead of converging in a few steps.
  */
 export const WEIGHT_FLOOR = 2 ** -53;
-/** A row is saturated when its probability is within this of its class (see the module comment). */
+/** The saturation rule: a fit that leaves at most this share of the null deviance (module comment). */
 export const SATURATION = 1e-5;
 /** Most outer (Newton) steps at one strength. Warm-started, a strength typically takes 2 to 5. */
 export const MAX_NEWTON_STEPS = 100;

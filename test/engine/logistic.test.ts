@@ -8,7 +8,7 @@
 import fc from "fast-check";
 import { CholeskyDecomposition, Matrix } from "ml-matrix";
 import { InputError } from "../../engine/errors";
-import { fit, FitOptions, FitResult } from "../../engine/fit";
+import { fit, fitAsync, FitOptions, FitResult } from "../../engine/fit";
 import { LogisticDescent } from "../../engine/logistic";
 import { problemFromRows } from "../../engine/problem";
 import { columnScales } from "../helpers/kkt";
@@ -290,6 +290,24 @@ describe("results", () => {
     expect(JSON.stringify(second)).toBe(JSON.stringify(first));
   });
 
+  test("progress counts one unit per full path and per fold, and fitAsync gives the same result", async () => {
+    const calls: [number, number][] = [];
+    const options: FitOptions = { outcome: "two-class", mixes: [0, 1], folds: 3, strengthCount: 10 };
+    const result = fit(x, y, { ...options, onProgress: (done, total) => calls.push([done, total]) });
+    expect(calls).toEqual(Array.from({ length: 8 }, (_, k) => [k + 1, 8])); // 2 mixes × (1 + 3 folds)
+    expect(JSON.stringify(await fitAsync(x, y, options))).toBe(JSON.stringify(result));
+  });
+
+  test("a constant column is left out with coefficient 0", () => {
+    const withConstant = x.map((row) => [...row, 7]);
+    const result = fit(withConstant, y, { outcome: "two-class", mixes: [0.5], folds: 3, strengthCount: 10 });
+    expect(result.constantColumns).toEqual(["x6"]);
+    expect(result.coefficients[5]).toBe(0);
+    expect(result.warnings.some((w) => w.code === "constant-column")).toBe(true);
+    const plain = fit(x, y, { outcome: "two-class", mixes: [0.5], folds: 3, strengthCount: 10 });
+    expectVectorRelative(result.coefficients.slice(0, 5), plain.coefficients, 1e-12, "the other coefficients");
+  });
+
   test("a two-class result has log-odds coefficients, a logistic model and an in-sample class score", () => {
     const result: FitResult = fit(x, y, { outcome: "two-class", mixes: [1], folds: 4 });
     expect(result.outcome).toBe("two-class");
@@ -320,6 +338,43 @@ describe("results", () => {
   });
 });
 
+describe("strength 0: the unpenalized baseline", () => {
+  test("is the maximum-likelihood fit, which a ridge fit approaches as the strength falls", () => {
+    const { x, y } = twoClassData(12, 150, 3);
+    const weights = y.map((_v, i) => 1 + (i % 2));
+    const result = fit(x, y, { outcome: "two-class", mixes: [0], strength: 0, weights });
+    expect(result.diagnostics.solver).toBe("maximum-likelihood");
+    expect(result.model.link).toBe("logistic");
+    // Two routes: Newton on the likelihood (logisticBaseline.ts) and the penalized solver at a
+    // ridge strength of 1e-10, whose solution differs from the maximum by O(λ) (common practice).
+    const ridge = fit(x, y, { outcome: "two-class", mixes: [0], strength: 1e-10, weights });
+    expectVectorRelative(result.coefficients, ridge.coefficients, 1e-7, "coefficients");
+    expectRelative(result.intercept, ridge.intercept, 1e-7, "intercept");
+    // Independent Newton solve with ml-matrix at a vanishing penalty agrees as well.
+    const reference = ridgeLogisticByNewton(x, y, 1e-12, weights, null);
+    expectVectorRelative(result.coefficients, reference.coefficients, 1e-8, "coefficients vs Newton");
+    const baseline = result.baseline;
+    expect(baseline).not.toBeNull();
+    expect(baseline?.residualStandardDeviation).toBeNaN();
+    expect(baseline?.separation).toBeNull();
+    // r2 is the share of the null deviance explained; z = estimate / SE (the baseline's contract).
+    expectRelative(baseline?.r2 ?? NaN, 1 - (baseline?.deviance ?? NaN) / (baseline?.nullDeviance ?? NaN), 1e-15, "deviance explained");
+    expect(result.path.r2).toEqual([baseline?.r2]);
+    result.coefficients.forEach((b, j) => expectRelative(baseline?.zValues?.[j] ?? NaN, b / (baseline?.standardErrors[j] ?? NaN), 1e-12, `z of x${j + 1}`));
+    expect(baseline?.nullDegreesOfFreedom).toBe(149);
+    expect(baseline?.degreesOfFreedom).toBe(146);
+  });
+
+  test("separated classes: the terms are named and the warning says to use a penalty", () => {
+    const { x } = twoClassData(13, 60, 2);
+    // x1 is centred at −3: its sign about the centre splits the classes.
+    const y = x.map((row) => (row[0] > -3 ? 1 : 0));
+    const result = fit(x, y, { outcome: "two-class", mixes: [1], strength: 0 });
+    expect(result.baseline?.separation?.terms).toEqual(["x1"]);
+    expect(result.warnings.find((w) => w.code === "separated")?.message).toMatch(/penalized fit/);
+  });
+});
+
 describe("input checks", () => {
   const { x, y } = twoClassData(4, 40, 3);
   test("a target other than 0/1, or with one class, is refused with a message", () => {
@@ -337,8 +392,8 @@ describe("input checks", () => {
     }
   });
 
-  test("strength 0 is refused until the unpenalized baseline is available", () => {
-    expectInputError(() => fit(x, y, { outcome: "two-class", mixes: [1], strength: 0 }), "strength", /small positive strength/);
+  test("strength 0 with bounds is refused: bounds need a penalized fit", () => {
+    expectInputError(() => fit(x, y, { outcome: "two-class", mixes: [1], strength: 0, lowerBounds: [0, 0, 0] }), "strength", /needs a strength above 0/);
   });
 
   test("an outcome other than number or two-class is refused", () => {
