@@ -358,6 +358,7 @@ export function textReport(result: FitResult, context: ReportContext): string {
       `  (log-odds of ${event} per unit of each predictor; odds ratio = e^log-odds, what the odds`,
       "  are multiplied by per unit; per SD = log-odds per SD of the predictor)",
     );
+    if (separation) lines.push("  The classes are separated: these unpenalized estimates have no finite value (see below).");
   }
   lines.push("");
   const kept = result.coefficients.filter((b) => b !== 0).length;
@@ -419,7 +420,8 @@ export function textReport(result: FitResult, context: ReportContext): string {
     lines.push(`In-sample: R² ${formatNumber(fit.r2, 4)}, RMSE ${formatNumber(fit.rmse)}, MAE ${formatNumber(fit.mae)}`);
   }
   lines.push(`Rows: ${result.rowsUsed} used, ${table.rowsSkipped} skipped`);
-  const warnings = warningMessages(result, table);
+  // The separation message is printed with the baseline above: not again among the warnings.
+  const warnings = warningMessages(result, table).filter((message) => message !== separation?.message);
   if (warnings.length > 0) {
     lines.push("Warnings:");
     for (const message of warnings) lines.push(`  - ${message}`);

@@ -9,23 +9,7 @@
  * every run is the same. Sources of expected values are named beside each check.
  */
 import { readInput, runCommand } from "../../engine/cli/fit";
-import { fit } from "../../engine/fit";
 
-/**
- * Whether this engine fits strength 0 for a yes/no target (the unpenalized baseline). The solver
- * lands in steps and refuses it until the baseline is wired in: the strength-0 tests wait for it
- * (they are skipped, with this note, rather than left failing or removed).
- */
-const BASELINE_READY = ((): boolean => {
-  try {
-    fit([[0], [1], [2], [3], [1.5], [2.5]], [0, 1, 0, 1, 1, 0], { outcome: "two-class", strength: 0, mixes: [0] });
-    return true;
-  } catch (error) {
-    // Only the engine's own "not yet" skips; any other failure lets the tests run and show it.
-    return !/strength 0 .* is not available for a two-class outcome/.test((error as Error).message);
-  }
-})();
-const baselineIt = BASELINE_READY ? it : it.skip;
 
 /** A small multiplicative congruential sequence in (0, 1) (Park & Miller 1988, CACM 31(10)). */
 function sequence(seed: number): () => number {
@@ -219,7 +203,7 @@ describe("yes/no targets on the command line", () => {
     expect(auc).toMatch(/\n {2}CV AUC ± SE \(higher is better\)\s+0\.\d+ ± /);
   });
 
-  baselineIt("strength 0: the unpenalized logistic fit with SE, z and p-value, residual and null deviance with their df", () => {
+  it("strength 0: the unpenalized logistic fit with SE, z and p-value, residual and null deviance with their df", () => {
     const baseline = json(["batches.csv", "--target", "result", "--strength", "0"]);
     const b = baseline.baseline;
     expect(baseline.outcome).toBe("two-class");
@@ -245,12 +229,16 @@ describe("yes/no targets on the command line", () => {
     expect(out).toMatch(new RegExp(`\\nUnpenalized logistic fit: residual deviance [\\d.]+ on ${n - 4} df \\(${n} rows − 4 coefficients\\), null deviance [\\d.]+ on ${n - 1} df\\n`));
   });
 
-  baselineIt("strength 0 on separated classes prints the engine's separation message instead of standard errors", () => {
+  it("strength 0 on separated classes prints the engine's separation message instead of standard errors", () => {
     const outcome = runCommand(["separated.csv", "--target", "y", "--strength", "0"], read);
     expect(outcome.exitCode).toBe(0);
     const parsed = JSON.parse(runCommand(["separated.csv", "--target", "y", "--strength", "0", "--json"], read).stdout);
     expect(parsed.baseline.separation).not.toBeNull();
     expect(outcome.stdout).toContain(`\nUnpenalized logistic fit: ${parsed.baseline.separation.message}`);
     expect(outcome.stdout).not.toMatch(/\bSE\s+z\s+p-value/);
+    expect(outcome.stdout).toContain("The classes are separated: these unpenalized estimates have no finite value (see below).");
+    // Said once in the readable report, and kept among the JSON's warnings.
+    expect(outcome.stdout.split(parsed.baseline.separation.message)).toHaveLength(2);
+    expect(parsed.warnings).toContain(parsed.baseline.separation.message);
   });
 });
