@@ -10,7 +10,6 @@
  */
 import { readInput, runCommand } from "../../engine/cli/fit";
 
-
 /** A small multiplicative congruential sequence in (0, 1) (Park & Miller 1988, CACM 31(10)). */
 function sequence(seed: number): () => number {
   let state = seed;
