@@ -331,6 +331,13 @@ function bestLabel(result: FitResult): string {
   return bestPointLabel(result.cv?.measure ?? "mse");
 }
 
+/** The strength-0 fit by name: least squares, or (yes/no) the unpenalized logistic fit. */
+function unpenalizedName(result: FitResult, capital: boolean): string {
+  const name = result.outcome === "two-class" ? "unpenalized logistic fit" : "least squares";
+  if (!capital) return name;
+  return result.outcome === "two-class" ? "Unpenalized logistic fit" : "Least-squares fit";
+}
+
 function ruleText(result: FitResult): string {
   if (result.rule === "lowest") return bestLabel(result);
   if (result.rule === "one-se") return "one-SE rule";
@@ -606,7 +613,7 @@ export function pathChartOptions(result: FitResult, settings: ChartSettings): Ch
     );
   }
   if (keep.length < result.path.strengths.length) {
-    notes.push(keep.length === 0 ? "Least-squares fit (λ = 0): there is no path to draw." : "λ = 0 can't be shown on a log scale; that point is left out.");
+    notes.push(keep.length === 0 ? `${unpenalizedName(result, true)} (λ = 0): there is no path to draw.` : "λ = 0 can't be shown on a log scale; that point is left out.");
   }
   const note = notes.join("\n");
   const labelled = new Set(drawn.filter((t) => t.chosen !== 0).slice(0, layout.endLabels).map((t) => t.index));
@@ -989,7 +996,7 @@ export function barEntries(result: FitResult): { nonzero: BarEntry[]; zero: stri
 }
 
 function choiceTitle(result: FitResult): string {
-  if (result.rule === "fixed" && result.strength === 0) return "least squares (λ 0)";
+  if (result.rule === "fixed" && result.strength === 0) return `${unpenalizedName(result, false)} (λ 0)`;
   return `λ ${formatNumber(result.strength)}`;
 }
 
@@ -1138,7 +1145,7 @@ export function describeChart(kind: ChartKind, result: FitResult, spreads?: Arra
       .join(", ");
   if (kind === "path") {
     const strengths = result.path.strengths.filter((s) => s > 0);
-    if (strengths.length === 0) return "Coefficient path: not available for a least-squares fit (strength 0).";
+    if (strengths.length === 0) return `Coefficient path: not available for ${result.outcome === "two-class" ? "an unpenalized logistic" : "a least-squares"} fit (strength 0).`;
     const ranked = rankedTerms(result, spreads);
     const drawn = ranked.filter((t) => t.spread !== null);
     const missing = ranked.length - drawn.length;

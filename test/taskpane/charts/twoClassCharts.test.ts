@@ -144,3 +144,11 @@ describe("charts of a yes/no fit", () => {
     expect(renderChartSvg("path", deviance, { theme: "light", width: 400 })).toContain("log-odds per SD");
   });
 });
+
+test("strength 0 of a yes/no fit is named the unpenalized logistic fit, not least squares", async () => {
+  const baseline = await fitQuality("1", "strength=0");
+  expect(baseline.strength).toBe(0);
+  expect(JSON.stringify(pathChartOptions(baseline, { theme: "light", width: 400 }).title)).toContain("Unpenalized logistic fit (λ = 0): there is no path to draw.");
+  expect(describeChart("path", baseline)).toBe("Coefficient path: not available for an unpenalized logistic fit (strength 0).");
+  expect(String((coefficientBarOptions(baseline, { theme: "light", width: 400 }).title as AnyRecord).text)).toBe("Coefficients at unpenalized logistic fit (λ 0)");
+});
