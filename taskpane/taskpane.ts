@@ -10,7 +10,10 @@
  *   workbook holding the demo data (StandInSheetHost), drawn beside the pane (standInView.ts) so
  *   ranges are picked by selecting its cells; formulas and reports written by the pane appear
  *   there, computed by the same code and fit cache the cells use. The demo ranges are filled in,
- *   so Fit works at once. Below the sheet, "What the cells return" (preview.ts).
+ *   so Fit works at once. Two demo data sets, one sheet each: the roast scores (a number target,
+ *   the default) and the quality check (pass or fail: a yes/no target); a choice above the sheet
+ *   puts either one's ranges in the pane (test ids demo-choice, demo-choice-roast,
+ *   demo-choice-quality). Below the sheet, "What the cells return" (preview.ts).
  * Both end with a short guide to the cell functions (`#help`, where the manifest's help links point).
  *
  * In the standalone preview `window.__shrinkwisePreview` = { host (the StandInSheetHost), pane
@@ -23,7 +26,7 @@ import { OfficeSheetHost } from "./host/officeSheetHost";
 import { mountPane } from "./pane/pane";
 import { renderPreview } from "./standalone/preview";
 import type { SheetHost } from "./host/sheetHost";
-import { createDemoWorkbook, DEMO_RANGES, DEMO_SHEET, StandInSheetHost } from "./standalone/standInSheetHost";
+import { createDemoWorkbook, DEMO_RANGES, DEMO_SHEET, QUALITY_RANGES, QUALITY_SHEET, StandInSheetHost } from "./standalone/standInSheetHost";
 import { renderStandInView } from "./standalone/standInView";
 
 function element<K extends keyof HTMLElementTagNameMap>(tag: K, text?: string, className?: string): HTMLElementTagNameMap[K] {
@@ -69,10 +72,44 @@ export function helpSection(): HTMLElement {
   return section;
 }
 
-/** The demo ranges on the stand-in's demo sheet, with the sheet name. */
-export function demoRanges(): { target: string; predictors: string; newRows: string; destination: string } {
-  const on = (address: string): string => formatAddress({ ...parseAddress(address), sheet: DEMO_SHEET });
-  return { target: on(DEMO_RANGES.target), predictors: on(DEMO_RANGES.predictors), newRows: on(DEMO_RANGES.newRows), destination: on("O1") };
+/** The two demo data sets of the standalone preview. */
+export type DemoSet = "roast" | "quality";
+
+export const DEMO_SETS: readonly { id: DemoSet; sheet: string; label: string }[] = [
+  { id: "roast", sheet: DEMO_SHEET, label: "Roast scores (a number target)" },
+  { id: "quality", sheet: QUALITY_SHEET, label: "Quality check, pass or fail (a yes/no target)" },
+];
+
+/** A demo set's ranges on its stand-in sheet, with the sheet name (default: the roast scores). */
+export function demoRanges(set: DemoSet = "roast"): { target: string; predictors: string; newRows: string; destination: string } {
+  const sheet = set === "quality" ? QUALITY_SHEET : DEMO_SHEET;
+  const layout = set === "quality" ? QUALITY_RANGES : DEMO_RANGES;
+  const on = (address: string): string => formatAddress({ ...parseAddress(address), sheet });
+  // The formulas go to the right of the data, one column clear of it.
+  return { target: on(layout.target), predictors: on(layout.predictors), newRows: on(layout.newRows), destination: on(set === "quality" ? "P1" : "O1") };
+}
+
+/** The choice of demo data for the pane: a labelled radio group; `onChoose` gets the set picked. */
+export function demoChoice(current: DemoSet, onChoose: (set: DemoSet) => void): HTMLFieldSetElement {
+  const group = element("fieldset", undefined, "segmented demo-choice");
+  group.dataset.testid = "demo-choice";
+  group.append(element("legend", "Demo data in the pane"));
+  for (const set of DEMO_SETS) {
+    const label = element("label");
+    const input = element("input");
+    input.type = "radio";
+    input.name = "demo-choice";
+    input.value = set.id;
+    input.id = `demo-choice-${set.id}`;
+    input.dataset.testid = `demo-choice-${set.id}`;
+    input.checked = set.id === current;
+    input.addEventListener("change", () => {
+      if (input.checked) onChoose(set.id);
+    });
+    label.append(input, element("span", set.label));
+    group.append(label);
+  }
+  return group;
 }
 
 async function startExcel(root: HTMLElement): Promise<void> {
@@ -95,15 +132,29 @@ async function startStandalone(root: HTMLElement): Promise<void> {
   sheetTitle.id = "sheet-title";
   const note = element(
     "p",
-    "Not running inside Excel, so the pane works on this stand-in workbook: an invented coffee roastery's 120 batches (score in column M, predictors in B:L) and eight new batches below. Select cells here and press Use selection in the pane; formulas and reports the pane writes appear here, computed in this browser.",
+    "Not running inside Excel, so the pane works on this stand-in workbook: an invented coffee roastery's 120 batches (score in column M, predictors in B:L) and eight new batches below, and on the sheet 'Quality check' 300 batches that passed or failed the quality check (column N). Select cells here and press Use selection in the pane; formulas and reports the pane writes appear here, computed in this browser.",
     "hint",
   );
   const sheetBox = element("div", undefined, "sheet-view");
-  side.append(sheetTitle, note, sheetBox);
+  const choiceBox = element("div");
+  side.append(sheetTitle, note, choiceBox, sheetBox);
   layout.append(pane, side);
   root.replaceChildren(layout);
   const view = renderStandInView(sheetBox, host);
   const handle = await mountPane(pane, host, { defaults: demoRanges(), onSheetWritten: () => view.refresh() });
+  const onQuality = ((): boolean => {
+    try {
+      return parseAddress(handle.inputs().ranges.target).sheet === QUALITY_SHEET;
+    } catch {
+      return false; // no target yet, or one typed elsewhere
+    }
+  })();
+  choiceBox.append(
+    demoChoice(onQuality ? "quality" : "roast", (set) => {
+      handle.setRanges(demoRanges(set));
+      host.activateSheet(set === "quality" ? QUALITY_SHEET : DEMO_SHEET);
+    }),
+  );
   renderPreview(side, { runner: sharedRunner(), help: FUNCTION_HELP });
   pane.append(helpSection());
   // For the browser tests and for poking around in the console: the stand-in workbook and the pane.

@@ -7,8 +7,9 @@
  * one positional argument (`-` reads standard input). Everything the user can get wrong here is
  * a CommandError, which the entry point turns into exit code 2 and a one-line message.
  */
-import { parseRule } from "../fit";
+import { checkMeasure, MEASURES, parseRule } from "../fit";
 import type { ChoiceRule, ErrorMeasure, FitOptions } from "../fit";
+import { parseOutcome, type OutcomeKind, type OutcomeSetting } from "../outcome";
 
 /** A mistake in how the command was called or in the file it was given (exit code 2). */
 export class CommandError extends Error {
@@ -36,6 +37,12 @@ export interface CommandOptions {
   seed: number | null;
   rule: ChoiceRule | null;
   measure: ErrorMeasure | null;
+  /** How to read the target: auto (the default: two distinct labels, TRUE/FALSE or 0/1 are yes/no), number or two-class. */
+  outcome: OutcomeSetting;
+  /** Yes/no outcomes: the label of the class the model gives the probability of. */
+  event: string | null;
+  /** Yes/no outcomes: the probability at or above which a row is flagged as the event. */
+  cutoff: number | null;
   /** Strengths per tenfold drop of the grid. */
   gridDensity: number | null;
   /** Number of strengths in the grid (instead of a density). */
@@ -60,7 +67,9 @@ export type ParsedCommand = { help: true } | { help: false; options: CommandOpti
 export const USAGE = `Usage: npm run fit -- <data.csv> --target <column> [options]
 
 Fits a cross-validated ridge / lasso / elastic-net regression to the numeric columns of a
-CSV or tab-separated file (header row required) and prints the model.
+CSV or tab-separated file (header row required) and prints the model. A yes/no target (two
+labels such as pass/fail, TRUE/FALSE or 0/1) gets a penalized logistic regression: the model
+gives the probability of the event, and coefficients are log-odds of the event.
 
 Columns
   --target <name>           column to predict (required)
@@ -69,10 +78,21 @@ Columns
   --weights-column <name>   observation weights (not a predictor)
   --fold-column <name>      fold labels, one fold per distinct value (not a predictor; text allowed)
 
+Outcome
+  --outcome auto|number|two-class
+                            how to read the target (default auto: exactly two distinct values
+                            that are TRUE/FALSE, 0/1 or two texts make a yes/no outcome; anything
+                            else is a number)
+  --event <label>           yes/no outcome: the label of the event, the class whose probability
+                            the model gives (default TRUE, else 1, else the less frequent label)
+  --cutoff <p>              yes/no outcome: flag a row as the event when its probability is p or
+                            more, for the misclassified share and the in-sample table (default 0.5)
+
 Model
   --mix 0,0.5,1             mixes to try: 0 ridge, 1 lasso (default 0,0.25,0.5,0.75,1)
   --strength <value>        fit exactly this strength at a single --mix, no cross-validation;
-                            0 gives the exact least-squares fit
+                            0 gives the exact least-squares fit (for a yes/no target, the
+                            unpenalized logistic fit with SE, z and p-values)
   --grid-density <n>        strengths per tenfold drop in strength (default 20: 101 strengths
                             down to a low end of 1e-5)
   --count <n>               number of strengths in the grid, instead of --grid-density
@@ -87,7 +107,10 @@ Cross-validation
   --folds <k>               number of folds (default 10)
   --seed <n>                seed for the random fold assignment (default 1)
   --time-ordered            rows are in time order: train on earlier rows, score on later ones
-  --error mse|mae           how held-out rows are scored (default mse)
+  --error mse|mae|deviance|misclassified|auc
+                            how held-out rows are scored: mse (default) or mae for a number
+                            target; deviance (default), misclassified or auc for a yes/no target
+                            (for auc, higher is better)
   --rule lowest|one-se      lowest error (default), or the one-SE rule: the strongest penalty
                             whose error is within one standard error of the lowest
 
@@ -101,6 +124,9 @@ uses are skipped and counted.
 Strengths are unit-free: the penalty acts on the standardized target, so recording the target
 (or a predictor) in other units gives the same model. Coefficients are in the data's units;
 'per SD' is a coefficient × its predictor's SD (the target's units per SD of the predictor).
+For a yes/no target the coefficients are log-odds of the event per unit of the predictor (per SD
+in the 'per SD' column); the odds ratio e^coefficient is what the odds of the event are
+multiplied by for one more unit.
 Exit codes: 0 success, 2 bad input or usage, 1 unexpected failure.`;
 
 type Kind = "text" | "number" | "list" | "numberList" | "flag";
@@ -127,6 +153,9 @@ const OPTIONS: Record<string, Kind> = {
   // Older spelling of --error, still accepted (not shown in the help).
   measure: "text",
   rule: "text",
+  outcome: "text",
+  event: "text",
+  cutoff: "number",
   json: "flag",
   help: "flag",
 };
@@ -238,8 +267,31 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
   }
   const errorFlag = seen.has("measure") ? "measure" : "error";
   const measure = text(errorFlag)?.toLowerCase() ?? null;
-  if (measure !== null && measure !== "mse" && measure !== "mae") {
-    throw new CommandError(`--error must be mse or mae; got '${text(errorFlag)}'`);
+  const allMeasures: readonly string[] = [...MEASURES.number, ...MEASURES["two-class"]];
+  if (measure !== null && !allMeasures.includes(measure)) {
+    throw new CommandError(
+      `--error must be ${MEASURES.number.join(" or ")} (a number target) or ${MEASURES["two-class"].join(", ").replace(/, ([^,]+)$/, " or $1")} (a yes/no target); got '${text(errorFlag)}'`,
+    );
+  }
+  const outcomeText = text("outcome");
+  const outcome = outcomeText === null ? "auto" : parseOutcome(outcomeText);
+  if (outcome === null) throw new CommandError(`--outcome must be auto, number or two-class; got '${outcomeText}'`);
+  const event = text("event");
+  const cutoff = number("cutoff");
+  if (cutoff !== null && !(cutoff > 0 && cutoff < 1)) {
+    throw new CommandError(`--cutoff must be a probability between 0 and 1 (not 0 or 1); got '${text("cutoff") as string}'`);
+  }
+  if (outcome === "number") {
+    if (event !== null) throw new CommandError("--event names the event of a yes/no target: it can't be used with --outcome number");
+    if (cutoff !== null) throw new CommandError("--cutoff applies to a yes/no target: it can't be used with --outcome number");
+  }
+  if (measure !== null && outcome !== "auto") {
+    // The engine's own words for a measure of the other outcome (checked again once the target is read, for auto).
+    try {
+      checkMeasure(measure as ErrorMeasure, outcome);
+    } catch (error) {
+      throw new CommandError(error instanceof Error ? error.message : String(error));
+    }
   }
   if (seen.has("grid-density") && seen.has("count")) {
     throw new CommandError("--grid-density and --count both set how many strengths the grid has: give one");
@@ -280,6 +332,9 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
       seed,
       rule,
       measure: measure as ErrorMeasure | null,
+      outcome,
+      event,
+      cutoff,
       gridDensity: number("grid-density"),
       count,
       lowEnd: number("low-end"),
@@ -300,7 +355,7 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
  */
 export function toFitOptions(
   options: CommandOptions,
-  data: { names: readonly string[]; weights: number[] | null; foldLabels: string[] | null },
+  data: { names: readonly string[]; weights: number[] | null; foldLabels: string[] | null; outcome?: OutcomeKind },
 ): FitOptions {
   const out: FitOptions = {
     names: data.names,
@@ -313,7 +368,10 @@ export function toFitOptions(
   if (options.folds !== null) out.folds = options.folds;
   if (options.seed !== null) out.seed = options.seed;
   if (options.rule !== null) out.rule = options.rule;
+  // The outcome as read from the target (table.ts); a number outcome leaves the key out, as before.
+  if (data.outcome === "two-class") out.outcome = "two-class";
   if (options.measure !== null) out.measure = options.measure;
+  if (options.cutoff !== null && data.outcome === "two-class") out.cutoff = options.cutoff;
   if (options.gridDensity !== null) out.gridDensity = options.gridDensity;
   if (options.count !== null) out.strengthCount = options.count;
   if (options.lowEnd !== null) out.lowEndRatio = options.lowEnd;

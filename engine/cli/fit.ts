@@ -5,7 +5,7 @@
  * calls are pure functions tested on their own (test/cli/).
  */
 import { readFileSync } from "fs";
-import { fit } from "../fit";
+import { checkMeasure, fit } from "../fit";
 import { CommandError, parseArgs, toFitOptions, USAGE } from "./args";
 import { failureLine, jsonText, textReport } from "./format";
 import { readFitTable } from "./table";
@@ -40,7 +40,17 @@ export function runCommand(argv: readonly string[], read: (file: string) => stri
       exclude: options.exclude,
       weightsColumn: options.weightsColumn,
       foldColumn: options.foldColumn,
+      outcome: options.outcome,
+      event: options.event,
     });
+    if (table.outcome === "number" && (options.event !== null || options.cutoff !== null)) {
+      const flag = options.event !== null ? `--event ${options.event}` : `--cutoff ${options.cutoff}`;
+      throw new CommandError(
+        `${flag} applies to a yes/no target, and '${table.target}' was read as numbers: leave it out, or give --outcome two-class if the column holds two classes`,
+      );
+    }
+    // The engine's words when the measure belongs to the other kind of target.
+    checkMeasure(options.measure, table.outcome);
     if (options.folds !== null && table.foldLabels !== null) {
       // With a fold column the labels fix the folds: a different --folds would be ignored.
       const groups = [...new Set(table.foldLabels)];
@@ -54,7 +64,7 @@ export function runCommand(argv: readonly string[], read: (file: string) => stri
     const result = fit(
       table.predictors,
       table.targetValues,
-      toFitOptions(options, { names: table.predictorNames, weights: table.weights, foldLabels: table.foldLabels }),
+      toFitOptions(options, { names: table.predictorNames, weights: table.weights, foldLabels: table.foldLabels, outcome: table.outcome }),
     );
     const context = { table, foldColumn: options.foldColumn };
     return { exitCode: 0, stdout: options.json ? jsonText(result, context) : textReport(result, context), stderr: "" };

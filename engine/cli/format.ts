@@ -6,7 +6,8 @@
  * output always parses.
  */
 import { InputError } from "../errors";
-import type { ChoicePoint, FitResult } from "../fit";
+import { higherIsBetter, type ChoicePoint, type ErrorMeasure, type FitResult } from "../fit";
+import type { TwoClassScore } from "../classMetrics";
 import type { LinearModel } from "../model";
 import { CommandError } from "./args";
 import type { FitTable } from "./table";
@@ -32,9 +33,18 @@ export interface JsonChoice {
   termsKept: number;
 }
 
+/** In-sample accuracy of a yes/no model's probabilities (engine/classMetrics.ts), non-finite values as null. */
+export type JsonClassFit = { [K in keyof TwoClassScore]: number | null };
+
 /** The JSON object printed by `--json`. Coefficient objects are keyed by the file's column names. */
 export interface JsonReport {
   target: string;
+  /** How the target was read: "number", or "two-class" (a yes/no target; coefficients are log-odds of the event). */
+  outcome: "number" | "two-class";
+  /** Yes/no target: the event's label (the class the model gives the probability of); null for a number target. */
+  event: string | null;
+  /** Yes/no target: both classes and their rows used; null for a number target. */
+  classes: { event: string; other: string; eventRows: number; otherRows: number } | null;
   predictors: string[];
   intercept: number | null;
   coefficients: Record<string, number | null>;
@@ -43,6 +53,8 @@ export interface JsonReport {
    * units, per SD of the predictor (comparable across predictors; not the unit-free b̃).
    */
   standardizedCoefficients: Record<string, number | null>;
+  /** Yes/no target: e^coefficient, the factor on the odds of the event per unit of the predictor; null for a number target. */
+  oddsRatios: Record<string, number | null> | null;
   /** Terms with a nonzero coefficient in the model. */
   termsKept: number;
   strength: number | null;
@@ -55,7 +67,13 @@ export interface JsonReport {
   choices: { lowest: JsonChoice; oneSe: JsonChoice } | null;
   /** In-sample accuracy of the model (weighted when weights are given). */
   fit: { r2: number | null; rmse: number | null; mae: number | null; bias: number | null };
-  /** `--strength 0` only: standard errors (column → SE, null where aliased), residual SD, df, aliased columns. */
+  /** Yes/no target: in-sample log loss, Brier score, AUC and the table at the cutoff; null for a number target. */
+  classFit: JsonClassFit | null;
+  /**
+   * `--strength 0` only: standard errors (column → SE, null where aliased), residual SD, df, aliased columns.
+   * Yes/no target, in addition: z values and p-values (column → value), residual and null deviance
+   * with the null model's df, and the separation found (null when none).
+   */
   baseline: {
     standardErrors: Record<string, number | null>;
     interceptStandardError: number | null;
@@ -63,6 +81,14 @@ export interface JsonReport {
     degreesOfFreedom: number;
     r2: number | null;
     aliased: string[];
+    zValues?: Record<string, number | null>;
+    interceptZ?: number | null;
+    pValues?: Record<string, number | null>;
+    interceptP?: number | null;
+    deviance?: number | null;
+    nullDeviance?: number | null;
+    nullDegreesOfFreedom?: number;
+    separation?: { kind: "complete" | "quasi"; terms: string[]; message: string } | null;
   } | null;
   rowsUsed: number;
   rowsSkipped: number;
@@ -81,8 +107,10 @@ export interface JsonReport {
     gridDensity: number | null;
     lowEndRatio: number | null;
     earlyStop: { index: number; strength: number | null; reason: string } | null;
+    /** Yes/no target: steps the solver had to shorten (0 for a number target). */
+    stepHalvings: number;
   };
-  /** The fitted model as the engine saves it (terms, intercept, coefficients). */
+  /** The fitted model as the engine saves it (terms, intercept, coefficients; link "logistic" for a yes/no target). */
   model: LinearModel;
 }
 
@@ -94,6 +122,39 @@ export function finiteOrNull(value: number): number | null {
 function byName(names: readonly string[], values: readonly number[]): Record<string, number | null> {
   // fromEntries makes own properties even for a column called "__proto__".
   return Object.fromEntries(names.map((name, j) => [name, finiteOrNull(values[j])]));
+}
+
+function byNameOrNull(names: readonly string[], values: readonly (number | null)[]): Record<string, number | null> {
+  return Object.fromEntries(names.map((name, j) => [name, finiteOrNull(values[j] ?? NaN)]));
+}
+
+/** Every field of a two-class score, non-finite values as null. */
+function classFitJson(score: TwoClassScore): JsonClassFit {
+  return Object.fromEntries(Object.entries(score).map(([key, value]) => [key, finiteOrNull(value as number)])) as JsonClassFit;
+}
+
+/** The baseline's two-class fields, present only when the engine gave them (a yes/no target). */
+function baselineTwoClass(result: FitResult): Partial<NonNullable<JsonReport["baseline"]>> {
+  const b = result.baseline;
+  if (!b || result.outcome !== "two-class") return {};
+  const out: Partial<NonNullable<JsonReport["baseline"]>> = {};
+  if (b.zValues) out.zValues = byNameOrNull(result.terms, b.zValues);
+  if (b.interceptZ !== undefined) out.interceptZ = finiteOrNull(b.interceptZ ?? NaN);
+  if (b.pValues) out.pValues = byNameOrNull(result.terms, b.pValues);
+  if (b.interceptP !== undefined) out.interceptP = finiteOrNull(b.interceptP ?? NaN);
+  if (b.deviance !== undefined) out.deviance = finiteOrNull(b.deviance);
+  if (b.nullDeviance !== undefined) out.nullDeviance = finiteOrNull(b.nullDeviance);
+  if (b.nullDegreesOfFreedom !== undefined) out.nullDegreesOfFreedom = b.nullDegreesOfFreedom;
+  if (b.separation !== undefined) out.separation = b.separation ? { kind: b.separation.kind, terms: b.separation.terms.slice(), message: b.separation.message } : null;
+  return out;
+}
+
+/**
+ * The odds ratio of a log-odds coefficient, e^b (display only; the model keeps b). Infinity past
+ * e^709.78, which the outputs show as n/a (JSON null).
+ */
+export function oddsRatio(logOdds: number): number {
+  return Math.exp(logOdds);
 }
 
 function choice(point: ChoicePoint): JsonChoice {
@@ -110,7 +171,8 @@ function choice(point: ChoicePoint): JsonChoice {
 /** Every warning as one message: the file's skipped rows first, then the engine's. */
 export function warningMessages(result: FitResult, table: FitTable): string[] {
   const skipped = skippedRowsMessage(table);
-  return [...(skipped ? [skipped] : []), ...result.warnings.map((w) => w.message)];
+  const note = result.outcome === "two-class" ? (table.classes?.note ?? null) : null;
+  return [...(skipped ? [skipped] : []), ...(note ? [note] : []), ...result.warnings.map((w) => w.message)];
 }
 
 /** The object `--json` prints. */
@@ -128,12 +190,25 @@ export function jsonReport(result: FitResult, context: ReportContext): JsonRepor
     };
   }
   const d = result.diagnostics;
+  const twoClass = result.outcome === "two-class";
+  const classes = twoClass && table.classes ? table.classes : null;
+  const model: LinearModel = {
+    kind: result.model.kind,
+    terms: result.model.terms.slice(),
+    intercept: result.model.intercept,
+    coefficients: result.model.coefficients.slice(),
+  };
+  if (result.model.link && result.model.link !== "identity") model.link = result.model.link;
   return {
     target: table.target,
+    outcome: twoClass ? "two-class" : "number",
+    event: classes ? classes.event : null,
+    classes: classes ? { event: classes.event, other: classes.other, eventRows: classes.eventRows, otherRows: classes.otherRows } : null,
     predictors: result.terms.slice(),
     intercept: finiteOrNull(result.intercept),
     coefficients: byName(result.terms, result.coefficients),
     standardizedCoefficients: byName(result.terms, result.standardizedCoefficients),
+    oddsRatios: twoClass ? byName(result.terms, result.coefficients.map(oddsRatio)) : null,
     termsKept: result.coefficients.filter((b) => b !== 0).length,
     strength: finiteOrNull(result.strength),
     strengthFraction: finiteOrNull(result.strengthFraction),
@@ -147,6 +222,7 @@ export function jsonReport(result: FitResult, context: ReportContext): JsonRepor
       mae: finiteOrNull(result.fit.mae),
       bias: finiteOrNull(result.fit.bias),
     },
+    classFit: result.classFit ? classFitJson(result.classFit) : null,
     baseline: result.baseline
       ? {
           standardErrors: Object.fromEntries(result.terms.map((name, j) => [name, finiteOrNull(result.baseline?.standardErrors[j] ?? NaN)])),
@@ -155,6 +231,7 @@ export function jsonReport(result: FitResult, context: ReportContext): JsonRepor
           degreesOfFreedom: result.baseline.degreesOfFreedom,
           r2: finiteOrNull(result.baseline.r2),
           aliased: result.baseline.aliased.slice(),
+          ...baselineTwoClass(result),
         }
       : null,
     rowsUsed: result.rowsUsed,
@@ -173,13 +250,9 @@ export function jsonReport(result: FitResult, context: ReportContext): JsonRepor
       gridDensity: finiteOrNull(d.gridDensity),
       lowEndRatio: finiteOrNull(d.lowEndRatio),
       earlyStop: d.earlyStop ? { index: d.earlyStop.index, strength: finiteOrNull(d.earlyStop.strength), reason: d.earlyStop.reason } : null,
+      stepHalvings: d.stepHalvings ?? 0,
     },
-    model: {
-      kind: result.model.kind,
-      terms: result.model.terms.slice(),
-      intercept: result.model.intercept,
-      coefficients: result.model.coefficients.slice(),
-    },
+    model,
   };
 }
 
@@ -196,12 +269,12 @@ export function formatNumber(value: number, digits = 6): string {
   return Number.isFinite(value) ? significant(value, digits) : "n/a";
 }
 
-/** Rows of cells as aligned columns: first column left-aligned, the others right-aligned. */
-function columns(rows: string[][], indent = "  "): string[] {
+/** Rows of cells as aligned columns: first column left-aligned, the others right-aligned (or all left-aligned, for words). */
+function columns(rows: string[][], indent = "  ", allLeft = false): string[] {
   const widths: number[] = [];
   for (const row of rows) row.forEach((cell, c) => (widths[c] = Math.max(widths[c] ?? 0, [...cell].length)));
   return rows.map((row) =>
-    (indent + row.map((cell, c) => (c === 0 ? cell.padEnd(widths[c]) : cell.padStart(widths[c]))).join("  ")).trimEnd(),
+    (indent + row.map((cell, c) => (c === 0 || allLeft ? cell.padEnd(widths[c]) : cell.padStart(widths[c]))).join("  ")).trimEnd(),
   );
 }
 
@@ -213,43 +286,99 @@ function schemeText(result: FitResult, foldColumn: string | null | undefined): s
   return `${cv.folds} random folds (seed ${cv.seed})`;
 }
 
+/**
+ * A cross-validation measure named for people: MSE, MAE, deviance, misclassified share, AUC.
+ * `withDirection` adds "(higher is better)" to the AUC, the one measure where it is.
+ */
+/** The point the "lowest" rule picks, in words: "lowest error", or "highest AUC" where higher is better. */
+export function bestPointLabel(measure: ErrorMeasure | undefined): string {
+  return measure !== undefined && higherIsBetter(measure) ? "highest AUC" : RULE_WORDS.lowest;
+}
+
+export function measureName(measure: ErrorMeasure, withDirection = false): string {
+  const name = measure === "mse" || measure === "mae" || measure === "auc" ? measure.toUpperCase() : measure === "misclassified" ? "misclassified share" : measure;
+  return withDirection && higherIsBetter(measure) ? `${name} (higher is better)` : name;
+}
+
 /** The readable report printed without `--json`. */
 export function textReport(result: FitResult, context: ReportContext): string {
   const { table } = context;
   const lines: string[] = [];
   const p = result.terms.length;
+  const twoClass = result.outcome === "two-class";
+  const classes = twoClass ? table.classes : null;
+  const event = classes ? `'${classes.event}'` : "the event";
   lines.push(`Shrinkwise fit of '${table.target}' on ${p} predictor${p === 1 ? "" : "s"}`);
+  if (classes) {
+    lines.push(
+      `Outcome: yes/no, event ${event} (${classes.eventRows} of ${classes.eventRows + classes.otherRows} rows; the other class is '${classes.other}')`,
+    );
+  }
   lines.push("");
   const baseline = result.baseline;
+  const separation = twoClass ? (baseline?.separation ?? null) : null;
   const seText = (value: number | null | undefined): string => (value === null || value === undefined ? "aliased" : formatNumber(value));
-  const termRows: string[][] = [["term", "coefficient", "per SD", ...(baseline ? ["LS SE"] : [])]];
-  termRows.push(["intercept", formatNumber(result.intercept), "", ...(baseline ? [seText(baseline.interceptStandardError)] : [])]);
-  result.terms.forEach((term, j) => {
+  const termRows: string[][] = [];
+  if (twoClass) {
+    // Standard errors, z and p exist only when the unpenalized estimates do (no separation).
+    const tests = baseline !== null && separation === null;
+    const orNa = (value: number | null | undefined): string => (value === null || value === undefined ? "n/a" : formatNumber(value, 4));
+    termRows.push(["term", `log-odds of ${event}`, "odds ratio", "per SD", ...(tests ? ["SE", "z", "p-value"] : [])]);
     termRows.push([
-      term,
-      formatNumber(result.coefficients[j]),
-      formatNumber(result.standardizedCoefficients[j]),
-      ...(baseline ? [seText(baseline.standardErrors[j])] : []),
+      "intercept",
+      formatNumber(result.intercept),
+      "",
+      "",
+      ...(tests && baseline ? [seText(baseline.interceptStandardError), orNa(baseline.interceptZ), orNa(baseline.interceptP)] : []),
     ]);
-  });
+    result.terms.forEach((term, j) => {
+      termRows.push([
+        term,
+        formatNumber(result.coefficients[j]),
+        formatNumber(oddsRatio(result.coefficients[j])),
+        formatNumber(result.standardizedCoefficients[j]),
+        ...(tests && baseline ? [seText(baseline.standardErrors[j]), orNa(baseline.zValues?.[j]), orNa(baseline.pValues?.[j])] : []),
+      ]);
+    });
+  } else {
+    termRows.push(["term", "coefficient", "per SD", ...(baseline ? ["LS SE"] : [])]);
+    termRows.push(["intercept", formatNumber(result.intercept), "", ...(baseline ? [seText(baseline.interceptStandardError)] : [])]);
+    result.terms.forEach((term, j) => {
+      termRows.push([
+        term,
+        formatNumber(result.coefficients[j]),
+        formatNumber(result.standardizedCoefficients[j]),
+        ...(baseline ? [seText(baseline.standardErrors[j])] : []),
+      ]);
+    });
+  }
   lines.push(...columns(termRows));
+  if (twoClass) {
+    lines.push(
+      `  (log-odds of ${event} per unit of each predictor; odds ratio = e^log-odds, what the odds`,
+      "  are multiplied by per unit; per SD = log-odds per SD of the predictor)",
+    );
+    if (separation) lines.push("  The classes are separated: these unpenalized estimates have no finite value (see below).");
+  }
   lines.push("");
   const kept = result.coefficients.filter((b) => b !== 0).length;
   if (result.rule === "fixed") {
     const point =
-      result.diagnostics.solver === "least-squares"
-        ? "least squares (strength 0)"
-        : `mix ${formatNumber(result.mix)}, strength λ ${formatNumber(result.strength)}`;
+      twoClass && result.strength === 0
+        ? "unpenalized logistic fit (strength 0)"
+        : result.diagnostics.solver === "least-squares"
+          ? "least squares (strength 0)"
+          : `mix ${formatNumber(result.mix)}, strength λ ${formatNumber(result.strength)}`;
     lines.push(`Fixed point: ${point}, ${kept} of ${p} terms kept; no cross-validation`);
   } else {
+    const ruleWords = (rule: "lowest" | "one-se"): string => (rule === "lowest" ? bestPointLabel(result.cv?.measure) : RULE_WORDS[rule]);
     lines.push(
-      `Chosen point (${RULE_WORDS[result.rule]}): mix ${formatNumber(result.mix)}, strength λ ${formatNumber(result.strength)}` +
+      `Chosen point (${ruleWords(result.rule)}): mix ${formatNumber(result.mix)}, strength λ ${formatNumber(result.strength)}` +
         ` (${formatNumber(result.strengthFraction, 4)} of the grid's top), ${kept} of ${p} terms kept`,
     );
   }
   if (result.choices && result.cv) {
-    const measure = result.cv.measure.toUpperCase();
-    lines.push(`Cross-validation: ${schemeText(result, context.foldColumn)}, scored by ${measure}`);
+    lines.push(`Cross-validation: ${schemeText(result, context.foldColumn)}, scored by ${measureName(result.cv.measure, true)}`);
     const d = result.diagnostics;
     lines.push(
       `Grid: ${d.strengthCount} strengths per mix (${formatNumber(d.gridDensity, 4)} per tenfold drop), from each mix's top down to ${formatNumber(d.lowEndRatio)} of it`,
@@ -258,30 +387,68 @@ export function textReport(result: FitResult, context: ReportContext): string {
     const rules = ["lowest", "one-se"] as const;
     const points = [result.choices.lowest, result.choices.oneSe];
     const rows: string[][] = [
-      ["", ...rules.map((rule) => RULE_WORDS[rule] + (rule === result.rule ? " (chosen)" : ""))],
+      ["", ...rules.map((rule) => (rule === "lowest" ? bestPointLabel(result.cv?.measure) : RULE_WORDS[rule]) + (rule === result.rule ? " (chosen)" : ""))],
       ["mix", ...points.map((c) => formatNumber(c.mix))],
       ["strength λ", ...points.map((c) => formatNumber(c.strength))],
-      [`CV ${measure} ± SE`, ...points.map((c) => errorWithSe(c.error, c.se))],
+      [`CV ${measureName(result.cv.measure)} ± SE${higherIsBetter(result.cv.measure) ? " (higher is better)" : ""}`, ...points.map((c) => errorWithSe(c.error, c.se))],
       ["terms kept", ...points.map((c) => `${c.termsKept} of ${p}`)],
     ];
     lines.push(...columns(rows));
   }
-  if (baseline) {
+  if (baseline && twoClass) {
+    if (separation) {
+      lines.push(`Unpenalized logistic fit: ${separation.message}`);
+    } else {
+      const coefficients = result.rowsUsed - baseline.degreesOfFreedom;
+      lines.push(
+        `Unpenalized logistic fit: residual deviance ${formatNumber(baseline.deviance ?? NaN)} on ${baseline.degreesOfFreedom} df` +
+          ` (${result.rowsUsed} rows − ${coefficients} coefficient${coefficients === 1 ? "" : "s"}),` +
+          ` null deviance ${formatNumber(baseline.nullDeviance ?? NaN)} on ${baseline.nullDegreesOfFreedom ?? "n/a"} df`,
+      );
+    }
+  } else if (baseline) {
     const coefficients = result.rowsUsed - baseline.degreesOfFreedom;
     lines.push(
       `Least squares: residual SD ${formatNumber(baseline.residualStandardDeviation, 4)}, residual df ${baseline.degreesOfFreedom}` +
         ` (${result.rowsUsed} rows − ${coefficients} coefficient${coefficients === 1 ? "" : "s"})`,
     );
   }
-  const fit = result.fit;
-  lines.push(`In-sample: R² ${formatNumber(fit.r2, 4)}, RMSE ${formatNumber(fit.rmse)}, MAE ${formatNumber(fit.mae)}`);
+  if (twoClass && result.classFit) {
+    lines.push(...classFitLines(result.classFit, classes));
+  } else {
+    const fit = result.fit;
+    lines.push(`In-sample: R² ${formatNumber(fit.r2, 4)}, RMSE ${formatNumber(fit.rmse)}, MAE ${formatNumber(fit.mae)}`);
+  }
   lines.push(`Rows: ${result.rowsUsed} used, ${table.rowsSkipped} skipped`);
-  const warnings = warningMessages(result, table);
+  // The separation message is printed with the baseline above: not again among the warnings.
+  const warnings = warningMessages(result, table).filter((message) => message !== separation?.message);
   if (warnings.length > 0) {
     lines.push("Warnings:");
     for (const message of warnings) lines.push(`  - ${message}`);
   }
   return lines.join("\n") + "\n";
+}
+
+/**
+ * The in-sample block of a yes/no model: log loss, Brier score and AUC, then the 2×2 table at
+ * the cutoff in words (events caught, events missed, false alarms, correct all-clear) with
+ * accuracy, sensitivity and specificity. Counts are sums of weights when weights are given.
+ */
+export function classFitLines(score: TwoClassScore, classes: FitTable["classes"]): string[] {
+  const event = classes ? `'${classes.event}'` : "the event";
+  const other = classes ? `'${classes.other}'` : "the other class";
+  const count = (value: number): string => formatNumber(value);
+  const rows: string[][] = [
+    ["", `flagged ${event}`, "not flagged"],
+    [`${event} (${count(score.eventsCaught + score.eventsMissed)} rows)`, `${count(score.eventsCaught)} events caught`, `${count(score.eventsMissed)} events missed`],
+    [`${other} (${count(score.falseAlarms + score.correctAllClear)} rows)`, `${count(score.falseAlarms)} false alarms`, `${count(score.correctAllClear)} correct all-clear`],
+  ];
+  return [
+    `In-sample: log loss ${formatNumber(score.logLoss, 4)}, Brier ${formatNumber(score.brier, 4)}, AUC ${formatNumber(score.auc, 4)}`,
+    `At cutoff ${formatNumber(score.cutoff)} (a row is flagged as ${event} when its probability is ${formatNumber(score.cutoff)} or more):`,
+    ...columns(rows, "  ", true),
+    `  accuracy ${formatNumber(score.accuracy, 4)}, sensitivity ${formatNumber(score.sensitivity, 4)} (share of events caught), specificity ${formatNumber(score.specificity, 4)} (share of the other class cleared)`,
+  ];
 }
 
 /**

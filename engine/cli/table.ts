@@ -17,9 +17,20 @@
  *   the column, the data row (1-based, header not counted) and the value, with a hint when it
  *   looks like a number in another convention (a decimal comma) or a date.
  *   Fold labels may be text. Columns the fit doesn't use are never checked.
+ * - The target is read by engine/outcome.ts `readOutcome`, the rule the cell functions use:
+ *   with outcome `auto` (the default) exactly two distinct values that are TRUE/FALSE, 0/1 or
+ *   two texts make a yes/no (two-class) target, coded 1 for the event and 0 for the other
+ *   class; anything else is a number target. A cell is a number when it reads as one (above),
+ *   TRUE or FALSE in any case when it is one of those words (as a worksheet stores them), and
+ *   otherwise text. A number target with a stray text cell (at least half its cells numbers) is
+ *   reported as a text cell in a numeric column, with the row and value; other text targets get
+ *   readOutcome's message. With outcome `number` the target is a numeric column like any other,
+ *   except that a column of exactly two labels gets readOutcome's message (a yes/no target).
  */
 import Papa from "papaparse";
+import { InputError } from "../errors";
 import { numberFromText, numberTextHint } from "../numberText";
+import { readOutcome, type OutcomeKind, type OutcomeSetting, type OutcomeValue } from "../outcome";
 import { CommandError } from "./args";
 
 /** The file as text cells: trimmed header names and the data rows below them. */
@@ -37,6 +48,23 @@ export interface ColumnRoles {
   exclude?: readonly string[] | null;
   weightsColumn?: string | null;
   foldColumn?: string | null;
+  /** How to read the target (default auto; see the file comment). */
+  outcome?: OutcomeSetting;
+  /** Yes/no targets: the event's label (default as readOutcome picks it). */
+  event?: string | null;
+}
+
+/** A yes/no target's two classes as read (engine/outcome.ts). */
+export interface TargetClasses {
+  /** The event's label as written (TRUE, 1, fail, …): target values 1. */
+  event: string;
+  /** The other class's label: target values 0. */
+  other: string;
+  /** Rows used of each class. */
+  eventRows: number;
+  otherRows: number;
+  /** How the event was picked when both classes have as many rows, or null. */
+  note: string | null;
 }
 
 /** The numbers for the engine, rows with blanks already removed. */
@@ -45,7 +73,12 @@ export interface FitTable {
   predictorNames: string[];
   /** predictors[i][j]: kept row i, predictor j. */
   predictors: number[][];
+  /** The target's numbers; for a yes/no target 1 = the event, 0 = the other class. */
   targetValues: number[];
+  /** How the target was read. */
+  outcome: OutcomeKind;
+  /** Yes/no targets: the two classes; null for a number target. */
+  classes: TargetClasses | null;
   weights: number[] | null;
   foldLabels: string[] | null;
   rowsUsed: number;
@@ -152,9 +185,18 @@ function assignRoles(table: TextTable, roles: ColumnRoles): { target: number; pr
  */
 export function buildFitTable(table: TextTable, roles: ColumnRoles): FitTable {
   const { target, predictors, weights, folds } = assignRoles(table, roles);
-  const numeric = [target, ...predictors, ...(weights >= 0 ? [weights] : [])];
-  const used = [...numeric, ...(folds >= 0 ? [folds] : [])];
+  const setting = roles.outcome ?? "auto";
+  // A number target is checked like any numeric column; otherwise readOutcome reads it (below).
+  const numeric = [...(setting === "number" ? [target] : []), ...predictors, ...(weights >= 0 ? [weights] : [])];
+  const used = [...(setting === "number" ? [] : [target]), ...numeric, ...(folds >= 0 ? [folds] : [])];
   const defaultPredictors = !roles.predictors;
+  if (setting === "number") {
+    // Two labels and no number: a yes/no target given --outcome number; readOutcome says so (as the cells do).
+    const cells = table.rows.map((row) => row[target]).filter((cell) => cell !== "");
+    if (cells.length > 0 && cells.every((cell) => numberFromText(cell) === null) && new Set(cells.map((cell) => cell.toLowerCase())).size === 2) {
+      readOutcome(cells.map(targetValue), { outcome: "number", name: table.columns[target] });
+    }
+  }
   // Text first, column by column in file order, so the message names the first offending row.
   for (const j of [...numeric].sort((a, b) => a - b)) {
     for (let r = 0; r < table.rows.length; r++) {
@@ -173,6 +215,8 @@ export function buildFitTable(table: TextTable, roles: ColumnRoles): FitTable {
     predictorNames: predictors.map((j) => table.columns[j]),
     predictors: [],
     targetValues: [],
+    outcome: "number",
+    classes: null,
     weights: weights >= 0 ? [] : null,
     foldLabels: folds >= 0 ? [] : null,
     rowsUsed: 0,
@@ -181,6 +225,7 @@ export function buildFitTable(table: TextTable, roles: ColumnRoles): FitTable {
     blanksByColumn: {},
   };
   const blankCounts = new Array<number>(table.columns.length).fill(0);
+  const targetCells: OutcomeValue[] = [];
   for (let r = 0; r < table.rows.length; r++) {
     const row = table.rows[r];
     const blanks = used.filter((j) => row[j] === "");
@@ -190,7 +235,8 @@ export function buildFitTable(table: TextTable, roles: ColumnRoles): FitTable {
       for (const j of blanks) blankCounts[j]++;
       continue;
     }
-    out.targetValues.push(numberFromText(row[target]) as number);
+    if (setting === "number") out.targetValues.push(numberFromText(row[target]) as number);
+    else targetCells.push(targetValue(row[target]));
     out.predictors.push(predictors.map((j) => numberFromText(row[j]) as number));
     if (out.weights) out.weights.push(numberFromText(row[weights]) as number);
     if (out.foldLabels) out.foldLabels.push(row[folds]);
@@ -201,7 +247,46 @@ export function buildFitTable(table: TextTable, roles: ColumnRoles): FitTable {
   if (out.rowsUsed === 0) {
     throw new CommandError(`no rows left to fit: all ${table.rows.length} data rows have a blank in a column the fit uses`);
   }
+  if (setting !== "number") readTarget(out, targetCells, table, target, setting, roles.event ?? null);
   return out;
+}
+
+/** A target cell as readOutcome takes it: a number, TRUE/FALSE (any case), or text. */
+export function targetValue(cell: string): OutcomeValue {
+  const n = numberFromText(cell);
+  if (n !== null) return n;
+  const word = cell.toLowerCase();
+  if (word === "true" || word === "false") return word === "true";
+  return cell;
+}
+
+/** Reads the target's kept cells with readOutcome (auto or two-class) into `out`. */
+function readTarget(out: FitTable, cells: OutcomeValue[], table: TextTable, target: number, setting: OutcomeSetting, event: string | null): void {
+  let reading;
+  try {
+    reading = readOutcome(cells, { outcome: setting, event, name: out.target });
+  } catch (error) {
+    // A column of numbers with a stray text is a typo in a number target: name the row, as for any numeric column.
+    const numbers = cells.filter((c) => typeof c === "number").length;
+    if (error instanceof InputError && setting === "auto" && numbers > 0 && 2 * numbers >= cells.length) {
+      for (let r = 0; r < table.rows.length; r++) {
+        const cell = table.rows[r][target];
+        if (cell !== "" && numberFromText(cell) === null) {
+          throw new CommandError(
+            `column '${out.target}' has text in data row ${r + 1} ('${cell}')${numberTextHint(cell, "file")}: use numbers only (leave a cell empty to skip its row)`,
+          );
+        }
+      }
+    }
+    throw error;
+  }
+  out.targetValues = Array.from(reading.values);
+  out.outcome = reading.kind;
+  if (reading.kind === "two-class") {
+    // readOutcome's note names the cells' setting (event=…); here the flag is --event.
+    const note = reading.note === null ? null : reading.note.replace(/\bevent=…/, "--event <label>");
+    out.classes = { event: reading.event, other: reading.other, eventRows: reading.eventCount, otherRows: reading.otherCount, note };
+  }
 }
 
 /** parseDelimited then buildFitTable: the file's text to the engine's input. */

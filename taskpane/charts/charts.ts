@@ -13,6 +13,12 @@
  *   "strength ÷ top of grid" (settings.cvAxis, see CvAxis);
  * - "bars": the chosen model's standardized coefficients as horizontal bars, largest first.
  *
+ * A yes/no (two-class) fit draws the same three charts: coefficients are log-odds of the event,
+ * so the path and the bars are in log-odds per SD (their axis titles say so), and the CV chart
+ * is in the chosen measure. For the AUC, where higher is better, the title and the y axis say
+ * "higher is better", the "lowest" rule's point is labelled "highest AUC", and the one-SE line
+ * sits one SE below it (engine/fit.ts higherIsBetter).
+ *
  * Two halves:
  * - pure option builders (`pathChartOptions`, `cvChartOptions`, `coefficientBarOptions`,
  *   `describeChart`, `suggestedHeight`): plain objects, no DOM, testable in Node;
@@ -82,7 +88,8 @@ import type {
 import { LabelLayout } from "echarts/features";
 import { CanvasRenderer, SVGRenderer } from "echarts/renderers";
 import type { ComposeOption } from "echarts/core";
-import type { FitResult } from "../../engine/fit";
+import { higherIsBetter, type FitResult } from "../../engine/fit";
+import { bestPointLabel, measureName as measureWords, measureWithDirection, oddsRatio, oneSeLineLabel, standardizedTitle } from "../outcomeWords";
 
 echarts.use([
   LineChart,
@@ -307,14 +314,32 @@ export function mixTitle(mix: number): string {
 }
 
 /** The y axis of the path chart and the x axis of the bars: coefficient × the term's population SD. */
-export const STANDARDIZED_TITLE = "standardized coefficient (per SD)";
+export const STANDARDIZED_TITLE = standardizedTitle("number");
 
+/** The path and bar axes' title for this fit: per SD, or log-odds per SD for a yes/no fit. */
+function standardizedAxis(result: FitResult): string {
+  return standardizedTitle(result.outcome ?? "number");
+}
+
+/** The CV measure's name (MSE, MAE, deviance, misclassified share, AUC). */
 function measureName(result: FitResult): string {
-  return (result.cv?.measure ?? "mse").toUpperCase();
+  return measureWords(result.cv?.measure ?? "mse");
+}
+
+/** The "lowest" rule's point in words: "lowest error", or "highest AUC". */
+function bestLabel(result: FitResult): string {
+  return bestPointLabel(result.cv?.measure ?? "mse");
+}
+
+/** The strength-0 fit by name: least squares, or (yes/no) the unpenalized logistic fit. */
+function unpenalizedName(result: FitResult, capital: boolean): string {
+  const name = result.outcome === "two-class" ? "unpenalized logistic fit" : "least squares";
+  if (!capital) return name;
+  return result.outcome === "two-class" ? "Unpenalized logistic fit" : "Least-squares fit";
 }
 
 function ruleText(result: FitResult): string {
-  if (result.rule === "lowest") return "lowest error";
+  if (result.rule === "lowest") return bestLabel(result);
   if (result.rule === "one-se") return "one-SE rule";
   return "fixed strength";
 }
@@ -559,7 +584,7 @@ function marksNote(result: FitResult): string {
   if (!result.choices) return "Line: the fixed strength fitted.";
   const rule = ruleText(result);
   if (!marks.band) return `Line: chosen (${rule}; both rules pick this λ).`;
-  return `Shaded: within 1 SE, from the one-SE rule's λ to the lowest error's. Line: chosen (${rule}).`;
+  return `Shaded: within 1 SE, from the one-SE rule's λ to the ${bestLabel(result)}'s. Line: chosen (${rule}).`;
 }
 
 type AxisParam = { seriesId?: string; seriesName?: string; value?: unknown; marker?: unknown; color?: unknown };
@@ -588,7 +613,7 @@ export function pathChartOptions(result: FitResult, settings: ChartSettings): Ch
     );
   }
   if (keep.length < result.path.strengths.length) {
-    notes.push(keep.length === 0 ? "Least-squares fit (λ = 0): there is no path to draw." : "λ = 0 can't be shown on a log scale; that point is left out.");
+    notes.push(keep.length === 0 ? `${unpenalizedName(result, true)} (λ = 0): there is no path to draw.` : "λ = 0 can't be shown on a log scale; that point is left out.");
   }
   const note = notes.join("\n");
   const labelled = new Set(drawn.filter((t) => t.chosen !== 0).slice(0, layout.endLabels).map((t) => t.index));
@@ -692,7 +717,7 @@ export function pathChartOptions(result: FitResult, settings: ChartSettings): Ch
     title: titleOption(title, note, palette, layout, settings.width),
     grid,
     xAxis: strengthAxis(extent, palette, layout),
-    yAxis: { type: "value", ...valueAxisStyle(STANDARDIZED_TITLE, palette, layout), nameGap: yNameGap },
+    yAxis: { type: "value", ...valueAxisStyle(standardizedAxis(result), palette, layout), nameGap: yNameGap },
     tooltip: {
       ...tooltipBase(palette, layout),
       trigger: "axis",
@@ -706,7 +731,7 @@ export function pathChartOptions(result: FitResult, settings: ChartSettings): Ch
           .slice(0, layout.tooltipRows)
           .map((p) => `${typeof p.marker === "string" ? p.marker : ""}${escapeHtml(String(p.seriesName))}: ${formatNumber((p.value as number[])[1])}`);
         if (rows.length > layout.tooltipRows) lines.push(`+${rows.length - layout.tooltipRows} more`);
-        return [`λ ${formatNumber(strength)} (${STANDARDIZED_TITLE})`, ...lines].join("<br/>");
+        return [`λ ${formatNumber(strength)} (${standardizedAxis(result)})`, ...lines].join("<br/>");
       },
     },
     legend: {
@@ -751,6 +776,9 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
   const palette = PALETTES[settings.theme];
   const layout = layoutFor(settings.width);
   const measure = measureName(result);
+  const higher = result.cv ? higherIsBetter(result.cv.measure) : false;
+  const measureTitle = result.cv ? measureWithDirection(result.cv.measure) : measure;
+  const seLabel = oneSeLineLabel(result.cv?.measure ?? "mse");
   if (!result.cv || result.cv.table.length === 0) {
     return {
       ...baseOption(palette, layout),
@@ -806,7 +834,7 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
     if (isBest && result.choices) {
       const { lowest: min, oneSe: onese } = result.choices;
       const points = [
-        { label: "lowest error", point: min, chosen: result.rule === "lowest", symbol: "circle", position: "top" as const },
+        { label: bestLabel(result), point: min, chosen: result.rule === "lowest", symbol: "circle", position: "top" as const },
         { label: "one-SE rule", point: onese, chosen: result.rule === "one-se", symbol: "diamond", position: "bottom" as const },
       ];
       line.markPoint = {
@@ -829,9 +857,11 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
           },
         })),
       };
-      // The "+ 1 SE" label goes to the side of the plot away from the marked points. On the
-      // inverted axis the line's end is its left end.
+      // The "± 1 SE" label goes to the side of the plot away from the marked points. On the
+      // inverted axis the line's end is its left end. For the AUC the one-SE rule's threshold is
+      // one SE below the highest value (engine/fit.ts higherIsBetter), and its label sits under the line.
       const pointsLeft = across(xOf(mix, Math.sqrt(min.strength * onese.strength))) < 0.5;
+      const seLabelPosition = higher ? (pointsLeft ? "insideStartBottom" : "insideEndBottom") : pointsLeft ? "insideStartTop" : "insideEndTop";
       line.markLine = {
         silent: true,
         symbol: ["none", "none"],
@@ -839,10 +869,10 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
         precision: -1, // place the line at the exact value (see the path chart's line)
         data: [
           {
-            yAxis: min.error + min.se,
-            name: "lowest error + 1 SE",
+            yAxis: higher ? min.error - min.se : min.error + min.se,
+            name: seLabel,
             lineStyle: { color: palette.muted, type: "dashed", width: 1 },
-            label: { show: true, formatter: "lowest error + 1 SE", position: pointsLeft ? "insideStartTop" : "insideEndTop", color: palette.muted, fontSize: layout.font - 1 },
+            label: { show: true, formatter: seLabel, position: seLabelPosition, color: palette.muted, fontSize: layout.font - 1 },
           },
         ],
       };
@@ -880,7 +910,7 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
   const note =
     `${legendShown ? `Lines: ${MIX_TITLE}.` : `${mixTitle(mixes[0])}.`} Shaded: ± 1 SE over ${result.cv.folds} folds.` +
     (fraction ? " Each mix's λ is divided by the top of its own grid." : "");
-  const title = `Cross-validated ${measure}`;
+  const title = `Cross-validated ${measureTitle}`;
   let yLow = Infinity;
   let yHigh = -Infinity;
   for (const r of table) {
@@ -893,7 +923,7 @@ export function cvChartOptions(result: FitResult, settings: ChartSettings): Char
     title: titleOption(title, note, palette, layout, settings.width),
     grid,
     xAxis: strengthAxis({ min: lo, max: hi }, palette, layout, CV_AXIS_NAMES[axisKind]),
-    yAxis: { type: "value", scale: true, ...valueAxisStyle(`cross-validated ${measure}`, palette, layout), nameGap: yNameGap },
+    yAxis: { type: "value", scale: true, ...valueAxisStyle(`cross-validated ${measureTitle}`, palette, layout), nameGap: yNameGap },
     tooltip: {
       ...tooltipBase(palette, layout),
       trigger: "axis",
@@ -966,7 +996,7 @@ export function barEntries(result: FitResult): { nonzero: BarEntry[]; zero: stri
 }
 
 function choiceTitle(result: FitResult): string {
-  if (result.rule === "fixed" && result.strength === 0) return "least squares (λ 0)";
+  if (result.rule === "fixed" && result.strength === 0) return `${unpenalizedName(result, false)} (λ 0)`;
   return `λ ${formatNumber(result.strength)}`;
 }
 
@@ -979,11 +1009,14 @@ export function coefficientBarOptions(result: FitResult, settings: ChartSettings
   const layout = layoutFor(settings.width);
   const { nonzero, zero } = barEntries(result);
   const shown = nonzero.slice(0, MAX_BARS);
+  const twoClass = result.outcome === "two-class";
   const notes = leastSquares(result) ? [] : [`${mixTitle(result.mix)}.`];
-  notes.push("Per SD of each term; intercept not shown.");
+  notes.push(twoClass ? "Log-odds of the event per SD of each term; intercept not shown." : "Per SD of each term; intercept not shown.");
   if (nonzero.length > shown.length) notes.push(`${nonzero.length - shown.length} smaller terms kept but not drawn.`);
   if (zero.length > 0) notes.push(`Zero, not drawn: ${nameList(zero, layout.compact ? 4 : 8, layout.nameChars)}`);
-  if (nonzero.length === 0) notes.push("Every coefficient is 0: the model predicts the average.");
+  if (nonzero.length === 0) {
+    notes.push(twoClass ? "Every coefficient is 0: the model gives every row the overall share of events." : "Every coefficient is 0: the model predicts the average.");
+  }
   const note = notes.join("\n");
   const base: ChartOption = {
     ...baseOption(palette, layout),
@@ -1010,7 +1043,7 @@ export function coefficientBarOptions(result: FitResult, settings: ChartSettings
       type: "value",
       min: low < 0 ? low - pad : 0,
       max: high > 0 ? high + pad : 0,
-      ...valueAxisStyle(STANDARDIZED_TITLE, palette, layout),
+      ...valueAxisStyle(standardizedAxis(result), palette, layout),
       nameGap: layout.font + 12,
       axisLabel: {
         color: palette.text,
@@ -1036,6 +1069,14 @@ export function coefficientBarOptions(result: FitResult, settings: ChartSettings
         const p = asParams(params)[0] as AxisParam & { dataIndex?: number };
         const entry = typeof p.dataIndex === "number" ? shown[p.dataIndex] : undefined;
         if (!entry) return "";
+        if (twoClass) {
+          return [
+            `<b>${escapeHtml(entry.name)}</b>`,
+            `log-odds per SD of term: ${signed(entry.value)}`,
+            `log-odds per unit of term: ${signed(result.coefficients[entry.index])}`,
+            `odds ratio per unit: ${formatNumber(oddsRatio(result.coefficients[entry.index]))}`,
+          ].join("<br/>");
+        }
         return [
           `<b>${escapeHtml(entry.name)}</b>`,
           `per SD of term: ${signed(entry.value)}`,
@@ -1047,7 +1088,7 @@ export function coefficientBarOptions(result: FitResult, settings: ChartSettings
       {
         type: "bar",
         id: "bars",
-        name: STANDARDIZED_TITLE,
+        name: standardizedAxis(result),
         barMaxWidth: 18,
         barCategoryGap: "35%",
         data: shown.map((e) => ({
@@ -1104,7 +1145,7 @@ export function describeChart(kind: ChartKind, result: FitResult, spreads?: Arra
       .join(", ");
   if (kind === "path") {
     const strengths = result.path.strengths.filter((s) => s > 0);
-    if (strengths.length === 0) return "Coefficient path: not available for a least-squares fit (strength 0).";
+    if (strengths.length === 0) return `Coefficient path: not available for ${result.outcome === "two-class" ? "an unpenalized logistic" : "a least-squares"} fit (strength 0).`;
     const ranked = rankedTerms(result, spreads);
     const drawn = ranked.filter((t) => t.spread !== null);
     const missing = ranked.length - drawn.length;
@@ -1115,7 +1156,7 @@ export function describeChart(kind: ChartKind, result: FitResult, spreads?: Arra
     if (marks.band && result.choices) {
       marked =
         `A shaded band marks the strengths within 1 SE, from λ ${formatNumber(result.choices.oneSe.strength)} (one-SE rule) ` +
-        `to λ ${formatNumber(result.choices.lowest.strength)} (lowest error). `;
+        `to λ ${formatNumber(result.choices.lowest.strength)} (${bestLabel(result)}). `;
     }
     if (marks.line) {
       const why = !result.choices ? "the fixed strength" : marks.band ? ruleText(result) : "both rules pick it";
@@ -1127,25 +1168,25 @@ export function describeChart(kind: ChartKind, result: FitResult, spreads?: Arra
       `Coefficient path for ${mixTitle(result.path.mix)}: ${drawn.length} of ${result.terms.length} terms, ` +
       `λ from ${formatNumber(Math.max(...strengths))} down to ${formatNumber(Math.min(...strengths))} (log scale). ` +
       marked +
-      (top.length ? `; largest per SD: ${largest(top)}.` : ".") +
+      (top.length ? `; largest ${result.outcome === "two-class" ? "log-odds " : ""}per SD: ${largest(top)}.` : ".") +
       (missing ? ` ${missing} terms not drawn (their SD is unknown).` : "")
     );
   }
   if (kind === "cv") {
     if (!result.cv || !result.choices) return `No cross-validation: fitted at a fixed strength λ ${formatNumber(result.strength)}.`;
-    const measure = measureName(result);
+    const measure = measureWithDirection(result.cv.measure);
     const mixes = [...new Set(result.cv.table.map((r) => r.mix))];
     const { lowest: min, oneSe: onese } = result.choices;
     return (
       `Cross-validated ${measure} against ${cvAxis === "fraction" ? "strength ÷ top of grid (each mix's λ over the top of its own grid)" : "λ"} ` +
       `for ${mixes.length === 1 ? mixTitle(mixes[0]) : `${mixes.length} values of ${MIX_TITLE}`}, with ± 1 SE bands (log scale). ` +
-      `Marked: lowest error ${formatNumber(min.error)} ± ${formatNumber(min.se)} at ${mixTitle(min.mix)}, λ ${formatNumber(min.strength)}, ${min.termsKept} terms kept; ` +
+      `Marked: ${bestLabel(result)} ${formatNumber(min.error)} ± ${formatNumber(min.se)} at ${mixTitle(min.mix)}, λ ${formatNumber(min.strength)}, ${min.termsKept} terms kept; ` +
       `one-SE rule at λ ${formatNumber(onese.strength)}, ${onese.termsKept} terms kept. Chosen: ${ruleText(result)}.`
     );
   }
   const { nonzero, zero } = barEntries(result);
   return (
-    `Coefficients per SD of each term at ${choiceTitle(result)}${leastSquares(result) ? "" : `, ${mixTitle(result.mix)}`}: ` +
+    `${result.outcome === "two-class" ? "Log-odds of the event" : "Coefficients"} per SD of each term at ${choiceTitle(result)}${leastSquares(result) ? "" : `, ${mixTitle(result.mix)}`}: ` +
     (nonzero.length ? `${largest(nonzero)}${nonzero.length > 3 ? `, and ${nonzero.length - 3} more` : ""}. ` : "all zero. ") +
     (zero.length ? `${zero.length} terms are zero.` : "No term is zero.")
   );

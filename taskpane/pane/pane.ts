@@ -12,12 +12,23 @@
  * when a chosen range's cells, a range, the header toggle or a setting change. Results of the
  * last finished fit stay on screen, under a banner, while stale, failed or cancelled.
  *
+ * A yes/no target (two classes: TRUE/FALSE, 0/1, pass/fail…) works as a number target does. The
+ * pane reads the target as the cells will (paneState.detectOutcome) whenever the ranges or the
+ * settings that decide it change, says how it reads under the target picker ("yes/no outcome,
+ * event 'fail' (73 of 296 rows; …)"), and tells the settings form, which then offers that kind's
+ * error measures and, for yes/no, the event, cutoff and predictions. Results then show the
+ * outcome, the in-sample log loss, Brier score and AUC and the table at the cutoff; the charts,
+ * the coefficient table (with odds ratios) and the report follow the outcome.
+ *
  * Stable test ids (`data-testid`), for the browser tests:
  *   Ranges      target-address, target-use-selection, target-prompt (only where the host has a
  *               range prompt); the same for predictors-*, new-rows-* (+ new-rows-clear);
+ *               target-outcome (how the target reads: "yes/no outcome, event 'fail' …",
+ *               "number outcome (…)", or why it can't be read; data-kind = number | two-class | "");
  *               header-toggle (select: auto / yes / no); setting-weights-column (select of the
  *               predictors' column names)
- *   Settings    setting-mixes, setting-folds, setting-rule, setting-error, setting-seed,
+ *   Settings    setting-outcome, setting-event, setting-cutoff, setting-predict (the last three
+ *               shown for a yes/no target), setting-mixes, setting-folds, setting-rule, setting-error, setting-seed,
  *               setting-standardize, setting-intercept, setting-strength, setting-grid-density,
  *               setting-grid-size, setting-low-end, setting-stop-early, setting-time-order, setting-fold-column, setting-penalty,
  *               setting-no-penalty, setting-lower, setting-upper, setting-zero-is-missing;
@@ -29,7 +40,8 @@
  *               starts "Fitted" when done), stale-banner (+ stale-fit-button)
  *   Results     results (section), chosen-strength (text = the strength as shown, data-value =
  *               full precision), chosen-mix, chosen-error, chosen-rule, chosen-nonzero (terms kept),
- *               chosen-rows, fit-notes;
+ *               chosen-rows, fit-notes; yes/no fits also chosen-outcome, chosen-class-fit
+ *               (in-sample log loss, Brier, AUC) and chosen-cutoff (the table at the cutoff);
  *               chart-path, chart-cv, chart-bars (chart containers; role img, aria-label = the
  *               chart's describe()), chart-path-caption, chart-cv-caption, chart-bars-caption,
  *               cv-axis (the CV chart's x-axis choice, a radio group: cv-axis-strength,
@@ -47,6 +59,7 @@
 import { CancelledError } from "../../engine/errors";
 import type { FitResult } from "../../engine/fit";
 import { errorWithSe, MIX_LABEL, RULE_WORDS } from "../../engine/words";
+import { bestPointLabel, outcomeLine } from "../outcomeWords";
 import { prepare } from "../../functions/api";
 import { sharedRunner } from "../../functions/functions";
 import { cancelSource, type FitRunner } from "../../functions/runner";
@@ -64,11 +77,13 @@ import {
 } from "./insertFormulas";
 import {
   columnNames,
+  detectOutcome,
   emptyInputs,
   fitStatusText,
   formatNumber,
   IDLE,
   INPUTS_KEY,
+  measureSummary,
   mixesText,
   progressText,
   reduceFit,
@@ -79,6 +94,7 @@ import {
   type FitEvent,
   type FitOutcome,
   type FitState,
+  type OutcomeDetection,
   type PaneInputs,
   type PaneRanges,
 } from "./paneState";
@@ -106,10 +122,15 @@ export interface PaneHandle {
   inputs(): PaneInputs;
   /** Re-reads the host's theme (light/dark) and applies it. */
   applyTheme(): void;
+  /** Sets ranges as the pickers would (e.g. the standalone preview's choice of demo data); the others stay. */
+  setRanges(ranges: Partial<PaneRanges>): void;
   dispose(): void;
 }
 
 type ChartKind = "path" | "cv" | "bars";
+
+/** Settings that change how the target reads (its kind, its event, which rows it keeps). */
+const OUTCOME_SETTINGS: readonly string[] = ["outcome", "event", "zero is missing", "weights column", "fold column"];
 
 const CHARTS: readonly { kind: ChartKind; title: string; file: string }[] = [
   { kind: "path", title: "Coefficient path", file: "shrinkwise-path" },
@@ -257,12 +278,18 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
         inputs.ranges[spec.field] = address;
         changed(true);
         if (spec.field === "predictors") void refreshColumns();
+        if (spec.field !== "newRows") scheduleOutcome();
         renderFormulaPreview();
       },
       say,
     );
     ranges.section.append(pickers[spec.field]!.element);
   }
+
+  // How the target reads (number or yes/no, its event), under the target picker.
+  const outcomeNote = el("p", { className: "hint outcome-line", testid: "target-outcome", id: "target-outcome" });
+  outcomeNote.setAttribute("aria-live", "polite");
+  pickers.target!.element.after(outcomeNote);
 
   // Header toggle.
   const headerField = el("div", { className: "field" });
@@ -285,15 +312,17 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
     inputs.header = headerSelect.value === "yes" || headerSelect.value === "no" ? headerSelect.value : "auto";
     changed(true);
     void refreshColumns();
+    scheduleOutcome();
     renderFormulaPreview();
   });
   headerField.append(headerLabel, headerSelect, headerHint);
 
   // ---- Settings -----------------------------------------------------------------------------
-  const form = renderSettingsForm(inputs, () => {
+  const form = renderSettingsForm(inputs, (name) => {
     changed(true);
     renderFormulaPreview();
     renderButtons();
+    if (OUTCOME_SETTINGS.includes(name)) scheduleOutcome();
   });
   ranges.section.insertBefore(headerField, pickers.newRows!.element);
   ranges.section.append(form.weightsElement);
@@ -346,6 +375,11 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
   const chosenRule = summaryItem("Chosen by", "chosen-rule");
   const chosenNonzero = summaryItem("Terms kept", "chosen-nonzero");
   const chosenRows = summaryItem("Rows", "chosen-rows");
+  // Yes/no fits only (hidden, with their labels, for a number target).
+  const chosenOutcome = summaryItem("Outcome", "chosen-outcome");
+  const chosenClassFit = summaryItem("In-sample", "chosen-class-fit");
+  const chosenCutoff = summaryItem("At the cutoff", "chosen-cutoff");
+  const twoClassRows = [chosenOutcome, chosenClassFit, chosenCutoff];
   const notes = el("ul", { className: "notes", testid: "fit-notes" });
   notes.setAttribute("aria-label", "Notes on the fit");
 
@@ -543,6 +577,40 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
     }
   }
 
+  // ---- How the target reads --------------------------------------------------------------
+  let outcomeTimer: ReturnType<typeof setTimeout> | undefined;
+  let outcomeRun = 0;
+
+  /** Reads the target again shortly (ranges or the settings that decide its kind changed). */
+  function scheduleOutcome(): void {
+    clearTimeout(outcomeTimer);
+    outcomeTimer = setTimeout(() => void refreshOutcome(), 250);
+  }
+
+  function showOutcome(detection: OutcomeDetection | null): void {
+    outcomeNote.textContent = detection ? detection.line : inputs.ranges.target ? "Choose the predictors to see how the target reads." : "";
+    outcomeNote.dataset.kind = detection?.ok ? detection.kind : "";
+    outcomeNote.classList.toggle("failed", detection !== null && !detection.ok);
+    if (detection?.ok) form.setOutcome(detection.kind, detection.labels, detection.defaultEvent);
+    else form.setOutcome(null);
+  }
+
+  async function refreshOutcome(): Promise<void> {
+    const mine = ++outcomeRun;
+    if (!inputs.ranges.target || !inputs.ranges.predictors) {
+      showOutcome(null);
+      return;
+    }
+    try {
+      const [target, predictors] = await Promise.all([host.readValues(inputs.ranges.target), host.readValues(inputs.ranges.predictors)]);
+      if (mine !== outcomeRun || disposed) return;
+      showOutcome(detectOutcome(target, predictors, inputs));
+    } catch (error) {
+      if (mine !== outcomeRun || disposed) return;
+      showOutcome({ ok: false, message: messageOf(error), line: `The target can't be read yet: ${messageOf(error)}` });
+    }
+  }
+
   let renderedOutcome: FitOutcome | null = null;
 
   function dispatch(event: FitEvent): void {
@@ -600,16 +668,35 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
     chosenMix.textContent = r.mix === 0 ? "0 (ridge)" : r.mix === 1 ? "1 (lasso)" : `${formatNumber(r.mix)} (elastic net)`;
     chosenMix.dataset.value = String(r.mix);
     const chosen = r.choices ? (r.rule === "one-se" ? r.choices.oneSe : r.choices.lowest) : null;
-    chosenError.textContent = chosen && r.cv ? `CV ${r.cv.measure.toUpperCase()} ${errorWithSe(chosen.error, chosen.se)}` : "none (fixed strength)";
-    chosenRule.textContent = r.rule === "fixed" ? "fixed strength" : RULE_WORDS[r.rule];
+    chosenError.textContent = chosen && r.cv ? measureSummary(r.cv.measure, errorWithSe(chosen.error, chosen.se)) : "none (fixed strength)";
+    chosenRule.textContent = r.rule === "fixed" ? "fixed strength" : r.rule === "lowest" && r.cv ? bestPointLabel(r.cv.measure) : RULE_WORDS[r.rule];
     const termsKept = r.coefficients.filter((b) => b !== 0).length;
     chosenNonzero.textContent = `${termsKept} of ${r.terms.length}`;
     chosenRows.textContent = `${r.rowsUsed} used, ${outcome.prepared.dataset.rowsSkipped} skipped`;
+    const dataset = outcome.prepared.dataset;
+    const classFit = r.outcome === "two-class" ? r.classFit : null;
+    for (const value of twoClassRows) {
+      const dd = value.parentElement as HTMLElement;
+      dd.hidden = classFit === null;
+      (dd.previousElementSibling as HTMLElement).hidden = classFit === null;
+    }
+    if (classFit) {
+      chosenOutcome.textContent = outcomeLine("two-class", dataset.classes, r.rowsUsed);
+      chosenClassFit.textContent = `log loss ${formatNumber(classFit.logLoss)}, Brier ${formatNumber(classFit.brier)}, AUC ${formatNumber(classFit.auc)}`;
+      const event = dataset.classes ? `'${dataset.classes.event}'` : "event";
+      chosenCutoff.textContent =
+        `${formatNumber(classFit.cutoff)}: ${formatNumber(classFit.eventsCaught)} events caught, ${formatNumber(classFit.eventsMissed)} missed, ` +
+        `${formatNumber(classFit.falseAlarms)} false alarms, ${formatNumber(classFit.correctAllClear)} correct all-clear (a row is flagged as ${event} at or above the cutoff)`;
+    }
     const noteTexts = [...outcome.prepared.dataset.notes, ...r.warnings.map((w) => w.message)];
     notes.replaceChildren(...noteTexts.map((text) => el("li", { text })));
     notes.hidden = noteTexts.length === 0;
     renderCharts(r, r.predictorSpreads.map((spread) => (spread > 0 ? spread : null)));
-    tableHolder.replaceChildren(renderCoefficientTable(r, `${r.terms.length} terms, largest effect first (standardized: per standard deviation of the predictor)`));
+    const caption =
+      r.outcome === "two-class"
+        ? `${r.terms.length} terms, largest effect first: log-odds of ${dataset.classes ? `'${dataset.classes.event}'` : "the event"} per unit, the odds ratio (what the odds are multiplied by per unit), and log-odds per standard deviation of the predictor`
+        : `${r.terms.length} terms, largest effect first (standardized: per standard deviation of the predictor)`;
+    tableHolder.replaceChildren(renderCoefficientTable(r, caption));
   }
 
   function renderCharts(result: FitResult, spreads: (number | null)[]): void {
@@ -900,6 +987,7 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
   form.load();
   render(state);
   void refreshColumns();
+  void refreshOutcome();
   if (!saved && options.defaults) scheduleSave();
 
   return {
@@ -907,8 +995,23 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
     state: () => state,
     inputs: () => inputs,
     applyTheme,
+    setRanges(next: Partial<PaneRanges>) {
+      for (const field of ["target", "predictors", "newRows", "destination"] as const) {
+        const address = next[field];
+        if (address === undefined) continue;
+        inputs.ranges[field] = address;
+        if (field === "destination") destination.show(address);
+        else pickers[field]?.show(address);
+      }
+      hideConfirm();
+      changed(true);
+      void refreshColumns();
+      scheduleOutcome();
+      renderFormulaPreview();
+    },
     dispose() {
       disposed = true;
+      clearTimeout(outcomeTimer);
       cancelRun?.();
       unwatch?.();
       clearTimeout(saveTimer);

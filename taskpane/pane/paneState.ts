@@ -16,9 +16,12 @@
  * Every event carries the run number it belongs to, so a late message from a superseded run
  * (a progress report after Cancel, a result after a new start) changes nothing.
  */
-import { parseRule, type FitResult } from "../../engine/fit";
+import { checkMeasure, higherIsBetter, MEASURES, parseRule, type ErrorMeasure, type FitResult } from "../../engine/fit";
+import type { OutcomeKind } from "../../engine/outcome";
 import type { Prepared } from "../../functions/api";
-import { parseMixes, parseSettings, SETTING_NAMES } from "../../functions/settings";
+import { buildDataset } from "../../functions/dataset";
+import { defaultSettings, parseMixes, parseSettings, SETTING_NAMES, type Settings } from "../../functions/settings";
+import { measureName, outcomeLine } from "../outcomeWords";
 
 // ---------------------------------------------------------------------------------------------
 // What the user chose
@@ -181,11 +184,20 @@ export interface SettingsCheck {
   ok: boolean;
 }
 
-export function checkSettings(inputs: PaneInputs): SettingsCheck {
+/**
+ * Checks every field, then the settings together. With `outcome` (the target's kind, when the
+ * pane has read it: detectOutcome) the settings of the other kind of target are refused as the
+ * cells will refuse them: an error measure of the other kind (the engine's checkMeasure words),
+ * and event, cutoff or predict on a number target.
+ */
+export function checkSettings(inputs: PaneInputs, outcome: OutcomeKind | null = null): SettingsCheck {
   const fields: Record<string, string> = {};
   for (const name of FORM_SETTING_NAMES) {
     const problem = settingProblem(name, inputs.settings[name] ?? "");
     if (problem) fields[name] = problem;
+  }
+  if (outcome !== null) {
+    for (const [name, problem] of Object.entries(outcomeProblems(inputs, outcome))) fields[name] ??= problem;
   }
   const mixes = mixesProblem(inputs.mixes);
   let overall: string | null = null;
@@ -204,6 +216,102 @@ export function checkSettings(inputs: PaneInputs): SettingsCheck {
     }
   }
   return { fields, mixes, overall, ok: Object.keys(fields).length === 0 && mixes === null && overall === null };
+}
+
+/** The settings a yes/no target alone uses (the cells refuse them on a number target). */
+export const TWO_CLASS_SETTINGS: readonly string[] = ["event", "cutoff", "predict"];
+
+/** Per field, why a setting doesn't fit a target of this kind (see checkSettings). */
+export function outcomeProblems(inputs: PaneInputs, outcome: OutcomeKind): Record<string, string> {
+  const problems: Record<string, string> = {};
+  let settings: Settings;
+  try {
+    settings = parseSettings(settingsText(inputs) || null);
+  } catch {
+    return problems; // the fields' own messages say what is wrong first
+  }
+  try {
+    checkMeasure(settings.measure, outcome);
+  } catch (error) {
+    problems.error = messageOf(error);
+  }
+  if (outcome === "number") {
+    for (const name of TWO_CLASS_SETTINGS) {
+      if ((inputs.settings[name] ?? "").trim() !== "") problems[name] = `'${name}' applies to a yes/no target, and this target reads as numbers: clear it, or choose a target with two classes`;
+    }
+  }
+  return problems;
+}
+
+/** The error measures offered for a target of this kind, default first (engine/fit.ts MEASURES); both kinds' when it isn't known. */
+export function measureChoices(outcome: OutcomeKind | null): readonly ErrorMeasure[] {
+  return outcome === null ? MEASURES.number : MEASURES[outcome];
+}
+
+/** How the target reads (the cells' rules: functions/dataset.ts buildDataset with the pane's settings). */
+export type OutcomeDetection =
+  | {
+      ok: true;
+      kind: OutcomeKind;
+      /** Rows the fit would use. */
+      rows: number;
+      /** Yes/no targets: the event as set (or the default one), the other class, and their rows. */
+      classes: { event: string; other: string; eventCount: number; otherCount: number } | null;
+      /** The event readOutcome picks when none is named, and both labels (for the event choice). */
+      defaultEvent: string | null;
+      labels: string[];
+      /** The line shown under the target picker. */
+      line: string;
+    }
+  | { ok: false; message: string; line: string };
+
+/**
+ * Reads the target as the cells will (header detection, blanks, the `outcome`, `event`, `header`,
+ * `zero is missing`, `weights column` and `fold column` settings): its kind, its classes, and
+ * the line for under the target picker. Never throws: a target the cells would refuse gives
+ * their message. Settings that don't parse are left out (their fields show why).
+ */
+export function detectOutcome(target: unknown[][], predictors: unknown[][], inputs: PaneInputs): OutcomeDetection {
+  let settings: Settings;
+  try {
+    settings = parseSettings(settingsText(inputs) || null);
+  } catch {
+    settings = { ...defaultSettings(), header: inputs.header };
+  }
+  const messageLine = (message: string): OutcomeDetection => ({ ok: false, message, line: `The target can't be read yet: ${message}` });
+  try {
+    // Read once without the event: the default event and both labels, whatever the user named.
+    const dataset = buildDataset(target, predictors, { ...settings, event: null });
+    if (dataset.outcome === "number" || !dataset.classes) {
+      return { ok: true, kind: "number", rows: dataset.rowsUsed, classes: null, defaultEvent: null, labels: [], line: outcomeLine("number", null, dataset.rowsUsed) };
+    }
+    const read = dataset.classes;
+    let classes = { event: read.event, other: read.other, eventCount: read.eventCount, otherCount: read.otherCount };
+    const named = settings.event?.trim().toLowerCase() ?? "";
+    if (named !== "") {
+      if (named === read.other.toLowerCase()) classes = { event: read.other, other: read.event, eventCount: read.otherCount, otherCount: read.eventCount };
+      else if (named !== read.event.toLowerCase()) {
+        // Not one of the two: the cells' own message.
+        buildDataset(target, predictors, settings);
+      }
+    }
+    return {
+      ok: true,
+      kind: "two-class",
+      rows: dataset.rowsUsed,
+      classes,
+      defaultEvent: read.event,
+      labels: [read.event, read.other],
+      line: outcomeLine("two-class", classes, dataset.rowsUsed),
+    };
+  } catch (error) {
+    return messageLine(messageOf(error));
+  }
+}
+
+/** The chosen point's cross-validated measure for the results summary: "CV AUC 0.843 ± 0.021 (higher is better)". */
+export function measureSummary(measure: ErrorMeasure, errorText: string): string {
+  return higherIsBetter(measure) ? `CV ${measureName(measure)} ${errorText} (higher is better)` : `CV ${measureName(measure)} ${errorText}`;
 }
 
 /** Column names for the weights and fold column choices: the header row's texts, or x1, x2, … */

@@ -8,8 +8,17 @@
  * The common settings are shown; the rest sit under "More settings" (a <details>). Fields that
  * name a predictors column (fold column, and the weights column shown with the ranges) offer
  * the predictors' header names.
+ *
+ * The target's kind (setOutcome, from the pane's reading of the target: paneState.detectOutcome)
+ * decides what the form offers: the error measures of that kind (MSE/MAE for numbers;
+ * deviance/misclassified/AUC for yes/no), and, for a yes/no target, the event (a choice of its
+ * two labels), the cutoff and what SHRINK.PREDICT returns. Those three stay hidden for a number
+ * target unless they hold a value (which the cells would refuse: the field says why).
  */
-import { checkSettings, type PaneInputs, type SettingsCheck } from "./paneState";
+import type { OutcomeKind } from "../../engine/outcome";
+import { higherIsBetter, type ErrorMeasure } from "../../engine/fit";
+import { parseSettings } from "../../functions/settings";
+import { checkSettings, measureChoices, type PaneInputs, type SettingsCheck } from "./paneState";
 
 export interface Choice {
   value: string;
@@ -21,13 +30,30 @@ export interface FieldSpec {
   name: string;
   label: string;
   hint: string;
-  kind: "text" | "choice" | "column";
+  kind: "text" | "choice" | "column" | "label";
   choices?: Choice[];
   placeholder?: string;
   /** Under "More settings". */
   more?: boolean;
   /** inputmode for text fields. */
   inputMode?: "numeric" | "decimal" | "text";
+  /** Shown for a yes/no target only (or when it holds a value). */
+  twoClassOnly?: boolean;
+}
+
+/** The error measure choices of each kind of target; the empty value is the kind's default (the first). */
+export const MEASURE_CHOICES: Readonly<Record<ErrorMeasure, string>> = {
+  mse: "Mean squared error, MSE",
+  mae: "Mean absolute error, MAE",
+  deviance: "Deviance (how far the probabilities are from what happened)",
+  misclassified: "Share misclassified at the cutoff",
+  auc: "AUC, area under the ROC curve (higher is better)",
+};
+
+/** The error field's choices for a target of this kind (number when not known). */
+export function errorChoices(outcome: OutcomeKind | null): Choice[] {
+  const measures = measureChoices(outcome);
+  return measures.map((measure, k) => (k === 0 ? { value: "", label: `${MEASURE_CHOICES[measure]} (default)` } : { value: measure, label: MEASURE_CHOICES[measure] }));
 }
 
 const YES_DEFAULT: Choice[] = [
@@ -43,6 +69,17 @@ const NO_DEFAULT: Choice[] = [
 
 /** The fields in page order. `weights column` is drawn with the ranges (see `renderColumnField`). */
 export const FIELDS: readonly FieldSpec[] = [
+  {
+    name: "outcome",
+    label: "Target kind",
+    hint: "Detect reads a target with exactly two values (TRUE/FALSE, 0/1, or two labels such as pass/fail) as yes/no, and anything else as numbers. A yes/no target gets a penalized logistic regression: the model gives the probability of the event.",
+    kind: "choice",
+    choices: [
+      { value: "", label: "Detect from the values (default)" },
+      { value: "number", label: "Number" },
+      { value: "two-class", label: "Yes/no (two classes)" },
+    ],
+  },
   {
     name: "mixes",
     label: "Mix α (lasso share): values to try",
@@ -67,10 +104,34 @@ export const FIELDS: readonly FieldSpec[] = [
     label: "Error measure",
     hint: "How cross-validation scores each strength.",
     kind: "choice",
+    choices: errorChoices(null),
+  },
+  {
+    name: "event",
+    label: "Event (yes/no target)",
+    hint: "The class whose probability the model gives; coefficients are log-odds of it. Default: TRUE, else 1, else the rarer label.",
+    kind: "label",
+    twoClassOnly: true,
+  },
+  {
+    name: "cutoff",
+    label: "Cutoff probability (yes/no target)",
+    hint: "A row is flagged as the event when its probability is at least this: for the misclassified share, the table of events caught and false alarms, and predicted classes. Weigh what a missed event costs against a false alarm. Empty: 0.5.",
+    kind: "text",
+    placeholder: "0.5",
+    inputMode: "decimal",
+    twoClassOnly: true,
+  },
+  {
+    name: "predict",
+    label: "Predictions (yes/no target)",
+    hint: "What SHRINK.PREDICT returns for each new row.",
+    kind: "choice",
     choices: [
-      { value: "", label: "Mean squared error, MSE (default)" },
-      { value: "mae", label: "Mean absolute error, MAE" },
+      { value: "", label: "Probability of the event (default)" },
+      { value: "class", label: "Class at the cutoff" },
     ],
+    twoClassOnly: true,
   },
   { name: "seed", label: "Seed", hint: "Decides how rows are dealt into folds: the same seed gives the same folds. Empty: 1.", kind: "text", placeholder: "1", inputMode: "numeric" },
   { name: "standardize", label: "Standardize predictors", hint: "Penalize every predictor on the same scale (coefficients are still reported in the data's units).", kind: "choice", choices: YES_DEFAULT, more: true },
@@ -135,6 +196,19 @@ export const FIELDS: readonly FieldSpec[] = [
   { name: "zero is missing", label: "Zeros mean blank", hint: "all, or column names separated by commas: their zeros count as empty cells (for hosts that pass blanks as 0).", kind: "text", more: true },
 ];
 
+/** The rule's hint when the measure is the AUC (higher is better). */
+const RULE_HINT_AUC = "The one-SE rule takes the strongest penalty whose AUC is within one standard error of the highest: a simpler model.";
+
+/** The measure an error field's value names, read by the cells' parser (null: default or unreadable). */
+function measureOf(text: string): ErrorMeasure | null {
+  if (text.trim() === "") return null;
+  try {
+    return parseSettings(`error=${text.trim()}`).measure;
+  } catch {
+    return null;
+  }
+}
+
 /** The weights column field (drawn with the ranges). */
 export const WEIGHTS_FIELD: FieldSpec = {
   name: "weights column",
@@ -163,6 +237,7 @@ interface Field {
   control: HTMLInputElement | HTMLSelectElement;
   error: HTMLElement;
   hintId: string;
+  wrap: HTMLElement;
 }
 
 export interface SettingsForm {
@@ -176,6 +251,11 @@ export interface SettingsForm {
   load(): void;
   /** Checks every field and shows the messages; returns the check. */
   check(): SettingsCheck;
+  /**
+   * The target's kind as read (null: not known), its two labels and the default event (yes/no
+   * targets): sets the error choices, the event choices, and which yes/no fields show.
+   */
+  setOutcome(kind: OutcomeKind | null, labels?: readonly string[], defaultEvent?: string | null): void;
 }
 
 function fillColumnChoices(select: HTMLSelectElement, names: readonly string[], current: string, noneLabel: string): void {
@@ -202,6 +282,10 @@ function fillColumnChoices(select: HTMLSelectElement, names: readonly string[], 
 export function renderSettingsForm(inputs: PaneInputs, onChange: (name: string) => void): SettingsForm {
   const fields: Field[] = [];
   let columns: readonly string[] = [];
+  let outcome: OutcomeKind | null = null;
+  let labels: readonly string[] = [];
+  let defaultEvent: string | null = null;
+  const eventNone = (): string => (defaultEvent ? `Default: '${defaultEvent}'` : "Default (TRUE, else 1, else the rarer label)");
 
   const makeField = (spec: FieldSpec): HTMLElement => {
     const id = fieldId(spec.name);
@@ -227,12 +311,9 @@ export function renderSettingsForm(inputs: PaneInputs, onChange: (name: string) 
     } else {
       const select = document.createElement("select");
       if (spec.kind === "choice") {
-        for (const choice of spec.choices ?? []) {
-          const option = document.createElement("option");
-          option.value = choice.value;
-          option.textContent = choice.label;
-          select.append(option);
-        }
+        fillChoices(select, spec.choices ?? [], readValue(inputs, spec.name));
+      } else if (spec.kind === "label") {
+        fillLabelChoices(select, labels, readValue(inputs, spec.name), eventNone());
       } else {
         fillColumnChoices(select, columns, readValue(inputs, spec.name), "None");
       }
@@ -257,7 +338,7 @@ export function renderSettingsForm(inputs: PaneInputs, onChange: (name: string) 
     error.hidden = true;
     control.setAttribute("aria-describedby", `${id}-hint`);
     wrap.append(label, control, error, hint);
-    fields.push({ spec, control, error, hintId: hint.id });
+    fields.push({ spec, control, error, hintId: hint.id, wrap });
     return wrap;
   };
 
@@ -295,8 +376,31 @@ export function renderSettingsForm(inputs: PaneInputs, onChange: (name: string) 
     }
   }
 
+  /** The yes/no fields show for a yes/no target, when the settings say two-class, or when they hold a value. */
+  function showTwoClassFields(): void {
+    const wanted = outcome === "two-class" || (inputs.settings.outcome ?? "").trim() === "two-class";
+    for (const field of fields) {
+      if (!field.spec.twoClassOnly) continue;
+      field.wrap.hidden = !(wanted || readValue(inputs, field.spec.name).trim() !== "");
+    }
+  }
+
+  /** The rule's words follow the measure: for the AUC the default rule takes the highest value, and the one-SE rule looks below it. */
+  function nameRules(): void {
+    const field = fields.find((f) => f.spec.name === "rule");
+    if (!field || !(field.control instanceof HTMLSelectElement)) return;
+    const measure = measureOf(readValue(inputs, "error"));
+    const auc = measure !== null && higherIsBetter(measure);
+    const first = field.control.options[0];
+    if (first && first.value === "") first.textContent = auc ? "Highest AUC (default)" : "Lowest error (default)";
+    const hint = document.getElementById(field.hintId);
+    if (hint) hint.textContent = auc ? RULE_HINT_AUC : field.spec.hint;
+  }
+
   function check(): SettingsCheck {
-    const result = checkSettings(inputs);
+    const result = checkSettings(inputs, outcome);
+    showTwoClassFields();
+    nameRules();
     for (const field of fields) {
       const message = field.spec.name === "mixes" ? result.mixes : (result.fields[field.spec.name] ?? null);
       showError(field, message);
@@ -313,6 +417,10 @@ export function renderSettingsForm(inputs: PaneInputs, onChange: (name: string) 
       const value = readValue(inputs, field.spec.name);
       if (field.spec.kind === "column") {
         fillColumnChoices(field.control as HTMLSelectElement, columns, value, "None");
+        continue;
+      }
+      if (field.spec.kind === "label") {
+        fillLabelChoices(field.control as HTMLSelectElement, labels, value, eventNone());
         continue;
       }
       const select = field.control;
@@ -335,6 +443,60 @@ export function renderSettingsForm(inputs: PaneInputs, onChange: (name: string) 
     }
   }
 
+  function setOutcome(kind: OutcomeKind | null, newLabels: readonly string[] = [], newDefault: string | null = null): void {
+    outcome = kind;
+    labels = [...newLabels];
+    defaultEvent = newDefault;
+    for (const field of fields) {
+      const select = field.control;
+      if (!(select instanceof HTMLSelectElement)) continue;
+      if (field.spec.name === "error") fillChoices(select, errorChoices(kind), readValue(inputs, "error"));
+      else if (field.spec.kind === "label") fillLabelChoices(select, labels, readValue(inputs, field.spec.name), eventNone());
+    }
+    check();
+  }
+
   load();
-  return { element, weightsElement, setColumns, load, check };
+  return { element, weightsElement, setColumns, load, check, setOutcome };
+}
+
+/** A select's fixed choices; a value typed elsewhere (an older pane, another spelling) is kept selectable. */
+function fillChoices(select: HTMLSelectElement, choices: readonly Choice[], current: string): void {
+  select.replaceChildren();
+  for (const choice of choices) {
+    const option = document.createElement("option");
+    option.value = choice.value;
+    option.textContent = choice.label;
+    select.append(option);
+  }
+  if (current !== "" && !choices.some((c) => c.value === current)) {
+    const option = document.createElement("option");
+    option.value = current;
+    option.textContent = current;
+    select.append(option);
+  }
+  select.value = current;
+}
+
+/** The event's choices: the default, then the target's two labels (a named event not among them kept, marked). */
+function fillLabelChoices(select: HTMLSelectElement, labels: readonly string[], current: string, noneLabel: string): void {
+  select.replaceChildren();
+  const none = document.createElement("option");
+  none.value = "";
+  none.textContent = noneLabel;
+  select.append(none);
+  const matched = labels.find((label) => label.toLowerCase() === current.trim().toLowerCase());
+  for (const label of labels) {
+    const option = document.createElement("option");
+    option.value = label;
+    option.textContent = label;
+    select.append(option);
+  }
+  if (current !== "" && matched === undefined) {
+    const option = document.createElement("option");
+    option.value = current;
+    option.textContent = labels.length > 0 ? `${current} (not in the target)` : current;
+    select.append(option);
+  }
+  select.value = matched ?? current;
 }

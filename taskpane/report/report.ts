@@ -15,10 +15,20 @@
  *   M25  the path table (strength, one column per term): the chart's data
  *
  * Numbers are written at full precision; number formats only change how they look.
+ *
+ * A yes/no (two-class) fit adds, in the same stack: two more cautions under the title (the
+ * probabilities reflect the data's balance and coverage; the cutoff is a business decision), the
+ * outcome and its classes in the data summary (the target's mean is the share of events), the CV
+ * summary in its measure, in-sample log loss, Brier score and AUC in place of R² and RMSE, the
+ * coefficients as log-odds with their odds ratios, and the table at the cutoff in words (events
+ * caught, events missed, false alarms, correct all-clear) with accuracy, sensitivity and
+ * specificity.
  */
 import type { FitResult } from "../../engine/fit";
+import type { TwoClassScore } from "../../engine/classMetrics";
 import { INTERCEPT_LABEL, MIX_LABEL, RULE_WORDS } from "../../engine/words";
 import type { Dataset } from "../../functions/dataset";
+import { bestPointLabel, measureName, measureWithDirection, oddsRatio, type ClassCounts } from "../outcomeWords";
 import { cellName, parseAddress, RangeAddress, spillArea } from "../host/address";
 import type { CellValue, ReportBlock, ReportChart, ReportSheet } from "../host/sheetHost";
 
@@ -39,6 +49,12 @@ export interface ReportInput {
 export const REPORT_TITLE = "Shrinkwise report";
 export const CAUTION =
   "Caution: penalized coefficients are shrunk toward zero on purpose. They are for prediction, not causal claims: a coefficient of zero does not mean a column has no effect, and a large one does not prove it causes anything.";
+
+/** The cautions a yes/no fit adds under CAUTION: what its probabilities and its cutoff can and can't say. */
+export const TWO_CLASS_CAUTIONS: readonly string[] = [
+  "Caution: the probabilities are only as good as the data's balance and coverage. They carry the share of events in these rows, and they are trustworthy only for cases like the ones here: where the real share of events differs, or a case lies outside the range these rows cover, they will be off.",
+  "Caution: the cutoff is a business decision, not a statistical one. Choose it by weighing what a missed event costs against what a false alarm costs; 0.5 is only a default.",
+];
 
 /** Number formats used on the report. */
 export const FORMATS = {
@@ -68,8 +84,14 @@ export function meanAndSd(values: readonly number[]): { mean: number; sd: number
   return { mean, sd: Math.sqrt(sum / (n - 1)) };
 }
 
-function ruleText(rule: FitResult["rule"]): string {
+function ruleText(rule: FitResult["rule"], result?: FitResult): string {
+  if (rule === "lowest" && result?.cv) return bestPointLabel(result.cv.measure);
   return rule === "fixed" ? "fixed strength (no cross-validation)" : RULE_WORDS[rule];
+}
+
+/** The two classes of a yes/no target as the data layer read them (functions/dataset.ts), or null (a number target). */
+export function classesOf(dataset: Dataset): ClassCounts | null {
+  return dataset.outcome === "two-class" ? dataset.classes : null;
 }
 
 /** A finite number, or "" for a value that can't be shown (NaN, ±Infinity). */
@@ -95,11 +117,21 @@ class Stack {
 
 /** Coefficient table rows: intercept, then terms in column order with reference levels shown. */
 function coefficientRows(result: FitResult, dataset: Dataset): CellValue[][] {
-  const rows: CellValue[][] = [
-    ["term", "coefficient", "standardized (per SD)"],
-    [INTERCEPT_LABEL, num(result.intercept), ""],
-  ];
-  const termRow = (t: number): CellValue[] => [result.terms[t], num(result.coefficients[t]), num(result.standardizedCoefficients[t])];
+  const twoClass = result.outcome === "two-class";
+  const event = classesOf(dataset)?.event;
+  const rows: CellValue[][] = twoClass
+    ? [
+        ["term", event === undefined ? "log-odds of the event" : `log-odds of '${event}'`, "odds ratio", "log-odds per SD"],
+        [INTERCEPT_LABEL, num(result.intercept), "", ""],
+      ]
+    : [
+        ["term", "coefficient", "standardized (per SD)"],
+        [INTERCEPT_LABEL, num(result.intercept), ""],
+      ];
+  const termRow = (t: number): CellValue[] =>
+    twoClass
+      ? [result.terms[t], num(result.coefficients[t]), num(oddsRatio(result.coefficients[t])), num(result.standardizedCoefficients[t])]
+      : [result.terms[t], num(result.coefficients[t]), num(result.standardizedCoefficients[t])];
   const encoded = dataset.encoder.columns.reduce((count, c) => count + (c.kind === "number" ? 1 : c.levels.length), 0);
   if (encoded !== result.terms.length) {
     // The dataset doesn't describe these terms: list the terms as they are.
@@ -112,7 +144,7 @@ function coefficientRows(result: FitResult, dataset: Dataset): CellValue[][] {
       rows.push(termRow(t++));
       continue;
     }
-    if (column.reference !== null) rows.push([`${column.name}: ${column.reference} (reference)`, 0, 0]);
+    if (column.reference !== null) rows.push(twoClass ? [`${column.name}: ${column.reference} (reference)`, 0, 1, 0] : [`${column.name}: ${column.reference} (reference)`, 0, 0]);
     for (let k = 0; k < column.levels.length; k++) rows.push(termRow(t++));
   }
   return rows;
@@ -128,12 +160,27 @@ function dataRows(result: FitResult, dataset: Dataset): { facts: CellValue[][]; 
     ["target", dataset.targetName],
     ["terms", dataset.names.length],
   ];
+  const classes = result.outcome === "two-class" ? classesOf(dataset) : null;
+  if (classes) {
+    facts.push(
+      ["outcome", "yes/no (two classes)"],
+      ["event (the class whose probability is given)", classes.event],
+      ["other class", classes.other],
+      [`rows that are '${classes.event}'`, classes.eventCount],
+      [`rows that are '${classes.other}'`, classes.otherCount],
+    );
+  }
   if (dataset.weightsColumn !== null) facts.push(["weights column", dataset.weightsColumn]);
   if (dataset.foldColumn !== null) facts.push(["fold column", dataset.foldColumn]);
   if (result.constantColumns.length > 0) facts.push(["constant (left out)", result.constantColumns.join(", ")]);
   const columns: CellValue[][] = [["column", "mean", "SD (n − 1)"]];
   const target = meanAndSd(dataset.target);
-  columns.push([`${dataset.targetName} (target)`, num(target.mean), target.sd === "" ? "" : num(target.sd)]);
+  if (classes) {
+    // The target is 1 for the event, 0 otherwise: its mean is the share of events; an SD says nothing more.
+    columns.push([`${dataset.targetName} (target: share that is '${classes.event}')`, num(target.mean), ""]);
+  } else {
+    columns.push([`${dataset.targetName} (target)`, num(target.mean), target.sd === "" ? "" : num(target.sd)]);
+  }
   for (let j = 0; j < dataset.names.length; j++) {
     const values = dataset.predictors.map((row) => row[j]);
     const stats = meanAndSd(values);
@@ -157,7 +204,20 @@ function levelRows(dataset: Dataset): CellValue[][] | null {
 function choiceRows(result: FitResult): CellValue[][] {
   const termsKept = result.coefficients.filter((b) => b !== 0).length;
   const choices = result.choices;
-  const measure = result.cv ? result.cv.measure.toUpperCase() : "";
+  const measure = result.cv ? measureWithDirection(result.cv.measure) : "";
+  const classFit = result.outcome === "two-class" ? result.classFit : null;
+  // In-sample accuracy: R² and RMSE for numbers; log loss, Brier score and AUC of the probabilities for yes/no.
+  const inSample = (blank: CellValue[]): CellValue[][] =>
+    classFit
+      ? [
+          ["in-sample log loss", num(classFit.logLoss), ...blank],
+          ["in-sample Brier score", num(classFit.brier), ...blank],
+          ["in-sample AUC", num(classFit.auc), ...blank],
+        ]
+      : [
+          ["in-sample R²", num(result.fit.r2), ...blank],
+          ["in-sample RMSE", num(result.fit.rmse), ...blank],
+        ];
   if (!choices) {
     return [
       ["point", "chosen"],
@@ -166,24 +226,44 @@ function choiceRows(result: FitResult): CellValue[][] {
       ["strength", num(result.strength)],
       ["strength ÷ top of grid", num(result.strengthFraction)],
       ["terms kept", termsKept],
-      ["in-sample R²", num(result.fit.r2)],
-      ["in-sample RMSE", num(result.fit.rmse)],
+      ...inSample([]),
     ];
   }
   const oneSeChosen = result.rule === "one-se";
   const chosen = oneSeChosen ? choices.oneSe : choices.lowest;
   const alternative = oneSeChosen ? choices.lowest : choices.oneSe;
+  const best = result.cv ? bestPointLabel(result.cv.measure) : "lowest error";
   return [
-    ["point", "chosen", oneSeChosen ? "lowest-error point" : "one-SE rule's point"],
-    ["rule", ruleText(result.rule), ruleText(oneSeChosen ? "lowest" : "one-se")],
+    ["point", "chosen", oneSeChosen ? (best === "lowest error" ? "lowest-error point" : `${best} point`) : "one-SE rule's point"],
+    ["rule", ruleText(result.rule, result), ruleText(oneSeChosen ? "lowest" : "one-se", result)],
     [MIX_LABEL, num(chosen.mix), num(alternative.mix)],
     ["strength", num(chosen.strength), num(alternative.strength)],
     ["strength ÷ top of grid", num(chosen.strengthFraction), num(alternative.strengthFraction)],
     [`CV ${measure}`, num(chosen.error), num(alternative.error)],
     ["± SE", num(chosen.se), num(alternative.se)],
     ["terms kept", chosen.termsKept, alternative.termsKept],
-    ["in-sample R²", num(result.fit.r2), ""],
-    ["in-sample RMSE", num(result.fit.rmse), ""],
+    ...inSample([""]),
+  ];
+}
+
+/**
+ * The in-sample table at the cutoff, in words (rows, or sums of weights when weights are given):
+ * events caught, events missed, false alarms, correct all-clear, then accuracy, sensitivity and
+ * specificity (engine/classMetrics.ts scoreTwoClass).
+ */
+export function cutoffRows(score: TwoClassScore, classes: ClassCounts | null): CellValue[][] {
+  const event = classes ? `'${classes.event}'` : "the event";
+  const other = classes ? `'${classes.other}'` : "the other class";
+  return [
+    [`at cutoff ${score.cutoff}`, "rows"],
+    [`flagged when the probability of ${event} is at least`, num(score.cutoff)],
+    [`events caught (${event}, flagged)`, num(score.eventsCaught)],
+    [`events missed (${event}, not flagged)`, num(score.eventsMissed)],
+    [`false alarms (${other}, flagged)`, num(score.falseAlarms)],
+    [`correct all-clear (${other}, not flagged)`, num(score.correctAllClear)],
+    ["accuracy (share on the right side of the cutoff)", num(score.accuracy)],
+    ["sensitivity (share of events caught)", num(score.sensitivity)],
+    [`specificity (share of ${other} cleared)`, num(score.specificity)],
   ];
 }
 
@@ -194,7 +274,8 @@ function choiceRows(result: FitResult): CellValue[][] {
 export function buildReport(input: ReportInput): ReportSheet {
   const { result, dataset } = input;
   const left = new Stack(1, 1);
-  left.add([[REPORT_TITLE], [`Made ${input.timestamp}`], [CAUTION]], true);
+  const twoClass = result.outcome === "two-class";
+  left.add([[REPORT_TITLE], [`Made ${input.timestamp}`], [CAUTION], ...(twoClass ? TWO_CLASS_CAUTIONS.map((text): CellValue[] => [text]) : [])], true);
   if (input.ranges.length > 0) left.add([["input", "range"], ...input.ranges.map((r): CellValue[] => [r.label, r.address])], true);
   left.add([["setting", "value"], ...(input.settings.length > 0 ? input.settings.map((s): CellValue[] => [s.name, s.value]) : [["(all defaults)", ""]])], true);
   const data = dataRows(result, dataset);
@@ -205,13 +286,14 @@ export function buildReport(input: ReportInput): ReportSheet {
   const notes = [...dataset.notes, ...result.warnings.map((w) => w.message)];
   if (notes.length > 0) left.add([["notes"], ...notes.map((note): CellValue[] => [note])], true);
   left.add(choiceRows(result), true);
+  if (twoClass && result.classFit) left.add(cutoffRows(result.classFit, classesOf(dataset)), true);
   left.add(coefficientRows(result, dataset), true);
 
   const blocks = [...left.blocks];
   let nextColumn = CV_COLUMN;
   const cv = result.cv;
   if (cv) {
-    const rows: CellValue[][] = [["mix", "strength", `CV ${cv.measure.toUpperCase()}`, "± SE", "terms kept"]];
+    const rows: CellValue[][] = [["mix", "strength", `CV ${measureName(cv.measure)}`, "± SE", "terms kept"]];
     for (const row of cv.table) rows.push([num(row.mix), num(row.strength), num(row.error), num(row.se), row.termsKept]);
     blocks.push({ at: cellName(TABLES_ROW, nextColumn), rows, header: true, formats: [FORMATS.mix, FORMATS.strength, null, null, FORMATS.count] });
     nextColumn += rows[0].length + GAP_COLUMNS;
@@ -233,7 +315,7 @@ export function buildReport(input: ReportInput): ReportSheet {
     logX: path.strengths.length > 0 && path.strengths.every((s) => s > 0),
     xTitle: "penalty strength λ",
     // The path table holds the coefficients as fitted, in each column's own units.
-    yTitle: "coefficient (data units)",
+    yTitle: twoClass ? "coefficient (log-odds per data unit)" : "coefficient (data units)",
     at: CHART_AT,
   };
   return { name: input.name ?? REPORT_TITLE, blocks, charts: [chart] };

@@ -3,9 +3,11 @@
  * preview and the browser tests, behind the same SheetHost interface as Excel.
  *
  * - `StandInWorkbook`: sheets, each a sparse map of cells ({ value, formula, … }), in tab order.
- * - `createDemoWorkbook()`: one sheet, "Roast log", laid out as README and the preview describe:
+ * - `createDemoWorkbook()`: the sheet "Roast log", laid out as README and the preview describe:
  *   A1:M121 the header row and the 120 demo batches (roast_id in A, predictors B:L, score M),
- *   A124:L132 the new batches (header row 124, eight batches below it), nothing else.
+ *   A124:L132 the new batches (header row 124, eight batches below it), nothing else; and the
+ *   sheet "Quality check" (a yes/no target): A1:N301 the header row and 300 batches (batch_id in
+ *   A, predictors B:M, check "pass"/"fail" in N), A304:M312 eight new batches.
  * - `StandInSheetHost`: the SheetHost. Formulas written to it are computed: a formula
  *   `=SHRINK.NAME(arg, …)` goes through functions/api.ts with the shared fit runner, exactly as
  *   the cells in Excel, and its result spills into the cells below and to the right.
@@ -38,6 +40,7 @@ import type { Spill } from "../../functions/api";
 import { sharedRunner } from "../../functions/functions";
 import type { FitRunner } from "../../functions/runner";
 import { roasteryColumns, roasteryNewRows, roasteryRows } from "../../addin/demo/roasteryData";
+import { qualityColumns, qualityNewRows, qualityRows } from "../../addin/demo/qualityData";
 import {
   CellPosition,
   cellName,
@@ -204,19 +207,40 @@ export const DEMO_RANGES = {
   newRows: "B124:L132",
 } as const;
 
-/** A workbook with the demo sheet "Roast log" (layout in DEMO_RANGES). */
+/** Name of the second demo sheet: batches that passed or failed the quality check (a yes/no target). */
+export const QUALITY_SHEET = "Quality check";
+
+/** Where the quality-check data sit on their sheet (addin/demo/qualityData.ts: 300 batches, 8 new ones). */
+export const QUALITY_RANGES = {
+  data: "A1:N301",
+  target: "N1:N301",
+  predictors: "B1:M301",
+  newBatches: "A304:M312",
+  newRows: "B304:M312",
+} as const;
+
+/**
+ * A workbook with the demo sheet "Roast log" (layout in DEMO_RANGES), active, and the sheet
+ * "Quality check" (layout in QUALITY_RANGES): the same roastery's batches and whether each
+ * passed its quality check, for a yes/no fit.
+ */
 export function createDemoWorkbook(): StandInWorkbook {
-  const workbook = new StandInWorkbook([DEMO_SHEET]);
-  const sheet = workbook.activeSheet;
-  const put = (row: number, values: readonly (string | number | null)[]): void => {
+  const workbook = new StandInWorkbook([DEMO_SHEET, QUALITY_SHEET]);
+  const fill = (sheet: StandInSheet, row: number, values: readonly (string | number | null)[]): void => {
     values.forEach((value, j) => {
       if (value !== null && value !== "") sheet.set(row, j + 1, { value });
     });
   };
-  put(1, roasteryColumns);
-  roasteryRows.forEach((row, i) => put(2 + i, row));
-  put(124, roasteryColumns.slice(0, roasteryColumns.length - 1));
-  roasteryNewRows.forEach((row, i) => put(125 + i, row));
+  const roast = workbook.sheet(DEMO_SHEET) as StandInSheet;
+  fill(roast, 1, roasteryColumns);
+  roasteryRows.forEach((row, i) => fill(roast, 2 + i, row));
+  fill(roast, 124, roasteryColumns.slice(0, roasteryColumns.length - 1));
+  roasteryNewRows.forEach((row, i) => fill(roast, 125 + i, row));
+  const quality = workbook.sheet(QUALITY_SHEET) as StandInSheet;
+  fill(quality, 1, qualityColumns);
+  qualityRows.forEach((row, i) => fill(quality, 2 + i, row));
+  fill(quality, 304, qualityColumns.slice(0, qualityColumns.length - 1));
+  qualityNewRows.forEach((row, i) => fill(quality, 305 + i, row));
   return workbook;
 }
 

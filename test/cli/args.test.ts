@@ -51,6 +51,9 @@ describe("parseArgs", () => {
       seed: null,
       rule: null,
       measure: null,
+      outcome: "auto",
+      event: null,
+      cutoff: null,
       gridDensity: null,
       count: null,
       lowEnd: null,
@@ -225,8 +228,8 @@ describe("parseArgs", () => {
     [["d.csv", "--target", "y", "--mix", "0,half"], /--mix needs a number; got 'half'/],
     [["d.csv", "--target", "y", "--mix", "0,,1"], /--mix has an empty item/],
     [["d.csv", "--target", "y", "--rule", "best"], /--rule must be lowest or one-se; got 'best'/],
-    [["d.csv", "--target", "y", "--error", "rmse"], /--error must be mse or mae; got 'rmse'/],
-    [["d.csv", "--target", "y", "--measure", "rmse"], /--error must be mse or mae; got 'rmse'/],
+    [["d.csv", "--target", "y", "--error", "rmse"], /^--error must be mse or mae \(a number target\) or deviance, misclassified or auc \(a yes\/no target\); got 'rmse'$/],
+    [["d.csv", "--target", "y", "--measure", "rmse"], /^--error must be mse or mae \(a number target\) or deviance, misclassified or auc \(a yes\/no target\); got 'rmse'$/],
     [["d.csv", "--target", "y", "--error", "mse", "--measure", "mae"], /--error is given twice/],
     [["d.csv", "--target", "y", "--json=yes"], /--json takes no value/],
     [["d.csv", "--target", "y", "--target", "z"], /--target is given twice/],
@@ -235,5 +238,66 @@ describe("parseArgs", () => {
     [["d.csv", "--target", "y", "--predictors", "a,"], /--predictors has an empty item/],
   ])("refuses %j", (argv, message) => {
     expect(usageError(argv)).toMatch(message);
+  });
+});
+
+describe("parseArgs: yes/no (two-class) targets", () => {
+  it("reads --outcome in the spellings engine/outcome.ts parseOutcome takes; auto by default", () => {
+    expect(options(["d.csv", "--target", "y"]).outcome).toBe("auto");
+    expect(options(["d.csv", "--target", "y", "--outcome", "two-class"]).outcome).toBe("two-class");
+    expect(options(["d.csv", "--target", "y", "--outcome=yes/no"]).outcome).toBe("two-class");
+    expect(options(["d.csv", "--target", "y", "--outcome", "Number"]).outcome).toBe("number");
+    expect(usageError(["d.csv", "--target", "y", "--outcome", "three-class"])).toBe("--outcome must be auto, number or two-class; got 'three-class'");
+  });
+
+  it("reads --event as text (spaces around trimmed) and --cutoff as a probability strictly between 0 and 1", () => {
+    const o = options(["d.csv", "--target", "y", "--event", " fail ", "--cutoff", "0.3"]);
+    expect(o.event).toBe("fail");
+    expect(o.cutoff).toBe(0.3);
+    for (const bad of ["0", "1", "1.5", "-0.2"]) {
+      expect(usageError(["d.csv", "--target", "y", "--cutoff", bad])).toBe(`--cutoff must be a probability between 0 and 1 (not 0 or 1); got '${bad}'`);
+    }
+    expect(usageError(["d.csv", "--target", "y", "--cutoff", "half"])).toBe("--cutoff needs a number; got 'half'");
+  });
+
+  it("takes the five measures; refuses a yes/no measure with --outcome number in the engine's words, and the reverse", () => {
+    for (const m of ["mse", "mae", "deviance", "misclassified", "auc"]) expect(options(["d.csv", "--target", "y", "--error", m.toUpperCase()]).measure).toBe(m);
+    expect(usageError(["d.csv", "--target", "y", "--outcome", "number", "--error", "auc"])).toBe(
+      "the error measure auc is for yes/no (two-class) outcomes, and this target is a number: use mse or mae",
+    );
+    expect(usageError(["d.csv", "--target", "y", "--outcome", "two-class", "--error", "mse"])).toBe(
+      "the error measure mse is for number outcomes, and this target is yes/no (two-class): use deviance, misclassified or auc",
+    );
+  });
+
+  it("refuses --event and --cutoff with --outcome number", () => {
+    expect(usageError(["d.csv", "--target", "y", "--outcome", "number", "--event", "1"])).toBe(
+      "--event names the event of a yes/no target: it can't be used with --outcome number",
+    );
+    expect(usageError(["d.csv", "--target", "y", "--outcome", "number", "--cutoff", "0.4"])).toBe(
+      "--cutoff applies to a yes/no target: it can't be used with --outcome number",
+    );
+  });
+
+  it("passes outcome and cutoff to the engine only for a target read as two-class; a number target's options are unchanged", () => {
+    const o = options(["d.csv", "--target", "y", "--error", "auc", "--cutoff", "0.25"]);
+    expect(toFitOptions(o, { ...noData, outcome: "two-class" })).toEqual({
+      names: ["a", "b"],
+      standardize: true,
+      intercept: true,
+      timeOrdered: false,
+      outcome: "two-class",
+      measure: "auc",
+      cutoff: 0.25,
+    });
+    const plain = options(["d.csv", "--target", "y"]);
+    expect(toFitOptions(plain, { ...noData, outcome: "number" })).toEqual(toFitOptions(plain, noData));
+  });
+
+  it("documents the new options in the help", () => {
+    expect(USAGE).toContain("--outcome auto|number|two-class");
+    expect(USAGE).toContain("--event <label>");
+    expect(USAGE).toContain("--cutoff <p>");
+    expect(USAGE).toContain("--error mse|mae|deviance|misclassified|auc");
   });
 });

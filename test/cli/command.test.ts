@@ -42,6 +42,17 @@ function smallCsv(): string {
   return lines.join("\n") + "\n";
 }
 
+/** 40 batches: a yes/no target in words, failing more often at high moisture (text labels, read by readOutcome). */
+function qualityCsv(): string {
+  const lines = ["moisture,age,check"];
+  for (let i = 1; i <= 40; i++) {
+    const moisture = 9 + ((i * 7) % 13) / 4;
+    const age = (i * 11) % 17;
+    lines.push(`${moisture.toFixed(2)},${age},${(i * 5) % 9 < moisture - 9 ? "Fail" : "pass"}`);
+  }
+  return lines.join("\n") + "\n";
+}
+
 function expectOneLineFailure(outcome: Outcome, message: RegExp): void {
   expect(outcome.status).toBe(2);
   expect(outcome.stdout).toBe("");
@@ -62,11 +73,15 @@ describe("npx tsx engine/cli/fit.ts", () => {
     const tsv = join(folder, "small.tsv");
     writeFileSync(csv, smallCsv());
     writeFileSync(tsv, smallCsv().replace(/,/g, "\t"));
+    const quality = join(folder, "quality.csv");
+    writeFileSync(quality, qualityCsv());
     const runs: Record<string, string[]> = {
       json: [csv, "--target", "y", "--exclude", "id", "--fold-column", "group", "--mix", "0.5,1", "--count", "20", "--json"],
       text: [tsv, "--target", "y", "--predictors", "a,b", "--folds", "5", "--seed", "7"],
       textColumn: [csv, "--target", "y", "--json"],
       missingFile: [join(folder, "nowhere.csv"), "--target", "y", "--json"],
+      twoClass: [quality, "--target", "check", "--event", "fail", "--folds", "4", "--count", "20", "--mix", "1"],
+      badOutcome: [quality, "--target", "check", "--outcome", "number"],
     };
     const names = Object.keys(runs);
     const results = await Promise.all(names.map((name) => runCommand(runs[name])));
@@ -104,6 +119,21 @@ describe("npx tsx engine/cli/fit.ts", () => {
 
   it("a text column: exit 2 and one line naming the column, row and value", () => {
     expectOneLineFailure(outcomes.textColumn, /^shrinkwise: column 'group' has text in data row 1 \('south'\); leave the column out with --exclude group\n$/);
+  });
+
+  it("a yes/no target in words with a named event (any case): exit 0, the report in log-odds with odds ratios and the table at the cutoff", () => {
+    const outcome = outcomes.twoClass;
+    expect(outcome.stderr).toBe("");
+    expect(outcome.status).toBe(0);
+    const fails = qualityCsv().split("\n").filter((line) => line.endsWith(",Fail")).length;
+    expect(outcome.stdout).toContain(`Outcome: yes/no, event 'Fail' (${fails} of 40 rows; the other class is 'pass')`);
+    expect(outcome.stdout).toMatch(/term\s+log-odds of 'Fail'\s+odds ratio\s+per SD/);
+    expect(outcome.stdout).toMatch(/scored by deviance/);
+    expect(outcome.stdout).toMatch(/events caught\s+\d+ events missed/);
+  });
+
+  it("two labels with --outcome number: exit 2 and readOutcome's one line", () => {
+    expectOneLineFailure(outcomes.badOutcome, /^shrinkwise: 'check' holds two labels \('pass', 'Fail'\), not numbers: it is a yes\/no outcome/);
   });
 
   it("a missing file: exit 2 and one line", () => {

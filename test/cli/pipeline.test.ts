@@ -28,6 +28,7 @@ const files: Record<string, string> = {
   "time.csv": timeSeries(),
   "huge-a.csv": scaledSeries(1e200, 1),
   "huge-y.csv": scaledSeries(1, 1e200),
+  "status.csv": "a,b,status\n1,5,ok\n2,3,ok\n3,4,late\n4,1,ok\n5,2,late\n6,6,ok\n",
   "good.csv": "a,b,y,w,site\n1,5,3.1,1,n\n2,3,4.9,1,n\n3,4,7.2,2,s\n4,1,9.1,1,s\n5,2,10.8,1,e\n6,6,13.2,1,e\n",
   "constant.csv": "a,y\n1,5\n2,5\n3,5\n",
   "negative-weight.csv": "a,y,w\n1,2,1\n2,3,-1\n3,5,1\n",
@@ -127,6 +128,14 @@ describe("runCommand", () => {
     [["/definitely/not/here.csv", "--target", "y"], "can't read /definitely/not/here.csv: no such file"],
     [["good.csv", "--target", "y", "--unknown"], "unknown option --unknown"],
     [["good.csv"], /^shrinkwise: --target is missing/],
+    // Yes/no flags on a target read as numbers (auto): the flag is named and the fix given.
+    [["good.csv", "--target", "y", "--exclude", "site", "--event", "1"], "--event 1 applies to a yes/no target, and 'y' was read as numbers: leave it out, or give --outcome two-class if the column holds two classes"],
+    [["good.csv", "--target", "y", "--exclude", "site", "--cutoff", "0.3"], "--cutoff 0.3 applies to a yes/no target, and 'y' was read as numbers: leave it out, or give --outcome two-class if the column holds two classes"],
+    // A measure of the other outcome, once auto has read the target: the engine's words (engine/fit.ts checkMeasure).
+    [["good.csv", "--target", "y", "--exclude", "site", "--error", "auc"], "the error measure auc is for yes/no (two-class) outcomes, and this target is a number: use mse or mae"],
+    [["status.csv", "--target", "status", "--error", "mae"], "the error measure mae is for number outcomes, and this target is yes/no (two-class): use deviance, misclassified or auc"],
+    [["good.csv", "--target", "site", "--exclude", "w"], /^shrinkwise: 'site' holds text \('n'\) among numbers: a number outcome needs numbers in every row; a yes\/no outcome needs exactly two distinct values/],
+    [["status.csv", "--target", "status", "--event", "early"], "event 'early' is not one of 'status''s two values ('ok', 'late'): name one of them"],
   ])("exit 2 and one line for %j", (argv, message) => {
     expectFailure(argv, message);
   });

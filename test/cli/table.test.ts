@@ -228,3 +228,77 @@ describe("buildFitTable", () => {
     expect(skippedRowsMessage(table, 3)).toBe("7 rows with blank cells skipped (data rows 2, 4, 6, …; blanks by column: x 7)");
   });
 });
+
+describe("buildFitTable: the target read by engine/outcome.ts readOutcome", () => {
+  // Target cells quoted, so a ',' inside one stays in the cell.
+  const rows = (labels: string[]): string => ["x,result", ...labels.map((label, i) => `${i + 1},"${label}"`)].join("\n");
+
+  it("two text labels make a yes/no target: 1 for the less frequent label, counts and the other label kept", () => {
+    const table = readFitTable(rows(["pass", "fail", "pass", "pass", "", "Fail "]), { target: "result" });
+    expect(table.outcome).toBe("two-class");
+    // readOutcome: labels match ignoring case and spaces; without an event, the less frequent label.
+    expect(table.classes).toEqual({ event: "fail", other: "pass", eventRows: 2, otherRows: 3, note: null });
+    expect(table.targetValues).toEqual([0, 1, 0, 0, 1]);
+    expect(table.rowsSkipped).toBe(1);
+  });
+
+  it("a named event, matched ignoring case, is coded 1", () => {
+    const table = readFitTable(rows(["pass", "fail", "pass"]), { target: "result", event: "PASS" });
+    expect(table.classes).toMatchObject({ event: "pass", other: "fail", eventRows: 2, otherRows: 1 });
+    expect(table.targetValues).toEqual([1, 0, 1]);
+  });
+
+  it("TRUE/FALSE in any case are the spreadsheet's booleans: the event is TRUE even when it is the more frequent", () => {
+    const table = readFitTable(rows(["true", "TRUE", "False", "true"]), { target: "result" });
+    expect(table.classes).toMatchObject({ event: "TRUE", other: "FALSE", eventRows: 3, otherRows: 1 });
+    expect(table.targetValues).toEqual([1, 1, 0, 1]);
+  });
+
+  it("0/1 numbers are yes/no in auto (event 1) and numbers with outcome number", () => {
+    const auto = readFitTable(rows(["1", "0", "0", "0"]), { target: "result" });
+    expect(auto.outcome).toBe("two-class");
+    expect(auto.classes).toMatchObject({ event: "1", other: "0" });
+    const number = readFitTable(rows(["1", "0", "0", "0"]), { target: "result", outcome: "number" });
+    expect(number.outcome).toBe("number");
+    expect(number.classes).toBeNull();
+    expect(number.targetValues).toEqual([1, 0, 0, 0]);
+  });
+
+  it("a tie between the two labels takes the first alphabetically and says so", () => {
+    const table = readFitTable(rows(["pass", "fail", "fail", "pass"]), { target: "result" });
+    expect(table.classes?.event).toBe("fail");
+    expect(table.classes?.note).toBe("both classes have 2 rows, so the event is 'fail' (first in alphabetical order); name another with --event <label>");
+  });
+
+  it("numbers stay a number target, read as before", () => {
+    const table = readFitTable(rows(["1.5", "2", "1,234.5"]), { target: "result" });
+    expect(table.outcome).toBe("number");
+    expect(table.targetValues).toEqual([1.5, 2, 1234.5]);
+  });
+
+  it("refuses with readOutcome's messages: an unknown event, three labels, one class, labels under outcome number", () => {
+    const message = (text: string, roles: Parameters<typeof readFitTable>[1]): string => {
+      try {
+        readFitTable(text, roles);
+      } catch (error) {
+        return (error as Error).message;
+      }
+      throw new Error("expected a failure");
+    };
+    expect(message(rows(["pass", "fail"]), { target: "result", event: "ok" })).toBe("event 'ok' is not one of 'result''s two values ('pass', 'fail'): name one of them");
+    expect(message(rows(["a", "b", "c"]), { target: "result", outcome: "two-class" })).toMatch(/^'result' has 3 distinct values \('a', 'b', 'c'\): a yes\/no outcome needs exactly two/);
+    expect(message(rows(["pass", "pass"]), { target: "result", outcome: "two-class" })).toMatch(/^'result' has only one class \('pass'\)/);
+    // outcome number on two labels: readOutcome's words (a yes/no target), as the cells give them.
+    expect(message(rows(["pass", "fail", "pass"]), { target: "result", outcome: "number" })).toMatch(/^'result' holds two labels \('pass', 'fail'\), not numbers: it is a yes\/no outcome/);
+    // Other text: the column is a numeric column, checked as before (row, value).
+    expect(failure(() => readFitTable(rows(["pass", "fail", "n/a"]), { target: "result", outcome: "number" }))).toBe(
+      "column 'result' has text in data row 1 ('pass'): use numbers only (leave a cell empty to skip its row)",
+    );
+  });
+
+  it("a stray text among numbers (auto) names the row and value as for any numeric column, with the decimal-comma hint", () => {
+    expect(failure(() => readFitTable(rows(["1.5", "2", "3,5", "4"]), { target: "result" }))).toMatch(
+      /^column 'result' has text in data row 3 \('3,5'\) \(a decimal comma/,
+    );
+  });
+});

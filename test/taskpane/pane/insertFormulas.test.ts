@@ -20,6 +20,7 @@ import {
 } from "../../../taskpane/pane/insertFormulas";
 import { emptyInputs, FitOutcome, mixesText, PaneInputs, settingsText } from "../../../taskpane/pane/paneState";
 import { demoSheet } from "../../../taskpane/standalone/preview";
+import { qualityColumns, qualityNewRows, qualityRows } from "../../../addin/demo/qualityData";
 import type { SheetHost } from "../../../taskpane/host/sheetHost";
 
 function roastInputs(): PaneInputs {
@@ -168,5 +169,55 @@ describe("placement and spill areas", () => {
     const cells = Array.from({ length: 15 }, (_, i) => `A${i + 1}`);
     expect(listCells(cells.slice(0, 3))).toBe("A1, A2, A3");
     expect(listCells(cells)).toBe("A1, A2, A3, A4, A5, A6, A7, A8, A9, A10, A11, A12 and 3 more");
+  });
+});
+
+describe("formulas for a yes/no target (the quality-check sheet)", () => {
+  const last = qualityColumns.length - 1;
+  const target = [[qualityColumns[last]], ...qualityRows.map((row) => [row[last]])];
+  const predictors = [qualityColumns.slice(1, last), ...qualityRows.map((row) => row.slice(1, last))];
+  const newRows = [qualityColumns.slice(1, last), ...qualityNewRows.map((row) => row.slice(1, last))];
+
+  function qualityInputs(): PaneInputs {
+    const inputs = emptyInputs();
+    inputs.ranges = {
+      target: "'Quality check'!N1:N301",
+      predictors: "'Quality check'!B1:M301",
+      newRows: "'Quality check'!B304:M312",
+      destination: "'Quality check'!P1",
+    };
+    inputs.mixes = "0.5, 1";
+    inputs.settings = { folds: "5", outcome: "two-class", event: "fail", error: "auc", cutoff: "0.3", predict: "class" };
+    return inputs;
+  }
+
+  test("the formulas carry outcome, event, error, cutoff and predict, and make the pane's request (one cache entry)", () => {
+    const inputs = qualityInputs();
+    expect(formulaText("PREDICT", inputs)).toBe(
+      "=SHRINK.PREDICT('Quality check'!N1:N301, 'Quality check'!B1:M301, 'Quality check'!B304:M312, \"0.5, 1\", \"folds=5; error=auc; outcome=two-class; event=fail; cutoff=0.3; predict=class\")",
+    );
+    const pane = api.prepare(target, predictors, mixesText(inputs), settingsText(inputs));
+    const cell = api.prepare(target, predictors, [[mixesText(inputs)]], [[settingsText(inputs)]]);
+    expect(requestHash(pane.request)).toBe(requestHash(cell.request));
+    expect(pane.request.options).toMatchObject({ outcome: "two-class", measure: "auc", cutoff: 0.3 });
+  });
+
+  test("spill sizes match what the functions return for a yes/no fit", async () => {
+    const inputs = qualityInputs();
+    inputs.settings = { folds: "5", "grid size": "30" };
+    const runner = new InProcessRunner();
+    const settings = settingsText(inputs);
+    const prepared = api.prepare(target, predictors, mixesText(inputs), settings);
+    const result = await runner.fit(prepared.request);
+    expect(result.outcome).toBe("two-class");
+    const outcome: FitOutcome = { result, prepared, inputs, values: { target, predictors, newRows }, elapsedMs: 0 };
+    const coefs = await api.coefs(runner, target, predictors, mixesText(inputs), settings);
+    const choice = await api.choice(runner, target, predictors, mixesText(inputs), settings);
+    const predict = await api.predict(runner, target, predictors, newRows, mixesText(inputs), settings);
+    expect(spillShapes(outcome, ["COEFS", "CHOICE", "PREDICT"])).toEqual([
+      { id: "COEFS", rows: coefs.length, columns: coefs[0].length },
+      { id: "CHOICE", rows: choice.length, columns: choice[0].length },
+      { id: "PREDICT", rows: predict.length, columns: 1 },
+    ]);
   });
 });

@@ -3,12 +3,16 @@
  * check them (messages word for word from functions/settings.ts), the settings and mixes text
  * the formulas carry, and restoring saved inputs.
  */
-import type { FitResult } from "../../../engine/fit";
+import { checkMeasure, MEASURES, type FitResult } from "../../../engine/fit";
+import { prepare } from "../../../functions/api";
 import { parseSettings } from "../../../functions/settings";
-import { FIELDS, WEIGHTS_FIELD } from "../../../taskpane/pane/settingsForm";
+import { qualityColumns, qualityRows, qualityTruth } from "../../../addin/demo/qualityData";
+import { roasteryColumns, roasteryRows } from "../../../addin/demo/roasteryData";
+import { errorChoices, FIELDS, WEIGHTS_FIELD } from "../../../taskpane/pane/settingsForm";
 import {
   checkSettings,
   columnNames,
+  detectOutcome,
   emptyInputs,
   FORM_SETTING_NAMES,
   FitOutcome,
@@ -16,6 +20,8 @@ import {
   fitStatusText,
   formatNumber,
   IDLE,
+  measureChoices,
+  measureSummary,
   mixesProblem,
   mixesText,
   progressText,
@@ -280,3 +286,120 @@ describe("settings text, mixes text and restore", () => {
   });
 });
 
+
+describe("yes/no (two-class) targets: how the target reads, the settings that follow it", () => {
+  /** The quality-check demo sheet as the pane reads it: N1:N301 and B1:M301 (addin/demo/qualityData.ts). */
+  function qualityGrids(): { target: unknown[][]; predictors: unknown[][] } {
+    const last = qualityColumns.length - 1;
+    return {
+      target: [[qualityColumns[last]], ...qualityRows.map((row) => [row[last]])],
+      predictors: [qualityColumns.slice(1, last), ...qualityRows.map((row) => row.slice(1, last))],
+    };
+  }
+  function roastGrids(): { target: unknown[][]; predictors: unknown[][] } {
+    const last = roasteryColumns.length - 1;
+    return {
+      target: [[roasteryColumns[last]], ...roasteryRows.map((row) => [row[last]])],
+      predictors: [roasteryColumns.slice(1, last), ...roasteryRows.map((row) => row.slice(1, last))],
+    };
+  }
+  /** The message the cells would give for these ranges and settings (functions/api.ts prepare). */
+  function cellsMessage(target: unknown[][], predictors: unknown[][], settings: string): string {
+    try {
+      prepare(target, predictors, null, settings);
+    } catch (error) {
+      return (error as Error).message;
+    }
+    throw new Error(`'${settings}' was accepted`);
+  }
+
+  test("the quality data read as yes/no, event 'fail', 73 of 296 rows (demo data: qualityTruth), the same reading as the cells'", () => {
+    const { target, predictors } = qualityGrids();
+    const detection = detectOutcome(target, predictors, emptyInputs());
+    expect(detection).toMatchObject({ ok: true, kind: "two-class", rows: qualityTruth.completeRows, defaultEvent: "fail", labels: ["fail", "pass"] });
+    if (!detection.ok) throw new Error("expected a reading");
+    expect(detection.classes).toEqual({ event: "fail", other: "pass", eventCount: qualityTruth.fails, otherCount: qualityTruth.completeRows - qualityTruth.fails });
+    expect(detection.line).toBe(`yes/no outcome, event 'fail' (${qualityTruth.fails} of ${qualityTruth.completeRows} rows; the other class is 'pass')`);
+    // The cells' own dataset over the same ranges.
+    const dataset = prepare(target, predictors, null, null).dataset;
+    expect(dataset.outcome).toBe("two-class");
+    expect(dataset.classes).toMatchObject(detection.classes as object);
+  });
+
+  test("a named event (any case) swaps the classes; an unknown one gets the cells' message", () => {
+    const { target, predictors } = qualityGrids();
+    const inputs = emptyInputs();
+    inputs.settings.event = "PASS";
+    const detection = detectOutcome(target, predictors, inputs);
+    expect(detection.ok && detection.classes).toEqual({ event: "pass", other: "fail", eventCount: qualityTruth.completeRows - qualityTruth.fails, otherCount: qualityTruth.fails });
+    // The default event and the labels stay as read without a name: the form's choice lists them.
+    expect(detection.ok && detection.defaultEvent).toBe("fail");
+    inputs.settings.event = "late";
+    const unknown = detectOutcome(target, predictors, inputs);
+    expect(unknown.ok).toBe(false);
+    expect(!unknown.ok && unknown.message).toBe(cellsMessage(target, predictors, "event=late"));
+    expect(unknown.line).toBe(`The target can't be read yet: ${cellsMessage(target, predictors, "event=late")}`);
+  });
+
+  test("outcome=number on two labels: the cells' refusal; the roast scores read as a number outcome", () => {
+    const quality = qualityGrids();
+    const inputs = emptyInputs();
+    inputs.settings.outcome = "number";
+    const refused = detectOutcome(quality.target, quality.predictors, inputs);
+    expect(refused.ok).toBe(false);
+    expect(!refused.ok && refused.message).toBe(cellsMessage(quality.target, quality.predictors, "outcome=number"));
+    const roast = roastGrids();
+    const number = detectOutcome(roast.target, roast.predictors, emptyInputs());
+    const rows = prepare(roast.target, roast.predictors, null, null).dataset.rowsUsed;
+    expect(number).toEqual({ ok: true, kind: "number", rows, classes: null, defaultEvent: null, labels: [], line: `number outcome (${rows} rows)` });
+  });
+
+  test("settings of the other kind of target are refused in the cells' words once the kind is known", () => {
+    const inputs = emptyInputs();
+    inputs.settings.error = "mae";
+    // Unknown kind: only the field's own parse (mae is a valid word).
+    expect(checkSettings(inputs).ok).toBe(true);
+    let message = "";
+    try {
+      checkMeasure("mae", "two-class");
+    } catch (error) {
+      message = (error as Error).message;
+    }
+    expect(checkSettings(inputs, "two-class")).toMatchObject({ ok: false, fields: { error: message } });
+    expect(checkSettings(inputs, "number").ok).toBe(true);
+    const yesNo = emptyInputs();
+    yesNo.settings = { event: "fail", cutoff: "0.3", error: "auc" };
+    expect(checkSettings(yesNo, "two-class").ok).toBe(true);
+    const onNumbers = checkSettings(yesNo, "number");
+    expect(Object.keys(onNumbers.fields).sort()).toEqual(["cutoff", "error", "event"]);
+    expect(onNumbers.fields.event).toMatch(/^'event' applies to a yes\/no target/);
+  });
+
+  test("error choices follow the kind (engine/fit.ts MEASURES), the default first and shown empty", () => {
+    expect(measureChoices("number")).toEqual(MEASURES.number);
+    expect(measureChoices("two-class")).toEqual(MEASURES["two-class"]);
+    expect(measureChoices(null)).toEqual(MEASURES.number);
+    expect(errorChoices("two-class").map((c) => c.value)).toEqual(["", "misclassified", "auc"]);
+    expect(errorChoices("two-class")[0].label).toMatch(/^Deviance.*\(default\)$/);
+    expect(errorChoices("two-class")[2].label).toContain("higher is better");
+    expect(errorChoices(null).map((c) => c.value)).toEqual(["", "mae"]);
+  });
+
+  test("the new settings go into the formulas' settings text in the cells' order, read back by the cells, and are saved and restored", () => {
+    const inputs = emptyInputs();
+    inputs.settings = { cutoff: "0.3", event: "fail", outcome: "two-class", error: "auc", predict: "class" };
+    const text = settingsText(inputs);
+    expect(text).toBe("error=auc; outcome=two-class; event=fail; cutoff=0.3; predict=class");
+    expect(parseSettings(text)).toMatchObject({ measure: "auc", outcome: "two-class", event: "fail", cutoff: 0.3, predictOutput: "class" });
+    expect(restoreInputs(JSON.parse(JSON.stringify(inputs))).settings).toEqual(inputs.settings);
+    // A state saved before these settings existed loads as it did.
+    const old = { ranges: { target: "A1:A9", predictors: "B1:C9", newRows: "", destination: "" }, header: "auto", mixes: "", settings: { folds: "5", error: "mae" } };
+    expect(restoreInputs(old)).toEqual({ ...old, settings: { folds: "5", error: "mae" } });
+  });
+
+  test("the chosen point's measure in the summary: AUC says higher is better", () => {
+    expect(measureSummary("auc", "0.843 ± 0.021")).toBe("CV AUC 0.843 ± 0.021 (higher is better)");
+    expect(measureSummary("deviance", "0.95 ± 0.04")).toBe("CV deviance 0.95 ± 0.04");
+    expect(measureSummary("mse", "1.2 ± 0.1")).toBe("CV MSE 1.2 ± 0.1");
+  });
+});

@@ -38,3 +38,17 @@ test("tab-separated copy with a header line and full precision", () => {
     "humidity\t0\t0",
   ]);
 });
+
+test("a yes/no fit adds the odds ratio e^coefficient (definition) after the log-odds, in the table and its copy", () => {
+  const twoClass = { ...result, outcome: "two-class" } as FitResult;
+  const rows = coefficientRows(twoClass);
+  expect(rows[0]).toEqual({ term: "intercept", coefficient: 75.5, standardized: null, zero: false, oddsRatio: null });
+  for (const row of rows.slice(1)) expect(row.oddsRatio).toBe(Math.exp(row.coefficient));
+  expect(coefficientTsv(rows).split("\n").slice(0, 3)).toEqual([
+    "term\tlog-odds\todds ratio\tlog-odds per SD",
+    "intercept\t75.5\t\t",
+    `origin: Highland\t1.5\t${String(Math.exp(1.5))}\t0.7`,
+  ]);
+  // A number fit's rows carry no odds ratio at all.
+  expect(coefficientRows(result).every((row) => !("oddsRatio" in row))).toBe(true);
+});

@@ -12,9 +12,12 @@ import { fitCache } from "../../../functions/cache";
 import { InProcessRunner } from "../../../functions/inProcessRunner";
 import type { Spill } from "../../../functions/api";
 import { roasteryColumns, roasteryNewRows, roasteryRows } from "../../../addin/demo/roasteryData";
+import { qualityColumns, qualityNewRows, qualityRows } from "../../../addin/demo/qualityData";
 import {
   createDemoWorkbook,
   DEMO_SHEET,
+  QUALITY_RANGES,
+  QUALITY_SHEET,
   FormulaError,
   parseFormula,
   StandInSheetHost,
@@ -48,9 +51,24 @@ function shown(spill: Spill): unknown[][] {
 }
 
 describe("the demo workbook (layout from README and the preview)", () => {
+  test("'Quality check' holds the quality data (addin/demo/qualityData.ts): header and 300 batches in A1:N301, the new batches in A304:M312", async () => {
+    const host = newHost();
+    const at = (address: string): string => `'${QUALITY_SHEET}'!${address}`;
+    expect((await host.readValues(at("A1:N1")))[0]).toEqual([...qualityColumns]); // demo data
+    const data = await host.readValues(at(QUALITY_RANGES.data));
+    expect(data).toHaveLength(1 + qualityRows.length);
+    expect(data.slice(1)).toEqual(qualityRows.map((row) => row.map((v) => v ?? "")));
+    expect((await host.readValues(at(QUALITY_RANGES.target))).slice(1).flat()).toEqual(qualityRows.map((row) => row[row.length - 1] ?? ""));
+    expect((await host.readValues(at("A302:N303"))).flat().every((v) => v === "")).toBe(true);
+    const fresh = await host.readValues(at(QUALITY_RANGES.newBatches));
+    expect(fresh[0]).toEqual(qualityColumns.slice(0, -1));
+    expect(fresh.slice(1)).toEqual(qualityNewRows.map((row) => row.map((v) => v ?? "")));
+  });
+
   test("A1:M121 holds the header and 120 batches; A124:L132 the new batches with their header", async () => {
     const host = newHost();
-    expect(host.workbook.sheets().map((s) => s.name)).toEqual([DEMO_SHEET]);
+    expect(host.workbook.sheets().map((s) => s.name)).toEqual([DEMO_SHEET, QUALITY_SHEET]);
+    expect(host.workbook.activeSheet.name).toBe(DEMO_SHEET);
     const header = await host.readValues("A1:M1");
     expect(header[0]).toEqual([...roasteryColumns]); // demo data
     const first = await host.readValues("A2:M2");
@@ -316,7 +334,7 @@ describe("report sheet", () => {
     const first = await host.writeReport(report);
     const second = await host.writeReport(report);
     expect([first, second]).toEqual(["Shrinkwise report", "Shrinkwise report 2"]);
-    expect(host.workbook.sheets().map((s) => s.name)).toEqual([DEMO_SHEET, first, second]);
+    expect(host.workbook.sheets().map((s) => s.name)).toEqual([DEMO_SHEET, QUALITY_SHEET, first, second]);
     expect(host.workbook.activeSheet.name).toBe(second);
     expect(await host.selectionAddress()).toBe("'Shrinkwise report 2'!A1");
     const sheet = host.workbook.sheet(first);
