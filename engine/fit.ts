@@ -98,21 +98,14 @@ export function parseRule(text: string): ChoiceRule | null {
   if (["onese", "oneserule", "1se", "1serule", "onestandarderror", "onestandarderrorrule"].includes(key)) return "one-se";
   return null;
 }
-/**
- * Cross-validation measures. Numeric outcomes: mean squared or absolute error. Two-class outcomes
- * (classMetrics.ts): binomial deviance per row (the default), the share misclassified at the
- * cutoff, or the AUC, which is the one measure where higher is better (see higherIsBetter).
- */
-export type ErrorMeasure = "mse" | "mae" | "deviance" | "misclassified" | "auc";
-/** The measures each outcome accepts; the first is its default. */
+import type { ErrorMeasure } from "./words";
+export type { ErrorMeasure } from "./words";
+import { higherIsBetter } from "./words";
+export { higherIsBetter } from "./words";
 export const MEASURES: Readonly<Record<OutcomeKind, readonly ErrorMeasure[]>> = {
   number: ["mse", "mae"],
   "two-class": ["deviance", "misclassified", "auc"],
 };
-/** True for the AUC: "lowest error" then means the highest AUC, and the one-SE rule looks one SE below the best. */
-export function higherIsBetter(measure: ErrorMeasure): boolean {
-  return measure === "auc";
-}
 export type UpdateScheme = "auto" | "gram" | "residual";
 
 /** Options, each with its default. */

@@ -43,3 +43,45 @@ export function errorWithSe(error: number, se: number): string {
   if (decimals > 12) return `${significant(error, 3)} ± ${seText(2)}`;
   return `${error.toFixed(decimals)} ± ${Number.isFinite(se) ? se.toFixed(decimals) : "n/a"}`;
 }
+
+/**
+ * Cross-validation measures. Numeric outcomes: mean squared or absolute error. Two-class outcomes
+ * (classMetrics.ts): binomial deviance per row (the default), the share misclassified at the
+ * cutoff, or the AUC, which is the one measure where higher is better (see higherIsBetter).
+ */
+export type ErrorMeasure = "mse" | "mae" | "deviance" | "misclassified" | "auc";
+/** The measures each outcome accepts; the first is its default. */
+/** True for the AUC: "lowest error" then means the highest AUC, and the one-SE rule looks one SE below the best. */
+export function higherIsBetter(measure: ErrorMeasure): boolean {
+  return measure === "auc";
+}
+
+/** A measure's short name: MSE, MAE, deviance, misclassified share, AUC. */
+export function measureName(measure: ErrorMeasure): string {
+  if (measure === "mse" || measure === "mae" || measure === "auc") return measure.toUpperCase();
+  if (measure === "misclassified") return "misclassified share";
+  return measure;
+}
+
+/** The measure's name, with "(higher is better)" for the AUC, the one measure where it is. */
+export function measureWithDirection(measure: ErrorMeasure): string {
+  return higherIsBetter(measure) ? `${measureName(measure)} (higher is better)` : measureName(measure);
+}
+
+/** The cross-validated measure as a heading: "CV MSE", "CV deviance", "CV AUC (higher is better)". */
+export function cvMeasureLabel(measure: ErrorMeasure): string {
+  return `CV ${measureWithDirection(measure)}`;
+}
+
+/**
+ * The label of the point the "lowest" rule picks: "lowest error" for every error measure (the
+ * rule's own name), "highest AUC" for the AUC, where the rule takes the best, that is highest, value.
+ */
+export function bestPointLabel(measure: ErrorMeasure): string {
+  return higherIsBetter(measure) ? "highest AUC" : RULE_WORDS.lowest;
+}
+
+/** The one-SE rule's threshold in words: "lowest error + 1 SE", or "highest AUC − 1 SE". */
+export function oneSeLineLabel(measure: ErrorMeasure): string {
+  return higherIsBetter(measure) ? "highest AUC − 1 SE" : `${RULE_WORDS.lowest} + 1 SE`;
+}

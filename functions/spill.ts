@@ -9,7 +9,7 @@ import type { ErrorMeasure, FitResult } from "../engine/fit";
 import type { Score } from "../engine/metrics";
 import type { OutcomeReading } from "../engine/outcome";
 import { portableExp } from "../engine/portableMath";
-import { INTERCEPT_LABEL } from "../engine/words";
+import { cvMeasureLabel, INTERCEPT_LABEL } from "../engine/words";
 import type { Dataset, EncodedRow, TargetClasses } from "./dataset";
 import { cellError } from "./errors";
 
@@ -37,10 +37,7 @@ export function logOddsOf(classes: TargetClasses): string {
  * (binomial deviance per row), CV misclassified share, CV AUC (higher is better).
  */
 export function measureLabel(measure: ErrorMeasure): string {
-  if (measure === "deviance") return "CV deviance";
-  if (measure === "misclassified") return "CV misclassified share";
-  if (measure === "auc") return "CV AUC (higher is better)";
-  return `CV ${measure.toUpperCase()}`;
+  return cvMeasureLabel(measure);
 }
 
 /** e^b for the odds-ratio column: #NUM! when it overflows (b above about 709). */

@@ -4,36 +4,10 @@
  * better), what a coefficient of a yes/no model is (log-odds of the event), and the line under
  * the target picker that says how the target was read.
  *
- * The command line has its own copy of `measureName` (engine/cli/format.ts): the engine's folder
- * imports nothing from here. Both follow engine/fit.ts `MEASURES` and `higherIsBetter`.
+ * The measures' names come from engine/words.ts, which the command line and the cells use too.
  */
-import { higherIsBetter, type ErrorMeasure } from "../engine/fit";
+export { measureName, measureWithDirection, bestPointLabel, oneSeLineLabel } from "../engine/words";
 import type { OutcomeKind } from "../engine/outcome";
-
-/** A measure named for people: MSE, MAE, deviance, misclassified share, AUC. */
-export function measureName(measure: ErrorMeasure): string {
-  if (measure === "mse" || measure === "mae" || measure === "auc") return measure.toUpperCase();
-  if (measure === "misclassified") return "misclassified share";
-  return measure;
-}
-
-/** The measure's name, with "(higher is better)" for the AUC, the one measure where it is. */
-export function measureWithDirection(measure: ErrorMeasure): string {
-  return higherIsBetter(measure) ? `${measureName(measure)} (higher is better)` : measureName(measure);
-}
-
-/**
- * The label of the point the "lowest" rule picks: "lowest error" for every error measure (the
- * rule's own name), "highest AUC" for the AUC, where the rule takes the best, that is highest, value.
- */
-export function bestPointLabel(measure: ErrorMeasure): string {
-  return higherIsBetter(measure) ? "highest AUC" : "lowest error";
-}
-
-/** The one-SE rule's threshold in words: "lowest error + 1 SE", or "highest AUC − 1 SE". */
-export function oneSeLineLabel(measure: ErrorMeasure): string {
-  return higherIsBetter(measure) ? "highest AUC − 1 SE" : "lowest error + 1 SE";
-}
 
 /** What a standardized coefficient is, by outcome: the axis titles of the path chart and the bars. */
 export function standardizedTitle(outcome: OutcomeKind): string {

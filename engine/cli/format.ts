@@ -12,7 +12,7 @@ import type { LinearModel } from "../model";
 import { CommandError } from "./args";
 import type { FitTable } from "./table";
 import { skippedRowsMessage } from "./table";
-import { errorWithSe, RULE_WORDS, significant } from "../words";
+import { bestPointLabel as bestPointWords, errorWithSe, measureName as measureWords, measureWithDirection, RULE_WORDS, significant } from "../words";
 
 export { errorWithSe, RULE_WORDS };
 
@@ -292,12 +292,11 @@ function schemeText(result: FitResult, foldColumn: string | null | undefined): s
  */
 /** The point the "lowest" rule picks, in words: "lowest error", or "highest AUC" where higher is better. */
 export function bestPointLabel(measure: ErrorMeasure | undefined): string {
-  return measure !== undefined && higherIsBetter(measure) ? "highest AUC" : RULE_WORDS.lowest;
+  return measure === undefined ? RULE_WORDS.lowest : bestPointWords(measure);
 }
 
 export function measureName(measure: ErrorMeasure, withDirection = false): string {
-  const name = measure === "mse" || measure === "mae" || measure === "auc" ? measure.toUpperCase() : measure === "misclassified" ? "misclassified share" : measure;
-  return withDirection && higherIsBetter(measure) ? `${name} (higher is better)` : name;
+  return withDirection ? measureWithDirection(measure) : measureWords(measure);
 }
 
 /** The readable report printed without `--json`. */
