@@ -20,6 +20,7 @@ import type { Spill, SpillCell } from "../../functions/api";
 import { isCellError } from "../../functions/errors";
 import type { FitProgress, FitRunner } from "../../functions/runner";
 import { roasteryColumns, roasteryNewRows, roasteryNewRowsExpected, roasteryRows } from "../../addin/demo/roasteryData";
+import { qualityColumns, qualityNewRows, qualityNewRowsFailProbability, qualityRows } from "../../addin/demo/qualityData";
 import type { FunctionHelp } from "../functionHelp";
 
 /** The worksheet ranges the examples use, as Excel would pass them (rows of cells; blanks null). */
@@ -125,6 +126,69 @@ export const EXAMPLES: readonly Example[] = [
     caption: "a mix of 2",
     note: "A mistake, to show how errors look: a mix must lie between 0 (ridge) and 1 (lasso). The cell shows #VALUE! and Excel shows the message beside it.",
     run: (runner, sheet) => api.coefs(runner, sheet.target, sheet.predictors, [[2]], null),
+  },
+];
+
+/** The quality-check sheet's ranges as Excel would pass them (same shape as DemoSheet: the target is the pass/fail column). */
+export function qualitySheet(): DemoSheet {
+  const last = qualityColumns.length - 1;
+  return {
+    target: [[qualityColumns[last]], ...qualityRows.map((row) => [row[last]])],
+    predictors: [qualityColumns.slice(1, last), ...qualityRows.map((row) => row.slice(1, last))],
+    newRows: [qualityColumns.slice(1, last), ...qualityNewRows.map((row) => row.slice(1, last))],
+  };
+}
+
+export const QUALITY_EXAMPLE_RANGES = { target: "N1:N301", predictors: "B1:M301", newRows: "B304:M312", coefs: "P1#" } as const;
+
+const { target: QT, predictors: QP, newRows: QN, coefs: QC } = QUALITY_EXAMPLE_RANGES;
+
+/** Yes/no examples on the quality-check sheet (default settings: the event is the rarer label, 'fail'). */
+export const QUALITY_EXAMPLES: readonly Example[] = [
+  {
+    id: "COEFS",
+    formula: `=SHRINK.COEFS(${QT}, ${QP})`,
+    caption: "log-odds of failing the check",
+    note: "The target holds two labels, so the fit is penalized logistic regression: coefficients are log-odds of 'fail' per unit, with odds ratios beside them.",
+    run: (runner, sheet) => api.coefs(runner, sheet.target, sheet.predictors, null, null),
+  },
+  {
+    id: "CHOICE",
+    formula: `=SHRINK.CHOICE(${QT}, ${QP})`,
+    caption: "how the yes/no model was chosen",
+    note: "The outcome, the event and the cutoff come first; the strength and mix were chosen by the cross-validated deviance.",
+    run: (runner, sheet) => api.choice(runner, sheet.target, sheet.predictors, null, null),
+  },
+  {
+    id: "PREDICT",
+    formula: `=SHRINK.PREDICT(${QT}, ${QP}, ${QN})`,
+    caption: "probability that each new batch fails",
+    note:
+      "The probability of 'fail' for the eight new batches. The data are invented, so their true probabilities are known: " +
+      qualityNewRowsFailProbability.map((value) => value.toFixed(2)).join(", ") +
+      ".",
+    run: (runner, sheet) => api.predict(runner, sheet.target, sheet.predictors, sheet.newRows, null, null),
+  },
+  {
+    id: "APPLY",
+    formula: `=SHRINK.APPLY(${QC}, ${QN})`,
+    caption: "probabilities from the coefficient table",
+    note: "The log-odds header tells SHRINK.APPLY to turn scores into probabilities: the same values as SHRINK.PREDICT.",
+    run: async (runner, sheet) => api.apply(await api.coefs(runner, sheet.target, sheet.predictors, null, null), sheet.newRows),
+  },
+  {
+    id: "SCORE",
+    formula: `=SHRINK.SCORE(${QT}, SHRINK.PREDICT(${QT}, ${QP}, ${QP}))`,
+    caption: "in-sample accuracy of the probabilities",
+    note: "Log loss, Brier score and AUC of the in-sample probabilities, and the table at the 0.5 cutoff in words.",
+    run: async (runner, sheet) => api.score(sheet.target, await api.predict(runner, sheet.target, sheet.predictors, sheet.predictors, null, null)),
+  },
+  {
+    id: "BASELINE",
+    formula: `=SHRINK.BASELINE(${QT}, ${QP})`,
+    caption: "unpenalized logistic baseline",
+    note: "The unpenalized logistic fit by Newton's method, with standard errors, z values and p-values, and the deviances.",
+    run: (runner, sheet) => api.baseline(runner, sheet.target, sheet.predictors),
   },
 ];
 

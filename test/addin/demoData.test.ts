@@ -27,7 +27,7 @@ import {
 import { qualityColumns, qualityNewRows, qualityNewRowsFailProbability, qualityRows, qualityTruth } from "../../addin/demo/qualityData";
 import { CholeskyDecomposition, Matrix } from "ml-matrix";
 import { InProcessRunner } from "../../functions/inProcessRunner";
-import { demoSheet, EXAMPLES } from "../../taskpane/standalone/preview";
+import { demoSheet, EXAMPLES, QUALITY_EXAMPLES, qualitySheet } from "../../taskpane/standalone/preview";
 
 const DEMO = join(__dirname, "..", "..", "addin", "demo");
 const README = join(__dirname, "..", "..", "README.md");
@@ -198,6 +198,25 @@ describe("the README's cell-function examples", () => {
         }
         if (example.id === "APPLY") continue; // the README states it equals PREDICT (checked below)
         expect([example.id, line(row), readmeLines.has(line(row))]).toEqual([example.id, line(row), true]);
+      }
+    }
+    expect(results.get("APPLY")).toEqual(results.get("PREDICT"));
+  });
+
+  test("every yes/no example table in the README is what the function returns on the quality-check data (default settings)", async () => {
+    const text = readFileSync(README, "utf8");
+    const readmeLines = new Set(text.split("\n").map((t) => t.trim().replace(/\s+/g, " ")));
+    const runner = new InProcessRunner();
+    const sheet = qualitySheet();
+    const results = new Map<string, unknown[][]>();
+    for (const example of QUALITY_EXAMPLES) {
+      expect([example.formula, text.includes(`\`${example.formula}\``)]).toEqual([example.formula, true]);
+      const spill = (await example.run(runner, sheet)) as unknown[][];
+      results.set(example.id, spill);
+      if (example.id === "APPLY") continue; // the README states it equals PREDICT (checked below)
+      for (const row of spill) {
+        const cells = row.map((cell) => (cell === null || cell === undefined ? "" : cell));
+        expect([example.id, line(cells), readmeLines.has(line(cells))]).toEqual([example.id, line(cells), true]);
       }
     }
     expect(results.get("APPLY")).toEqual(results.get("PREDICT"));
