@@ -34,11 +34,13 @@
  *   (b0 += Σ s / Σ v) to clear rounding. When descent crawls (strongly correlated columns), the
  *   step's quadratic is finished in gram form on the active columns (buildModel: descent.ts
  *   CoordinateDescent, with its active-set Newton step), as the number outcome's solver does.
- * - Covariance form (settings.covariance, rows ≫ predictors): the quadratic's p × p curvature
- *   matrix is stored and reused across steps and strengths, rebuilt only when the steps stop
- *   contracting fast enough to pay for it (hessianWanted); each step then minimizes that model
- *   with the true gradient at the current point (a proximal Newton method with an inexact Hessian,
- *   Lee, Sun & Saunders 2014, SIAM J. Optim. 24(3)), at O(p) per coordinate update instead of O(n).
+ * - Covariance form (settings.covariance, rows ≫ predictors): the quadratic's curvature matrix on
+ *   the working set (the strong set and every column the stored matrix already has) is stored and
+ *   reused across steps and strengths, rebuilt only when the steps stop contracting fast enough to
+ *   pay for it (hessianWanted); columns that join the working set border it (their rows only, with
+ *   the same working weights: extendModel). Each step then minimizes that model with the true
+ *   gradient at the current point (a proximal Newton method with an inexact Hessian, Lee, Sun &
+ *   Saunders 2014, SIAM J. Optim. 24(3)), at O(working set) per coordinate update instead of O(n).
  * - Inexact Newton: each quadratic is solved only to a fraction of the current violation of the
  *   optimality conditions (forcing term min(0.1, violation); Dembo, Eisenstat & Steihaug 1982,
  *   SIAM J. Numer. Anal. 19(2)): early steps are cheap and the convergence stays fast.
@@ -56,8 +58,9 @@
  *   larger (below it no step can make progress). The outer loop is capped at MAX_NEWTON_STEPS
  *   per strength and the sweeps at the sweep cap; hitting either is reported (converged = false).
  * - Screening: the sequential strong rule (Tibshirani et al. 2012, JRSS-B 74(2), eq. 7) on the
- *   true gradient at the previous strength; after convergence every discarded predictor's KKT
- *   condition is checked on the true gradient and violators are added back.
+ *   true gradient at the previous strength, in both forms; steps compute the gradient over the
+ *   working set only, and after convergence every discarded predictor's KKT condition is checked
+ *   on the true gradient and violators are added back.
  *
  * Separation (a rule of our own): when the classes can be separated, the fitted probabilities
  * run to 0 and 1 as λ falls and the coefficients grow without bound (like log(1/λ)). `saturated`
@@ -222,7 +225,8 @@ export class LogisticDescent {
   private readonly strong: Uint8Array;
   /** Covariance form (settings.covariance): the stored curvature and the gram-form solver on it. */
   private model: CurvatureModel | null = null;
-  private allColumns: Int32Array | null = null;
+  /** Covariance form: 1 for the columns of the stored model. */
+  private readonly inModel: Uint8Array;
   private pairBuffer: Float64Array | null = null;
   private hessianStale = true;
   /** Covariance form: how many times the curvature was rebuilt. */
@@ -261,6 +265,7 @@ export class LogisticDescent {
     this.history = new Float64Array(p);
     this.spare = new Float64Array(p);
     this.strong = new Uint8Array(p);
+    this.inModel = new Uint8Array(p);
     this.setBuffer = new Int32Array(p);
     this.activeBuffer = new Int32Array(p);
     this.setBuffer2 = new Int32Array(p);
@@ -639,7 +644,8 @@ export class LogisticDescent {
       const sweepsLeft = this.settings.maxSweeps - budget.sweeps;
       let used: number;
       if (covariance) {
-        if (this.hessianWanted(violation, lastViolation, bar)) this.refreshHessian();
+        if (this.hessianWanted(violation, lastViolation, bar)) this.refreshHessian(set, count);
+        else if (!this.modelCovers(set, count)) this.extendModel(set, count);
         used = this.covarianceStep(lambda, limit, sweepsLeft);
       } else {
         this.setWorkingWeights();
@@ -727,12 +733,16 @@ export class LogisticDescent {
    * CoordinateDescent, with its active-set Newton step) then solves the model's quadratic in O(count)
    * per coordinate update. Cost O(n·count²/2).
    */
-  private buildModel(columns: Int32Array, count: number): CurvatureModel {
+  private buildModel(columns: Int32Array, count: number, base: CurvatureModel | null = null): CurvatureModel {
     const { n, p, xs, working } = this;
     const frozen = this.problem.std.frozen;
     const signal = this.settings.signal;
     const gram = new Float64Array(count * count);
     const sums = new Float64Array(count);
+    // Extending `base` (same working weights, its columns first): its entries are copied, and only
+    // the pairs with a new column are summed.
+    const known = base ? base.count : 0;
+    if (base) for (let a = 0; a < known; a++) gram.set(base.gram.subarray(a * known, (a + 1) * known), a * count);
     const curvature = new Float64Array(count);
     const subFrozen = new Uint8Array(count);
     // Two weighted columns at a time, each pass over the rows making 2 × 4 products (8 running
@@ -760,7 +770,7 @@ export class LogisticDescent {
       weigh(a, 0);
       if (two) weigh(a + 1, n);
       else pair.fill(0, n, 2 * n);
-      let b = a;
+      let b = a + 1 < known ? known : a;
       for (; b + 3 < count; b += 4) {
         const o0 = columns[b] * n;
         const o1 = columns[b + 1] * n;
@@ -815,7 +825,8 @@ export class LogisticDescent {
       }
     }
     for (let a = 0; a < count; a++) curvature[a] = gram[a * count + a];
-    const whole = count === p;
+    let whole = count === p;
+    for (let a = 0; whole && a < count; a++) whole = columns[a] === a;
     const pick = (values: Float64Array): Float64Array => (whole ? values : Float64Array.from(columns.subarray(0, count), (j) => values[j]));
     const penalty: PenaltySpec = whole
       ? this.penalty
@@ -847,11 +858,45 @@ export class LogisticDescent {
     };
   }
 
-  /** Covariance form, rebuild: working weights at the current fit and the model on every column. */
-  private refreshHessian(): void {
+  /** Covariance form: whether the stored model's columns are exactly the listed ones. */
+  private modelCovers(set: Int32Array, count: number): boolean {
+    const model = this.model;
+    if (!model || model.count !== count) return false;
+    for (let t = 0; t < count; t++) if (!this.inModel[set[t]]) return false;
+    return true;
+  }
+
+  /**
+   * Covariance form, new columns in the working set: the stored model (same working weights) is
+   * bordered with their rows, at O(n · new · count) instead of a rebuild's O(n · count² / 2). The
+   * working set holds every column of the model (solve), else this is a rebuild.
+   */
+  private extendModel(set: Int32Array, count: number): void {
+    const old = this.model as CurvatureModel;
+    const columns = new Int32Array(count);
+    columns.set(old.columns.subarray(0, old.count));
+    let k = old.count;
+    for (let t = 0; t < count; t++) {
+      const j = set[t];
+      if (this.inModel[j]) continue;
+      if (k === count) break;
+      columns[k++] = j;
+    }
+    if (k !== count) {
+      this.refreshHessian(set, count);
+      return;
+    }
+    this.model = this.buildModel(columns, count, old);
+    for (let t = count - 1; t >= old.count; t--) this.inModel[columns[t]] = 1;
+  }
+
+  /** Covariance form, rebuild: working weights at the current fit and the model on the listed columns (the working set). */
+  private refreshHessian(set: Int32Array, count: number): void {
     this.setWorkingWeights();
-    if (!this.allColumns) this.allColumns = Int32Array.from({ length: this.p }, (_, j) => j);
-    this.model = this.buildModel(this.allColumns, this.p);
+    const old = this.model;
+    if (old) for (let a = 0; a < old.count; a++) this.inModel[old.columns[a]] = 0;
+    this.model = this.buildModel(set, count);
+    for (let t = 0; t < count; t++) this.inModel[set[t]] = 1;
     this.hessianStale = false;
     this.hessianBuilds++;
   }
@@ -899,7 +944,9 @@ export class LogisticDescent {
   /** Covariance form, one outer step on the stored model, with the true gradients. */
   private covarianceStep(lambda: number, limit: number, sweepsLeft: number): number {
     const grad = this.grad;
-    return this.modelStep(this.model as CurvatureModel, lambda, limit, sweepsLeft, (t) => grad[t], this.interceptGrad);
+    const model = this.model as CurvatureModel;
+    const columns = model.columns;
+    return this.modelStep(model, lambda, limit, sweepsLeft, (t) => grad[columns[t]], this.interceptGrad);
   }
 
   /**
@@ -1012,14 +1059,21 @@ export class LogisticDescent {
     const { strong, coef, grad } = this;
     const set = this.setBuffer;
     const covariance = this.settings.covariance === true;
-    // The covariance form's gradient covers every column at each step anyway: no screening there
-    // (its inner gram-form solver screens the quadratic's coordinates itself).
-    const cut = Number.isFinite(previousLambda) && !covariance ? mix * (2 * lambda - previousLambda) : -Infinity;
+    const cut = Number.isFinite(previousLambda) ? mix * (2 * lambda - previousLambda) : -Infinity;
     let count = 0;
     for (let j = 0; j < p; j++) {
       const keep = !frozen[j] && (coef[j] !== 0 || multipliers[j] * mix === 0 || Math.abs(grad[j]) >= cut * multipliers[j]);
       strong[j] = keep ? 1 : 0;
       if (keep) set[count++] = j;
+    }
+    if (covariance && this.model) {
+      // Covariance form: the stored model's columns join the working set (their gradient feeds
+      // the model), so the model is reused as it is, or bordered with the new strong columns.
+      count = 0;
+      for (let j = 0; j < p; j++) {
+        if (this.inModel[j]) strong[j] = 1;
+        if (strong[j]) set[count++] = j;
+      }
     }
     this.spare.set(coef);
     const spareIntercept = this.intercept;
