@@ -546,7 +546,8 @@ describe("deviance and null deviance from their formulas (common practice)", () 
 function separatedFit(rows: number[][], y: number[], names: string[], options: { intercept?: boolean } = {}) {
   const started = Date.now();
   const fit = logisticBaseline(fromRows(rows), y, { names, ...options });
-  expect(Date.now() - started).toBeLessThan(1000); // the brief: returns quickly
+  expect(Date.now() - started).toBeLessThan(10000); // a hang guard (measured: under 30 ms)
+  expect(fit.iterations).toBeLessThan(100); // stopped by the separation check, before the Newton cap (DEFAULT_MAX_ITERATIONS)
   expectAllFinite(fit);
   expect(fit.converged).toBe(false);
   expect(fit.separation).not.toBeNull();
