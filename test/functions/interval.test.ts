@@ -7,7 +7,11 @@
 import { predictionIntervals } from "../../engine/conformal";
 import { fit } from "../../engine/fit";
 import { fromRows } from "../../engine/matrix";
+import { readFileSync } from "fs";
+import { join } from "path";
 import { predict } from "../../functions/api";
+import { InProcessRunner } from "../../functions/inProcessRunner";
+import { demoSheet, RANGES } from "../../taskpane/standalone/preview";
 import { parseSettings } from "../../functions/settings";
 import { CountingRunner, QUICK, rejection, sheet } from "./support";
 
@@ -67,5 +71,15 @@ describe("SHRINK.PREDICT interval=", () => {
     const yesNo = target.map((row, i) => (i === 0 ? row : [(row[0] as number) > 10]));
     const error = await rejection(predict(new CountingRunner(), yesNo, predictors, [[5, 1]], 1, `${QUICK}; interval=0.9`));
     expect(error.message).toBe("prediction intervals are for number targets; a yes/no model gives probabilities: remove the interval setting");
+  });
+
+  test("the README's example on the demo data is what the function returns", async () => {
+    const sheet = demoSheet();
+    const formula = `=SHRINK.PREDICT(${RANGES.target}, ${RANGES.predictors}, ${RANGES.newRows}, , "interval=0.9")`;
+    const readme = readFileSync(join(__dirname, "..", "..", "README.md"), "utf8");
+    expect(readme).toContain(`\`${formula}\``);
+    const out = await predict(new InProcessRunner(), sheet.target, sheet.predictors, sheet.newRows, null, "interval=0.9");
+    const shown = (cell: unknown): string => (typeof cell === "number" ? String(Number(cell.toPrecision(4))) : String(cell));
+    for (const row of out) expect(readme).toContain(`| ${row.map(shown).join(" | ")} |`);
   });
 });
