@@ -9,7 +9,7 @@
  * |--------------------------------------------------------|-----------------------------------------------------------------|
  * | SHRINK.COEFS(target, predictors, [mixes], [settings])  | term | coefficient, "intercept" first                           |
  * | SHRINK.CHOICE(target, predictors, [mixes], [settings]) | label | value: the chosen point and how it was chosen          |
- * | SHRINK.PREDICT(target, predictors, new_rows, [mixes], [settings]) | one prediction per new row                           |
+ * | SHRINK.PREDICT(target, predictors, new_rows, [mixes], [settings]) | one prediction per new row (with `interval`: prediction | low | high) |
  * | SHRINK.APPLY(coefficient_table, new_rows)              | one prediction per new row, from a table, without refitting     |
  * | SHRINK.PATH(target, predictors, [mix], [settings])     | strength | terms kept | intercept | terms…, one per strength  |
  * | SHRINK.CVCURVE(target, predictors, [mixes], [settings])| mix | strength | CV MSE | ± SE | terms kept                    |
@@ -276,11 +276,17 @@ function predictRows(
  * PREDICT with `interval`: prediction | low | high per row, the CV+ interval at the level
  * (engine/conformal.ts; a yes/no model, a fixed strength and time-ordered folds are refused there).
  */
-function predictWithIntervals(encoded: EncodedRows, result: FitResult, level: number): Spill {
+function predictWithIntervals(encoded: EncodedRows, result: FitResult, level: number, cancel?: CancelToken): Spill {
   const valueRows: number[][] = [];
   for (const row of encoded.rows) if (row.kind === "values") valueRows.push(row.values);
   const rows: ColumnMatrix = valueRows.length > 0 ? fromRows(valueRows) : { rows: 0, columns: result.terms.length, data: new Float64Array(0) };
-  const { low, high } = predictionIntervals(result, rows, level);
+  // The cell's cancel reaches the interval loop's checkpoints (many new rows × many training rows).
+  const signal = {
+    get aborted(): boolean {
+      return cancel?.cancelled ?? false;
+    },
+  };
+  const { low, high } = predictionIntervals(result, rows, level, signal);
   const predictions = predictWithModel(linearModel(result.terms, result.intercept, result.coefficients), valueRows);
   return intervalSpill(encoded.header, encoded.rows, predictions, low, high, level);
 }
@@ -317,7 +323,7 @@ export function predict(
     const prepared = prepare(target, predictors, mixes, settings);
     const encoded = encodeNewRows(prepared.dataset.encoder, newRows);
     const result = await runner.fit(prepared.request, cancel ?? undefined);
-    if (prepared.settings.interval !== null) return predictWithIntervals(encoded, result, prepared.settings.interval);
+    if (prepared.settings.interval !== null) return predictWithIntervals(encoded, result, prepared.settings.interval, cancel ?? undefined);
     if (prepared.dataset.outcome === "two-class") {
       return predictRows(encoded, result.terms, result.intercept, result.coefficients, "logistic", twoClassOutput(prepared.dataset, prepared.settings));
     }

@@ -11,7 +11,7 @@
 import { cvPlusIntervals, kthSmallest, lowerRank, predictionIntervals, FoldModel } from "../../engine/conformal";
 import { fit, FitOptions, FitResult } from "../../engine/fit";
 import { fromRows } from "../../engine/matrix";
-import { InputError } from "../../engine/errors";
+import { CancelledError, InputError } from "../../engine/errors";
 import { TestRandom } from "../helpers/random";
 
 describe("quantile indexing, by hand", () => {
@@ -160,6 +160,12 @@ test("same seed: bit-identical intervals; another fold seed: different ones", ()
   expect(Array.from(a.low)).toEqual(Array.from(b.low));
   expect(Array.from(a.high)).toEqual(Array.from(b.high));
   expect(Array.from(a.low)).not.toEqual(Array.from(c.low));
+});
+
+test("the interval loop reads the cancel signal", () => {
+  const { x, y } = linearData(60, 4, 10);
+  const result = fit(x, y, { folds: 5 });
+  expect(() => predictionIntervals(result, fromRows([[0, 0, 0, 0]]), 0.9, { aborted: true })).toThrow(CancelledError);
 });
 
 describe("refusals", () => {
