@@ -43,6 +43,7 @@ import { score, Score } from "./metrics";
 import { areaUnderCurve, devianceFromScores, misclassifiedShare, scoreTwoClass, TwoClassScore } from "./classMetrics";
 import { LogisticDescent, LogisticReport, LogisticRun, LogisticSettings, logisticTopStrength, runLogisticPath } from "./logistic";
 import type { OutcomeKind } from "./outcome";
+import type { FoldModel } from "./conformal";
 import {
   DEFAULT_GRID_DENSITY,
   EarlyStop,
@@ -296,6 +297,25 @@ export interface FitResult {
   };
   warnings: FitWarning[];
   model: LinearModel;
+  /**
+   * Number outcome with cross-validation: each fold's model (fitted without that fold's rows) at
+   * the chosen mix and strength, in the data's units, for CV+ prediction intervals (conformal.ts).
+   * Kept from the cross-validation run, no extra fits. Absent or null otherwise.
+   */
+  foldModels?: FoldModel[] | null;
+  /**
+   * With foldModels: every row with positive weight that a fold held out (0-based row index into
+   * the rows given, the fold that held it out as an index into foldModels, and its held-out
+   * residual y − prediction of that fold's model, in the target's units). Rows of weight 0 are
+   * not listed; with time-ordered folds the first block, never held out, is not either.
+   */
+  heldOut?: { row: number[]; fold: number[]; residual: number[] } | null;
+}
+
+/** A fold's path, kept while its mix may be the chosen one: the standardized solution at any strength index. */
+interface FoldPoints {
+  problem: TrainingProblem;
+  at: (index: number) => Float64Array;
 }
 
 export const DEFAULT_MIXES: readonly number[] = [0, 0.25, 0.5, 0.75, 1];
@@ -774,13 +794,13 @@ function foldErrors(
 /** Held-out errors of an exact ridge path, predicted through the eigendecomposition. */
 function spectralFoldErrors(
   problem: TrainingProblem,
-  penalty: PenaltySpec,
+  spectral: SpectralRidge,
   strengths: readonly number[],
   held: HeldOut,
   measure: ErrorMeasure,
   signal: CancelSignal | undefined,
 ): Float64Array {
-  const predictAt = new SpectralRidge(problem, penalty.multipliers, signal).heldOutPredictor(held.x);
+  const predictAt = spectral.heldOutPredictor(held.x);
   const prediction = new Float64Array(held.y.length);
   const errors = new Float64Array(strengths.length);
   const anchor = problem.std.yAnchor;
@@ -955,7 +975,13 @@ export function* fitSteps(
   let allKkt = 0;
   let allConverged = true;
   let sweeps = 0;
+  // The fold paths of the mix holding the lowest error so far (the chosen mix at the end, as the
+  // choice below takes the first mix reaching the lowest error): CV+ intervals need each fold's
+  // model at the chosen point. At most two mixes' fold paths are held at once.
+  let chosenFolds: FoldPoints[] = [];
+  let lowestSoFar = Infinity;
   for (const mix of data.mixes) {
+    const foldPoints: FoldPoints[] = [];
     const penalty = penaltyFor(full, data, mix);
     const factorization = ridgeFactorization(full, penalty, data.settings.exactRidge, data.settings.signal);
     const top = topStrength(full, penalty, data.settings, factorization);
@@ -975,7 +1001,17 @@ export function* fitSteps(
       const heldOut = (): HeldOut => (heldOutCache[f] ??= gatherHeldOut(data, activePlan.blocks[activePlan.validateBlock[f]]));
       if (problem.kind === "naive" && data.settings.exactRidge && spectralApplies(problem, foldPenalty)) {
         // Exact ridge in kernel form: score held-out rows straight from the factorization.
-        errors.push(spectralFoldErrors(problem, foldPenalty, run.strengths, heldOut(), measure, data.settings.signal));
+        const spectral = new SpectralRidge(problem, foldPenalty.multipliers, data.settings.signal);
+        errors.push(spectralFoldErrors(problem, spectral, run.strengths, heldOut(), measure, data.settings.signal));
+        const strengths = run.strengths;
+        foldPoints.push({
+          problem,
+          at: (index) => {
+            const out = new Float64Array(problem.p);
+            spectral.coefficientsAt(strengths[index], out);
+            return out;
+          },
+        });
       } else {
         // Every fold solves exactly the strengths the full-data path computed (a fold's path
         // never ends on its own), so each strength's error averages all K folds.
@@ -983,6 +1019,7 @@ export function* fitSteps(
         sweeps += foldRun.sweeps;
         allKkt = Math.max(allKkt, foldRun.maxKktViolation);
         if (foldRun.notConverged.length > 0) allConverged = false;
+        foldPoints.push({ problem, at: (index) => foldRun.coefficients[index] });
         errors.push(
           foldErrors(
             data,
@@ -1001,6 +1038,12 @@ export function* fitSteps(
     }
     const { mean, se } = summarise(errors, foldWeights, run.strengths.length);
     outcomes.push({ mix, top, run, mean, se });
+    let lowest = Infinity;
+    for (let k = 0; k < mean.length; k++) lowest = Math.min(lowest, mean[k]);
+    if (chosenFolds.length === 0 || lowest < lowestSoFar) {
+      chosenFolds = foldPoints;
+      lowestSoFar = lowest;
+    }
   }
   // Choices: lowest mean error over every mix and strength (ties go to the larger strength,
   // then the earlier mix); one-SE: the largest strength of that mix within one SE of it.
@@ -1072,7 +1115,50 @@ export function* fitSteps(
   result.diagnostics.sweeps = sweeps;
   result.diagnostics.maxKktViolationAllFits = allKkt;
   result.diagnostics.converged = allConverged;
+  const kept = heldOutModels(data, activePlan, chosenFolds, chosen.index);
+  result.foldModels = kept.foldModels;
+  result.heldOut = kept.heldOut;
   return result;
+}
+
+/**
+ * Each fold's model at the chosen strength index in the data's units, and every held-out row's
+ * residual from the model that did not see it (computed from the rows, O(n·p) once, in the
+ * centred form foldErrors uses so a large offset costs no digits). Rows of weight 0 are left out.
+ */
+function heldOutModels(
+  data: Prepared,
+  plan: FoldPlan,
+  folds: FoldPoints[],
+  index: number,
+): { foldModels: FoldModel[]; heldOut: { row: number[]; fold: number[]; residual: number[] } } {
+  const foldModels: FoldModel[] = [];
+  const row: number[] = [];
+  const fold: number[] = [];
+  const residual: number[] = [];
+  const n = data.x.rows;
+  for (let f = 0; f < folds.length; f++) {
+    throwIfCancelled(data.settings.signal);
+    const { problem } = folds[f];
+    const standardized = folds[f].at(index);
+    const working = toOriginal(problem, standardized);
+    const coefficients: number[] = [];
+    for (let j = 0; j < problem.p; j++) coefficients.push(pathValueInDataUnits(data, j, working.coefficients[j]));
+    foldModels.push({ intercept: pathValueInDataUnits(data, -1, working.intercept), coefficients });
+    const std = problem.std;
+    for (const i of plan.blocks[plan.validateBlock[f]]) {
+      if (data.weights && !(data.weights[i] > 0)) continue;
+      let prediction = std.yOffset;
+      for (let j = 0; j < problem.p; j++) {
+        const b = working.coefficients[j];
+        if (b !== 0) prediction += b * (data.x.data[j * n + i] - std.xAnchor[j] - std.xOffset[j]);
+      }
+      row.push(i);
+      fold.push(f);
+      residual.push(scaleByPowerOfTwo(data.y[i] - std.yAnchor - prediction, -data.yExponent));
+    }
+  }
+  return { foldModels, heldOut: { row, fold, residual } };
 }
 
 /** As coefficientInDataUnits, but a value below the normal range is returned rounded (it only loses digits); overflow still throws. */

@@ -22,6 +22,8 @@ export { penalizedSpectrum, ridgeDegreesOfFreedom, strengthForDegreesOfFreedom }
 export { softThreshold, coordinateViolation } from "./descent";
 export { RULE_WORDS, INTERCEPT_LABEL, MIX_LABEL, errorWithSe } from "./words";
 export { planFolds } from "./folds";
+export { cvPlusIntervals, predictionIntervals, lowerRank, kthSmallest, checkLevel } from "./conformal";
+export type { FoldModel, IntervalSource } from "./conformal";
 export type { FoldPlan, FoldScheme } from "./folds";
 export { mulberry32, randomFolds } from "./random";
 export { fromRows, columnView } from "./matrix";

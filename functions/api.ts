@@ -9,7 +9,7 @@
  * |--------------------------------------------------------|-----------------------------------------------------------------|
  * | SHRINK.COEFS(target, predictors, [mixes], [settings])  | term | coefficient, "intercept" first                           |
  * | SHRINK.CHOICE(target, predictors, [mixes], [settings]) | label | value: the chosen point and how it was chosen          |
- * | SHRINK.PREDICT(target, predictors, new_rows, [mixes], [settings]) | one prediction per new row                           |
+ * | SHRINK.PREDICT(target, predictors, new_rows, [mixes], [settings]) | one prediction per new row (with `interval`: prediction | low | high) |
  * | SHRINK.APPLY(coefficient_table, new_rows)              | one prediction per new row, from a table, without refitting     |
  * | SHRINK.PATH(target, predictors, [mix], [settings])     | strength | terms kept | intercept | terms…, one per strength  |
  * | SHRINK.CVCURVE(target, predictors, [mixes], [settings])| mix | strength | CV MSE | ± SE | terms kept                    |
@@ -35,7 +35,9 @@
  * APPLY and SCORE fit nothing and take no runner.
  */
 import { scoreTwoClass } from "../engine/classMetrics";
-import { checkMeasure } from "../engine/fit";
+import { checkMeasure, type FitResult } from "../engine/fit";
+import { predictionIntervals } from "../engine/conformal";
+import { fromRows, type ColumnMatrix } from "../engine/matrix";
 import { score as scoreValues } from "../engine/metrics";
 import { numberFromText } from "../engine/numberText";
 import { linearModel, predict as predictWithModel, type ModelLink } from "../engine/model";
@@ -63,6 +65,7 @@ import {
   pathSpill,
   PredictionOutput,
   predictionSpill,
+  intervalSpill,
   scoreSpill,
   Spill,
   twoClassBaselineSpill,
@@ -269,6 +272,25 @@ function predictRows(
   return predictionSpill(encoded.header, encoded.rows, predictions, output);
 }
 
+/**
+ * PREDICT with `interval`: prediction | low | high per row, the CV+ interval at the level
+ * (engine/conformal.ts; a yes/no model, a fixed strength and time-ordered folds are refused there).
+ */
+function predictWithIntervals(encoded: EncodedRows, result: FitResult, level: number, cancel?: CancelToken): Spill {
+  const valueRows: number[][] = [];
+  for (const row of encoded.rows) if (row.kind === "values") valueRows.push(row.values);
+  const rows: ColumnMatrix = valueRows.length > 0 ? fromRows(valueRows) : { rows: 0, columns: result.terms.length, data: new Float64Array(0) };
+  // The cell's cancel reaches the interval loop's checkpoints (many new rows × many training rows).
+  const signal = {
+    get aborted(): boolean {
+      return cancel?.cancelled ?? false;
+    },
+  };
+  const { low, high } = predictionIntervals(result, rows, level, signal);
+  const predictions = predictWithModel(linearModel(result.terms, result.intercept, result.coefficients), valueRows);
+  return intervalSpill(encoded.header, encoded.rows, predictions, low, high, level);
+}
+
 /** How PREDICT shows a yes/no model's predictions: the event's probability, or the predicted class. */
 function twoClassOutput(dataset: Dataset, settings: Settings): PredictionOutput {
   const classes = dataset.classes as TargetClasses;
@@ -301,6 +323,7 @@ export function predict(
     const prepared = prepare(target, predictors, mixes, settings);
     const encoded = encodeNewRows(prepared.dataset.encoder, newRows);
     const result = await runner.fit(prepared.request, cancel ?? undefined);
+    if (prepared.settings.interval !== null) return predictWithIntervals(encoded, result, prepared.settings.interval, cancel ?? undefined);
     if (prepared.dataset.outcome === "two-class") {
       return predictRows(encoded, result.terms, result.intercept, result.coefficients, "logistic", twoClassOutput(prepared.dataset, prepared.settings));
     }

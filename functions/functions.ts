@@ -67,15 +67,15 @@ export async function choice(
 }
 
 /**
- * Fits the same model as SHRINK.COEFS and predicts the target for each row of new_rows. For a yes/no target it gives the probability of the event, or with predict=class the predicted class.
+ * Fits the same model as SHRINK.COEFS and predicts the target for each row of new_rows. For a yes/no target it gives the probability of the event, or with predict=class the predicted class. For a number target, interval=0.9 (or 90%) adds the low and high ends of a CV+ prediction interval at that level.
  * @customfunction PREDICT
  * @param target The column to predict, one value per row: numbers, or a yes/no outcome (two values: TRUE/FALSE, 0/1 or two labels such as pass/fail). A header cell on top is fine; rows with a blank or error are skipped.
  * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one.
  * @param new_rows The rows to predict: the same columns as predictors, in the same order, or with a header row naming them.
  * @param [mixes] The mixes to try: 0 is ridge, 1 is lasso, between is elastic net. Leave out for 0, 0.25, 0.5, 0.75 and 1.
- * @param [settings] Optional settings as text, like "folds=5; seed=7", or a two-column range of setting names and values. Yes/no targets: predict=probability (default) or predict=class, cutoff=0.5.
+ * @param [settings] Optional settings as text, like "folds=5; seed=7", or a two-column range of setting names and values. Yes/no targets: predict=probability (default) or predict=class, cutoff=0.5. Number targets: interval=0.9 adds prediction intervals.
  * @param invocation Supplied by Excel.
- * @returns One prediction per row of new_rows (yes/no target: the event's probability, or the predicted class).
+ * @returns One prediction per row of new_rows (yes/no target: the event's probability, or the predicted class); with interval=0.9, prediction | low (90%) | high (90%).
  */
 export async function predict(
   target: any[][],

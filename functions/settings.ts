@@ -35,6 +35,7 @@
  * | `event`          | `event class`, `positive class`    | the target value whose probability a yes/no model gives (TRUE, 1, fail, …) | TRUE, else 1, else the rarer label |
  * | `cutoff`         | `threshold`, `probability cutoff`  | a probability strictly between 0 and 1 (`0.3` or `30%`): a row is flagged as the event at or above it | 0.5 |
  * | `predict`        | `prediction`, `predictions`        | `probability` or `class`: what SHRINK.PREDICT returns for a yes/no target | probability |
+ * | `interval`       | `interval level`, `prediction interval` | a level strictly between 0 and 1 (`0.9` or `90%`): SHRINK.PREDICT adds CV+ prediction intervals at it (number targets) | (none) |
  *
  * A term is a predictor column name (a text column's name covers all its indicator terms) or
  * an indicator term such as `Region: North`. In `term:value` lists the value follows the last
@@ -104,6 +105,8 @@ export interface Settings {
   cutoff: number | null;
   /** SHRINK.PREDICT's output for a yes/no target; null for probability. */
   predictOutput: PredictOutput | null;
+  /** SHRINK.PREDICT: the level of CV+ prediction intervals (number targets); null for none. Does not change the fit. */
+  interval: number | null;
 }
 
 export function defaultSettings(): Settings {
@@ -132,6 +135,7 @@ export function defaultSettings(): Settings {
     event: null,
     cutoff: null,
     predictOutput: null,
+    interval: null,
   };
 }
 
@@ -285,7 +289,11 @@ const PREDICT_WORDS: Record<string, PredictOutput> = {
 
 /** `cutoff`: a probability strictly between 0 and 1, as a number or text (`0.3`, `30%`). */
 function cutoffValue(value: RawValue): number {
-  const what = "a probability between 0 and 1 (not 0 or 1), like 0.5 or 50%";
+  return shareValue("cutoff", value, "a probability between 0 and 1 (not 0 or 1), like 0.5 or 50%");
+}
+
+/** A share strictly between 0 and 1, as a number or text (`0.3`, `30%`). */
+function shareValue(name: string, value: RawValue, what: string): number {
   let n: number | null = null;
   if (value.kind === "number") n = value.value;
   else if (value.kind === "text") {
@@ -295,7 +303,7 @@ function cutoffValue(value: RawValue): number {
       n = percent === null ? null : percent / 100;
     } else n = parseNumberText(text);
   }
-  if (n === null || !(n > 0 && n < 1)) throw new SettingError(`'cutoff' must be ${what}; got ${show(value)}`);
+  if (n === null || !(n > 0 && n < 1)) throw new SettingError(`'${name}' must be ${what}; got ${show(value)}`);
   return n;
 }
 
@@ -402,6 +410,11 @@ const SPECS: SettingSpec[] = [
     name: "predict",
     aliases: ["prediction", "predictions"],
     apply: (s, v) => (s.predictOutput = word("predict", v, PREDICT_WORDS, "probability or class") as PredictOutput),
+  },
+  {
+    name: "interval",
+    aliases: ["interval level", "prediction interval"],
+    apply: (s, v) => (s.interval = shareValue("interval", v, "a coverage level between 0 and 1 (not 0 or 1), like 0.9 or 90%")),
   },
 ];
 

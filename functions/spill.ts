@@ -259,6 +259,44 @@ export function predictionSpill(header: boolean, rows: readonly EncodedRow[], pr
   return out;
 }
 
+/** A level as the interval headers show it: 0.9 → "90%", 0.975 → "97.5%". */
+export function levelText(level: number): string {
+  return `${Number((level * 100).toPrecision(12))}%`;
+}
+
+/**
+ * PREDICT with `interval`: prediction | low (90%) | high (90%) per row. An end that is unbounded
+ * (too few rows for the level: CV+ needs ⌊(1 − level)(n + 1)⌋ ≥ 1) is an error value saying so.
+ */
+export function intervalSpill(
+  header: boolean,
+  rows: readonly EncodedRow[],
+  predictions: ArrayLike<number>,
+  low: ArrayLike<number>,
+  high: ArrayLike<number>,
+  level: number,
+): Spill {
+  const shown = levelText(level);
+  const out: Spill = header ? [["prediction", `low (${shown})`, `high (${shown})`]] : [];
+  const end = (value: number): SpillCell =>
+    Number.isFinite(value)
+      ? value
+      : cellError(
+          "notAvailable",
+          `unbounded: a ${shown} interval needs at least ${Math.ceil(1 / (1 - level) - 1 - 1e-9)} rows with a held-out error; lower the interval level or add rows`,
+        );
+  let k = 0;
+  for (const row of rows) {
+    if (row.kind === "blank") out.push(["", "", ""]);
+    else if (row.kind === "missing") out.push([cellError("notAvailable", row.reason), cellError("notAvailable", row.reason), cellError("notAvailable", row.reason)]);
+    else {
+      out.push([numberCell(predictions[k]), end(low[k]), end(high[k])]);
+      k++;
+    }
+  }
+  return out;
+}
+
 /** How predictions other than plain numbers are shown: a header cell, and a cell per prediction (default: the number). */
 export interface PredictionOutput {
   /** The header cell, e.g. `probability of 'fail'` or `predicted class (cutoff 0.5)`. */

@@ -17,7 +17,7 @@ export interface FunctionHelp {
 export const FUNCTION_HELP: readonly FunctionHelp[] = [
   { id: "COEFS", signature: "target, predictors, [mixes], [settings]", summary: "the chosen model's coefficients, intercept first, one row per term (a yes/no target: log-odds of the event, with odds ratios)." },
   { id: "CHOICE", signature: "target, predictors, [mixes], [settings]", summary: "how the model was chosen: strength, mix, cross-validated error ± SE, rule (lowest error or one-SE rule), terms kept, rows used and skipped (a yes/no target: the event and cutoff first)." },
-  { id: "PREDICT", signature: "target, predictors, new_rows, [mixes], [settings]", summary: "fits the same model and predicts one value per row of new_rows (a yes/no target: the event's probability, or the class with predict=class)." },
+  { id: "PREDICT", signature: "target, predictors, new_rows, [mixes], [settings]", summary: "fits the same model and predicts one value per row of new_rows (a yes/no target: the event's probability, or the class with predict=class); a number target with interval=0.9 adds the low and high ends of a CV+ prediction interval." },
   { id: "APPLY", signature: "coefficient_table, new_rows", summary: "predictions from a coefficient table (e.g. a COEFS result), without fitting again; a header saying log-odds gives probabilities." },
   { id: "PATH", signature: "target, predictors, [mix], [settings]", summary: "every coefficient at every penalty strength of one mix, strongest first." },
   { id: "CVCURVE", signature: "target, predictors, [mixes], [settings]", summary: "cross-validated error, its SE and the terms kept for every mix and strength tried." },
