@@ -105,6 +105,27 @@ test("yes/no target: shares from the fold fits, the dominant term kept throughou
   }
 });
 
+test("yes/no target: the shares agree with refits of each fold's training rows at the chosen point (second route)", () => {
+  // Folds given by labels, so each fold's training rows are known here; each refit is the fixed-
+  // strength fit of those rows at the chosen mix and strength, tolerance 1e-12 on both routes.
+  const { x, y } = sparseData(160, 8, 21);
+  const events = y.map((v) => (v > 10 ? 1 : 0));
+  const labels = events.map((_, i) => (i * 7) % 4);
+  const options = { outcome: "two-class" as const, mixes: [0.5, 1], foldLabels: labels, tolerance: 1e-12 };
+  const result = fit(x, events, options);
+  const refits = [0, 1, 2, 3].map((k) => {
+    const train = x.map((_, i) => i).filter((i) => labels[i] !== k);
+    return fit(
+      train.map((i) => x[i]),
+      train.map((i) => events[i]),
+      { outcome: "two-class", mixes: [result.mix], strength: result.strength, tolerance: 1e-12 },
+    ).coefficients;
+  });
+  expect(result.keptShare).toEqual(keptShares(result.terms, result.coefficients, refits));
+  // Some term is dropped by some folds here, so the check is not only of all-ones.
+  expect((result.keptShare ?? []).some((s) => s.kept < 1)).toBe(true);
+});
+
 test("same seed: bit-identical shares; none with a fixed strength", () => {
   const { x, y } = sparseData(90, 10, 9);
   expect(fit(x, y, { seed: 5 }).keptShare).toEqual(fit(x, y, { seed: 5 }).keptShare);
