@@ -126,6 +126,19 @@ test("yes/no target: the shares agree with refits of each fold's training rows a
   expect((result.keptShare ?? []).some((s) => s.kept < 1)).toBe(true);
 });
 
+test("units: rescaling a column (even by a negative factor) and shifting the target leave the shares as they are", () => {
+  // The fit is unit-free (standardized predictors, unpenalized intercept: common practice), so the
+  // fold models change only by the column's factor, and signs flip on both sides together.
+  const { x, y } = sparseData(100, 6, 33);
+  const base = fit(x, y, { mixes: [1], folds: 5, seed: 2 });
+  const moved = fit(
+    x.map((row) => row.map((v, j) => (j === 1 ? -1000 * v + 7 : v))),
+    y.map((v) => v + 500),
+    { mixes: [1], folds: 5, seed: 2 },
+  );
+  expect(moved.keptShare).toEqual(base.keptShare);
+});
+
 test("same seed: bit-identical shares; none with a fixed strength", () => {
   const { x, y } = sparseData(90, 10, 9);
   expect(fit(x, y, { seed: 5 }).keptShare).toEqual(fit(x, y, { seed: 5 }).keptShare);
