@@ -44,6 +44,7 @@ import { areaUnderCurve, devianceFromScores, misclassifiedShare, scoreTwoClass, 
 import { LogisticDescent, LogisticReport, LogisticRun, LogisticSettings, logisticTopStrength, runLogisticPath } from "./logistic";
 import type { OutcomeKind } from "./outcome";
 import type { FoldModel } from "./conformal";
+import { KeptShare, keptShares } from "./keptShare";
 import {
   DEFAULT_GRID_DENSITY,
   EarlyStop,
@@ -310,6 +311,13 @@ export interface FitResult {
    * not listed; with time-ordered folds the first block, never held out, is not either.
    */
   heldOut?: { row: number[]; fold: number[]; residual: number[] } | null;
+  /**
+   * With cross-validation (number and two-class outcomes): per term, in the order of `terms`, the
+   * share of the fold models at the chosen mix and strength that keep it (nonzero coefficient) and
+   * the share that agree with the full-data fit's sign (keptShare.ts). Counted from the fold fits
+   * cross-validation made anyway, no extra fits. Absent or null without cross-validation.
+   */
+  keptShare?: KeptShare[] | null;
 }
 
 /** A fold's path, kept while its mix may be the chosen one: the standardized solution at any strength index. */
@@ -1118,6 +1126,11 @@ export function* fitSteps(
   const kept = heldOutModels(data, activePlan, chosenFolds, chosen.index);
   result.foldModels = kept.foldModels;
   result.heldOut = kept.heldOut;
+  result.keptShare = keptShares(
+    result.terms,
+    result.coefficients,
+    kept.foldModels.map((model) => model.coefficients),
+  );
   return result;
 }
 
@@ -1708,6 +1721,11 @@ function* twoClassSteps(
   let allConverged = true;
   let sweeps = 0;
   let halvings = 0;
+  // Each fold's path of the mix with the best mean so far (as the number outcome keeps them), for
+  // the kept shares at the chosen point: the last of these mixes is the chosen one.
+  let chosenFoldPaths: Float64Array[][] | null = null;
+  let chosenFoldMix = NaN;
+  let bestSoFar = NaN;
   for (const mix of data.mixes) {
     const penalty = penaltyFor(full, data, mix);
     const { solver, start } = startTwoClass(data, full, data.y, penalty, true, warnings);
@@ -1721,6 +1739,7 @@ function* twoClassSteps(
     options.onProgress?.(++done, totalUnits);
     yield;
     const errors: Float64Array[] = [];
+    const foldPaths: Float64Array[][] = [];
     for (let f = 0; f < K; f++) {
       throwIfCancelled(signal);
       const problem = problems.folds[f];
@@ -1733,6 +1752,7 @@ function* twoClassSteps(
       allKkt = Math.max(allKkt, foldRun.maxKktViolation);
       if (foldRun.notConverged.length > 0) allConverged = false;
       errors.push(twoClassFoldErrors(data, problem, foldRun, measure, heldOut(f)));
+      foldPaths.push(foldRun.coefficients);
       options.onProgress?.(++done, totalUnits);
       yield;
     }
@@ -1742,6 +1762,14 @@ function* twoClassSteps(
       run.strengths.length,
     );
     outcomes.push({ mix, top, run, mean, se });
+    // The same comparison as the choice below (strictly better replaces, so ties keep the earlier mix).
+    let mixBest = mean[0];
+    for (let k = 1; k < mean.length; k++) if (higherIsBetter(measure) ? mean[k] > mixBest : mean[k] < mixBest) mixBest = mean[k];
+    if (chosenFoldPaths === null || (higherIsBetter(measure) ? mixBest > bestSoFar : mixBest < bestSoFar)) {
+      chosenFoldPaths = foldPaths;
+      chosenFoldMix = mix;
+      bestSoFar = mixBest;
+    }
   }
   // Choices as for the number outcome, with "lowest error" meaning the highest AUC: the best mean
   // over every mix and strength (ties to the larger strength, then the earlier mix); one-SE: the
@@ -1806,6 +1834,16 @@ function* twoClassSteps(
   result.diagnostics.sweeps = sweeps;
   result.diagnostics.maxKktViolationAllFits = allKkt;
   result.diagnostics.converged = allConverged;
+  // Each fold's coefficients at the chosen point in its working units (a positive multiple of the
+  // data units, so the signs are the data units' signs; a column constant in a fold reads 0).
+  result.keptShare =
+    chosenFoldPaths !== null && chosenFoldMix === best.mix
+      ? keptShares(
+          result.terms,
+          result.coefficients,
+          chosenFoldPaths.map((path, f) => logisticToOriginal(problems.folds[f], 0, path[chosen.index]).coefficients),
+        )
+      : null;
   return result;
 }
 

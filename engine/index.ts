@@ -24,6 +24,8 @@ export { RULE_WORDS, INTERCEPT_LABEL, MIX_LABEL, errorWithSe } from "./words";
 export { planFolds } from "./folds";
 export { cvPlusIntervals, predictionIntervals, lowerRank, kthSmallest, checkLevel } from "./conformal";
 export type { FoldModel, IntervalSource } from "./conformal";
+export { keptShares } from "./keptShare";
+export type { KeptShare } from "./keptShare";
 export type { FoldPlan, FoldScheme } from "./folds";
 export { mulberry32, randomFolds } from "./random";
 export { fromRows, columnView } from "./matrix";

@@ -13,6 +13,7 @@
  * | SHRINK.APPLY(coefficient_table, new_rows)              | one prediction per new row, from a table, without refitting     |
  * | SHRINK.PATH(target, predictors, [mix], [settings])     | strength | terms kept | intercept | terms…, one per strength  |
  * | SHRINK.CVCURVE(target, predictors, [mixes], [settings])| mix | strength | CV MSE | ± SE | terms kept                    |
+ * | SHRINK.KEPT(target, predictors, [mixes], [settings])   | term | coefficient | kept in folds | same sign, most kept first |
  * | SHRINK.SCORE(actual, predicted, [settings])            | label | value: MAE, RMSE, R², mean error, pairs used/skipped   |
  * | SHRINK.BASELINE(target, predictors, [settings])        | term | coefficient | standard error, residual SD, R²            |
  *
@@ -27,10 +28,11 @@
  * | APPLY    | a coefficient header saying log-odds: probability of the event, header `probability of 'fail'` |
  * | PATH     | the intercept's header reads `intercept (log-odds of 'fail')`                                   |
  * | CVCURVE  | CV deviance, CV misclassified share or CV AUC (higher is better), by `error`                    |
+ * | KEPT     | the coefficient header reads `coefficient (log-odds of 'fail')`                                 |
  * | SCORE    | event, log loss, Brier score, AUC, cutoff, accuracy, sensitivity, specificity, events caught, events missed, false alarms, correct all-clear, pairs used/skipped, notes |
  * | BASELINE | term | coefficient (log-odds of 'fail') | standard error | z | p-value, then deviances (a separation row on top when no estimate exists) |
  *
- * COEFS, CHOICE, PREDICT, PATH (with its mix omitted) and CVCURVE build the same FitRequest for
+ * COEFS, CHOICE, PREDICT, PATH (with its mix omitted), CVCURVE and KEPT build the same FitRequest for
  * the same ranges, mixes and settings, so a caching runner fits once for all of them.
  * APPLY and SCORE fit nothing and take no runner.
  */
@@ -66,6 +68,7 @@ import {
   PredictionOutput,
   predictionSpill,
   intervalSpill,
+  keptSpill,
   scoreSpill,
   Spill,
   twoClassBaselineSpill,
@@ -393,6 +396,30 @@ export function cvcurve(
     const result = await runner.fit(prepared.request, cancel ?? undefined);
     if (!result.cv) throw new DataError("no cross-validation ran for this fit", "n/a");
     return cvCurveSpill(result);
+  });
+}
+
+/**
+ * SHRINK.KEPT: how steadily each term is kept over the cross-validation folds at the chosen mix
+ * and strength. Returns [["term", "coefficient", "kept in folds", "same sign"], one row per term,
+ * most kept first]. #N/A with a fixed strength (no cross-validation runs, so no fold models).
+ */
+export function kept(
+  runner: FitRunner,
+  target: unknown,
+  predictors: unknown,
+  mixes: unknown,
+  settings: unknown,
+  cancel?: CancelToken | null,
+): Promise<Spill> {
+  return guard(async () => {
+    const prepared = prepare(target, predictors, mixes, settings);
+    if (prepared.settings.strength !== null) {
+      throw new DataError("kept shares count the cross-validation fold models, and a fixed strength runs no cross-validation: remove 'strength' from settings", "n/a");
+    }
+    const result = await runner.fit(prepared.request, cancel ?? undefined);
+    if (!result.keptShare) throw new DataError("no cross-validation ran for this fit, so there are no fold models to count", "n/a");
+    return keptSpill(result, prepared.dataset);
   });
 }
 

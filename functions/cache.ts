@@ -1,6 +1,6 @@
 /**
  * The shared fit cache: a FitRunner that sits in front of another FitRunner (the Web Worker
- * in the add-in) so that COEFS, CHOICE, PREDICT, PATH and CVCURVE over the same ranges and
+ * in the add-in) so that COEFS, CHOICE, PREDICT, PATH, CVCURVE and KEPT over the same ranges and
  * settings compute once, and so that recalculations Excel triggers without a real change
  * (row inserts, reloads) cost nothing.
  *

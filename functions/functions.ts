@@ -143,6 +143,29 @@ export async function cvcurve(
 }
 
 /**
+ * Shows how steadily each term is kept over the cross-validation folds: for every term, the
+ * chosen model's coefficient, the share of the fold models (each fitted without one fold's rows,
+ * at the chosen mix and strength) that keep the term, and the share whose sign agrees with the
+ * chosen model's. Most kept first. A stability indication, not a significance test.
+ * @customfunction KEPT
+ * @param target The column to predict, one value per row: numbers, or a yes/no outcome (two values: TRUE/FALSE, 0/1 or two labels such as pass/fail). A header cell on top is fine; rows with a blank or error are skipped.
+ * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one.
+ * @param [mixes] The mixes to try: 0 is ridge, 1 is lasso, between is elastic net. Leave out for 0, 0.25, 0.5, 0.75 and 1.
+ * @param [settings] Optional settings as text, like "folds=10; seed=7", or a two-column range of setting names and values. A fixed strength runs no cross-validation, so it has no kept shares.
+ * @param invocation Supplied by Excel.
+ * @returns A table: term, coefficient, kept in folds (share of fold models with a nonzero coefficient), same sign (share agreeing with the chosen model's sign; for a term the model drops, the share of folds that drop it too).
+ */
+export async function kept(
+  target: any[][],
+  predictors: any[][],
+  mixes: any[][],
+  settings: any[][],
+  invocation: CustomFunctions.CancelableInvocation,
+): Promise<any[][]> {
+  return api.kept(sharedRunner(), target, predictors, mixes, settings, cancelOn(invocation));
+}
+
+/**
  * Measures how close predictions are to actual values: mean absolute error, root mean squared
  * error, R², mean error, and the pairs used and skipped. When the actual values are yes/no (two classes) and the predictions are probabilities from 0 to 1: log loss, Brier score, AUC, and at the cutoff accuracy, sensitivity, specificity and the counts of events caught, events missed, false alarms and correct all-clear.
  * @customfunction SCORE
@@ -225,6 +248,7 @@ export const FUNCTIONS = {
   APPLY: apply,
   PATH: path,
   CVCURVE: cvcurve,
+  KEPT: kept,
   SCORE: score,
   BASELINE: baseline,
 } as const;

@@ -188,6 +188,25 @@ export function cvCurveSpill(result: FitResult): Spill {
 }
 
 /**
+ * SHRINK.KEPT: header, then term | coefficient | kept in folds | same sign, one row per term
+ * (the intercept, never penalized, is not listed), largest kept share first, ties in the order of
+ * the predictors' columns. The shares are over the cross-validation fold models at the chosen
+ * point (engine/keptShare.ts). A yes/no target's coefficient header says log-odds, as COEFS does.
+ * Example: [["term", "coefficient", "kept in folds", "same sign"], ["Size", 0.2, 1, 1], ["Noise", 0, 0.2, 0.8]]
+ */
+export function keptSpill(result: FitResult, dataset: Dataset): Spill {
+  const shares = result.keptShare;
+  if (!shares) throw new Error("keptSpill requires a cross-validated result");
+  const coefficient = dataset.classes ? `coefficient (${logOddsOf(dataset.classes)})` : "coefficient";
+  const order = shares.map((_, j) => j);
+  // A stable sort keeps the columns' order among equal shares.
+  order.sort((a, b) => shares[b].kept - shares[a].kept);
+  const rows: Spill = [["term", coefficient, "kept in folds", "same sign"]];
+  for (const j of order) rows.push([shares[j].term, numberCell(result.coefficients[j]), shares[j].kept, shares[j].sameSign]);
+  return rows;
+}
+
+/**
  * SHRINK.SCORE: label | value. R² of actual values that are all equal is #DIV/0!.
  * Example: [["label", "value"], ["MAE", 0.5], ["RMSE", 0.61], ["R²", 0.93], ["mean error (predicted − actual)", 0.1], ["pairs used", 4], ["pairs skipped", 0]]
  */

@@ -21,6 +21,7 @@ export const FUNCTION_HELP: readonly FunctionHelp[] = [
   { id: "APPLY", signature: "coefficient_table, new_rows", summary: "predictions from a coefficient table (e.g. a COEFS result), without fitting again; a header saying log-odds gives probabilities." },
   { id: "PATH", signature: "target, predictors, [mix], [settings]", summary: "every coefficient at every penalty strength of one mix, strongest first." },
   { id: "CVCURVE", signature: "target, predictors, [mixes], [settings]", summary: "cross-validated error, its SE and the terms kept for every mix and strength tried." },
+  { id: "KEPT", signature: "target, predictors, [mixes], [settings]", summary: "each term's coefficient with the share of cross-validation fold models that keep it and that agree on its sign, most kept first (a stability indication, not a significance test)." },
   { id: "SCORE", signature: "actual, predicted, [settings]", summary: "accuracy of predictions: MAE, RMSE, R², mean error, pairs used and skipped; for yes/no actual values and probabilities, log loss, Brier score, AUC and the events caught and missed at the cutoff." },
   { id: "BASELINE", signature: "target, predictors, [settings]", summary: "the fit without penalty (least squares, or logistic for a yes/no target) with standard errors, to compare with." },
 ];

@@ -112,6 +112,12 @@ export interface JsonReport {
   };
   /** The fitted model as the engine saves it (terms, intercept, coefficients; link "logistic" for a yes/no target). */
   model: LinearModel;
+  /**
+   * With cross-validation: column → the share of the fold models at the chosen point that keep the
+   * term (nonzero coefficient) and the share agreeing with the model's sign (for a term the model
+   * drops: the share of folds dropping it too); see engine/keptShare.ts. Null for a fixed strength.
+   */
+  keptShare: Record<string, { kept: number; sameSign: number }> | null;
 }
 
 /** A finite number as is; NaN and ±Infinity as null. */
@@ -253,6 +259,7 @@ export function jsonReport(result: FitResult, context: ReportContext): JsonRepor
       stepHalvings: d.stepHalvings ?? 0,
     },
     model,
+    keptShare: result.keptShare ? Object.fromEntries(result.keptShare.map((s) => [s.term, { kept: s.kept, sameSign: s.sameSign }])) : null,
   };
 }
 
@@ -351,7 +358,19 @@ export function textReport(result: FitResult, context: ReportContext): string {
       ]);
     });
   }
+  // With cross-validation: in how many of the K fold models each term is kept, and agrees in sign.
+  const shares = result.keptShare;
+  const K = result.cv?.folds ?? 0;
+  if (shares && K > 0) {
+    const ofK = (share: number): string => `${Math.round(share * K)}/${K}`;
+    termRows[0].push("kept in folds", "same sign");
+    termRows[1].push("", "");
+    shares.forEach((s, j) => termRows[j + 2].push(ofK(s.kept), ofK(s.sameSign)));
+  }
   lines.push(...columns(termRows));
+  if (shares && K > 0) {
+    lines.push(`  (kept in folds: how many of the ${K} fold models at the chosen point keep the term; same sign: how many agree with its sign above)`);
+  }
   if (twoClass) {
     lines.push(
       `  (log-odds of ${event} per unit of each predictor; odds ratio = e^log-odds, what the odds`,

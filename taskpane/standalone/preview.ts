@@ -107,6 +107,13 @@ export const EXAMPLES: readonly Example[] = [
     run: (runner, sheet) => api.cvcurve(runner, sheet.target, sheet.predictors, null, null),
   },
   {
+    id: "KEPT",
+    formula: `=SHRINK.KEPT(${T}, ${P})`,
+    caption: "kept in folds",
+    note: "For each term, the share of the ten fold models (each fitted without one fold's batches, at the chosen mix and strength) that keep it, and the share that agree with its sign: a stability indication, not a significance test.",
+    run: (runner, sheet) => api.kept(runner, sheet.target, sheet.predictors, null, null),
+  },
+  {
     id: "SCORE",
     formula: `=SHRINK.SCORE(${T}, SHRINK.PREDICT(${T}, ${P}, ${P}))`,
     caption: "in-sample accuracy",

@@ -13,7 +13,7 @@
  *   the cells in Excel, and its result spills into the cells below and to the right.
  *
  * Formulas the stand-in computes (anything else shows #NAME? with a message):
- *   =SHRINK.COEFS|CHOICE|PREDICT|APPLY|PATH|CVCURVE|SCORE|BASELINE(arg, …), any case, where
+ *   =SHRINK.COEFS|CHOICE|PREDICT|APPLY|PATH|CVCURVE|KEPT|SCORE|BASELINE(arg, …), any case, where
  *   each argument is
  *     a range          B1:L121, $M$1:$M$121, 'Roast log'!M1:M121, whole columns B:L (cut to the
  *                      sheet's last filled row), whole rows 1:5;
@@ -286,6 +286,7 @@ const FUNCTION_SPECS: Record<string, FunctionSpec> = {
   APPLY: { min: 2, max: 2, signature: "coefficient_table, new_rows", run: (_r, a) => api.apply(a[0], a[1]) },
   PATH: { min: 2, max: 4, signature: "target, predictors, [mix], [settings]", run: (r, a) => api.path(r, a[0], a[1], scalarOf(a[2]), a[3] ?? null) },
   CVCURVE: { min: 2, max: 4, signature: "target, predictors, [mixes], [settings]", run: (r, a) => api.cvcurve(r, a[0], a[1], a[2] ?? null, a[3] ?? null) },
+  KEPT: { min: 2, max: 4, signature: "target, predictors, [mixes], [settings]", run: (r, a) => api.kept(r, a[0], a[1], a[2] ?? null, a[3] ?? null) },
   SCORE: { min: 2, max: 2, signature: "actual, predicted", run: (_r, a) => api.score(a[0], a[1]) },
   BASELINE: { min: 2, max: 2, signature: "target, predictors", run: (r, a) => api.baseline(r, a[0], a[1]) },
 };

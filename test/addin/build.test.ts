@@ -63,7 +63,7 @@ test("the bundles, metadata, page, manifest and icons are where the manifest poi
   expect(readdirSync(join(out, "assets")).some((f) => f.endsWith(".ts"))).toBe(false);
   const metadata = JSON.parse(file("functions.json")) as { allowErrorForDataTypeAny?: boolean; functions: { id: string }[] };
   expect(metadata.allowErrorForDataTypeAny).toBe(true);
-  expect(metadata.functions.map((f) => f.id).sort()).toEqual(["APPLY", "BASELINE", "CHOICE", "COEFS", "CVCURVE", "PATH", "PREDICT", "SCORE"]);
+  expect(metadata.functions.map((f) => f.id).sort()).toEqual(["APPLY", "BASELINE", "CHOICE", "COEFS", "CVCURVE", "KEPT", "PATH", "PREDICT", "SCORE"]);
 });
 
 test("taskpane.html loads the functions bundle before the pane's (one shared runtime)", () => {

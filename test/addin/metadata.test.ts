@@ -30,6 +30,7 @@ const EXPECTED: Record<string, { cancelable: boolean; parameters: string[] }> = 
   APPLY: { cancelable: false, parameters: ["coefficient_table:matrix", "new_rows:matrix"] },
   PATH: { cancelable: true, parameters: ["target:matrix", "predictors:matrix", "mix:scalar?", "settings:matrix?"] },
   CVCURVE: { cancelable: true, parameters: ["target:matrix", "predictors:matrix", "mixes:matrix?", "settings:matrix?"] },
+  KEPT: { cancelable: true, parameters: ["target:matrix", "predictors:matrix", "mixes:matrix?", "settings:matrix?"] },
   SCORE: { cancelable: false, parameters: ["actual:matrix", "predicted:matrix", "settings:matrix?"] },
   BASELINE: { cancelable: true, parameters: ["target:matrix", "predictors:matrix", "settings:matrix?"] },
 };

@@ -170,6 +170,37 @@ describe("textReport", () => {
   });
 });
 
+describe("kept in folds (engine/keptShare.ts)", () => {
+  it("JSON keptShare: column → the engine's kept and same-sign shares, recounted from the fold models", () => {
+    const { result, table } = run(["data.csv", "--target", "y", "--mix", "1", "--count", "30", "--folds", "5"]);
+    const parsed = JSON.parse(jsonText(result, { table }));
+    expect(Object.keys(parsed.keptShare)).toEqual(["size", "age", "extra"]);
+    const models = result.foldModels ?? [];
+    expect(models.length).toBe(5);
+    result.terms.forEach((term, j) => {
+      const kept = models.filter((m) => m.coefficients[j] !== 0).length / models.length;
+      const same = models.filter((m) => Math.sign(m.coefficients[j]) === Math.sign(result.coefficients[j])).length / models.length;
+      expect(parsed.keptShare[term]).toEqual({ kept, sameSign: same });
+    });
+    // size and age carry the signal (true coefficients 2 and −1.5): kept by every fold.
+    expect(parsed.keptShare.size).toEqual({ kept: 1, sameSign: 1 });
+    expect(parsed.keptShare.age).toEqual({ kept: 1, sameSign: 1 });
+    // The keys that were there before are unchanged.
+    expect(parsed.coefficients.size).toBe(result.coefficients[0]);
+  });
+
+  it("text: two short columns of counts out of K; none without cross-validation", () => {
+    const { result, table } = run(["data.csv", "--target", "y", "--mix", "1", "--count", "30", "--folds", "5"]);
+    const text = textReport(result, { table });
+    expect(text).toMatch(/term\s+coefficient\s+per SD\s+kept in folds\s+same sign\n/);
+    expect(text).toMatch(/\n {2}size\s+\S+\s+\S+\s+5\/5\s+5\/5\n/);
+    expect(text).toMatch(/how many of the 5 fold models at the chosen point keep the term/);
+    const fixed = run(["data.csv", "--target", "y", "--mix", "1", "--strength", "0.1"]);
+    expect(textReport(fixed.result, { table: fixed.table })).not.toMatch(/kept in folds/);
+    expect(JSON.parse(jsonText(fixed.result, { table: fixed.table })).keptShare).toBeNull();
+  });
+});
+
 describe("formatNumber", () => {
   it.each([
     [0, "0"],

@@ -187,7 +187,7 @@ describe("yes/no targets on the command line", () => {
     const out = text(["batches.csv", "--target", "result", ...FAST]);
     const event = report.event as string;
     expect(out).toMatch(new RegExp(`\\nOutcome: yes/no, event '${event}' \\(${report.classes.eventRows} of ${report.rowsUsed} rows; the other class is '${report.classes.other}'\\)\\n`));
-    expect(out).toMatch(new RegExp(`term\\s+log-odds of '${event}'\\s+odds ratio\\s+per SD\\n`));
+    expect(out).toMatch(new RegExp(`term\\s+log-odds of '${event}'\\s+odds ratio\\s+per SD\\s+kept in folds\\s+same sign\\n`));
     expect(out).toMatch(/Cross-validation: 5 random folds \(seed 1\), scored by deviance\n/);
     expect(out).toMatch(/\n {2}CV deviance ± SE\s+\d\S* ± \d\S*\s+\d\S* ± \d\S*\n/);
     expect(out).toMatch(/\nIn-sample: log loss 0\.\d+, Brier 0\.\d+, AUC 0\.\d+\n/);

@@ -1,0 +1,81 @@
+/**
+ * SHRINK.KEPT: each term's kept share over the cross-validation folds in the cells. The numbers
+ * are checked against the engine's own route (fit on the same request, then its keptShare and a
+ * recount from its fold models), the order (most kept first, ties in the columns' order), the
+ * shared cache (no second fit after COEFS), the yes/no header and the refusals.
+ */
+import { fit } from "../../engine/fit";
+import { coefs, kept } from "../../functions/api";
+import { FitCache } from "../../functions/cache";
+import { CountingRunner, expectRectangular, QUICK, rejection, sheet, yesNoSheet } from "./support";
+
+describe("SHRINK.KEPT", () => {
+  test("term | coefficient | kept in folds | same sign, the engine's numbers, most kept first", async () => {
+    const { target, predictors } = sheet(60);
+    const runner = new CountingRunner();
+    const out = await kept(runner, target, predictors, 1, QUICK);
+    expectRectangular(out);
+    expect(out[0]).toEqual(["term", "coefficient", "kept in folds", "same sign"]);
+    const request = runner.last();
+    const result = fit(request.predictors, request.target, request.options);
+    const models = result.foldModels ?? [];
+    expect(models.length).toBe(4);
+    // One row per term (no intercept, no reference level), each with the engine's coefficient and
+    // a share recounted here from the fold models.
+    expect(out.length - 1).toBe(result.terms.length);
+    for (const row of out.slice(1)) {
+      const j = result.terms.indexOf(row[0] as string);
+      expect(j).toBeGreaterThanOrEqual(0);
+      expect(row[1]).toBe(result.coefficients[j]);
+      const nonzero = models.filter((m) => m.coefficients[j] !== 0).length;
+      expect(row[2]).toBe(nonzero / models.length);
+      const agree = models.filter((m) => Math.sign(m.coefficients[j]) === Math.sign(result.coefficients[j]) || (m.coefficients[j] === 0 && result.coefficients[j] === 0)).length;
+      expect(row[3]).toBe(agree / models.length);
+    }
+    // Order: kept share descending; equal shares keep the columns' order.
+    for (let r = 2; r < out.length; r++) {
+      const [a, b] = [out[r - 1], out[r]];
+      expect(a[2] as number).toBeGreaterThanOrEqual(b[2] as number);
+      if (a[2] === b[2]) expect(result.terms.indexOf(a[0] as string)).toBeLessThan(result.terms.indexOf(b[0] as string));
+    }
+    // Size carries most of the signal: kept by every fold with the model's sign.
+    expect(out[1]).toEqual(["Size", result.coefficients[0], 1, 1]);
+  });
+
+  test("after COEFS over the same ranges, KEPT reuses the cached fit", async () => {
+    const { target, predictors } = sheet(50);
+    const counting = new CountingRunner();
+    const cache = new FitCache(counting);
+    await coefs(cache, target, predictors, null, QUICK);
+    await kept(cache, target, predictors, null, QUICK);
+    expect(counting.calls).toBe(1);
+  });
+
+  test("yes/no target: the coefficient header says log-odds; shares from the fold fits", async () => {
+    const { target, predictors } = yesNoSheet(120);
+    const out = await kept(new CountingRunner(), target, predictors, 1, QUICK);
+    expect(out[0]).toEqual(["term", "coefficient (log-odds of 'fail')", "kept in folds", "same sign"]);
+    for (const row of out.slice(1)) {
+      for (const share of [row[2], row[3]] as number[]) {
+        expect(share).toBeGreaterThanOrEqual(0);
+        expect(share).toBeLessThanOrEqual(1);
+        // Four folds: shares are quarters.
+        expect(Number.isInteger(share * 4)).toBe(true);
+      }
+    }
+  });
+
+  test("same seed: the same table", async () => {
+    const { target, predictors } = sheet(45);
+    const a = await kept(new CountingRunner(), target, predictors, null, `${QUICK}; seed=3`);
+    const b = await kept(new CountingRunner(), target, predictors, null, `${QUICK}; seed=3`);
+    expect(a).toEqual(b);
+  });
+
+  test("a fixed strength has no folds: #N/A saying what to change", async () => {
+    const { target, predictors } = sheet(40);
+    const error = await rejection(kept(new CountingRunner(), target, predictors, 1, "strength=0.1"));
+    expect(error.code).toBe("#N/A");
+    expect(error.message).toMatch(/fixed strength runs no cross-validation: remove 'strength'/);
+  });
+});
