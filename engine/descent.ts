@@ -69,6 +69,27 @@ export interface DescentSettings {
   signal?: CancelSignal;
 }
 
+/**
+ * Smallest λ at which every penalized coefficient is zero, from the gradient g at the fit of the
+ * unpenalized terms: max over penalized, unfrozen j of the gradient in a direction its bounds
+ * allow, / (mix · m_j). Shared by the squared-error and the logistic solvers (their gradients differ).
+ */
+export function topFromGradient(grad: ArrayLike<number>, penalty: PenaltySpec, frozen: ArrayLike<boolean | number>, mixForTop: number): number {
+  const { multipliers, lower, upper } = penalty;
+  let top = 0;
+  for (let j = 0; j < multipliers.length; j++) {
+    const m = multipliers[j];
+    if (frozen[j] || m === 0) continue;
+    const g = grad[j];
+    let push = 0;
+    if (g > 0 && upper[j] > 0) push = g;
+    else if (g < 0 && lower[j] < 0) push = -g;
+    const value = push / (mixForTop * m);
+    if (value > top) top = value;
+  }
+  return top;
+}
+
 /** Soft threshold S(z, t) = sign(z) · max(|z| − t, 0), the proximal map of t|·|. */
 export function softThreshold(value: number, threshold: number): number {
   if (value > threshold) return value - threshold;
@@ -563,20 +584,7 @@ export class CoordinateDescent {
    * Uses `mixForTop` in place of α (the caller passes a small positive value for ridge).
    */
   topStrength(mixForTop: number): number {
-    const { multipliers, lower, upper } = this.penalty;
-    const frozen = this.problem.std.frozen;
-    let top = 0;
-    for (let j = 0; j < this.problem.p; j++) {
-      const m = multipliers[j];
-      if (frozen[j] || m === 0) continue;
-      const g = this.grad[j];
-      let push = 0;
-      if (g > 0 && upper[j] > 0) push = g;
-      else if (g < 0 && lower[j] < 0) push = -g;
-      const value = push / (mixForTop * m);
-      if (value > top) top = value;
-    }
-    return top;
+    return topFromGradient(this.grad, this.penalty, this.problem.std.frozen, mixForTop);
   }
 
   /**

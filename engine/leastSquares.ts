@@ -339,7 +339,7 @@ function weightedCentre(
 }
 
 /** Euclidean length of `data[start .. start+length)`, scaled by the largest entry so that squares cannot overflow. */
-function euclideanLength(data: Float64Array, start: number, length: number): number {
+export function euclideanLength(data: Float64Array, start: number, length: number): number {
   let largest = 0;
   for (let t = start; t < start + length; t++) largest = Math.max(largest, Math.abs(data[t]));
   if (largest === 0 || !Number.isFinite(largest)) return largest;
@@ -357,7 +357,7 @@ function euclideanLength(data: Float64Array, start: number, length: number): num
  * stored below the diagonal of the reflector column (`reflector[reflectorStart + k + 1 ..]`, with
  * an implicit 1 at row k). Both loops are stride-1.
  */
-function applyReflector(
+export function applyReflector(
   reflector: Float64Array,
   reflectorStart: number,
   k: number,
@@ -459,15 +459,17 @@ function fitWithCompensation(
 }
 
 /** a + b = sum + error exactly (Knuth's TwoSum; Ogita, Rump & Oishi 2005, Algorithm 3.1). */
-function twoSum(a: number, b: number): [number, number] {
+export function twoSum(a: number, b: number): [number, number] {
   const sum = a + b;
   const virtual = sum - a;
   return [sum, a - (sum - virtual) + (b - virtual)];
 }
 
 /** a·b = product + error exactly (Dekker's TwoProduct with Veltkamp's split; same paper, Algorithm 3.3). */
-function twoProduct(a: number, b: number): [number, number] {
+export function twoProduct(a: number, b: number): [number, number] {
   const product = a * b;
+  // Beyond about 1e300 the split itself would overflow: keep the plain product there.
+  if (Math.abs(a) > 1e290 || Math.abs(b) > 1e290) return [product, 0];
   const aSplit = SPLITTER * a;
   const aHigh = aSplit - (aSplit - a);
   const aLow = a - aHigh;

@@ -77,7 +77,7 @@
  * softplus), so fits are bit-identical in Node and in the browser.
  */
 import { softplusFrom } from "./classMetrics";
-import { coordinateViolation, CoordinateDescent, PenaltySpec, softThreshold } from "./descent";
+import { coordinateViolation, CoordinateDescent, PenaltySpec, softThreshold, topFromGradient } from "./descent";
 import { CancelSignal, throwIfCancelled } from "./errors";
 import { logisticFrom } from "./model";
 import type { EarlyStop, PathRun } from "./path";
@@ -986,20 +986,7 @@ export class LogisticDescent {
    * (Friedman et al. 2010 §2.5 with the binomial gradient: max_j |x̃_jᵀ W (y − p̂)| / (Σw α m_j)).
    */
   topStrength(mixForTop: number): number {
-    const { multipliers, lower, upper } = this.penalty;
-    const frozen = this.problem.std.frozen;
-    let top = 0;
-    for (let j = 0; j < this.p; j++) {
-      const m = multipliers[j];
-      if (frozen[j] || m === 0) continue;
-      const g = this.grad[j];
-      let push = 0;
-      if (g > 0 && upper[j] > 0) push = g;
-      else if (g < 0 && lower[j] < 0) push = -g;
-      const value = push / (mixForTop * m);
-      if (value > top) top = value;
-    }
-    return top;
+    return topFromGradient(this.grad, this.penalty, this.problem.std.frozen, mixForTop);
   }
 
   /**

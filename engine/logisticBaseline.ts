@@ -97,6 +97,7 @@
  */
 import { CancelSignal, InputError, throwIfCancelled } from "./errors";
 import { ColumnMatrix } from "./matrix";
+import { applyReflector, euclideanLength, twoProduct, twoSum } from "./leastSquares";
 import { hypotenuse, portableExp, portableLog } from "./portableMath";
 import { CONSTANT_SPREAD_RATIO, stableCentre } from "./problem";
 import { significant } from "./words";
@@ -795,37 +796,7 @@ function invertFactor(system: NewtonSystem): { rInverse: Float64Array; position:
   return { rInverse, position, size };
 }
 
-/** Applies H = I − τ v vᵀ (v stored below row k of the reflector column, implicit 1 at k) to rows k.. of a vector. */
-function applyReflector(
-  reflector: Float64Array,
-  reflectorStart: number,
-  k: number,
-  m: number,
-  tau: number,
-  target: Float64Array,
-  targetStart: number,
-): void {
-  if (tau === 0) return;
-  let projection = target[targetStart + k];
-  for (let t = k + 1; t < m; t++) projection += reflector[reflectorStart + t] * target[targetStart + t];
-  projection *= tau;
-  target[targetStart + k] -= projection;
-  for (let t = k + 1; t < m; t++) target[targetStart + t] -= projection * reflector[reflectorStart + t];
-}
 
-/** Euclidean length of data[start .. start+length), scaled by the largest entry so squares cannot overflow. */
-function euclideanLength(data: Float64Array, start: number, length: number): number {
-  let largest = 0;
-  for (let t = start; t < start + length; t++) largest = Math.max(largest, Math.abs(data[t]));
-  if (largest === 0 || !Number.isFinite(largest)) return largest;
-  const inverse = 1 / largest;
-  let sum = 0;
-  for (let t = start; t < start + length; t++) {
-    const scaled = data[t] * inverse;
-    sum += scaled * scaled;
-  }
-  return largest * Math.sqrt(sum);
-}
 
 /** √(Σ ω v²) of data[start .. start+m), scaled by the largest |v| so squares cannot overflow. */
 function weightedRootMeanSquare(data: Float64Array, start: number, omega: Float64Array, m: number): number {
@@ -869,27 +840,7 @@ function interceptInDataUnits(
   return high + low;
 }
 
-/** a + b = sum + error exactly (Knuth's TwoSum; Ogita, Rump & Oishi 2005, Algorithm 3.1). */
-function twoSum(a: number, b: number): [number, number] {
-  const sum = a + b;
-  const virtual = sum - a;
-  return [sum, a - (sum - virtual) + (b - virtual)];
-}
 
-/** a·b = product + error exactly (Dekker's TwoProduct with Veltkamp's split; same paper, Algorithm 3.3). */
-function twoProduct(a: number, b: number): [number, number] {
-  const SPLITTER = 134217729; // 2^27 + 1
-  const product = a * b;
-  // Beyond about 1e300 the split itself would overflow: keep the plain product there.
-  if (Math.abs(a) > 1e290 || Math.abs(b) > 1e290) return [product, 0];
-  const aSplit = SPLITTER * a;
-  const aHigh = aSplit - (aSplit - a);
-  const aLow = a - aHigh;
-  const bSplit = SPLITTER * b;
-  const bHigh = bSplit - (bSplit - b);
-  const bLow = b - bHigh;
-  return [product, aLow * bLow - (product - aHigh * bHigh - aLow * bHigh - aHigh * bLow)];
-}
 
 // ---------------------------------------------------------------- separation
 

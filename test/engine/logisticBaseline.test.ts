@@ -163,7 +163,7 @@ const VASO = [
 ];
 
 describe("space-shuttle O-ring data (Dalal, Fowlkes & Hoadley 1989), 23 launches", () => {
-  const fit = logisticBaseline(fromRows(ORING_TEMPERATURE.map((t) => [t])), ORING_DAMAGE, { names: ["temperature"] });
+  const baseline = logisticBaseline(fromRows(ORING_TEMPERATURE.map((t) => [t])), ORING_DAMAGE, { names: ["temperature"] });
 
   test("the data as typed: 23 launches, 7 with damage", () => {
     expect(ORING_TEMPERATURE.length).toBe(23); // Dalal, Fowlkes & Hoadley 1989: 23 pre-accident launches
@@ -171,55 +171,55 @@ describe("space-shuttle O-ring data (Dalal, Fowlkes & Hoadley 1989), 23 launches
   });
 
   test("damage on temperature: intercept 15.0429, slope −0.2322 with their SEs, z and p", () => {
-    expect(fit.converged).toBe(true);
-    expect(fit.separation).toBeNull();
-    // The commonly quoted fit, from memory (it is also what the usual R glm() summary of these
+    expect(baseline.converged).toBe(true);
+    expect(baseline.separation).toBeNull();
+    // The commonly quoted baseline, from memory (it is also what the usual R glm() summary of these
     // data prints: 15.0429 (SE 7.3786, z 2.039, p 0.0415) and −0.2322 (SE 0.1082, z −2.145,
     // p 0.0320); we read that printout on a teaching page the project does not cite).
-    expectPrinted(fit.intercept, 15.0429, 4);
-    expectPrinted(fit.coefficients[0], -0.2322, 4);
-    expectPrinted(fit.interceptStandardError, 7.3786, 4);
-    expectPrinted(fit.standardErrors[0], 0.1082, 4);
-    expectPrinted(fit.interceptZ, 2.039, 3);
-    expectPrinted(fit.zValues[0], -2.145, 3);
-    expectPrinted(fit.interceptP, 0.0415, 4);
-    expectPrinted(fit.pValues[0], 0.032, 4);
+    expectPrinted(baseline.intercept, 15.0429, 4);
+    expectPrinted(baseline.coefficients[0], -0.2322, 4);
+    expectPrinted(baseline.interceptStandardError, 7.3786, 4);
+    expectPrinted(baseline.standardErrors[0], 0.1082, 4);
+    expectPrinted(baseline.interceptZ, 2.039, 3);
+    expectPrinted(baseline.zValues[0], -2.145, 3);
+    expectPrinted(baseline.interceptP, 0.0415, 4);
+    expectPrinted(baseline.pValues[0], 0.032, 4);
   });
 
   test("deviance 20.315 on 21 df, null deviance 28.267 on 22 df", () => {
-    expectPrinted(fit.deviance, 20.315, 3); // from memory (the usual glm() summary of these data)
-    expectPrinted(fit.nullDeviance, 28.267, 3); // from memory; the formula itself is checked below
-    expect(fit.degreesOfFreedom).toBe(21); // 23 launches − 2 coefficients
-    expect(fit.nullDegreesOfFreedom).toBe(22); // 23 launches − intercept
+    expectPrinted(baseline.deviance, 20.315, 3); // from memory (the usual glm() summary of these data)
+    expectPrinted(baseline.nullDeviance, 28.267, 3); // from memory; the formula itself is checked below
+    expect(baseline.degreesOfFreedom).toBe(21); // 23 launches − 2 coefficients
+    expect(baseline.nullDegreesOfFreedom).toBe(22); // 23 launches − intercept
   });
 });
 
 describe("O-ring data, 24-launch version (Montgomery & Runger, S11, Minitab output)", () => {
-  const fit = logisticBaseline(fromRows(ORING24_TEMPERATURE.map((t) => [t])), ORING24_FAILURE);
+  const baseline = logisticBaseline(fromRows(ORING24_TEMPERATURE.map((t) => [t])), ORING24_FAILURE);
 
   test("Logistic Regression Table: constant 10.875 (SE 5.703), temperature −0.17132 (SE 0.08344)", () => {
     expect(ORING24_FAILURE.reduce((a, b) => a + b, 0)).toBe(7); // Montgomery & Runger: "1 7 (Event)"
-    expectPrinted(fit.intercept, 10.875, 3); // Montgomery & Runger, S11, Minitab table
-    expectPrinted(fit.coefficients[0], -0.17132, 5); // same table
-    expectPrinted(fit.interceptStandardError, 5.703, 3); // same table
-    expectPrinted(fit.standardErrors[0], 0.08344, 5); // same table
-    expectPrinted(fit.interceptZ, 1.91, 2); // same table, Z
-    expectPrinted(Math.abs(fit.zValues[0] as number), 2.05, 2); // same table, Z (printed without sign)
-    expectPrinted(fit.interceptP, 0.057, 3); // same table, P
-    expectPrinted(fit.pValues[0], 0.04, 3); // same table, P (printed 0.040)
+    expectPrinted(baseline.intercept, 10.875, 3); // Montgomery & Runger, S11, Minitab table
+    expectPrinted(baseline.coefficients[0], -0.17132, 5); // same table
+    expectPrinted(baseline.interceptStandardError, 5.703, 3); // same table
+    expectPrinted(baseline.standardErrors[0], 0.08344, 5); // same table
+    expectPrinted(baseline.interceptZ, 1.91, 2); // same table, Z
+    expectPrinted(Math.abs(baseline.zValues[0] as number), 2.05, 2); // same table, Z (printed without sign)
+    expectPrinted(baseline.interceptP, 0.057, 3); // same table, P
+    expectPrinted(baseline.pValues[0], 0.04, 3); // same table, P (printed 0.040)
   });
 
   test("log-likelihood −11.515 and the test that all slopes are zero, G = 5.944 on 1 df", () => {
-    expectPrinted(-fit.deviance / 2, -11.515, 3); // same source; deviance = −2 log-likelihood for 0/1 data
-    expectPrinted(fit.nullDeviance - fit.deviance, 5.944, 3); // same source, G statistic
-    expect(fit.nullDegreesOfFreedom - fit.degreesOfFreedom).toBe(1); // same source, DF 1
+    expectPrinted(-baseline.deviance / 2, -11.515, 3); // same source; deviance = −2 log-likelihood for 0/1 data
+    expectPrinted(baseline.nullDeviance - baseline.deviance, 5.944, 3); // same source, G statistic
+    expect(baseline.nullDegreesOfFreedom - baseline.degreesOfFreedom).toBe(1); // same source, DF 1
   });
 });
 
 describe("vasoconstriction data (Finney 1947; Pregibon 1981)", () => {
   const rows = VASO.map(([volume, rate]) => [Math.log(volume), Math.log(rate)]);
   const response = VASO.map((row) => row[2]);
-  const fit = logisticBaseline(fromRows(rows), response, { names: ["log volume", "log rate"] });
+  const baseline = logisticBaseline(fromRows(rows), response, { names: ["log volume", "log rate"] });
 
   test("the data as typed: 39 tests, 20 with constriction", () => {
     expect(VASO.length).toBe(39); // Finney 1947: 39 tests
@@ -227,23 +227,23 @@ describe("vasoconstriction data (Finney 1947; Pregibon 1981)", () => {
   });
 
   test("Pregibon's fit: intercept −2.875, log volume 5.179, log rate 4.562", () => {
-    expect(fit.converged).toBe(true);
-    expect(fit.separation).toBeNull();
-    expectPrinted(fit.intercept, -2.875, 3); // Pregibon 1981, from memory
-    expectPrinted(fit.coefficients[0], 5.179, 3); // Pregibon 1981, from memory
-    expectPrinted(fit.coefficients[1], 4.562, 3); // Pregibon 1981, from memory
+    expect(baseline.converged).toBe(true);
+    expect(baseline.separation).toBeNull();
+    expectPrinted(baseline.intercept, -2.875, 3); // Pregibon 1981, from memory
+    expectPrinted(baseline.coefficients[0], 5.179, 3); // Pregibon 1981, from memory
+    expectPrinted(baseline.coefficients[1], 4.562, 3); // Pregibon 1981, from memory
     // Standard errors 1.321, 1.865, 1.838 (from memory of the usual printout of this fit).
-    expectPrinted(fit.interceptStandardError, 1.321, 3);
-    expectPrinted(fit.standardErrors[0], 1.865, 3);
-    expectPrinted(fit.standardErrors[1], 1.838, 3);
+    expectPrinted(baseline.interceptStandardError, 1.321, 3);
+    expectPrinted(baseline.standardErrors[0], 1.865, 3);
+    expectPrinted(baseline.standardErrors[1], 1.838, 3);
   });
 
   test("agrees with the independent Newton–Raphson (ml-matrix) to 1e-10", () => {
     const reference = referenceNewton(rows, response, response.map(() => 1), true);
-    expectRelative(fit.intercept, reference.intercept, 1e-10, "intercept");
-    reference.coefficients.forEach((b, j) => expectRelative(fit.coefficients[j], b, 1e-10, `coefficient ${j}`));
-    reference.standardErrors.forEach((se, j) => expectRelative(fit.standardErrors[j], se, 1e-9, `SE ${j}`));
-    expectRelative(fit.interceptStandardError, reference.interceptStandardError, 1e-9, "intercept SE");
+    expectRelative(baseline.intercept, reference.intercept, 1e-10, "intercept");
+    reference.coefficients.forEach((b, j) => expectRelative(baseline.coefficients[j], b, 1e-10, `coefficient ${j}`));
+    reference.standardErrors.forEach((se, j) => expectRelative(baseline.standardErrors[j], se, 1e-9, `SE ${j}`));
+    expectRelative(baseline.interceptStandardError, reference.interceptStandardError, 1e-9, "intercept SE");
   });
 });
 
@@ -262,13 +262,13 @@ describe("a 0/1 predictor: the fit reproduces the two groups' log-odds", () => {
     add(0, 0, 5);
     add(1, 1, 6);
     add(1, 0, 3);
-    const fit = logisticBaseline(fromRows(rows), y);
+    const baseline = logisticBaseline(fromRows(rows), y);
     // common practice: with one 0/1 predictor the likelihood equations reproduce each group's share
-    expectRelative(fit.intercept, Math.log(2 / 5), 1e-13, "intercept");
-    expectRelative(fit.coefficients[0], Math.log(6 / 3) - Math.log(2 / 5), 1e-13, "log odds ratio");
+    expectRelative(baseline.intercept, Math.log(2 / 5), 1e-13, "intercept");
+    expectRelative(baseline.coefficients[0], Math.log(6 / 3) - Math.log(2 / 5), 1e-13, "log odds ratio");
     // Woolf (1955), Annals of Human Genetics 19: SE of a log odds ratio
-    expectRelative(fit.standardErrors[0], Math.sqrt(1 / 2 + 1 / 5 + 1 / 6 + 1 / 3), 1e-12, "SE");
-    expectRelative(fit.interceptStandardError, Math.sqrt(1 / 2 + 1 / 5), 1e-12, "intercept SE"); // same formula, one group
+    expectRelative(baseline.standardErrors[0], Math.sqrt(1 / 2 + 1 / 5 + 1 / 6 + 1 / 3), 1e-12, "SE");
+    expectRelative(baseline.interceptStandardError, Math.sqrt(1 / 2 + 1 / 5), 1e-12, "intercept SE"); // same formula, one group
   });
 });
 
@@ -310,22 +310,22 @@ describe("agreement with an independent Newton–Raphson on ml-matrix (generated
         shapes.forEach(([n, p], s) => {
           const seed = 100 * s + (withIntercept ? 1 : 0) + (weighted ? 2 : 0);
           const { rows, y, weights } = generatedProblem(seed, n, p, withIntercept, weighted);
-          const fit = logisticBaseline(fromRows(rows), y, { intercept: withIntercept, weights });
+          const baseline = logisticBaseline(fromRows(rows), y, { intercept: withIntercept, weights });
           const label = `n ${n}, p ${p}, seed ${seed}`;
-          expect({ label, converged: fit.converged, separation: fit.separation }).toEqual({ label, converged: true, separation: null });
+          expect({ label, converged: baseline.converged, separation: baseline.separation }).toEqual({ label, converged: true, separation: null });
           // the reference only sees rows with weight > 0, so it checks that weight-0 rows are ignored too
           const used = weights.map((w, i) => (w > 0 ? i : -1)).filter((i) => i >= 0);
           const reference = referenceNewton(used.map((i) => rows[i]), used.map((i) => y[i]), used.map((i) => weights[i]), withIntercept);
-          reference.coefficients.forEach((b, j) => expectRelative(fit.coefficients[j], b, 1e-9, `${label}: coefficient ${j}`));
-          reference.standardErrors.forEach((se, j) => expectRelative(fit.standardErrors[j], se, 1e-7, `${label}: SE ${j}`));
+          reference.coefficients.forEach((b, j) => expectRelative(baseline.coefficients[j], b, 1e-9, `${label}: coefficient ${j}`));
+          reference.standardErrors.forEach((se, j) => expectRelative(baseline.standardErrors[j], se, 1e-7, `${label}: SE ${j}`));
           if (withIntercept) {
-            expectRelative(fit.intercept, reference.intercept, 1e-9, `${label}: intercept`);
-            expectRelative(fit.interceptStandardError, reference.interceptStandardError, 1e-7, `${label}: intercept SE`);
+            expectRelative(baseline.intercept, reference.intercept, 1e-9, `${label}: intercept`);
+            expectRelative(baseline.interceptStandardError, reference.interceptStandardError, 1e-7, `${label}: intercept SE`);
           } else {
-            expect(fit.intercept).toBe(0);
-            expect(fit.interceptStandardError).toBeNull();
+            expect(baseline.intercept).toBe(0);
+            expect(baseline.interceptStandardError).toBeNull();
           }
-          expectAllFinite(fit);
+          expectAllFinite(baseline);
         });
       });
     }
@@ -440,11 +440,11 @@ describe("invariances and optimality", () => {
     for (const design of designs) {
       const outcome = design.rows.map((_, i) => yy[i]);
       const matrix = fromRows(design.rows);
-      const fit = logisticBaseline(matrix, outcome, { intercept: design.intercept, weights: design.weights });
+      const baseline = logisticBaseline(matrix, outcome, { intercept: design.intercept, weights: design.weights });
       const linear = leastSquares(matrix, outcome, { intercept: design.intercept, weights: design.weights });
-      expect({ label: design.label, aliased: fit.aliased }).toEqual({ label: design.label, aliased: linear.aliased });
-      expect(fit.aliased.length).toBeGreaterThan(0);
-      for (const j of fit.aliased) expect(fit.coefficients[j]).toBe(0);
+      expect({ label: design.label, aliased: baseline.aliased }).toEqual({ label: design.label, aliased: linear.aliased });
+      expect(baseline.aliased.length).toBeGreaterThan(0);
+      for (const j of baseline.aliased) expect(baseline.coefficients[j]).toBe(0);
     }
   });
 
@@ -486,10 +486,10 @@ describe("invariances and optimality", () => {
   test("units from 1e-200 to 1e300 and an offset of 1e15 give the same fit (O-ring data)", () => {
     const reference = logisticBaseline(fromRows(ORING_TEMPERATURE.map((t) => [t])), ORING_DAMAGE);
     for (const unit of [1e-200, 1e-100, 1e100, 1e300]) {
-      const fit = logisticBaseline(fromRows(ORING_TEMPERATURE.map((t) => [t * unit])), ORING_DAMAGE);
-      expectRelative(fit.coefficients[0] * unit, reference.coefficients[0], 1e-12, `slope, unit ${unit}`);
-      expectRelative((fit.standardErrors[0] as number) * unit, reference.standardErrors[0] as number, 1e-11, `SE, unit ${unit}`);
-      expectRelative(fit.intercept, reference.intercept, 1e-12, `intercept, unit ${unit}`);
+      const baseline = logisticBaseline(fromRows(ORING_TEMPERATURE.map((t) => [t * unit])), ORING_DAMAGE);
+      expectRelative(baseline.coefficients[0] * unit, reference.coefficients[0], 1e-12, `slope, unit ${unit}`);
+      expectRelative((baseline.standardErrors[0] as number) * unit, reference.standardErrors[0] as number, 1e-11, `SE, unit ${unit}`);
+      expectRelative(baseline.intercept, reference.intercept, 1e-12, `intercept, unit ${unit}`);
     }
     const offset = logisticBaseline(fromRows(ORING_TEMPERATURE.map((t) => [t + 1e15])), ORING_DAMAGE);
     expectRelative(offset.coefficients[0], reference.coefficients[0], 1e-12, "slope, offset 1e15");
@@ -507,23 +507,23 @@ describe("invariances and optimality", () => {
 
 describe("deviance and null deviance from their formulas (common practice)", () => {
   const { rows, y, weights } = generatedProblem(11, 90, 3, true, true);
-  const fit = logisticBaseline(fromRows(rows), y, { weights });
+  const baseline = logisticBaseline(fromRows(rows), y, { weights });
   const total = weights.reduce((a, b) => a + b, 0);
 
   test("deviance = −2 Σ w [y log p + (1 − y) log(1 − p)] on the reported probabilities", () => {
     let deviance = 0;
     y.forEach((v, i) => {
-      const p = fit.probabilities[i];
+      const p = baseline.probabilities[i];
       if (weights[i] > 0) deviance += -2 * weights[i] * (v * Math.log(p) + (1 - v) * Math.log(1 - p));
     });
-    expectRelative(fit.deviance, deviance, 1e-12, "deviance");
+    expectRelative(baseline.deviance, deviance, 1e-12, "deviance");
   });
 
   test("null deviance = −2 Σ w [y log ȳ + (1 − y) log(1 − ȳ)], ȳ the weighted event share", () => {
     const share = y.reduce((a, v, i) => a + weights[i] * v, 0) / total;
     let nullDeviance = 0;
     y.forEach((v, i) => (nullDeviance += -2 * weights[i] * (v * Math.log(share) + (1 - v) * Math.log(1 - share))));
-    expectRelative(fit.nullDeviance, nullDeviance, 1e-13, "null deviance");
+    expectRelative(baseline.nullDeviance, nullDeviance, 1e-13, "null deviance");
     // and it is the deviance of the intercept-only fit
     const interceptOnly = logisticBaseline({ rows: rows.length, columns: 0, data: new Float64Array(0) }, y, { weights });
     expectRelative(interceptOnly.deviance, nullDeviance, 1e-13, "intercept-only deviance");
@@ -545,28 +545,28 @@ describe("deviance and null deviance from their formulas (common practice)", () 
 /** Fits and checks the common promises for separated data: quick, finite, flagged. */
 function separatedFit(rows: number[][], y: number[], names: string[], options: { intercept?: boolean } = {}) {
   const started = Date.now();
-  const fit = logisticBaseline(fromRows(rows), y, { names, ...options });
+  const baseline = logisticBaseline(fromRows(rows), y, { names, ...options });
   expect(Date.now() - started).toBeLessThan(10000); // a hang guard (measured: under 30 ms)
-  expect(fit.iterations).toBeLessThan(100); // stopped by the separation check, before the Newton cap (DEFAULT_MAX_ITERATIONS)
-  expectAllFinite(fit);
-  expect(fit.converged).toBe(false);
-  expect(fit.separation).not.toBeNull();
-  expect(fit.standardErrors.every((se) => se === null)).toBe(true);
-  expect(fit.interceptStandardError).toBeNull();
-  const message = fit.separation?.message ?? "";
+  expect(baseline.iterations).toBeLessThan(100); // stopped by the separation check, before the Newton cap (DEFAULT_MAX_ITERATIONS)
+  expectAllFinite(baseline);
+  expect(baseline.converged).toBe(false);
+  expect(baseline.separation).not.toBeNull();
+  expect(baseline.standardErrors.every((se) => se === null)).toBe(true);
+  expect(baseline.interceptStandardError).toBeNull();
+  const message = baseline.separation?.message ?? "";
   expect(message).toMatch(/not finite/);
   expect(message).toMatch(/penalized fit/);
-  return fit;
+  return baseline;
 }
 
 describe("separation (Albert & Anderson 1984, Biometrika 71(1))", () => {
   test("complete, one term: every 1 above every 0", () => {
     const x = [1, 2, 3, 4, 5, 6, 7, 8, 9, 10];
-    const fit = separatedFit(x.map((v) => [v]), x.map((v) => (v > 5 ? 1 : 0)), ["roast_min"]);
-    expect(fit.separation?.kind).toBe("complete");
-    expect(fit.separation?.terms).toEqual([0]);
-    expect(fit.separation?.message).toMatch(/'roast_min'/);
-    expect(fit.separation?.message).toMatch(/at or above 6/);
+    const baseline = separatedFit(x.map((v) => [v]), x.map((v) => (v > 5 ? 1 : 0)), ["roast_min"]);
+    expect(baseline.separation?.kind).toBe("complete");
+    expect(baseline.separation?.terms).toEqual([0]);
+    expect(baseline.separation?.message).toMatch(/'roast_min'/);
+    expect(baseline.separation?.message).toMatch(/at or above 6/);
   });
 
   test("quasi-complete, one term: the classes meet at one value", () => {
@@ -575,11 +575,11 @@ describe("separation (Albert & Anderson 1984, Biometrika 71(1))", () => {
     const x = [1, 2, 3, 4, 4, 4, 4, 5, 6, 7];
     const y = [0, 0, 0, 0, 1, 0, 1, 1, 1, 1];
     const noise = [0.3, -1.2, 0.8, 0.1, -0.5, -0.8, 0.6, 0.4, 0.2, -0.3];
-    const fit = separatedFit(x.map((v, i) => [noise[i], v]), y, ["noise", "dose"]);
-    expect(fit.separation?.kind).toBe("quasi");
-    expect(fit.separation?.terms).toEqual([1]);
-    expect(fit.separation?.message).toMatch(/'dose'/);
-    expect(fit.separation?.message).not.toMatch(/'noise'/);
+    const baseline = separatedFit(x.map((v, i) => [noise[i], v]), y, ["noise", "dose"]);
+    expect(baseline.separation?.kind).toBe("quasi");
+    expect(baseline.separation?.terms).toEqual([1]);
+    expect(baseline.separation?.message).toMatch(/'dose'/);
+    expect(baseline.separation?.message).not.toMatch(/'noise'/);
   });
 
   /** Points with y = [x1 + x2 > 0] and a noise term; each of x1, x2 alone overlaps across the classes. */
@@ -605,19 +605,19 @@ describe("separation (Albert & Anderson 1984, Biometrika 71(1))", () => {
   test("complete, by a combination of two terms but by neither alone", () => {
     const { rows, y } = combination(7, 40);
     for (let j = 0; j < 3; j++) expect(overlaps(rows.map((r) => r[j]), y)).toBe(true); // no single term separates
-    const fit = separatedFit(rows, y, ["x1", "x2", "x3"]);
-    expect(fit.separation?.kind).toBe("complete");
-    expect(fit.separation?.terms).toEqual([0, 1]);
-    expect(fit.separation?.message).toMatch(/'x1' and 'x2'/);
-    expect(fit.separation?.message).not.toMatch(/'x3'/);
+    const baseline = separatedFit(rows, y, ["x1", "x2", "x3"]);
+    expect(baseline.separation?.kind).toBe("complete");
+    expect(baseline.separation?.terms).toEqual([0, 1]);
+    expect(baseline.separation?.message).toMatch(/'x1' and 'x2'/);
+    expect(baseline.separation?.message).not.toMatch(/'x3'/);
   });
 
   test("complete, by a combination, with wide offsets (a date serial and a timestamp)", () => {
     const { rows, y } = combination(7, 40);
     const wide = rows.map(([a, b, c]) => [45000 + a * 1e-3, 1.7e12 + b * 1e4, c]);
-    const fit = separatedFit(wide, y, ["day", "stamp", "x3"]);
-    expect(fit.separation?.kind).toBe("complete");
-    expect(fit.separation?.terms).toEqual([0, 1]);
+    const baseline = separatedFit(wide, y, ["day", "stamp", "x3"]);
+    expect(baseline.separation?.kind).toBe("complete");
+    expect(baseline.separation?.terms).toEqual([0, 1]);
   });
 
   test("quasi-complete, by a combination: rows of both classes on the boundary line", () => {
@@ -631,16 +631,16 @@ describe("separation (Albert & Anderson 1984, Biometrika 71(1))", () => {
       y.push(1 - (r % 2));
     }
     for (let j = 0; j < 3; j++) expect(overlaps(rows.map((row) => row[j]), y)).toBe(true);
-    const fit = separatedFit(rows, y, ["x1", "x2", "x3"]);
-    expect(fit.separation?.kind).toBe("quasi");
-    expect(fit.separation?.terms).toEqual([0, 1]);
+    const baseline = separatedFit(rows, y, ["x1", "x2", "x3"]);
+    expect(baseline.separation?.kind).toBe("quasi");
+    expect(baseline.separation?.terms).toEqual([0, 1]);
   });
 
   test("without an intercept: the sign of one term splits the classes", () => {
     const x = [-2, -1, -0.5, 0.5, 1, 2];
-    const fit = separatedFit(x.map((v) => [v]), [0, 0, 0, 1, 1, 1], ["x"], { intercept: false });
-    expect(fit.separation?.kind).toBe("complete");
-    expect(fit.separation?.terms).toEqual([0]);
+    const baseline = separatedFit(x.map((v) => [v]), [0, 0, 0, 1, 1, 1], ["x"], { intercept: false });
+    expect(baseline.separation?.kind).toBe("complete");
+    expect(baseline.separation?.terms).toEqual([0]);
   });
 
   test("when Newton stops before a proof, the symptoms are reported as (nearly) separated", () => {
@@ -672,8 +672,8 @@ describe("separation (Albert & Anderson 1984, Biometrika 71(1))", () => {
   test("more terms than the rows can carry: the data are separated, not a crash", () => {
     const uniform = seededUniform(5);
     const rows = Array.from({ length: 6 }, () => Array.from({ length: 8 }, () => uniform()));
-    const fit = separatedFit(rows, [0, 1, 0, 1, 1, 0], []);
-    expect(fit.aliased.length).toBeGreaterThan(0);
+    const baseline = separatedFit(rows, [0, 1, 0, 1, 1, 0], []);
+    expect(baseline.aliased.length).toBeGreaterThan(0);
   });
 
   test("strongly imbalanced but overlapping data (3 events in 200) are not flagged", () => {
@@ -778,9 +778,9 @@ describe("bad input and cancel", () => {
         return false;
       },
     };
-    const fit = logisticBaseline(fromRows(rows), y, { signal: counting });
+    const baseline = logisticBaseline(fromRows(rows), y, { signal: counting });
     // at least once per column of every factorisation, beyond once per iteration
-    expect(reads).toBeGreaterThan(fit.iterations * 7);
+    expect(reads).toBeGreaterThan(baseline.iterations * 7);
     let late = 0;
     const raisedLater = {
       get aborted() {
