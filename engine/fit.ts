@@ -45,6 +45,7 @@ import { LogisticDescent, LogisticReport, LogisticRun, LogisticSettings, logisti
 import type { OutcomeKind } from "./outcome";
 import type { FoldModel } from "./conformal";
 import { KeptShare, keptShares } from "./keptShare";
+import type { HonestError, StabilityOptions, StabilityResult } from "./assurance";
 import {
   DEFAULT_GRID_DENSITY,
   EarlyStop,
@@ -173,7 +174,20 @@ export interface FitOptions {
   stopEarly?: boolean;
   /** Term names, one per predictor column. Default x1, x2, … */
   names?: readonly string[];
-  /** Called after each unit of work (one mix's full-data path or one fold of one mix). */
+  /**
+   * Deal the random folds this many times (seeds seed, seed+1, …; 1 to 50, default 1) and score
+   * every mix and strength on all repeats × folds held-out folds; the choice is made on the
+   * averaged curve. Random folds only (labels and time order give one deal).
+   */
+  repeats?: number;
+  /**
+   * Also estimate the error of the whole procedure (every mix, strength and the rule) by nested
+   * cross-validation: FitResult.honest. Costs about `folds` more whole fits. Default false.
+   */
+  honestError?: boolean;
+  /** Run stability selection at the chosen mix (FitResult.stability). Default: not run. */
+  stability?: StabilityOptions | null;
+  /** Called after each unit of work (one mix's full-data path or one fold of one mix, and the extra fits the options above ask for). */
   onProgress?: (done: number, total: number) => void;
   /** Work stops with a CancelledError at the next strength once `aborted` is true. */
   signal?: CancelSignal;
@@ -229,6 +243,8 @@ export interface FitResult {
     scheme: FoldScheme;
     folds: number;
     seed: number | null;
+    /** Deals of the folds (FitOptions.repeats; 1 without repeats). */
+    repeats: number;
     table: CvRow[];
   } | null;
   path: {
@@ -318,6 +334,10 @@ export interface FitResult {
    * cross-validation made anyway, no extra fits. Absent or null without cross-validation.
    */
   keptShare?: KeptShare[] | null;
+  /** With FitOptions.honestError: the nested cross-validation error of the whole procedure (assurance.ts). Absent or null otherwise. */
+  honest?: HonestError | null;
+  /** With FitOptions.stability: stability selection at the chosen mix (assurance.ts, stability.ts). Absent or null otherwise. */
+  stability?: StabilityResult | null;
 }
 
 /** A fold's path, kept while its mix may be the chosen one: the standardized solution at any strength index. */
@@ -1118,6 +1138,7 @@ export function* fitSteps(
     scheme: activePlan.scheme,
     folds: K,
     seed: activePlan.scheme === "random" ? (options.seed ?? 1) : null,
+    repeats: 1,
     table,
   };
   result.diagnostics.sweeps = sweeps;
@@ -1829,6 +1850,7 @@ function* twoClassSteps(
     scheme: plan.scheme,
     folds: K,
     seed: plan.scheme === "random" ? (options.seed ?? 1) : null,
+    repeats: 1,
     table,
   };
   result.diagnostics.sweeps = sweeps;

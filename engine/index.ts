@@ -38,3 +38,5 @@ export { LogisticDescent, runLogisticPath, logisticTopStrength, SATURATION, WEIG
 export type { LogisticSettings, LogisticReport, LogisticRun, LogisticPathSettings } from "./logistic";
 export { logisticBaseline } from "./logisticBaseline";
 export type { LogisticBaselineResult, LogisticBaselineOptions, Separation } from "./logisticBaseline";
+export { MAX_REPEATS, DEFAULT_DRAWS, MAX_DRAWS, DEFAULT_THRESHOLD, checkRepeats, checkStabilityOptions, defaultExpectedTerms, falseSelectionBound } from "./assurance";
+export type { StabilityOptions, StabilityResult, HonestError, HonestFold } from "./assurance";
