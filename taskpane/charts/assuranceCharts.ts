@@ -4,7 +4,7 @@
  * export; a text alternative as the element's aria-label):
  *
  * - "heldOut": held-out predictions against the actual target (number targets). Each row's
- *   prediction comes from the fold model that did not see it (heldOut.ts). Points as circles,
+ *   prediction comes from the fold model that did not see it (assuranceData.ts). Points as circles,
  *   the 45° line "prediction = actual" dashed, and with an interval level each plotted row's
  *   CV+ interval as a vertical whisker (engine/conformal.ts). Both axes share one range, so the
  *   45° line runs corner to corner. A yes/no fit has no held-out list (FitResult.heldOut is for
@@ -47,7 +47,9 @@ import {
   valueLabelWidth,
   type ChartTheme,
 } from "./charts";
-import type { HeldOutPoints } from "./heldOut";
+import { keptEntries, type HeldOutPoints } from "./assuranceData";
+
+export { keptEntries, type KeptEntry } from "./assuranceData";
 
 echarts.use([ScatterChart, CustomChart]);
 
@@ -250,35 +252,6 @@ export function heldOutChartOptions(view: AssuranceView, settings: AssuranceSett
 
 // ---------------------------------------------------------------------------------------------
 // Kept share
-
-export interface KeptEntry {
-  /** Index into result.terms. */
-  index: number;
-  name: string;
-  kept: number;
-  sameSign: number;
-  /** Stability selection's share, or null when it did not run. */
-  stableShare: number | null;
-  stable: boolean;
-}
-
-/**
- * Terms by kept share, largest first; ties by stable share (when it ran), then term order.
- * Empty without kept shares (no cross-validation).
- */
-export function keptEntries(result: FitResult): KeptEntry[] {
-  const kept = result.keptShare ?? [];
-  const stability = result.stability ?? null;
-  const entries = kept.map((k, index) => ({
-    index,
-    name: k.term,
-    kept: k.kept,
-    sameSign: k.sameSign,
-    stableShare: stability ? (stability.share[index] ?? null) : null,
-    stable: stability ? stability.stable[index] === true : false,
-  }));
-  return entries.sort((a, b) => b.kept - a.kept || (b.stableShare ?? 0) - (a.stableShare ?? 0) || a.index - b.index);
-}
 
 /** The bound in words: "at most 0.47 of the stable terms expected to be false selections (q 3, π 0.75, 15 candidate terms)". */
 export function boundSentence(result: FitResult): string | null {

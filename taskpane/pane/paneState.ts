@@ -221,6 +221,10 @@ export function checkSettings(inputs: PaneInputs, outcome: OutcomeKind | null = 
 /** The settings a yes/no target alone uses (the cells refuse them on a number target). */
 export const TWO_CLASS_SETTINGS: readonly string[] = ["event", "cutoff", "predict"];
 
+/** The interval field's message for a yes/no target. */
+export const INTERVAL_TWO_CLASS =
+  "prediction intervals are for number targets, and this target reads as yes/no (its model gives probabilities): clear the interval level";
+
 /** Per field, why a setting doesn't fit a target of this kind (see checkSettings). */
 export function outcomeProblems(inputs: PaneInputs, outcome: OutcomeKind): Record<string, string> {
   const problems: Record<string, string> = {};
@@ -234,6 +238,9 @@ export function outcomeProblems(inputs: PaneInputs, outcome: OutcomeKind): Recor
     checkMeasure(settings.measure, outcome);
   } catch (error) {
     problems.error = messageOf(error);
+  }
+  if (outcome === "two-class" && (inputs.settings.interval ?? "").trim() !== "") {
+    problems.interval = INTERVAL_TWO_CLASS;
   }
   if (outcome === "number") {
     for (const name of TWO_CLASS_SETTINGS) {

@@ -1,4 +1,7 @@
 /**
+ * The data behind the pane's "how sure is it" views and the report's sections: held-out
+ * predictions with CV+ intervals, and kept shares with stability selection.
+ *
  * Held-out predictions of a fit, as the pane's "held-out predictions vs actual" chart and the
  * report sheet use them. Pure: no DOM, no echarts.
  *
@@ -165,3 +168,36 @@ export function heldOutPoints(
   points.p90HalfWidth = nearestRank(halfWidths, 0.9);
   return points;
 }
+
+// ---------------------------------------------------------------------------------------------
+// Kept share and stability selection
+
+export interface KeptEntry {
+  /** Index into result.terms. */
+  index: number;
+  name: string;
+  kept: number;
+  sameSign: number;
+  /** Stability selection's share, or null when it did not run. */
+  stableShare: number | null;
+  stable: boolean;
+}
+
+/**
+ * Terms by kept share, largest first; ties by stable share (when it ran), then term order.
+ * Empty without kept shares (no cross-validation).
+ */
+export function keptEntries(result: FitResult): KeptEntry[] {
+  const kept = result.keptShare ?? [];
+  const stability = result.stability ?? null;
+  const entries = kept.map((k, index) => ({
+    index,
+    name: k.term,
+    kept: k.kept,
+    sameSign: k.sameSign,
+    stableShare: stability ? (stability.share[index] ?? null) : null,
+    stable: stability ? stability.stable[index] === true : false,
+  }));
+  return entries.sort((a, b) => b.kept - a.kept || (b.stableShare ?? 0) - (a.stableShare ?? 0) || a.index - b.index);
+}
+
