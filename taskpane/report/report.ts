@@ -389,7 +389,7 @@ export function buildReport(input: ReportInput): ReportSheet {
   const intervals = intervalRows(result, points, level);
   if (intervals) left.add(intervals, true);
   const kept = keptRows(result);
-  if (kept) left.add(kept, true, [null, FORMATS.decimal, FORMATS.decimal, FORMATS.decimal, null]);
+  if (kept) left.add(kept, true, kept[0].length === 5 ? [null, FORMATS.decimal, FORMATS.decimal, FORMATS.decimal, null] : [null, FORMATS.decimal, FORMATS.decimal]);
   if (honest || kept) left.add([[ASSURANCE_CAUTION]], false);
 
   const blocks = [...left.blocks];

@@ -31,6 +31,7 @@ import {
   settingProblem,
   settingsText,
   shownOutcome,
+  INTERVAL_TWO_CLASS,
 } from "../../../taskpane/pane/paneState";
 
 function fakeOutcome(label = "a"): FitOutcome {
@@ -373,6 +374,24 @@ describe("yes/no (two-class) targets: how the target reads, the settings that fo
     const onNumbers = checkSettings(yesNo, "number");
     expect(Object.keys(onNumbers.fields).sort()).toEqual(["cutoff", "error", "event"]);
     expect(onNumbers.fields.event).toMatch(/^'event' applies to a yes\/no target/);
+  });
+
+  test("an interval level on a yes/no target is refused with a clear message (intervals are for number targets)", () => {
+    const inputs = emptyInputs();
+    inputs.settings.interval = "90%";
+    expect(checkSettings(inputs, "number").ok).toBe(true);
+    expect(checkSettings(inputs, "two-class")).toMatchObject({ ok: false, fields: { interval: INTERVAL_TWO_CLASS } });
+    expect(INTERVAL_TWO_CLASS).toContain("number targets");
+    inputs.settings.interval = "1";
+    expect(checkSettings(inputs, "number").fields.interval).toBe(settingProblem("interval", "1"));
+  });
+
+  test("the how-sure fields: interval, repeats, honest error and stability (checkboxes), draws, q and π shown with stability", () => {
+    const spec = (name: string) => FIELDS.find((field) => field.name === name);
+    for (const name of ["interval", "repeats", "honest error", "stability", "draws", "q", "stability threshold"]) expect([name, spec(name)?.sure]).toEqual([name, true]);
+    expect(spec("honest error")?.kind).toBe("check");
+    expect(spec("stability")?.kind).toBe("check");
+    expect(FIELDS.filter((field) => field.stabilityOnly).map((field) => field.name)).toEqual(["draws", "q", "stability threshold"]);
   });
 
   test("error choices follow the kind (engine/fit.ts MEASURES), the default first and shown empty", () => {
