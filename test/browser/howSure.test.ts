@@ -1,0 +1,110 @@
+/**
+ * The pane's "how sure is it" views in a real browser (Debian's Chromium through playwright-core)
+ * against the built standalone preview on the roastery demo data: switch on a 90% interval and
+ * stability selection with few draws, fit, and see the held-out and kept-share charts drawn
+ * (whiskers, stable marks, text summaries), the progress bar counting the fits the engine
+ * reports (its total, not a number fixed in the pane), and no console errors. Kept short: one fit
+ * of two mixes and five folds.
+ */
+import type { Browser, ConsoleMessage, Page } from "playwright-core";
+import { fit as engineFit } from "../../engine/fit";
+import { prepare } from "../../functions/api";
+import { roasteryColumns, roasteryRows } from "../../addin/demo/roasteryData";
+import { browserGate, launchBrowser, saveScreenshot, scanAccessibility, startServer, StaticServer } from "./harness";
+
+const suite = browserGate("the pane's how-sure views in Chromium (test/browser/howSure.test.ts)").describe;
+
+const SHEET = "'Roast log'";
+const MIXES = "0.5, 1";
+const SETTINGS = { folds: "5", interval: "0.9", draws: "3" };
+
+async function pick(page: Page, address: string, picker: string): Promise<void> {
+  await page.evaluate((a) => {
+    const preview = (window as unknown as { __shrinkwisePreview: { host: { setSelection(a: string): void } } }).__shrinkwisePreview;
+    preview.host.setSelection(a);
+  }, address);
+  await page.getByTestId(`${picker}-use-selection`).click();
+}
+
+suite("how-sure views in Chromium (standalone preview)", () => {
+  let server: StaticServer;
+  let browser: Browser;
+  let page: Page;
+  const problems: string[] = [];
+
+  beforeAll(async () => {
+    server = await startServer();
+    browser = await launchBrowser();
+    page = await browser.newPage({ viewport: { width: 1280, height: 1100 } });
+    page.on("console", (message: ConsoleMessage) => {
+      if (message.type() === "error") problems.push(message.text());
+    });
+    page.on("pageerror", (error) => problems.push(error.message));
+    await page.goto(`${server.url}/taskpane.html`, { waitUntil: "load" });
+    await page.waitForFunction(() => "__shrinkwisePreview" in window, undefined, { timeout: 30000 });
+  }, 60000);
+
+  afterAll(async () => {
+    await browser?.close();
+    await server?.close();
+  });
+
+  test("interval and stability on: both charts drawn with whiskers and stable marks, progress counts the engine's fits, no console errors", async () => {
+    await pick(page, `${SHEET}!M1:M121`, "target");
+    await pick(page, `${SHEET}!B1:L121`, "predictors");
+    await page.getByTestId("setting-mixes").fill(MIXES);
+    await page.getByTestId("setting-folds").fill(SETTINGS.folds);
+    await page.getByTestId("sure-settings").evaluate((details) => ((details as HTMLDetailsElement).open = true));
+    // Validated as typed: a level of 1 is refused under the field, then a good one clears it.
+    await page.getByTestId("setting-interval").fill("1");
+    await page.getByTestId("setting-interval-error").waitFor({ state: "visible" });
+    await page.getByTestId("setting-interval").fill(SETTINGS.interval);
+    await page.getByTestId("setting-interval-error").waitFor({ state: "hidden" });
+    // Draws, q and π show once stability is on.
+    expect(await page.getByTestId("setting-draws").isVisible()).toBe(false);
+    await page.getByTestId("setting-stability").check();
+    await page.getByTestId("setting-draws").waitFor({ state: "visible" });
+    await page.getByTestId("setting-draws").fill(SETTINGS.draws);
+    await page.getByTestId("setting-stability-threshold").fill("0.4");
+    await page.getByTestId("setting-stability-threshold-error").waitFor({ state: "visible" });
+    await page.getByTestId("setting-stability-threshold").fill("");
+
+    await page.getByTestId("fit-button").click();
+    await page.waitForFunction(() => /^Fitted/.test(document.querySelector('[data-testid="status"]')?.textContent ?? ""), undefined, { timeout: 90000 });
+
+    // The engine on the same request, in this process: the total its progress reports.
+    const target = [["score"], ...roasteryRows.map((row) => [row[roasteryColumns.indexOf("score")]])];
+    const predictors = [roasteryColumns.slice(1, 12), ...roasteryRows.map((row) => roasteryColumns.slice(1, 12).map((name) => row[roasteryColumns.indexOf(name)]))];
+    const prepared = prepare(target, predictors, MIXES, `folds=${SETTINGS.folds}; interval=${SETTINGS.interval}; stability=yes; draws=${SETTINGS.draws}`);
+    let total = 0;
+    const result = engineFit(prepared.request.predictors, prepared.request.target, { ...prepared.request.options, onProgress: (_done, all) => (total = all) });
+    const bar = await page.evaluate(() => {
+      const progress = document.querySelector('[data-testid="fit-progress"]') as HTMLProgressElement;
+      return { value: progress.value, max: progress.max };
+    });
+    expect(bar).toEqual({ value: total, max: total });
+
+    // Held-out chart: one whisker per held-out row, and the summary.
+    const heldCaption = (await page.getByTestId("chart-held-out-caption").textContent()) ?? "";
+    expect(heldCaption).toContain(`for ${result.heldOut!.row.length} rows`);
+    expect(heldCaption).toContain("90% CV+ intervals");
+    expect(await page.getByTestId("chart-held-out").getAttribute("role")).toBe("img");
+    const heldSvg = await page.evaluate(() => document.querySelector('[data-testid="chart-held-out"] svg')?.textContent ?? "");
+    expect(heldSvg).toContain("Held-out predictions vs actual");
+    expect(heldSvg).toContain("90% CV+ interval");
+
+    // Kept-share chart: the stable marks' legend entry and the bound when stability ran.
+    const keptSvg = await page.evaluate(() => document.querySelector('[data-testid="chart-kept"] svg')?.textContent ?? "");
+    expect(keptSvg).toContain("Kept share of each term");
+    const keptCaption = (await page.getByTestId("chart-kept-caption").textContent()) ?? "";
+    expect(keptCaption).toContain(`Kept share of ${result.terms.length} terms`);
+    if (result.stability) {
+      expect(keptSvg).toContain("stable (share ≥ π)");
+      expect(keptCaption).toContain("falsely selected");
+    }
+    expect(await page.getByTestId("chosen-repeats").textContent()).toBe(String(result.cv!.repeats));
+    await saveScreenshot(page, "pane-how-sure");
+    expect(await scanAccessibility(page)).toEqual([]);
+    expect(problems).toEqual([]);
+  }, 150000);
+});
