@@ -89,8 +89,26 @@ export const WHISKER_OPACITY = 0.45;
 // ---------------------------------------------------------------------------------------------
 // Held-out predictions vs actual
 
-/** The one value range both axes share: every actual, prediction and finite interval end, padded 4%. */
-export function sharedExtent(points: HeldOutPoints): { min: number; max: number } {
+/** A round tick step (1, 2 or 5 × 10^k) giving about five ticks over `span`. */
+export function niceStep(span: number): number {
+  const raw = span / 5;
+  const power = 10 ** Math.floor(Math.log10(raw));
+  const unit = raw / power;
+  return (unit <= 1 ? 1 : unit <= 2 ? 2 : unit <= 5 ? 5 : 10) * power;
+}
+
+/**
+ * The one value range both axes share: every actual, prediction and finite interval end, padded
+ * 4% and widened to whole tick steps (round end labels, so the label widths estimated for the
+ * margins hold, and the axis name is not pushed out of the chart), with that step.
+ */
+export function sharedExtent(points: HeldOutPoints): { min: number; max: number; step: number } {
+  const raw = paddedExtent(points);
+  const step = niceStep(raw.max - raw.min);
+  return { min: Math.floor(raw.min / step) * step, max: Math.ceil(raw.max / step) * step, step };
+}
+
+function paddedExtent(points: HeldOutPoints): { min: number; max: number } {
   let min = Infinity;
   let max = -Infinity;
   const take = (v: number): void => {
@@ -198,11 +216,13 @@ export function heldOutChartOptions(view: AssuranceView, settings: AssuranceSett
     z: 3,
   });
   const yName = "held-out prediction";
-  const yNameGap = Math.ceil(valueLabelWidth(extent.min, extent.max, layout.font)) + 10;
+  // Tick labels are multiples of the step: the widest is one of the ends or its neighbours.
+  const yNameGap = Math.ceil(Math.max(valueLabelWidth(extent.min, extent.max, layout.font), ...[extent.min, extent.max, extent.min + extent.step, extent.max - extent.step].map((v) => formatNumber(v, 3).length * layout.font * 0.6))) + 12;
   const axis = (name: string) => ({
     type: "value" as const,
     min: extent.min,
     max: extent.max,
+    interval: extent.step,
     ...valueAxisStyle(name, palette, layout),
     axisLabel: { color: palette.text, fontSize: layout.font, hideOverlap: true, formatter: (value: number) => formatNumber(value, 3) },
   });

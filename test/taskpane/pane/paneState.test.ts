@@ -5,7 +5,7 @@
  */
 import { checkMeasure, MEASURES, type FitResult } from "../../../engine/fit";
 import { prepare } from "../../../functions/api";
-import { parseSettings } from "../../../functions/settings";
+import { parseSettings, SETTING_NAMES } from "../../../functions/settings";
 import { qualityColumns, qualityRows, qualityTruth } from "../../../addin/demo/qualityData";
 import { roasteryColumns, roasteryRows } from "../../../addin/demo/roasteryData";
 import { errorChoices, FIELDS, WEIGHTS_FIELD } from "../../../taskpane/pane/settingsForm";
@@ -384,6 +384,28 @@ describe("yes/no (two-class) targets: how the target reads, the settings that fo
     expect(INTERVAL_TWO_CLASS).toContain("number targets");
     inputs.settings.interval = "1";
     expect(checkSettings(inputs, "number").fields.interval).toBe(settingProblem("interval", "1"));
+  });
+
+  test("draws, q and π are checked as values with stability on; without it, the settings together say what to add", () => {
+    const cellMessage = (text: string): string => {
+      try {
+        parseSettings(text);
+      } catch (error) {
+        return (error as Error).message;
+      }
+      throw new Error(`'${text}' was accepted`);
+    };
+    const inputs = emptyInputs();
+    inputs.settings.draws = "3";
+    const alone = checkSettings(inputs);
+    expect(alone.fields.draws).toBeUndefined();
+    if (SETTING_NAMES.includes("stability")) {
+      expect(alone.overall).toBe(cellMessage("draws=3"));
+      inputs.settings.stability = "yes";
+      expect(checkSettings(inputs).ok).toBe(true);
+      inputs.settings.draws = "0";
+      expect(checkSettings(inputs).fields.draws).toBe(cellMessage("stability=yes; draws=0"));
+    }
   });
 
   test("the how-sure fields: interval, repeats, honest error and stability (checkboxes), draws, q and π shown with stability", () => {
