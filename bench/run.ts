@@ -16,7 +16,8 @@
  * Usage: npm run bench [-- --only 1000x50,200x2000-2c] [-- --repeat 3]
  */
 import { fit } from "../engine/fit";
-import { ColumnMatrix, zeroMatrix } from "../engine/matrix";
+import { ColumnMatrix } from "../engine/matrix";
+import { makeData } from "./data";
 import { blockSums } from "../engine/problem";
 import { mulberry32 } from "../engine/random";
 
@@ -42,43 +43,6 @@ const TWO_CLASS_CASES: Case[] = [
 const MIXES = [0, 0.2, 0.4, 0.6, 0.8, 1];
 const FOLDS = 10;
 const GRID = 100;
-
-/** Standard normal deviates by the Box–Muller transform over Mulberry32. */
-function normalSource(seed: number): () => number {
-  const uniform = mulberry32(seed);
-  return () => {
-    const u = Math.max(uniform(), 1e-300);
-    return Math.sqrt(-2 * Math.log(u)) * Math.cos(2 * Math.PI * uniform());
-  };
-}
-
-/**
- * AR(1)-correlated predictors (corr(x_j, x_k) = 0.6^|j−k|), ten true nonzero coefficients,
- * noise giving a signal-to-noise ratio near 3.
- */
-function makeData(n: number, p: number, seed: number): { x: ColumnMatrix; y: Float64Array } {
-  const normal = normalSource(seed);
-  const x = zeroMatrix(n, p);
-  const rho = 0.6;
-  const scale = Math.sqrt(1 - rho * rho);
-  for (let i = 0; i < n; i++) {
-    let previous = normal();
-    x.data[i] = previous;
-    for (let j = 1; j < p; j++) {
-      previous = rho * previous + scale * normal();
-      x.data[j * n + i] = previous;
-    }
-  }
-  const truth = new Float64Array(p);
-  for (let t = 0; t < Math.min(10, p); t++) truth[Math.floor((t * p) / 10)] = t % 2 === 0 ? 1.5 : -1;
-  const y = new Float64Array(n);
-  for (let i = 0; i < n; i++) {
-    let s = 2;
-    for (let j = 0; j < p; j++) if (truth[j] !== 0) s += truth[j] * x.data[j * n + i];
-    y[i] = s + 1.5 * normal();
-  }
-  return { x, y };
-}
 
 /**
  * A yes/no outcome on the same predictors: y = 1 with probability logistic(η), η the numeric
