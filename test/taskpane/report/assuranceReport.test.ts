@@ -8,7 +8,7 @@
  * bound q²/((2π − 1)·p)), "common practice" (nearest-rank percentile).
  */
 import { predictionIntervals } from "../../../engine/conformal";
-import { defaultExpectedTerms, falseSelectionBound, type HonestError, type StabilityResult } from "../../../engine/assurance";
+import { defaultExpectedTerms, falseSelectionBound, type StabilityResult } from "../../../engine/assurance";
 import { fromRows } from "../../../engine/matrix";
 import type { FitResult } from "../../../engine/fit";
 import { prepare } from "../../../functions/api";
@@ -31,6 +31,8 @@ let result: FitResult;
 let dataset: Dataset;
 let twoClass: FitResult;
 let twoClassData: Dataset;
+/** The same demo fit with two deals of the folds and the honest error (engine options set directly). */
+let sure: FitResult;
 
 beforeAll(async () => {
   const runner = new InProcessRunner();
@@ -38,6 +40,7 @@ beforeAll(async () => {
   const prepared = prepare(demo.target, demo.predictors, null, "folds=5; seed=3; grid size=40");
   dataset = prepared.dataset;
   result = await runner.fit(prepared.request);
+  sure = await runner.fit({ ...prepared.request, options: { ...prepared.request.options, repeats: 2, honestError: true } });
   const quality = grids(qualityColumns, qualityRows);
   const two = prepare(quality.target, quality.predictors, "1", "folds=5; grid size=30");
   twoClassData = two.dataset;
@@ -58,8 +61,11 @@ function value(rows: CellValue[][], label: string): CellValue {
   return row[1];
 }
 
-/** Inputs for the sections when the engine left them null: derived from the fit itself (numbers are inputs here, not expected values). */
-function withAssurance(fit: FitResult): FitResult {
+/**
+ * A stability result for the sections' layout, derived from the fit's own kept shares (its
+ * numbers are inputs here, not expected values): share = kept share, stable = share ≥ π.
+ */
+function withStability(fit: FitResult): FitResult {
   const kept = fit.keptShare ?? [];
   const q = defaultExpectedTerms(kept.length);
   const stability: StabilityResult = {
@@ -75,16 +81,7 @@ function withAssurance(fit: FitResult): FitResult {
     share: kept.map((k) => k.kept),
     stable: kept.map((k) => k.kept >= 0.8),
   };
-  const chosen = fit.choices!.lowest;
-  const honest: HonestError = {
-    measure: fit.cv!.measure,
-    folds: 5,
-    error: chosen.error * 1.1,
-    se: chosen.se * 1.5,
-    optimistic: chosen.error,
-    perFold: [],
-  };
-  return { ...fit, stability: fit.stability ?? stability, honest: fit.honest ?? honest };
+  return { ...fit, stability: fit.stability ?? stability };
 }
 
 test("intervals: the level, and the median and 90th-percentile half-widths over the training rows agree with engine/conformal.ts called directly", () => {
@@ -116,12 +113,17 @@ test("repeats and honest error: the repeats the fit used; the honest error and i
   const plain = honestRows(result)!;
   expect(value(plain, "cross-validation repeats (deals of the folds)")).toBe(result.cv!.repeats);
   expect(String(value(plain, "honest CV error (whole procedure)"))).toContain("not run");
-  const fit = withAssurance(result);
-  const rows = honestRows(fit)!;
-  expect(value(rows, "honest CV MSE (whole procedure, nested)")).toBe(fit.honest!.error);
-  expect(value(rows, "± SE (honest, over the outer folds)")).toBe(fit.honest!.se);
-  expect(value(rows, "optimistic CV MSE (it chose the model)")).toBe(fit.honest!.optimistic);
-  const sheet = buildReport({ result: fit, dataset, settings: [], ranges: [], timestamp: "t" });
+  const rows = honestRows(sure)!;
+  expect(value(rows, "cross-validation repeats (deals of the folds)")).toBe(2);
+  expect(sure.cv!.repeats).toBe(2);
+  const honest = sure.honest!;
+  expect(value(rows, "honest CV MSE (whole procedure, nested)")).toBe(honest.error);
+  expect(value(rows, "± SE (honest, over the outer folds)")).toBe(honest.se);
+  expect(value(rows, "optimistic CV MSE (it chose the model)")).toBe(honest.optimistic);
+  expect(value(rows, "outer folds")).toBe(honest.folds);
+  // The optimistic error is the chosen point's (engine/assurance.ts HonestError.optimistic).
+  expect(honest.optimistic).toBe((sure.rule === "one-se" ? sure.choices!.oneSe : sure.choices!.lowest).error);
+  const sheet = buildReport({ result: sure, dataset, settings: [], ranges: [], timestamp: "t" });
   expect(sheet.blocks.some((b) => b.rows[0]?.[0] === ASSURANCE_CAUTION)).toBe(true);
   expect(ASSURANCE_CAUTION).toContain("not causes");
 });
@@ -135,7 +137,7 @@ test("kept shares: one row per term, largest first, the engine's shares; with st
     const share = result.keptShare!.find((s) => s.term === row[0])!;
     expect(row.slice(1)).toEqual([share.kept, share.sameSign]);
   }
-  const fit = withAssurance(result);
+  const fit = withStability(result);
   const s = fit.stability!;
   const rows = keptRows(fit)!;
   expect(rows[0]).toEqual(["term", "kept in folds", "same sign", "stable share", "stable"]);
@@ -153,7 +155,7 @@ test("kept shares: one row per term, largest first, the engine's shares; with st
 });
 
 test("the new blocks don't overlap any other block", () => {
-  const sheet = buildReport({ result: withAssurance(result), dataset, settings: [], ranges: [], timestamp: "t", interval: 0.9 });
+  const sheet = buildReport({ result: withStability(sure), dataset, settings: [], ranges: [], timestamp: "t", interval: 0.9 });
   const areas = sheet.blocks.map(blockArea);
   for (let a = 0; a < areas.length; a++) {
     for (let b = a + 1; b < areas.length; b++) {
