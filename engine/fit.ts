@@ -46,6 +46,7 @@ import type { OutcomeKind } from "./outcome";
 import type { FoldModel } from "./conformal";
 import { KeptShare, keptShares } from "./keptShare";
 import type { HonestError, StabilityOptions, StabilityResult } from "./assurance";
+import { HalfPath, StabilityInput, stabilitySelection, stabilitySettings, stabilityUnits } from "./stability";
 import {
   DEFAULT_GRID_DENSITY,
   EarlyStop,
@@ -969,6 +970,13 @@ export function* fitSteps(
       message: `${constantColumns.join(", ")} ${constantColumns.length === 1 ? "is" : "are"} constant and left out (coefficient 0)`,
     });
   }
+  // Stability selection (stability.ts): its settings are checked before any fitting.
+  if (options.stability) {
+    if (fixed !== null) {
+      throw new InputError("setting", "stability selection needs the path of the mix that cross-validation chooses, and a fixed strength skips cross-validation: remove the fixed strength, or leave stability selection off");
+    }
+    stabilityTerms(data, full, options);
+  }
   if (fixed !== null) {
     if (data.outcome === "two-class") return fixedTwoClass(data, full, fixed, constantColumns, warnings);
     if (fixed === 0 && !data.bounded) {
@@ -990,7 +998,7 @@ export function* fitSteps(
     return yield* twoClassSteps(data, problems, activePlan, measure, rule, options, constantColumns, warnings);
   }
   const K = activePlan.trainBlocks.length;
-  const totalUnits = data.mixes.length * (K + 1);
+  const totalUnits = data.mixes.length * (K + 1) + stabilityUnits(options.stability);
   let done = 0;
   const heldOutCache: (HeldOut | null)[] = new Array(K).fill(null);
   const foldWeights = activePlan.validateBlock.map((b) => {
@@ -1152,6 +1160,9 @@ export function* fitSteps(
     result.coefficients,
     kept.foldModels.map((model) => model.coefficients),
   );
+  if (options.stability) {
+    result.stability = yield* stabilitySelection(stabilityInput(data, full, options, best.mix, best.run.strengths, () => options.onProgress?.(++done, totalUnits)), warnings);
+  }
   return result;
 }
 
@@ -1710,7 +1721,7 @@ function* twoClassSteps(
   const full = problems.full;
   const signal = data.settings.signal;
   const K = plan.trainBlocks.length;
-  const totalUnits = data.mixes.length * (K + 1);
+  const totalUnits = data.mixes.length * (K + 1) + stabilityUnits(options.stability);
   let done = 0;
   const heldOutCache: (HeldOut | null)[] = new Array(K).fill(null);
   const heldOut = (f: number): HeldOut => (heldOutCache[f] ??= gatherHeldOut(data, plan.blocks[plan.validateBlock[f]]));
@@ -1866,6 +1877,9 @@ function* twoClassSteps(
           chosenFoldPaths.map((path, f) => logisticToOriginal(problems.folds[f], 0, path[chosen.index]).coefficients),
         )
       : null;
+  if (options.stability) {
+    result.stability = yield* stabilitySelection(stabilityInput(data, full, options, best.mix, best.run.strengths, () => options.onProgress?.(++done, totalUnits)), warnings);
+  }
   return result;
 }
 
@@ -2091,5 +2105,86 @@ function assembleTwoClass(
     },
     warnings,
     model,
+  };
+}
+
+// ---------------------------------------------------------------------------------------------
+// Stability selection (stability.ts): the half-sample fits, built as cross-validation folds are.
+// ---------------------------------------------------------------------------------------------
+
+/**
+ * Which terms stability selection can select (candidates: penalized, not constant, not held at 0
+ * by bounds of 0 and 0) and which are in every model (unpenalized, not constant); the settings
+ * checked against the candidates (an InputError for bad settings, before any fitting).
+ */
+function stabilityTerms(data: Prepared, full: TrainingProblem, options: FitOptions): { candidate: boolean[]; unpenalized: boolean[]; settings: ReturnType<typeof stabilitySettings> } {
+  const candidate: boolean[] = [];
+  const unpenalized: boolean[] = [];
+  for (let j = 0; j < full.p; j++) {
+    const free = !full.std.frozen[j];
+    const penalized = data.multipliers[j] > 0;
+    candidate.push(free && penalized && !(data.lower[j] === 0 && data.upper[j] === 0));
+    unpenalized.push(free && !penalized);
+  }
+  const count = candidate.filter(Boolean).length;
+  const settings = stabilitySettings(options.stability as StabilityOptions, count, options.seed ?? 1);
+  return { candidate, unpenalized, settings };
+}
+
+/**
+ * Everything stability selection needs from the fit: the chosen mix and its full-data path
+ * strengths (unit-free λ), the terms, the rows with positive weight, and the half fitter. A half's
+ * problem is built as a fold's training problem is (buildProblems): from its rows, or in gram form
+ * from its block sums about the full data's shifts, so it standardizes its own rows; it is then
+ * solved down the strengths from its unpenalized fit with warm starts, as runPath /
+ * runLogisticPath do for a fold (never stopping early), one strength per call.
+ */
+function stabilityInput(data: Prepared, full: TrainingProblem, options: FitOptions, mix: number, strengths: readonly number[], onHalf: () => void): StabilityInput {
+  const { x, y, weights } = data;
+  const signal = data.settings.signal;
+  const { candidate, unpenalized, settings } = stabilityTerms(data, full, options);
+  const eligibleRows: number[] = [];
+  for (let i = 0; i < x.rows; i++) if (!weights || weights[i] > 0) eligibleRows.push(i);
+  const problemOptions = { intercept: data.intercept, standardize: data.standardize, columnUnits: Float64Array.from(data.xExponent, (e) => powerOfTwo(e)) };
+  const { shiftX, shiftY } = fullShift(data);
+  const twoClass = data.outcome === "two-class";
+  const fitHalf = (rows: Int32Array): HalfPath => {
+    let converged = true;
+    if (twoClass) {
+      const problem = problemFromRows(x, y, weights, rows, problemOptions, signal);
+      const { solver, start } = startTwoClass(data, problem, outcomesOf(data, rows), penaltyFor(problem, data, mix), false, []);
+      converged = start.converged;
+      return {
+        at: (k) => {
+          if (!solver.solve(strengths[k], k === 0 ? strengths[0] : strengths[k - 1]).converged) converged = false;
+          return solver.coef;
+        },
+        converged: () => converged,
+      };
+    }
+    const problem = data.gram
+      ? problemFromSums(blockSums(x, y, weights, rows, shiftX, shiftY, signal), shiftX, shiftY, problemOptions)
+      : problemFromRows(x, y, weights, rows, problemOptions, signal);
+    const solver = new CoordinateDescent(problem, penaltyFor(problem, data, mix), data.settings);
+    converged = solver.fitUnpenalized().converged;
+    return {
+      at: (k) => {
+        if (!solver.solve(strengths[k], k === 0 ? strengths[0] : strengths[k - 1]).converged) converged = false;
+        return solver.coef;
+      },
+      converged: () => converged,
+    };
+  };
+  return {
+    settings,
+    mix,
+    strengths,
+    candidate,
+    unpenalized,
+    eligible: Int32Array.from(eligibleRows),
+    strata: twoClass ? data.y : null,
+    fitHalf,
+    signal,
+    onHalf,
   };
 }
