@@ -40,3 +40,6 @@ export { logisticBaseline } from "./logisticBaseline";
 export type { LogisticBaselineResult, LogisticBaselineOptions, Separation } from "./logisticBaseline";
 export { MAX_REPEATS, DEFAULT_DRAWS, MAX_DRAWS, DEFAULT_THRESHOLD, checkRepeats, checkStabilityOptions, defaultExpectedTerms, falseSelectionBound } from "./assurance";
 export type { StabilityOptions, StabilityResult, HonestError, HonestFold } from "./assurance";
+// Stability selection (complementary pairs of half-samples)
+export { dealHalves, drawSeed, stabilitySettings, stabilityUnits, MIN_HALF_ROWS } from "./stability";
+export type { StabilitySettings, HalfPath } from "./stability";
