@@ -1161,7 +1161,7 @@ export function* fitSteps(
     kept.foldModels.map((model) => model.coefficients),
   );
   if (options.stability) {
-    result.stability = yield* stabilitySelection(stabilityInput(data, full, options, best.mix, best.run.strengths, () => options.onProgress?.(++done, totalUnits)), warnings);
+    result.stability = yield* stabilitySelection(stabilityInput(data, full, options, best.mix, best.run, () => options.onProgress?.(++done, totalUnits)), warnings);
   }
   return result;
 }
@@ -1878,7 +1878,7 @@ function* twoClassSteps(
         )
       : null;
   if (options.stability) {
-    result.stability = yield* stabilitySelection(stabilityInput(data, full, options, best.mix, best.run.strengths, () => options.onProgress?.(++done, totalUnits)), warnings);
+    result.stability = yield* stabilitySelection(stabilityInput(data, full, options, best.mix, best.run, () => options.onProgress?.(++done, totalUnits)), warnings);
   }
   return result;
 }
@@ -2139,10 +2139,23 @@ function stabilityTerms(data: Prepared, full: TrainingProblem, options: FitOptio
  * solved down the strengths from its unpenalized fit with warm starts, as runPath /
  * runLogisticPath do for a fold (never stopping early), one strength per call.
  */
-function stabilityInput(data: Prepared, full: TrainingProblem, options: FitOptions, mix: number, strengths: readonly number[], onHalf: () => void): StabilityInput {
+function stabilityInput(data: Prepared, full: TrainingProblem, options: FitOptions, mix: number, run: PathRun, onHalf: () => void): StabilityInput {
   const { x, y, weights } = data;
   const signal = data.settings.signal;
+  const strengths = run.strengths;
   const { candidate, unpenalized, settings } = stabilityTerms(data, full, options);
+  // First depth (stability.ts firstDepth; it changes the cost, never the result): a half of the rows
+  // selects about as many terms at a strength as the full data do (its union down the path, which
+  // q bounds, at least as many), so twice the strengths the full-data path takes to hold more than
+  // q penalized terms, at least 8.
+  const fixedIn = unpenalized.filter(Boolean).length;
+  let reach = strengths.length;
+  for (let k = 0; k < run.nonzero.length; k++) {
+    if (run.nonzero[k] - fixedIn > settings.expectedTerms) {
+      reach = k + 1;
+      break;
+    }
+  }
   const eligibleRows: number[] = [];
   for (let i = 0; i < x.rows; i++) if (!weights || weights[i] > 0) eligibleRows.push(i);
   const problemOptions = { intercept: data.intercept, standardize: data.standardize, columnUnits: Float64Array.from(data.xExponent, (e) => powerOfTwo(e)) };
@@ -2186,5 +2199,6 @@ function stabilityInput(data: Prepared, full: TrainingProblem, options: FitOptio
     fitHalf,
     signal,
     onHalf,
+    firstDepth: Math.max(8, 2 * reach),
   };
 }

@@ -38,10 +38,16 @@
  * fitted (their progress units are counted at once), every share is 0 and a warning says to
  * choose among mixes above 0.
  *
- * Cost: 2B half-sample paths, one progress unit each. Exact shortcut: the union sizes only grow
- * down the path, so once the halves fitted so far already sum to more than 2B·q at some strength,
- * that strength and every weaker one are out of Λ whatever the other halves do; later halves stop
- * there. The result is the same as fitting every half to the end of the path.
+ * Cost: 2B half-sample paths, one progress unit each. Two exact shortcuts, so the result is the
+ * same as fitting every half to the end of the path:
+ * - the union sizes only grow down the path, so once the halves fitted so far already sum to more
+ *   than 2B·q at some strength, that strength and every weaker one are out of Λ whatever the other
+ *   halves do; later halves stop there;
+ * - Λ usually ends near the top of the path, where fits are sparse and cheap, while the weak end
+ *   (dense fits; for two classes, near separation) costs the most: the halves are first solved
+ *   down to a depth guessed from the full-data path (firstDepth), and only if Λ reaches that depth
+ *   are they solved again twice as deep, and so on. Progress counts the halves of the first pass;
+ *   a deeper pass (when the guess was short) runs after it without further units.
  *
  * Same inputs and seed → bit-identical results (the draws depend on the seed and b only).
  */
@@ -162,8 +168,15 @@ export interface StabilityInput {
   /** Builds the training problem of a half (as a fold's is built) and returns its path. */
   fitHalf: (rows: Int32Array) => HalfPath;
   signal?: CancelSignal;
-  /** Called after each half (one progress unit). */
+  /** Called after each half of the first pass (one progress unit each). */
   onHalf: () => void;
+  /**
+   * How many strengths from the top the first pass solves (default: all). Λ usually ends near the
+   * top of the path, where the fits are sparse and cheap; when it reaches the depth solved, every
+   * half is solved again twice as deep, until Λ ends inside (or the path does). The result does
+   * not depend on it (only the cost does).
+   */
+  firstDepth?: number;
 }
 
 /** Fewest rows a half may hold. */
@@ -189,39 +202,50 @@ export function* stabilitySelection(input: StabilityInput, warnings: FitWarning[
   const counts = new Int32Array(K * p);
   const unionTotal = new Float64Array(K);
   const budget = halves * settings.expectedTerms;
-  let limit = K;
-  let converged = true;
   const ridge = input.mix === 0;
-  for (let b = 0; b < settings.draws; b++) {
-    const pair = ridge ? null : dealHalves(eligible, input.strata, settings.seed, b);
-    for (const rows of pair ? [pair.a, pair.b] : [null, null]) {
-      throwIfCancelled(signal);
-      if (rows) {
-        if (input.strata) checkBothClasses(rows, input.strata);
-        const path = input.fitHalf(rows);
-        const inUnion = new Uint8Array(p);
-        let union = 0;
-        for (let k = 0; k < limit; k++) {
-          throwIfCancelled(signal);
-          const coefficients = path.at(k);
-          const row = k * p;
-          for (let j = 0; j < p; j++) {
-            if (!candidate[j] || coefficients[j] === 0) continue;
-            counts[row + j]++;
-            if (!inUnion[j]) {
-              inUnion[j] = 1;
-              union++;
+  let depth = Math.max(1, Math.min(K, input.firstDepth ?? K));
+  let limit = depth;
+  let converged = true;
+  for (let pass = 0; ; pass++) {
+    counts.fill(0);
+    unionTotal.fill(0);
+    limit = depth;
+    converged = true;
+    for (let b = 0; b < settings.draws; b++) {
+      const pair = ridge ? null : dealHalves(eligible, input.strata, settings.seed, b);
+      for (const rows of pair ? [pair.a, pair.b] : [null, null]) {
+        throwIfCancelled(signal);
+        if (rows) {
+          if (input.strata) checkBothClasses(rows, input.strata);
+          const path = input.fitHalf(rows);
+          const inUnion = new Uint8Array(p);
+          let union = 0;
+          for (let k = 0; k < limit; k++) {
+            throwIfCancelled(signal);
+            const coefficients = path.at(k);
+            const row = k * p;
+            for (let j = 0; j < p; j++) {
+              if (!candidate[j] || coefficients[j] === 0) continue;
+              counts[row + j]++;
+              if (!inUnion[j]) {
+                inUnion[j] = 1;
+                union++;
+              }
             }
+            unionTotal[k] += union;
+            // The halves so far already average more than q here: out of Λ, with every weaker strength.
+            if (unionTotal[k] > budget) limit = k;
           }
-          unionTotal[k] += union;
-          // The halves so far already average more than q here: out of Λ, with every weaker strength.
-          if (unionTotal[k] > budget) limit = k;
+          if (!path.converged()) converged = false;
         }
-        if (!path.converged()) converged = false;
+        // Progress counts the first pass (its total is fixed up front); a deeper pass only yields.
+        if (pass === 0) input.onHalf();
+        yield;
       }
-      input.onHalf();
-      yield;
     }
+    // Λ ends inside the depth solved (or the depth is the whole path): done. Else solve deeper.
+    if (ridge || limit < depth || depth === K) break;
+    depth = Math.min(K, 2 * depth);
   }
   const share = new Array<number>(p).fill(0);
   for (let k = 0; k < limit; k++) {

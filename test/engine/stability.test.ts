@@ -12,7 +12,9 @@
  * Set ASSURE_REPORT=1 to print the false-selection figures.
  */
 import { fit, FitOptions, FitResult } from "../../engine/fit";
-import { dealHalves, drawSeed } from "../../engine/stability";
+import { dealHalves, drawSeed, HalfPath, StabilityInput, stabilitySelection } from "../../engine/stability";
+import type { StabilityResult } from "../../engine/assurance";
+import type { FitWarning } from "../../engine/errors";
 import { CancelledError, InputError } from "../../engine/errors";
 import { TestRandom } from "../helpers/random";
 
@@ -357,5 +359,50 @@ describe("settings, progress and cancel", () => {
         },
       }),
     ).toThrow(CancelledError);
+  });
+});
+
+describe("the solving depth changes the cost, never the result", () => {
+  // A stand-in for the half fits (no solver): term j is selected by a half from strength index
+  // enter(j, rows) on, and term 4 only at odd indices (a term can leave the path: the union counts it).
+  const K = 12;
+  const p = 5;
+  const enter = (j: number, rows: Int32Array): number => (j * 2 + rows[0] + rows[1]) % K;
+  function run(firstDepth: number | undefined, expectedTerms: number): { result: StabilityResult; halves: number; solved: number } {
+    let halves = 0;
+    let solved = 0;
+    const input: StabilityInput = {
+      settings: { draws: 4, expectedTerms, threshold: 0.75, seed: 3, candidates: p },
+      mix: 1,
+      strengths: Array.from({ length: K }, (_, k) => 2 ** -k),
+      candidate: new Array(p).fill(true),
+      unpenalized: new Array(p).fill(false),
+      eligible: Int32Array.from({ length: 21 }, (_, i) => i),
+      strata: null,
+      fitHalf: (rows): HalfPath => ({
+        at: (k) => {
+          solved++;
+          return Array.from({ length: p }, (_, j) => (j === 4 ? k % 2 : k >= enter(j, rows) ? 1 : 0));
+        },
+        converged: () => true,
+      }),
+      onHalf: () => halves++,
+      firstDepth,
+    };
+    const warnings: FitWarning[] = [];
+    const steps = stabilitySelection(input, warnings);
+    for (;;) {
+      const step = steps.next();
+      if (step.done) return { result: step.value, halves, solved };
+    }
+  }
+  test.each([1, 2, 3, 5])("q = %i", (q) => {
+    const whole = run(undefined, q);
+    for (const depth of [1, 2, 5, K]) {
+      const shallow = run(depth, q);
+      expect(shallow.result).toEqual(whole.result);
+      expect(shallow.halves).toBe(8); // one progress unit per half, whatever the passes
+    }
+    expect(run(1, q).result.strengths.length).toBeGreaterThan(0);
   });
 });
