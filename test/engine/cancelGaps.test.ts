@@ -52,6 +52,7 @@ describe("the cancel signal is read at least every 0.25 s", () => {
     "100000 × 20, residual updates",
     "20000 × 100, two-class",
     "200 × 2000, two-class",
+    "300 × 2000, lasso, stability selection",
   ])("%s", (name) => {
     const report = reports.find((r) => r.name === name) as GapReport;
     expect(report).toBeDefined();
@@ -61,7 +62,7 @@ describe("the cancel signal is read at least every 0.25 s", () => {
     if (report.cancelled) expect(report.latency).toBeLessThanOrEqual(MAX_GAP_SECONDS);
   });
 
-  test.each(["300 × 2000, default settings", "20000 × 100, two-class", "200 × 2000, two-class"])("%s really is long: it is cancelled, not finished, within the budget", (name) => {
+  test.each(["300 × 2000, default settings", "20000 × 100, two-class", "200 × 2000, two-class", "300 × 2000, lasso, stability selection"])("%s really is long: it is cancelled, not finished, within the budget", (name) => {
     expect(reports.find((r) => r.name === name)?.cancelled).toBe(true);
   });
 
