@@ -261,7 +261,7 @@ export function* stabilitySelection(input: StabilityInput, warnings: FitWarning[
   } else if (limit === 0) {
     warnings.push({
       code: "stability",
-      message: `stability selection: even at the strongest strength the halves select ${formatAverage(unionTotal[0] / halves)} terms on average, more than q = ${settings.expectedTerms}, so no strength counts and every share is 0; raise q`,
+      message: `stability selection: even at the strongest strength the halves select more than q = ${settings.expectedTerms} term${settings.expectedTerms === 1 ? "" : "s"} on average, so no strength counts and every share is 0; raise q`,
     });
   }
   if (!converged) {
@@ -293,8 +293,4 @@ function checkBothClasses(rows: Int32Array, classes: ArrayLike<number>): void {
       "stability selection deals the rows into halves, and a half got rows of one class only: each class needs at least 2 rows with a positive weight; add rows of the rarer class, or leave stability selection off",
     );
   }
-}
-
-function formatAverage(value: number): string {
-  return Number(value.toPrecision(3)).toString();
 }

@@ -406,3 +406,50 @@ describe("the solving depth changes the cost, never the result", () => {
     expect(run(1, q).result.strengths.length).toBeGreaterThan(0);
   });
 });
+
+describe("no strength counts", () => {
+  test("when the halves select more than q terms even at the top: shares 0 and a warning to raise q", () => {
+    const warnings: FitWarning[] = [];
+    const steps = stabilitySelection(
+      {
+        settings: { draws: 3, expectedTerms: 1, threshold: 0.75, seed: 1, candidates: 4 },
+        mix: 1,
+        strengths: [1, 0.5, 0.25],
+        candidate: [true, true, true, true],
+        unpenalized: [false, false, false, false],
+        eligible: Int32Array.from({ length: 10 }, (_, i) => i),
+        strata: null,
+        fitHalf: () => ({ at: () => [1, 1, 0, 0], converged: () => true }),
+        onHalf: () => undefined,
+      },
+      warnings,
+    );
+    let step = steps.next();
+    while (!step.done) step = steps.next();
+    expect(step.value.strengths).toEqual([]);
+    expect(step.value.share).toEqual([0, 0, 0, 0]);
+    expect(step.value.stable).toEqual([false, false, false, false]);
+    expect(warnings.map((w) => w.code)).toEqual(["stability"]);
+    expect(warnings[0].message).toMatch(/raise q/);
+  });
+
+  test("rows of weight 0 take no part: appending some leaves the result as it was", () => {
+    const random = new TestRandom(12);
+    const x: number[][] = [];
+    const y: number[] = [];
+    for (let i = 0; i < 60; i++) {
+      const row = Array.from({ length: 6 }, () => random.normal());
+      x.push(row);
+      y.push(row[0] - row[1] + random.normal());
+    }
+    const options: FitOptions = { mixes: [1], folds: 5, stability: { draws: 6 } };
+    const base = fit(x, y, { ...options, weights: new Array(60).fill(1) }).stability;
+    const extra = fit([...x, [1e6, -1e6, 3, 3, 3, 3], [0, 0, 0, 0, 0, 0]], [...y, 1e9, -4], { ...options, weights: [...new Array(60).fill(1), 0, 0] }).stability;
+    // The full-data path's strengths may move in the last bit (the main fit's sums run over the
+    // extra rows too); the draws (over rows of positive weight only) and the selections do not.
+    expect(extra?.share).toEqual(base?.share);
+    expect(extra?.averageSelected).toEqual(base?.averageSelected);
+    expect(extra?.strengths.length).toBe(base?.strengths.length);
+    extra?.strengths.forEach((strength, k) => expect(Math.abs(strength / (base?.strengths[k] ?? NaN) - 1)).toBeLessThan(1e-14));
+  });
+});
