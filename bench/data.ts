@@ -1,6 +1,6 @@
 /**
- * The benchmarks' data (run.ts, stability.ts): correlated predictors with known true
- * coefficients, and a yes/no outcome drawn from the same signal. Invented, generated here.
+ * The benchmarks' synthetic data (shared by bench/run.ts, bench/assurance.ts and bench/stability.ts):
+ * AR(1)-correlated normal predictors with a sparse truth, and a yes/no outcome drawn from the same signal.
  */
 import { ColumnMatrix, zeroMatrix } from "../engine/matrix";
 import { mulberry32 } from "../engine/random";

@@ -345,6 +345,18 @@ describe("settings, progress and cancel", () => {
     });
   });
 
+  test("with repeats and the honest error too, progress still runs one by one to its total", () => {
+    const seen: [number, number][] = [];
+    const result = fit(x, y, { mixes: [1], folds: 4, repeats: 2, honestError: true, stability: { draws: 3 }, onProgress: (done, total) => seen.push([done, total]) });
+    expect(result.stability?.draws).toBe(3);
+    const total = seen[0][1];
+    seen.forEach(([done, t], k) => {
+      expect(t).toBe(total);
+      expect(done).toBe(k + 1);
+    });
+    expect(seen[seen.length - 1][0]).toBe(total);
+  });
+
   test("cancel during the half-sample fits throws CancelledError", () => {
     const signal = { aborted: false };
     const main = 1 * (4 + 1);
