@@ -1,5 +1,5 @@
 /**
- * What stability selection costs (a script, not a test): `npx tsx bench/stability.ts [--repeat 3] [--draws 50]`.
+ * What stability selection costs (a script, not a test): `npm run bench:stability [-- --repeat 3] [-- --draws 50]`.
  *
  * On the benchmark's 1000 × 50 case (bench/data.ts: AR(1) predictors, ten true terms) it times a
  * plain cross-validated fit (10 folds × 100 strengths, the benchmark's mixes, and the lasso alone)
