@@ -1,6 +1,6 @@
 /**
- * The benchmark's synthetic data (shared by bench/run.ts and bench/assurance.ts): AR(1)-correlated
- * normal predictors with a sparse truth.
+ * The benchmarks' synthetic data (shared by bench/run.ts, bench/assurance.ts and bench/stability.ts):
+ * AR(1)-correlated normal predictors with a sparse truth, and a yes/no outcome drawn from the same signal.
  */
 import { ColumnMatrix, zeroMatrix } from "../engine/matrix";
 import { mulberry32 } from "../engine/random";
@@ -42,3 +42,23 @@ export function makeData(n: number, p: number, seed: number): { x: ColumnMatrix;
   return { x, y };
 }
 
+/**
+ * A yes/no outcome on the same predictors: y = 1 with probability logistic(η), η the numeric
+ * case's noiseless signal scaled to a spread of about 2 log-odds units and centred near a 30%
+ * event share.
+ */
+export function makeTwoClass(x: ColumnMatrix, y: Float64Array, seed: number): Float64Array {
+  const n = x.rows;
+  const uniform = mulberry32(seed);
+  let mean = 0;
+  for (let i = 0; i < n; i++) mean += y[i] / n;
+  let spread = 0;
+  for (let i = 0; i < n; i++) spread += (y[i] - mean) ** 2 / n;
+  const scale = 2 / Math.sqrt(spread);
+  const out = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    const eta = -0.85 + scale * (y[i] - mean);
+    out[i] = uniform() < 1 / (1 + Math.exp(-eta)) ? 1 : 0;
+  }
+  return out;
+}

@@ -17,9 +17,8 @@
  */
 import { fit } from "../engine/fit";
 import { ColumnMatrix } from "../engine/matrix";
-import { makeData } from "./data";
 import { blockSums } from "../engine/problem";
-import { mulberry32 } from "../engine/random";
+import { makeData, makeTwoClass } from "./data";
 
 interface Case {
   name: string;
@@ -43,27 +42,6 @@ const TWO_CLASS_CASES: Case[] = [
 const MIXES = [0, 0.2, 0.4, 0.6, 0.8, 1];
 const FOLDS = 10;
 const GRID = 100;
-
-/**
- * A yes/no outcome on the same predictors: y = 1 with probability logistic(η), η the numeric
- * case's noiseless signal scaled to a spread of about 2 log-odds units and centred near a 30%
- * event share.
- */
-function makeTwoClass(x: ColumnMatrix, y: Float64Array, seed: number): Float64Array {
-  const n = x.rows;
-  const uniform = mulberry32(seed);
-  let mean = 0;
-  for (let i = 0; i < n; i++) mean += y[i] / n;
-  let spread = 0;
-  for (let i = 0; i < n; i++) spread += (y[i] - mean) ** 2 / n;
-  const scale = 2 / Math.sqrt(spread);
-  const out = new Float64Array(n);
-  for (let i = 0; i < n; i++) {
-    const eta = -0.85 + scale * (y[i] - mean);
-    out[i] = uniform() < 1 / (1 + Math.exp(-eta)) ? 1 : 0;
-  }
-  return out;
-}
 
 function timeGram(x: ColumnMatrix, y: Float64Array): number {
   const rows = new Int32Array(x.rows);

@@ -48,6 +48,7 @@ import { KeptShare, keptShares } from "./keptShare";
 import { checkRepeats, type HonestError, type StabilityOptions, type StabilityResult } from "./assurance";
 import { averageOfDeals, SignTally } from "./repeats";
 import { HONEST_SEED_OFFSET, HonestPlan, nestedCrossValidation } from "./honest";
+import { HalfPath, StabilityInput, stabilitySelection, stabilitySettings, stabilityUnits } from "./stability";
 import {
   DEFAULT_GRID_DENSITY,
   EarlyStop,
@@ -1064,6 +1065,13 @@ export function* fitSteps(
       message: `${constantColumns.join(", ")} ${constantColumns.length === 1 ? "is" : "are"} constant and left out (coefficient 0)`,
     });
   }
+  // Stability selection (stability.ts): its settings are checked before any fitting.
+  if (options.stability) {
+    if (fixed !== null) {
+      throw new InputError("setting", "stability selection needs the path of the mix that cross-validation chooses, and a fixed strength skips cross-validation: remove the fixed strength, or leave stability selection off");
+    }
+    stabilityTerms(data, full, options);
+  }
   if (fixed !== null) {
     if (data.outcome === "two-class") return fixedTwoClass(data, full, fixed, constantColumns, warnings);
     if (fixed === 0 && !data.bounded) {
@@ -1087,7 +1095,8 @@ export function* fitSteps(
   const K = activePlan.trainBlocks.length;
   const honest = honestError ? honestSetup(data, options, activePlan, repeats) : null;
   const cvUnits = data.mixes.length * (repeats * K + 1);
-  const totalUnits = cvUnits + (honest?.units ?? 0);
+  // Stability selection's units (2 per pair) come last: after cross-validation and the honest error.
+  const totalUnits = cvUnits + (honest?.units ?? 0) + stabilityUnits(options.stability);
   let done = 0;
   const deals = dealSource(data, options, activePlan, problems, repeats);
   const pathSettings = { ...data.settings, stopWhenExact: true, stopWhenFlat: data.stopEarly };
@@ -1268,6 +1277,10 @@ export function* fitSteps(
         kept.foldModels.map((model) => model.coefficients),
       );
   if (honest) result.honest = yield* honestRun(data, options, honest, result, (units) => options.onProgress?.(cvUnits + units, totalUnits));
+  if (options.stability) {
+    let halvesDone = cvUnits + (honest?.units ?? 0);
+    result.stability = yield* stabilitySelection(stabilityInput(data, full, options, best.mix, best.run, () => options.onProgress?.(++halvesDone, totalUnits)), warnings);
+  }
   return result;
 }
 
@@ -1876,7 +1889,8 @@ function* twoClassSteps(
   const K = plan.trainBlocks.length;
   const honest = honestError ? honestSetup(data, options, plan, repeats) : null;
   const cvUnits = data.mixes.length * (repeats * K + 1);
-  const totalUnits = cvUnits + (honest?.units ?? 0);
+  // Stability selection's units (2 per pair) come last: after cross-validation and the honest error.
+  const totalUnits = cvUnits + (honest?.units ?? 0) + stabilityUnits(options.stability);
   let done = 0;
   const deals = dealSource(data, options, plan, problems, repeats);
   // The AUC needs both classes among a fold's held-out rows: average over the folds that have them
@@ -2065,6 +2079,10 @@ function* twoClassSteps(
             )
           : null;
   if (honest) result.honest = yield* honestRun(data, options, honest, result, (units) => options.onProgress?.(cvUnits + units, totalUnits));
+  if (options.stability) {
+    let halvesDone = cvUnits + (honest?.units ?? 0);
+    result.stability = yield* stabilitySelection(stabilityInput(data, full, options, best.mix, best.run, () => options.onProgress?.(++halvesDone, totalUnits)), warnings);
+  }
   return result;
 }
 
@@ -2290,5 +2308,100 @@ function assembleTwoClass(
     },
     warnings,
     model,
+  };
+}
+
+// ---------------------------------------------------------------------------------------------
+// Stability selection (stability.ts): the half-sample fits, built as cross-validation folds are.
+// ---------------------------------------------------------------------------------------------
+
+/**
+ * Which terms stability selection can select (candidates: penalized, not constant, not held at 0
+ * by bounds of 0 and 0) and which are in every model (unpenalized, not constant); the settings
+ * checked against the candidates (an InputError for bad settings, before any fitting).
+ */
+function stabilityTerms(data: Prepared, full: TrainingProblem, options: FitOptions): { candidate: boolean[]; unpenalized: boolean[]; settings: ReturnType<typeof stabilitySettings> } {
+  const candidate: boolean[] = [];
+  const unpenalized: boolean[] = [];
+  for (let j = 0; j < full.p; j++) {
+    const free = !full.std.frozen[j];
+    const penalized = data.multipliers[j] > 0;
+    candidate.push(free && penalized && !(data.lower[j] === 0 && data.upper[j] === 0));
+    unpenalized.push(free && !penalized);
+  }
+  const count = candidate.filter(Boolean).length;
+  const settings = stabilitySettings(options.stability as StabilityOptions, count, options.seed ?? 1);
+  return { candidate, unpenalized, settings };
+}
+
+/**
+ * Everything stability selection needs from the fit: the chosen mix and its full-data path
+ * strengths (unit-free λ), the terms, the rows with positive weight, and the half fitter. A half's
+ * problem is built as a fold's training problem is (buildProblems): from its rows, or in gram form
+ * from its block sums about the full data's shifts, so it standardizes its own rows; it is then
+ * solved down the strengths from its unpenalized fit with warm starts, as runPath /
+ * runLogisticPath do for a fold (never stopping early), one strength per call.
+ */
+function stabilityInput(data: Prepared, full: TrainingProblem, options: FitOptions, mix: number, run: PathRun, onHalf: () => void): StabilityInput {
+  const { x, y, weights } = data;
+  const signal = data.settings.signal;
+  const strengths = run.strengths;
+  const { candidate, unpenalized, settings } = stabilityTerms(data, full, options);
+  // First depth (stability.ts firstDepth; it changes the cost, never the result): a half of the rows
+  // selects about as many terms at a strength as the full data do (its union down the path, which
+  // q bounds, at least as many), so twice the strengths the full-data path takes to hold more than
+  // q penalized terms, at least 8.
+  const fixedIn = unpenalized.filter(Boolean).length;
+  let reach = strengths.length;
+  for (let k = 0; k < run.nonzero.length; k++) {
+    if (run.nonzero[k] - fixedIn > settings.expectedTerms) {
+      reach = k + 1;
+      break;
+    }
+  }
+  const eligibleRows: number[] = [];
+  for (let i = 0; i < x.rows; i++) if (!weights || weights[i] > 0) eligibleRows.push(i);
+  const problemOptions = { intercept: data.intercept, standardize: data.standardize, columnUnits: Float64Array.from(data.xExponent, (e) => powerOfTwo(e)) };
+  const { shiftX, shiftY } = fullShift(data);
+  const twoClass = data.outcome === "two-class";
+  const fitHalf = (rows: Int32Array): HalfPath => {
+    let converged = true;
+    if (twoClass) {
+      const problem = problemFromRows(x, y, weights, rows, problemOptions, signal);
+      const { solver, start } = startTwoClass(data, problem, outcomesOf(data, rows), penaltyFor(problem, data, mix), false, []);
+      converged = start.converged;
+      return {
+        at: (k) => {
+          if (!solver.solve(strengths[k], k === 0 ? strengths[0] : strengths[k - 1]).converged) converged = false;
+          return solver.coef;
+        },
+        converged: () => converged,
+      };
+    }
+    const problem = data.gram
+      ? problemFromSums(blockSums(x, y, weights, rows, shiftX, shiftY, signal), shiftX, shiftY, problemOptions)
+      : problemFromRows(x, y, weights, rows, problemOptions, signal);
+    const solver = new CoordinateDescent(problem, penaltyFor(problem, data, mix), data.settings);
+    converged = solver.fitUnpenalized().converged;
+    return {
+      at: (k) => {
+        if (!solver.solve(strengths[k], k === 0 ? strengths[0] : strengths[k - 1]).converged) converged = false;
+        return solver.coef;
+      },
+      converged: () => converged,
+    };
+  };
+  return {
+    settings,
+    mix,
+    strengths,
+    candidate,
+    unpenalized,
+    eligible: Int32Array.from(eligibleRows),
+    strata: twoClass ? data.y : null,
+    fitHalf,
+    signal,
+    onHalf,
+    firstDepth: Math.max(8, 2 * reach),
   };
 }

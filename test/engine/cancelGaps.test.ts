@@ -56,6 +56,7 @@ describe("the cancel signal is read at least every 0.25 s", () => {
     "200 × 2000, two-class",
     "300 × 2000, lasso, repeats 5, honest error",
     "20000 × 100, lasso, repeats 3, honest error",
+    "300 × 2000, lasso, stability selection",
   ])("%s", (name) => {
     const report = reports.find((r) => r.name === name) as GapReport;
     expect(report).toBeDefined();
@@ -65,7 +66,7 @@ describe("the cancel signal is read at least every 0.25 s", () => {
     if (report.cancelled) expect(report.latency).toBeLessThanOrEqual(MAX_GAP_SECONDS);
   });
 
-  test.each(["300 × 2000, default settings", "20000 × 100, two-class", "200 × 2000, two-class"])("%s really is long: it is cancelled, not finished, within the budget", (name) => {
+  test.each(["300 × 2000, default settings", "20000 × 100, two-class", "200 × 2000, two-class", "300 × 2000, lasso, stability selection"])("%s really is long: it is cancelled, not finished, within the budget", (name) => {
     expect(reports.find((r) => r.name === name)?.cancelled).toBe(true);
   });
 

@@ -88,6 +88,8 @@ export const CASES: GapCase[] = [
   // the budget reaches them.
   { name: "300 × 2000, lasso, repeats 5, honest error", rows: 300, columns: 2000, options: { mixes: [1], repeats: 5, honestError: true } },
   { name: "20000 × 100, lasso, repeats 3, honest error", rows: 20000, columns: 100, options: { mixes: [1], repeats: 3, honestError: true } },
+  // The lasso's cross-validation takes about 0.5 s here, so the budget runs out among the half-sample fits.
+  { name: "300 × 2000, lasso, stability selection", rows: 300, columns: 2000, options: { mixes: [1], folds: 3, stability: {} } },
 ];
 
 if (require.main === module) {
