@@ -28,7 +28,6 @@ jest.mock("echarts/renderers", () => ({ SVGRenderer: () => undefined, CanvasRend
 
 import { Matrix } from "ml-matrix";
 import { predictionIntervals } from "../../../engine/conformal";
-import { defaultExpectedTerms, falseSelectionBound, type StabilityResult } from "../../../engine/assurance";
 import { fromRows } from "../../../engine/matrix";
 import type { FitResult } from "../../../engine/fit";
 import { prepare } from "../../../functions/api";
@@ -63,6 +62,8 @@ let numberData: Dataset;
 let twoClassFit: FitResult;
 let fixedFit: FitResult;
 let points: HeldOutPoints;
+/** The demo fit with stability selection (5 pairs of half-samples, π 0.75 by default). */
+let stableFit: FitResult;
 
 beforeAll(async () => {
   const runner = new InProcessRunner();
@@ -70,6 +71,9 @@ beforeAll(async () => {
   const prepared = prepare(demo.target, demo.predictors, null, "folds=5; seed=3; grid size=40");
   numberData = prepared.dataset;
   numberFit = await runner.fit(prepared.request);
+  // The default grid (101 strengths): a 40-strength grid jumps past q = 3 selected terms after its first strengths.
+  const gridded = prepare(demo.target, demo.predictors, null, "folds=5");
+  stableFit = await runner.fit({ ...gridded.request, options: { ...gridded.request.options, stability: { draws: 5 } } });
   const fixed = prepare(demo.target, demo.predictors, "0.5", "strength=0.05");
   fixedFit = await runner.fit(fixed.request);
   const quality = grids(qualityColumns, qualityRows);
@@ -78,30 +82,6 @@ beforeAll(async () => {
   points = heldOutPoints(numberFit, numberData.target, numberData.predictors, 0.9) as HeldOutPoints;
 });
 
-/**
- * A stability result for option-builder tests, derived from the fit's own kept shares (its
- * numbers are inputs here, not expected values): share = kept share, stable = share ≥ π, and the
- * bound from engine/assurance.ts.
- */
-function withStability(result: FitResult, threshold = 0.75): FitResult {
-  const kept = result.keptShare ?? [];
-  const candidates = kept.length;
-  const q = defaultExpectedTerms(candidates);
-  const stability: StabilityResult = {
-    mix: result.mix,
-    draws: 5,
-    expectedTerms: q,
-    threshold,
-    seed: 1,
-    candidates,
-    falseSelectionBound: falseSelectionBound(q, threshold, candidates),
-    strengths: [result.strength],
-    averageSelected: [q],
-    share: kept.map((k) => k.kept),
-    stable: kept.map((k) => k.kept >= threshold),
-  };
-  return { ...result, stability };
-}
 
 function seriesOf(option: AssuranceOption): AnyRecord[] {
   return (option.series ?? []) as AnyRecord[];
@@ -267,8 +247,11 @@ test("kept-share bars: one per term, largest kept share first, values from FitRe
 });
 
 test("with stability selection: a stable-share bar per term, π as a dashed line, a diamond per stable term with its own legend entry, the bound in the note", () => {
-  const result = withStability(numberFit);
+  const result = stableFit;
   const s = result.stability!;
+  expect(s.draws).toBe(5);
+  // The demo's strongest terms (true coefficients far from 0, addin/demo) are selected in most halves.
+  expect(s.stable.filter(Boolean).length).toBeGreaterThan(0);
   const option = keptShareOptions({ result, heldOut: null }, { theme: "dark", width: 420 });
   const entries = keptEntries(result);
   expect(byId(option, "stable-share")!.data).toEqual(entries.map((e) => e.stableShare));
@@ -300,7 +283,7 @@ test("compact layout below COMPACT_WIDTH: smaller text; heights grow with the te
   const narrow = keptShareOptions({ result: numberFit, heldOut: null }, { theme: "light", width: COMPACT_WIDTH - 40 });
   const wide = keptShareOptions({ result: numberFit, heldOut: null }, { theme: "light", width: COMPACT_WIDTH + 40 });
   expect(((narrow.textStyle as AnyRecord).fontSize as number) < ((wide.textStyle as AnyRecord).fontSize as number)).toBe(true);
-  const view = { result: withStability(numberFit), heldOut: points };
+  const view = { result: stableFit, heldOut: points };
   expect(assuranceHeight("kept", view, 360)).toBeGreaterThan(assuranceHeight("kept", { result: numberFit, heldOut: points }, 360));
   expect(assuranceHeight("heldOut", view, 440)).toBeGreaterThan(assuranceHeight("heldOut", view, 320));
 });
@@ -310,7 +293,7 @@ test("both charts render to SVG without a DOM, in both themes", () => {
     const held = renderAssuranceSvg("heldOut", { result: numberFit, heldOut: points }, { theme, width: 380 });
     expect(held.startsWith("<svg")).toBe(true);
     expect(held).toContain("Held-out predictions vs actual");
-    const kept = renderAssuranceSvg("kept", { result: withStability(numberFit), heldOut: null }, { theme, width: 380 });
+    const kept = renderAssuranceSvg("kept", { result: stableFit, heldOut: null }, { theme, width: 380 });
     expect(kept).toContain("Kept share of each term");
     expect(kept).toContain(PALETTES[theme].background);
   }

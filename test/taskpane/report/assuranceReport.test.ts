@@ -8,7 +8,6 @@
  * bound q²/((2π − 1)·p)), "common practice" (nearest-rank percentile).
  */
 import { predictionIntervals } from "../../../engine/conformal";
-import { defaultExpectedTerms, falseSelectionBound, type StabilityResult } from "../../../engine/assurance";
 import { fromRows } from "../../../engine/matrix";
 import type { FitResult } from "../../../engine/fit";
 import { prepare } from "../../../functions/api";
@@ -33,6 +32,8 @@ let twoClass: FitResult;
 let twoClassData: Dataset;
 /** The same demo fit with two deals of the folds and the honest error (engine options set directly). */
 let sure: FitResult;
+/** The demo fit with stability selection (5 pairs of half-samples, π 0.8). */
+let stableFit: FitResult;
 
 beforeAll(async () => {
   const runner = new InProcessRunner();
@@ -41,6 +42,9 @@ beforeAll(async () => {
   dataset = prepared.dataset;
   result = await runner.fit(prepared.request);
   sure = await runner.fit({ ...prepared.request, options: { ...prepared.request.options, repeats: 2, honestError: true } });
+  // The default grid (101 strengths): a 40-strength grid jumps past q = 3 selected terms after its first strengths.
+  const gridded = prepare(demo.target, demo.predictors, null, "folds=5");
+  stableFit = await runner.fit({ ...gridded.request, options: { ...gridded.request.options, stability: { draws: 5, threshold: 0.8 } } });
   const quality = grids(qualityColumns, qualityRows);
   const two = prepare(quality.target, quality.predictors, "1", "folds=5; grid size=30");
   twoClassData = two.dataset;
@@ -61,28 +65,6 @@ function value(rows: CellValue[][], label: string): CellValue {
   return row[1];
 }
 
-/**
- * A stability result for the sections' layout, derived from the fit's own kept shares (its
- * numbers are inputs here, not expected values): share = kept share, stable = share ≥ π.
- */
-function withStability(fit: FitResult): FitResult {
-  const kept = fit.keptShare ?? [];
-  const q = defaultExpectedTerms(kept.length);
-  const stability: StabilityResult = {
-    mix: fit.mix,
-    draws: 5,
-    expectedTerms: q,
-    threshold: 0.8,
-    seed: 1,
-    candidates: kept.length,
-    falseSelectionBound: falseSelectionBound(q, 0.8, kept.length),
-    strengths: [fit.strength],
-    averageSelected: [q],
-    share: kept.map((k) => k.kept),
-    stable: kept.map((k) => k.kept >= 0.8),
-  };
-  return { ...fit, stability: fit.stability ?? stability };
-}
 
 test("intervals: the level, and the median and 90th-percentile half-widths over the training rows agree with engine/conformal.ts called directly", () => {
   const sheet = report(result, dataset, 0.9);
@@ -137,7 +119,7 @@ test("kept shares: one row per term, largest first, the engine's shares; with st
     const share = result.keptShare!.find((s) => s.term === row[0])!;
     expect(row.slice(1)).toEqual([share.kept, share.sameSign]);
   }
-  const fit = withStability(result);
+  const fit = stableFit;
   const s = fit.stability!;
   const rows = keptRows(fit)!;
   expect(rows[0]).toEqual(["term", "kept in folds", "same sign", "stable share", "stable"]);
@@ -155,7 +137,7 @@ test("kept shares: one row per term, largest first, the engine's shares; with st
 });
 
 test("the new blocks don't overlap any other block", () => {
-  const sheet = buildReport({ result: withStability(sure), dataset, settings: [], ranges: [], timestamp: "t", interval: 0.9 });
+  const sheet = buildReport({ result: { ...sure, stability: stableFit.stability }, dataset, settings: [], ranges: [], timestamp: "t", interval: 0.9 });
   const areas = sheet.blocks.map(blockArea);
   for (let a = 0; a < areas.length; a++) {
     for (let b = a + 1; b < areas.length; b++) {
