@@ -283,14 +283,14 @@ export function boundSentence(result: FitResult): string | null {
   );
 }
 
-/** The note under the kept-share chart's title. */
+/** The note under the kept-share chart's title: short lines (the pane is narrow). */
 export function keptNote(result: FitResult, shown: number, all: number): string {
   const folds = result.foldModels?.length ?? result.cv?.folds ?? 0;
-  const notes = [`Kept in folds: share of the ${folds > 0 ? `${folds} ` : ""}fold models that keep the term (at the chosen mix and λ).`];
-  const bound = boundSentence(result);
-  if (bound && result.stability) {
-    notes.push(`Stable share: stability selection at ${result.stability.mix === 0 ? "ridge" : `α ${formatNumber(result.stability.mix)}`}; ◆ stable (share ≥ π ${formatNumber(result.stability.threshold)}).`);
-    notes.push(`${bound}.`);
+  const notes = [`Kept in folds: share of the ${folds > 0 ? `${folds} ` : ""}fold models keeping the term.`];
+  const s = result.stability;
+  if (s) {
+    notes.push(`Stable share: stability selection at ${s.mix === 0 ? "ridge" : `α ${formatNumber(s.mix)}`}, ${s.draws} pairs of half-samples.`);
+    notes.push(`◆ stable: share ≥ π ${formatNumber(s.threshold)}. Expected false selections ≤ ${formatNumber(s.falseSelectionBound)} (q ${s.expectedTerms}, ${s.candidates} terms).`);
   }
   if (all > shown) notes.push(`${all - shown} terms with the smallest shares not drawn.`);
   return notes.join("\n");
@@ -345,7 +345,8 @@ export function keptShareOptions(view: AssuranceView, settings: AssuranceSetting
             xAxis: stability.threshold,
             name: "π",
             lineStyle: { color: palette.text, type: "dashed", width: 1 },
-            label: { show: true, formatter: `π ${formatNumber(stability.threshold)}`, position: "end", color: palette.text, fontSize: layout.font - 1 },
+            // At the top of the line (above the plot), clear of the axis's tick labels.
+            label: { show: true, formatter: `π ${formatNumber(stability.threshold)}`, position: "start", distance: 4, color: palette.text, fontSize: layout.font - 1 },
           },
         ],
       },
