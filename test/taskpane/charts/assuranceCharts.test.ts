@@ -45,7 +45,7 @@ import {
   sharedExtent,
   type AssuranceOption,
 } from "../../../taskpane/charts/assuranceCharts";
-import { COMPACT_WIDTH, PALETTES } from "../../../taskpane/charts/charts";
+import { COMPACT_WIDTH, formatNumber, PALETTES } from "../../../taskpane/charts/charts";
 
 type AnyRecord = Record<string, unknown>;
 
@@ -264,7 +264,7 @@ test("with stability selection: a stable-share bar per term, π as a dashed line
   expect(legend.show).toBe(true);
   expect((legend.data as AnyRecord[]).find((d) => d.name === "stable (share ≥ π)")!.icon).toBe("diamond");
   const note = String((option.title as AnyRecord).subtext);
-  expect(note).toContain("at most");
+  expect(note).toContain(`Expected false selections ≤ ${formatNumber(s.falseSelectionBound)}`);
   // q²/((2π − 1)·p): Meinshausen & Bühlmann 2010, Theorem 1.
   const bound = (s.expectedTerms * s.expectedTerms) / ((2 * s.threshold - 1) * s.candidates);
   expect(Math.abs(s.falseSelectionBound - bound)).toBeLessThan(1e-12);
