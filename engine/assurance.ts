@@ -52,8 +52,14 @@ export interface StabilityResult {
   averageSelected: number[];
   /** Per term, in the order of FitResult.terms: the highest selection share over the counted strengths. */
   share: number[];
-  /** Per term: share ≥ π. */
+  /** Per term: share ≥ π (and a candidate). */
   stable: boolean[];
+  /**
+   * Per term: whether it could be selected (counted in `candidates`). False for constant terms
+   * and terms held at 0 by bounds (share 0) and for unpenalized terms, which are in every model by
+   * choice (share 1, stable false: stability selection makes no claim about them).
+   */
+  candidate?: boolean[];
 }
 
 /** One outer fold of the nested cross-validation. */

@@ -70,7 +70,8 @@ export type WarningCode =
   | "fold-constant"
   | "out-of-range"
   | "step-halved"
-  | "separated";
+  | "separated"
+  | "stability";
 
 export interface FitWarning {
   code: WarningCode;

@@ -45,7 +45,10 @@ import { LogisticDescent, LogisticReport, LogisticRun, LogisticSettings, logisti
 import type { OutcomeKind } from "./outcome";
 import type { FoldModel } from "./conformal";
 import { KeptShare, keptShares } from "./keptShare";
-import type { HonestError, StabilityOptions, StabilityResult } from "./assurance";
+import { checkRepeats, type HonestError, type StabilityOptions, type StabilityResult } from "./assurance";
+import { averageOfDeals, SignTally } from "./repeats";
+import { HONEST_SEED_OFFSET, HonestPlan, nestedCrossValidation } from "./honest";
+import { HalfPath, StabilityInput, stabilitySelection, stabilitySettings, stabilityUnits } from "./stability";
 import {
   DEFAULT_GRID_DENSITY,
   EarlyStop,
@@ -177,12 +180,19 @@ export interface FitOptions {
   /**
    * Deal the random folds this many times (seeds seed, seed+1, …; 1 to 50, default 1) and score
    * every mix and strength on all repeats × folds held-out folds; the choice is made on the
-   * averaged curve. Random folds only (labels and time order give one deal).
+   * averaged curve. Random folds only (labels and time order give one deal: an InputError).
+   * The curve's error at each strength is the fold-weighted mean over all repeats × folds; its SE
+   * is the average over the repeats of each repeat's own K-fold SE, not the SD over all
+   * repeats × folds / √(repeats × folds): the repeats reuse the same rows, so their folds are not
+   * independent and that would understate the SE (and tilt the one-SE rule) more as repeats grow
+   * (repeats.ts). Fold models and held-out residuals (CV+ intervals) come from the first deal;
+   * kept shares count over all repeats × folds fold models. Costs about `repeats` times the fold fits.
    */
   repeats?: number;
   /**
    * Also estimate the error of the whole procedure (every mix, strength and the rule) by nested
-   * cross-validation: FitResult.honest. Costs about `folds` more whole fits. Default false.
+   * cross-validation: FitResult.honest (honest.ts). Costs about `folds` more whole fits. Default false.
+   * Needs cross-validation (an InputError with a fixed strength).
    */
   honestError?: boolean;
   /** Run stability selection at the chosen mix (FitResult.stability). Default: not run. */
@@ -726,6 +736,73 @@ function buildProblems(data: Prepared, plan: FoldPlan | null): Problems {
   return { full, folds, heldOutSums: plan.validateBlock.map((b) => sums[b]), shiftX, shiftY };
 }
 
+/**
+ * One deal of the folds (repeated cross-validation deals the random folds once per seed): its
+ * plan, the fold problems built from it, each fold's held-out weight, and its held-out rows and
+ * (two-class) training outcomes, gathered once when first asked for.
+ */
+interface Deal {
+  plan: FoldPlan;
+  problems: Problems;
+  foldWeights: number[];
+  heldOut: (fold: number) => HeldOut;
+  trainingOutcomes: (fold: number) => Float64Array;
+}
+
+function makeDeal(data: Prepared, plan: FoldPlan, problems: Problems): Deal {
+  const K = plan.trainBlocks.length;
+  const heldOutCache: (HeldOut | null)[] = new Array(K).fill(null);
+  const outcomeCache: (Float64Array | null)[] = new Array(K).fill(null);
+  return {
+    plan,
+    problems,
+    foldWeights: plan.validateBlock.map((b) => {
+      let s = 0;
+      for (const i of plan.blocks[b]) s += data.weights ? data.weights[i] : 1;
+      return s;
+    }),
+    heldOut: (f) => (heldOutCache[f] ??= gatherHeldOut(data, plan.blocks[plan.validateBlock[f]])),
+    trainingOutcomes: (f) => (outcomeCache[f] ??= outcomesOf(data, rowsOfBlocks(plan, plan.trainBlocks[f]))),
+  };
+}
+
+/**
+ * Largest number of doubles the extra deals' fold problems and held-out rows may hold together
+ * (2^24, 128 MB): within it every deal is built once and kept for all mixes; beyond it (many
+ * repeats of wide row-form problems, or of large gram matrices) a deal is rebuilt for each mix,
+ * which costs one pass over the data per mix and deal instead of r copies of the folds in memory.
+ */
+const DEAL_MEMORY = 1 << 24;
+
+/**
+ * The deals of repeated cross-validation: deal d uses seed + d (deal 0 is `first`, with the fold
+ * problems already built). Returns the deal for an index, built (and kept within DEAL_MEMORY)
+ * when first asked for.
+ */
+function dealSource(data: Prepared, options: FitOptions, first: FoldPlan, firstProblems: Problems, repeats: number): (d: number) => Deal {
+  const seed = options.seed ?? 1;
+  if (repeats > 1 && Math.abs(seed + repeats - 1) > 4294967295) {
+    throw new InputError("setting", `repeats deal the folds with seeds ${seed} to ${seed + repeats - 1}, beyond the largest seed 4294967295: use a smaller seed`);
+  }
+  const plans = [first];
+  for (let d = 1; d < repeats; d++) plans.push(makePlan(data, { ...options, seed: seed + d }));
+  const n = data.x.rows;
+  const p = data.x.columns;
+  const K = first.trainBlocks.length;
+  const perDeal = data.gram ? (K + 1) * p * p + n * p : (K + 1) * n * p;
+  const keepAll = data.mixes.length === 1 || (repeats - 1) * perDeal <= DEAL_MEMORY;
+  const kept: (Deal | null)[] = new Array(repeats).fill(null);
+  kept[0] = makeDeal(data, first, firstProblems);
+  return (d) => {
+    const have = kept[d];
+    if (have) return have;
+    throwIfCancelled(data.settings.signal);
+    const deal = makeDeal(data, plans[d], buildProblems(data, plans[d]));
+    if (keepAll) kept[d] = deal;
+    return deal;
+  };
+}
+
 /** Held-out data of one fold, gathered once when errors are computed row by row. */
 interface HeldOut {
   x: ColumnMatrix;
@@ -943,6 +1020,9 @@ export function* fitSteps(
     throw new InputError("setting", `the outcome must be number or two-class; got ${String(outcome)}`);
   }
   checkMeasure(options.measure, outcome);
+  const repeats = checkRepeats(options.repeats);
+  const honestError = options.honestError ?? false;
+  if (typeof honestError !== "boolean") throw new InputError("setting", `honest error must be yes or no; got ${String(honestError)}`);
   const data = prepare(predictors, target, options);
   const warnings: FitWarning[] = [];
   const fixed = options.strength ?? null;
@@ -953,8 +1033,24 @@ export function* fitSteps(
     if (data.mixes.length !== 1) {
       throw new InputError("mix", `a fixed strength is fitted at one mix, but ${data.mixes.length} mixes were given: give a single mix`);
     }
+    // Both options assess or repeat a choice; a fixed strength makes none (no cross-validation).
+    if (honestError) {
+      throw new InputError(
+        "setting",
+        "honest error assesses the whole procedure that chooses the strength (and mix) by cross-validation, and a fixed strength chooses nothing: leave the strength blank to cross-validate, or turn honest error off",
+      );
+    }
+    if (repeats > 1) {
+      throw new InputError("setting", `repeats deal the cross-validation folds again, and a fixed strength is fitted without cross-validation: leave the strength blank, or set repeats to 1 (got ${repeats})`);
+    }
   }
   const plan = fixed === null ? makePlan(data, options) : null;
+  if (plan && repeats > 1 && plan.scheme !== "random") {
+    throw new InputError(
+      "setting",
+      `repeats need random folds: ${plan.scheme === "labels" ? "fold labels give" : "time-ordered folds give"} one split of the rows only, so dealing it ${repeats} times would repeat the same folds; set repeats to 1, or use random folds`,
+    );
+  }
   throwIfCancelled(data.settings.signal);
   const problems = buildProblems(data, plan);
   const full = problems.full;
@@ -968,6 +1064,13 @@ export function* fitSteps(
       code: "constant-column",
       message: `${constantColumns.join(", ")} ${constantColumns.length === 1 ? "is" : "are"} constant and left out (coefficient 0)`,
     });
+  }
+  // Stability selection (stability.ts): its settings are checked before any fitting.
+  if (options.stability) {
+    if (fixed !== null) {
+      throw new InputError("setting", "stability selection needs the path of the mix that cross-validation chooses, and a fixed strength skips cross-validation: remove the fixed strength, or leave stability selection off");
+    }
+    stabilityTerms(data, full, options);
   }
   if (fixed !== null) {
     if (data.outcome === "two-class") return fixedTwoClass(data, full, fixed, constantColumns, warnings);
@@ -987,17 +1090,15 @@ export function* fitSteps(
   const rule = typeof options.rule === "string" ? parseRule(options.rule) : options.rule == null ? "lowest" : null;
   if (rule === null) throw new InputError("setting", `the rule must be lowest or one-se; got ${String(options.rule)}`);
   if (data.outcome === "two-class") {
-    return yield* twoClassSteps(data, problems, activePlan, measure, rule, options, constantColumns, warnings);
+    return yield* twoClassSteps(data, problems, activePlan, measure, rule, options, constantColumns, warnings, repeats, honestError);
   }
   const K = activePlan.trainBlocks.length;
-  const totalUnits = data.mixes.length * (K + 1);
+  const honest = honestError ? honestSetup(data, options, activePlan, repeats) : null;
+  const cvUnits = data.mixes.length * (repeats * K + 1);
+  // Stability selection's units (2 per pair) come last: after cross-validation and the honest error.
+  const totalUnits = cvUnits + (honest?.units ?? 0) + stabilityUnits(options.stability);
   let done = 0;
-  const heldOutCache: (HeldOut | null)[] = new Array(K).fill(null);
-  const foldWeights = activePlan.validateBlock.map((b) => {
-    let s = 0;
-    for (const i of activePlan.blocks[b]) s += data.weights ? data.weights[i] : 1;
-    return s;
-  });
+  const deals = dealSource(data, options, activePlan, problems, repeats);
   const pathSettings = { ...data.settings, stopWhenExact: true, stopWhenFlat: data.stopEarly };
   const outcomes: MixOutcome[] = [];
   let allKkt = 0;
@@ -1005,8 +1106,11 @@ export function* fitSteps(
   let sweeps = 0;
   // The fold paths of the mix holding the lowest error so far (the chosen mix at the end, as the
   // choice below takes the first mix reaching the lowest error): CV+ intervals need each fold's
-  // model at the chosen point. At most two mixes' fold paths are held at once.
+  // model at the chosen point. At most two mixes' fold paths are held at once. With repeats, these
+  // are the first deal's (CV+ needs one partition of the rows); the kept shares count signs over
+  // every deal's folds (SignTally, repeats.ts), a few counts per strength and term.
   let chosenFolds: FoldPoints[] = [];
+  let chosenTally: SignTally | null = null;
   let lowestSoFar = Infinity;
   for (const mix of data.mixes) {
     const foldPoints: FoldPoints[] = [];
@@ -1022,54 +1126,72 @@ export function* fitSteps(
     options.onProgress?.(++done, totalUnits);
     yield;
     const errors: Float64Array[] = [];
-    for (let f = 0; f < K; f++) {
-      throwIfCancelled(data.settings.signal);
-      const problem = problems.folds[f];
-      const foldPenalty = penaltyFor(problem, data, mix);
-      const heldOut = (): HeldOut => (heldOutCache[f] ??= gatherHeldOut(data, activePlan.blocks[activePlan.validateBlock[f]]));
-      if (problem.kind === "naive" && data.settings.exactRidge && spectralApplies(problem, foldPenalty)) {
-        // Exact ridge in kernel form: score held-out rows straight from the factorization.
-        const spectral = new SpectralRidge(problem, foldPenalty.multipliers, data.settings.signal);
-        errors.push(spectralFoldErrors(problem, spectral, run.strengths, heldOut(), measure, data.settings.signal));
-        const strengths = run.strengths;
-        foldPoints.push({
-          problem,
-          at: (index) => {
-            const out = new Float64Array(problem.p);
-            spectral.coefficientsAt(strengths[index], out);
-            return out;
-          },
-        });
-      } else {
-        // Every fold solves exactly the strengths the full-data path computed (a fold's path
-        // never ends on its own), so each strength's error averages all K folds.
-        const foldRun = runPath(problem, foldPenalty, run.strengths, { ...pathSettings, stopWhenExact: false, stopWhenFlat: false });
-        sweeps += foldRun.sweeps;
-        allKkt = Math.max(allKkt, foldRun.maxKktViolation);
-        if (foldRun.notConverged.length > 0) allConverged = false;
-        foldPoints.push({ problem, at: (index) => foldRun.coefficients[index] });
-        errors.push(
-          foldErrors(
-            data,
+    const weightsOfFolds: number[] = [];
+    const dealSes: Float64Array[] = [];
+    const tally = repeats > 1 ? new SignTally(run.strengths.length, full.p) : null;
+    for (let d = 0; d < repeats; d++) {
+      const deal = deals(d);
+      const dealErrors: Float64Array[] = [];
+      for (let f = 0; f < K; f++) {
+        throwIfCancelled(data.settings.signal);
+        const problem = deal.problems.folds[f];
+        const foldPenalty = penaltyFor(problem, data, mix);
+        const heldOut = (): HeldOut => deal.heldOut(f);
+        let points: FoldPoints;
+        if (problem.kind === "naive" && data.settings.exactRidge && spectralApplies(problem, foldPenalty)) {
+          // Exact ridge in kernel form: score held-out rows straight from the factorization.
+          const spectral = new SpectralRidge(problem, foldPenalty.multipliers, data.settings.signal);
+          dealErrors.push(spectralFoldErrors(problem, spectral, run.strengths, heldOut(), measure, data.settings.signal));
+          const strengths = run.strengths;
+          points = {
             problem,
-            foldRun,
-            measure,
-            problems.heldOutSums ? problems.heldOutSums[f] : null,
-            heldOut,
-            problems.shiftX,
-            problems.shiftY,
-          ),
-        );
+            at: (index) => {
+              const out = new Float64Array(problem.p);
+              spectral.coefficientsAt(strengths[index], out);
+              return out;
+            },
+          };
+        } else {
+          // Every fold solves exactly the strengths the full-data path computed (a fold's path
+          // never ends on its own), so each strength's error averages all K folds.
+          const foldRun = runPath(problem, foldPenalty, run.strengths, { ...pathSettings, stopWhenExact: false, stopWhenFlat: false });
+          sweeps += foldRun.sweeps;
+          allKkt = Math.max(allKkt, foldRun.maxKktViolation);
+          if (foldRun.notConverged.length > 0) allConverged = false;
+          points = { problem, at: (index) => foldRun.coefficients[index] };
+          dealErrors.push(
+            foldErrors(
+              data,
+              problem,
+              foldRun,
+              measure,
+              deal.problems.heldOutSums ? deal.problems.heldOutSums[f] : null,
+              heldOut,
+              deal.problems.shiftX,
+              deal.problems.shiftY,
+            ),
+          );
+        }
+        if (d === 0) foldPoints.push(points);
+        tally?.add(problem.std.frozen, points.at, data.settings.signal);
+        options.onProgress?.(++done, totalUnits);
+        yield;
       }
-      options.onProgress?.(++done, totalUnits);
-      yield;
+      errors.push(...dealErrors);
+      weightsOfFolds.push(...deal.foldWeights);
+      if (repeats > 1) dealSes.push(summarise(dealErrors, deal.foldWeights, run.strengths.length).se);
     }
-    const { mean, se } = summarise(errors, foldWeights, run.strengths.length);
+    // Repeated CV: the mean pools all repeats × K held-out folds (fold-weighted); the SE is the
+    // average of each deal's own SE (see FitOptions.repeats and averageOfDeals in repeats.ts).
+    const summary = summarise(errors, weightsOfFolds, run.strengths.length);
+    const mean = summary.mean;
+    const se = repeats > 1 ? averageOfDeals(dealSes) : summary.se;
     outcomes.push({ mix, top, run, mean, se });
     let lowest = Infinity;
     for (let k = 0; k < mean.length; k++) lowest = Math.min(lowest, mean[k]);
     if (chosenFolds.length === 0 || lowest < lowestSoFar) {
       chosenFolds = foldPoints;
+      chosenTally = tally;
       lowestSoFar = lowest;
     }
   }
@@ -1138,7 +1260,7 @@ export function* fitSteps(
     scheme: activePlan.scheme,
     folds: K,
     seed: activePlan.scheme === "random" ? (options.seed ?? 1) : null,
-    repeats: 1,
+    repeats,
     table,
   };
   result.diagnostics.sweeps = sweeps;
@@ -1147,11 +1269,18 @@ export function* fitSteps(
   const kept = heldOutModels(data, activePlan, chosenFolds, chosen.index);
   result.foldModels = kept.foldModels;
   result.heldOut = kept.heldOut;
-  result.keptShare = keptShares(
-    result.terms,
-    result.coefficients,
-    kept.foldModels.map((model) => model.coefficients),
-  );
+  result.keptShare = chosenTally
+    ? chosenTally.keptShares(result.terms, result.coefficients, chosen.index)
+    : keptShares(
+        result.terms,
+        result.coefficients,
+        kept.foldModels.map((model) => model.coefficients),
+      );
+  if (honest) result.honest = yield* honestRun(data, options, honest, result, (units) => options.onProgress?.(cvUnits + units, totalUnits));
+  if (options.stability) {
+    let halvesDone = cvUnits + (honest?.units ?? 0);
+    result.stability = yield* stabilitySelection(stabilityInput(data, full, options, best.mix, best.run, () => options.onProgress?.(++halvesDone, totalUnits)), warnings);
+  }
   return result;
 }
 
@@ -1351,6 +1480,52 @@ function makePlan(data: Prepared, options: FitOptions): FoldPlan {
   const plan = planFolds(data.x.rows, data.weights, { scheme, folds, seed, labels, strata });
   if (data.outcome === "two-class") checkFoldClasses(data, plan);
   return plan;
+}
+
+/**
+ * The outer split of the honest error (honest.ts) and the work of each inner fit. Random folds:
+ * a fresh deal with seed + HONEST_SEED_OFFSET (seed − the offset when that would pass the largest
+ * seed), K = the folds setting, stratified by class for two-class outcomes; fold labels: the
+ * labels themselves (each inner fit then cross-validates over the remaining labels); time order:
+ * the same time blocks (each inner fit is time-ordered on the earlier rows, with the folds setting).
+ */
+function honestSetup(data: Prepared, options: FitOptions, plan: FoldPlan, repeats: number): HonestPlan {
+  const seed = options.seed ?? 1;
+  const outer =
+    plan.scheme === "random"
+      ? makePlan(data, { ...options, seed: seed + HONEST_SEED_OFFSET <= 4294967295 ? seed + HONEST_SEED_OFFSET : seed - HONEST_SEED_OFFSET })
+      : plan;
+  const labels = options.foldLabels ?? null;
+  const innerUnits = outer.trainBlocks.map((blocks) => {
+    let innerFolds = plan.trainBlocks.length;
+    if (plan.scheme === "labels" && labels) {
+      const seen = new Set<string>();
+      for (const i of rowsOfBlocks(outer, blocks)) seen.add(String(labels[i]));
+      innerFolds = seen.size;
+    }
+    return data.mixes.length * (repeats * innerFolds + 1);
+  });
+  let units = 0;
+  for (const u of innerUnits) units += u;
+  return { plan: outer, innerUnits, units };
+}
+
+/** The honest error of `result`'s procedure (honest.ts), reporting its units through `progress`. */
+function honestRun(data: Prepared, options: FitOptions, honest: HonestPlan, result: FitResult, progress: (units: number) => void): Generator<void, HonestError, void> {
+  const choices = result.choices as { lowest: ChoicePoint; oneSe: ChoicePoint };
+  return nestedCrossValidation({
+    x: data.original.x,
+    y: data.original.y,
+    weights: data.original.weights,
+    measure: (result.cv as { measure: ErrorMeasure }).measure,
+    cutoff: data.cutoff,
+    options: { ...options, names: data.names },
+    honest,
+    optimistic: result.rule === "one-se" ? choices.oneSe.error : choices.lowest.error,
+    warnings: result.warnings,
+    progress,
+    fitSteps,
+  });
 }
 
 /**
@@ -1706,36 +1881,45 @@ function* twoClassSteps(
   options: FitOptions,
   constantColumns: string[],
   warnings: FitWarning[],
+  repeats: number,
+  honestError: boolean,
 ): Generator<void, FitResult, void> {
   const full = problems.full;
   const signal = data.settings.signal;
   const K = plan.trainBlocks.length;
-  const totalUnits = data.mixes.length * (K + 1);
+  const honest = honestError ? honestSetup(data, options, plan, repeats) : null;
+  const cvUnits = data.mixes.length * (repeats * K + 1);
+  // Stability selection's units (2 per pair) come last: after cross-validation and the honest error.
+  const totalUnits = cvUnits + (honest?.units ?? 0) + stabilityUnits(options.stability);
   let done = 0;
-  const heldOutCache: (HeldOut | null)[] = new Array(K).fill(null);
-  const heldOut = (f: number): HeldOut => (heldOutCache[f] ??= gatherHeldOut(data, plan.blocks[plan.validateBlock[f]]));
-  const foldWeights = plan.validateBlock.map((b) => {
-    let s = 0;
-    for (const i of plan.blocks[b]) s += data.weights ? data.weights[i] : 1;
-    return s;
-  });
-  const trainingOutcomes = plan.trainBlocks.map((blocks) => outcomesOf(data, rowsOfBlocks(plan, blocks)));
-  // The AUC needs both classes among a fold's held-out rows: average over the folds that have them.
-  let scored = Array.from({ length: K }, (_, f) => f);
-  if (measure === "auc") {
-    scored = scored.filter((f) => heldOutHasBothClasses(data, plan.blocks[plan.validateBlock[f]]));
-    if (scored.length < 2) {
-      throw new InputError(
-        "folds",
-        `the AUC compares events with non-events among each fold's held-out rows, and only ${scored.length} of the ${K} folds hold out rows of both classes (at least 2 are needed): use fewer folds, or the deviance or the share misclassified`,
-      );
+  const deals = dealSource(data, options, plan, problems, repeats);
+  // The AUC needs both classes among a fold's held-out rows: average over the folds that have them
+  // (per deal; the stratified random deals give every fold both classes whenever they can).
+  const scoredByDeal: number[][] = [];
+  let leftOut = 0;
+  for (let d = 0; d < repeats; d++) {
+    const dealPlan = d === 0 ? plan : deals(d).plan;
+    let scored = Array.from({ length: K }, (_, f) => f);
+    if (measure === "auc") {
+      scored = scored.filter((f) => heldOutHasBothClasses(data, dealPlan.blocks[dealPlan.validateBlock[f]]));
+      if (scored.length < 2) {
+        throw new InputError(
+          "folds",
+          `the AUC compares events with non-events among each fold's held-out rows, and only ${scored.length} of the ${K} folds${repeats > 1 ? ` of deal ${d + 1} (seed ${(options.seed ?? 1) + d})` : ""} hold out rows of both classes (at least 2 are needed): use fewer folds, or the deviance or the share misclassified`,
+        );
+      }
+      leftOut += K - scored.length;
     }
-    if (scored.length < K) {
-      warnings.push({
-        code: "fold-constant",
-        message: `${K - scored.length} of the ${K} folds hold out rows of one class only, which have no AUC: the cross-validated AUC and its standard error are over the other ${scored.length} folds`,
-      });
-    }
+    scoredByDeal.push(scored);
+  }
+  if (leftOut > 0) {
+    warnings.push({
+      code: "fold-constant",
+      message:
+        repeats === 1
+          ? `${leftOut} of the ${K} folds hold out rows of one class only, which have no AUC: the cross-validated AUC and its standard error are over the other ${K - leftOut} folds`
+          : `${leftOut} of the ${repeats * K} folds (${repeats} deals of ${K}) hold out rows of one class only, which have no AUC: the cross-validated AUC and its standard error are over the other ${repeats * K - leftOut} folds`,
+    });
   }
   const outcomes: TwoClassMixOutcome[] = [];
   let allKkt = 0;
@@ -1743,8 +1927,10 @@ function* twoClassSteps(
   let sweeps = 0;
   let halvings = 0;
   // Each fold's path of the mix with the best mean so far (as the number outcome keeps them), for
-  // the kept shares at the chosen point: the last of these mixes is the chosen one.
+  // the kept shares at the chosen point: the last of these mixes is the chosen one. With repeats,
+  // the signs over every deal's folds are counted instead (SignTally, repeats.ts).
   let chosenFoldPaths: Float64Array[][] | null = null;
+  let chosenTally: SignTally | null = null;
   let chosenFoldMix = NaN;
   let bestSoFar = NaN;
   for (const mix of data.mixes) {
@@ -1759,35 +1945,57 @@ function* twoClassSteps(
     if (run.notConverged.length > 0) allConverged = false;
     options.onProgress?.(++done, totalUnits);
     yield;
-    const errors: Float64Array[] = [];
+    const scoredErrors: Float64Array[] = [];
+    const scoredWeights: number[] = [];
+    const dealSes: Float64Array[] = [];
     const foldPaths: Float64Array[][] = [];
-    for (let f = 0; f < K; f++) {
-      throwIfCancelled(signal);
-      const problem = problems.folds[f];
-      const foldPenalty = penaltyFor(problem, data, mix);
-      const fold = startTwoClass(data, problem, trainingOutcomes[f], foldPenalty, false, warnings);
-      // Every fold solves exactly the strengths the full-data path computed.
-      const foldRun = runLogisticPath(fold.solver, fold.start, run.strengths, { stopWhenSaturated: false, stopWhenFlat: false, skipLoss: true, signal });
-      sweeps += foldRun.sweeps;
-      halvings += foldRun.stepHalvings;
-      allKkt = Math.max(allKkt, foldRun.maxKktViolation);
-      if (foldRun.notConverged.length > 0) allConverged = false;
-      errors.push(twoClassFoldErrors(data, problem, foldRun, measure, heldOut(f)));
-      foldPaths.push(foldRun.coefficients);
-      options.onProgress?.(++done, totalUnits);
-      yield;
+    const tally = repeats > 1 ? new SignTally(run.strengths.length, full.p) : null;
+    for (let d = 0; d < repeats; d++) {
+      const deal = deals(d);
+      const errors: Float64Array[] = [];
+      for (let f = 0; f < K; f++) {
+        throwIfCancelled(signal);
+        const problem = deal.problems.folds[f];
+        const foldPenalty = penaltyFor(problem, data, mix);
+        const fold = startTwoClass(data, problem, deal.trainingOutcomes(f), foldPenalty, false, warnings);
+        // Every fold solves exactly the strengths the full-data path computed.
+        const foldRun = runLogisticPath(fold.solver, fold.start, run.strengths, { stopWhenSaturated: false, stopWhenFlat: false, skipLoss: true, signal });
+        sweeps += foldRun.sweeps;
+        halvings += foldRun.stepHalvings;
+        allKkt = Math.max(allKkt, foldRun.maxKktViolation);
+        if (foldRun.notConverged.length > 0) allConverged = false;
+        errors.push(twoClassFoldErrors(data, problem, foldRun, measure, deal.heldOut(f)));
+        if (tally) tally.add(problem.std.frozen, (index) => foldRun.coefficients[index], signal);
+        else foldPaths.push(foldRun.coefficients);
+        options.onProgress?.(++done, totalUnits);
+        yield;
+      }
+      const scored = scoredByDeal[d];
+      for (const f of scored) {
+        scoredErrors.push(errors[f]);
+        scoredWeights.push(deal.foldWeights[f]);
+      }
+      if (repeats > 1) {
+        dealSes.push(
+          summarise(
+            scored.map((f) => errors[f]),
+            scored.map((f) => deal.foldWeights[f]),
+            run.strengths.length,
+          ).se,
+        );
+      }
     }
-    const { mean, se } = summarise(
-      scored.map((f) => errors[f]),
-      scored.map((f) => foldWeights[f]),
-      run.strengths.length,
-    );
+    // Repeated CV: pooled fold-weighted mean, SE averaged over the deals (repeats.ts).
+    const summary = summarise(scoredErrors, scoredWeights, run.strengths.length);
+    const mean = summary.mean;
+    const se = repeats > 1 ? averageOfDeals(dealSes) : summary.se;
     outcomes.push({ mix, top, run, mean, se });
     // The same comparison as the choice below (strictly better replaces, so ties keep the earlier mix).
     let mixBest = mean[0];
     for (let k = 1; k < mean.length; k++) if (higherIsBetter(measure) ? mean[k] > mixBest : mean[k] < mixBest) mixBest = mean[k];
-    if (chosenFoldPaths === null || (higherIsBetter(measure) ? mixBest > bestSoFar : mixBest < bestSoFar)) {
+    if (Number.isNaN(chosenFoldMix) || (higherIsBetter(measure) ? mixBest > bestSoFar : mixBest < bestSoFar)) {
       chosenFoldPaths = foldPaths;
+      chosenTally = tally;
       chosenFoldMix = mix;
       bestSoFar = mixBest;
     }
@@ -1850,7 +2058,7 @@ function* twoClassSteps(
     scheme: plan.scheme,
     folds: K,
     seed: plan.scheme === "random" ? (options.seed ?? 1) : null,
-    repeats: 1,
+    repeats,
     table,
   };
   result.diagnostics.sweeps = sweeps;
@@ -1859,13 +2067,22 @@ function* twoClassSteps(
   // Each fold's coefficients at the chosen point in its working units (a positive multiple of the
   // data units, so the signs are the data units' signs; a column constant in a fold reads 0).
   result.keptShare =
-    chosenFoldPaths !== null && chosenFoldMix === best.mix
-      ? keptShares(
-          result.terms,
-          result.coefficients,
-          chosenFoldPaths.map((path, f) => logisticToOriginal(problems.folds[f], 0, path[chosen.index]).coefficients),
-        )
-      : null;
+    chosenFoldMix !== best.mix
+      ? null
+      : chosenTally
+        ? chosenTally.keptShares(result.terms, result.coefficients, chosen.index)
+        : chosenFoldPaths !== null
+          ? keptShares(
+              result.terms,
+              result.coefficients,
+              chosenFoldPaths.map((path, f) => logisticToOriginal(problems.folds[f], 0, path[chosen.index]).coefficients),
+            )
+          : null;
+  if (honest) result.honest = yield* honestRun(data, options, honest, result, (units) => options.onProgress?.(cvUnits + units, totalUnits));
+  if (options.stability) {
+    let halvesDone = cvUnits + (honest?.units ?? 0);
+    result.stability = yield* stabilitySelection(stabilityInput(data, full, options, best.mix, best.run, () => options.onProgress?.(++halvesDone, totalUnits)), warnings);
+  }
   return result;
 }
 
@@ -2091,5 +2308,100 @@ function assembleTwoClass(
     },
     warnings,
     model,
+  };
+}
+
+// ---------------------------------------------------------------------------------------------
+// Stability selection (stability.ts): the half-sample fits, built as cross-validation folds are.
+// ---------------------------------------------------------------------------------------------
+
+/**
+ * Which terms stability selection can select (candidates: penalized, not constant, not held at 0
+ * by bounds of 0 and 0) and which are in every model (unpenalized, not constant); the settings
+ * checked against the candidates (an InputError for bad settings, before any fitting).
+ */
+function stabilityTerms(data: Prepared, full: TrainingProblem, options: FitOptions): { candidate: boolean[]; unpenalized: boolean[]; settings: ReturnType<typeof stabilitySettings> } {
+  const candidate: boolean[] = [];
+  const unpenalized: boolean[] = [];
+  for (let j = 0; j < full.p; j++) {
+    const free = !full.std.frozen[j];
+    const penalized = data.multipliers[j] > 0;
+    candidate.push(free && penalized && !(data.lower[j] === 0 && data.upper[j] === 0));
+    unpenalized.push(free && !penalized);
+  }
+  const count = candidate.filter(Boolean).length;
+  const settings = stabilitySettings(options.stability as StabilityOptions, count, options.seed ?? 1);
+  return { candidate, unpenalized, settings };
+}
+
+/**
+ * Everything stability selection needs from the fit: the chosen mix and its full-data path
+ * strengths (unit-free λ), the terms, the rows with positive weight, and the half fitter. A half's
+ * problem is built as a fold's training problem is (buildProblems): from its rows, or in gram form
+ * from its block sums about the full data's shifts, so it standardizes its own rows; it is then
+ * solved down the strengths from its unpenalized fit with warm starts, as runPath /
+ * runLogisticPath do for a fold (never stopping early), one strength per call.
+ */
+function stabilityInput(data: Prepared, full: TrainingProblem, options: FitOptions, mix: number, run: PathRun, onHalf: () => void): StabilityInput {
+  const { x, y, weights } = data;
+  const signal = data.settings.signal;
+  const strengths = run.strengths;
+  const { candidate, unpenalized, settings } = stabilityTerms(data, full, options);
+  // First depth (stability.ts firstDepth; it changes the cost, never the result): a half of the rows
+  // selects about as many terms at a strength as the full data do (its union down the path, which
+  // q bounds, at least as many), so twice the strengths the full-data path takes to hold more than
+  // q penalized terms, at least 8.
+  const fixedIn = unpenalized.filter(Boolean).length;
+  let reach = strengths.length;
+  for (let k = 0; k < run.nonzero.length; k++) {
+    if (run.nonzero[k] - fixedIn > settings.expectedTerms) {
+      reach = k + 1;
+      break;
+    }
+  }
+  const eligibleRows: number[] = [];
+  for (let i = 0; i < x.rows; i++) if (!weights || weights[i] > 0) eligibleRows.push(i);
+  const problemOptions = { intercept: data.intercept, standardize: data.standardize, columnUnits: Float64Array.from(data.xExponent, (e) => powerOfTwo(e)) };
+  const { shiftX, shiftY } = fullShift(data);
+  const twoClass = data.outcome === "two-class";
+  const fitHalf = (rows: Int32Array): HalfPath => {
+    let converged = true;
+    if (twoClass) {
+      const problem = problemFromRows(x, y, weights, rows, problemOptions, signal);
+      const { solver, start } = startTwoClass(data, problem, outcomesOf(data, rows), penaltyFor(problem, data, mix), false, []);
+      converged = start.converged;
+      return {
+        at: (k) => {
+          if (!solver.solve(strengths[k], k === 0 ? strengths[0] : strengths[k - 1]).converged) converged = false;
+          return solver.coef;
+        },
+        converged: () => converged,
+      };
+    }
+    const problem = data.gram
+      ? problemFromSums(blockSums(x, y, weights, rows, shiftX, shiftY, signal), shiftX, shiftY, problemOptions)
+      : problemFromRows(x, y, weights, rows, problemOptions, signal);
+    const solver = new CoordinateDescent(problem, penaltyFor(problem, data, mix), data.settings);
+    converged = solver.fitUnpenalized().converged;
+    return {
+      at: (k) => {
+        if (!solver.solve(strengths[k], k === 0 ? strengths[0] : strengths[k - 1]).converged) converged = false;
+        return solver.coef;
+      },
+      converged: () => converged,
+    };
+  };
+  return {
+    settings,
+    mix,
+    strengths,
+    candidate,
+    unpenalized,
+    eligible: Int32Array.from(eligibleRows),
+    strata: twoClass ? data.y : null,
+    fitHalf,
+    signal,
+    onHalf,
+    firstDepth: Math.max(8, 2 * reach),
   };
 }

@@ -40,3 +40,7 @@ export { logisticBaseline } from "./logisticBaseline";
 export type { LogisticBaselineResult, LogisticBaselineOptions, Separation } from "./logisticBaseline";
 export { MAX_REPEATS, DEFAULT_DRAWS, MAX_DRAWS, DEFAULT_THRESHOLD, checkRepeats, checkStabilityOptions, defaultExpectedTerms, falseSelectionBound } from "./assurance";
 export type { StabilityOptions, StabilityResult, HonestError, HonestFold } from "./assurance";
+export { HONEST_SEED_OFFSET } from "./honest";
+// Stability selection (complementary pairs of half-samples)
+export { dealHalves, drawSeed, stabilitySettings, stabilityUnits, MIN_HALF_ROWS } from "./stability";
+export type { StabilitySettings, HalfPath } from "./stability";

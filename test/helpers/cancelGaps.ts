@@ -84,6 +84,12 @@ export const CASES: GapCase[] = [
   { name: "100000 × 20, residual updates", rows: 100000, columns: 20, options: { updates: "residual" } },
   { name: "20000 × 100, two-class", rows: 20000, columns: 100, options: { outcome: "two-class" } },
   { name: "200 × 2000, two-class", rows: 200, columns: 2000, options: { outcome: "two-class" } },
+  // Repeats build each later deal's folds, and the honest error runs whole inner fits: one mix, so
+  // the budget reaches them.
+  { name: "300 × 2000, lasso, repeats 5, honest error", rows: 300, columns: 2000, options: { mixes: [1], repeats: 5, honestError: true } },
+  { name: "20000 × 100, lasso, repeats 3, honest error", rows: 20000, columns: 100, options: { mixes: [1], repeats: 3, honestError: true } },
+  // The lasso's cross-validation takes about 0.5 s here, so the budget runs out among the half-sample fits.
+  { name: "300 × 2000, lasso, stability selection", rows: 300, columns: 2000, options: { mixes: [1], folds: 3, stability: {} } },
 ];
 
 if (require.main === module) {
