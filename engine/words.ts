@@ -102,6 +102,11 @@ export function stabilityBasisWords(s: { expectedTerms: number; threshold: numbe
   );
 }
 
+/** In place of a stable share: a term stability selection can't select because it is never penalized (in every model). */
+export const NEVER_PENALIZED = "in every model (never penalized)";
+/** In place of a stable share: a term that is constant or held at 0 by its bounds (in no model). */
+export const CANNOT_BE_SELECTED = "in no model (constant or held at 0)";
+
 /** The label of the nested cross-validation's estimate. */
 export const HONEST_LABEL = "honest CV error (whole procedure)";
 
@@ -117,5 +122,5 @@ export function honestNote(cvLabel: string, outerFolds: number): string {
 export function repeatsNote(repeats: number, seed: number | null): string {
   if (repeats <= 1) return "one deal of the folds";
   const seeds = seed === null ? "" : ` (seeds ${seed} to ${seed + repeats - 1})`;
-  return `the choice used the curve averaged over ${repeats} deals of the folds${seeds}; the CV error and ± SE above are of that averaged curve`;
+  return `the choice used the curve averaged over ${repeats} deals of the folds${seeds}: the CV error above is the mean over all their held-out folds, its ± SE the average of the deals' own SEs`;
 }

@@ -5,11 +5,22 @@
  * the workbook's business.
  */
 import type { TwoClassScore } from "../engine/classMetrics";
+import type { StabilityResult } from "../engine/assurance";
 import type { ErrorMeasure, FitResult } from "../engine/fit";
 import type { Score } from "../engine/metrics";
 import type { OutcomeReading } from "../engine/outcome";
 import { portableExp } from "../engine/portableMath";
-import { cvMeasureLabel, FALSE_SELECTION_LABEL, HONEST_LABEL, honestNote, INTERCEPT_LABEL, repeatsNote, stabilityBasisWords } from "../engine/words";
+import {
+  CANNOT_BE_SELECTED,
+  cvMeasureLabel,
+  FALSE_SELECTION_LABEL,
+  HONEST_LABEL,
+  honestNote,
+  INTERCEPT_LABEL,
+  NEVER_PENALIZED,
+  repeatsNote,
+  stabilityBasisWords,
+} from "../engine/words";
 import type { Dataset, EncodedRow, TargetClasses } from "./dataset";
 import { cellError } from "./errors";
 
@@ -218,7 +229,8 @@ export function cvCurveSpill(result: FitResult): Spill {
  * When stability selection ran (setting `stability=yes`): two more columns, `stable share` (the
  * term's selection probability over the half-samples, engine/stability.ts) and `stable` (TRUE when
  * that share is at or above π: booleans, so the column filters), ties in kept share broken by the
- * larger stable share; then one footer row: `expected false selections at most` | the bound
+ * larger stable share (a term that can't be selected, stableShareCell, shows why instead of a
+ * share, and FALSE); then one footer row: `expected false selections at most` | the bound
  * q²/((2π − 1)·p) | q, π, p and the pairs in words | "" | "" | "".
  */
 export function keptSpill(result: FitResult, dataset: Dataset): Spill {
@@ -237,10 +249,22 @@ export function keptSpill(result: FitResult, dataset: Dataset): Spill {
   }
   const rows: Spill = [["term", coefficient, "kept in folds", "same sign", "stable share", "stable"]];
   for (const j of order) {
-    rows.push([shares[j].term, numberCell(result.coefficients[j]), shares[j].kept, shares[j].sameSign, numberCell(stability.share[j]), stability.stable[j]]);
+    rows.push([shares[j].term, numberCell(result.coefficients[j]), shares[j].kept, shares[j].sameSign, stableShareCell(stability, j), stability.stable[j]]);
   }
   rows.push([FALSE_SELECTION_LABEL, numberCell(stability.falseSelectionBound), stabilityBasisWords(stability), "", "", ""]);
   return rows;
+}
+
+/**
+ * A term's stable share, or for a term stability selection can't select (engine/stability.ts
+ * `candidate`) why: a never-penalized term is in every model by the user's choice (the engine's
+ * share 1), a constant or bound-held term in none (share 0). Either way `stable` is FALSE.
+ */
+export function stableShareCell(stability: StabilityResult, j: number): SpillCell {
+  if (stability.candidate && !stability.candidate[j]) {
+    return stability.share[j] > 0 ? NEVER_PENALIZED : CANNOT_BE_SELECTED;
+  }
+  return numberCell(stability.share[j]);
 }
 
 /**

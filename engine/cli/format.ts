@@ -16,11 +16,13 @@ import type { FitTable } from "./table";
 import { skippedRowsMessage } from "./table";
 import {
   bestPointLabel as bestPointWords,
+  CANNOT_BE_SELECTED,
   errorWithSe,
   FALSE_SELECTION_LABEL,
   HONEST_LABEL,
   measureName as measureWords,
   measureWithDirection,
+  NEVER_PENALIZED,
   RULE_WORDS,
   significant,
   stabilityBasisWords,
@@ -156,7 +158,8 @@ export interface JsonReport {
     falseSelectionBound: number | null;
     strengths: (number | null)[];
     averageSelected: (number | null)[];
-    terms: Record<string, { share: number | null; stable: boolean }>;
+    /** candidate: whether the term could be selected (false for never-penalized, constant or bound-held terms; counted in `candidates`). */
+    terms: Record<string, { share: number | null; stable: boolean; candidate: boolean }>;
   } | null;
 }
 
@@ -334,7 +337,7 @@ function stabilityJson(s: StabilityResult, terms: readonly string[]): NonNullabl
     falseSelectionBound: finiteOrNull(s.falseSelectionBound),
     strengths: s.strengths.map(finiteOrNull),
     averageSelected: s.averageSelected.map(finiteOrNull),
-    terms: Object.fromEntries(terms.map((name, j) => [name, { share: finiteOrNull(s.share[j]), stable: s.stable[j] }])),
+    terms: Object.fromEntries(terms.map((name, j) => [name, { share: finiteOrNull(s.share[j]), stable: s.stable[j], candidate: s.candidate ? s.candidate[j] : true }])),
   };
 }
 
@@ -435,7 +438,9 @@ export function textReport(result: FitResult, context: ReportContext): string {
   }
   // With cross-validation: in how many of the K fold models each term is kept, and agrees in sign.
   const shares = result.keptShare;
-  const K = result.cv?.folds ?? 0;
+  // With repeats the shares count every deal's fold models: r·K of them.
+  const deals = result.cv?.repeats ?? 1;
+  const K = (result.cv?.folds ?? 0) * deals;
   if (shares && K > 0) {
     const ofK = (share: number): string => `${Math.round(share * K)}/${K}`;
     termRows[0].push("kept in folds", "same sign");
@@ -447,11 +452,17 @@ export function textReport(result: FitResult, context: ReportContext): string {
   if (stability) {
     termRows[0].push("stable share", "stable");
     termRows[1].push("", "");
-    result.terms.forEach((_, j) => termRows[j + 2].push(formatNumber(stability.share[j], 3), stability.stable[j] ? "yes" : "no"));
+    result.terms.forEach((_, j) => {
+      const candidate = stability.candidate ? stability.candidate[j] : true;
+      // A term that can't be selected: why, in place of a share (never penalized: in every model; constant or held at 0: in none).
+      const share = candidate ? formatNumber(stability.share[j], 3) : stability.share[j] > 0 ? NEVER_PENALIZED : CANNOT_BE_SELECTED;
+      termRows[j + 2].push(share, stability.stable[j] ? "yes" : "no");
+    });
   }
   lines.push(...columns(termRows));
   if (shares && K > 0) {
-    lines.push(`  (kept in folds: how many of the ${K} fold models at the chosen point keep the term; same sign: how many agree with its sign above)`);
+    const models = deals > 1 ? `${K} fold models (${deals} deals × ${K / deals} folds)` : `${K} fold models`;
+    lines.push(`  (kept in folds: how many of the ${models} at the chosen point keep the term; same sign: how many agree with its sign above)`);
   }
   if (stability) lines.push(...stabilityLines(stability));
   if (twoClass) {
@@ -497,7 +508,7 @@ export function textReport(result: FitResult, context: ReportContext): string {
     lines.push(...columns(rows));
     lines.push(repeatsLine(result.cv.repeats, result.cv.seed));
   }
-  if (result.honest) lines.push(...honestLines(result.honest, p));
+  if (result.honest) lines.push(...honestLines(result.honest, p, table.weights !== null));
   if (baseline && twoClass) {
     if (separation) {
       lines.push(`Unpenalized logistic fit: ${separation.message}`);
@@ -536,7 +547,7 @@ export function textReport(result: FitResult, context: ReportContext): string {
 export function repeatsLine(repeats: number, seed: number | null): string {
   if (repeats <= 1) return "Repeats: 1 deal of the folds";
   const seeds = seed === null ? "" : ` (seeds ${seed} to ${seed + repeats - 1})`;
-  return `Repeats: ${repeats} deals of the folds${seeds}; the choice used the curve averaged over them, and the CV errors above are of that curve`;
+  return `Repeats: ${repeats} deals of the folds${seeds}; the choice used the curve averaged over them: each CV error above is the mean over all ${repeats} deals' held-out folds, its SE the average of the deals' own SEs`;
 }
 
 /**
@@ -553,9 +564,9 @@ export function stabilityLines(s: StabilityResult): string[] {
 }
 
 /** The honest (nested cross-validation) error of the whole procedure, beside the optimistic one, and its outer folds. */
-export function honestLines(h: HonestError, p: number): string[] {
+export function honestLines(h: HonestError, p: number, weighted = false): string[] {
   const name = measureName(h.measure as ErrorMeasure, true);
-  const rows: string[][] = [["outer fold", "rows scored", measureName(h.measure as ErrorMeasure), "mix", "strength λ", "terms kept"]];
+  const rows: string[][] = [["outer fold", weighted ? "weight scored" : "rows scored", measureName(h.measure as ErrorMeasure), "mix", "strength λ", "terms kept"]];
   h.perFold.forEach((f, k) => {
     rows.push([String(k + 1), formatNumber(f.weight), formatNumber(f.error), formatNumber(f.mix), formatNumber(f.strength), `${f.termsKept} of ${p}`]);
   });

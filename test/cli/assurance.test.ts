@@ -199,6 +199,11 @@ describe("JSON and report: repeats, honest, stability", () => {
     expect(parsed.honest.optimistic).toBe(parsed.cv.error);
     const text = runCommand(argv, read).stdout;
     expect(text).toMatch(/Repeats: 3 deals of the folds \(seeds 4 to 6\); the choice used the curve averaged over them/);
+    // Kept shares count every deal's fold models: 15 of them, so the counts read out of 15.
+    expect(text).toMatch(/how many of the 15 fold models \(3 deals × 5 folds\) at the chosen point keep the term/);
+    expect(text).toMatch(/\b\d+\/15\b/);
+    const shares = Object.values(parsed.keptShare as Record<string, { kept: number }>);
+    for (const { kept } of shares) expect(Number.isInteger(Math.round(kept * 15 * 1e9) / 1e9)).toBe(true);
     expect(text).toMatch(/Honest CV error \(whole procedure\), by nested cross-validation over \d+ outer folds: MSE /);
     expect(text).toMatch(/is the one that chose the model, so it is optimistic for it/);
   });
@@ -214,7 +219,8 @@ describe("JSON and report: repeats, honest, stability", () => {
     // Meinshausen & Bühlmann 2010, Theorem 1: q² / ((2π − 1)·p).
     expect(st.falseSelectionBound).toBeCloseTo(falseSelectionBound(2, 0.7, s.candidates), 12);
     for (const name of ["a", "b", "c"]) {
-      const { share, stable } = st.terms[name];
+      const { share, stable, candidate } = st.terms[name];
+      expect(candidate).toBe(true);
       expect(share).toBeGreaterThanOrEqual(0);
       expect(share).toBeLessThanOrEqual(1);
       expect(stable).toBe(share >= 0.7);

@@ -142,7 +142,7 @@ describe("CHOICE rows", () => {
     expect(result.cv?.repeats).toBe(3);
     expect(v.get("repeats")).toBe(3);
     expect(v.get("repeats note")).toBe(
-      "the choice used the curve averaged over 3 deals of the folds (seeds 5 to 7); the CV error and ± SE above are of that averaged curve",
+      "the choice used the curve averaged over 3 deals of the folds (seeds 5 to 7): the CV error above is the mean over all their held-out folds, its ± SE the average of the deals' own SEs",
     );
     // The CV error shown is the engine's averaged curve's at the chosen point.
     expect(v.get("CV MSE")).toBe(result.choices?.lowest.error);

@@ -100,6 +100,7 @@ describe("SHRINK.KEPT with stability=yes", () => {
     for (const row of body) {
       const j = result.terms.indexOf(row[0] as string);
       expect(row).toEqual([result.terms[j], result.coefficients[j], shares[j].kept, shares[j].sameSign, s.share[j], s.share[j] >= s.threshold]);
+      expect(s.candidate?.[j]).toBe(true);
       expect(typeof row[5]).toBe("boolean");
     }
     // Largest kept share first; ties: larger stable share, then the terms' order.
@@ -135,5 +136,20 @@ describe("SHRINK.KEPT with stability=yes", () => {
     const out = await kept(new CountingRunner(), target, predictors, 1, `${QUICK}; stability=yes; draws=4`);
     expect(out[0]).toEqual(["term", "coefficient (log-odds of 'fail')", "kept in folds", "same sign", "stable share", "stable"]);
     expect(out[out.length - 1][0]).toBe("expected false selections at most");
+  });
+
+  test("a never-penalized term says so in place of a share, is not stable, and is not counted in p", async () => {
+    const { target, predictors } = sheet(60);
+    const runner = new CountingRunner();
+    const out = await kept(runner, target, predictors, 1, `${QUICK}; no penalty=Temp; stability=yes; draws=6; q=2`);
+    const request = runner.last();
+    const s = fit(request.predictors, request.target, request.options).stability;
+    if (!s) throw new Error("the engine ran no stability selection");
+    const temp = out.find((row) => row[0] === "Temp");
+    expect(temp?.slice(4)).toEqual(["in every model (never penalized)", false]);
+    // Size, the three Region indicators: four candidates; the bound counts them only.
+    expect(s.candidates).toBe(4);
+    expect(out[out.length - 1][1]).toBeCloseTo(falseSelectionBound(2, 0.75, 4), 12);
+    expect(out[out.length - 1][2]).toMatch(/p = 4 terms that can be selected/);
   });
 });
