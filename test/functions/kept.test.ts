@@ -7,7 +7,11 @@
  */
 import { falseSelectionBound } from "../../engine/assurance";
 import { fit } from "../../engine/fit";
+import { readFileSync } from "fs";
+import { join } from "path";
 import { coefs, kept } from "../../functions/api";
+import { InProcessRunner } from "../../functions/inProcessRunner";
+import { demoSheet, RANGES } from "../../taskpane/standalone/preview";
 import { FitCache } from "../../functions/cache";
 import { CountingRunner, expectRectangular, QUICK, rejection, sheet, yesNoSheet } from "./support";
 
@@ -151,5 +155,15 @@ describe("SHRINK.KEPT with stability=yes", () => {
     expect(s.candidates).toBe(4);
     expect(out[out.length - 1][1]).toBeCloseTo(falseSelectionBound(2, 0.75, 4), 12);
     expect(out[out.length - 1][2]).toMatch(/p = 4 terms that can be selected/);
+  });
+
+  test("the README's stability example on the demo data is what the function returns", async () => {
+    const demo = demoSheet();
+    const readme = readFileSync(join(__dirname, "..", "..", "README.md"), "utf8");
+    expect(readme).toContain(`\`=SHRINK.KEPT(${RANGES.target}, ${RANGES.predictors}, , "stability=yes")\``);
+    const out = await kept(new InProcessRunner(), demo.target, demo.predictors, null, "stability=yes");
+    const shown = (cell: unknown): string =>
+      typeof cell === "number" ? String(Number(cell.toPrecision(4))) : typeof cell === "boolean" ? (cell ? "TRUE" : "FALSE") : String(cell);
+    for (const row of out) expect(readme).toContain(`| ${row.map(shown).join(" | ")} |`);
   });
 });
