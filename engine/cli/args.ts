@@ -161,7 +161,7 @@ Predictions
                             -Infinity and Infinity
   --predictions-out <file>  write the predictions CSV to this file and print the report as
                             usual; without it the CSV goes to standard output and the report
-                            (or --json) is not printed
+                            (or --json) is not printed (its warnings go to standard error)
 
 Output
   --json                    print one JSON object

@@ -10,7 +10,7 @@ import { checkMeasure, fit, type FitResult } from "../fit";
 import { fromRows } from "../matrix";
 import { predict } from "../model";
 import { CommandError, parseArgs, toFitOptions, USAGE, type CommandOptions } from "./args";
-import { failureLine, jsonText, predictionsCsv, textReport } from "./format";
+import { failureLine, jsonText, predictionsCsv, textReport, warningMessages } from "./format";
 import { readFitTable, readNewRows, type FitTable } from "./table";
 
 export interface CommandOutcome {
@@ -119,7 +119,11 @@ export function runCommand(
     const report = (): string => (options.json ? jsonText(result, context) : textReport(result, context));
     if (options.predict !== null) {
       const csv = predictionsFor(result, table, options, read(options.predict));
-      if (options.predictionsOut === null) return { exitCode: 0, stdout: csv, stderr: "" };
+      if (options.predictionsOut === null) {
+        // The report is not printed: its warnings go to stderr, one line each, so none is lost.
+        const warnings = warningMessages(result, table).map((message) => `shrinkwise: warning: ${message.replace(/\s*[\r\n]+\s*/g, " ").trim()}\n`);
+        return { exitCode: 0, stdout: csv, stderr: warnings.join("") };
+      }
       write(options.predictionsOut, csv);
     }
     return { exitCode: 0, stdout: report(), stderr: "" };

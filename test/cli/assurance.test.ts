@@ -118,6 +118,15 @@ describe("--predict", () => {
     for (const row of unbounded) expect([row["low (99%)"], row["high (99%)"]]).toEqual(["-Infinity", "Infinity"]);
   });
 
+  it("without --predictions-out the report's warnings go to stderr, one line each", () => {
+    // Blank cells in the training file: the report would warn about the skipped rows.
+    files["gaps.csv"] = trainingCsv().replace(/\n(5,[^,]*),[^,]*,/, "\n$1,,");
+    const outcome = runCommand(["gaps.csv", "--target", "y", "--exclude", "id,status", "--mix", "1", ...QUICK, "--predict", "new.csv"], read);
+    expect(outcome.exitCode).toBe(0);
+    expect(outcome.stderr).toBe("shrinkwise: warning: 1 row with blank cells skipped (data row 5; blanks by column: b 1)\n");
+    expect(csv(outcome.stdout).rows).toHaveLength(3);
+  });
+
   it("--predictions-out writes the CSV there and prints the report (or --json) as usual", () => {
     const written: Record<string, string> = {};
     const write = (file: string, text: string): void => {
