@@ -15,9 +15,10 @@
  *   memory before the case's data were made (Linux: VmHWM reset through /proc/self/clear_refs;
  *   elsewhere process.resourceUsage().maxRSS, an upper bound); `dataMB` the data's own size
  *   (8·n·(p + 1) bytes). Goal: peak ≤ 3 × data + O(p²) (`p2MB` = 8p² bytes for comparison).
- * Then, back in this process, the compiled floor (bench/floor/floor.c, our own plain C coordinate
- * descent from the published algorithm; bench/floor.ts) runs the same workload on the same data,
- * folds and strengths: `floorMs` (its compute time, best of --repeat), `vsFloor = ms / floorMs`
+ * Right after each timed fit (interleaved, so both see the same load on a shared machine), the
+ * compiled floor (bench/floor/floor.c, our own plain C coordinate descent from the published
+ * algorithm; bench/floor.ts) runs the same workload on the same data, folds and strengths, in a
+ * process of its own: `floorMs` (its compute time, best of --repeat), `vsFloor = ms / floorMs`
  * (targets: ≤ 1, ≤ 0.25 on the wide case), and the check that both solve the same problem:
  * `cvMaxRelDiff`, the largest relative difference between the two cross-validation curves, and
  * `sameChoice`, whether the lowest-error point (mix, strength) is the same.
@@ -175,8 +176,8 @@ interface ChildReport {
   maxKkt: number;
   converged: boolean;
   curves: CurveOfMix[];
-  /** number: the floor's input file, written by the child. */
-  floorInput: string | null;
+  /** number: the floor's best run (interleaved with ours in the child), or null when skipped. */
+  floor: FloorRun | null;
   /** two-class: the numeric fit's time with the same settings; cells: the engine's own fit time. */
   otherMs: number | null;
   eventShare: number | null;
@@ -203,7 +204,7 @@ function curvesOf(result: FitResult): CurveOfMix[] {
   return curves;
 }
 
-async function runChild(c: Case, repeat: number, floorDir: string | null): Promise<ChildReport> {
+async function runChild(c: Case, repeat: number, floorDir: string | null, floorBinary: string | null): Promise<ChildReport> {
   const probe = memoryProbe();
   const warm = makeData(200, 10, 1);
   fit(warm.x, warm.y, { mixes: [0.5], folds: 3 });
@@ -225,7 +226,7 @@ async function runChild(c: Case, repeat: number, floorDir: string | null): Promi
     maxKkt: 0,
     converged: true,
     curves: [],
-    floorInput: null,
+    floor: null,
     otherMs: null,
     eventShare: null,
     stepHalvings: 0,
@@ -253,6 +254,7 @@ async function runChild(c: Case, repeat: number, floorDir: string | null): Promi
       runner.dispose();
     }
   } else {
+    let floorInput: string | null = null;
     for (let r = 0; r < repeat; r++) {
       report.gramMs = Math.min(report.gramMs, timeGram(x, y));
       if (events) {
@@ -265,7 +267,14 @@ async function runChild(c: Case, repeat: number, floorDir: string | null): Promi
       result = events ? fit(x, events, { ...options, outcome: "two-class" }) : fit(x, y, options);
       report.ms = Math.min(report.ms, performance.now() - start);
       if (r === 0 && !events) report.peakMB = probe.peakMB();
+      // The floor right after ours, in each repeat: both see the same load on a shared machine.
+      if (r === 0 && c.kind === "number" && floorDir && floorBinary) floorInput = writeFloorFile(c, x, y, floorDir, curvesOf(result));
+      if (floorInput && floorBinary) {
+        const run = runFloor(floorBinary, floorInput);
+        if (!report.floor || run.ms < report.floor.ms) report.floor = run;
+      }
     }
+    if (floorInput) fs.rmSync(floorInput, { force: true });
   }
   if (!result) throw new Error("no fit ran");
   report.chosen = { mix: result.mix, strength: result.strength, index: result.choices?.lowest.index ?? -1, termsKept: result.coefficients.filter((b) => b !== 0).length };
@@ -279,42 +288,35 @@ async function runChild(c: Case, repeat: number, floorDir: string | null): Promi
     for (let i = 0; i < events.length; i++) share += events[i] / events.length;
     report.eventShare = share;
   }
-  if (c.kind === "number" && floorDir) {
-    // The engine's own folds (random, seed 1, no strata for a number outcome) and full grids.
-    const plan = planFolds(c.n, null, { scheme: "random", folds: FOLDS, seed: SEED, labels: null });
-    const fold = new Int32Array(c.n);
-    plan.validateBlock.forEach((block, k) => {
-      for (const i of plan.blocks[block]) fold[i] = k;
-    });
-    const grids = report.curves.map((curve) => strengthGrid(curve.strengths[0], GRID, lowEndFor(c.n, c.p)));
-    report.curves.forEach((curve, a) => {
-      curve.strengths.forEach((s, k) => {
-        if (s !== grids[a][k]) throw new Error(`${c.name}: the rebuilt grid of mix ${curve.mix} differs from the fit's at point ${k}`);
-      });
-    });
-    const file = path.join(floorDir, `${c.name}.bin`);
-    writeFloorInput(file, {
-      n: c.n,
-      p: c.p,
-      x: x.data,
-      y,
-      fold,
-      folds: FOLDS,
-      mixes: MIXES,
-      grids,
-      tolerance: ENGINE_TOLERANCE,
-      maxSweeps: ENGINE_MAX_SWEEPS,
-      exactFitRatio: EXACT_FIT_RATIO,
-    });
-    report.floorInput = file;
-  }
   return report;
 }
 
-function inChild(c: Case, repeat: number, floorDir: string | null): Promise<ChildReport> {
+/**
+ * The floor's input: the case's data, the engine's own folds (random, seed 1, no strata for a
+ * number outcome) and the full grid of each mix (strengthGrid from the same top, count and low
+ * end as the fit's, checked against the fit's own strengths).
+ */
+function writeFloorFile(c: Case, x: ColumnMatrix, y: Float64Array, floorDir: string, curves: CurveOfMix[]): string {
+  const plan = planFolds(c.n, null, { scheme: "random", folds: FOLDS, seed: SEED, labels: null });
+  const fold = new Int32Array(c.n);
+  plan.validateBlock.forEach((block, k) => {
+    for (const i of plan.blocks[block]) fold[i] = k;
+  });
+  const grids = curves.map((curve) => strengthGrid(curve.strengths[0], GRID, lowEndFor(c.n, c.p)));
+  curves.forEach((curve, a) => {
+    curve.strengths.forEach((s, k) => {
+      if (s !== grids[a][k]) throw new Error(`${c.name}: the rebuilt grid of mix ${curve.mix} differs from the fit's at point ${k}`);
+    });
+  });
+  const file = path.join(floorDir, `${c.name}.bin`);
+  writeFloorInput(file, { n: c.n, p: c.p, x: x.data, y, fold, folds: FOLDS, mixes: MIXES, grids, tolerance: ENGINE_TOLERANCE, maxSweeps: ENGINE_MAX_SWEEPS, exactFitRatio: EXACT_FIT_RATIO });
+  return file;
+}
+
+function inChild(c: Case, repeat: number, floorDir: string | null, floorBinary: string | null): Promise<ChildReport> {
   return new Promise((resolve, reject) => {
     const args = ["--child", c.name, "--repeat", String(repeat)];
-    if (floorDir) args.push("--floor-dir", floorDir);
+    if (floorDir && floorBinary) args.push("--floor-dir", floorDir, "--floor-binary", floorBinary);
     const child = fork(__filename, args, { execArgv: [...process.execArgv, "--expose-gc"], stdio: ["ignore", "inherit", "inherit", "ipc"] });
     let report: ChildReport | null = null;
     child.on("message", (message) => (report = message as ChildReport));
@@ -363,7 +365,7 @@ async function main(): Promise<void> {
   if (childCase) {
     const c = CASES.find((k) => k.name === childCase);
     if (!c) throw new Error(`unknown case ${childCase}`);
-    const report = await runChild(c, repeat, argValue(args, "--floor-dir"));
+    const report = await runChild(c, repeat, argValue(args, "--floor-dir"), argValue(args, "--floor-binary"));
     process.send?.(report);
     return;
   }
@@ -390,23 +392,11 @@ async function main(): Promise<void> {
   const lines: string[] = [];
   try {
     for (const c of chosen) {
-      const report = await inChild(c, repeat, floorDir);
+      const report = await inChild(c, repeat, floorDir, floorBinary);
       const base = { case: c.name, n: c.n, p: c.p, folds: FOLDS, mixes: MIXES.length, grid: GRID };
       if (c.kind === "number") {
-        let floorMs: number | null = null;
-        let check: ReturnType<typeof compareWithFloor> | null = null;
-        if (floorBinary && report.floorInput) {
-          let floor: FloorRun | null = null;
-          for (let r = 0; r < repeat; r++) {
-            const run = runFloor(floorBinary, report.floorInput);
-            if (!floor || run.ms < floor.ms) floor = run;
-          }
-          fs.rmSync(report.floorInput, { force: true });
-          if (floor) {
-            floorMs = floor.ms;
-            check = compareWithFloor(report, floor);
-          }
-        }
+        const floorMs = report.floor ? report.floor.ms : null;
+        const check = report.floor ? compareWithFloor(report, report.floor) : null;
         const vsFloor = floorMs !== null ? report.ms / floorMs : null;
         table.push([
           c.name,
