@@ -5,7 +5,8 @@
  * same data, folds and strengths, in both of the floor's forms (covariance updates for rows ≫
  * predictors, residual updates otherwise). Both solve to the engine's tolerance (1e-9 relative to
  * λ), so the curves agree far tighter than the 1e-6 asked here. Needs a C compiler: without one
- * (no gcc, CC unset) the comparison is skipped and says so.
+ * (no gcc, CC unset) the comparison is skipped and says so, or fails under SHRINKWISE_REQUIRE_ALL=1
+ * (test/helpers/requirements.ts), as CI sets it.
  */
 import * as fs from "fs";
 import * as os from "os";
@@ -15,12 +16,15 @@ import { planFolds } from "../../engine/folds";
 import { EXACT_FIT_RATIO, strengthGrid } from "../../engine/path";
 import { makeData } from "../../bench/data";
 import { compileFloor, runFloor, writeFloorInput } from "../../bench/floor";
+import { suiteGate } from "../helpers/requirements";
 
 const built = compileFloor();
-const withCompiler = built.binary ? describe : describe.skip;
-if (!built.binary) console.warn(`floor comparison skipped: ${built.reason}`);
+const gate = suiteGate(
+  "the compiled floor comparison (test/bench/floor.test.ts)",
+  [built.binary ? null : { what: built.reason ?? "no C compiler", fix: "apt-get install -y gcc" }],
+);
 
-withCompiler("compiled floor against the engine", () => {
+gate.describe("compiled floor against the engine", () => {
   const cases = [
     { n: 150, p: 8, lowEnd: 1e-4, form: "covariance" },
     { n: 40, p: 60, lowEnd: 1e-2, form: "residual" },
