@@ -68,6 +68,7 @@ import { SpectralRidge } from "./ridgeSpectral";
 import {
   accumulateSums,
   blockSums,
+  blockSumsOf,
   BlockSums,
   CONSTANT_SPREAD_RATIO,
   emptySums,
@@ -715,7 +716,7 @@ function buildProblems(data: Prepared, plan: FoldPlan | null): Problems {
   }
   // One pass: every block's sums; the total is their sum; a fold's training sums are the
   // sum of its training blocks (total minus its own block when it trains on all the rest).
-  const sums = plan.blocks.map((rows) => blockSums(x, y, weights, rows, shiftX, shiftY, signal));
+  const sums = blockSumsOf(x, y, weights, plan.blocks, shiftX, shiftY, signal);
   const total = emptySums(x.columns);
   for (const s of sums) accumulateSums(total, s, 1);
   const full = problemFromSums(total, shiftX, shiftY, options);
