@@ -1311,37 +1311,57 @@ function heldOutModels(
   index: number,
 ): { foldModels: FoldModel[]; heldOut: { row: number[]; fold: number[]; residual: number[] } } {
   const foldModels: FoldModel[] = [];
+  const n = data.x.rows;
+  const p = data.x.columns;
+  const K = folds.length;
+  const signal = data.settings.signal;
+  // Each fold's working coefficients and centre parts, and which fold holds each row out (−1: none).
+  const slopes = new Float64Array(K * p);
+  const anchors = new Float64Array(K * p);
+  const offsets = new Float64Array(K * p);
+  const foldOf = new Int32Array(n).fill(-1);
+  const prediction = new Float64Array(n);
+  for (let f = 0; f < K; f++) {
+    throwIfCancelled(signal);
+    const { problem } = folds[f];
+    const working = toOriginal(problem, folds[f].at(index));
+    const coefficients: number[] = [];
+    for (let j = 0; j < p; j++) coefficients.push(pathValueInDataUnits(data, j, working.coefficients[j]));
+    foldModels.push({ intercept: pathValueInDataUnits(data, -1, working.intercept), coefficients });
+    slopes.set(working.coefficients, f * p);
+    anchors.set(problem.std.xAnchor, f * p);
+    offsets.set(problem.std.xOffset, f * p);
+    for (const i of plan.blocks[plan.validateBlock[f]]) {
+      if (data.weights && !(data.weights[i] > 0)) continue;
+      foldOf[i] = f;
+      prediction[i] = problem.std.yOffset;
+    }
+  }
+  // One pass over the data, column by column in row order (each cache line read once, where a
+  // pass per fold over its shuffled rows reads most lines of every column once per fold); each
+  // row's prediction adds the same terms in the same order as row by row: yOffset, then
+  // b_j ((x_j − anchor_j) − offset_j) for j = 0, 1, … with b_j ≠ 0.
+  const values = data.x.data;
+  for (let j = 0; j < p; j++) {
+    throwIfCancelled(signal);
+    const off = j * n;
+    for (let i = 0; i < n; i++) {
+      const f = foldOf[i];
+      if (f < 0) continue;
+      const b = slopes[f * p + j];
+      if (b !== 0) prediction[i] += b * (values[off + i] - anchors[f * p + j] - offsets[f * p + j]);
+    }
+  }
   const row: number[] = [];
   const fold: number[] = [];
   const residual: number[] = [];
-  const n = data.x.rows;
-  for (let f = 0; f < folds.length; f++) {
-    throwIfCancelled(data.settings.signal);
-    const { problem } = folds[f];
-    const standardized = folds[f].at(index);
-    const working = toOriginal(problem, standardized);
-    const coefficients: number[] = [];
-    for (let j = 0; j < problem.p; j++) coefficients.push(pathValueInDataUnits(data, j, working.coefficients[j]));
-    foldModels.push({ intercept: pathValueInDataUnits(data, -1, working.intercept), coefficients });
-    const std = problem.std;
-    const block = plan.blocks[plan.validateBlock[f]];
-    const rows = data.weights ? block.filter((i) => (data.weights as Float64Array)[i] > 0) : block;
-    // Column by column (each column's rows read together rather than every column per row);
-    // each row's prediction adds the same terms in the same order (yOffset, then j = 0, 1, …).
-    const prediction = new Float64Array(rows.length).fill(std.yOffset);
-    for (let j = 0; j < problem.p; j++) {
-      const b = working.coefficients[j];
-      if (b === 0) continue;
-      const off = j * n;
-      const anchor = std.xAnchor[j];
-      const offset = std.xOffset[j];
-      for (let t = 0; t < rows.length; t++) prediction[t] += b * (data.x.data[off + rows[t]] - anchor - offset);
-    }
-    for (let t = 0; t < rows.length; t++) {
-      const i = rows[t];
+  for (let f = 0; f < K; f++) {
+    const yAnchor = folds[f].problem.std.yAnchor;
+    for (const i of plan.blocks[plan.validateBlock[f]]) {
+      if (foldOf[i] !== f) continue;
       row.push(i);
       fold.push(f);
-      residual.push(scaleByPowerOfTwo(data.y[i] - std.yAnchor - prediction[t], -data.yExponent));
+      residual.push(scaleByPowerOfTwo(data.y[i] - yAnchor - prediction[i], -data.yExponent));
     }
   }
   return { foldModels, heldOut: { row, fold, residual } };
