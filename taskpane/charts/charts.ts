@@ -237,13 +237,13 @@ export const BAND_OPACITY = 0.13;
 /** Line patterns cycled once the hues run out (rank k by size: hue k mod 6, pattern ⌊k/6⌋ mod 3). */
 export const LINE_PATTERNS: readonly ("solid" | "dashed" | "dotted")[] = ["solid", "dashed", "dotted"];
 
-const FONT_FAMILY = '"Segoe UI", system-ui, -apple-system, "Helvetica Neue", Arial, sans-serif';
+export const FONT_FAMILY = '"Segoe UI", system-ui, -apple-system, "Helvetica Neue", Arial, sans-serif';
 /** Below this width the compact layout applies (smaller text, no legend, fewer end labels). */
 export const COMPACT_WIDTH = 400;
 /** Most bars drawn; smaller nonzero terms beyond this are counted in a note. */
 export const MAX_BARS = 40;
 
-interface Layout {
+export interface Layout {
   compact: boolean;
   font: number;
   titleFont: number;
@@ -257,7 +257,7 @@ interface Layout {
   tooltipRows: number;
 }
 
-function layoutFor(width: number): Layout {
+export function layoutFor(width: number): Layout {
   const compact = width < COMPACT_WIDTH;
   return {
     compact,
@@ -285,7 +285,7 @@ export function formatNumber(value: number, digits = 3): string {
   return text.replace("-", "\u2212");
 }
 
-function signed(value: number): string {
+export function signed(value: number): string {
   return value > 0 ? `+${formatNumber(value)}` : formatNumber(value);
 }
 
@@ -345,7 +345,7 @@ function ruleText(result: FitResult): string {
 }
 
 /** "a, b, c +2 more" with names truncated. */
-function nameList(names: readonly string[], keep: number, chars: number): string {
+export function nameList(names: readonly string[], keep: number, chars: number): string {
   const shown = names.slice(0, keep).map((n) => truncate(n, chars));
   return names.length > keep ? `${shown.join(", ")} +${names.length - keep} more` : shown.join(", ");
 }
@@ -353,7 +353,7 @@ function nameList(names: readonly string[], keep: number, chars: number): string
 // ---------------------------------------------------------------------------------------------
 // Shared option pieces
 
-function baseOption(palette: Palette, layout: Layout): ChartOption {
+export function baseOption(palette: Palette, layout: Layout): ChartOption {
   return {
     backgroundColor: palette.background,
     animation: false,
@@ -361,7 +361,7 @@ function baseOption(palette: Palette, layout: Layout): ChartOption {
   };
 }
 
-function titleOption(text: string, note: string, palette: Palette, layout: Layout, width: number): TitleComponentOption {
+export function titleOption(text: string, note: string, palette: Palette, layout: Layout, width: number): TitleComponentOption {
   return {
     text,
     subtext: note,
@@ -380,11 +380,11 @@ function noteLines(note: string, width: number, font: number): number {
   return note.split("\n").reduce((sum, line) => sum + Math.max(1, Math.ceil(line.length / perLine)), 0);
 }
 
-function titleHeight(note: string, layout: Layout, width: number): number {
+export function titleHeight(note: string, layout: Layout, width: number): number {
   return 8 + layout.titleFont + 6 + noteLines(note, width, layout.font) * (layout.font + 3);
 }
 
-function tooltipBase(palette: Palette, layout: Layout): TooltipComponentOption {
+export function tooltipBase(palette: Palette, layout: Layout): TooltipComponentOption {
   return {
     confine: true,
     backgroundColor: palette.background,
@@ -432,7 +432,7 @@ function strengthAxis(extent: StrengthAxisInput, palette: Palette, layout: Layou
   };
 }
 
-function valueAxisStyle(name: string, palette: Palette, layout: Layout) {
+export function valueAxisStyle(name: string, palette: Palette, layout: Layout) {
   return {
     name,
     nameLocation: "middle" as const,
@@ -450,12 +450,12 @@ function valueAxisStyle(name: string, palette: Palette, layout: Layout) {
  * measures the inverted log axis's end labels against the wrong end and squeezes the plot to
  * its 25 % clamp. Text widths are estimated at 0.6 em a glyph (digits, signs, Latin letters).
  */
-function textWidth(text: string, font: number): number {
+export function textWidth(text: string, font: number): number {
   return text.length * font * 0.6;
 }
 
 /** Widest tick label expected on a value axis spanning [low, high] (ticks are round numbers). */
-function valueLabelWidth(low: number, high: number, font: number): number {
+export function valueLabelWidth(low: number, high: number, font: number): number {
   if (!Number.isFinite(low) || !Number.isFinite(high)) return textWidth("0.00", font);
   const span = Math.abs(high - low) || Math.abs(high) || 1;
   const step = 10 ** Math.floor(Math.log10(span / 5));

@@ -47,7 +47,15 @@
  *               cv-axis (the CV chart's x-axis choice, a radio group: cv-axis-strength,
  *               cv-axis-fraction; hidden with the CV chart),
  *               save-png-path, save-svg-path, save-png-cv, save-svg-cv, save-png-bars,
- *               save-svg-bars; results-table, copy-button, copy-status
+ *               save-svg-bars; results-table, copy-button, copy-status;
+ *               "how sure is it": chart-held-out, chart-kept (containers, role img), their
+ *               -caption (the text summary), -note (shown in place of the chart when it does not
+ *               apply: a yes/no target, a fixed strength), save-png-held-out, save-svg-held-out,
+ *               save-png-kept, save-svg-kept; chosen-repeats (fold deals), chosen-honest (the
+ *               nested CV error beside the optimistic one; hidden unless honest error ran)
+ *   How sure    sure-settings (the <details>), setting-interval, setting-repeats,
+ *               setting-honest-error and setting-stability (checkboxes), setting-draws,
+ *               setting-q, setting-stability-threshold (shown while stability is on)
  *   Formulas    destination-address, destination-use-selection, destination-prompt,
  *               formula-preview (list of the formulas), insert-button, insert-status,
  *               confirm-panel (hidden until cells would be overwritten), confirm-cells (a list, one
@@ -65,6 +73,8 @@ import { sharedRunner } from "../../functions/functions";
 import { cancelSource, type FitRunner } from "../../functions/runner";
 import { formatAddress, parseAddress } from "../host/address";
 import { CV_AXES, CV_AXIS_NAMES, DEFAULT_CV_AXIS, mountChart, type ChartHandle, type CvAxis } from "../charts/charts";
+import { describeAssuranceChart, mountAssuranceChart, type AssuranceChartHandle, type AssuranceKind, type AssuranceView } from "../charts/assuranceCharts";
+import { heldOutPoints, type HeldOutPoints } from "../charts/assuranceData";
 import {
   filledLines,
   findFilledCells,
@@ -136,6 +146,12 @@ const CHARTS: readonly { kind: ChartKind; title: string; file: string }[] = [
   { kind: "path", title: "Coefficient path", file: "shrinkwise-path" },
   { kind: "cv", title: "Cross-validation curve", file: "shrinkwise-cv-curve" },
   { kind: "bars", title: "Coefficients of the chosen model", file: "shrinkwise-coefficients" },
+];
+
+/** The "how sure is it" charts (assuranceCharts.ts), after the three above; `id` is the test id stem. */
+const ASSURANCE_CHARTS: readonly { kind: AssuranceKind; id: string; title: string; file: string }[] = [
+  { kind: "heldOut", id: "held-out", title: "Held-out predictions vs actual", file: "shrinkwise-held-out" },
+  { kind: "kept", id: "kept", title: "Kept share of each term", file: "shrinkwise-kept-share" },
 ];
 
 // ---------------------------------------------------------------------------------------------
@@ -380,6 +396,9 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
   const chosenClassFit = summaryItem("In-sample", "chosen-class-fit");
   const chosenCutoff = summaryItem("At the cutoff", "chosen-cutoff");
   const twoClassRows = [chosenOutcome, chosenClassFit, chosenCutoff];
+  // With cross-validation: the deals of the folds; with honest error=yes: the nested CV error.
+  const chosenRepeats = summaryItem("Fold deals (repeats)", "chosen-repeats");
+  const chosenHonest = summaryItem("Honest error (whole procedure)", "chosen-honest");
   const notes = el("ul", { className: "notes", testid: "fit-notes" });
   notes.setAttribute("aria-label", "Notes on the fit");
 
@@ -421,6 +440,50 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
     });
     svg.addEventListener("click", () => {
       const handle = charts[chart.kind]?.handle;
+      if (!handle) return;
+      try {
+        const { url, release } = svgUrl(handle.exportSvg());
+        download(url, `${chart.file}.svg`);
+        setTimeout(release, 10_000);
+        say(`Saved ${chart.file}.svg`);
+      } catch (error) {
+        say(`Could not save the picture: ${messageOf(error)}`, true);
+      }
+    });
+  }
+
+  const sureCharts: Partial<
+    Record<AssuranceKind, { handle: AssuranceChartHandle | null; box: HTMLElement; caption: HTMLElement; png: HTMLButtonElement; svg: HTMLButtonElement; note: HTMLElement }>
+  > = {};
+  for (const chart of ASSURANCE_CHARTS) {
+    const figure = el("figure", { className: "chart" });
+    const heading = el("h3", { text: chart.title, id: `chart-${chart.id}-title` });
+    const box = el("div", { className: "chart-box", testid: `chart-${chart.id}`, id: `chart-${chart.id}` });
+    const note = el("p", { className: "hint", testid: `chart-${chart.id}-note` });
+    note.hidden = true;
+    const caption = el("figcaption", { testid: `chart-${chart.id}-caption`, id: `chart-${chart.id}-caption` });
+    const png = button("Save PNG", `save-png-${chart.id}`);
+    png.setAttribute("aria-label", `Save PNG of the ${chart.title.toLowerCase()} chart`);
+    const svg = button("Save SVG", `save-svg-${chart.id}`);
+    svg.setAttribute("aria-label", `Save SVG of the ${chart.title.toLowerCase()} chart`);
+    const saveButtons = el("div", { className: "buttons" });
+    saveButtons.append(png, svg);
+    figure.setAttribute("aria-labelledby", heading.id);
+    figure.append(heading, box, note, caption, saveButtons);
+    chartArea.append(figure);
+    sureCharts[chart.kind] = { handle: null, box, caption, png, svg, note };
+    png.addEventListener("click", () => {
+      const handle = sureCharts[chart.kind]?.handle;
+      if (!handle) return;
+      try {
+        download(handle.exportPng(), `${chart.file}.png`);
+        say(`Saved ${chart.file}.png`);
+      } catch (error) {
+        say(`Could not save the picture: ${messageOf(error)}`, true);
+      }
+    });
+    svg.addEventListener("click", () => {
+      const handle = sureCharts[chart.kind]?.handle;
       if (!handle) return;
       try {
         const { url, release } = svgUrl(handle.exportSvg());
@@ -534,7 +597,7 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
   report.section.append(
     el("p", {
       className: "hint",
-      text: "Adds a new sheet with the inputs, settings, the chosen model, the cross-validation table and a chart of the coefficient path.",
+      text: "Adds a new sheet with the inputs, settings, the chosen model, how sure it is (repeats, honest error, interval widths, kept shares and stability), the cross-validation table and a chart of the coefficient path.",
     }),
   );
   const reportButton = button("Write report sheet", "report-button", "primary");
@@ -691,7 +754,20 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
     const noteTexts = [...outcome.prepared.dataset.notes, ...r.warnings.map((w) => w.message)];
     notes.replaceChildren(...noteTexts.map((text) => el("li", { text })));
     notes.hidden = noteTexts.length === 0;
+    const cv = r.cv;
+    for (const value of [chosenRepeats]) {
+      (value.parentElement as HTMLElement).hidden = cv === null;
+      ((value.parentElement as HTMLElement).previousElementSibling as HTMLElement).hidden = cv === null;
+    }
+    chosenRepeats.textContent = cv ? (cv.repeats > 1 ? `${cv.repeats} (the choice is made on the averaged curve)` : "1") : "";
+    const honest = r.honest ?? null;
+    (chosenHonest.parentElement as HTMLElement).hidden = honest === null;
+    ((chosenHonest.parentElement as HTMLElement).previousElementSibling as HTMLElement).hidden = honest === null;
+    chosenHonest.textContent = honest
+      ? `${measureSummary(honest.measure, errorWithSe(honest.error, honest.se))}, over ${honest.folds} outer folds; the CV error above (${errorWithSe(honest.optimistic, chosen?.se ?? NaN)}) chose the model, so it is optimistic`
+      : "";
     renderCharts(r, r.predictorSpreads.map((spread) => (spread > 0 ? spread : null)));
+    renderAssurance(outcome);
     const caption =
       r.outcome === "two-class"
         ? `${r.terms.length} terms, largest effect first: log-odds of ${dataset.classes ? `'${dataset.classes.event}'` : "the event"} per unit, the odds ratio (what the odds are multiplied by per unit), and log-odds per standard deviation of the predictor`
@@ -720,6 +796,59 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
         slot.caption.textContent = slot.handle.describe();
       } catch (error) {
         slot.caption.textContent = `The chart could not be drawn: ${messageOf(error)}`;
+      }
+    }
+  }
+
+  /** The held-out points of the outcome shown (computed once per outcome: CV+ intervals cost O(rows²)). */
+  let heldOutFor: { outcome: FitOutcome; points: HeldOutPoints | null; problem: string | null } | null = null;
+
+  function heldOutOf(outcome: FitOutcome): { points: HeldOutPoints | null; problem: string | null } {
+    if (heldOutFor?.outcome === outcome) return heldOutFor;
+    let points: HeldOutPoints | null = null;
+    let problem: string | null = null;
+    try {
+      const dataset = outcome.prepared.dataset;
+      points = heldOutPoints(outcome.result, dataset.target, dataset.predictors, outcome.prepared.settings.interval);
+    } catch (error) {
+      problem = messageOf(error);
+    }
+    heldOutFor = { outcome, points, problem };
+    return heldOutFor;
+  }
+
+  function renderAssurance(outcome: FitOutcome): void {
+    const result = outcome.result;
+    const { points, problem } = heldOutOf(outcome);
+    const view: AssuranceView = { result, heldOut: points };
+    for (const chart of ASSURANCE_CHARTS) {
+      const slot = sureCharts[chart.kind];
+      if (!slot) continue;
+      let unavailable: string | null = null;
+      if (chart.kind === "heldOut") {
+        if (result.outcome === "two-class") {
+          unavailable =
+            "Held-out predictions vs actual are for number targets. For a yes/no target see the cross-validated measure above (deviance, misclassified share or AUC), which scores the held-out probabilities.";
+        } else if (problem) unavailable = `The held-out predictions could not be worked out: ${problem}`;
+        else if (!points) unavailable = "No cross-validation ran (the strength was fixed in the settings), so no row was held out.";
+      } else if (!result.keptShare || result.keptShare.length === 0) {
+        unavailable = "No cross-validation ran (the strength was fixed in the settings), so there are no fold models to count.";
+      }
+      slot.note.hidden = unavailable === null;
+      slot.note.textContent = unavailable ?? "";
+      slot.box.hidden = unavailable !== null;
+      slot.png.disabled = unavailable !== null;
+      slot.svg.disabled = unavailable !== null;
+      if (unavailable !== null) {
+        slot.caption.textContent = "";
+        continue;
+      }
+      try {
+        if (slot.handle) slot.handle.update(view);
+        else slot.handle = mountAssuranceChart(slot.box, chart.kind, view, host.theme());
+        slot.caption.textContent = slot.handle.describe();
+      } catch (error) {
+        slot.caption.textContent = `The chart could not be drawn: ${messageOf(error)} (${describeAssuranceChart(chart.kind, view)})`;
       }
     }
   }
@@ -897,6 +1026,8 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
         settings: settingPairs(used),
         ranges: rangeList,
         timestamp: stamp(now()),
+        interval: outcome.prepared.settings.interval,
+        heldOut: heldOutOf(outcome).points,
       });
       const name = await host.writeReport(sheet);
       reportStatus.textContent = `Report written to the sheet '${name}'.`;
@@ -949,6 +1080,7 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
     const theme = host.theme();
     document.documentElement.dataset.theme = theme;
     for (const chart of CHARTS) charts[chart.kind]?.handle?.setTheme(theme);
+    for (const chart of ASSURANCE_CHARTS) sureCharts[chart.kind]?.handle?.setTheme(theme);
   }
   applyTheme();
   if (typeof window !== "undefined" && typeof window.matchMedia === "function") {
@@ -973,6 +1105,7 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
       if (width === drawnWidth) return;
       drawnWidth = width;
       for (const chart of CHARTS) charts[chart.kind]?.handle?.resize();
+      for (const chart of ASSURANCE_CHARTS) sureCharts[chart.kind]?.handle?.resize();
     };
     const observer = new ResizeObserver(() => {
       if (frame === 0) frame = requestAnimationFrame(resizeCharts);
@@ -1017,6 +1150,7 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
       clearTimeout(saveTimer);
       for (const cleanup of cleanups) cleanup();
       for (const chart of CHARTS) charts[chart.kind]?.handle?.dispose();
+      for (const chart of ASSURANCE_CHARTS) sureCharts[chart.kind]?.handle?.dispose();
     },
   };
 }

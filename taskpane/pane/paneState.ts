@@ -102,6 +102,13 @@ function messageOf(error: unknown): string {
   return error instanceof Error ? error.message : String(error);
 }
 
+/** Settings the cells accept only beside another one: the field's own value is checked with it. */
+const SETTING_CONTEXT: Readonly<Record<string, string>> = {
+  draws: "stability=yes",
+  q: "stability=yes",
+  "stability threshold": "stability=yes",
+};
+
 /**
  * Why one setting's value can't be used, or null when it can (or is empty: the default).
  * The value is checked exactly as the cells will receive it: as `name=value` inside the
@@ -112,8 +119,11 @@ export function settingProblem(name: string, value: string): string | null {
   if (v === "") return null;
   if (/[;\r\n]/.test(v)) return `'${name}' can't contain ';' or a line break: separate items with commas`;
   if (v.includes("=")) return `'${name}' can't contain '=': write just the value`;
+  // A setting that only works beside another is checked with it (the pairing itself is checked
+  // with all the settings together: checkSettings' overall message).
+  const context = SETTING_CONTEXT[name] !== undefined && SETTING_NAMES.includes(SETTING_CONTEXT[name].split("=")[0]) ? `${SETTING_CONTEXT[name]}; ` : "";
   try {
-    parseSettings(`${name}=${v}`);
+    parseSettings(`${context}${name}=${v}`);
     return null;
   } catch (error) {
     return messageOf(error);
@@ -221,6 +231,10 @@ export function checkSettings(inputs: PaneInputs, outcome: OutcomeKind | null = 
 /** The settings a yes/no target alone uses (the cells refuse them on a number target). */
 export const TWO_CLASS_SETTINGS: readonly string[] = ["event", "cutoff", "predict"];
 
+/** The interval field's message for a yes/no target. */
+export const INTERVAL_TWO_CLASS =
+  "prediction intervals are for number targets, and this target reads as yes/no (its model gives probabilities): clear the interval level";
+
 /** Per field, why a setting doesn't fit a target of this kind (see checkSettings). */
 export function outcomeProblems(inputs: PaneInputs, outcome: OutcomeKind): Record<string, string> {
   const problems: Record<string, string> = {};
@@ -234,6 +248,9 @@ export function outcomeProblems(inputs: PaneInputs, outcome: OutcomeKind): Recor
     checkMeasure(settings.measure, outcome);
   } catch (error) {
     problems.error = messageOf(error);
+  }
+  if (outcome === "two-class" && (inputs.settings.interval ?? "").trim() !== "") {
+    problems.interval = INTERVAL_TWO_CLASS;
   }
   if (outcome === "number") {
     for (const name of TWO_CLASS_SETTINGS) {

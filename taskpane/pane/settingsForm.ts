@@ -14,10 +14,17 @@
  * deviance/misclassified/AUC for yes/no), and, for a yes/no target, the event (a choice of its
  * two labels), the cutoff and what SHRINK.PREDICT returns. Those three stay hidden for a number
  * target unless they hold a value (which the cells would refuse: the field says why).
+ *
+ * "How sure is it" (a third group, its own <details>, testid sure-settings): the interval level
+ * (CV+ prediction intervals, number targets), repeats of the fold deal, the honest error
+ * (nested cross-validation, a checkbox) and stability selection (a checkbox) with its draws, q
+ * and threshold π, which show only while stability is on (or hold a value, so the cells'
+ * refusal is seen). A field whose setting the cell functions don't know (an older functions
+ * build) is not offered at all: its value could not reach the fit.
  */
 import type { OutcomeKind } from "../../engine/outcome";
 import { higherIsBetter, type ErrorMeasure } from "../../engine/fit";
-import { parseSettings } from "../../functions/settings";
+import { parseSettings, SETTING_NAMES } from "../../functions/settings";
 import { checkSettings, measureChoices, type PaneInputs, type SettingsCheck } from "./paneState";
 
 export interface Choice {
@@ -30,7 +37,7 @@ export interface FieldSpec {
   name: string;
   label: string;
   hint: string;
-  kind: "text" | "choice" | "column" | "label";
+  kind: "text" | "choice" | "column" | "label" | "check";
   choices?: Choice[];
   placeholder?: string;
   /** Under "More settings". */
@@ -39,6 +46,10 @@ export interface FieldSpec {
   inputMode?: "numeric" | "decimal" | "text";
   /** Shown for a yes/no target only (or when it holds a value). */
   twoClassOnly?: boolean;
+  /** Under "How sure is it". */
+  sure?: boolean;
+  /** Shown only while stability selection is on (or when it holds a value). */
+  stabilityOnly?: boolean;
 }
 
 /** The error measure choices of each kind of target; the empty value is the kind's default (the first). */
@@ -133,15 +144,6 @@ export const FIELDS: readonly FieldSpec[] = [
     ],
     twoClassOnly: true,
   },
-  {
-    name: "interval",
-    label: "Prediction interval level (number target)",
-    hint: "With a level such as 0.9 or 90%, SHRINK.PREDICT adds a low and a high end per row: a CV+ prediction interval from the cross-validation's held-out errors (no extra fits). Empty: predictions only.",
-    kind: "text",
-    placeholder: "none",
-    inputMode: "decimal",
-    more: true,
-  },
   { name: "seed", label: "Seed", hint: "Decides how rows are dealt into folds: the same seed gives the same folds. Empty: 1.", kind: "text", placeholder: "1", inputMode: "numeric" },
   { name: "standardize", label: "Standardize predictors", hint: "Penalize every predictor on the same scale (coefficients are still reported in the data's units).", kind: "choice", choices: YES_DEFAULT, more: true },
   { name: "intercept", label: "Fit an intercept", hint: "No forces the model through zero.", kind: "choice", choices: YES_DEFAULT, more: true },
@@ -203,6 +205,68 @@ export const FIELDS: readonly FieldSpec[] = [
   { name: "lower", label: "Lower bounds", hint: "A number of 0 or below for every term (0 keeps coefficients from going negative), or term:value pairs.", kind: "text", more: true },
   { name: "upper", label: "Upper bounds", hint: "A number of 0 or above for every term, or term:value pairs.", kind: "text", more: true },
   { name: "zero is missing", label: "Zeros mean blank", hint: "all, or column names separated by commas: their zeros count as empty cells (for hosts that pass blanks as 0).", kind: "text", more: true },
+  {
+    name: "interval",
+    label: "Prediction interval level (number target)",
+    hint: "With a level such as 0.9 or 90% (strictly between 0 and 1), SHRINK.PREDICT adds a low and a high end per row, and the held-out chart shows each row's interval: a CV+ prediction interval from the cross-validation's held-out errors (no extra fits). Empty: predictions only.",
+    kind: "text",
+    placeholder: "none",
+    inputMode: "decimal",
+    sure: true,
+  },
+  {
+    name: "repeats",
+    label: "Repeats of the fold deal",
+    hint: "Deal the rows into folds this many times (1 to 50; seeds seed, seed+1, …) and choose on the averaged curve: a steadier choice, at that many times the fits. Random folds only. Empty: 1.",
+    kind: "text",
+    placeholder: "1",
+    inputMode: "numeric",
+    sure: true,
+  },
+  {
+    name: "honest error",
+    label: "Honest error (nested cross-validation)",
+    hint: "Also measure the error of the whole choosing procedure: each outer fold re-runs every mix, strength and the rule on the rest and scores its pick on the fold. The usual CV error chose the model, so it is optimistic. Costs about one more whole fit per fold.",
+    kind: "check",
+    sure: true,
+  },
+  {
+    name: "stability",
+    label: "Stability selection",
+    hint: "Refit the chosen mix's path on many pairs of half-samples and count how often each term is selected: terms selected at least π of the time are stable, with a bound on how many of them are expected to be false. Costs 2 × draws path fits.",
+    kind: "check",
+    sure: true,
+  },
+  {
+    name: "draws",
+    label: "Pairs of half-samples (draws)",
+    hint: "How many pairs of complementary half-samples, 1 to 1000. Empty: 50 (100 path fits).",
+    kind: "text",
+    placeholder: "50",
+    inputMode: "numeric",
+    sure: true,
+    stabilityOnly: true,
+  },
+  {
+    name: "q",
+    label: "Terms selected on average (q)",
+    hint: "Strengths count while the halves select at most q terms on average: a whole number of 1 or more. Empty: round(√(0.8 × terms)).",
+    kind: "text",
+    placeholder: "default",
+    inputMode: "numeric",
+    sure: true,
+    stabilityOnly: true,
+  },
+  {
+    name: "stability threshold",
+    label: "Stability threshold π",
+    hint: "A term is stable when its selection share is at least this: strictly between 0.5 and 1 (0.75 or 75%). Empty: 0.75.",
+    kind: "text",
+    placeholder: "0.75",
+    inputMode: "decimal",
+    sure: true,
+    stabilityOnly: true,
+  },
 ];
 
 /** The rule's hint when the measure is the AUC (higher is better). */
@@ -216,6 +280,11 @@ function measureOf(text: string): ErrorMeasure | null {
   } catch {
     return null;
   }
+}
+
+/** Whether a yes/no setting's text reads as yes (the cells' words: yes, true, on, 1). */
+export function isYes(text: string): boolean {
+  return ["yes", "y", "true", "on", "1"].includes(text.trim().toLowerCase());
 }
 
 /** The weights column field (drawn with the ranges). */
@@ -304,7 +373,19 @@ export function renderSettingsForm(inputs: PaneInputs, onChange: (name: string) 
     label.htmlFor = id;
     label.textContent = spec.label;
     let control: HTMLInputElement | HTMLSelectElement;
-    if (spec.kind === "text") {
+    if (spec.kind === "check") {
+      // A yes/no setting as a checkbox: checked writes "yes", unchecked leaves the default (no).
+      const box = document.createElement("input");
+      box.type = "checkbox";
+      box.checked = isYes(readValue(inputs, spec.name));
+      box.addEventListener("change", () => {
+        writeValue(inputs, spec.name, box.checked ? "yes" : "");
+        check();
+        onChange(spec.name);
+      });
+      control = box;
+      wrap.classList.add("check-field");
+    } else if (spec.kind === "text") {
       const input = document.createElement("input");
       input.type = "text";
       input.autocomplete = "off";
@@ -346,7 +427,14 @@ export function renderSettingsForm(inputs: PaneInputs, onChange: (name: string) 
     error.dataset.testid = `${id}-error`;
     error.hidden = true;
     control.setAttribute("aria-describedby", `${id}-hint`);
-    wrap.append(label, control, error, hint);
+    // A checkbox goes before its label, on one line.
+    if (spec.kind === "check") wrap.append(control, label, error, hint);
+    else wrap.append(label, control, error, hint);
+    // Not offered when the cell functions don't know the setting (it could not reach the fit).
+    if (!SETTING_NAMES.includes(spec.name) && spec.name !== "mixes") {
+      wrap.hidden = true;
+      control.disabled = true;
+    }
     fields.push({ spec, control, error, hintId: hint.id, wrap });
     return wrap;
   };
@@ -363,13 +451,21 @@ export function renderSettingsForm(inputs: PaneInputs, onChange: (name: string) 
   const moreGrid = document.createElement("div");
   moreGrid.className = "field-grid";
   more.append(summary, moreGrid);
-  for (const spec of FIELDS) (spec.more ? moreGrid : basic).append(makeField(spec));
+  const sure = document.createElement("details");
+  sure.className = "more";
+  sure.dataset.testid = "sure-settings";
+  const sureSummary = document.createElement("summary");
+  sureSummary.textContent = "How sure is it: intervals, repeats, honest error, stability";
+  const sureGrid = document.createElement("div");
+  sureGrid.className = "field-grid";
+  sure.append(sureSummary, sureGrid);
+  for (const spec of FIELDS) (spec.sure ? sureGrid : spec.more ? moreGrid : basic).append(makeField(spec));
   const overall = document.createElement("p");
   overall.className = "field-error overall";
   overall.id = "settings-overall-error";
   overall.dataset.testid = "settings-problem";
   overall.hidden = true;
-  element.append(basic, more, overall);
+  element.append(basic, sure, more, overall);
   const weightsElement = makeField(WEIGHTS_FIELD);
 
   function showError(field: Field, message: string | null): void {
@@ -394,6 +490,17 @@ export function renderSettingsForm(inputs: PaneInputs, onChange: (name: string) 
     }
   }
 
+  /** Draws, q and π show while stability selection is on, or when they hold a value (the cells refuse them without it). */
+  function showStabilityFields(): void {
+    const on = isYes(readValue(inputs, "stability"));
+    for (const field of fields) {
+      if (!field.spec.stabilityOnly || !SETTING_NAMES.includes(field.spec.name)) continue;
+      const shown = on || readValue(inputs, field.spec.name).trim() !== "";
+      field.wrap.hidden = !shown;
+      field.control.disabled = !shown;
+    }
+  }
+
   /** The rule's words follow the measure: for the AUC the default rule takes the highest value, and the one-SE rule looks below it. */
   function nameRules(): void {
     const field = fields.find((f) => f.spec.name === "rule");
@@ -409,12 +516,14 @@ export function renderSettingsForm(inputs: PaneInputs, onChange: (name: string) 
   function check(): SettingsCheck {
     const result = checkSettings(inputs, outcome);
     showTwoClassFields();
+    showStabilityFields();
     nameRules();
     for (const field of fields) {
       const message = field.spec.name === "mixes" ? result.mixes : (result.fields[field.spec.name] ?? null);
       showError(field, message);
-      // A problem hidden under "More settings" opens it, so the message is seen.
+      // A problem hidden under "More settings" (or "How sure is it") opens it, so the message is seen.
       if (message && field.spec.more) more.open = true;
+      if (message && field.spec.sure) sure.open = true;
     }
     overall.hidden = result.overall === null;
     overall.textContent = result.overall ?? "";
@@ -430,6 +539,10 @@ export function renderSettingsForm(inputs: PaneInputs, onChange: (name: string) 
       }
       if (field.spec.kind === "label") {
         fillLabelChoices(field.control as HTMLSelectElement, labels, value, eventNone());
+        continue;
+      }
+      if (field.spec.kind === "check") {
+        (field.control as HTMLInputElement).checked = isYes(value);
         continue;
       }
       const select = field.control;

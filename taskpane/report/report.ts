@@ -31,6 +31,7 @@ import type { Dataset } from "../../functions/dataset";
 import { bestPointLabel, measureName, measureWithDirection, oddsRatio, type ClassCounts } from "../outcomeWords";
 import { cellName, parseAddress, RangeAddress, spillArea } from "../host/address";
 import type { CellValue, ReportBlock, ReportChart, ReportSheet } from "../host/sheetHost";
+import { heldOutPoints, keptEntries, type HeldOutPoints } from "../charts/assuranceData";
 
 export interface ReportInput {
   result: FitResult;
@@ -44,6 +45,10 @@ export interface ReportInput {
   timestamp: string;
   /** Wanted sheet name; default "Shrinkwise report". */
   name?: string;
+  /** The `interval` setting (a level strictly between 0 and 1), or null/absent for none: the CV+ section measures intervals at it. */
+  interval?: number | null;
+  /** Held-out points already computed by the pane at `interval` (assuranceData.ts), to save computing them again. */
+  heldOut?: HeldOutPoints | null;
 }
 
 export const REPORT_TITLE = "Shrinkwise report";
@@ -267,6 +272,94 @@ export function cutoffRows(score: TwoClassScore, classes: ClassCounts | null): C
   ];
 }
 
+/** The caution under the "how sure" sections: what chose the model, and what kept terms are. */
+export const ASSURANCE_CAUTION =
+  "Caution: the cross-validated error of the chosen point is optimistic, because that same error chose the model; the honest error re-runs the whole choice inside each outer fold. Kept and stable terms are predictive associations in these data, not causes.";
+
+/** Repeats and the honest (nested cross-validation) error beside the optimistic one; null without cross-validation. */
+export function honestRows(result: FitResult): CellValue[][] | null {
+  const cv = result.cv;
+  if (!cv) return null;
+  const measure = measureWithDirection(cv.measure);
+  const rows: CellValue[][] = [
+    ["how sure: the error", "value"],
+    ["cross-validation repeats (deals of the folds)", cv.repeats],
+  ];
+  const chosen = result.choices ? (result.rule === "one-se" ? result.choices.oneSe : result.choices.lowest) : null;
+  const honest = result.honest ?? null;
+  if (chosen) {
+    rows.push([`optimistic CV ${measure} (it chose the model)`, num(honest ? honest.optimistic : chosen.error)], ["± SE (optimistic)", num(chosen.se)]);
+  }
+  if (honest) {
+    rows.push(
+      [`honest CV ${measure} (whole procedure, nested)`, num(honest.error)],
+      ["± SE (honest, over the outer folds)", num(honest.se)],
+      ["outer folds", honest.folds],
+    );
+  } else {
+    rows.push(["honest CV error (whole procedure)", "not run (setting honest error=yes)"]);
+  }
+  return rows;
+}
+
+/**
+ * The interval level and the measured CV+ half-widths over the training rows (assuranceData.ts):
+ * median and 90th percentile, and the share of training rows inside their own interval (a rough
+ * check). Null when no interval level is set. For a yes/no target, one line saying intervals are
+ * for number targets.
+ */
+export function intervalRows(result: FitResult, points: HeldOutPoints | null, level: number | null): CellValue[][] | null {
+  if (level === null) return null;
+  const rows: CellValue[][] = [
+    ["prediction intervals (CV+)", "value"],
+    ["level", level],
+  ];
+  if (result.outcome === "two-class") {
+    rows.push(["note", "prediction intervals are for number targets; a yes/no model gives probabilities"]);
+    return rows;
+  }
+  if (!points) {
+    rows.push(["note", "no cross-validation ran (fixed strength), so there are no held-out rows to build intervals from"]);
+    return rows;
+  }
+  if (points.intervalNote) {
+    rows.push(["note", points.intervalNote]);
+    return rows;
+  }
+  rows.push([points.thinned ? "training rows measured (evenly spread)" : "training rows measured", points.rows.length]);
+  rows.push(["held-out rows the intervals are built from", points.total]);
+  rows.push(["median half-width", points.medianHalfWidth === null ? "" : Number.isFinite(points.medianHalfWidth) ? points.medianHalfWidth : "unbounded (too few rows for the level)"]);
+  rows.push(["90th percentile half-width", points.p90HalfWidth === null ? "" : Number.isFinite(points.p90HalfWidth) ? points.p90HalfWidth : "unbounded (too few rows for the level)"]);
+  rows.push(["share of training rows inside their own interval (rough check)", num(points.inside ?? NaN)]);
+  rows.push([
+    "note",
+    "CV+ (Barber, Candès, Ramdas & Tibshirani 2021): for new rows like these, coverage is at least 1 − 2·(1 − level) in theory, and close to the level in practice; a training row's own residual helps build its interval, so the share above is only a rough check.",
+  ]);
+  return rows;
+}
+
+/** Kept shares (and stability selection) per term, largest kept share first, with the bound; null without cross-validation. */
+export function keptRows(result: FitResult): CellValue[][] | null {
+  const entries = keptEntries(result);
+  if (entries.length === 0) return null;
+  const s = result.stability ?? null;
+  const rows: CellValue[][] = [s ? ["term", "kept in folds", "same sign", "stable share", "stable"] : ["term", "kept in folds", "same sign"]];
+  for (const e of entries) {
+    rows.push(s ? [e.name, num(e.kept), num(e.sameSign), num(e.stableShare ?? NaN), e.stable ? "yes" : "no"] : [e.name, num(e.kept), num(e.sameSign)]);
+  }
+  if (s) {
+    rows.push([
+      "bound on the expected number of falsely selected terms, q²/((2π − 1)·p)",
+      num(s.falseSelectionBound),
+    ]);
+    rows.push([
+      `stability selection at mix ${s.mix}: ${s.draws} pairs of complementary half-samples, q ${s.expectedTerms}, π ${s.threshold}, p ${s.candidates} candidate terms. ` +
+        "The bound (Meinshausen & Bühlmann 2010; Shah & Samworth 2013) assumes the noise terms are selected no more often than chance and the selection does no worse than random guessing.",
+    ]);
+  }
+  return rows;
+}
+
 /**
  * Builds the report sheet for a fit (layout in the file comment). The chart's block is the path
  * block itself (the same object, also in `blocks`).
@@ -288,6 +381,16 @@ export function buildReport(input: ReportInput): ReportSheet {
   left.add(choiceRows(result), true);
   if (twoClass && result.classFit) left.add(cutoffRows(result.classFit, classesOf(dataset)), true);
   left.add(coefficientRows(result, dataset), true);
+  // How sure: repeats and honest error, intervals, kept shares and stability.
+  const honest = honestRows(result);
+  if (honest) left.add(honest, true);
+  const level = input.interval ?? null;
+  const points = level === null ? null : input.heldOut !== undefined && input.heldOut?.level === level ? input.heldOut : heldOutPoints(result, dataset.target, dataset.predictors, level);
+  const intervals = intervalRows(result, points, level);
+  if (intervals) left.add(intervals, true);
+  const kept = keptRows(result);
+  if (kept) left.add(kept, true, kept[0].length === 5 ? [null, FORMATS.decimal, FORMATS.decimal, FORMATS.decimal, null] : [null, FORMATS.decimal, FORMATS.decimal]);
+  if (honest || kept) left.add([[ASSURANCE_CAUTION]], false);
 
   const blocks = [...left.blocks];
   let nextColumn = CV_COLUMN;

@@ -5,7 +5,7 @@
  */
 import { checkMeasure, MEASURES, type FitResult } from "../../../engine/fit";
 import { prepare } from "../../../functions/api";
-import { parseSettings } from "../../../functions/settings";
+import { parseSettings, SETTING_NAMES } from "../../../functions/settings";
 import { qualityColumns, qualityRows, qualityTruth } from "../../../addin/demo/qualityData";
 import { roasteryColumns, roasteryRows } from "../../../addin/demo/roasteryData";
 import { errorChoices, FIELDS, WEIGHTS_FIELD } from "../../../taskpane/pane/settingsForm";
@@ -31,6 +31,7 @@ import {
   settingProblem,
   settingsText,
   shownOutcome,
+  INTERVAL_TWO_CLASS,
 } from "../../../taskpane/pane/paneState";
 
 function fakeOutcome(label = "a"): FitOutcome {
@@ -373,6 +374,46 @@ describe("yes/no (two-class) targets: how the target reads, the settings that fo
     const onNumbers = checkSettings(yesNo, "number");
     expect(Object.keys(onNumbers.fields).sort()).toEqual(["cutoff", "error", "event"]);
     expect(onNumbers.fields.event).toMatch(/^'event' applies to a yes\/no target/);
+  });
+
+  test("an interval level on a yes/no target is refused with a clear message (intervals are for number targets)", () => {
+    const inputs = emptyInputs();
+    inputs.settings.interval = "90%";
+    expect(checkSettings(inputs, "number").ok).toBe(true);
+    expect(checkSettings(inputs, "two-class")).toMatchObject({ ok: false, fields: { interval: INTERVAL_TWO_CLASS } });
+    expect(INTERVAL_TWO_CLASS).toContain("number targets");
+    inputs.settings.interval = "1";
+    expect(checkSettings(inputs, "number").fields.interval).toBe(settingProblem("interval", "1"));
+  });
+
+  test("draws, q and π are checked as values with stability on; without it, the settings together say what to add", () => {
+    const cellMessage = (text: string): string => {
+      try {
+        parseSettings(text);
+      } catch (error) {
+        return (error as Error).message;
+      }
+      throw new Error(`'${text}' was accepted`);
+    };
+    const inputs = emptyInputs();
+    inputs.settings.draws = "3";
+    const alone = checkSettings(inputs);
+    expect(alone.fields.draws).toBeUndefined();
+    if (SETTING_NAMES.includes("stability")) {
+      expect(alone.overall).toBe(cellMessage("draws=3"));
+      inputs.settings.stability = "yes";
+      expect(checkSettings(inputs).ok).toBe(true);
+      inputs.settings.draws = "0";
+      expect(checkSettings(inputs).fields.draws).toBe(cellMessage("stability=yes; draws=0"));
+    }
+  });
+
+  test("the how-sure fields: interval, repeats, honest error and stability (checkboxes), draws, q and π shown with stability", () => {
+    const spec = (name: string) => FIELDS.find((field) => field.name === name);
+    for (const name of ["interval", "repeats", "honest error", "stability", "draws", "q", "stability threshold"]) expect([name, spec(name)?.sure]).toEqual([name, true]);
+    expect(spec("honest error")?.kind).toBe("check");
+    expect(spec("stability")?.kind).toBe("check");
+    expect(FIELDS.filter((field) => field.stabilityOnly).map((field) => field.name)).toEqual(["draws", "q", "stability threshold"]);
   });
 
   test("error choices follow the kind (engine/fit.ts MEASURES), the default first and shown empty", () => {
