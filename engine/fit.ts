@@ -68,6 +68,7 @@ import { SpectralRidge } from "./ridgeSpectral";
 import {
   accumulateSums,
   blockSums,
+  blockSumsOf,
   BlockSums,
   CONSTANT_SPREAD_RATIO,
   emptySums,
@@ -588,7 +589,6 @@ function workingCopy(
 ): { x: ColumnMatrix; y: Float64Array; weights: Float64Array | null; xExponent: Int32Array; yExponent: number } {
   const n = x.rows;
   const p = x.columns;
-  const used = (i: number): boolean => !weights || weights[i] > 0;
   let workWeights: Float64Array | null = null;
   if (weights) {
     let heaviest = 0;
@@ -597,23 +597,38 @@ function workingCopy(
     workWeights = new Float64Array(n);
     for (let i = 0; i < n; i++) workWeights[i] = weights[i] * factor;
   }
+  // Values are finite here (checked before). Plain loops, the weighted test hoisted out: this
+  // pass and the copy below read all n·p values, a noticeable share of a tall fit.
   const largestOf = (values: Float64Array, offset: number): number => {
     let largest = 0;
-    for (let i = 0; i < n; i++) if (used(i)) largest = Math.max(largest, Math.abs(values[offset + i]));
+    if (weights) {
+      for (let i = 0; i < n; i++) {
+        const v = Math.abs(values[offset + i]);
+        if (weights[i] > 0 && v > largest) largest = v;
+      }
+    } else {
+      for (let i = 0; i < n; i++) {
+        const v = Math.abs(values[offset + i]);
+        if (v > largest) largest = v;
+      }
+    }
     return largest;
+  };
+  const copyScaled = (from: Float64Array, offset: number, factor: number, into: Float64Array): void => {
+    if (weights) for (let i = 0; i < n; i++) into[offset + i] = weights[i] > 0 ? from[offset + i] * factor : 0;
+    else for (let i = 0; i < n; i++) into[offset + i] = from[offset + i] * factor;
   };
   // A two-class target stays 0/1 (exponent 0): the log-likelihood needs the classes themselves.
   const yExponent = scaleTarget ? unitExponent(largestOf(y, 0)) : 0;
   const yFactor = powerOfTwo(yExponent);
   const workY = new Float64Array(n);
-  for (let i = 0; i < n; i++) workY[i] = used(i) ? y[i] * yFactor : 0;
+  copyScaled(y, 0, yFactor, workY);
   const xExponent = new Int32Array(p);
   const data = new Float64Array(n * p);
   for (let j = 0; j < p; j++) {
     const off = j * n;
     xExponent[j] = unitExponent(largestOf(x.data, off));
-    const factor = powerOfTwo(xExponent[j]);
-    for (let i = 0; i < n; i++) data[off + i] = used(i) ? x.data[off + i] * factor : 0;
+    copyScaled(x.data, off, powerOfTwo(xExponent[j]), data);
   }
   return { x: { rows: n, columns: p, data }, y: workY, weights: workWeights, xExponent, yExponent };
 }
@@ -715,7 +730,7 @@ function buildProblems(data: Prepared, plan: FoldPlan | null): Problems {
   }
   // One pass: every block's sums; the total is their sum; a fold's training sums are the
   // sum of its training blocks (total minus its own block when it trains on all the rest).
-  const sums = plan.blocks.map((rows) => blockSums(x, y, weights, rows, shiftX, shiftY, signal));
+  const sums = blockSumsOf(x, y, weights, plan.blocks, shiftX, shiftY, signal);
   const total = emptySums(x.columns);
   for (const s of sums) accumulateSums(total, s, 1);
   const full = problemFromSums(total, shiftX, shiftY, options);
@@ -1296,29 +1311,57 @@ function heldOutModels(
   index: number,
 ): { foldModels: FoldModel[]; heldOut: { row: number[]; fold: number[]; residual: number[] } } {
   const foldModels: FoldModel[] = [];
+  const n = data.x.rows;
+  const p = data.x.columns;
+  const K = folds.length;
+  const signal = data.settings.signal;
+  // Each fold's working coefficients and centre parts, and which fold holds each row out (−1: none).
+  const slopes = new Float64Array(K * p);
+  const anchors = new Float64Array(K * p);
+  const offsets = new Float64Array(K * p);
+  const foldOf = new Int32Array(n).fill(-1);
+  const prediction = new Float64Array(n);
+  for (let f = 0; f < K; f++) {
+    throwIfCancelled(signal);
+    const { problem } = folds[f];
+    const working = toOriginal(problem, folds[f].at(index));
+    const coefficients: number[] = [];
+    for (let j = 0; j < p; j++) coefficients.push(pathValueInDataUnits(data, j, working.coefficients[j]));
+    foldModels.push({ intercept: pathValueInDataUnits(data, -1, working.intercept), coefficients });
+    slopes.set(working.coefficients, f * p);
+    anchors.set(problem.std.xAnchor, f * p);
+    offsets.set(problem.std.xOffset, f * p);
+    for (const i of plan.blocks[plan.validateBlock[f]]) {
+      if (data.weights && !(data.weights[i] > 0)) continue;
+      foldOf[i] = f;
+      prediction[i] = problem.std.yOffset;
+    }
+  }
+  // One pass over the data, column by column in row order (each cache line read once, where a
+  // pass per fold over its shuffled rows reads most lines of every column once per fold); each
+  // row's prediction adds the same terms in the same order as row by row: yOffset, then
+  // b_j ((x_j − anchor_j) − offset_j) for j = 0, 1, … with b_j ≠ 0.
+  const values = data.x.data;
+  for (let j = 0; j < p; j++) {
+    throwIfCancelled(signal);
+    const off = j * n;
+    for (let i = 0; i < n; i++) {
+      const f = foldOf[i];
+      if (f < 0) continue;
+      const b = slopes[f * p + j];
+      if (b !== 0) prediction[i] += b * (values[off + i] - anchors[f * p + j] - offsets[f * p + j]);
+    }
+  }
   const row: number[] = [];
   const fold: number[] = [];
   const residual: number[] = [];
-  const n = data.x.rows;
-  for (let f = 0; f < folds.length; f++) {
-    throwIfCancelled(data.settings.signal);
-    const { problem } = folds[f];
-    const standardized = folds[f].at(index);
-    const working = toOriginal(problem, standardized);
-    const coefficients: number[] = [];
-    for (let j = 0; j < problem.p; j++) coefficients.push(pathValueInDataUnits(data, j, working.coefficients[j]));
-    foldModels.push({ intercept: pathValueInDataUnits(data, -1, working.intercept), coefficients });
-    const std = problem.std;
+  for (let f = 0; f < K; f++) {
+    const yAnchor = folds[f].problem.std.yAnchor;
     for (const i of plan.blocks[plan.validateBlock[f]]) {
-      if (data.weights && !(data.weights[i] > 0)) continue;
-      let prediction = std.yOffset;
-      for (let j = 0; j < problem.p; j++) {
-        const b = working.coefficients[j];
-        if (b !== 0) prediction += b * (data.x.data[j * n + i] - std.xAnchor[j] - std.xOffset[j]);
-      }
+      if (foldOf[i] !== f) continue;
       row.push(i);
       fold.push(f);
-      residual.push(scaleByPowerOfTwo(data.y[i] - std.yAnchor - prediction, -data.yExponent));
+      residual.push(scaleByPowerOfTwo(data.y[i] - yAnchor - prediction[i], -data.yExponent));
     }
   }
   return { foldModels, heldOut: { row, fold, residual } };

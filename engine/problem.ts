@@ -202,8 +202,7 @@ export function dotRange(
 }
 
 /**
- * Sums of the listed rows about the shifts. One gather into a contiguous buffer (so the
- * p²/2 dot products are stride-1), then the products. Cost O(rows·p²/2).
+ * Sums of the listed rows about the shifts (`blockSumsOf` with one block). Cost O(rows·p²/2).
  * Values must be finite; rows with weight 0 add nothing.
  */
 export function blockSums(
@@ -215,64 +214,267 @@ export function blockSums(
   shiftY: number,
   signal?: CancelSignal,
 ): BlockSums {
+  return blockSumsOf(x, y, weights, [rows], shiftX, shiftY, signal)[0];
+}
+
+/** Columns per panel of the cross-product kernel: tiles of 4 × 4 products, 16 accumulators. */
+const PANEL = 4;
+
+/**
+ * Values (rows × padded columns) gathered per window of the data: 2^15 doubles, 256 KB, so a
+ * window's panels (twice that with weights) stay in the core's cache while its tiles are formed.
+ */
+const WINDOW_VALUES = 2 ** 15;
+
+/**
+ * The sums of several blocks of rows (the folds' blocks) in one pass over the data.
+ * Every sum is an entry of AᵀΩA, A = [x − shiftX, y − shiftY, 1] (p + 2 columns; the column of
+ * ones gives Σw, Σwx' and Σwy'), so one kernel forms them all:
+ *
+ * - The data are read in windows of consecutive rows (WINDOW_VALUES / padded columns of them).
+ *   Each window's rows are gathered block by block into panels of four columns, row-interleaved
+ *   (panel g holds columns 4g … 4g+3, row t's four values side by side), with the weighted copy
+ *   ΩA beside it. Reading the data in row order touches each cache line once, where gathering a
+ *   block's rows straight from a long column touches most lines of it for every block.
+ * - For each block, its rows of the window are one segment of the panels; every pair of panels
+ *   g ≤ h gives a 4 × 4 tile of products (10 on the diagonal, by symmetry) summed over the
+ *   segment in 16 register accumulators, 8 loads per 16 multiply-adds, then added to the block's
+ *   totals (Goto & van de Geijn, "Anatomy of high-performance matrix multiplication", ACM TOMS
+ *   34(3), 2008: packed panels, register tiles).
+ *
+ * Summation order: each block's rows in increasing row order, summed within a window's segment
+ * and the segments added in window order. It depends only on the shape of the data and the
+ * blocks, never on timing, so results are bit-identical from run to run; the partial sums over
+ * short segments keep the rounding of long blocks small. Cost O(rows·p²/2); a cancel checkpoint
+ * per window.
+ */
+export function blockSumsOf(
+  x: ColumnMatrix,
+  y: ArrayLike<number>,
+  weights: ArrayLike<number> | null,
+  blocks: readonly ArrayLike<number>[],
+  shiftX: Float64Array,
+  shiftY: number,
+  signal?: CancelSignal,
+): BlockSums[] {
   const p = x.columns;
   const n = x.rows;
-  const m = rows.length;
-  const out = emptySums(p);
-  out.rows = m;
-  const shifted = new Float64Array(m * p);
-  const weighted = weights ? new Float64Array(m * p) : shifted;
-  const ys = new Float64Array(m);
-  const ws = new Float64Array(m);
-  let largestY = 0;
-  for (let t = 0; t < m; t++) {
-    const i = rows[t];
-    ws[t] = weights ? weights[i] : 1;
-    ys[t] = y[i] - shiftY;
-    if (ws[t] > 0 && Math.abs(y[i]) > largestY) largestY = Math.abs(y[i]);
-  }
-  out.largestY = largestY;
-  for (let j = 0; j < p; j++) {
-    const src = j * n;
-    const dst = j * m;
-    const shift = shiftX[j];
-    let largest = 0;
-    for (let t = 0; t < m; t++) {
-      const v = x.data[src + rows[t]];
-      shifted[dst + t] = v - shift;
-      if (ws[t] > 0 && Math.abs(v) > largest) largest = Math.abs(v);
-    }
-    out.largest[j] = largest;
-    if (weights) for (let t = 0; t < m; t++) weighted[dst + t] = ws[t] * shifted[dst + t];
-  }
-  let weight = 0;
-  let sumY = 0;
-  let yy = 0;
-  for (let t = 0; t < m; t++) {
-    weight += ws[t];
-    sumY += ws[t] * ys[t];
-    yy += ws[t] * ys[t] * ys[t];
-  }
-  out.weight = weight;
-  out.sumY = sumY;
-  out.yy = yy;
-  const wy = weights ? new Float64Array(m) : ys;
-  if (weights) for (let t = 0; t < m; t++) wy[t] = ws[t] * ys[t];
-  for (let j = 0; j < p; j++) {
-    // Column j's products cost m·(p − j): a checkpoint per column keeps them short.
+  const data = x.data;
+  const K = blocks.length;
+  const q = p + 2;
+  const panels = Math.ceil(q / PANEL);
+  const Q = panels * PANEL;
+  const window = Math.max(PANEL, Math.floor(WINDOW_VALUES / Q));
+  const stride = PANEL * window;
+  const a = new Float64Array(panels * stride);
+  const b = weights ? new Float64Array(panels * stride) : a;
+  const w = new Float64Array(window);
+  const sorted = blocks.map((rows) => Int32Array.from(rows).sort());
+  const cursor = new Int32Array(K);
+  const segment = new Int32Array(K + 1);
+  const totals = blocks.map(() => new Float64Array(Q * Q));
+  const outs = blocks.map((rows) => {
+    const out = emptySums(p);
+    out.rows = rows.length;
+    return out;
+  });
+  for (let i0 = 0; i0 < n; i0 += window) {
     throwIfCancelled(signal);
-    let sx = 0;
-    const off = j * m;
-    for (let t = 0; t < m; t++) sx += weighted[off + t];
-    out.sumX[j] = sx;
-    out.xy[j] = dotRange(shifted, off, wy, 0, m);
-    for (let k = j; k < p; k++) {
-      const v = dotRange(weighted, off, shifted, k * m, m);
-      out.xx[j * p + k] = v;
-      out.xx[k * p + j] = v;
+    const i1 = Math.min(n, i0 + window);
+    // Each block's rows in [i0, i1): a run of its sorted list, placed at segment[k] … segment[k + 1).
+    let count = 0;
+    for (let k = 0; k < K; k++) {
+      segment[k] = count;
+      const list = sorted[k];
+      for (let r = cursor[k]; r < list.length && list[r] < i1; r++) {
+        const i = list[r];
+        if (i < i0) throw new Error(`blockSumsOf: row ${i} is out of range`);
+        w[count++] = weights ? weights[i] : 1;
+      }
+    }
+    segment[K] = count;
+    if (count === 0) continue;
+    for (let j = 0; j < q; j++) {
+      const base = Math.floor(j / PANEL) * stride + (j % PANEL);
+      const values = j < p ? data : j === p ? y : null;
+      const src = j < p ? j * n : 0;
+      const shift = j < p ? shiftX[j] : j === p ? shiftY : 0;
+      for (let k = 0; k < K; k++) {
+        const list = sorted[k];
+        let t = segment[k];
+        const end = segment[k + 1];
+        let r = cursor[k];
+        let largest = 0;
+        if (values) {
+          for (; t < end; t++, r++) {
+            const v = values[src + list[r]];
+            a[base + PANEL * t] = v - shift;
+            if (w[t] > 0 && Math.abs(v) > largest) largest = Math.abs(v);
+          }
+          const out = outs[k];
+          if (j < p) {
+            if (largest > out.largest[j]) out.largest[j] = largest;
+          } else if (largest > out.largestY) out.largestY = largest;
+        } else {
+          for (; t < end; t++) a[base + PANEL * t] = 1;
+        }
+      }
+    }
+    for (let k = 0; k < K; k++) cursor[k] += segment[k + 1] - segment[k];
+    if (weights) {
+      for (let g = 0; g < panels; g++) {
+        const off = g * stride;
+        for (let t = 0; t < count; t++) {
+          const wt = w[t];
+          const o = off + PANEL * t;
+          b[o] = wt * a[o];
+          b[o + 1] = wt * a[o + 1];
+          b[o + 2] = wt * a[o + 2];
+          b[o + 3] = wt * a[o + 3];
+        }
+      }
+    }
+    for (let k = 0; k < K; k++) {
+      if (segment[k + 1] > segment[k]) panelProducts(a, b, stride, panels, segment[k], segment[k + 1], totals[k]);
     }
   }
-  return out;
+  for (let k = 0; k < K; k++) {
+    const list = sorted[k];
+    if (cursor[k] !== list.length) throw new Error(`blockSumsOf: row ${list[cursor[k]]} is out of range`);
+    const out = outs[k];
+    const total = totals[k];
+    for (let j = 0; j < p; j++) {
+      for (let c = j; c < p; c++) {
+        const v = total[j * Q + c];
+        out.xx[j * p + c] = v;
+        out.xx[c * p + j] = v;
+      }
+      out.xy[j] = total[j * Q + p];
+      out.sumX[j] = total[j * Q + p + 1];
+    }
+    out.yy = total[p * Q + p];
+    out.sumY = total[p * Q + p + 1];
+    out.weight = total[(p + 1) * Q + p + 1];
+  }
+  return outs;
+}
+
+/**
+ * `total[r·Q + s] += Σ_t b_r(t) a_s(t)` over the segment t ∈ [t0, t1), for every r ≤ s
+ * (Q = 4·panels): the upper triangle of BᵀA, in tiles of 4 × 4 (see blockSumsOf). Panels are
+ * row-interleaved: column 4g + c at row t is at g·stride + 4t + c.
+ */
+function panelProducts(a: Float64Array, b: Float64Array, stride: number, panels: number, t0: number, t1: number, total: Float64Array): void {
+  const Q = panels * PANEL;
+  for (let g = 0; g < panels; g++) {
+    const bg = g * stride;
+    let s00 = 0;
+    let s01 = 0;
+    let s02 = 0;
+    let s03 = 0;
+    let s11 = 0;
+    let s12 = 0;
+    let s13 = 0;
+    let s22 = 0;
+    let s23 = 0;
+    let s33 = 0;
+    for (let t = t0; t < t1; t++) {
+      const o = bg + PANEL * t;
+      const a0 = a[o];
+      const a1 = a[o + 1];
+      const a2 = a[o + 2];
+      const a3 = a[o + 3];
+      const b0 = b[o];
+      const b1 = b[o + 1];
+      const b2 = b[o + 2];
+      const b3 = b[o + 3];
+      s00 += b0 * a0;
+      s01 += b0 * a1;
+      s02 += b0 * a2;
+      s03 += b0 * a3;
+      s11 += b1 * a1;
+      s12 += b1 * a2;
+      s13 += b1 * a3;
+      s22 += b2 * a2;
+      s23 += b2 * a3;
+      s33 += b3 * a3;
+    }
+    const d = PANEL * g * (Q + 1);
+    total[d] += s00;
+    total[d + 1] += s01;
+    total[d + 2] += s02;
+    total[d + 3] += s03;
+    total[d + Q + 1] += s11;
+    total[d + Q + 2] += s12;
+    total[d + Q + 3] += s13;
+    total[d + 2 * Q + 2] += s22;
+    total[d + 2 * Q + 3] += s23;
+    total[d + 3 * Q + 3] += s33;
+    for (let h = g + 1; h < panels; h++) {
+      const ah = h * stride;
+      let t00 = 0;
+      let t01 = 0;
+      let t02 = 0;
+      let t03 = 0;
+      let t10 = 0;
+      let t11 = 0;
+      let t12 = 0;
+      let t13 = 0;
+      let t20 = 0;
+      let t21 = 0;
+      let t22 = 0;
+      let t23 = 0;
+      let t30 = 0;
+      let t31 = 0;
+      let t32 = 0;
+      let t33 = 0;
+      for (let t = t0; t < t1; t++) {
+        const o = bg + PANEL * t;
+        const u = ah + PANEL * t;
+        const a0 = a[u];
+        const a1 = a[u + 1];
+        const a2 = a[u + 2];
+        const a3 = a[u + 3];
+        const b0 = b[o];
+        t00 += b0 * a0;
+        t01 += b0 * a1;
+        t02 += b0 * a2;
+        t03 += b0 * a3;
+        const b1 = b[o + 1];
+        t10 += b1 * a0;
+        t11 += b1 * a1;
+        t12 += b1 * a2;
+        t13 += b1 * a3;
+        const b2 = b[o + 2];
+        t20 += b2 * a0;
+        t21 += b2 * a1;
+        t22 += b2 * a2;
+        t23 += b2 * a3;
+        const b3 = b[o + 3];
+        t30 += b3 * a0;
+        t31 += b3 * a1;
+        t32 += b3 * a2;
+        t33 += b3 * a3;
+      }
+      const e = PANEL * (g * Q + h);
+      total[e] += t00;
+      total[e + 1] += t01;
+      total[e + 2] += t02;
+      total[e + 3] += t03;
+      total[e + Q] += t10;
+      total[e + Q + 1] += t11;
+      total[e + Q + 2] += t12;
+      total[e + Q + 3] += t13;
+      total[e + 2 * Q] += t20;
+      total[e + 2 * Q + 1] += t21;
+      total[e + 2 * Q + 2] += t22;
+      total[e + 2 * Q + 3] += t23;
+      total[e + 3 * Q] += t30;
+      total[e + 3 * Q + 1] += t31;
+      total[e + 3 * Q + 2] += t32;
+      total[e + 3 * Q + 3] += t33;
+    }
+  }
 }
 
 /**
