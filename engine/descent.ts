@@ -30,7 +30,10 @@
  * every sign is kept and every bound respected (otherwise descent simply continues), so the
  * result is the same solution, reached in far fewer sweeps. The usual KKT check still
  * certifies it. (Active-set/sign-pattern solution of the lasso: Osborne, Presnell & Turlach
- * 2000, IMA J. Numer. Anal. 20(3).)
+ * 2000, IMA J. Numer. Anal. 20(3).) When a strength needed a Newton step, the next one starts
+ * with one (from the extrapolated warm start, on the carried-over active set) rather than
+ * sweeping first: measured on the benchmark shapes, this halves the sweeps of elastic-net paths.
+ * The Cholesky factor is reused while the system is unchanged (solveCached).
  *
  * Screening: the sequential strong rule (Tibshirani et al. 2012, JRSS-B 74(2), eq. 7) keeps
  * j when |g_j(λ_prev)| >= α m_j (2λ − λ_prev); after convergence on the kept set every
@@ -147,6 +150,19 @@ const NEWTON_MAX_ACTIVE = 600;
 const DUAL_REBUILD = 2000;
 /** The Newton step is tried when the sweeps it would save cost this many times its price. */
 const NEWTON_PAYOFF = 1;
+/**
+ * Start each strength with a Newton step when the last one needed one (see solve). Switches for
+ * side-by-side measurement (old vs new behaviour in one process); always on in the engine.
+ */
+export let NEWTON_FIRST = true;
+export function setNewtonFirst(on: boolean): void {
+  NEWTON_FIRST = on;
+}
+/** Keep the Newton system's Cholesky factor for reuse (see solveCached); switch as above. */
+export let FACTOR_CACHE = true;
+export function setFactorCache(on: boolean): void {
+  FACTOR_CACHE = on;
+}
 
 /**
  * Solver state for one training problem and one mix: coefficients, gradient (and residual in
@@ -169,6 +185,12 @@ export class CoordinateDescent {
   private readonly rhsBuffer: Float64Array;
   private readonly rowBuffer: Float64Array;
   private systemBuffer: Float64Array;
+  /** The last Newton system's Cholesky factor, its members and λ(1−α) (see solveCached). */
+  private factorBuffer = new Float64Array(0);
+  private factorMembers = new Int32Array(0);
+  private factorCount = -1;
+  private factorL2 = NaN;
+  private factorOk = false;
   /** The solution before the current one, and the strengths of both (NaN until solved). */
   private history: Float64Array;
   private historySpare: Float64Array;
@@ -199,6 +221,8 @@ export class CoordinateDescent {
   /** Accepted active-set Newton steps (see newtonStep). */
   newtonSteps = 0;
   newtonTries = 0;
+  /** The last solve accepted a Newton step: the next one starts with one (see solve). */
+  private newtonFirst = false;
 
   constructor(problem: TrainingProblem, penalty: PenaltySpec, settings: DescentSettings) {
     this.problem = problem;
@@ -363,8 +387,44 @@ export class CoordinateDescent {
     if (dual) {
       if (!this.dualSolve(members, m, l2, rhs)) return false;
     } else {
-      if (this.systemBuffer.length < m * m) this.systemBuffer = new Float64Array(Math.max(m * m, 2 * this.systemBuffer.length));
-      const system = this.systemBuffer;
+      if (!this.solveCached(members, m, l2, rhs)) return false;
+    }
+    return this.applyStep(members, m, rhs);
+  }
+
+  /**
+   * Solves (B + λ(1−α)M_A) δ = rhs in place, B = G̃_AA (gram) or the cached products (naive).
+   * The Cholesky factor is kept and reused as is (O(m²) instead of O(m³/6)) when the next
+   * system has the same members and λ(1−α): several steps at one strength, or the lasso
+   * (λ(1−α) = 0) along a stretch of the path with an unchanged active set. (Measured and
+   * dropped: B's eigendecomposition, which would serve every shift λ(1−α) for O(m²), costs more
+   * than the Cholesky factorizations it saves on the benchmark paths.) False when the system
+   * is not positive definite.
+   */
+  private solveCached(members: Int32Array, m: number, l2: number, rhs: Float64Array): boolean {
+    const multipliers = this.penalty.multipliers;
+    const same = this.factorCount === m && sameMembers(this.factorMembers, members, m);
+    if (same && this.factorL2 === l2 && this.factorOk) {
+      choleskySubstitute(this.factorBuffer, rhs, m);
+      return true;
+    }
+    if (this.factorBuffer.length < m * m) this.factorBuffer = new Float64Array(Math.max(m * m, 2 * this.factorBuffer.length));
+    const system = this.factorBuffer;
+    this.fillBase(members, m, system, false);
+    for (let a = 0; a < m; a++) system[a * m + a] += l2 * multipliers[members[a]];
+    if (this.factorMembers.length < m) this.factorMembers = new Int32Array(Math.max(m, 2 * this.factorMembers.length));
+    this.factorMembers.set(members.subarray(0, m));
+    this.factorCount = FACTOR_CACHE ? m : -1;
+    this.factorL2 = l2;
+    this.factorOk = choleskySolveInPlace(system, rhs, m);
+    return this.factorOk;
+  }
+
+  /** B's lower triangle (both triangles when `full`) into `out`, m × m row-major. */
+  private fillBase(members: Int32Array, m: number, out: Float64Array, full: boolean): void {
+    const problem = this.problem;
+    {
+      const system = out;
       if (problem.kind === "gram") {
         const gram = problem.gram as Float64Array;
         const p = problem.p;
@@ -381,10 +441,16 @@ export class CoordinateDescent {
           for (let b = 0; b <= a; b++) system[a * m + b] = cache[row + slots[b]];
         }
       }
-      for (let a = 0; a < m; a++) system[a * m + a] += l2 * multipliers[members[a]];
-      if (!choleskySolveInPlace(system, rhs, m)) return false;
+      if (full) {
+        for (let a = 0; a < m; a++) for (let b = 0; b < a; b++) system[b * m + a] = system[a * m + b];
+      }
     }
-    const step = rhs;
+  }
+
+  /** Steps along δ (in `step`) as far as signs and bounds allow; see newtonStep. */
+  private applyStep(members: Int32Array, m: number, step: Float64Array): boolean {
+    const { lower, upper } = this.penalty;
+    const coef = this.coef;
     // Along b + tδ the objective is exactly the quadratic model until the first coefficient
     // reaches zero or a bound, so stepping to min(1, that t) always lowers the objective; the
     // coefficient that got there is set exactly onto it and descent takes over again.
@@ -395,6 +461,7 @@ export class CoordinateDescent {
       const j = members[a];
       const b = coef[j];
       const d = step[a];
+      if (!Number.isFinite(d)) return false;
       if (d === 0) continue;
       const edge = d < 0 ? Math.max(b > 0 ? 0 : -Infinity, lower[j]) : Math.min(b < 0 ? 0 : Infinity, upper[j]);
       const t = (edge - b) / d;
@@ -648,6 +715,18 @@ export class CoordinateDescent {
     let converged = true;
     let misses = 0;
     const l1 = lambda * mix;
+    const stepsBefore = this.newtonSteps;
+    if (this.newtonFirst && NEWTON_FIRST && (mix < 1 || this.problem.kind === "naive")) {
+      // The previous strength needed a Newton step: its active set and signs usually carry over,
+      // so step at once from the extrapolated start instead of sweeping towards it first
+      // (the sweeps below then confirm the result, or carry on if a sign changed).
+      let activeCount = 0;
+      for (let t = 0; t < count; t++) if (coef[set[t]] !== 0) active[activeCount++] = set[t];
+      if (activeCount > 0 && (activeCount <= NEWTON_MAX_ACTIVE || (this.problem.kind === "naive" && this.problem.n <= NEWTON_MAX_ACTIVE && mix < 1))) {
+        this.newtonTries++;
+        this.newtonStep(active, activeCount, lambda);
+      }
+    }
     outer: for (;;) {
       // Converge on the strong set, cycling on its nonzero members between full passes.
       for (;;) {
@@ -711,6 +790,7 @@ export class CoordinateDescent {
       misses += added;
     }
     if (!converged) this.refreshGradient();
+    this.newtonFirst = this.newtonSteps > stepsBefore;
     const spare = this.history;
     this.history = this.historySpare;
     this.historySpare = spare;
@@ -821,5 +901,25 @@ export function choleskySolveInPlace(system: Float64Array, rhs: Float64Array, m:
     for (let k = a + 1; k < m; k++) s -= system[k * m + a] * rhs[k];
     rhs[a] = s / system[a * m + a];
   }
+  return true;
+}
+
+/** Forward and back substitution with a Cholesky factor L (lower triangle of `factor`): rhs ← (LLᵀ)⁻¹ rhs. */
+export function choleskySubstitute(factor: Float64Array, rhs: Float64Array, m: number): void {
+  for (let a = 0; a < m; a++) {
+    let s = rhs[a];
+    const rowA = a * m;
+    for (let k = 0; k < a; k++) s -= factor[rowA + k] * rhs[k];
+    rhs[a] = s / factor[rowA + a];
+  }
+  for (let a = m - 1; a >= 0; a--) {
+    let s = rhs[a];
+    for (let k = a + 1; k < m; k++) s -= factor[k * m + a] * rhs[k];
+    rhs[a] = s / factor[a * m + a];
+  }
+}
+
+function sameMembers(a: Int32Array, b: Int32Array, m: number): boolean {
+  for (let t = 0; t < m; t++) if (a[t] !== b[t]) return false;
   return true;
 }
