@@ -33,12 +33,13 @@
  * 2000, IMA J. Numer. Anal. 20(3).) When a strength needed a Newton step, the next one starts
  * with one (from the extrapolated warm start, on the carried-over active set) rather than
  * sweeping first: measured on the benchmark shapes, this halves the sweeps of elastic-net paths.
- * The Cholesky factor is reused while the system is unchanged (solveCached).
+ * The Cholesky factor is kept and edited as the active set changes (solveCached, activeFactor.ts).
  *
  * Screening: the sequential strong rule (Tibshirani et al. 2012, JRSS-B 74(2), eq. 7) keeps
  * j when |g_j(λ_prev)| >= α m_j (2λ − λ_prev); after convergence on the kept set every
  * discarded predictor's KKT condition is checked and violators are added back.
  */
+import { ActiveFactor, EntrySource } from "./activeFactor";
 import { CancelSignal, throwIfCancelled } from "./errors";
 import { portableLog } from "./portableMath";
 import { dotRange, TrainingProblem } from "./problem";
@@ -185,12 +186,8 @@ export class CoordinateDescent {
   private readonly rhsBuffer: Float64Array;
   private readonly rowBuffer: Float64Array;
   private systemBuffer: Float64Array;
-  /** The last Newton system's Cholesky factor, its members and λ(1−α) (see solveCached). */
-  private factorBuffer = new Float64Array(0);
-  private factorMembers = new Int32Array(0);
-  private factorCount = -1;
-  private factorL2 = NaN;
-  private factorOk = false;
+  /** The last Newton system's Cholesky factor (see solveCached). */
+  private factor: ActiveFactor | null = null;
   /** The solution before the current one, and the strengths of both (NaN until solved). */
   private history: Float64Array;
   private historySpare: Float64Array;
@@ -393,58 +390,35 @@ export class CoordinateDescent {
   }
 
   /**
-   * Solves (B + λ(1−α)M_A) δ = rhs in place, B = G̃_AA (gram) or the cached products (naive).
-   * The Cholesky factor is kept and reused as is (O(m²) instead of O(m³/6)) when the next
-   * system has the same members and λ(1−α): several steps at one strength, or the lasso
-   * (λ(1−α) = 0) along a stretch of the path with an unchanged active set. (Measured and
-   * dropped: B's eigendecomposition, which would serve every shift λ(1−α) for O(m²), costs more
-   * than the Cholesky factorizations it saves on the benchmark paths.) False when the system
-   * is not positive definite.
+   * Solves (B + λ(1−α)M_A) δ = rhs in place, B = G̃_AA (gram) or the cached products (naive),
+   * with the factor kept from the previous Newton step and edited to the new members when the
+   * shift λ(1−α) is the same (activeFactor.ts): along a lasso path (shift 0) and between the
+   * steps at one strength, a changed active set costs O(m²) per column instead of O(m³/6).
+   * False when the system is not positive definite.
    */
   private solveCached(members: Int32Array, m: number, l2: number, rhs: Float64Array): boolean {
     const multipliers = this.penalty.multipliers;
-    const same = this.factorCount === m && sameMembers(this.factorMembers, members, m);
-    if (same && this.factorL2 === l2 && this.factorOk) {
-      choleskySubstitute(this.factorBuffer, rhs, m);
-      return true;
+    const factor = (this.factor ??= new ActiveFactor(this.problem.p));
+    const diagonal = (j: number): number => l2 * multipliers[j];
+    let entry: EntrySource;
+    if (this.problem.kind === "gram") {
+      const gram = this.problem.gram as Float64Array;
+      const p = this.problem.p;
+      entry = (a, b) => gram[a * p + b];
+    } else {
+      this.productSlots(members, m);
+      const cache = this.productCache;
+      const stride = this.productCapacity;
+      const slotOf = this.slotOf;
+      entry = (a, b) => cache[slotOf[a] * stride + slotOf[b]];
     }
-    if (this.factorBuffer.length < m * m) this.factorBuffer = new Float64Array(Math.max(m * m, 2 * this.factorBuffer.length));
-    const system = this.factorBuffer;
-    this.fillBase(members, m, system, false);
-    for (let a = 0; a < m; a++) system[a * m + a] += l2 * multipliers[members[a]];
-    if (this.factorMembers.length < m) this.factorMembers = new Int32Array(Math.max(m, 2 * this.factorMembers.length));
-    this.factorMembers.set(members.subarray(0, m));
-    this.factorCount = FACTOR_CACHE ? m : -1;
-    this.factorL2 = l2;
-    this.factorOk = choleskySolveInPlace(system, rhs, m);
-    return this.factorOk;
-  }
-
-  /** B's lower triangle (both triangles when `full`) into `out`, m × m row-major. */
-  private fillBase(members: Int32Array, m: number, out: Float64Array, full: boolean): void {
-    const problem = this.problem;
-    {
-      const system = out;
-      if (problem.kind === "gram") {
-        const gram = problem.gram as Float64Array;
-        const p = problem.p;
-        for (let a = 0; a < m; a++) {
-          const off = members[a] * p;
-          for (let b = 0; b <= a; b++) system[a * m + b] = gram[off + members[b]];
-        }
-      } else {
-        const slots = this.productSlots(members, m);
-        const cache = this.productCache;
-        const stride = this.productCapacity;
-        for (let a = 0; a < m; a++) {
-          const row = slots[a] * stride;
-          for (let b = 0; b <= a; b++) system[a * m + b] = cache[row + slots[b]];
-        }
-      }
-      if (full) {
-        for (let a = 0; a < m; a++) for (let b = 0; b < a; b++) system[b * m + a] = system[a * m + b];
-      }
-    }
+    let ok = false;
+    if (FACTOR_CACHE && factor.count > 0 && factor.shift === l2) ok = factor.update(members, m, Math.max(2, m >> 3), diagonal, entry);
+    if (!ok) ok = factor.rebuild(members, m, l2, diagonal, entry);
+    if (!ok) return false;
+    factor.solve(members, m, rhs);
+    if (!FACTOR_CACHE) factor.clear();
+    return true;
   }
 
   /** Steps along δ (in `step`) as far as signs and bounds allow; see newtonStep. */
@@ -901,25 +875,5 @@ export function choleskySolveInPlace(system: Float64Array, rhs: Float64Array, m:
     for (let k = a + 1; k < m; k++) s -= system[k * m + a] * rhs[k];
     rhs[a] = s / system[a * m + a];
   }
-  return true;
-}
-
-/** Forward and back substitution with a Cholesky factor L (lower triangle of `factor`): rhs ← (LLᵀ)⁻¹ rhs. */
-export function choleskySubstitute(factor: Float64Array, rhs: Float64Array, m: number): void {
-  for (let a = 0; a < m; a++) {
-    let s = rhs[a];
-    const rowA = a * m;
-    for (let k = 0; k < a; k++) s -= factor[rowA + k] * rhs[k];
-    rhs[a] = s / factor[rowA + a];
-  }
-  for (let a = m - 1; a >= 0; a--) {
-    let s = rhs[a];
-    for (let k = a + 1; k < m; k++) s -= factor[k * m + a] * rhs[k];
-    rhs[a] = s / factor[a * m + a];
-  }
-}
-
-function sameMembers(a: Int32Array, b: Int32Array, m: number): boolean {
-  for (let t = 0; t < m; t++) if (a[t] !== b[t]) return false;
   return true;
 }
