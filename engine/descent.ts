@@ -166,6 +166,11 @@ export let CERTIFIED_CHECK = true;
 export function setCertifiedCheck(on: boolean): void {
   CERTIFIED_CHECK = on;
 }
+/** After a full Newton step go straight to the strong-set sweep (see solve); switch as above. */
+export let SKIP_AFTER_FULL = true;
+export function setSkipAfterFull(on: boolean): void {
+  SKIP_AFTER_FULL = on;
+}
 /** Keep the Newton system's Cholesky factor for reuse (see solveCached); switch as above. */
 export let FACTOR_CACHE = true;
 export function setFactorCache(on: boolean): void {
@@ -238,6 +243,8 @@ export class CoordinateDescent {
   /** Accepted active-set Newton steps (see newtonStep). */
   newtonSteps = 0;
   newtonTries = 0;
+  /** The last accepted Newton step went all the way (no coefficient stopped at 0 or a bound). */
+  private lastStepFull = false;
   /** The last solve accepted a Newton step: the next one starts with one (see solve). */
   private newtonFirst = false;
 
@@ -554,6 +561,7 @@ export class CoordinateDescent {
       this.applyChange(j, delta);
     }
     this.newtonSteps++;
+    this.lastStepFull = stopper < 0;
     return true;
   }
 
@@ -839,7 +847,9 @@ export class CoordinateDescent {
             if (remaining * sweepCost > NEWTON_PAYOFF * newtonCost) {
               sinceNewton = 0;
               this.newtonTries++;
-              this.newtonStep(active, activeCount, lambda);
+              // A full step solved the active set's conditions exactly: confirm on the strong set
+              // at once rather than with one more sweep of the active set first.
+              if (this.newtonStep(active, activeCount, lambda) && this.lastStepFull && SKIP_AFTER_FULL) break;
             }
           }
           previousChange = change;
