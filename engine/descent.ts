@@ -57,7 +57,7 @@
  *   refreshCertified skips ~60% of the KKT products for every mix instead.
  * - Anderson acceleration of the active-set sweeps (Bertrand & Massias 2021, AISTATS; K = 5,
  *   accepted only when the objective falls): without the Newton step it cut sweeps 3–6× on
- *   200×2000 and ~11% on 1000×50, but the paths stayed 1.5–8× slower than with the Newton step;
+ *   200×2000 and ~11% on 1000×50, but the paths stayed 2–9× slower than with the Newton step;
  *   with it, the Newton step comes first and Anderson never fires.
  */
 import { ActiveFactor, EntrySource } from "./activeFactor";
