@@ -60,7 +60,7 @@
  *   200×2000 and ~11% on 1000×50, but the paths stayed 2–9× slower than with the Newton step;
  *   with it, the Newton step comes first and Anderson never fires.
  */
-import { ActiveFactor, EntrySource } from "./activeFactor";
+import { ActiveFactor, choleskyRows, EntrySource } from "./activeFactor";
 import { CancelSignal, throwIfCancelled } from "./errors";
 import { portableLog } from "./portableMath";
 import { dotRange, TrainingProblem } from "./problem";
@@ -979,21 +979,8 @@ export class CoordinateDescent {
 export function choleskySolveInPlace(system: Float64Array, rhs: Float64Array, m: number): boolean {
   let largestDiagonal = 0;
   for (let a = 0; a < m; a++) largestDiagonal = Math.max(largestDiagonal, system[a * m + a]);
-  for (let a = 0; a < m; a++) {
-    const rowA = a * m;
-    for (let b = 0; b <= a; b++) {
-      const rowB = b * m;
-      // The inner product of two stride-1 rows of L, with four accumulators (dotRange) so the
-      // loop is not bound by the latency of one running sum.
-      const s = system[rowA + b] - dotRange(system, rowA, system, rowB, b);
-      if (a === b) {
-        if (!(s > 1e-12 * largestDiagonal)) return false;
-        system[rowA + a] = Math.sqrt(s);
-      } else {
-        system[rowA + b] = s / system[rowB + b];
-      }
-    }
-  }
+  // Two rows at a time, stride-1 inner products (activeFactor.ts choleskyRows).
+  if (!choleskyRows(system, m, m, 1e-12 * largestDiagonal)) return false;
   for (let a = 0; a < m; a++) {
     let s = rhs[a];
     const rowA = a * m;
