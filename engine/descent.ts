@@ -21,6 +21,8 @@
  * i.e. no coordinate's own optimality residual exceeded tol relative to λ during the sweep. The
  * target is standardized (problem.ts: sd(ỹ) = 1), so the test and the KKT figure are unit-free.
  * Each strength has a sweep cap; hitting it is reported (converged = false), never silent.
+ * Moves below 1e-3 of that threshold (rounding after an exact Newton step) are not applied:
+ * their O(p) or O(n) update is skipped (20000×100 paths about 0.8× the time).
  *
  * Active-set Newton step: when coordinate descent crawls (strongly correlated active
  * predictors, or more active predictors than rows) and the active set and its signs have
@@ -179,6 +181,11 @@ const NEWTON_PAYOFF = 1;
 export let NEWTON_FIRST = true;
 export function setNewtonFirst(on: boolean): void {
   NEWTON_FIRST = on;
+}
+/** Coordinate moves below this fraction of the convergence threshold are not applied (see sweep). */
+export let NEGLIGIBLE = 1e-3;
+export function setNegligible(v: number): void {
+  NEGLIGIBLE = v;
 }
 /** Residual form: KKT passes whose residuals are kept for certifying gradients by a bound. */
 const SNAPSHOTS = 6;
@@ -364,6 +371,7 @@ export class CoordinateDescent {
     const l2 = lambda * (1 - mix);
     const signal = this.settings.signal;
     throwIfCancelled(signal);
+    const negligible = NEGLIGIBLE * this.threshold(lambda);
     let largest = 0;
     for (let t = 0; t < count; t++) {
       if (t % CHECK_EVERY === CHECK_EVERY - 1) throwIfCancelled(signal);
@@ -379,7 +387,12 @@ export class CoordinateDescent {
       else if (value > upper[j]) value = upper[j];
       const delta = value - old;
       if (delta !== 0) {
-        if (Math.sign(value) !== Math.sign(old) || value === lower[j] || value === upper[j]) this.patternChanged = true;
+        const edge = Math.sign(value) !== Math.sign(old) || value === lower[j] || value === upper[j];
+        // A move far below the convergence threshold (rounding after an exact Newton step) is
+        // not worth its O(n) or O(p) update: leaving it changes j's KKT residual by less than
+        // NEGLIGIBLE × tolerance × λ.
+        if (!edge && denominator * Math.abs(delta) <= negligible) continue;
+        if (edge) this.patternChanged = true;
         coef[j] = value;
         this.applyChange(j, delta);
         if (naive) grad[j] = g - d * delta;
