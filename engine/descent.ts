@@ -182,6 +182,11 @@ export let NEWTON_FIRST = true;
 export function setNewtonFirst(on: boolean): void {
   NEWTON_FIRST = on;
 }
+/** Trust the kept predictors' gradients after a sweep that moved nothing (see refreshCertified); switch as above. */
+export let SETTLED_SKIP = true;
+export function setSettledSkip(on: boolean): void {
+  SETTLED_SKIP = on;
+}
 /** Coordinate moves below this fraction of the convergence threshold are not applied (see sweep). */
 export let NEGLIGIBLE = 1e-3;
 export function setNegligible(v: number): void {
@@ -271,6 +276,8 @@ export class CoordinateDescent {
   /** Accepted active-set Newton steps (see newtonStep). */
   newtonSteps = 0;
   newtonTries = 0;
+  /** The last sweep applied at least one move (else r did not change during it). */
+  private sweepMoved = false;
   /** The last accepted Newton step went all the way (no coefficient stopped at 0 or a bound). */
   private lastStepFull = false;
   /** The last solve accepted a Newton step: the next one starts with one (see solve). */
@@ -372,6 +379,7 @@ export class CoordinateDescent {
     const signal = this.settings.signal;
     throwIfCancelled(signal);
     const negligible = NEGLIGIBLE * this.threshold(lambda);
+    this.sweepMoved = false;
     let largest = 0;
     for (let t = 0; t < count; t++) {
       if (t % CHECK_EVERY === CHECK_EVERY - 1) throwIfCancelled(signal);
@@ -393,6 +401,7 @@ export class CoordinateDescent {
         // NEGLIGIBLE × tolerance × λ.
         if (!edge && denominator * Math.abs(delta) <= negligible) continue;
         if (edge) this.patternChanged = true;
+        this.sweepMoved = true;
         coef[j] = value;
         this.applyChange(j, delta);
         if (naive) grad[j] = g - d * delta;
@@ -422,16 +431,17 @@ export class CoordinateDescent {
    *   |g_j| <= |g_j⁰| + ‖x̃_j‖_ω ‖r − r⁰‖_ω,   ‖x̃_j‖_ω² = d_j,
    * so when that bound is below λα m_j, j's coefficient 0 meets its KKT condition and the O(n)
    * product is skipped. This is the sphere test of El Ghaoui, Viallon & Rabbani 2012 (Pacific J.
-   * Optim. 8(4), "Safe feature elimination in sparse supervised learning", the sphere test), with the ball
-   * around the earlier residual whose radius is the residual's movement since, the same bound
-   * that gap safe rules apply to a ball from the duality gap (Ndiaye, Fercoq, Gramfort & Salmon
-   * 2017, JMLR 18(128)); it needs no gap and holds for every mix and multiplier. Every predictor
-   * the strong rule kept, every nonzero one and every one whose bound fails is computed exactly
-   * (and becomes its own anchor). A certified predictor keeps g_j⁰ in `grad`: |g_j⁰| is below the
+   * Optim. 8(4), "Safe feature elimination in sparse supervised learning"), with the ball around
+   * the earlier residual whose radius is the residual's movement since: the same bound that gap
+   * safe rules apply to a ball from the duality gap (Ndiaye, Fercoq, Gramfort & Salmon 2017,
+   * JMLR 18(128)); it needs no gap and holds for every mix and multiplier. Every predictor the
+   * strong rule kept (unless `settled`: the last sweep computed all of them at the current
+   * residual and applied no move), every nonzero one and every one whose bound fails is computed
+   * exactly (and becomes its own anchor). A certified predictor keeps g_j⁰ in `grad`: |g_j⁰| is below the
    * threshold too, so every KKT verdict and the reported violation (0) are the exact ones.
    * Rounding: the bound is widened by 1e-9 of itself and 1e-14·max(λ, floor).
    */
-  private refreshCertified(lambda: number): void {
+  private refreshCertified(lambda: number, settled: boolean): void {
     const problem = this.problem;
     if (problem.kind !== "naive") return;
     const n = problem.n;
@@ -472,6 +482,12 @@ export class CoordinateDescent {
     for (let j = 0; j < p; j++) {
       if (frozen[j]) {
         grad[j] = 0;
+        continue;
+      }
+      if (settled && strong[j]) {
+        // Computed by the last sweep at the current residual (see solve): exact already.
+        anchorGrad[j] = grad[j];
+        anchorPass[j] = pass;
         continue;
       }
       const at = anchorPass[j];
@@ -841,6 +857,7 @@ export class CoordinateDescent {
         this.newtonStep(active, activeCount, lambda);
       }
     }
+    let settled = false;
     outer: for (;;) {
       // Converge on the strong set, cycling on its nonzero members between full passes.
       for (;;) {
@@ -849,7 +866,11 @@ export class CoordinateDescent {
           break outer;
         }
         sweeps++;
-        if (this.sweep(set, count, lambda) <= limit) break;
+        if (this.sweep(set, count, lambda) <= limit) {
+          // No move applied: r is the one every kept predictor's gradient was just computed at.
+          settled = SETTLED_SKIP && !this.sweepMoved;
+          break;
+        }
         let activeCount = 0;
         for (let t = 0; t < count; t++) if (coef[set[t]] !== 0) active[activeCount++] = set[t];
         let sinceNewton = 0;
@@ -890,7 +911,7 @@ export class CoordinateDescent {
         }
       }
       // KKT check on everything the strong rule set aside.
-      if (CERTIFIED_CHECK) this.refreshCertified(lambda);
+      if (CERTIFIED_CHECK) this.refreshCertified(lambda, settled);
       else this.refreshGradient();
       let added = 0;
       for (let j = 0; j < p; j++) {
