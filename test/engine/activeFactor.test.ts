@@ -1,0 +1,79 @@
+/**
+ * The edited Cholesky factor of the Newton system (engine/activeFactor.ts) solves the same system
+ * as a fresh LU solve of it computed another way with ml-matrix (`solve`), after any sequence of
+ * columns joining and leaving (Golub & Van Loan, Matrix Computations §6.5.4: the edited factor is
+ * a Cholesky factor of the edited matrix, so its solve must agree).
+ */
+import fc from "fast-check";
+import { Matrix, solve } from "ml-matrix";
+import { ActiveFactor } from "../../engine/activeFactor";
+import { TestRandom } from "../helpers/random";
+
+/** A p × p Gram matrix XᵀX / n of random columns (positive definite for n > p). */
+function gramOf(p: number, random: TestRandom): Float64Array {
+  const n = p + 5;
+  const x = Array.from({ length: n * p }, () => random.normal());
+  const g = new Float64Array(p * p);
+  for (let a = 0; a < p; a++) {
+    for (let b = 0; b < p; b++) {
+      let s = 0;
+      for (let i = 0; i < n; i++) s += x[a * n + i] * x[b * n + i];
+      g[a * p + b] = s / n;
+    }
+  }
+  return g;
+}
+
+describe("ActiveFactor", () => {
+  test("after joins and leaves, solves agree with an LU solve of the edited system (ml-matrix)", () => {
+    fc.assert(
+      fc.property(fc.integer({ min: 0, max: 0x7fffffff }), fc.boolean(), (seed, shifted) => {
+        const random = new TestRandom(seed);
+        const p = 12;
+        const gram = gramOf(p, random);
+        const shift = shifted ? 0.3 : 0;
+        const multipliers = Array.from({ length: p }, () => 0.5 + random.uniform());
+        const diagonal = (j: number): number => shift * multipliers[j];
+        const entry = (a: number, b: number): number => gram[a * p + b];
+        const factor = new ActiveFactor(p);
+        let members = [0, 3, 5, 7];
+        expect(factor.rebuild(Int32Array.from(members), members.length, shift, diagonal, entry)).toBe(true);
+        for (let step = 0; step < 8; step++) {
+          // Drop one member, add up to two new ones (in a shuffled order).
+          const drop = Math.floor(random.uniform() * members.length);
+          members = members.filter((_, t) => t !== drop);
+          for (let k = 0; k < 2; k++) {
+            const j = Math.floor(random.uniform() * p);
+            if (!members.includes(j)) members.splice(Math.floor(random.uniform() * (members.length + 1)), 0, j);
+          }
+          const m = members.length;
+          const list = Int32Array.from(members);
+          if (!factor.update(list, m, p, diagonal, entry)) expect(factor.rebuild(list, m, shift, diagonal, entry)).toBe(true);
+          const rhs = Float64Array.from({ length: m }, () => random.normal());
+          const system = Matrix.zeros(m, m);
+          for (let a = 0; a < m; a++) for (let b = 0; b < m; b++) system.set(a, b, entry(members[a], members[b]) + (a === b ? diagonal(members[a]) : 0));
+          const reference = solve(system, Matrix.columnVector(Array.from(rhs))).getColumn(0);
+          factor.solve(list, m, rhs);
+          for (let a = 0; a < m; a++) expect(Math.abs(rhs[a] - reference[a])).toBeLessThanOrEqual(1e-9 * (1 + Math.abs(reference[a])));
+        }
+      }),
+      { numRuns: 40 },
+    );
+  });
+
+  test("refuses more edits than allowed, and a singular system", () => {
+    const p = 4;
+    const gram = new Float64Array(p * p);
+    // Columns 0 and 1 identical: B restricted to {0, 1} is singular without a shift.
+    for (let a = 0; a < p; a++) gram[a * p + a] = 1;
+    gram[1] = gram[4] = 1;
+    const entry = (a: number, b: number): number => gram[a * p + b];
+    const factor = new ActiveFactor(p);
+    expect(factor.rebuild(Int32Array.of(0, 2), 2, 0, () => 0, entry)).toBe(true);
+    expect(factor.update(Int32Array.of(1, 3), 2, 2, () => 0, entry)).toBe(false);
+    expect(factor.count).toBe(0);
+    expect(factor.rebuild(Int32Array.of(0, 1), 2, 0, () => 0, entry)).toBe(false);
+    expect(factor.rebuild(Int32Array.of(0), 1, 0, () => 0, entry)).toBe(true);
+    expect(factor.update(Int32Array.of(0, 1), 2, 4, () => 0, entry)).toBe(false);
+  });
+});
