@@ -60,6 +60,8 @@ export interface CommandOptions {
   intercept: boolean;
   /** Print one JSON object instead of the readable report. */
   json: boolean;
+  /** Worker threads for the folds and mixes: a whole number from 1, or "auto" (the cores available); null: 1, no workers. */
+  threads?: number | "auto" | null;
 }
 
 export type ParsedCommand = { help: true } | { help: false; options: CommandOptions };
@@ -114,6 +116,10 @@ Cross-validation
   --rule lowest|one-se      lowest error (default), or the one-SE rule: the strongest penalty
                             whose error is within one standard error of the lowest
 
+Speed
+  --threads <n>|auto        fit the folds and mixes on n worker threads (auto: one per core);
+                            the result is the same, bit for bit (default 1: no workers)
+
 Output
   --json                    print one JSON object
   --help                    show this text
@@ -157,6 +163,7 @@ const OPTIONS: Record<string, Kind> = {
   event: "text",
   cutoff: "number",
   json: "flag",
+  threads: "text",
   help: "flag",
 };
 
@@ -311,6 +318,15 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
   if (seed !== null && !(Number.isInteger(seed) && Math.abs(seed) <= MAX_SEED)) {
     throw new CommandError(`--seed must be a whole number from -${MAX_SEED} to ${MAX_SEED}; got '${text("seed") as string}'`);
   }
+  const threadsText = text("threads");
+  let threads: number | "auto" | null = null;
+  if (threadsText !== null) {
+    const value = threadsText.trim().toLowerCase() === "auto" ? "auto" : parseNumber(threadsText);
+    if (value === null || (value !== "auto" && !(Number.isInteger(value) && value >= 1 && value <= 256))) {
+      throw new CommandError(`--threads must be a whole number from 1 to 256, or auto; got '${threadsText}'`);
+    }
+    threads = value;
+  }
   const count = number("count");
   if (count === 1 && strength === null) {
     throw new CommandError(
@@ -345,6 +361,8 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
       standardize: !seen.has("no-standardize"),
       intercept: !seen.has("no-intercept"),
       json: seen.has("json"),
+      // Only when given: the options object is otherwise what it always was.
+      ...(threads !== null ? { threads } : {}),
     },
   };
 }

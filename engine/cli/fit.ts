@@ -5,7 +5,8 @@
  * calls are pure functions tested on their own (test/cli/).
  */
 import { readFileSync } from "fs";
-import { checkMeasure, fit } from "../fit";
+import { checkMeasure, fit, FitOptions, FitResult } from "../fit";
+import { fitParallel } from "../node/threadPool";
 import { CommandError, parseArgs, toFitOptions, USAGE } from "./args";
 import { failureLine, jsonText, textReport } from "./format";
 import { readFitTable } from "./table";
@@ -28,8 +29,43 @@ export function readInput(file: string): string {
   }
 }
 
-/** Runs the command on `argv` (the arguments after `npm run fit --`); never throws. */
+/** Runs the command on `argv` (the arguments after `npm run fit --`); never throws. --threads is ignored here (see runCommandAsync). */
 export function runCommand(argv: readonly string[], read: (file: string) => string = readInput): CommandOutcome {
+  const step = commandSteps(argv, read);
+  let next = step.next();
+  while (!next.done) {
+    const [x, y, options] = next.value;
+    let result: FitResult;
+    try {
+      result = fit(x, y, options);
+    } catch (error) {
+      next = step.throw(error);
+      continue;
+    }
+    next = step.next(result);
+  }
+  return next.value;
+}
+
+/** As runCommand, with the folds and mixes on --threads worker threads (engine/node/threadPool.ts): the same output. */
+export async function runCommandAsync(argv: readonly string[], read: (file: string) => string = readInput): Promise<CommandOutcome> {
+  const step = commandSteps(argv, read);
+  let next = step.next();
+  while (!next.done) {
+    const [x, y, options, threads] = next.value;
+    try {
+      next = step.next(await fitParallel(x, y, options, { threads: threads ?? 1 }));
+    } catch (error) {
+      next = step.throw(error);
+    }
+  }
+  return next.value;
+}
+
+type FitCall = [number[][], ArrayLike<number>, FitOptions, number | "auto" | null];
+
+/** The command as steps: yields the one fit it needs (the caller runs it) and returns the outcome; never throws. */
+function* commandSteps(argv: readonly string[], read: (file: string) => string): Generator<FitCall, CommandOutcome, FitResult> {
   try {
     const command = parseArgs(argv);
     if (command.help) return { exitCode: 0, stdout: USAGE + "\n", stderr: "" };
@@ -61,11 +97,12 @@ export function runCommand(argv: readonly string[], read: (file: string) => stri
         );
       }
     }
-    const result = fit(
+    const result: FitResult = yield [
       table.predictors,
       table.targetValues,
       toFitOptions(options, { names: table.predictorNames, weights: table.weights, foldLabels: table.foldLabels, outcome: table.outcome }),
-    );
+      options.threads ?? null,
+    ];
     const context = { table, foldColumn: options.foldColumn };
     return { exitCode: 0, stdout: options.json ? jsonText(result, context) : textReport(result, context), stderr: "" };
   } catch (error) {
@@ -75,8 +112,9 @@ export function runCommand(argv: readonly string[], read: (file: string) => stri
 }
 
 if (require.main === module) {
-  const outcome = runCommand(process.argv.slice(2));
-  process.stdout.write(outcome.stdout);
-  process.stderr.write(outcome.stderr);
-  process.exitCode = outcome.exitCode;
+  void runCommandAsync(process.argv.slice(2)).then((outcome) => {
+    process.stdout.write(outcome.stdout);
+    process.stderr.write(outcome.stderr);
+    process.exitCode = outcome.exitCode;
+  });
 }
