@@ -1032,7 +1032,7 @@ export async function fitAsync(
         continue;
       }
       throwIfCancelled(options.signal);
-      session ??= pool.open(taskInput(batch.context.data, options));
+      session ??= pool.open(taskInput(batch.context, options));
       await session.run(batch.tasks, batch.consume, batch.finished, options.signal);
     }
   } finally {
@@ -1192,6 +1192,7 @@ function setUp(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target: 
  * arithmetic as the fit's own, so every task computes the same numbers in either place.
  */
 export function openTaskContext(input: FitTaskInput): TaskContext {
+  if (input.snapshot) return contextFromSnapshot(input.snapshot as TaskSnapshot);
   const options = input.options as FitOptions;
   const s = setUp(input.predictors, input.target, options);
   if (s.plan === null) throw new Error("openTaskContext: a fit at a fixed strength has no tasks");
@@ -1206,15 +1207,65 @@ export function openTaskContext(input: FitTaskInput): TaskContext {
   };
 }
 
-/** What a pool worker is sent (parallel.ts FitTaskInput): the checked inputs, and options without callbacks or the extra fits that run in the coordinator. */
-function taskInput(data: Prepared, options: FitOptions): FitTaskInput {
+/**
+ * What a gram-form fit scored by squared error sends its workers instead of the rows: the
+ * prepared settings (rows left out: its folds' problems and held-out errors come from sums) and
+ * every deal's plan and problems as the fit built them, so a worker's tasks read the very same
+ * numbers without a pass over the data of their own.
+ */
+interface TaskSnapshot {
+  data: Prepared;
+  plans: FoldPlan[];
+  problems: { full: TrainingProblem; folds: TrainingProblem[]; heldOutSums: BlockSums[] | null; shiftX: Float64Array; shiftY: number }[];
+}
+
+/**
+ * Most doubles a snapshot may hold (every deal's full and fold problems and held-out sums, about
+ * repeats × (2K + 1) × p²): beyond both this and twice the data's size, workers get the rows and
+ * build their problems themselves. Decides the cost only, never the result.
+ */
+const SNAPSHOT_DOUBLES = 1 << 21;
+
+/** What a pool worker is sent (parallel.ts FitTaskInput): the checked inputs (or a snapshot), and options without callbacks or the extra fits that run in the coordinator. */
+function taskInput(context: TaskContext, options: FitOptions): FitTaskInput {
+  const { data } = context;
   const plain: Record<string, unknown> = {};
   for (const [key, value] of Object.entries(options)) {
     if (key === "onProgress" || key === "signal" || key === "stability" || key === "honestError" || typeof value === "function") continue;
     plain[key] = value;
   }
   plain.weights = data.original.weights;
+  const n = data.x.rows;
+  const p = data.x.columns;
+  const K = context.plan.trainBlocks.length;
+  const snapshotSize = context.repeats * (2 * K + 1) * p * p;
+  if (data.gram && data.outcome === "number" && context.measure === "mse" && snapshotSize <= Math.max(2 * n * p, SNAPSHOT_DOUBLES)) {
+    const none = new Float64Array(0);
+    const noRows: ColumnMatrix = { rows: n, columns: p, data: none };
+    const deals = Array.from({ length: context.repeats }, (_, d) => context.deals(d));
+    const snapshot: TaskSnapshot = {
+      data: { ...data, x: noRows, y: none, original: { x: noRows, y: none, weights: null }, settings: { ...data.settings, signal: undefined } },
+      plans: deals.map((deal) => deal.plan),
+      problems: deals.map(({ problems }) => ({
+        full: problems.full,
+        folds: Array.from({ length: K }, (_, f) => problems.fold(f)),
+        heldOutSums: problems.heldOutSums,
+        shiftX: problems.shiftX,
+        shiftY: problems.shiftY,
+      })),
+    };
+    return { predictors: noRows, target: none, options: plain, snapshot };
+  }
   return { predictors: data.original.x, target: data.original.y, options: plain };
+}
+
+/** A worker's context from a snapshot (see TaskSnapshot). */
+function contextFromSnapshot(snapshot: TaskSnapshot): TaskContext {
+  const data = snapshot.data;
+  const deals = snapshot.problems.map((problems, d) =>
+    makeDeal(data, snapshot.plans[d], { ...problems, fold: (f) => problems.folds[f] }),
+  );
+  return { data, problems: deals[0].problems, plan: snapshot.plans[0], deals: (d) => deals[d], measure: "mse", repeats: deals.length, spectral: new Map() };
 }
 
 /** The whole fit as a plan (see FitPlan): fitSteps runs its batches in this thread, fitAsync with a pool in workers. */

@@ -67,6 +67,12 @@ export interface FitTaskInput {
   predictors: ColumnMatrix;
   target: Float64Array;
   options: Record<string, unknown>;
+  /**
+   * Instead of the inputs, what the tasks read, already built (fit.ts decides when: gram-form
+   * fits scored by squared error, whose folds need only their sums): the worker then skips the
+   * pass over the data. Opaque here; predictors and target are empty then.
+   */
+  snapshot?: unknown;
 }
 
 /** A fit's use of a pool: open once, run batches of tasks, close. */
