@@ -1,47 +1,188 @@
 /**
  * Benchmark of the cross-validated fit (a script, not a test): `npm run bench`.
  *
- * For each case it times one full `fit` (10 folds × 100 strengths × 6 mixes on correlated
- * predictors) and, in the same process, one full XᵀX pass over the same data (`gramMs`, the
- * engine's own block-sum routine over all rows). `ratio = ms / gramMs` is the figure to
- * compare between runs: this machine is shared and noisy, absolute times are not.
+ * Pinned workload (whatever the user-facing defaults become): 10 random folds (seed 1), mixes
+ * 0, 0.2, 0.4, 0.6, 0.8, 1, exactly 100 strengths per mix from the top down to 1e-4 of it (1e-2
+ * when predictors ≥ rows), no early stop except an exact fit (the engine always ends a full-data
+ * path whose training fit is exact), the engine's default tolerance and sweep cap. Data: bench/data.ts
+ * (AR(1)-correlated predictors, ten true coefficients).
+ *
+ * Per numeric case, in a child process of its own (so each case starts from the same memory state):
+ * - `ms`: one full `fit` (best of --repeat), after a small warm-up fit; `gramMs` one XᵀX pass over
+ *   the same data in the same process, `ratio = ms / gramMs` (the figure this bench has always
+ *   printed; kept).
+ * - `peakMB`: the process's peak resident memory during the first timed fit, less its resident
+ *   memory before the case's data were made (Linux: VmHWM reset through /proc/self/clear_refs;
+ *   elsewhere process.resourceUsage().maxRSS, an upper bound); `dataMB` the data's own size
+ *   (8·n·(p + 1) bytes). Goal: peak ≤ 3 × data + O(p²) (`p2MB` = 8p² bytes for comparison).
+ * Right after each timed fit (interleaved, so both see the same load on a shared machine), the
+ * compiled floor (bench/floor/floor.c, our own plain C coordinate descent from the published
+ * algorithm; bench/floor.ts) runs the same workload on the same data, folds and strengths, in a
+ * process of its own: `floorMs` (its compute time, best of --repeat), `vsFloor = ms / floorMs`
+ * (targets: ≤ 1, ≤ 0.25 on the wide case), and the check that both solve the same problem:
+ * `cvMaxRelDiff`, the largest relative difference between the two cross-validation curves, and
+ * `sameChoice`, whether the lowest-error point (mix, strength) is the same.
+ * Without a C compiler the floor is skipped with a message (floorMs null).
+ *
+ * Cell-path cases ("cells-1000x50", "cells-50000x40"): SHRINK.COEFS from raw worksheet values to
+ * the spilled array through functions/api.ts, the fit cache and the worker protocol (bench/cellPath.ts),
+ * timed against the engine's own `fit` on the same data and settings in the same process,
+ * interleaved, best of max(3, --repeat): `vsEngine = ms / engineMs` (goal ≤ 1.2).
+ *
+ * Two-class cases (`--two-class`; minutes each, so not in the default run): the same predictors
+ * with a yes/no outcome drawn from the logistic model, fitted as penalized logistic regression on
+ * the pinned workload; the numeric fit of the same predictors is timed beside it, `vsNumber`.
+ *
  * Prints a table, then one JSON line per case.
  *
- * Two-class cases (names ending in "-2c"): the same predictors with a yes/no outcome drawn from
- * the logistic model on the same true coefficients, fitted as penalized logistic regression
- * (10 folds × the default grid × 6 mixes). In the same run the numeric fit of the same predictors
- * with the same settings is timed too, and `vsNumber = ms / numberMs` is the figure to compare
- * (goal: within 5×).
- *
- * Usage: npm run bench [-- --only 1000x50,200x2000-2c] [-- --repeat 3]
+ * Usage: npm run bench [-- --only 1000x50,cells-1000x50] [-- --repeat 3] [-- --threads 1|auto]
+ *        [-- --two-class] [-- --no-floor] [-- --no-cells]
  */
-import { fit } from "../engine/fit";
+import { fork } from "child_process";
+import * as fs from "fs";
+import * as os from "os";
+import * as path from "path";
+import { fit, FitOptions, FitResult } from "../engine/fit";
+import { planFolds } from "../engine/folds";
 import { ColumnMatrix } from "../engine/matrix";
+import { EXACT_FIT_RATIO, strengthGrid } from "../engine/path";
 import { blockSums } from "../engine/problem";
+import { coefsThroughCells, nodeWorkerRunner, worksheetValues } from "./cellPath";
 import { makeData, makeTwoClass } from "./data";
+import { compileFloor, FloorRun, runFloor, writeFloorInput } from "./floor";
+
+type Kind = "number" | "two-class" | "cells";
 
 interface Case {
   name: string;
   n: number;
   p: number;
-  target?: string;
+  kind: Kind;
+  /** Target on the ratio to the floor (number), to the numeric fit (two-class) or to the engine (cells). */
+  target: number;
 }
 
 const CASES: Case[] = [
-  { name: "1000x50", n: 1000, p: 50, target: "< 100 ms" },
-  { name: "20000x100", n: 20000, p: 100, target: "ratio <= 4" },
-  { name: "200x2000", n: 200, p: 2000, target: "< 5000 ms" },
-  { name: "100000x20", n: 100000, p: 20, target: "< 2000 ms" },
+  { name: "1000x50", n: 1000, p: 50, kind: "number", target: 1 },
+  { name: "20000x100", n: 20000, p: 100, kind: "number", target: 1 },
+  { name: "200x2000", n: 200, p: 2000, kind: "number", target: 0.25 },
+  { name: "100000x20", n: 100000, p: 20, kind: "number", target: 1 },
+  { name: "cells-1000x50", n: 1000, p: 50, kind: "cells", target: 1.2 },
+  { name: "cells-50000x40", n: 50000, p: 40, kind: "cells", target: 1.2 },
+  { name: "1000x50-2c", n: 1000, p: 50, kind: "two-class", target: 5 },
+  { name: "20000x100-2c", n: 20000, p: 100, kind: "two-class", target: 5 },
+  { name: "200x2000-2c", n: 200, p: 2000, kind: "two-class", target: 5 },
 ];
-/** Two-class cases: the predictors of the numeric case of the same size. */
-const TWO_CLASS_CASES: Case[] = [
-  { name: "1000x50-2c", n: 1000, p: 50, target: "<= 5x number" },
-  { name: "20000x100-2c", n: 20000, p: 100, target: "<= 5x number" },
-  { name: "200x2000-2c", n: 200, p: 2000, target: "<= 5x number" },
-];
+
+/** The pinned workload. */
 const MIXES = [0, 0.2, 0.4, 0.6, 0.8, 1];
 const FOLDS = 10;
+const SEED = 1;
 const GRID = 100;
+const LOW_END_TALL = 1e-4;
+const LOW_END_WIDE = 1e-2;
+/** The engine's defaults (engine/fit.ts), which the floor is given too. */
+const ENGINE_TOLERANCE = 1e-9;
+const ENGINE_MAX_SWEEPS = 10000;
+const DATA_SEED = 20261201;
+
+function lowEndFor(n: number, p: number): number {
+  return p >= n ? LOW_END_WIDE : LOW_END_TALL;
+}
+
+function pinnedOptions(n: number, p: number): FitOptions {
+  return { mixes: MIXES, folds: FOLDS, seed: SEED, strengthCount: GRID, lowEndRatio: lowEndFor(n, p), stopEarly: false };
+}
+
+/** The same workload as settings text for the cell functions. */
+function pinnedSettings(n: number, p: number): string {
+  return `folds=${FOLDS}; seed=${SEED}; grid size=${GRID}; low end=${lowEndFor(n, p)}; stop early=no`;
+}
+
+// ---------------------------------------------------------------------------------------------
+// Threads
+
+/**
+ * Worker threads for the fit. `auto` means os.availableParallelism(); until the worker pool lands
+ * (issue 11, the pool branch) every fit runs on one thread, and the run says so.
+ */
+function threadsFor(asked: string): { asked: string; used: number; note: string } {
+  if (asked === "1") return { asked, used: 1, note: "" };
+  if (asked === "auto") {
+    const cores = typeof os.availableParallelism === "function" ? os.availableParallelism() : os.cpus().length;
+    return { asked, used: 1, note: `--threads auto: ${cores} cores here, but the engine has no worker pool yet: every fit runs single-threaded (threads 1)` };
+  }
+  throw new Error(`--threads must be 1 or auto; got ${asked}`);
+}
+
+// ---------------------------------------------------------------------------------------------
+// Memory
+
+function statusKb(field: string): number | null {
+  try {
+    const match = new RegExp(`^${field}:\\s+(\\d+) kB`, "m").exec(fs.readFileSync("/proc/self/status", "utf8"));
+    return match ? Number(match[1]) : null;
+  } catch {
+    return null;
+  }
+}
+
+/** Peak-memory probe: `start()` before the case's data, `peakMB()` after the fit. */
+function memoryProbe(): { start: () => void; resetPeak: () => void; peakMB: () => number; method: string } {
+  const gc = (globalThis as { gc?: () => void }).gc;
+  let base = 0;
+  let linux = statusKb("VmHWM") !== null;
+  return {
+    method: linux ? "VmHWM" : "maxRSS",
+    start() {
+      gc?.();
+      gc?.();
+      base = linux ? (statusKb("VmRSS") ?? 0) * 1024 : process.memoryUsage().rss;
+    },
+    resetPeak() {
+      gc?.();
+      if (!linux) return;
+      try {
+        fs.writeFileSync("/proc/self/clear_refs", "5");
+      } catch {
+        linux = false;
+      }
+    },
+    peakMB() {
+      const peak = linux ? (statusKb("VmHWM") ?? 0) * 1024 : process.resourceUsage().maxRSS * 1024;
+      return (peak - base) / 1e6;
+    },
+  };
+}
+
+// ---------------------------------------------------------------------------------------------
+// One case, in a child process
+
+interface CurveOfMix {
+  mix: number;
+  strengths: number[];
+  cv: number[];
+}
+
+interface ChildReport {
+  name: string;
+  ms: number;
+  gramMs: number;
+  peakMB: number | null;
+  memoryMethod: string;
+  dataMB: number;
+  chosen: { mix: number; strength: number; index: number; termsKept: number } | null;
+  sweeps: number;
+  maxKkt: number;
+  converged: boolean;
+  curves: CurveOfMix[];
+  /** number: the floor's best run (interleaved with ours in the child), or null when skipped. */
+  floor: FloorRun | null;
+  /** two-class: the numeric fit's time with the same settings; cells: the engine's own fit time. */
+  otherMs: number | null;
+  eventShare: number | null;
+  stepHalvings: number;
+}
 
 function timeGram(x: ColumnMatrix, y: Float64Array): number {
   const rows = new Int32Array(x.rows);
@@ -52,114 +193,307 @@ function timeGram(x: ColumnMatrix, y: Float64Array): number {
   return performance.now() - start;
 }
 
-function main(): void {
-  const args = process.argv.slice(2);
-  const onlyAt = args.indexOf("--only");
-  const only = onlyAt >= 0 ? new Set(args[onlyAt + 1].split(",")) : null;
-  const repeatAt = args.indexOf("--repeat");
-  const repeat = repeatAt >= 0 ? Math.max(1, Number(args[repeatAt + 1])) : 1;
-  const lines: string[] = [];
-  const rows: string[][] = [["case", "n", "p", "ms", "gram ms", "ratio", "chosen mix", "strength", "terms kept", "sweeps", "max KKT", "target"]];
-  for (const c of CASES) {
-    if (only && !only.has(c.name)) continue;
-    const { x, y } = makeData(c.n, c.p, 20261201);
-    // Warm the JIT on a small problem so the first case is not charged for compilation.
-    const warm = makeData(200, 10, 1);
-    fit(warm.x, warm.y, { mixes: [0.5], folds: 3 });
-    let best = Infinity;
-    let gram = Infinity;
-    let result = null;
-    for (let r = 0; r < repeat; r++) {
-      gram = Math.min(gram, timeGram(x, y));
-      const start = performance.now();
-      result = fit(x, y, { mixes: MIXES, folds: FOLDS, strengthCount: GRID, seed: 1 });
-      best = Math.min(best, performance.now() - start);
-    }
-    if (!result) continue;
-    const ratio = best / gram;
-    rows.push([
-      c.name,
-      String(c.n),
-      String(c.p),
-      best.toFixed(0),
-      gram.toFixed(1),
-      ratio.toFixed(2),
-      String(result.mix),
-      result.strength.toPrecision(4),
-      String(result.coefficients.filter((b) => b !== 0).length),
-      String(result.diagnostics.sweeps),
-      result.diagnostics.maxKktViolationAllFits.toExponential(1),
-      c.target ?? "",
-    ]);
-    lines.push(
-      JSON.stringify({ case: c.name, n: c.n, p: c.p, folds: FOLDS, mixes: MIXES.length, grid: GRID, ms: Number(best.toFixed(1)), gramMs: Number(gram.toFixed(2)), ratio: Number(ratio.toFixed(3)) }),
-    );
+function curvesOf(result: FitResult): CurveOfMix[] {
+  const curves: CurveOfMix[] = [];
+  for (const row of result.cv?.table ?? []) {
+    let curve = curves.find((c) => c.mix === row.mix);
+    if (!curve) curves.push((curve = { mix: row.mix, strengths: [], cv: [] }));
+    curve.strengths.push(row.strength);
+    curve.cv.push(row.error);
   }
-  const twoClassRows: string[][] = [["case", "n", "p", "ms", "number ms", "vs number", "event share", "chosen mix", "strength", "terms kept", "CV deviance", "max KKT", "halvings", "target"]];
-  for (const c of TWO_CLASS_CASES) {
-    if (only && !only.has(c.name)) continue;
-    const { x, y } = makeData(c.n, c.p, 20261201);
-    const events = makeTwoClass(x, y, 20261203);
-    const warm = makeData(200, 10, 1);
-    fit(warm.x, makeTwoClass(warm.x, warm.y, 1), { mixes: [0.5], folds: 3, outcome: "two-class" });
-    let best = Infinity;
-    let numberBest = Infinity;
-    let gram = Infinity;
-    let result = null;
-    for (let r = 0; r < repeat; r++) {
-      gram = Math.min(gram, timeGram(x, y));
-      let start = performance.now();
-      fit(x, y, { mixes: MIXES, folds: FOLDS, seed: 1 });
-      numberBest = Math.min(numberBest, performance.now() - start);
-      start = performance.now();
-      result = fit(x, events, { mixes: MIXES, folds: FOLDS, seed: 1, outcome: "two-class" });
-      best = Math.min(best, performance.now() - start);
+  return curves;
+}
+
+async function runChild(c: Case, repeat: number, floorDir: string | null, floorBinary: string | null): Promise<ChildReport> {
+  const probe = memoryProbe();
+  const warm = makeData(200, 10, 1);
+  fit(warm.x, warm.y, { mixes: [0.5], folds: 3 });
+  if (c.kind === "two-class") fit(warm.x, makeTwoClass(warm.x, warm.y, 1), { mixes: [0.5], folds: 3, outcome: "two-class" });
+  probe.start();
+  const { x, y } = makeData(c.n, c.p, DATA_SEED);
+  const events = c.kind === "two-class" ? makeTwoClass(x, y, 20261203) : null;
+  const dataMB = (8 * c.n * (c.p + 1)) / 1e6;
+  const options = pinnedOptions(c.n, c.p);
+  const report: ChildReport = {
+    name: c.name,
+    ms: Infinity,
+    gramMs: Infinity,
+    peakMB: null,
+    memoryMethod: probe.method,
+    dataMB,
+    chosen: null,
+    sweeps: 0,
+    maxKkt: 0,
+    converged: true,
+    curves: [],
+    floor: null,
+    otherMs: null,
+    eventShare: null,
+    stepHalvings: 0,
+  };
+  let result: FitResult | null = null;
+  if (c.kind === "cells") {
+    const runner = nodeWorkerRunner();
+    const cells = worksheetValues(x, y);
+    try {
+      // Warm the worker (its first fit compiles the engine there) and the cell layer.
+      const small = worksheetValues(warm.x, warm.y);
+      await coefsThroughCells(runner, small, MIXES, pinnedSettings(200, 10));
+      fit(x, y, options);
+      let engineBest = Infinity;
+      for (let r = 0; r < Math.max(3, repeat); r++) {
+        let start = performance.now();
+        result = fit(x, y, options);
+        engineBest = Math.min(engineBest, performance.now() - start);
+        start = performance.now();
+        await coefsThroughCells(runner, cells, MIXES, pinnedSettings(c.n, c.p));
+        report.ms = Math.min(report.ms, performance.now() - start);
+      }
+      report.otherMs = engineBest;
+    } finally {
+      runner.dispose();
     }
-    if (!result || !result.choices) continue;
+  } else {
+    let floorInput: string | null = null;
+    for (let r = 0; r < repeat; r++) {
+      report.gramMs = Math.min(report.gramMs, timeGram(x, y));
+      if (events) {
+        const start = performance.now();
+        fit(x, y, options);
+        report.otherMs = Math.min(report.otherMs ?? Infinity, performance.now() - start);
+      }
+      if (r === 0) probe.resetPeak();
+      const start = performance.now();
+      result = events ? fit(x, events, { ...options, outcome: "two-class" }) : fit(x, y, options);
+      report.ms = Math.min(report.ms, performance.now() - start);
+      if (r === 0 && !events) report.peakMB = probe.peakMB();
+      // The floor right after ours, in each repeat: both see the same load on a shared machine.
+      if (r === 0 && c.kind === "number" && floorDir && floorBinary) floorInput = writeFloorFile(c, x, y, floorDir, curvesOf(result));
+      if (floorInput && floorBinary) {
+        const run = runFloor(floorBinary, floorInput);
+        if (!report.floor || run.ms < report.floor.ms) report.floor = run;
+      }
+    }
+    if (floorInput) fs.rmSync(floorInput, { force: true });
+  }
+  if (!result) throw new Error("no fit ran");
+  report.chosen = { mix: result.mix, strength: result.strength, index: result.choices?.lowest.index ?? -1, termsKept: result.coefficients.filter((b) => b !== 0).length };
+  report.sweeps = result.diagnostics.sweeps;
+  report.maxKkt = result.diagnostics.maxKktViolationAllFits;
+  report.converged = result.diagnostics.converged;
+  report.stepHalvings = result.diagnostics.stepHalvings;
+  report.curves = curvesOf(result);
+  if (events) {
     let share = 0;
     for (let i = 0; i < events.length; i++) share += events[i] / events.length;
-    const vsNumber = best / numberBest;
-    twoClassRows.push([
-      c.name,
-      String(c.n),
-      String(c.p),
-      best.toFixed(0),
-      numberBest.toFixed(0),
-      vsNumber.toFixed(2),
-      share.toFixed(3),
-      String(result.mix),
-      result.strength.toPrecision(4),
-      String(result.coefficients.filter((b) => b !== 0).length),
-      result.choices.lowest.error.toPrecision(4),
-      result.diagnostics.maxKktViolationAllFits.toExponential(1),
-      String(result.diagnostics.stepHalvings),
-      c.target ?? "",
-    ]);
-    lines.push(
-      JSON.stringify({
-        case: c.name,
-        n: c.n,
-        p: c.p,
-        folds: FOLDS,
-        mixes: MIXES.length,
-        grid: result.diagnostics.strengthCount,
-        ms: Number(best.toFixed(1)),
-        gramMs: Number(gram.toFixed(2)),
-        ratio: Number((best / gram).toFixed(3)),
-        numberMs: Number(numberBest.toFixed(1)),
-        vsNumber: Number(vsNumber.toFixed(3)),
-        outcome: "two-class",
-      }),
-    );
+    report.eventShare = share;
   }
-  const widths = rows[0].map((_, k) => Math.max(...rows.map((r) => r[k].length)));
-  for (const r of rows) console.log(r.map((cell, k) => cell.padStart(widths[k])).join("  "));
-  if (twoClassRows.length > 1) {
-    const twoWidths = twoClassRows[0].map((_, k) => Math.max(...twoClassRows.map((r) => r[k].length)));
+  return report;
+}
+
+/**
+ * The floor's input: the case's data, the engine's own folds (random, seed 1, no strata for a
+ * number outcome) and the full grid of each mix (strengthGrid from the same top, count and low
+ * end as the fit's, checked against the fit's own strengths).
+ */
+function writeFloorFile(c: Case, x: ColumnMatrix, y: Float64Array, floorDir: string, curves: CurveOfMix[]): string {
+  const plan = planFolds(c.n, null, { scheme: "random", folds: FOLDS, seed: SEED, labels: null });
+  const fold = new Int32Array(c.n);
+  plan.validateBlock.forEach((block, k) => {
+    for (const i of plan.blocks[block]) fold[i] = k;
+  });
+  const grids = curves.map((curve) => strengthGrid(curve.strengths[0], GRID, lowEndFor(c.n, c.p)));
+  curves.forEach((curve, a) => {
+    curve.strengths.forEach((s, k) => {
+      if (s !== grids[a][k]) throw new Error(`${c.name}: the rebuilt grid of mix ${curve.mix} differs from the fit's at point ${k}`);
+    });
+  });
+  const file = path.join(floorDir, `${c.name}.bin`);
+  writeFloorInput(file, { n: c.n, p: c.p, x: x.data, y, fold, folds: FOLDS, mixes: MIXES, grids, tolerance: ENGINE_TOLERANCE, maxSweeps: ENGINE_MAX_SWEEPS, exactFitRatio: EXACT_FIT_RATIO });
+  return file;
+}
+
+function inChild(c: Case, repeat: number, floorDir: string | null, floorBinary: string | null): Promise<ChildReport> {
+  return new Promise((resolve, reject) => {
+    const args = ["--child", c.name, "--repeat", String(repeat)];
+    if (floorDir && floorBinary) args.push("--floor-dir", floorDir, "--floor-binary", floorBinary);
+    const child = fork(__filename, args, { execArgv: [...process.execArgv, "--expose-gc"], stdio: ["ignore", "inherit", "inherit", "ipc"] });
+    let report: ChildReport | null = null;
+    child.on("message", (message) => (report = message as ChildReport));
+    child.on("error", reject);
+    child.on("exit", (code) => (report ? resolve(report) : reject(new Error(`case ${c.name}: child exited with ${code}`))));
+  });
+}
+
+// ---------------------------------------------------------------------------------------------
+// The floor's check
+
+function compareWithFloor(report: ChildReport, floor: FloorRun): { maxRelDiff: number; sameChoice: boolean; topRelDiff: number; floorSweeps: number; floorCapped: number } {
+  let maxRelDiff = 0;
+  let topRelDiff = 0;
+  let floorSweeps = 0;
+  let floorCapped = 0;
+  let best = { error: Infinity, mix: NaN, index: -1 };
+  floor.mixes.forEach((fm, a) => {
+    floorSweeps += fm.sweeps;
+    floorCapped += fm.capped;
+    const ours = report.curves[a];
+    if (fm.mix > 0) topRelDiff = Math.max(topRelDiff, Math.abs(fm.top - ours.strengths[0]) / ours.strengths[0]);
+    if (fm.points !== ours.cv.length) maxRelDiff = Infinity;
+    for (let k = 0; k < Math.min(fm.points, ours.cv.length); k++) {
+      maxRelDiff = Math.max(maxRelDiff, Math.abs(fm.cv[k] - ours.cv[k]) / Math.abs(ours.cv[k]));
+      if (fm.cv[k] < best.error) best = { error: fm.cv[k], mix: fm.mix, index: k };
+    }
+  });
+  const sameChoice = report.chosen !== null && best.mix === report.chosen.mix && best.index === report.chosen.index;
+  return { maxRelDiff, sameChoice, topRelDiff, floorSweeps, floorCapped };
+}
+
+// ---------------------------------------------------------------------------------------------
+
+function argValue(args: string[], flag: string): string | null {
+  const at = args.indexOf(flag);
+  return at >= 0 && at + 1 < args.length ? args[at + 1] : null;
+}
+
+const fixed = (value: number | null, digits: number): string => (value === null || !Number.isFinite(value) ? "–" : value.toFixed(digits));
+
+async function main(): Promise<void> {
+  const args = process.argv.slice(2);
+  const repeat = Math.max(1, Number(argValue(args, "--repeat") ?? 1));
+  const childCase = argValue(args, "--child");
+  if (childCase) {
+    const c = CASES.find((k) => k.name === childCase);
+    if (!c) throw new Error(`unknown case ${childCase}`);
+    const report = await runChild(c, repeat, argValue(args, "--floor-dir"), argValue(args, "--floor-binary"));
+    process.send?.(report);
+    return;
+  }
+  const only = argValue(args, "--only") ? new Set((argValue(args, "--only") ?? "").split(",")) : null;
+  const threads = threadsFor(argValue(args, "--threads") ?? "1");
+  if (threads.note) console.log(threads.note);
+  const twoClass = args.includes("--two-class");
+  const cells = !args.includes("--no-cells");
+  const chosen = CASES.filter((c) => (only ? only.has(c.name) : c.kind === "number" || (c.kind === "cells" && cells) || (c.kind === "two-class" && twoClass)));
+  let floorBinary: string | null = null;
+  let floorDir: string | null = null;
+  if (!args.includes("--no-floor") && chosen.some((c) => c.kind === "number")) {
+    const built = compileFloor();
+    if (built.binary) {
+      floorBinary = built.binary;
+      floorDir = fs.mkdtempSync(path.join(os.tmpdir(), "shrinkwise-bench-"));
+    } else {
+      console.log(`floor skipped: ${built.reason}`);
+    }
+  }
+  const table: string[][] = [["case", "ours ms", "floor ms", "ours÷floor", "target", "peak MB", "data MB", "8p² MB", "CV rel diff", "same choice", "sweeps ours/floor", "max KKT"]];
+  const cellTable: string[][] = [["case", "cell path ms", "engine ms", "cells÷engine", "target"]];
+  const twoTable: string[][] = [["case", "ms", "number ms", "vs number", "event share", "chosen mix", "strength", "CV deviance", "max KKT", "halvings", "target"]];
+  const lines: string[] = [];
+  try {
+    for (const c of chosen) {
+      const report = await inChild(c, repeat, floorDir, floorBinary);
+      const base = { case: c.name, n: c.n, p: c.p, folds: FOLDS, mixes: MIXES.length, grid: GRID };
+      if (c.kind === "number") {
+        const floorMs = report.floor ? report.floor.ms : null;
+        const check = report.floor ? compareWithFloor(report, report.floor) : null;
+        const vsFloor = floorMs !== null ? report.ms / floorMs : null;
+        table.push([
+          c.name,
+          fixed(report.ms, 0),
+          fixed(floorMs, 0),
+          fixed(vsFloor, 2),
+          `≤ ${c.target}`,
+          fixed(report.peakMB, 1),
+          fixed(report.dataMB, 1),
+          fixed((8 * c.p * c.p) / 1e6, 1),
+          check ? check.maxRelDiff.toExponential(1) : "–",
+          check ? (check.sameChoice ? "yes" : "NO") : "–",
+          `${report.sweeps}/${check ? check.floorSweeps : "–"}`,
+          report.maxKkt.toExponential(1),
+        ]);
+        lines.push(
+          JSON.stringify({
+            ...base,
+            ms: Number(report.ms.toFixed(1)),
+            gramMs: Number(report.gramMs.toFixed(2)),
+            ratio: Number((report.ms / report.gramMs).toFixed(3)),
+            lowEnd: lowEndFor(c.n, c.p),
+            threads: threads.used,
+            peakMB: report.peakMB === null ? null : Number(report.peakMB.toFixed(1)),
+            dataMB: Number(report.dataMB.toFixed(2)),
+            floorMs: floorMs === null ? null : Number(floorMs.toFixed(1)),
+            vsFloor: vsFloor === null ? null : Number(vsFloor.toFixed(3)),
+            cvMaxRelDiff: check ? Number(check.maxRelDiff.toPrecision(2)) : null,
+            sameChoice: check ? check.sameChoice : null,
+            topMaxRelDiff: check ? Number(check.topRelDiff.toPrecision(2)) : null,
+            sweeps: report.sweeps,
+            floorSweeps: check ? check.floorSweeps : null,
+            floorCapped: check ? check.floorCapped : null,
+            maxKkt: report.maxKkt,
+            converged: report.converged,
+          }),
+        );
+      } else if (c.kind === "cells") {
+        const engineMs = report.otherMs ?? NaN;
+        cellTable.push([c.name, fixed(report.ms, 0), fixed(engineMs, 0), fixed(report.ms / engineMs, 2), `≤ ${c.target}`]);
+        lines.push(
+          JSON.stringify({
+            ...base,
+            ms: Number(report.ms.toFixed(1)),
+            engineMs: Number(engineMs.toFixed(1)),
+            vsEngine: Number((report.ms / engineMs).toFixed(3)),
+            runner: "worker_threads",
+            threads: threads.used,
+          }),
+        );
+      } else {
+        const numberMs = report.otherMs ?? NaN;
+        const lowest = report.chosen;
+        twoTable.push([
+          c.name,
+          fixed(report.ms, 0),
+          fixed(numberMs, 0),
+          fixed(report.ms / numberMs, 2),
+          fixed(report.eventShare, 3),
+          String(lowest?.mix ?? "–"),
+          lowest ? lowest.strength.toPrecision(4) : "–",
+          lowest ? (report.curves.find((k) => k.mix === lowest.mix)?.cv[lowest.index]?.toPrecision(4) ?? "–") : "–",
+          report.maxKkt.toExponential(1),
+          String(report.stepHalvings),
+          `≤ ${c.target}x number`,
+        ]);
+        lines.push(
+          JSON.stringify({
+            ...base,
+            ms: Number(report.ms.toFixed(1)),
+            gramMs: Number(report.gramMs.toFixed(2)),
+            ratio: Number((report.ms / report.gramMs).toFixed(3)),
+            numberMs: Number(numberMs.toFixed(1)),
+            vsNumber: Number((report.ms / numberMs).toFixed(3)),
+            outcome: "two-class",
+            threads: threads.used,
+          }),
+        );
+      }
+    }
+  } finally {
+    if (floorDir) fs.rmSync(floorDir, { recursive: true, force: true });
+  }
+  const print = (rows: string[][]): void => {
+    if (rows.length < 2) return;
+    const widths = rows[0].map((_, k) => Math.max(...rows.map((r) => r[k].length)));
     console.log("");
-    for (const r of twoClassRows) console.log(r.map((cell, k) => cell.padStart(twoWidths[k])).join("  "));
-  }
+    for (const r of rows) console.log(r.map((cell, k) => cell.padStart(widths[k])).join("  "));
+  };
+  print(table);
+  print(cellTable);
+  print(twoTable);
+  console.log("");
   for (const line of lines) console.log(line);
 }
 
-main();
+main().catch((error: unknown) => {
+  console.error(error);
+  process.exit(1);
+});

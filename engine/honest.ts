@@ -23,7 +23,8 @@ import { selectRows } from "./matrix";
 import { linearScore, logistic } from "./model";
 import { areaUnderCurve, devianceFromScores, misclassifiedShare } from "./classMetrics";
 import type { HonestError, HonestFold } from "./assurance";
-import type { FitOptions, FitResult } from "./fit";
+import type { LinearModel } from "./model";
+import type { CancelSignal } from "./errors";
 import type { ErrorMeasure } from "./words";
 
 /** Added to the fit's seed for the outer random split (a prime, so the outer deal differs from every repeat's deal seed … seed + 49). */
@@ -38,7 +39,30 @@ export interface HonestPlan {
   units: number;
 }
 
-export interface NestedInput {
+/**
+ * What the nested run reads and sets of the fit's options (fit.ts FitOptions has these fields;
+ * kept structural here so this module does not import fit.ts, which imports it).
+ */
+export interface InnerOptions {
+  honestError?: boolean;
+  stability?: object | null;
+  weights?: ArrayLike<number> | null;
+  foldLabels?: ArrayLike<number | string> | null;
+  onProgress?: (done: number, total: number) => void;
+  signal?: CancelSignal;
+}
+
+/** What the nested run reads of an inner fit's result (fit.ts FitResult has these fields). */
+export interface InnerResult {
+  model: LinearModel;
+  mix: number;
+  strength: number;
+  rule: string;
+  coefficients: number[];
+  choices: { lowest: { termsKept: number }; oneSe: { termsKept: number } } | null;
+}
+
+export interface NestedInput<FitOptions extends InnerOptions = InnerOptions, FitResult extends InnerResult = InnerResult> {
   /** The data as given (data units), rows in the fit's order. */
   x: ColumnMatrix;
   y: Float64Array;
@@ -67,7 +91,7 @@ function positive(rows: Int32Array, weights: Float64Array | null): Int32Array {
  * misclassified at the cutoff, or the AUC (NaN with one class among the rows).
  */
 export function heldOutMeasure(
-  result: FitResult,
+  result: InnerResult,
   x: ColumnMatrix,
   y: Float64Array,
   weights: Float64Array | null,
@@ -106,7 +130,9 @@ function describeOuter(plan: FoldPlan, k: number): string {
 }
 
 /** Runs the nested cross-validation (see the module comment). Yields with the inner fits. */
-export function* nestedCrossValidation(input: NestedInput): Generator<void, HonestError, void> {
+export function* nestedCrossValidation<FitOptions extends InnerOptions, FitResult extends InnerResult>(
+  input: NestedInput<FitOptions, FitResult>,
+): Generator<void, HonestError, void> {
   const { x, y, weights, measure, cutoff, options, honest } = input;
   const plan = honest.plan;
   const K = plan.trainBlocks.length;

@@ -85,3 +85,42 @@ export function bestPointLabel(measure: ErrorMeasure): string {
 export function oneSeLineLabel(measure: ErrorMeasure): string {
   return higherIsBetter(measure) ? "highest AUC − 1 SE" : `${RULE_WORDS.lowest} + 1 SE`;
 }
+
+/** The label of the bound beside a stability selection (Meinshausen & Bühlmann 2010, Theorem 1). */
+export const FALSE_SELECTION_LABEL = "expected false selections at most";
+
+/**
+ * What a stability selection's bound was computed from, in words: "q = 3 (the average number of
+ * terms selected at a counted strength, at most), π = 0.75, p = 10 terms that can be selected,
+ * 50 pairs of half-samples (100 fits) at mix 1".
+ */
+export function stabilityBasisWords(s: { expectedTerms: number; threshold: number; candidates: number; draws: number; mix: number }): string {
+  const pairs = `${s.draws} pair${s.draws === 1 ? "" : "s"} of half-samples (${2 * s.draws} fits)`;
+  return (
+    `q = ${s.expectedTerms} (the average number of terms selected at a counted strength, at most), π = ${significant(s.threshold, 6)} (the share that makes a term stable), ` +
+    `p = ${s.candidates} term${s.candidates === 1 ? "" : "s"} that can be selected, ${pairs} at mix ${significant(s.mix, 6)}`
+  );
+}
+
+/** In place of a stable share: a term stability selection can't select because it is never penalized (in every model). */
+export const NEVER_PENALIZED = "in every model (never penalized)";
+/** In place of a stable share: a term that is constant or held at 0 by its bounds (in no model). */
+export const CANNOT_BE_SELECTED = "in no model (constant or held at 0)";
+
+/** The label of the nested cross-validation's estimate. */
+export const HONEST_LABEL = "honest CV error (whole procedure)";
+
+/** Why the honest error stands beside the cross-validated one: the latter chose the model. */
+export function honestNote(cvLabel: string, outerFolds: number): string {
+  return (
+    `the ${cvLabel} above is the one that chose the model, so it is optimistic for it; the honest error reruns the whole choice ` +
+    `(every mix, every strength and the rule) inside each of ${outerFolds} outer folds and scores it on rows that choice never saw`
+  );
+}
+
+/** The repeats in words: how the choice used them. */
+export function repeatsNote(repeats: number, seed: number | null): string {
+  if (repeats <= 1) return "one deal of the folds";
+  const seeds = seed === null ? "" : ` (seeds ${seed} to ${seed + repeats - 1})`;
+  return `the choice used the curve averaged over ${repeats} deals of the folds${seeds}: the CV error above is the mean over all their held-out folds, its ± SE the average of the deals' own SEs`;
+}

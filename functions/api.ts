@@ -13,7 +13,7 @@
  * | SHRINK.APPLY(coefficient_table, new_rows)              | one prediction per new row, from a table, without refitting     |
  * | SHRINK.PATH(target, predictors, [mix], [settings])     | strength | terms kept | intercept | terms…, one per strength  |
  * | SHRINK.CVCURVE(target, predictors, [mixes], [settings])| mix | strength | CV MSE | ± SE | terms kept                    |
- * | SHRINK.KEPT(target, predictors, [mixes], [settings])   | term | coefficient | kept in folds | same sign, most kept first |
+ * | SHRINK.KEPT(target, predictors, [mixes], [settings])   | term | coefficient | kept in folds | same sign, most kept first (`stability=yes`: + stable share | stable, and a bound row) |
  * | SHRINK.SCORE(actual, predicted, [settings])            | label | value: MAE, RMSE, R², mean error, pairs used/skipped   |
  * | SHRINK.BASELINE(target, predictors, [settings])        | term | coefficient | standard error, residual SD, R²            |
  *
@@ -174,6 +174,19 @@ function fitOptions(dataset: Dataset, settings: Settings, mixes: number[] | null
   if (lower) options.lowerBounds = lower;
   const upper = bounds(dataset, settings.upper, "upper");
   if (upper) options.upperBounds = upper;
+  // Repeats, honest error and stability: only when they change the fit (the defaults stay out of
+  // the request, so a fit asked for with `repeats=1` is the same cache entry as one without it).
+  // Every option given is part of the cache key (cache.ts), so a fit with stability is never
+  // served from one without it.
+  if (settings.repeats !== null && settings.repeats > 1) options.repeats = settings.repeats;
+  if (settings.honestError) options.honestError = true;
+  if (settings.stability) {
+    const stability: NonNullable<PlainFitOptions["stability"]> = {};
+    if (settings.draws !== null) stability.draws = settings.draws;
+    if (settings.expectedTerms !== null) stability.expectedTerms = settings.expectedTerms;
+    if (settings.stabilityThreshold !== null) stability.threshold = settings.stabilityThreshold;
+    options.stability = stability;
+  }
   if (lower && upper && lower.every((l, j) => l === 0 && upper[j] === 0)) {
     throw new SettingError(
       "'lower' and 'upper' are both 0 for every term, which fixes every coefficient at 0: nothing is left to fit; keep one of them (lower=0 alone keeps coefficients from going negative, upper=0 alone from going positive)",
@@ -244,7 +257,8 @@ export function coefs(
 
 /**
  * SHRINK.CHOICE: how the model was chosen (strength, mix, CV error and SE, rule, rows, folds…).
- * Returns [["label", "value"], ["strength", λ], …].
+ * Returns [["label", "value"], ["strength", λ], …], ending with `repeats` (and a note when above
+ * 1) and, with `honest error=yes`, the honest error of the whole procedure, its SE and a note.
  */
 export function choice(
   runner: FitRunner,
@@ -403,6 +417,8 @@ export function cvcurve(
  * SHRINK.KEPT: how steadily each term is kept over the cross-validation folds at the chosen mix
  * and strength. Returns [["term", "coefficient", "kept in folds", "same sign"], one row per term,
  * most kept first]. #N/A with a fixed strength (no cross-validation runs, so no fold models).
+ * With `stability=yes`: also `stable share` and `stable` columns, and a footer row with the bound
+ * on the expected number of falsely selected terms (keptSpill).
  */
 export function kept(
   runner: FitRunner,

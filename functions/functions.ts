@@ -48,11 +48,13 @@ export async function coefs(
  * Shows how the model was chosen: the strength and mix picked, their cross-validated error and
  * its standard error, the rule (lowest error or one-SE rule), the terms kept, the folds, and the
  * rows used and skipped. For a yes/no target it first names the outcome, the event and the cutoff.
+ * Then the repeats of the fold deal (repeats=5 chooses on the curve averaged over 5 deals) and, with
+ * honest error=yes, the honest error of the whole procedure by nested cross-validation and its SE.
  * @customfunction CHOICE
  * @param target The column to predict, one value per row: numbers, or a yes/no outcome (two values: TRUE/FALSE, 0/1 or two labels such as pass/fail). A header cell on top is fine; rows with a blank or error are skipped.
  * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one.
  * @param [mixes] The mixes to try: 0 is ridge, 1 is lasso, between is elastic net. A number, a range of numbers or text like "0, 0.5, 1". Leave out for 0, 0.25, 0.5, 0.75 and 1.
- * @param [settings] Optional settings as text, like "folds=5; rule=one-se", or a two-column range of setting names and values.
+ * @param [settings] Optional settings as text, like "folds=5; rule=one-se", or a two-column range of setting names and values. repeats=5 deals the folds 5 times; honest error=yes adds the nested cross-validation error.
  * @param invocation Supplied by Excel.
  * @returns A table of label and value.
  */
@@ -146,14 +148,17 @@ export async function cvcurve(
  * Shows how steadily each term is kept over the cross-validation folds: for every term, the
  * chosen model's coefficient, the share of the fold models (each fitted without one fold's rows,
  * at the chosen mix and strength) that keep the term, and the share whose sign agrees with the
- * chosen model's. Most kept first. A stability indication, not a significance test.
+ * chosen model's. Most kept first. A stability indication, not a significance test. With
+ * stability=yes, stability selection over pairs of half-samples adds each term's stable share and
+ * whether it is stable (TRUE/FALSE), and a last row with the bound on the expected number of
+ * falsely selected terms.
  * @customfunction KEPT
  * @param target The column to predict, one value per row: numbers, or a yes/no outcome (two values: TRUE/FALSE, 0/1 or two labels such as pass/fail). A header cell on top is fine; rows with a blank or error are skipped.
  * @param predictors The columns that predict the target, one row per target row, with a header row of names if you have one.
  * @param [mixes] The mixes to try: 0 is ridge, 1 is lasso, between is elastic net. Leave out for 0, 0.25, 0.5, 0.75 and 1.
- * @param [settings] Optional settings as text, like "folds=10; seed=7", or a two-column range of setting names and values. A fixed strength runs no cross-validation, so it has no kept shares.
+ * @param [settings] Optional settings as text, like "folds=10; seed=7", or a two-column range of setting names and values. A fixed strength runs no cross-validation, so it has no kept shares. stability=yes runs stability selection (draws=50, q, stability threshold=0.75).
  * @param invocation Supplied by Excel.
- * @returns A table: term, coefficient, kept in folds (share of fold models with a nonzero coefficient), same sign (share agreeing with the chosen model's sign; for a term the model drops, the share of folds that drop it too).
+ * @returns A table: term, coefficient, kept in folds (share of fold models with a nonzero coefficient), same sign (share agreeing with the chosen model's sign; for a term the model drops, the share of folds that drop it too); with stability=yes also stable share and stable (TRUE/FALSE), then a row with the bound on expected false selections.
  */
 export async function kept(
   target: any[][],

@@ -36,6 +36,12 @@
  * | `cutoff`         | `threshold`, `probability cutoff`  | a probability strictly between 0 and 1 (`0.3` or `30%`): a row is flagged as the event at or above it | 0.5 |
  * | `predict`        | `prediction`, `predictions`        | `probability` or `class`: what SHRINK.PREDICT returns for a yes/no target | probability |
  * | `interval`       | `interval level`, `prediction interval` | a level strictly between 0 and 1 (`0.9` or `90%`): SHRINK.PREDICT adds CV+ prediction intervals at it (number targets) | (none) |
+ * | `repeats`        | `fold deals`, `repeated cv`        | whole number 1 to 50: deal the random folds this many times (seeds seed, seed+1, …) and choose on the averaged curve | 1 |
+ * | `honest error`   | `nested cv`, `nested cross-validation`, `whole-procedure error` | yes / no: also estimate the error of the whole choosing procedure by nested cross-validation (SHRINK.CHOICE shows it) | no |
+ * | `stability`      | `stability selection`              | yes / no: run stability selection at the chosen mix (SHRINK.KEPT shows it) | no |
+ * | `draws`          | `pairs`, `half-sample pairs`       | whole number 1 to 1000: pairs of complementary half-samples (stability=yes only) | 50 |
+ * | `q`              | `expected terms`                   | whole number ≥ 1: the largest average number of terms selected at a strength that still counts (stability=yes only) | round(√(0.8·p)), p = terms that can be selected |
+ * | `stability threshold` | `pi`, `π`                    | a share strictly between 0.5 and 1 (`0.75` or `75%`): terms selected at least this often are stable (stability=yes only) | 0.75 |
  *
  * A term is a predictor column name (a text column's name covers all its indicator terms) or
  * an indicator term such as `Region: North`. In `term:value` lists the value follows the last
@@ -47,12 +53,20 @@
  * say the user expects a yes/no target, so silence would hide a mistake); so are the yes/no error
  * measures, and mse/mae on a yes/no target (the engine's checkMeasure messages).
  *
+ * `threshold` alone stays an alias of `cutoff` (a yes/no setting, as it always was); the threshold of
+ * stability selection is `stability threshold` (or `π`). `draws`, `q` and `stability threshold`
+ * without `stability=yes` are refused (they would do nothing, and silence would hide a mistake).
+ * `repeats` above 1, `honest error` and `stability` need cross-validation, so a fixed `strength` refuses
+ * them; `repeats` above 1 re-deals random folds, so `fold column` and `time order` (one deal) refuse it.
+ * They apply to number and yes/no targets alike.
+ *
  * SHRINK.SCORE and SHRINK.BASELINE take a few of these only (`parseSettings(raw, scope)`):
  * SCORE outcome, event, cutoff; BASELINE outcome, event, header, zero is missing.
  *
  * Every mistake is a SettingError (→ #VALUE!) saying what is allowed; an unknown name lists
  * the valid names.
  */
+import { MAX_DRAWS, MAX_REPEATS } from "../engine/assurance";
 import { parseRule, type ChoiceRule, type ErrorMeasure } from "../engine/fit";
 import { outcomeLabel, parseOutcome, type OutcomeSetting } from "../engine/outcome";
 import { classifyCell, describeCell, parseNumberText, toGrid } from "./cells";
@@ -107,6 +121,18 @@ export interface Settings {
   predictOutput: PredictOutput | null;
   /** SHRINK.PREDICT: the level of CV+ prediction intervals (number targets); null for none. Does not change the fit. */
   interval: number | null;
+  /** Deals of the random folds (1 to 50); null for 1. */
+  repeats: number | null;
+  /** Nested cross-validation of the whole procedure; null for no. */
+  honestError: boolean | null;
+  /** Stability selection at the chosen mix; null for no. */
+  stability: boolean | null;
+  /** Stability selection: pairs of complementary halves B; null for the engine's default (50). */
+  draws: number | null;
+  /** Stability selection: q, the largest average number of terms selected at a counted strength; null for the default. */
+  expectedTerms: number | null;
+  /** Stability selection: the threshold π; null for the default (0.75). */
+  stabilityThreshold: number | null;
 }
 
 export function defaultSettings(): Settings {
@@ -136,6 +162,12 @@ export function defaultSettings(): Settings {
     cutoff: null,
     predictOutput: null,
     interval: null,
+    repeats: null,
+    honestError: null,
+    stability: null,
+    draws: null,
+    expectedTerms: null,
+    stabilityThreshold: null,
   };
 }
 
@@ -416,6 +448,34 @@ const SPECS: SettingSpec[] = [
     aliases: ["interval level", "prediction interval"],
     apply: (s, v) => (s.interval = shareValue("interval", v, "a coverage level between 0 and 1 (not 0 or 1), like 0.9 or 90%")),
   },
+  { name: "repeats", aliases: ["fold deals", "repeated cv"], apply: (s, v) => (s.repeats = wholeNumber("repeats", v, 1, MAX_REPEATS)) },
+  {
+    name: "honest error",
+    aliases: ["nested cv", "nested cross validation", "whole procedure error"],
+    apply: (s, v) => (s.honestError = yesNo("honest error", v)),
+  },
+  { name: "stability", aliases: ["stability selection"], apply: (s, v) => (s.stability = yesNo("stability", v)) },
+  { name: "draws", aliases: ["pairs", "half sample pairs"], apply: (s, v) => (s.draws = wholeNumber("draws", v, 1, MAX_DRAWS)) },
+  {
+    name: "q",
+    aliases: ["expected terms"],
+    apply: (s, v) => {
+      const what = "a whole number of 1 or more: the largest average number of terms selected at a strength that still counts";
+      const n = numberOf("q", v, what);
+      if (!Number.isInteger(n) || n < 1) throw new SettingError(`'q' must be ${what}; got ${show(v)}`);
+      s.expectedTerms = n;
+    },
+  },
+  {
+    name: "stability threshold",
+    aliases: ["pi", "π"],
+    apply: (s, v) => {
+      const what = "a share between 0.5 and 1 (not 0.5 or 1), like 0.75 or 75%: the bound on false selections needs more than 0.5";
+      const n = shareValue("stability threshold", v, what);
+      if (!(n > 0.5)) throw new SettingError(`'stability threshold' must be ${what}; got ${show(v)}`);
+      s.stabilityThreshold = n;
+    },
+  },
 ];
 
 /** The canonical setting names, in the order of the table above. */
@@ -562,7 +622,50 @@ export function parseSettings(raw: unknown, scope?: SettingScope): Settings {
   if (settings.foldColumn !== null && settings.timeOrdered) {
     throw new SettingError("'fold column' and 'time order' can't be used together: choose one way to form the folds");
   }
+  checkAssuranceSettings(settings);
   return settings;
+}
+
+/**
+ * Combinations of repeats, honest error and stability that would do nothing or can't run: refused
+ * with what to change (silence would hide a mistake).
+ */
+function checkAssuranceSettings(settings: Settings): void {
+  const stabilityParts = [
+    settings.draws !== null ? `draws=${settings.draws}` : null,
+    settings.expectedTerms !== null ? `q=${settings.expectedTerms}` : null,
+    settings.stabilityThreshold !== null ? `stability threshold=${settings.stabilityThreshold}` : null,
+  ].filter((part): part is string => part !== null);
+  if (stabilityParts.length > 0 && settings.stability !== true) {
+    const one = stabilityParts.length === 1;
+    throw new SettingError(
+      `${stabilityParts.join(" and ")} ${one ? "sets" : "set"} up stability selection, which runs only with stability=yes: add stability=yes, or remove ${one ? "it" : "them"}`,
+    );
+  }
+  if (settings.strength !== null) {
+    const needCv = [
+      settings.repeats !== null && settings.repeats > 1 ? `repeats=${settings.repeats}` : null,
+      settings.honestError ? "honest error=yes" : null,
+      settings.stability ? "stability=yes" : null,
+    ].filter((part): part is string => part !== null);
+    if (needCv.length > 0) {
+      throw new SettingError(
+        `${needCv.join(" and ")} ${needCv.length === 1 ? "works" : "work"} on the cross-validated choice, and a fixed strength runs no cross-validation: remove 'strength', or remove ${needCv.length === 1 ? "it" : "them"}`,
+      );
+    }
+  }
+  if (settings.repeats !== null && settings.repeats > 1) {
+    if (settings.foldColumn !== null) {
+      throw new SettingError(
+        `repeats=${settings.repeats} deals random folds again with new seeds, but 'fold column' fixes the folds (one deal): remove 'repeats', or 'fold column'`,
+      );
+    }
+    if (settings.timeOrdered) {
+      throw new SettingError(
+        `repeats=${settings.repeats} deals random folds again with new seeds, but 'time order' fixes the folds (one deal): remove 'repeats', or 'time order'`,
+      );
+    }
+  }
 }
 
 const MIX_WORDS: Record<string, number> = { ridge: 0, lasso: 1 };

@@ -5,11 +5,22 @@
  * the workbook's business.
  */
 import type { TwoClassScore } from "../engine/classMetrics";
+import type { StabilityResult } from "../engine/assurance";
 import type { ErrorMeasure, FitResult } from "../engine/fit";
 import type { Score } from "../engine/metrics";
 import type { OutcomeReading } from "../engine/outcome";
 import { portableExp } from "../engine/portableMath";
-import { cvMeasureLabel, INTERCEPT_LABEL } from "../engine/words";
+import {
+  CANNOT_BE_SELECTED,
+  cvMeasureLabel,
+  FALSE_SELECTION_LABEL,
+  HONEST_LABEL,
+  honestNote,
+  INTERCEPT_LABEL,
+  NEVER_PENALIZED,
+  repeatsNote,
+  stabilityBasisWords,
+} from "../engine/words";
 import type { Dataset, EncodedRow, TargetClasses } from "./dataset";
 import { cellError } from "./errors";
 
@@ -152,7 +163,28 @@ export function choiceSpill(result: FitResult, dataset: Dataset): Spill {
     ["seed", cv ? (cv.seed === null ? "not used" : cv.seed) : "none"],
     ["reference levels", dataset.referenceLevels.length > 0 ? dataset.referenceLevels.map((r) => `${r.column}: ${r.level}`).join("; ") : "none"],
     ["notes", notes.length > 0 ? notes.join("; ") : "none"],
+    ...assuranceRows(result),
   ];
+}
+
+/**
+ * CHOICE's rows after `notes`: the repeats of the fold deal, and with honest error its estimate,
+ * its SE and a note that the cross-validated error above (the one that chose) is optimistic.
+ */
+function assuranceRows(result: FitResult): Spill {
+  const cv = result.cv;
+  const repeats = cv ? cv.repeats : null;
+  const rows: Spill = [["repeats", repeats === null ? "none" : repeats]];
+  if (cv && repeats !== null && repeats > 1) rows.push(["repeats note", repeatsNote(repeats, cv.seed)]);
+  const honest = result.honest;
+  if (honest) {
+    rows.push(
+      [HONEST_LABEL, numberCell(honest.error)],
+      ["honest ± SE", numberCell(honest.se)],
+      ["honest error note", honestNote(measureLabel(honest.measure), honest.folds)],
+    );
+  }
+  return rows;
 }
 
 /**
@@ -193,17 +225,46 @@ export function cvCurveSpill(result: FitResult): Spill {
  * the predictors' columns. The shares are over the cross-validation fold models at the chosen
  * point (engine/keptShare.ts). A yes/no target's coefficient header says log-odds, as COEFS does.
  * Example: [["term", "coefficient", "kept in folds", "same sign"], ["Size", 0.2, 1, 1], ["Noise", 0, 0.2, 0.8]]
+ *
+ * When stability selection ran (setting `stability=yes`): two more columns, `stable share` (the
+ * term's selection probability over the half-samples, engine/stability.ts) and `stable` (TRUE when
+ * that share is at or above π: booleans, so the column filters), ties in kept share broken by the
+ * larger stable share (a term that can't be selected, stableShareCell, shows why instead of a
+ * share, and FALSE); then one footer row: `expected false selections at most` | the bound
+ * q²/((2π − 1)·p) | q, π, p and the pairs in words | "" | "" | "".
  */
 export function keptSpill(result: FitResult, dataset: Dataset): Spill {
   const shares = result.keptShare;
   if (!shares) throw new Error("keptSpill requires a cross-validated result");
   const coefficient = dataset.classes ? `coefficient (${logOddsOf(dataset.classes)})` : "coefficient";
+  const stability = result.stability ?? null;
   const order = shares.map((_, j) => j);
   // A stable sort keeps the columns' order among equal shares.
-  order.sort((a, b) => shares[b].kept - shares[a].kept);
-  const rows: Spill = [["term", coefficient, "kept in folds", "same sign"]];
-  for (const j of order) rows.push([shares[j].term, numberCell(result.coefficients[j]), shares[j].kept, shares[j].sameSign]);
+  if (stability) order.sort((a, b) => shares[b].kept - shares[a].kept || stability.share[b] - stability.share[a]);
+  else order.sort((a, b) => shares[b].kept - shares[a].kept);
+  if (!stability) {
+    const rows: Spill = [["term", coefficient, "kept in folds", "same sign"]];
+    for (const j of order) rows.push([shares[j].term, numberCell(result.coefficients[j]), shares[j].kept, shares[j].sameSign]);
+    return rows;
+  }
+  const rows: Spill = [["term", coefficient, "kept in folds", "same sign", "stable share", "stable"]];
+  for (const j of order) {
+    rows.push([shares[j].term, numberCell(result.coefficients[j]), shares[j].kept, shares[j].sameSign, stableShareCell(stability, j), stability.stable[j]]);
+  }
+  rows.push([FALSE_SELECTION_LABEL, numberCell(stability.falseSelectionBound), stabilityBasisWords(stability), "", "", ""]);
   return rows;
+}
+
+/**
+ * A term's stable share, or for a term stability selection can't select (engine/stability.ts
+ * `candidate`) why: a never-penalized term is in every model by the user's choice (the engine's
+ * share 1), a constant or bound-held term in none (share 0). Either way `stable` is FALSE.
+ */
+export function stableShareCell(stability: StabilityResult, j: number): SpillCell {
+  if (stability.candidate && !stability.candidate[j]) {
+    return stability.share[j] > 0 ? NEVER_PENALIZED : CANNOT_BE_SELECTED;
+  }
+  return numberCell(stability.share[j]);
 }
 
 /**

@@ -7,6 +7,7 @@
  * one positional argument (`-` reads standard input). Everything the user can get wrong here is
  * a CommandError, which the entry point turns into exit code 2 and a one-line message.
  */
+import { MAX_DRAWS, MAX_REPEATS } from "../assurance";
 import { checkMeasure, MEASURES, parseRule } from "../fit";
 import type { ChoiceRule, ErrorMeasure, FitOptions } from "../fit";
 import { parseOutcome, type OutcomeKind, type OutcomeSetting } from "../outcome";
@@ -60,6 +61,24 @@ export interface CommandOptions {
   intercept: boolean;
   /** Print one JSON object instead of the readable report. */
   json: boolean;
+  /** Deals of the random folds (1 to 50); null for 1. */
+  repeats: number | null;
+  /** Also estimate the whole procedure's error by nested cross-validation. */
+  honest: boolean;
+  /** Run stability selection at the chosen mix. */
+  stability: boolean;
+  /** Stability selection: pairs of complementary half-samples B (1 to 1000); null for the engine's 50. */
+  draws: number | null;
+  /** Stability selection: q, the largest average number of terms selected at a counted strength; null for the default. */
+  q: number | null;
+  /** Stability selection: the threshold π, strictly between 0.5 and 1; null for 0.75. */
+  threshold: number | null;
+  /** File of new rows to predict after fitting (same predictor column names). */
+  predict: string | null;
+  /** Where to write the predictions CSV; null = standard output (and no report). */
+  predictionsOut: string | null;
+  /** With --predict: the level of CV+ prediction intervals (number targets); null for none. */
+  interval: number | null;
   /** Worker threads for the folds and mixes: a whole number from 1, or "auto" (the cores available); null: 1, no workers. */
   threads?: number | "auto" | null;
 }
@@ -116,6 +135,36 @@ Cross-validation
   --rule lowest|one-se      lowest error (default), or the one-SE rule: the strongest penalty
                             whose error is within one standard error of the lowest
 
+How sure is it
+  --repeats <r>             deal the random folds r times (seeds seed, seed+1, …; 1 to 50,
+                            default 1) and choose on the curve averaged over the r deals
+  --honest                  also estimate the error of the whole procedure (every mix, every
+                            strength and the rule) by nested cross-validation: the chosen
+                            point's CV error chose the model and is optimistic for it
+  --stability               run stability selection at the chosen mix over pairs of
+                            complementary half-samples, and print each term's stable share and
+                            the bound on the expected number of falsely selected terms
+  --draws <B>               stability: pairs of half-samples (1 to 1000, default 50)
+  --q <q>                   stability: the largest average number of terms selected at a
+                            strength that still counts (default round(sqrt(0.8 p)), p the terms
+                            that can be selected)
+  --threshold <pi>          stability: the share at or above which a term is stable, between
+                            0.5 and 1 (default 0.75); not the yes/no cutoff, which is --cutoff
+                            (--draws, --q and --threshold need --stability)
+
+Predictions
+  --predict <new.csv>       after fitting, predict every row of new.csv (it needs the
+                            predictor columns, by name; other columns are copied through) and
+                            write CSV: its columns, then prediction (yes/no target: the
+                            probability of the event, and class at the cutoff)
+  --interval <level>        with --predict, number target: add low (90%) and high (90%), the
+                            CV+ prediction interval at the level (0.9 or 90%); with too few
+                            rows for the level (n + 1 < 1/(1 − level)) the ends read
+                            -Infinity and Infinity
+  --predictions-out <file>  write the predictions CSV to this file and print the report as
+                            usual; without it the CSV goes to standard output and the report
+                            (or --json) is not printed (its warnings go to standard error)
+
 Speed
   --threads <n>|auto        fit the folds and mixes on n worker threads (auto: one per core);
                             the result is the same, bit for bit (default 1: no workers)
@@ -162,6 +211,15 @@ const OPTIONS: Record<string, Kind> = {
   outcome: "text",
   event: "text",
   cutoff: "number",
+  repeats: "number",
+  honest: "flag",
+  stability: "flag",
+  draws: "number",
+  q: "number",
+  threshold: "number",
+  predict: "text",
+  "predictions-out": "text",
+  interval: "text",
   json: "flag",
   threads: "text",
   help: "flag",
@@ -334,6 +392,59 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
     );
   }
 
+  const repeats = number("repeats");
+  if (repeats !== null && !(Number.isInteger(repeats) && repeats >= 1 && repeats <= MAX_REPEATS)) {
+    throw new CommandError(`--repeats must be a whole number from 1 to ${MAX_REPEATS}; got '${text("repeats") as string}'`);
+  }
+  const stability = seen.has("stability");
+  const draws = number("draws");
+  if (draws !== null && !(Number.isInteger(draws) && draws >= 1 && draws <= MAX_DRAWS)) {
+    throw new CommandError(`--draws must be a whole number from 1 to ${MAX_DRAWS} (pairs of half-samples); got '${text("draws") as string}'`);
+  }
+  const q = number("q");
+  if (q !== null && !(Number.isInteger(q) && q >= 1)) {
+    throw new CommandError(`--q must be a whole number of 1 or more (the average number of terms selected at a counted strength); got '${text("q") as string}'`);
+  }
+  const threshold = number("threshold");
+  if (threshold !== null && !(threshold > 0.5 && threshold < 1)) {
+    throw new CommandError(`--threshold (stability) must be between 0.5 and 1, not 0.5 or 1; got '${text("threshold") as string}' (the yes/no cutoff is --cutoff)`);
+  }
+  const stabilityFlags = ["draws", "q", "threshold"].filter((name) => seen.has(name)).map((name) => `--${name}`);
+  if (stabilityFlags.length > 0 && !stability) {
+    throw new CommandError(`${stabilityFlags.join(" and ")} ${stabilityFlags.length === 1 ? "sets" : "set"} up stability selection: add --stability (the yes/no cutoff is --cutoff)`);
+  }
+  const honest = seen.has("honest");
+  const needCv = [repeats !== null && repeats > 1 ? `--repeats ${repeats}` : null, honest ? "--honest" : null, stability ? "--stability" : null].filter(
+    (flag): flag is string => flag !== null,
+  );
+  if (strength !== null && needCv.length > 0) {
+    throw new CommandError(`${needCv.join(" and ")} ${needCv.length === 1 ? "works" : "work"} on the cross-validated choice, and --strength fits one point without cross-validation: leave one out`);
+  }
+  if (repeats !== null && repeats > 1 && (seen.has("time-ordered") || seen.has("fold-column"))) {
+    const fixed = seen.has("time-ordered") ? "--time-ordered" : "--fold-column";
+    throw new CommandError(`--repeats ${repeats} deals random folds again with new seeds, but ${fixed} fixes the folds (one deal): leave one out`);
+  }
+  const predict = text("predict");
+  const predictionsOut = text("predictions-out");
+  const intervalText = text("interval");
+  let interval: number | null = null;
+  if (intervalText !== null) {
+    const percent = intervalText.endsWith("%");
+    const n = parseNumber(percent ? intervalText.slice(0, -1) : intervalText);
+    interval = n === null ? null : percent ? n / 100 : n;
+    if (interval === null || !(interval > 0 && interval < 1)) {
+      throw new CommandError(`--interval must be a coverage level between 0 and 1 (not 0 or 1), like 0.9 or 90%; got '${intervalText}'`);
+    }
+    if (predict === null) throw new CommandError("--interval gives prediction intervals for new rows: add --predict <new.csv>");
+    if (outcome === "two-class") throw new CommandError("--interval is for number targets; a yes/no model gives probabilities: leave --interval out");
+  }
+  if (predict === "-" && positional[0] === "-") {
+    throw new CommandError("the data and --predict can't both come from standard input: give one of them as a file");
+  }
+  if (predictionsOut !== null && predict === null) {
+    throw new CommandError("--predictions-out says where to write predictions: add --predict <new.csv>");
+  }
+
   return {
     help: false,
     options: {
@@ -361,6 +472,15 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
       standardize: !seen.has("no-standardize"),
       intercept: !seen.has("no-intercept"),
       json: seen.has("json"),
+      repeats,
+      honest,
+      stability,
+      draws,
+      q,
+      threshold,
+      predict,
+      predictionsOut,
+      interval,
       // Only when given: the options object is otherwise what it always was.
       ...(threads !== null ? { threads } : {}),
     },
@@ -396,5 +516,14 @@ export function toFitOptions(
   if (options.stopEarly) out.stopEarly = true;
   if (data.weights !== null) out.weights = data.weights;
   if (data.foldLabels !== null) out.foldLabels = data.foldLabels;
+  if (options.repeats !== null && options.repeats > 1) out.repeats = options.repeats;
+  if (options.honest) out.honestError = true;
+  if (options.stability) {
+    const stability: NonNullable<FitOptions["stability"]> = {};
+    if (options.draws !== null) stability.draws = options.draws;
+    if (options.q !== null) stability.expectedTerms = options.q;
+    if (options.threshold !== null) stability.threshold = options.threshold;
+    out.stability = stability;
+  }
   return out;
 }

@@ -4,12 +4,15 @@
  * `runCommand` does everything but the printing, so tests run it in process; the pieces it
  * calls are pure functions tested on their own (test/cli/).
  */
-import { readFileSync } from "fs";
-import { checkMeasure, fit, FitOptions, FitResult } from "../fit";
+import { readFileSync, writeFileSync } from "fs";
+import { predictionIntervals } from "../conformal";
+import { checkMeasure, fit, type FitOptions, type FitResult } from "../fit";
+import { fromRows } from "../matrix";
+import { predict } from "../model";
 import { fitParallel } from "../node/threadPool";
-import { CommandError, parseArgs, toFitOptions, USAGE } from "./args";
-import { failureLine, jsonText, textReport } from "./format";
-import { readFitTable } from "./table";
+import { CommandError, parseArgs, toFitOptions, USAGE, type CommandOptions } from "./args";
+import { failureLine, jsonText, predictionsCsv, textReport, warningMessages } from "./format";
+import { readFitTable, readNewRows, type FitTable } from "./table";
 
 export interface CommandOutcome {
   exitCode: 0 | 1 | 2;
@@ -29,9 +32,56 @@ export function readInput(file: string): string {
   }
 }
 
-/** Runs the command on `argv` (the arguments after `npm run fit --`); never throws. --threads is ignored here (see runCommandAsync). */
-export function runCommand(argv: readonly string[], read: (file: string) => string = readInput): CommandOutcome {
-  const step = commandSteps(argv, read);
+/** Writes a file of output; failures are bad input (exit 2). */
+export function writeOutput(file: string, text: string): void {
+  try {
+    writeFileSync(file, text, "utf8");
+  } catch (error) {
+    const code = (error as NodeJS.ErrnoException).code;
+    const reason =
+      code === "ENOENT" ? "no such folder" : code === "EISDIR" ? "it is a folder" : code === "EACCES" ? "permission denied" : String(code ?? error);
+    throw new CommandError(`can't write ${file}: ${reason}`);
+  }
+}
+
+/**
+ * `--predict`: the predictions CSV for the new file's rows from the fitted model, with CV+
+ * intervals (engine/conformal.ts) at `--interval` for a number target.
+ */
+export function predictionsFor(result: FitResult, table: FitTable, options: CommandOptions, text: string): string {
+  const file = options.predict as string;
+  const fresh = readNewRows(text, table.predictorNames, file === "-" ? "the new rows (standard input)" : file);
+  const predictions = predict(result.model, fresh.rows);
+  const twoClass = table.outcome === "two-class";
+  if (twoClass && options.interval !== null) {
+    throw new CommandError("--interval is for number targets; a yes/no model gives probabilities: leave --interval out");
+  }
+  const interval =
+    options.interval === null
+      ? null
+      : {
+          level: options.interval,
+          ...predictionIntervals(
+            result,
+            fresh.rows.length > 0 ? fromRows(fresh.rows) : { rows: 0, columns: result.terms.length, data: new Float64Array(0) },
+            options.interval,
+          ),
+        };
+  const classes = twoClass && table.classes && result.classFit ? { event: table.classes.event, other: table.classes.other, cutoff: result.classFit.cutoff } : null;
+  return predictionsCsv(fresh.table, predictions, { classes, interval });
+}
+
+/**
+ * Runs the command on `argv` (the arguments after `npm run fit --`); never throws. `read` reads
+ * the data file and the --predict file; `write` writes --predictions-out. The fit runs in this
+ * thread whatever --threads says (see runCommandAsync).
+ */
+export function runCommand(
+  argv: readonly string[],
+  read: (file: string) => string = readInput,
+  write: (file: string, text: string) => void = writeOutput,
+): CommandOutcome {
+  const step = commandSteps(argv, read, write);
   let next = step.next();
   while (!next.done) {
     const [x, y, options] = next.value;
@@ -48,8 +98,12 @@ export function runCommand(argv: readonly string[], read: (file: string) => stri
 }
 
 /** As runCommand, with the folds and mixes on --threads worker threads (engine/node/threadPool.ts): the same output. */
-export async function runCommandAsync(argv: readonly string[], read: (file: string) => string = readInput): Promise<CommandOutcome> {
-  const step = commandSteps(argv, read);
+export async function runCommandAsync(
+  argv: readonly string[],
+  read: (file: string) => string = readInput,
+  write: (file: string, text: string) => void = writeOutput,
+): Promise<CommandOutcome> {
+  const step = commandSteps(argv, read, write);
   let next = step.next();
   while (!next.done) {
     const [x, y, options, threads] = next.value;
@@ -65,7 +119,11 @@ export async function runCommandAsync(argv: readonly string[], read: (file: stri
 type FitCall = [number[][], ArrayLike<number>, FitOptions, number | "auto" | null];
 
 /** The command as steps: yields the one fit it needs (the caller runs it) and returns the outcome; never throws. */
-function* commandSteps(argv: readonly string[], read: (file: string) => string): Generator<FitCall, CommandOutcome, FitResult> {
+function* commandSteps(
+  argv: readonly string[],
+  read: (file: string) => string,
+  write: (file: string, text: string) => void,
+): Generator<FitCall, CommandOutcome, FitResult> {
   try {
     const command = parseArgs(argv);
     if (command.help) return { exitCode: 0, stdout: USAGE + "\n", stderr: "" };
@@ -104,7 +162,17 @@ function* commandSteps(argv: readonly string[], read: (file: string) => string):
       options.threads ?? null,
     ];
     const context = { table, foldColumn: options.foldColumn };
-    return { exitCode: 0, stdout: options.json ? jsonText(result, context) : textReport(result, context), stderr: "" };
+    const report = (): string => (options.json ? jsonText(result, context) : textReport(result, context));
+    if (options.predict !== null) {
+      const csv = predictionsFor(result, table, options, read(options.predict));
+      if (options.predictionsOut === null) {
+        // The report is not printed: its warnings go to stderr, one line each, so none is lost.
+        const warnings = warningMessages(result, table).map((message) => `shrinkwise: warning: ${message.replace(/\s*[\r\n]+\s*/g, " ").trim()}\n`);
+        return { exitCode: 0, stdout: csv, stderr: warnings.join("") };
+      }
+      write(options.predictionsOut, csv);
+    }
+    return { exitCode: 0, stdout: report(), stderr: "" };
   } catch (error) {
     const failure = failureLine(error);
     return { exitCode: failure.exitCode, stdout: "", stderr: failure.line };

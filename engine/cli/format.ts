@@ -5,6 +5,8 @@
  * JSON numbers that are not finite (an R² of a constant prediction, say) become null, so the
  * output always parses.
  */
+import Papa from "papaparse";
+import type { HonestError, StabilityResult } from "../assurance";
 import { InputError } from "../errors";
 import { higherIsBetter, type ChoicePoint, type ErrorMeasure, type FitResult } from "../fit";
 import type { TwoClassScore } from "../classMetrics";
@@ -12,7 +14,19 @@ import type { LinearModel } from "../model";
 import { CommandError } from "./args";
 import type { FitTable } from "./table";
 import { skippedRowsMessage } from "./table";
-import { bestPointLabel as bestPointWords, errorWithSe, measureName as measureWords, measureWithDirection, RULE_WORDS, significant } from "../words";
+import {
+  bestPointLabel as bestPointWords,
+  CANNOT_BE_SELECTED,
+  errorWithSe,
+  FALSE_SELECTION_LABEL,
+  HONEST_LABEL,
+  measureName as measureWords,
+  measureWithDirection,
+  NEVER_PENALIZED,
+  RULE_WORDS,
+  significant,
+  stabilityBasisWords,
+} from "../words";
 
 export { errorWithSe, RULE_WORDS };
 
@@ -118,6 +132,35 @@ export interface JsonReport {
    * drops: the share of folds dropping it too); see engine/keptShare.ts. Null for a fixed strength.
    */
   keptShare: Record<string, { kept: number; sameSign: number }> | null;
+  /** Deals of the random folds the choice was made on (--repeats; 1 without it); 0 for a fixed strength (no cross-validation). */
+  repeats: number;
+  /** --honest: the nested cross-validation error of the whole procedure (engine/assurance.ts HonestError); null otherwise. */
+  honest: {
+    measure: string;
+    folds: number;
+    error: number | null;
+    se: number | null;
+    /** The chosen point's CV error: the one that chose the model, optimistic for it. */
+    optimistic: number | null;
+    perFold: { weight: number | null; error: number | null; mix: number | null; strength: number | null; termsKept: number }[];
+  } | null;
+  /**
+   * --stability: stability selection at the chosen mix (engine/assurance.ts StabilityResult); terms
+   * keyed by column name like keptShare; q is StabilityResult.expectedTerms. Null otherwise.
+   */
+  stability: {
+    mix: number | null;
+    draws: number;
+    q: number;
+    threshold: number;
+    seed: number;
+    candidates: number;
+    falseSelectionBound: number | null;
+    strengths: (number | null)[];
+    averageSelected: (number | null)[];
+    /** candidate: whether the term could be selected (false for never-penalized, constant or bound-held terms; counted in `candidates`). */
+    terms: Record<string, { share: number | null; stable: boolean; candidate: boolean }>;
+  } | null;
 }
 
 /** A finite number as is; NaN and ±Infinity as null. */
@@ -260,6 +303,41 @@ export function jsonReport(result: FitResult, context: ReportContext): JsonRepor
     },
     model,
     keptShare: result.keptShare ? Object.fromEntries(result.keptShare.map((s) => [s.term, { kept: s.kept, sameSign: s.sameSign }])) : null,
+    repeats: result.cv ? result.cv.repeats : 0,
+    honest: result.honest ? honestJson(result.honest) : null,
+    stability: result.stability ? stabilityJson(result.stability, result.terms) : null,
+  };
+}
+
+function honestJson(honest: HonestError): NonNullable<JsonReport["honest"]> {
+  return {
+    measure: honest.measure,
+    folds: honest.folds,
+    error: finiteOrNull(honest.error),
+    se: finiteOrNull(honest.se),
+    optimistic: finiteOrNull(honest.optimistic),
+    perFold: honest.perFold.map((f) => ({
+      weight: finiteOrNull(f.weight),
+      error: finiteOrNull(f.error),
+      mix: finiteOrNull(f.mix),
+      strength: finiteOrNull(f.strength),
+      termsKept: f.termsKept,
+    })),
+  };
+}
+
+function stabilityJson(s: StabilityResult, terms: readonly string[]): NonNullable<JsonReport["stability"]> {
+  return {
+    mix: finiteOrNull(s.mix),
+    draws: s.draws,
+    q: s.expectedTerms,
+    threshold: s.threshold,
+    seed: s.seed,
+    candidates: s.candidates,
+    falseSelectionBound: finiteOrNull(s.falseSelectionBound),
+    strengths: s.strengths.map(finiteOrNull),
+    averageSelected: s.averageSelected.map(finiteOrNull),
+    terms: Object.fromEntries(terms.map((name, j) => [name, { share: finiteOrNull(s.share[j]), stable: s.stable[j], candidate: s.candidate ? s.candidate[j] : true }])),
   };
 }
 
@@ -360,17 +438,33 @@ export function textReport(result: FitResult, context: ReportContext): string {
   }
   // With cross-validation: in how many of the K fold models each term is kept, and agrees in sign.
   const shares = result.keptShare;
-  const K = result.cv?.folds ?? 0;
+  // With repeats the shares count every deal's fold models: r·K of them.
+  const deals = result.cv?.repeats ?? 1;
+  const K = (result.cv?.folds ?? 0) * deals;
   if (shares && K > 0) {
     const ofK = (share: number): string => `${Math.round(share * K)}/${K}`;
     termRows[0].push("kept in folds", "same sign");
     termRows[1].push("", "");
     shares.forEach((s, j) => termRows[j + 2].push(ofK(s.kept), ofK(s.sameSign)));
   }
+  // With stability selection: each term's stable share over the half-samples, and whether it is stable.
+  const stability = result.stability ?? null;
+  if (stability) {
+    termRows[0].push("stable share", "stable");
+    termRows[1].push("", "");
+    result.terms.forEach((_, j) => {
+      const candidate = stability.candidate ? stability.candidate[j] : true;
+      // A term that can't be selected: why, in place of a share (never penalized: in every model; constant or held at 0: in none).
+      const share = candidate ? formatNumber(stability.share[j], 3) : stability.share[j] > 0 ? NEVER_PENALIZED : CANNOT_BE_SELECTED;
+      termRows[j + 2].push(share, stability.stable[j] ? "yes" : "no");
+    });
+  }
   lines.push(...columns(termRows));
   if (shares && K > 0) {
-    lines.push(`  (kept in folds: how many of the ${K} fold models at the chosen point keep the term; same sign: how many agree with its sign above)`);
+    const models = deals > 1 ? `${K} fold models (${deals} deals × ${K / deals} folds)` : `${K} fold models`;
+    lines.push(`  (kept in folds: how many of the ${models} at the chosen point keep the term; same sign: how many agree with its sign above)`);
   }
+  if (stability) lines.push(...stabilityLines(stability));
   if (twoClass) {
     lines.push(
       `  (log-odds of ${event} per unit of each predictor; odds ratio = e^log-odds, what the odds`,
@@ -412,7 +506,9 @@ export function textReport(result: FitResult, context: ReportContext): string {
       ["terms kept", ...points.map((c) => `${c.termsKept} of ${p}`)],
     ];
     lines.push(...columns(rows));
+    lines.push(repeatsLine(result.cv.repeats, result.cv.seed));
   }
+  if (result.honest) lines.push(...honestLines(result.honest, p, table.weights !== null));
   if (baseline && twoClass) {
     if (separation) {
       lines.push(`Unpenalized logistic fit: ${separation.message}`);
@@ -445,6 +541,72 @@ export function textReport(result: FitResult, context: ReportContext): string {
     for (const message of warnings) lines.push(`  - ${message}`);
   }
   return lines.join("\n") + "\n";
+}
+
+/** The repeats of the fold deal in one line. */
+export function repeatsLine(repeats: number, seed: number | null): string {
+  if (repeats <= 1) return "Repeats: 1 deal of the folds";
+  const seeds = seed === null ? "" : ` (seeds ${seed} to ${seed + repeats - 1})`;
+  return `Repeats: ${repeats} deals of the folds${seeds}; the choice used the curve averaged over them: each CV error above is the mean over all ${repeats} deals' held-out folds, its SE the average of the deals' own SEs`;
+}
+
+/**
+ * The stability selection's explanation and the bound (Meinshausen & Bühlmann 2010, JRSS-B 72(4),
+ * Theorem 1; complementary pairs: Shah & Samworth 2013, JRSS-B 75(1)).
+ */
+export function stabilityLines(s: StabilityResult): string[] {
+  const stable = s.stable.filter(Boolean).length;
+  return [
+    `  (stable share: the highest share of the ${2 * s.draws} half-sample fits that select the term, over the ${s.strengths.length} strengths where ` +
+      `at most ${s.expectedTerms} terms are selected on average; stable: share ${formatNumber(s.threshold)} or more; ${stable} stable)`,
+    `Stability selection: ${FALSE_SELECTION_LABEL} ${formatNumber(s.falseSelectionBound, 4)} (q²/((2π − 1)·p) with ${stabilityBasisWords(s)})`,
+  ];
+}
+
+/** The honest (nested cross-validation) error of the whole procedure, beside the optimistic one, and its outer folds. */
+export function honestLines(h: HonestError, p: number, weighted = false): string[] {
+  const name = measureName(h.measure as ErrorMeasure, true);
+  const rows: string[][] = [["outer fold", weighted ? "weight scored" : "rows scored", measureName(h.measure as ErrorMeasure), "mix", "strength λ", "terms kept"]];
+  h.perFold.forEach((f, k) => {
+    rows.push([String(k + 1), formatNumber(f.weight), formatNumber(f.error), formatNumber(f.mix), formatNumber(f.strength), `${f.termsKept} of ${p}`]);
+  });
+  return [
+    `${HONEST_LABEL[0].toUpperCase()}${HONEST_LABEL.slice(1)}, by nested cross-validation over ${h.folds} outer folds: ${name} ${errorWithSe(h.error, h.se)}`,
+    `  The chosen point's CV ${measureName(h.measure as ErrorMeasure)} (${formatNumber(h.optimistic)}) is the one that chose the model, so it is optimistic for it;`,
+    "  the honest error reruns the whole choice (every mix, every strength and the rule) on each outer training part and scores it on the held-out part.",
+    ...columns(rows),
+  ];
+}
+
+/**
+ * The predictions CSV of `--predict`: the new file's columns as read, then `prediction` (a yes/no
+ * model: the probability of the event, then `class`, the event's or the other label at the
+ * cutoff), then with an interval level `low (90%)` and `high (90%)`. Numbers at full precision;
+ * an unbounded interval end (too few training rows for the level) reads -Infinity / Infinity.
+ */
+export function predictionsCsv(
+  table: { columns: readonly string[]; rows: readonly (readonly string[])[] },
+  predictions: ArrayLike<number>,
+  extra: { classes?: { event: string; other: string; cutoff: number } | null; interval?: { level: number; low: ArrayLike<number>; high: ArrayLike<number> } | null } = {},
+): string {
+  // An interval with too few training rows for its level is unbounded: written Infinity / -Infinity
+  // (JavaScript's Number reads them back); NaN never reaches here (the engine refuses it).
+  const number = (value: number): string => (Number.isNaN(value) ? "" : String(value));
+  const header = [...table.columns, "prediction"];
+  const classes = extra.classes ?? null;
+  const interval = extra.interval ?? null;
+  if (classes) header.push("class");
+  if (interval) {
+    const level = `${significant(interval.level * 100, 6)}%`;
+    header.push(`low (${level})`, `high (${level})`);
+  }
+  const rows = table.rows.map((row, i) => {
+    const out = [...row, number(predictions[i])];
+    if (classes) out.push(predictions[i] >= classes.cutoff ? classes.event : classes.other);
+    if (interval) out.push(number(interval.low[i]), number(interval.high[i]));
+    return out;
+  });
+  return Papa.unparse({ fields: header, data: rows }, { newline: "\n" }) + "\n";
 }
 
 /**

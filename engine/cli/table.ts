@@ -304,3 +304,46 @@ export function skippedRowsMessage(table: FitTable, shown = 10): string | null {
   const noun = table.rowsSkipped === 1 ? "row" : "rows";
   return `${table.rowsSkipped} ${noun} with blank cells skipped (data ${noun} ${rows}; blanks by column: ${columns})`;
 }
+
+/** Rows to predict (`--predict new.csv`): the file's cells, and the predictors' numbers row by row. */
+export interface NewRows {
+  /** The new file as read: every column is copied to the predictions. */
+  table: TextTable;
+  /** rows[i][j]: data row i, predictor j (in the fit's predictor order). */
+  rows: number[][];
+}
+
+/**
+ * Reads the rows to predict from a delimited text: every predictor of the fit must be a column
+ * (by name; order and other columns don't matter) and every row needs a number in each of them.
+ * Throws CommandError naming the missing column, or the row and column of a blank or text cell.
+ * `label` names the file in messages.
+ */
+export function readNewRows(text: string, predictorNames: readonly string[], label = "the new rows file"): NewRows {
+  let table: TextTable;
+  try {
+    table = parseDelimited(text);
+  } catch (error) {
+    if (error instanceof CommandError) throw new CommandError(`${label}: ${error.message}`);
+    throw error;
+  }
+  const missing = predictorNames.filter((name) => !table.columns.includes(name));
+  if (missing.length > 0) {
+    throw new CommandError(
+      `${label} has no column ${listColumns(missing)}: it needs every predictor the model uses (${listColumns(predictorNames)}); its columns are ${listColumns(table.columns)}`,
+    );
+  }
+  const at = predictorNames.map((name) => table.columns.indexOf(name));
+  const rows = table.rows.map((row, r) =>
+    at.map((j, k) => {
+      const cell = row[j];
+      if (cell === "") throw new CommandError(`${label} has a blank in data row ${r + 1}, column '${predictorNames[k]}': every predictor needs a value to predict the row`);
+      const value = numberFromText(cell);
+      if (value === null) {
+        throw new CommandError(`${label} has text in data row ${r + 1}, column '${predictorNames[k]}' ('${cell}')${numberTextHint(cell, "file")}: use numbers only`);
+      }
+      return value;
+    }),
+  );
+  return { table, rows };
+}

@@ -64,6 +64,15 @@ describe("parseArgs", () => {
       standardize: true,
       intercept: true,
       json: false,
+      repeats: null,
+      honest: false,
+      stability: false,
+      draws: null,
+      q: null,
+      threshold: null,
+      predict: null,
+      predictionsOut: null,
+      interval: null,
     });
     expect(toFitOptions(o, noData)).toEqual({ names: ["a", "b"], standardize: true, intercept: true, timeOrdered: false });
   });
@@ -299,6 +308,75 @@ describe("parseArgs: yes/no (two-class) targets", () => {
     expect(USAGE).toContain("--event <label>");
     expect(USAGE).toContain("--cutoff <p>");
     expect(USAGE).toContain("--error mse|mae|deviance|misclassified|auc");
+  });
+});
+
+describe("parseArgs: repeats, honest error, stability, predictions", () => {
+  it("reads --repeats, --honest, --stability with --draws, --q, --threshold and maps them to the engine", () => {
+    const o = options(["d.csv", "--target", "y", "--repeats", "5", "--honest", "--stability", "--draws=20", "--q", "3", "--threshold", "0.8"]);
+    expect(o).toMatchObject({ repeats: 5, honest: true, stability: true, draws: 20, q: 3, threshold: 0.8 });
+    expect(toFitOptions(o, noData)).toMatchObject({ repeats: 5, honestError: true, stability: { draws: 20, expectedTerms: 3, threshold: 0.8 } });
+    // Defaults stay out of the engine's options: --repeats 1 is one deal, --stability alone takes the engine's defaults.
+    const plain = toFitOptions(options(["d.csv", "--target", "y", "--repeats", "1", "--stability"]), noData);
+    expect("repeats" in plain || "honestError" in plain).toBe(false);
+    expect(plain.stability).toEqual({});
+  });
+
+  it("refuses out-of-range values with the range (exact)", () => {
+    expect(usageError(["d.csv", "--target", "y", "--repeats", "0"])).toBe("--repeats must be a whole number from 1 to 50; got '0'");
+    expect(usageError(["d.csv", "--target", "y", "--repeats", "2.5"])).toBe("--repeats must be a whole number from 1 to 50; got '2.5'");
+    expect(usageError(["d.csv", "--target", "y", "--stability", "--draws", "1001"])).toBe(
+      "--draws must be a whole number from 1 to 1000 (pairs of half-samples); got '1001'",
+    );
+    expect(usageError(["d.csv", "--target", "y", "--stability", "--q", "0"])).toMatch(/^--q must be a whole number of 1 or more/);
+    expect(usageError(["d.csv", "--target", "y", "--stability", "--threshold", "0.5"])).toBe(
+      "--threshold (stability) must be between 0.5 and 1, not 0.5 or 1; got '0.5' (the yes/no cutoff is --cutoff)",
+    );
+  });
+
+  it("--draws, --q and --threshold without --stability: one line saying to add it", () => {
+    expect(usageError(["d.csv", "--target", "y", "--draws", "10"])).toBe("--draws sets up stability selection: add --stability (the yes/no cutoff is --cutoff)");
+    expect(usageError(["d.csv", "--target", "y", "--q", "2", "--threshold", "0.9"])).toBe(
+      "--q and --threshold set up stability selection: add --stability (the yes/no cutoff is --cutoff)",
+    );
+  });
+
+  it("refuses what a fixed strength or fixed folds can't honour", () => {
+    expect(usageError(["d.csv", "--target", "y", "--mix", "1", "--strength", "0.1", "--honest"])).toBe(
+      "--honest works on the cross-validated choice, and --strength fits one point without cross-validation: leave one out",
+    );
+    expect(usageError(["d.csv", "--target", "y", "--time-ordered", "--repeats", "3"])).toBe(
+      "--repeats 3 deals random folds again with new seeds, but --time-ordered fixes the folds (one deal): leave one out",
+    );
+    expect(usageError(["d.csv", "--target", "y", "--fold-column", "g", "--repeats", "3"])).toMatch(/--fold-column fixes the folds/);
+  });
+
+  it("reads --predict, --predictions-out and --interval (0.9 or 90%)", () => {
+    expect(options(["d.csv", "--target", "y", "--predict", "new.csv", "--interval", "90%"])).toMatchObject({ predict: "new.csv", interval: 0.9, predictionsOut: null });
+    expect(options(["d.csv", "--target", "y", "--predict", "new.csv", "--interval=0.8", "--predictions-out", "p.csv"])).toMatchObject({
+      interval: 0.8,
+      predictionsOut: "p.csv",
+    });
+  });
+
+  it("--interval needs --predict and a level between 0 and 1; not with a yes/no outcome", () => {
+    expect(usageError(["d.csv", "--target", "y", "--interval", "0.9"])).toBe("--interval gives prediction intervals for new rows: add --predict <new.csv>");
+    expect(usageError(["d.csv", "--target", "y", "--predict", "n.csv", "--interval", "1"])).toBe(
+      "--interval must be a coverage level between 0 and 1 (not 0 or 1), like 0.9 or 90%; got '1'",
+    );
+    expect(usageError(["d.csv", "--target", "y", "--predict", "n.csv", "--interval", "ninety"])).toMatch(/^--interval must be a coverage level/);
+    expect(usageError(["d.csv", "--target", "y", "--outcome", "two-class", "--predict", "n.csv", "--interval", "0.9"])).toBe(
+      "--interval is for number targets; a yes/no model gives probabilities: leave --interval out",
+    );
+    expect(usageError(["d.csv", "--target", "y", "--predictions-out", "p.csv"])).toBe("--predictions-out says where to write predictions: add --predict <new.csv>");
+    expect(usageError(["-", "--target", "y", "--predict", "-"])).toMatch(/can't both come from standard input/);
+  });
+
+  it("documents the new options in the help, and where the predictions go", () => {
+    for (const flag of ["--repeats", "--honest", "--stability", "--draws", "--q", "--threshold", "--predict", "--interval", "--predictions-out"]) {
+      expect([flag, USAGE.includes(`  ${flag} `)]).toEqual([flag, true]);
+    }
+    expect(USAGE).toMatch(/without it the CSV goes to standard output and the report\s+\(or --json\) is not printed/);
   });
 });
 

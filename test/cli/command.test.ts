@@ -6,7 +6,7 @@
  * failure messages are checked in process (pipeline.test.ts) and Longley in longley.test.ts.
  */
 import { spawn } from "child_process";
-import { mkdtempSync, rmSync, writeFileSync } from "fs";
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from "fs";
 import { tmpdir } from "os";
 import { join, resolve } from "path";
 
@@ -82,6 +82,9 @@ describe("npx tsx engine/cli/fit.ts", () => {
       missingFile: [join(folder, "nowhere.csv"), "--target", "y", "--json"],
       twoClass: [quality, "--target", "check", "--event", "fail", "--folds", "4", "--count", "20", "--mix", "1"],
       badOutcome: [quality, "--target", "check", "--outcome", "number"],
+      predict: [csv, "--target", "y", "--predictors", "a,b", "--folds", "5", "--predict", csv, "--interval", "0.8", "--predictions-out", join(folder, "out.csv")],
+      predictStdout: [csv, "--target", "y", "--predictors", "a,b", "--folds", "5", "--predict", csv],
+      predictBadFolder: [csv, "--target", "y", "--predictors", "a,b", "--folds", "5", "--predict", csv, "--predictions-out", join(folder, "nowhere", "out.csv")],
     };
     const names = Object.keys(runs);
     const results = await Promise.all(names.map((name) => runCommand(runs[name])));
@@ -134,6 +137,24 @@ describe("npx tsx engine/cli/fit.ts", () => {
 
   it("two labels with --outcome number: exit 2 and readOutcome's one line", () => {
     expectOneLineFailure(outcomes.badOutcome, /^shrinkwise: 'check' holds two labels \('pass', 'Fail'\), not numbers: it is a yes\/no outcome/);
+  });
+
+  it("--predict with --predictions-out: the CSV in the file (interval columns included), the report on stdout", () => {
+    const outcome = outcomes.predict;
+    expect(outcome.stderr).toBe("");
+    expect(outcome.status).toBe(0);
+    expect(outcome.stdout).toMatch(/Rows: 30 used, 0 skipped/);
+    const lines = readFileSync(join(folder, "out.csv"), "utf8").trimEnd().split("\n");
+    expect(lines[0]).toBe("id,a,b,group,y,prediction,low (80%),high (80%)");
+    expect(lines).toHaveLength(31);
+  });
+
+  it("--predict alone: the CSV on stdout, no report; an unwritable --predictions-out: exit 2, one line", () => {
+    const outcome = outcomes.predictStdout;
+    expect(outcome.status).toBe(0);
+    expect(outcome.stdout.split("\n")[0]).toBe("id,a,b,group,y,prediction");
+    expect(outcome.stdout).not.toMatch(/Rows:/);
+    expectOneLineFailure(outcomes.predictBadFolder, /can't write .*out\.csv: no such folder/);
   });
 
   it("a missing file: exit 2 and one line", () => {

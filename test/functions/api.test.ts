@@ -57,8 +57,11 @@ describe("spilled shapes and labels", () => {
       "seed",
       "reference levels",
       "notes",
+      "repeats",
     ]);
     const values = labelled(out);
+    // One deal of the folds unless repeats says otherwise; no honest-error rows unless asked.
+    expect(values.get("repeats")).toBe(1);
     expect(values.get("rule")).toBe("one-SE rule");
     expect(values.get("folds")).toBe(4);
     expect(values.get("fold method")).toBe("random");

@@ -57,6 +57,12 @@ describe("text form", () => {
       cutoff: null,
       predictOutput: null,
       interval: null,
+      repeats: null,
+      honestError: null,
+      stability: null,
+      draws: null,
+      expectedTerms: null,
+      stabilityThreshold: null,
     });
   });
   test("rule words: lowest, lowest error, one-se, one-SE rule, one standard error; older tokens min, onese, 1se as aliases", () => {
@@ -115,9 +121,10 @@ describe("mistakes", () => {
   test("an unknown name lists every valid name", () => {
     expect(settingError("foldz=3")).toBe(
       "unknown setting 'foldz': the settings are folds, seed, rule, error, standardize, intercept, grid density, grid size, low end, stop early, strength, " +
-        "fold column, time order, weights column, penalty, no penalty, lower, upper, header, zero is missing, outcome, event, cutoff, predict, interval",
+        "fold column, time order, weights column, penalty, no penalty, lower, upper, header, zero is missing, outcome, event, cutoff, predict, interval, " +
+        "repeats, honest error, stability, draws, q, stability threshold",
     );
-    expect(SETTING_NAMES).toHaveLength(25);
+    expect(SETTING_NAMES).toHaveLength(31);
   });
   test("values out of range say the allowed range", () => {
     expect(settingError("folds=1")).toBe("'folds' must be a whole number from 2 to 1000; got '1'");

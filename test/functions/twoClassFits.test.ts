@@ -57,6 +57,7 @@ describe("spills for a yes/no target", () => {
       "seed",
       "reference levels",
       "notes",
+      "repeats",
     ]);
     const v = labelled(out);
     expect(v.get("outcome")).toBe("yes/no (two-class)");
