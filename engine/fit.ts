@@ -47,7 +47,8 @@ import type { FoldModel } from "./conformal";
 import { KeptShare, keptShares } from "./keptShare";
 import { checkRepeats, type HonestError, type StabilityOptions, type StabilityResult } from "./assurance";
 import { averageOfDeals, SignTally } from "./repeats";
-import { HONEST_SEED_OFFSET, HonestPlan, nestedCrossValidation } from "./honest";
+import { HONEST_SEED_OFFSET, HonestPlan, honestSummary, nestedCrossValidation, outerFoldError, outerFoldFit, outerFoldRecord } from "./honest";
+import type { HonestFold } from "./assurance";
 import { HalfPath, StabilityInput, stabilitySelection, stabilitySettings, stabilityUnits } from "./stability";
 import {
   DEFAULT_GRID_DENSITY,
@@ -1074,6 +1075,10 @@ export function* fitSteps(
       yield;
       continue;
     }
+    if (batch.inline) {
+      yield* batch.inline();
+      continue;
+    }
     // The sequential run: the batch's tasks one after another, on the fit's own context.
     for (let i = 0; i < batch.tasks.length; i++) {
       throwIfCancelled(options.signal);
@@ -1100,6 +1105,11 @@ interface TaskBatch {
   context: TaskContext;
   consume: (index: number, result: FitTaskResult) => void;
   finished: (index: number) => void;
+  /**
+   * Runs the same work in this thread instead, yielding inside the tasks (the honest error's inner
+   * fits, so a cancel gets through between their units); the sequential run uses it.
+   */
+  inline?: () => Generator<void, void, void>;
 }
 
 /**
@@ -1118,6 +1128,10 @@ export interface TaskContext {
   repeats: number;
   /** Exact-ridge factorizations of first-deal folds in kernel form ("mix:fold"), kept for fold-point tasks. */
   spectral: Map<string, SpectralRidge>;
+  /** The fit's options (a worker's: without callbacks, honest error or stability), for the honest error's outer folds. */
+  options: FitOptions;
+  /** The honest error's outer split, made when its first outer fold is asked for. */
+  honest?: HonestPlan;
 }
 
 /** The checked options and everything built before the first path is solved. */
@@ -1204,6 +1218,7 @@ export function openTaskContext(input: FitTaskInput): TaskContext {
     measure: checkMeasure(options.measure, s.data.outcome),
     repeats: s.repeats,
     spectral: new Map(),
+    options,
   };
 }
 
@@ -1239,7 +1254,8 @@ function taskInput(context: TaskContext, options: FitOptions): FitTaskInput {
   const p = data.x.columns;
   const K = context.plan.trainBlocks.length;
   const snapshotSize = context.repeats * (2 * K + 1) * p * p;
-  if (data.gram && data.outcome === "number" && context.measure === "mse" && snapshotSize <= Math.max(2 * n * p, SNAPSHOT_DOUBLES)) {
+  // The honest error's outer folds fit rows: workers need them then.
+  if (!options.honestError && data.gram && data.outcome === "number" && context.measure === "mse" && snapshotSize <= Math.max(2 * n * p, SNAPSHOT_DOUBLES)) {
     const none = new Float64Array(0);
     const noRows: ColumnMatrix = { rows: n, columns: p, data: none };
     const deals = Array.from({ length: context.repeats }, (_, d) => context.deals(d));
@@ -1265,7 +1281,7 @@ function contextFromSnapshot(snapshot: TaskSnapshot): TaskContext {
   const deals = snapshot.problems.map((problems, d) =>
     makeDeal(data, snapshot.plans[d], { ...problems, fold: (f) => problems.folds[f] }),
   );
-  return { data, problems: deals[0].problems, plan: snapshot.plans[0], deals: (d) => deals[d], measure: "mse", repeats: deals.length, spectral: new Map() };
+  return { data, problems: deals[0].problems, plan: snapshot.plans[0], deals: (d) => deals[d], measure: "mse", repeats: deals.length, spectral: new Map(), options: {} };
 }
 
 /** The whole fit as a plan (see FitPlan): fitSteps runs its batches in this thread, fitAsync with a pool in workers. */
@@ -1308,6 +1324,7 @@ function* fitPlan(
     measure,
     repeats,
     spectral: new Map(),
+    options,
   };
   if (data.outcome === "two-class") {
     return yield* twoClassSteps(context, rule, options, constantColumns, warnings, honestError);
@@ -1505,7 +1522,7 @@ function* fitPlan(
         result.coefficients,
         kept.foldModels.map((model) => model.coefficients),
       );
-  if (honest) result.honest = yield* honestRun(data, options, honest, result, (units) => options.onProgress?.(cvUnits + units, totalUnits));
+  if (honest) result.honest = yield* honestPhase(context, honest, result, (units) => options.onProgress?.(cvUnits + units, totalUnits));
   if (options.stability) {
     let halvesDone = cvUnits + (honest?.units ?? 0);
     result.stability = yield* stabilitySelection(stabilityInput(data, full, options, best.mix, best.run, () => options.onProgress?.(++halvesDone, totalUnits)), warnings);
@@ -1518,6 +1535,7 @@ export function runFitTask(context: TaskContext, task: FitTask): FitTaskResult {
   try {
     if (task.kind === "path") return context.data.outcome === "two-class" ? twoClassPathTask(context, task.mix) : pathTask(context, task.mix);
     if (task.kind === "fold") return context.data.outcome === "two-class" ? twoClassFoldTask(context, task) : foldTask(context, task);
+    if (task.kind === "honest") return honestTask(context, task.outer);
     return foldPointTask(context, task);
   } catch (error) {
     if (error instanceof InputError) return { kind: "failed", code: error.code, message: error.message };
@@ -1877,22 +1895,71 @@ function honestSetup(data: Prepared, options: FitOptions, plan: FoldPlan, repeat
   return { plan: outer, innerUnits, units };
 }
 
-/** The honest error of `result`'s procedure (honest.ts), reporting its units through `progress`. */
-function honestRun(data: Prepared, options: FitOptions, honest: HonestPlan, result: FitResult, progress: (units: number) => void): Generator<void, HonestError, void> {
-  const choices = result.choices as { lowest: ChoicePoint; oneSe: ChoicePoint };
-  return nestedCrossValidation({
+/** What the honest error's outer folds read (honest.ts OuterInput), from a fit's context. */
+function outerInput(context: TaskContext): Parameters<typeof outerFoldFit<FitOptions>>[0] {
+  const { data } = context;
+  const honest = (context.honest ??= honestSetup(data, context.options, context.plan, context.repeats));
+  return {
     x: data.original.x,
     y: data.original.y,
     weights: data.original.weights,
-    measure: (result.cv as { measure: ErrorMeasure }).measure,
+    measure: context.measure,
     cutoff: data.cutoff,
-    options: { ...options, names: data.names },
+    options: { ...context.options, names: data.names },
     honest,
+  };
+}
+
+/**
+ * The honest error of `result`'s procedure (honest.ts), reporting its units through `progress`:
+ * one task per outer fold (its whole inner fit) on a pool; in this thread, nestedCrossValidation
+ * with the same pieces, yielding inside the inner fits.
+ */
+function* honestPhase(context: TaskContext, honest: HonestPlan, result: FitResult, progress: (units: number) => void): Generator<TaskBatch | void, HonestError, void> {
+  context.honest = honest;
+  const choices = result.choices as { lowest: ChoicePoint; oneSe: ChoicePoint };
+  const input = {
+    ...outerInput(context),
     optimistic: result.rule === "one-se" ? choices.oneSe.error : choices.lowest.error,
     warnings: result.warnings,
     progress,
-    fitSteps,
-  });
+  };
+  const K = honest.plan.trainBlocks.length;
+  const perFold: HonestFold[] = new Array(K);
+  let inlineResult = null as HonestError | null;
+  let units = 0;
+  yield {
+    tasks: Array.from({ length: K }, (_, k): FitTask => ({ kind: "honest", outer: k })),
+    context,
+    consume: (k, outcome) => {
+      if (outcome.kind === "failed") throw new InputError(outcome.code, outcome.message);
+      if (outcome.kind !== "honest") throw new Error("fit: an honest task returned another kind of result");
+      perFold[k] = outcome.fold;
+    },
+    finished: (k) => {
+      units += honest.innerUnits[k];
+      progress(units);
+    },
+    inline: function* () {
+      inlineResult = yield* nestedCrossValidation({ ...input, fitSteps });
+    },
+  };
+  if (inlineResult) return inlineResult;
+  return honestSummary(input, perFold);
+}
+
+/** One outer fold of the honest error (honest.ts): its whole inner fit on the outer training rows, scored on the outer held-out rows. */
+function honestTask(context: TaskContext, k: number): FitTaskResult {
+  const input = outerInput(context);
+  const fold = outerFoldFit(input, k);
+  let inner: FitResult;
+  try {
+    inner = fit(fold.x, fold.y, fold.options);
+  } catch (error) {
+    if (error instanceof InputError) throw outerFoldError(input.honest.plan, k, error);
+    throw error;
+  }
+  return { kind: "honest", fold: outerFoldRecord(input, k, inner) };
 }
 
 /**
@@ -2463,7 +2530,7 @@ function* twoClassSteps(
               (chosenFoldPaths as FoldPoints[]).map((fold) => logisticToOriginal(fold, 0, (fold.path as Float64Array[])[chosen.index]).coefficients),
             )
           : null;
-  if (honest) result.honest = yield* honestRun(data, options, honest, result, (units) => options.onProgress?.(cvUnits + units, totalUnits));
+  if (honest) result.honest = yield* honestPhase(context, honest, result, (units) => options.onProgress?.(cvUnits + units, totalUnits));
   if (options.stability) {
     let halvesDone = cvUnits + (honest?.units ?? 0);
     result.stability = yield* stabilitySelection(stabilityInput(data, full, options, best.mix, best.run, () => options.onProgress?.(++halvesDone, totalUnits)), warnings);

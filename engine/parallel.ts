@@ -23,6 +23,7 @@
  * fit starts fresh workers.
  */
 import { CancelledError, CancelSignal, FitWarning, InputError, InputErrorCode } from "./errors";
+import type { HonestFold } from "./assurance";
 import type { ColumnMatrix } from "./matrix";
 import type { LogisticRun } from "./logistic";
 import type { PathRun } from "./path";
@@ -39,7 +40,9 @@ export type FitTask =
    */
   | { kind: "fold"; mix: number; deal: number; fold: number; strengths: number[]; keepPath: boolean; keepSigns: boolean }
   /** An exact-ridge fold of the first deal (kernel form, which keeps no path): its coefficients at one strength. */
-  | { kind: "fold-point"; mix: number; fold: number; strength: number };
+  | { kind: "fold-point"; mix: number; fold: number; strength: number }
+  /** Outer fold `outer` of the honest error (honest.ts): the whole procedure on its training rows, scored on its held-out rows. */
+  | { kind: "honest"; outer: number };
 
 export type FitTaskResult =
   /** The task found the input can't be fitted: the fit throws this InputError (in task order). */
@@ -60,7 +63,8 @@ export type FitTaskResult =
       /** keepSigns: strengths × terms signs (−1, 0, 1; 0 for a column constant in the fold). */
       signs: Int8Array | null;
     }
-  | { kind: "fold-point"; coefficients: Float64Array };
+  | { kind: "fold-point"; coefficients: Float64Array }
+  | { kind: "honest"; fold: HonestFold };
 
 /** What every worker receives once per fit: the inputs (data units) and the options without callbacks. */
 export interface FitTaskInput {

@@ -87,6 +87,8 @@ const CASES: [string, (d: ReturnType<typeof data>) => { y: number[]; options: Fi
   ["number, residual form, MAE, one-SE", (d) => ({ y: d.y, options: { mixes: [0, 1], folds: 4, gridDensity: 10, updates: "residual", measure: "mae", rule: "one-se" } })],
   ["two-class, repeats and weights", (d) => ({ y: d.events, options: { outcome: "two-class", mixes: [0.5, 1], folds: 4, repeats: 2, gridDensity: 8, weights: weights(d.y.length) } })],
   ["two-class, AUC", (d) => ({ y: d.events, options: { outcome: "two-class", mixes: [0, 1], folds: 5, gridDensity: 8, measure: "auc" } })],
+  ["number, honest error (outer folds as tasks), repeats, weights", (d) => ({ y: d.y, options: { mixes: [0, 1], folds: 4, repeats: 2, gridDensity: 8, honestError: true, weights: weights(d.y.length) } })],
+  ["two-class, honest error", (d) => ({ y: d.events, options: { outcome: "two-class", mixes: [1], folds: 4, gridDensity: 8, honestError: true } })],
 ];
 
 describe("a pooled fit is the sequential fit bit for bit", () => {
@@ -112,6 +114,27 @@ describe("a pooled fit is the sequential fit bit for bit", () => {
     expect(difference(pooled, fit(wide.x, wide.y, options))).toBeNull();
     expect(pooled.foldModels?.length).toBe(4);
   });
+});
+
+test("an honest error's outer fold that can't be fitted gives the sequential fit's InputError", async () => {
+  const d = data(60, 4, 19);
+  // Two fold labels: each outer training part holds one label, too few for its own folds.
+  const options: FitOptions = { mixes: [1], gridDensity: 8, honestError: true, foldLabels: d.y.map((_, i) => (i % 2 === 0 ? "east" : "west")) };
+  let expected: InputError | null = null;
+  try {
+    fit(d.x, d.y, options);
+  } catch (error) {
+    expected = error as InputError;
+  }
+  expect(expected).toBeInstanceOf(InputError);
+  const pool = shuffledPool(2, 5);
+  const pooled = fitAsync(d.x, d.y, options, { pool });
+  await expect(pooled).rejects.toThrow(InputError);
+  await pooled.catch((error: InputError) => {
+    expect(error.code).toBe((expected as InputError).code);
+    expect(error.message).toBe((expected as InputError).message);
+  });
+  pool.dispose();
 });
 
 describe("worker threads", () => {
@@ -145,6 +168,16 @@ describe("worker threads", () => {
       expect(done).toBe(k + 1);
       expect(total).toBe(27);
     });
+    // With the honest error, each outer fold's units arrive together when its task ends: rising, ending at the total.
+    const honest: [number, number][] = [];
+    await fitParallel(d.x, d.y, { mixes: [0, 1], folds: 3, honestError: true, onProgress: (done, total) => honest.push([done, total]) }, { pool });
+    const total = honest[0][1];
+    expect(total).toBe(2 * 4 + 3 * (2 * 4));
+    honest.forEach(([done, t], k) => {
+      expect(t).toBe(total);
+      if (k > 0) expect(done).toBeGreaterThan(honest[k - 1][0]);
+    });
+    expect(honest[honest.length - 1][0]).toBe(total);
   });
 
   test("a cancel raised mid-run stops every worker within 0.25 s with CancelledError", async () => {
