@@ -9,9 +9,12 @@
  * pool's overhead) and on a pool of `--threads` workers (default 2). Pools are started and warmed
  * (one fit each) before timing, as a command-line or add-in session keeps them. Checks the pooled
  * results are bit-identical to the sequential one. Prints a table, then one JSON line per case;
- * `speedup = sequential ms / pooled ms`.
+ * `speedup = sequential ms / pooled ms`. On a shared machine other processes take cores too:
+ * `ceiling` is what `--threads` threads of plain arithmetic gain over one, measured just before
+ * each case (the most any pool could have gained then), and `ofCeiling = speedup / ceiling`.
  */
 import { loadavg } from "os";
+import { Worker } from "worker_threads";
 import { fit, FitOptions, FitResult } from "../engine/fit";
 import { fitParallel, threadPool } from "../engine/node/threadPool";
 import type { TaskPool } from "../engine/parallel";
@@ -26,6 +29,31 @@ const CASES = [
 
 function pinned(n: number, p: number): FitOptions {
   return { mixes: [0, 0.2, 0.4, 0.6, 0.8, 1], folds: 10, seed: 1, strengthCount: 100, lowEndRatio: p >= n ? 1e-2 : 1e-4, stopEarly: false };
+}
+
+/** What `threads` threads of plain arithmetic gain over one thread doing the same work now (see the module comment). */
+async function ceiling(threads: number): Promise<number> {
+  const code = `const { parentPort, workerData } = require("worker_threads"); let s = 0; for (let i = 0; i < workerData; i++) s += Math.sqrt(i) * 1e-9; parentPort.postMessage(s);`;
+  const run = (units: number[]): Promise<unknown[]> =>
+    Promise.all(
+      units.map(
+        (work) =>
+          new Promise((done) => {
+            const worker = new Worker(code, { eval: true, workerData: work });
+            worker.on("message", (message) => {
+              done(message);
+              void worker.terminate();
+            });
+          }),
+      ),
+    );
+  const work = 1e8;
+  let start = performance.now();
+  await run([threads * work]);
+  const one = performance.now() - start;
+  start = performance.now();
+  await run(new Array(threads).fill(work));
+  return one / (performance.now() - start);
 }
 
 function identical(a: FitResult, b: FitResult): boolean {
@@ -52,7 +80,7 @@ async function main(): Promise<void> {
   ];
   fit(warm.x, warm.y, pinned(300, 20));
   for (const [, pool] of pools) await fitParallel(warm.x, warm.y, pinned(300, 20), { pool });
-  const rows: string[][] = [["case", "sequential ms", "1 worker ms", `${threads} workers ms`, "speed-up", "identical", "load"]];
+  const rows: string[][] = [["case", "sequential ms", "1 worker ms", `${threads} workers ms`, "speed-up", "ceiling", "identical", "load"]];
   const lines: string[] = [];
   for (const c of CASES) {
     if (only && !only.has(c.name)) continue;
@@ -63,6 +91,7 @@ async function main(): Promise<void> {
     let reference: FitResult | null = null;
     let allIdentical = true;
     const load = loadavg()[0];
+    const most = await ceiling(threads);
     for (let r = 0; r < repeat; r++) {
       let start = performance.now();
       reference = fit(x, y, options);
@@ -75,7 +104,7 @@ async function main(): Promise<void> {
       }
     }
     const many = best[`pool${threads}`];
-    rows.push([c.name, best.sequential.toFixed(0), best.pool1.toFixed(0), many.toFixed(0), (best.sequential / many).toFixed(2), String(allIdentical), load.toFixed(1)]);
+    rows.push([c.name, best.sequential.toFixed(0), best.pool1.toFixed(0), many.toFixed(0), (best.sequential / many).toFixed(2), most.toFixed(2), String(allIdentical), load.toFixed(1)]);
     lines.push(
       JSON.stringify({
         case: c.name,
@@ -84,6 +113,8 @@ async function main(): Promise<void> {
         oneWorkerMs: Number(best.pool1.toFixed(1)),
         pooledMs: Number(many.toFixed(1)),
         speedup: Number((best.sequential / many).toFixed(3)),
+        ceiling: Number(most.toFixed(3)),
+        ofCeiling: Number((best.sequential / many / most).toFixed(3)),
         identical: allIdentical,
         loadAverage: Number(load.toFixed(2)),
       }),
