@@ -195,6 +195,8 @@ export interface TaskEndpoint {
   /** Installs the handlers (called once, right after the endpoint is made). */
   listen(onMessage: (message: FromTaskWorker) => void, onError: (error: unknown) => void): void;
   terminate(): void;
+  /** Optional: keep the host alive while the worker has work (Node's ref/unref); idle workers must not. */
+  hold?(busy: boolean): void;
 }
 
 /** Raised when no worker could be started or the first one failed before answering: callers may fit sequentially instead. */
@@ -276,6 +278,7 @@ export class WorkerPool implements TaskPool {
             timer: null,
           };
           this.running = running;
+          for (const worker of this.workers) worker.hold?.(true);
           if (signal) {
             running.timer = setInterval(() => {
               if (signal.aborted) this.fail(new CancelledError());
@@ -369,6 +372,7 @@ export class WorkerPool implements TaskPool {
   }
 
   private finish(running: Running): void {
+    for (const worker of this.workers) worker.hold?.(false);
     if (running.timer !== null) clearInterval(running.timer);
     this.running = null;
     running.resolve();

@@ -15,8 +15,10 @@ function workerScript(): { file: string; eval: boolean } {
   const source = __filename.endsWith(".ts");
   const entry = path.join(__dirname, source ? "taskThread.ts" : "taskThread.js");
   if (!source) return { file: entry, eval: false };
-  // Running from sources: the thread registers tsx's require hook first, then loads the entry.
-  return { file: `require("tsx/cjs/api").register(); require(${JSON.stringify(entry)});`, eval: true };
+  // Running from sources: the thread registers tsx's require hook first (found from here, not
+  // from the working folder, which may be anywhere), then loads the entry.
+  const tsx = require.resolve("tsx/cjs/api");
+  return { file: `require(${JSON.stringify(tsx)}).register(); require(${JSON.stringify(entry)});`, eval: true };
 }
 
 /** One worker thread as a parallel.ts endpoint. */
@@ -35,6 +37,7 @@ function spawnThread(): TaskEndpoint {
       });
     },
     terminate: () => void worker.terminate(),
+    hold: (busy) => (busy ? worker.ref() : worker.unref()),
   };
 }
 
