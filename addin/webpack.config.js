@@ -10,6 +10,8 @@
  *     taskpane.js            the side pane (taskpane/taskpane.ts); depends on functions.js, so
  *                            both share one module instance (one fit cache)
  *     fit.worker.js          the Web Worker running the engine (functions/fit.worker.ts)
+ *     task.worker.js         the fit worker's task workers: folds and mixes in parallel
+ *                            (functions/task.worker.ts, functions/taskPool.ts)
  *     functions.json         cell-function metadata generated from functions.ts's JSDoc, then
  *                            post-processed (allowErrorForDataTypeAny, see below)
  *     manifest.xml           the XML manifest (localhost URLs), copied from the project root
@@ -190,6 +192,8 @@ module.exports = (_env = {}, argv = {}) => {
       // the task pane and the cell functions share one fit cache.
       taskpane: { import: "./taskpane/taskpane.ts", dependOn: "functions" },
       "fit.worker": "./functions/fit.worker.ts",
+      // Started by the fit worker: its pool of task workers for parallel folds (functions/taskPool.ts).
+      "task.worker": "./functions/task.worker.ts",
     },
     output: {
       path: DIST,

@@ -47,7 +47,8 @@ import type { FoldModel } from "./conformal";
 import { KeptShare, keptShares } from "./keptShare";
 import { checkRepeats, type HonestError, type StabilityOptions, type StabilityResult } from "./assurance";
 import { averageOfDeals, SignTally } from "./repeats";
-import { HONEST_SEED_OFFSET, HonestPlan, nestedCrossValidation } from "./honest";
+import { HONEST_SEED_OFFSET, HonestPlan, honestSummary, nestedCrossValidation, outerFoldError, outerFoldFit, outerFoldRecord } from "./honest";
+import type { HonestFold } from "./assurance";
 import { HalfPath, StabilityInput, stabilitySelection, stabilitySettings, stabilityUnits } from "./stability";
 import {
   DEFAULT_GRID_DENSITY,
@@ -65,6 +66,7 @@ import {
   topStrength,
 } from "./path";
 import { SpectralRidge } from "./ridgeSpectral";
+import type { FitTask, FitTaskInput, FitTaskResult, TaskPool, TaskSession } from "./parallel";
 import {
   accumulateSums,
   blockSums,
@@ -76,6 +78,7 @@ import {
   problemFromSums,
   stableCentre,
   stableMean,
+  Standardization,
   takeLargest,
   TrainingProblem,
 } from "./problem";
@@ -351,10 +354,15 @@ export interface FitResult {
   stability?: StabilityResult | null;
 }
 
-/** A fold's path, kept while its mix may be the chosen one: the standardized solution at any strength index. */
+/**
+ * A fold's path, kept while its mix may be the chosen one: its standardization and the
+ * standardized solution at every strength index (null for an exact-ridge fold in kernel form,
+ * whose point at the chosen strength is computed once the choice is made: a fold-point task).
+ */
 interface FoldPoints {
-  problem: TrainingProblem;
-  at: (index: number) => Float64Array;
+  std: Standardization;
+  p: number;
+  path: Float64Array[] | null;
 }
 
 export const DEFAULT_MIXES: readonly number[] = [0, 0.25, 0.5, 0.75, 1];
@@ -651,7 +659,7 @@ function penaltyFor(problem: TrainingProblem, data: Prepared, mix: number): Pena
  * Intercept and coefficients in the data's units (of the values the problem was built from: the
  * working copy) from standardized ones: b_j = s_y · b̃_j / scale_j, b0 = ȳ − Σ b_j x̄_j.
  */
-function toOriginal(problem: TrainingProblem, standardized: Float64Array): { intercept: number; coefficients: Float64Array } {
+function toOriginal(problem: { p: number; std: Standardization }, standardized: Float64Array): { intercept: number; coefficients: Float64Array } {
   const std = problem.std;
   const coefficients = new Float64Array(problem.p);
   let intercept = std.yCentre;
@@ -683,10 +691,16 @@ function coefficientInDataUnits(data: Prepared, j: number, value: number): numbe
   throw new InputError("out-of-range", `${what} is ${size} to represent as a number (${bound}): ${hint}`);
 }
 
-/** Problems for the full data and each fold, built once and shared by every mix. */
+/**
+ * Problems for the full data and each fold, built once and shared by every mix. In gram form all
+ * come from one pass of block sums; in row form a fold's problem (a copy of its training rows) is
+ * built when first asked for and kept, so a pooled fit's coordinator, which solves no fold itself,
+ * never copies them.
+ */
 interface Problems {
   full: TrainingProblem;
-  folds: TrainingProblem[];
+  /** Fold f's training problem. */
+  fold: (f: number) => TrainingProblem;
   /** Held-out block sums (gram form), for squared error without touching the rows. */
   heldOutSums: BlockSums[] | null;
   shiftX: Float64Array;
@@ -719,14 +733,16 @@ function buildProblems(data: Prepared, plan: FoldPlan | null): Problems {
   const { shiftX, shiftY } = fullShift(data);
   if (!data.gram || data.outcome === "two-class") {
     const full = problemFromRows(x, y, weights, null, options, signal);
-    const folds = plan ? plan.trainBlocks.map((blocks) => problemFromRows(x, y, weights, rowsOfBlocks(plan, blocks), options, signal)) : [];
-    return { full, folds, heldOutSums: null, shiftX, shiftY };
+    const built: (TrainingProblem | null)[] = plan ? new Array(plan.trainBlocks.length).fill(null) : [];
+    const fold = (f: number): TrainingProblem =>
+      (built[f] ??= problemFromRows(x, y, weights, rowsOfBlocks(plan as FoldPlan, (plan as FoldPlan).trainBlocks[f]), options, signal));
+    return { full, fold, heldOutSums: null, shiftX, shiftY };
   }
   if (!plan) {
     const all = new Int32Array(x.rows);
     for (let i = 0; i < x.rows; i++) all[i] = i;
     const sums = blockSums(x, y, weights, all, shiftX, shiftY, signal);
-    return { full: problemFromSums(sums, shiftX, shiftY, options), folds: [], heldOutSums: null, shiftX, shiftY };
+    return { full: problemFromSums(sums, shiftX, shiftY, options), fold: noFolds, heldOutSums: null, shiftX, shiftY };
   }
   // One pass: every block's sums; the total is their sum; a fold's training sums are the
   // sum of its training blocks (total minus its own block when it trains on all the rest).
@@ -748,7 +764,11 @@ function buildProblems(data: Prepared, plan: FoldPlan | null): Problems {
     }
     return problemFromSums(training, shiftX, shiftY, options);
   });
-  return { full, folds, heldOutSums: plan.validateBlock.map((b) => sums[b]), shiftX, shiftY };
+  return { full, fold: (f) => folds[f], heldOutSums: plan.validateBlock.map((b) => sums[b]), shiftX, shiftY };
+}
+
+function noFolds(): TrainingProblem {
+  throw new Error("a fit at a fixed strength has no folds");
 }
 
 /**
@@ -808,12 +828,15 @@ function dealSource(data: Prepared, options: FitOptions, first: FoldPlan, firstP
   const keepAll = data.mixes.length === 1 || (repeats - 1) * perDeal <= DEAL_MEMORY;
   const kept: (Deal | null)[] = new Array(repeats).fill(null);
   kept[0] = makeDeal(data, first, firstProblems);
+  // Beyond the budget, the last deal built is kept: the fit asks for one deal's folds in a row.
+  let last: { d: number; deal: Deal } | null = null;
   return (d) => {
-    const have = kept[d];
+    const have = kept[d] ?? (last && last.d === d ? last.deal : null);
     if (have) return have;
     throwIfCancelled(data.settings.signal);
     const deal = makeDeal(data, plans[d], buildProblems(data, plans[d]));
     if (keepAll) kept[d] = deal;
+    else last = { d, deal };
     return deal;
   };
 }
@@ -991,17 +1014,45 @@ export function fit(
   }
 }
 
-/** As `fit`, but awaits a macrotask between units of work so messages (cancel) get through. */
+/**
+ * As `fit`, but awaits a macrotask between units of work so messages (cancel) get through.
+ * With `run.pool` (parallel.ts) the mixes' paths and the folds run on the pool's workers:
+ * the result is bit-identical to `fit`'s; progress counts the units as they complete, and
+ * raising the signal stops every worker at once (CancelledError). The honest error's and
+ * stability selection's extra fits run in this thread.
+ */
 export async function fitAsync(
   predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix,
   target: ArrayLike<number>,
   options: FitOptions = {},
+  run: RunOptions = {},
 ): Promise<FitResult> {
-  const steps = fitSteps(predictors, target, options);
-  for (;;) {
-    const step = steps.next();
-    if (step.done) return step.value;
-    await nextTask();
+  const pool = run.pool ?? null;
+  if (!pool) {
+    const steps = fitSteps(predictors, target, options);
+    for (;;) {
+      const step = steps.next();
+      if (step.done) return step.value;
+      await nextTask();
+    }
+  }
+  const plan = fitPlan(predictors, target, options);
+  let session: TaskSession | null = null;
+  try {
+    for (;;) {
+      const step = plan.next();
+      if (step.done) return step.value;
+      const batch = step.value;
+      if (!batch) {
+        await nextTask();
+        continue;
+      }
+      throwIfCancelled(options.signal);
+      session ??= pool.open(taskInput(batch.context, options));
+      await session.run(batch.tasks, batch.consume, batch.finished, options.signal);
+    }
+  } finally {
+    session?.close();
   }
 }
 
@@ -1030,6 +1081,87 @@ export function* fitSteps(
   target: ArrayLike<number>,
   options: FitOptions = {},
 ): Generator<void, FitResult, void> {
+  const plan = fitPlan(predictors, target, options);
+  for (;;) {
+    const step = plan.next();
+    if (step.done) return step.value;
+    const batch = step.value;
+    if (!batch) {
+      yield;
+      continue;
+    }
+    if (batch.inline) {
+      yield* batch.inline();
+      continue;
+    }
+    // The sequential run: the batch's tasks one after another, on the fit's own context.
+    for (let i = 0; i < batch.tasks.length; i++) {
+      throwIfCancelled(options.signal);
+      batch.consume(i, runFitTask(batch.context, batch.tasks[i]));
+      batch.finished(i);
+      yield;
+    }
+  }
+}
+
+/** How a pooled fit runs (fitAsync's fourth argument). */
+export interface RunOptions {
+  /** Runs the folds and mixes in parallel (parallel.ts); results are bit-identical to the sequential fit. */
+  pool?: TaskPool | null;
+}
+
+/**
+ * A batch of tasks the fit's plan asks for (parallel.ts): run them, in any order and on any
+ * worker, hand each result to `consume` in task order, and call `finished` as each completes
+ * (progress). `context` is the fit's own, for running them in this thread.
+ */
+interface TaskBatch {
+  tasks: FitTask[];
+  context: TaskContext;
+  consume: (index: number, result: FitTaskResult) => void;
+  finished: (index: number) => void;
+  /**
+   * Runs the same work in this thread instead, yielding inside the tasks (the honest error's inner
+   * fits, so a cancel gets through between their units); the sequential run uses it.
+   */
+  inline?: () => Generator<void, void, void>;
+}
+
+/**
+ * The fit as a plan: yields batches of tasks (the caller runs them and hands back the results
+ * through the batch's consume) and, between other units of work, undefined (a point to yield).
+ */
+type FitPlan = Generator<TaskBatch | void, FitResult, void>;
+
+/** Everything the tasks of one cross-validated fit read (parallel.ts): built by the fit, and by each pool worker from the same inputs. */
+export interface TaskContext {
+  data: Prepared;
+  problems: Problems;
+  plan: FoldPlan;
+  deals: (d: number) => Deal;
+  measure: ErrorMeasure;
+  repeats: number;
+  /** Exact-ridge factorizations of first-deal folds in kernel form ("mix:fold"), kept for fold-point tasks. */
+  spectral: Map<string, SpectralRidge>;
+  /** The fit's options (a worker's: without callbacks, honest error or stability), for the honest error's outer folds. */
+  options: FitOptions;
+  /** The honest error's outer split, made when its first outer fold is asked for. */
+  honest?: HonestPlan;
+}
+
+/** The checked options and everything built before the first path is solved. */
+interface SetUp {
+  data: Prepared;
+  warnings: FitWarning[];
+  fixed: number | null;
+  plan: FoldPlan | null;
+  problems: Problems;
+  repeats: number;
+  honestError: boolean;
+  constantColumns: string[];
+}
+
+function setUp(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target: ArrayLike<number>, options: FitOptions): SetUp {
   const outcome = options.outcome ?? "number";
   if (outcome !== "number" && outcome !== "two-class") {
     throw new InputError("setting", `the outcome must be number or two-class; got ${String(outcome)}`);
@@ -1080,6 +1212,101 @@ export function* fitSteps(
       message: `${constantColumns.join(", ")} ${constantColumns.length === 1 ? "is" : "are"} constant and left out (coefficient 0)`,
     });
   }
+  return { data, warnings, fixed, plan, problems, repeats, honestError, constantColumns };
+}
+
+/**
+ * A pool worker's context for a fit (parallel.ts createTaskHost): the fit's set-up rebuilt from
+ * the inputs it was sent (the checked data and the options without callbacks), the same
+ * arithmetic as the fit's own, so every task computes the same numbers in either place.
+ */
+export function openTaskContext(input: FitTaskInput): TaskContext {
+  if (input.snapshot) return contextFromSnapshot(input.snapshot as TaskSnapshot);
+  const options = input.options as FitOptions;
+  const s = setUp(input.predictors, input.target, options);
+  if (s.plan === null) throw new Error("openTaskContext: a fit at a fixed strength has no tasks");
+  return {
+    data: s.data,
+    problems: s.problems,
+    plan: s.plan,
+    deals: dealSource(s.data, options, s.plan, s.problems, s.repeats),
+    measure: checkMeasure(options.measure, s.data.outcome),
+    repeats: s.repeats,
+    spectral: new Map(),
+    options,
+  };
+}
+
+/**
+ * What a gram-form fit scored by squared error sends its workers instead of the rows: the
+ * prepared settings (rows left out: its folds' problems and held-out errors come from sums) and
+ * every deal's plan and problems as the fit built them, so a worker's tasks read the very same
+ * numbers without a pass over the data of their own.
+ */
+interface TaskSnapshot {
+  data: Prepared;
+  plans: FoldPlan[];
+  problems: { full: TrainingProblem; folds: TrainingProblem[]; heldOutSums: BlockSums[] | null; shiftX: Float64Array; shiftY: number }[];
+}
+
+/**
+ * Most doubles a snapshot may hold (every deal's full and fold problems and held-out sums, about
+ * repeats × (2K + 1) × p²): beyond both this and twice the data's size, workers get the rows and
+ * build their problems themselves. Decides the cost only, never the result.
+ */
+const SNAPSHOT_DOUBLES = 1 << 21;
+
+/** What a pool worker is sent (parallel.ts FitTaskInput): the checked inputs (or a snapshot), and options without callbacks or the extra fits that run in the coordinator. */
+function taskInput(context: TaskContext, options: FitOptions): FitTaskInput {
+  const { data } = context;
+  const plain: Record<string, unknown> = {};
+  for (const [key, value] of Object.entries(options)) {
+    if (key === "onProgress" || key === "signal" || key === "stability" || key === "honestError" || typeof value === "function") continue;
+    plain[key] = value;
+  }
+  plain.weights = data.original.weights;
+  const n = data.x.rows;
+  const p = data.x.columns;
+  const K = context.plan.trainBlocks.length;
+  const snapshotSize = context.repeats * (2 * K + 1) * p * p;
+  // The honest error's outer folds fit rows: workers need them then.
+  if (!options.honestError && data.gram && data.outcome === "number" && context.measure === "mse" && snapshotSize <= Math.max(2 * n * p, SNAPSHOT_DOUBLES)) {
+    const none = new Float64Array(0);
+    const noRows: ColumnMatrix = { rows: n, columns: p, data: none };
+    const deals = Array.from({ length: context.repeats }, (_, d) => context.deals(d));
+    const snapshot: TaskSnapshot = {
+      data: { ...data, x: noRows, y: none, original: { x: noRows, y: none, weights: null }, settings: { ...data.settings, signal: undefined } },
+      plans: deals.map((deal) => deal.plan),
+      problems: deals.map(({ problems }) => ({
+        full: problems.full,
+        folds: Array.from({ length: K }, (_, f) => problems.fold(f)),
+        heldOutSums: problems.heldOutSums,
+        shiftX: problems.shiftX,
+        shiftY: problems.shiftY,
+      })),
+    };
+    return { predictors: noRows, target: none, options: plain, snapshot };
+  }
+  return { predictors: data.original.x, target: data.original.y, options: plain };
+}
+
+/** A worker's context from a snapshot (see TaskSnapshot). */
+function contextFromSnapshot(snapshot: TaskSnapshot): TaskContext {
+  const data = snapshot.data;
+  const deals = snapshot.problems.map((problems, d) =>
+    makeDeal(data, snapshot.plans[d], { ...problems, fold: (f) => problems.folds[f] }),
+  );
+  return { data, problems: deals[0].problems, plan: snapshot.plans[0], deals: (d) => deals[d], measure: "mse", repeats: deals.length, spectral: new Map(), options: {} };
+}
+
+/** The whole fit as a plan (see FitPlan): fitSteps runs its batches in this thread, fitAsync with a pool in workers. */
+function* fitPlan(
+  predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix,
+  target: ArrayLike<number>,
+  options: FitOptions,
+): FitPlan {
+  const { data, warnings, fixed, plan, problems, repeats, honestError, constantColumns } = setUp(predictors, target, options);
+  const full = problems.full;
   // Stability selection (stability.ts): its settings are checked before any fitting.
   if (options.stability) {
     if (fixed !== null) {
@@ -1104,8 +1331,18 @@ export function* fitSteps(
   const measure = checkMeasure(options.measure, data.outcome);
   const rule = typeof options.rule === "string" ? parseRule(options.rule) : options.rule == null ? "lowest" : null;
   if (rule === null) throw new InputError("setting", `the rule must be lowest or one-se; got ${String(options.rule)}`);
+  const context: TaskContext = {
+    data,
+    problems,
+    plan: activePlan,
+    deals: dealSource(data, options, activePlan, problems, repeats),
+    measure,
+    repeats,
+    spectral: new Map(),
+    options,
+  };
   if (data.outcome === "two-class") {
-    return yield* twoClassSteps(data, problems, activePlan, measure, rule, options, constantColumns, warnings, repeats, honestError);
+    return yield* twoClassSteps(context, rule, options, constantColumns, warnings, honestError);
   }
   const K = activePlan.trainBlocks.length;
   const honest = honestError ? honestSetup(data, options, activePlan, repeats) : null;
@@ -1113,103 +1350,91 @@ export function* fitSteps(
   // Stability selection's units (2 per pair) come last: after cross-validation and the honest error.
   const totalUnits = cvUnits + (honest?.units ?? 0) + stabilityUnits(options.stability);
   let done = 0;
-  const deals = dealSource(data, options, activePlan, problems, repeats);
-  const pathSettings = { ...data.settings, stopWhenExact: true, stopWhenFlat: data.stopEarly };
-  const outcomes: MixOutcome[] = [];
+  const unitDone = (): void => options.onProgress?.(++done, totalUnits);
+  const M = data.mixes.length;
   let allKkt = 0;
   let allConverged = true;
   let sweeps = 0;
+  // Every mix's full-data path first (each fixes the strengths its folds solve), in parallel.
+  const paths: { top: number; run: PathRun }[] = [];
+  const pathResults: FitTaskResult[] = new Array(M);
+  yield { tasks: data.mixes.map((_, m) => ({ kind: "path", mix: m })), context, consume: (m, result) => (pathResults[m] = result), finished: unitDone };
+  for (let m = 0; m < M; m++) {
+    const result = pathResults[m];
+    if (result.kind === "failed") throw new InputError(result.code, result.message);
+    if (result.kind !== "path") throw new Error("fit: a path task returned another kind of result");
+    paths.push({ top: result.top, run: result.run });
+    sweeps += result.run.sweeps;
+    allKkt = Math.max(allKkt, result.run.maxKktViolation);
+    if (result.run.notConverged.length > 0) allConverged = false;
+  }
+  // Then every (mix, deal, fold), merged in that order whatever order they finish in.
+  const outcomes: MixOutcome[] = [];
   // The fold paths of the mix holding the lowest error so far (the chosen mix at the end, as the
   // choice below takes the first mix reaching the lowest error): CV+ intervals need each fold's
   // model at the chosen point. At most two mixes' fold paths are held at once. With repeats, these
   // are the first deal's (CV+ needs one partition of the rows); the kept shares count signs over
   // every deal's folds (SignTally, repeats.ts), a few counts per strength and term.
   let chosenFolds: FoldPoints[] = [];
-  let chosenTally: SignTally | null = null;
+  let chosenMix = 0;
+  let chosenTally = null as SignTally | null;
   let lowestSoFar = Infinity;
-  for (const mix of data.mixes) {
-    const foldPoints: FoldPoints[] = [];
-    const penalty = penaltyFor(full, data, mix);
-    const factorization = ridgeFactorization(full, penalty, data.settings.exactRidge, data.settings.signal);
-    const top = topStrength(full, penalty, data.settings, factorization);
-    if (!(top > 0) || explainedExactly(data, full, penalty)) throw nothingToChoose(data, full, penalty);
-    const grid = strengthGrid(top, data.strengthCount, data.lowEndRatio);
-    const run = runPath(full, penalty, grid, pathSettings, factorization);
-    sweeps += run.sweeps;
-    allKkt = Math.max(allKkt, run.maxKktViolation);
-    if (run.notConverged.length > 0) allConverged = false;
-    options.onProgress?.(++done, totalUnits);
-    yield;
-    const errors: Float64Array[] = [];
-    const weightsOfFolds: number[] = [];
-    const dealSes: Float64Array[] = [];
-    const tally = repeats > 1 ? new SignTally(run.strengths.length, full.p) : null;
+  const foldTasks: FitTask[] = [];
+  for (let m = 0; m < M; m++) {
     for (let d = 0; d < repeats; d++) {
-      const deal = deals(d);
-      const dealErrors: Float64Array[] = [];
       for (let f = 0; f < K; f++) {
-        throwIfCancelled(data.settings.signal);
-        const problem = deal.problems.folds[f];
-        const foldPenalty = penaltyFor(problem, data, mix);
-        const heldOut = (): HeldOut => deal.heldOut(f);
-        let points: FoldPoints;
-        if (problem.kind === "naive" && data.settings.exactRidge && spectralApplies(problem, foldPenalty)) {
-          // Exact ridge in kernel form: score held-out rows straight from the factorization.
-          const spectral = new SpectralRidge(problem, foldPenalty.multipliers, data.settings.signal);
-          dealErrors.push(spectralFoldErrors(problem, spectral, run.strengths, heldOut(), measure, data.settings.signal));
-          const strengths = run.strengths;
-          points = {
-            problem,
-            at: (index) => {
-              const out = new Float64Array(problem.p);
-              spectral.coefficientsAt(strengths[index], out);
-              return out;
-            },
-          };
-        } else {
-          // Every fold solves exactly the strengths the full-data path computed (a fold's path
-          // never ends on its own), so each strength's error averages all K folds.
-          const foldRun = runPath(problem, foldPenalty, run.strengths, { ...pathSettings, stopWhenExact: false, stopWhenFlat: false });
-          sweeps += foldRun.sweeps;
-          allKkt = Math.max(allKkt, foldRun.maxKktViolation);
-          if (foldRun.notConverged.length > 0) allConverged = false;
-          points = { problem, at: (index) => foldRun.coefficients[index] };
-          dealErrors.push(
-            foldErrors(
-              data,
-              problem,
-              foldRun,
-              measure,
-              deal.problems.heldOutSums ? deal.problems.heldOutSums[f] : null,
-              heldOut,
-              deal.problems.shiftX,
-              deal.problems.shiftY,
-            ),
-          );
-        }
-        if (d === 0) foldPoints.push(points);
-        tally?.add(problem.std.frozen, points.at, data.settings.signal);
-        options.onProgress?.(++done, totalUnits);
-        yield;
+        foldTasks.push({ kind: "fold", mix: m, deal: d, fold: f, strengths: paths[m].run.strengths, keepPath: d === 0, keepSigns: repeats > 1 });
       }
-      errors.push(...dealErrors);
-      weightsOfFolds.push(...deal.foldWeights);
-      if (repeats > 1) dealSes.push(summarise(dealErrors, deal.foldWeights, run.strengths.length).se);
     }
+  }
+  // The mix being merged.
+  let foldPoints: FoldPoints[] = [];
+  let errors: Float64Array[] = [];
+  let weightsOfFolds: number[] = [];
+  let dealSes: Float64Array[] = [];
+  let dealErrors: Float64Array[] = [];
+  let tally = null as SignTally | null;
+  const consumeFold = (index: number, result: FitTaskResult): void => {
+    const task = foldTasks[index] as Extract<FitTask, { kind: "fold" }>;
+    if (result.kind !== "fold") throw new Error("fit: a fold task returned another kind of result");
+    const { mix: m, deal: d, fold: f } = task;
+    const run = paths[m].run;
+    if (d === 0 && f === 0) {
+      foldPoints = [];
+      errors = [];
+      weightsOfFolds = [];
+      dealSes = [];
+      tally = repeats > 1 ? new SignTally(run.strengths.length, full.p) : null;
+    }
+    if (f === 0) dealErrors = [];
+    sweeps += result.sweeps;
+    allKkt = Math.max(allKkt, result.maxKktViolation);
+    if (!result.converged) allConverged = false;
+    dealErrors.push(result.errors);
+    if (d === 0) foldPoints.push({ std: result.std as Standardization, p: full.p, path: result.path });
+    if (tally && result.signs) tally.addSigns(result.signs);
+    if (f < K - 1) return;
+    const deal = context.deals(d);
+    errors.push(...dealErrors);
+    weightsOfFolds.push(...deal.foldWeights);
+    if (repeats > 1) dealSes.push(summarise(dealErrors, deal.foldWeights, run.strengths.length).se);
+    if (d < repeats - 1) return;
     // Repeated CV: the mean pools all repeats × K held-out folds (fold-weighted); the SE is the
     // average of each deal's own SE (see FitOptions.repeats and averageOfDeals in repeats.ts).
     const summary = summarise(errors, weightsOfFolds, run.strengths.length);
     const mean = summary.mean;
     const se = repeats > 1 ? averageOfDeals(dealSes) : summary.se;
-    outcomes.push({ mix, top, run, mean, se });
+    outcomes.push({ mix: data.mixes[m], top: paths[m].top, run, mean, se });
     let lowest = Infinity;
     for (let k = 0; k < mean.length; k++) lowest = Math.min(lowest, mean[k]);
     if (chosenFolds.length === 0 || lowest < lowestSoFar) {
       chosenFolds = foldPoints;
+      chosenMix = m;
       chosenTally = tally;
       lowestSoFar = lowest;
     }
-  }
+  };
+  yield { tasks: foldTasks, context, consume: consumeFold, finished: unitDone };
   // Choices: lowest mean error over every mix and strength (ties go to the larger strength,
   // then the earlier mix); one-SE: the largest strength of that mix within one SE of it.
   let best = outcomes[0];
@@ -1281,7 +1506,28 @@ export function* fitSteps(
   result.diagnostics.sweeps = sweeps;
   result.diagnostics.maxKktViolationAllFits = allKkt;
   result.diagnostics.converged = allConverged;
-  const kept = heldOutModels(data, activePlan, chosenFolds, chosen.index);
+  // Exact-ridge folds in kernel form keep no path: their coefficients at the chosen strength.
+  const pointTasks: FitTask[] = [];
+  const pointFolds: number[] = [];
+  chosenFolds.forEach((points, f) => {
+    if (points.path === null) {
+      pointTasks.push({ kind: "fold-point", mix: chosenMix, fold: f, strength: best.run.strengths[chosen.index] });
+      pointFolds.push(f);
+    }
+  });
+  const pointAt = new Map<number, Float64Array>();
+  if (pointTasks.length > 0) {
+    yield {
+      tasks: pointTasks,
+      context,
+      consume: (i, point) => {
+        if (point.kind !== "fold-point") throw new Error("fit: a fold-point task returned another kind of result");
+        pointAt.set(pointFolds[i], point.coefficients);
+      },
+      finished: () => undefined,
+    };
+  }
+  const kept = heldOutModels(data, activePlan, chosenFolds, chosen.index, pointAt);
   result.foldModels = kept.foldModels;
   result.heldOut = kept.heldOut;
   result.keptShare = chosenTally
@@ -1291,12 +1537,148 @@ export function* fitSteps(
         result.coefficients,
         kept.foldModels.map((model) => model.coefficients),
       );
-  if (honest) result.honest = yield* honestRun(data, options, honest, result, (units) => options.onProgress?.(cvUnits + units, totalUnits));
+  if (honest) result.honest = yield* honestPhase(context, honest, result, (units) => options.onProgress?.(cvUnits + units, totalUnits));
   if (options.stability) {
     let halvesDone = cvUnits + (honest?.units ?? 0);
     result.stability = yield* stabilitySelection(stabilityInput(data, full, options, best.mix, best.run, () => options.onProgress?.(++halvesDone, totalUnits)), warnings);
   }
   return result;
+}
+
+/** Runs one task of a fit on `context` (parallel.ts): a pure function of the two. An InputError becomes a "failed" result. */
+export function runFitTask(context: TaskContext, task: FitTask): FitTaskResult {
+  try {
+    if (task.kind === "path") return context.data.outcome === "two-class" ? twoClassPathTask(context, task.mix) : pathTask(context, task.mix);
+    if (task.kind === "fold") return context.data.outcome === "two-class" ? twoClassFoldTask(context, task) : foldTask(context, task);
+    if (task.kind === "honest") return honestTask(context, task.outer);
+    return foldPointTask(context, task);
+  } catch (error) {
+    if (error instanceof InputError) return { kind: "failed", code: error.code, message: error.message };
+    throw error;
+  }
+}
+
+/** A mix's full-data path (number outcome): the grid's top, or why nothing can be chosen, and the path down the grid. */
+function pathTask(context: TaskContext, m: number): FitTaskResult {
+  const { data, problems } = context;
+  const full = problems.full;
+  const mix = data.mixes[m];
+  const penalty = penaltyFor(full, data, mix);
+  const factorization = ridgeFactorization(full, penalty, data.settings.exactRidge, data.settings.signal);
+  const top = topStrength(full, penalty, data.settings, factorization);
+  if (!(top > 0) || explainedExactly(data, full, penalty)) throw nothingToChoose(data, full, penalty);
+  const grid = strengthGrid(top, data.strengthCount, data.lowEndRatio);
+  const run = runPath(full, penalty, grid, { ...data.settings, stopWhenExact: true, stopWhenFlat: data.stopEarly }, factorization);
+  return { kind: "path", top, run, warnings: [] };
+}
+
+/** Signs of a fold path's coefficients, strengths × terms, 0 where the column is constant in the fold (SignTally's count). */
+function signsOf(frozen: Uint8Array, points: number, at: (index: number) => ArrayLike<number>, signal: CancelSignal | undefined): Int8Array {
+  const p = frozen.length;
+  const signs = new Int8Array(points * p);
+  for (let k = 0; k < points; k++) {
+    if ((k & 15) === 0) throwIfCancelled(signal);
+    const b = at(k);
+    for (let j = 0; j < p; j++) if (!frozen[j]) signs[k * p + j] = b[j] > 0 ? 1 : b[j] < 0 ? -1 : 0;
+  }
+  return signs;
+}
+
+/** One fold of one deal (number outcome) solved down the mix's strengths and scored on its held-out rows. */
+function foldTask(context: TaskContext, task: Extract<FitTask, { kind: "fold" }>): FitTaskResult {
+  const { data, measure } = context;
+  const signal = data.settings.signal;
+  const deal = context.deals(task.deal);
+  const f = task.fold;
+  const problem = deal.problems.fold(f);
+  const foldPenalty = penaltyFor(problem, data, data.mixes[task.mix]);
+  const heldOut = (): HeldOut => deal.heldOut(f);
+  const strengths = task.strengths;
+  if (problem.kind === "naive" && data.settings.exactRidge && spectralApplies(problem, foldPenalty)) {
+    // Exact ridge in kernel form: score held-out rows straight from the factorization.
+    const spectral = new SpectralRidge(problem, foldPenalty.multipliers, signal);
+    const errors = spectralFoldErrors(problem, spectral, strengths, heldOut(), measure, signal);
+    if (task.deal === 0 && task.keepPath) context.spectral.set(`${task.mix}:${f}`, spectral);
+    const at = (index: number): Float64Array => {
+      const out = new Float64Array(problem.p);
+      spectral.coefficientsAt(strengths[index], out);
+      return out;
+    };
+    return {
+      kind: "fold",
+      errors,
+      sweeps: 0,
+      stepHalvings: 0,
+      maxKktViolation: 0,
+      converged: true,
+      std: task.keepPath ? problem.std : null,
+      path: null,
+      signs: task.keepSigns ? signsOf(problem.std.frozen, strengths.length, at, signal) : null,
+    };
+  }
+  // Every fold solves exactly the strengths the full-data path computed (a fold's path
+  // never ends on its own), so each strength's error averages all K folds.
+  const foldRun = runPath(problem, foldPenalty, strengths, { ...data.settings, stopWhenExact: false, stopWhenFlat: false });
+  const errors = foldErrors(data, problem, foldRun, measure, deal.problems.heldOutSums ? deal.problems.heldOutSums[f] : null, heldOut, deal.problems.shiftX, deal.problems.shiftY);
+  return {
+    kind: "fold",
+    errors,
+    sweeps: foldRun.sweeps,
+    stepHalvings: 0,
+    maxKktViolation: foldRun.maxKktViolation,
+    converged: foldRun.notConverged.length === 0,
+    std: task.keepPath ? problem.std : null,
+    path: task.keepPath ? foldRun.coefficients : null,
+    signs: task.keepSigns ? signsOf(problem.std.frozen, strengths.length, (k) => foldRun.coefficients[k], signal) : null,
+  };
+}
+
+/** An exact-ridge fold of the first deal in kernel form: its coefficients at one strength (from the factorization its fold task kept, or built again: the same numbers). */
+function foldPointTask(context: TaskContext, task: Extract<FitTask, { kind: "fold-point" }>): FitTaskResult {
+  const { data } = context;
+  const problem = context.deals(0).problems.fold(task.fold);
+  const key = `${task.mix}:${task.fold}`;
+  const spectral = context.spectral.get(key) ?? new SpectralRidge(problem, penaltyFor(problem, data, data.mixes[task.mix]).multipliers, data.settings.signal);
+  const coefficients = new Float64Array(problem.p);
+  spectral.coefficientsAt(task.strength, coefficients);
+  return { kind: "fold-point", coefficients };
+}
+
+/** A mix's full-data path (two-class outcome): the grid's top, or why nothing can be chosen, and the path; warnings the path adds. */
+function twoClassPathTask(context: TaskContext, m: number): FitTaskResult {
+  const { data, problems } = context;
+  const full = problems.full;
+  const warnings: FitWarning[] = [];
+  const penalty = penaltyFor(full, data, data.mixes[m]);
+  const { solver, start } = startTwoClass(data, full, data.y, penalty, true, warnings);
+  const top = twoClassTop(data, full, penalty, solver);
+  const grid = strengthGrid(top, data.strengthCount, data.lowEndRatio);
+  const run = runLogisticPath(solver, start, grid, { stopWhenSaturated: true, stopWhenFlat: data.stopEarly, signal: data.settings.signal });
+  return { kind: "path", top, run, warnings };
+}
+
+/** One fold of one deal (two-class outcome) solved down the mix's strengths and scored on its held-out rows. */
+function twoClassFoldTask(context: TaskContext, task: Extract<FitTask, { kind: "fold" }>): FitTaskResult {
+  const { data, measure } = context;
+  const signal = data.settings.signal;
+  const deal = context.deals(task.deal);
+  const f = task.fold;
+  const problem = deal.problems.fold(f);
+  const foldPenalty = penaltyFor(problem, data, data.mixes[task.mix]);
+  const fold = startTwoClass(data, problem, deal.trainingOutcomes(f), foldPenalty, false, []);
+  // Every fold solves exactly the strengths the full-data path computed.
+  const foldRun = runLogisticPath(fold.solver, fold.start, task.strengths, { stopWhenSaturated: false, stopWhenFlat: false, skipLoss: true, signal });
+  return {
+    kind: "fold",
+    errors: twoClassFoldErrors(data, problem, foldRun, measure, deal.heldOut(f)),
+    sweeps: foldRun.sweeps,
+    stepHalvings: foldRun.stepHalvings,
+    maxKktViolation: foldRun.maxKktViolation,
+    converged: foldRun.notConverged.length === 0,
+    std: task.keepPath ? problem.std : null,
+    path: task.keepPath ? foldRun.coefficients : null,
+    signs: task.keepSigns ? signsOf(problem.std.frozen, task.strengths.length, (k) => foldRun.coefficients[k], signal) : null,
+  };
 }
 
 /**
@@ -1309,6 +1691,7 @@ function heldOutModels(
   plan: FoldPlan,
   folds: FoldPoints[],
   index: number,
+  pointAt: ReadonlyMap<number, Float64Array>,
 ): { foldModels: FoldModel[]; heldOut: { row: number[]; fold: number[]; residual: number[] } } {
   const foldModels: FoldModel[] = [];
   const n = data.x.rows;
@@ -1323,8 +1706,10 @@ function heldOutModels(
   const prediction = new Float64Array(n);
   for (let f = 0; f < K; f++) {
     throwIfCancelled(signal);
-    const { problem } = folds[f];
-    const working = toOriginal(problem, folds[f].at(index));
+    const problem = folds[f];
+    const standardized = problem.path ? problem.path[index] : pointAt.get(f);
+    if (!standardized) throw new Error(`fit: fold ${f} has no point at the chosen strength`);
+    const working = toOriginal(problem, standardized);
     const coefficients: number[] = [];
     for (let j = 0; j < p; j++) coefficients.push(pathValueInDataUnits(data, j, working.coefficients[j]));
     foldModels.push({ intercept: pathValueInDataUnits(data, -1, working.intercept), coefficients });
@@ -1356,7 +1741,7 @@ function heldOutModels(
   const fold: number[] = [];
   const residual: number[] = [];
   for (let f = 0; f < K; f++) {
-    const yAnchor = folds[f].problem.std.yAnchor;
+    const yAnchor = folds[f].std.yAnchor;
     for (const i of plan.blocks[plan.validateBlock[f]]) {
       if (foldOf[i] !== f) continue;
       row.push(i);
@@ -1553,22 +1938,71 @@ function honestSetup(data: Prepared, options: FitOptions, plan: FoldPlan, repeat
   return { plan: outer, innerUnits, units };
 }
 
-/** The honest error of `result`'s procedure (honest.ts), reporting its units through `progress`. */
-function honestRun(data: Prepared, options: FitOptions, honest: HonestPlan, result: FitResult, progress: (units: number) => void): Generator<void, HonestError, void> {
-  const choices = result.choices as { lowest: ChoicePoint; oneSe: ChoicePoint };
-  return nestedCrossValidation({
+/** What the honest error's outer folds read (honest.ts OuterInput), from a fit's context. */
+function outerInput(context: TaskContext): Parameters<typeof outerFoldFit<FitOptions>>[0] {
+  const { data } = context;
+  const honest = (context.honest ??= honestSetup(data, context.options, context.plan, context.repeats));
+  return {
     x: data.original.x,
     y: data.original.y,
     weights: data.original.weights,
-    measure: (result.cv as { measure: ErrorMeasure }).measure,
+    measure: context.measure,
     cutoff: data.cutoff,
-    options: { ...options, names: data.names },
+    options: { ...context.options, names: data.names },
     honest,
+  };
+}
+
+/**
+ * The honest error of `result`'s procedure (honest.ts), reporting its units through `progress`:
+ * one task per outer fold (its whole inner fit) on a pool; in this thread, nestedCrossValidation
+ * with the same pieces, yielding inside the inner fits.
+ */
+function* honestPhase(context: TaskContext, honest: HonestPlan, result: FitResult, progress: (units: number) => void): Generator<TaskBatch | void, HonestError, void> {
+  context.honest = honest;
+  const choices = result.choices as { lowest: ChoicePoint; oneSe: ChoicePoint };
+  const input = {
+    ...outerInput(context),
     optimistic: result.rule === "one-se" ? choices.oneSe.error : choices.lowest.error,
     warnings: result.warnings,
     progress,
-    fitSteps,
-  });
+  };
+  const K = honest.plan.trainBlocks.length;
+  const perFold: HonestFold[] = new Array(K);
+  let inlineResult = null as HonestError | null;
+  let units = 0;
+  yield {
+    tasks: Array.from({ length: K }, (_, k): FitTask => ({ kind: "honest", outer: k })),
+    context,
+    consume: (k, outcome) => {
+      if (outcome.kind === "failed") throw new InputError(outcome.code, outcome.message);
+      if (outcome.kind !== "honest") throw new Error("fit: an honest task returned another kind of result");
+      perFold[k] = outcome.fold;
+    },
+    finished: (k) => {
+      units += honest.innerUnits[k];
+      progress(units);
+    },
+    inline: function* () {
+      inlineResult = yield* nestedCrossValidation({ ...input, fitSteps });
+    },
+  };
+  if (inlineResult) return inlineResult;
+  return honestSummary(input, perFold);
+}
+
+/** One outer fold of the honest error (honest.ts): its whole inner fit on the outer training rows, scored on the outer held-out rows. */
+function honestTask(context: TaskContext, k: number): FitTaskResult {
+  const input = outerInput(context);
+  const fold = outerFoldFit(input, k);
+  let inner: FitResult;
+  try {
+    inner = fit(fold.x, fold.y, fold.options);
+  } catch (error) {
+    if (error instanceof InputError) throw outerFoldError(input.honest.plan, k, error);
+    throw error;
+  }
+  return { kind: "honest", fold: outerFoldRecord(input, k, inner) };
 }
 
 /**
@@ -1836,7 +2270,7 @@ function twoClassTop(data: Prepared, full: TrainingProblem, penalty: PenaltySpec
  * standardized scale (b0, b̃): b_j = b̃_j / scale_j, intercept = b0 − Σ b_j x̄_j, the centres'
  * small parts (offsets) taken before their anchors.
  */
-function logisticToOriginal(problem: TrainingProblem, intercept: number, standardized: Float64Array): { intercept: number; coefficients: Float64Array } {
+function logisticToOriginal(problem: { p: number; std: Standardization }, intercept: number, standardized: Float64Array): { intercept: number; coefficients: Float64Array } {
   const std = problem.std;
   const coefficients = new Float64Array(problem.p);
   let near = intercept;
@@ -1914,28 +2348,24 @@ interface TwoClassMixOutcome {
   se: Float64Array;
 }
 
-/** The cross-validated two-class fit (fitSteps from the fold plan on): one unit of work per full path and per fold. */
+/** The cross-validated two-class fit (fitPlan from the fold plan on): one unit of work per full path and per fold. */
 function* twoClassSteps(
-  data: Prepared,
-  problems: Problems,
-  plan: FoldPlan,
-  measure: ErrorMeasure,
+  context: TaskContext,
   rule: ChoiceRule,
   options: FitOptions,
   constantColumns: string[],
   warnings: FitWarning[],
-  repeats: number,
   honestError: boolean,
-): Generator<void, FitResult, void> {
+): FitPlan {
+  const { data, problems, plan, measure, repeats, deals } = context;
   const full = problems.full;
-  const signal = data.settings.signal;
   const K = plan.trainBlocks.length;
   const honest = honestError ? honestSetup(data, options, plan, repeats) : null;
   const cvUnits = data.mixes.length * (repeats * K + 1);
   // Stability selection's units (2 per pair) come last: after cross-validation and the honest error.
   const totalUnits = cvUnits + (honest?.units ?? 0) + stabilityUnits(options.stability);
   let done = 0;
-  const deals = dealSource(data, options, plan, problems, repeats);
+  const unitDone = (): void => options.onProgress?.(++done, totalUnits);
   // The AUC needs both classes among a fold's held-out rows: average over the folds that have them
   // (per deal; the stratified random deals give every fold both classes whenever they can).
   const scoredByDeal: number[][] = [];
@@ -1964,85 +2394,107 @@ function* twoClassSteps(
           : `${leftOut} of the ${repeats * K} folds (${repeats} deals of ${K}) hold out rows of one class only, which have no AUC: the cross-validated AUC and its standard error are over the other ${repeats * K - leftOut} folds`,
     });
   }
-  const outcomes: TwoClassMixOutcome[] = [];
+  const M = data.mixes.length;
   let allKkt = 0;
   let allConverged = true;
   let sweeps = 0;
   let halvings = 0;
-  // Each fold's path of the mix with the best mean so far (as the number outcome keeps them), for
-  // the kept shares at the chosen point: the last of these mixes is the chosen one. With repeats,
-  // the signs over every deal's folds are counted instead (SignTally, repeats.ts).
-  let chosenFoldPaths: Float64Array[][] | null = null;
-  let chosenTally: SignTally | null = null;
-  let chosenFoldMix = NaN;
-  let bestSoFar = NaN;
-  for (const mix of data.mixes) {
-    const penalty = penaltyFor(full, data, mix);
-    const { solver, start } = startTwoClass(data, full, data.y, penalty, true, warnings);
-    const top = twoClassTop(data, full, penalty, solver);
-    const grid = strengthGrid(top, data.strengthCount, data.lowEndRatio);
-    const run = runLogisticPath(solver, start, grid, { stopWhenSaturated: true, stopWhenFlat: data.stopEarly, signal });
+  // Every mix's full-data path first, in parallel; their warnings merged in mix order (one
+  // "separated" warning at most, as each path adds it only when none is there yet).
+  const paths: { top: number; run: LogisticRun }[] = [];
+  const pathResults: FitTaskResult[] = new Array(M);
+  yield { tasks: data.mixes.map((_, m) => ({ kind: "path", mix: m })), context, consume: (m, result) => (pathResults[m] = result), finished: unitDone };
+  for (let m = 0; m < M; m++) {
+    const result = pathResults[m];
+    if (result.kind === "failed") throw new InputError(result.code, result.message);
+    if (result.kind !== "path") throw new Error("fit: a path task returned another kind of result");
+    for (const warning of result.warnings) {
+      if (warning.code === "separated" && warnings.some((w) => w.code === "separated")) continue;
+      warnings.push(warning);
+    }
+    const run = result.run as LogisticRun;
+    paths.push({ top: result.top, run });
     sweeps += run.sweeps;
     halvings += run.stepHalvings;
     allKkt = Math.max(allKkt, run.maxKktViolation);
     if (run.notConverged.length > 0) allConverged = false;
-    options.onProgress?.(++done, totalUnits);
-    yield;
-    const scoredErrors: Float64Array[] = [];
-    const scoredWeights: number[] = [];
-    const dealSes: Float64Array[] = [];
-    const foldPaths: Float64Array[][] = [];
-    const tally = repeats > 1 ? new SignTally(run.strengths.length, full.p) : null;
+  }
+  const outcomes: TwoClassMixOutcome[] = [];
+  // Each fold's path of the mix with the best mean so far (as the number outcome keeps them), for
+  // the kept shares at the chosen point: the last of these mixes is the chosen one. With repeats,
+  // the signs over every deal's folds are counted instead (SignTally, repeats.ts).
+  let chosenFoldPaths = null as FoldPoints[] | null;
+  let chosenTally = null as SignTally | null;
+  let chosenFoldMix = NaN;
+  let bestSoFar = NaN;
+  const foldTasks: FitTask[] = [];
+  for (let m = 0; m < M; m++) {
     for (let d = 0; d < repeats; d++) {
-      const deal = deals(d);
-      const errors: Float64Array[] = [];
       for (let f = 0; f < K; f++) {
-        throwIfCancelled(signal);
-        const problem = deal.problems.folds[f];
-        const foldPenalty = penaltyFor(problem, data, mix);
-        const fold = startTwoClass(data, problem, deal.trainingOutcomes(f), foldPenalty, false, warnings);
-        // Every fold solves exactly the strengths the full-data path computed.
-        const foldRun = runLogisticPath(fold.solver, fold.start, run.strengths, { stopWhenSaturated: false, stopWhenFlat: false, skipLoss: true, signal });
-        sweeps += foldRun.sweeps;
-        halvings += foldRun.stepHalvings;
-        allKkt = Math.max(allKkt, foldRun.maxKktViolation);
-        if (foldRun.notConverged.length > 0) allConverged = false;
-        errors.push(twoClassFoldErrors(data, problem, foldRun, measure, deal.heldOut(f)));
-        if (tally) tally.add(problem.std.frozen, (index) => foldRun.coefficients[index], signal);
-        else foldPaths.push(foldRun.coefficients);
-        options.onProgress?.(++done, totalUnits);
-        yield;
-      }
-      const scored = scoredByDeal[d];
-      for (const f of scored) {
-        scoredErrors.push(errors[f]);
-        scoredWeights.push(deal.foldWeights[f]);
-      }
-      if (repeats > 1) {
-        dealSes.push(
-          summarise(
-            scored.map((f) => errors[f]),
-            scored.map((f) => deal.foldWeights[f]),
-            run.strengths.length,
-          ).se,
-        );
+        foldTasks.push({ kind: "fold", mix: m, deal: d, fold: f, strengths: paths[m].run.strengths, keepPath: repeats === 1, keepSigns: repeats > 1 });
       }
     }
+  }
+  // The mix being merged.
+  let scoredErrors: Float64Array[] = [];
+  let scoredWeights: number[] = [];
+  let dealSes: Float64Array[] = [];
+  let foldPaths: FoldPoints[] = [];
+  let tally = null as SignTally | null;
+  let dealErrors: Float64Array[] = [];
+  const consumeFold = (index: number, result: FitTaskResult): void => {
+    const task = foldTasks[index] as Extract<FitTask, { kind: "fold" }>;
+    if (result.kind !== "fold") throw new Error("fit: a fold task returned another kind of result");
+    const { mix: m, deal: d, fold: f } = task;
+    const run = paths[m].run;
+    if (d === 0 && f === 0) {
+      scoredErrors = [];
+      scoredWeights = [];
+      dealSes = [];
+      foldPaths = [];
+      tally = repeats > 1 ? new SignTally(run.strengths.length, full.p) : null;
+    }
+    if (f === 0) dealErrors = [];
+    sweeps += result.sweeps;
+    halvings += result.stepHalvings;
+    allKkt = Math.max(allKkt, result.maxKktViolation);
+    if (!result.converged) allConverged = false;
+    dealErrors.push(result.errors);
+    if (tally && result.signs) tally.addSigns(result.signs);
+    else foldPaths.push({ std: result.std as Standardization, p: full.p, path: result.path });
+    if (f < K - 1) return;
+    const deal = deals(d);
+    const scored = scoredByDeal[d];
+    for (const g of scored) {
+      scoredErrors.push(dealErrors[g]);
+      scoredWeights.push(deal.foldWeights[g]);
+    }
+    if (repeats > 1) {
+      dealSes.push(
+        summarise(
+          scored.map((g) => dealErrors[g]),
+          scored.map((g) => deal.foldWeights[g]),
+          run.strengths.length,
+        ).se,
+      );
+    }
+    if (d < repeats - 1) return;
     // Repeated CV: pooled fold-weighted mean, SE averaged over the deals (repeats.ts).
     const summary = summarise(scoredErrors, scoredWeights, run.strengths.length);
     const mean = summary.mean;
     const se = repeats > 1 ? averageOfDeals(dealSes) : summary.se;
-    outcomes.push({ mix, top, run, mean, se });
+    outcomes.push({ mix: data.mixes[m], top: paths[m].top, run, mean, se });
     // The same comparison as the choice below (strictly better replaces, so ties keep the earlier mix).
     let mixBest = mean[0];
     for (let k = 1; k < mean.length; k++) if (higherIsBetter(measure) ? mean[k] > mixBest : mean[k] < mixBest) mixBest = mean[k];
     if (Number.isNaN(chosenFoldMix) || (higherIsBetter(measure) ? mixBest > bestSoFar : mixBest < bestSoFar)) {
       chosenFoldPaths = foldPaths;
       chosenTally = tally;
-      chosenFoldMix = mix;
+      chosenFoldMix = data.mixes[m];
       bestSoFar = mixBest;
     }
-  }
+  };
+  yield { tasks: foldTasks, context, consume: consumeFold, finished: unitDone };
   // Choices as for the number outcome, with "lowest error" meaning the highest AUC: the best mean
   // over every mix and strength (ties to the larger strength, then the earlier mix); one-SE: the
   // largest strength of that mix whose mean is within one SE of the best (AUC: at least best − SE).
@@ -2118,10 +2570,10 @@ function* twoClassSteps(
           ? keptShares(
               result.terms,
               result.coefficients,
-              chosenFoldPaths.map((path, f) => logisticToOriginal(problems.folds[f], 0, path[chosen.index]).coefficients),
+              (chosenFoldPaths as FoldPoints[]).map((fold) => logisticToOriginal(fold, 0, (fold.path as Float64Array[])[chosen.index]).coefficients),
             )
           : null;
-  if (honest) result.honest = yield* honestRun(data, options, honest, result, (units) => options.onProgress?.(cvUnits + units, totalUnits));
+  if (honest) result.honest = yield* honestPhase(context, honest, result, (units) => options.onProgress?.(cvUnits + units, totalUnits));
   if (options.stability) {
     let halvesDone = cvUnits + (honest?.units ?? 0);
     result.stability = yield* stabilitySelection(stabilityInput(data, full, options, best.mix, best.run, () => options.onProgress?.(++halvesDone, totalUnits)), warnings);

@@ -129,14 +129,70 @@ function describeOuter(plan: FoldPlan, k: number): string {
   return `outer fold ${plan.names[k]} (the rows of the other ${plan.trainBlocks.length - 1} outer folds)`;
 }
 
-/** Runs the nested cross-validation (see the module comment). Yields with the inner fits. */
+/** What one outer fold reads (NestedInput without the fit-wide callbacks): a pool worker has these. */
+export type OuterInput<FitOptions extends InnerOptions = InnerOptions> = Pick<NestedInput<FitOptions>, "x" | "y" | "weights" | "measure" | "cutoff" | "options" | "honest">;
+
+/** The inner fit of outer fold k: its rows (data units) and options (the user's, minus honest error and stability, on those rows). */
+export function outerFoldFit<FitOptions extends InnerOptions>(input: OuterInput<FitOptions>, k: number): { x: ColumnMatrix; y: Float64Array; options: FitOptions } {
+  const { x, y, weights, options, honest } = input;
+  const plan = honest.plan;
+  const labels = options.foldLabels ?? null;
+  const training = rowsOfBlocks(plan, plan.trainBlocks[k]);
+  return {
+    x: selectRows(x, training),
+    y: Float64Array.from(training, (i) => y[i]),
+    options: {
+      ...options,
+      honestError: false,
+      stability: null,
+      weights: weights ? Float64Array.from(training, (i) => weights[i]) : null,
+      foldLabels: labels ? Array.from(training, (i) => labels[i]) : null,
+      onProgress: undefined,
+    },
+  };
+}
+
+/** The InputError to give when outer fold k's inner fit could not run (its own error, said where). */
+export function outerFoldError(plan: FoldPlan, k: number, error: InputError): InputError {
+  const hint =
+    plan.scheme === "labels"
+      ? "give more fold labels (each outer training part must still hold enough labels for its own folds)"
+      : plan.scheme === "time"
+        ? "use fewer folds or more rows (the earliest outer blocks are short)"
+        : "use fewer folds or more rows";
+  return new InputError(
+    error.code,
+    `honest error (nested cross-validation) runs the whole procedure again on the training rows of each outer fold, and on ${describeOuter(plan, k)} it could not: ${error.message} — ${hint}, or turn honest error off`,
+  );
+}
+
+/** Outer fold k's record: the inner fit's model scored on the outer held-out rows, and its choice. */
+export function outerFoldRecord<FitOptions extends InnerOptions>(input: OuterInput<FitOptions>, k: number, inner: InnerResult): HonestFold {
+  const { x, y, weights, measure, cutoff } = input;
+  const plan = input.honest.plan;
+  const scoredRows = positive(plan.blocks[plan.validateBlock[k]], weights);
+  const { error, weight } = heldOutMeasure(inner, x, y, weights, scoredRows, measure, cutoff);
+  const point = inner.choices ? (inner.rule === "one-se" ? inner.choices.oneSe : inner.choices.lowest) : null;
+  return {
+    weight,
+    error,
+    mix: inner.mix,
+    strength: inner.strength,
+    termsKept: point ? point.termsKept : inner.coefficients.filter((b) => b !== 0).length,
+  };
+}
+
+/**
+ * Runs the nested cross-validation (see the module comment). Yields with the inner fits. Outer
+ * fold k is outerFoldFit → the inner fit → outerFoldRecord (fit.ts runs the same pieces as pool
+ * tasks, one outer fold each), then honestSummary.
+ */
 export function* nestedCrossValidation<FitOptions extends InnerOptions, FitResult extends InnerResult>(
   input: NestedInput<FitOptions, FitResult>,
 ): Generator<void, HonestError, void> {
-  const { x, y, weights, measure, cutoff, options, honest } = input;
+  const { honest } = input;
   const plan = honest.plan;
   const K = plan.trainBlocks.length;
-  const labels = options.foldLabels ?? null;
   const perFold: HonestFold[] = [];
   let base = 0;
   let reported = 0;
@@ -147,47 +203,31 @@ export function* nestedCrossValidation<FitOptions extends InnerOptions, FitResul
     }
   };
   for (let k = 0; k < K; k++) {
-    const training = rowsOfBlocks(plan, plan.trainBlocks[k]);
     const expected = honest.innerUnits[k];
-    const innerOptions: FitOptions = {
-      ...options,
-      honestError: false,
-      stability: null,
-      weights: weights ? Float64Array.from(training, (i) => weights[i]) : null,
-      foldLabels: labels ? Array.from(training, (i) => labels[i]) : null,
-      // The inner fit's units, mapped onto this fold's share of the total (they agree unless a
-      // fold-label count differs from the estimate; the share keeps the bar monotone either way).
-      onProgress: (done, total) => report(base + Math.min(expected, Math.floor((done * expected) / total))),
-    };
+    const fold = outerFoldFit(input, k);
+    // The inner fit's units, mapped onto this fold's share of the total (they agree unless a
+    // fold-label count differs from the estimate; the share keeps the bar monotone either way).
+    fold.options.onProgress = (done, total) => report(base + Math.min(expected, Math.floor((done * expected) / total)));
     let inner: FitResult;
     try {
-      inner = yield* input.fitSteps(selectRows(x, training), Float64Array.from(training, (i) => y[i]), innerOptions);
+      inner = yield* input.fitSteps(fold.x, fold.y, fold.options);
     } catch (error) {
       if (!(error instanceof InputError)) throw error;
-      const hint =
-        plan.scheme === "labels"
-          ? "give more fold labels (each outer training part must still hold enough labels for its own folds)"
-          : plan.scheme === "time"
-            ? "use fewer folds or more rows (the earliest outer blocks are short)"
-            : "use fewer folds or more rows";
-      throw new InputError(
-        error.code,
-        `honest error (nested cross-validation) runs the whole procedure again on the training rows of each outer fold, and on ${describeOuter(plan, k)} it could not: ${error.message} — ${hint}, or turn honest error off`,
-      );
+      throw outerFoldError(plan, k, error);
     }
     base += expected;
     report(base);
-    const scoredRows = positive(plan.blocks[plan.validateBlock[k]], weights);
-    const { error, weight } = heldOutMeasure(inner, x, y, weights, scoredRows, measure, cutoff);
-    const point = inner.choices ? (inner.rule === "one-se" ? inner.choices.oneSe : inner.choices.lowest) : null;
-    perFold.push({
-      weight,
-      error,
-      mix: inner.mix,
-      strength: inner.strength,
-      termsKept: point ? point.termsKept : inner.coefficients.filter((b) => b !== 0).length,
-    });
+    perFold.push(outerFoldRecord(input, k, inner));
   }
+  const result = honestSummary(input, perFold);
+  report(honest.units);
+  return result;
+}
+
+/** The honest error from every outer fold's record, in outer-fold order (AUC: folds without one are left out, with a warning). */
+export function honestSummary(input: Pick<NestedInput, "measure" | "honest" | "optimistic" | "warnings">, perFold: HonestFold[]): HonestError {
+  const { measure } = input;
+  const K = input.honest.plan.trainBlocks.length;
   // AUC: an outer held-out part with one class has none; it is left out, as the curve does.
   const scored = perFold.filter((fold) => Number.isFinite(fold.error));
   if (measure === "auc" && scored.length < perFold.length) {
@@ -212,7 +252,6 @@ export function* nestedCrossValidation<FitOptions extends InnerOptions, FitResul
       message: "the honest error can't be represented as a number in the target's units (it is left non-finite): record the target in other units (e.g. divide it by a power of ten)",
     });
   }
-  report(honest.units);
   return { measure, folds: K, error: summary.error, se: summary.se, optimistic: input.optimistic, perFold };
 }
 

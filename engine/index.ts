@@ -30,6 +30,11 @@ export type { FoldPlan, FoldScheme } from "./folds";
 export { mulberry32, randomFolds } from "./random";
 export { fromRows, columnView } from "./matrix";
 export type { ColumnMatrix } from "./matrix";
+// Parallel folds: the fit's tasks and the pool that runs them (Node threads: engine/node/threadPool.ts)
+export { openTaskContext, runFitTask } from "./fit";
+export type { RunOptions, TaskContext } from "./fit";
+export { WorkerPool, PoolUnavailableError, createTaskHost, POLL_MS } from "./parallel";
+export type { FitTask, FitTaskResult, FitTaskInput, TaskPool, TaskSession, TaskEndpoint, ToTaskWorker, FromTaskWorker } from "./parallel";
 // Errors
 export { InputError, CancelledError } from "./errors";
 export type { FitWarning, InputErrorCode, WarningCode } from "./errors";

@@ -65,6 +65,20 @@ export class SignTally {
     this.folds++;
   }
 
+  /**
+   * Adds one fold's path given as its signs (strengths × terms, −1, 0 or 1; 0 for a column
+   * constant in the fold): the same counts `add` makes from the coefficients (a pool worker
+   * sends the signs, an eighth of the path's size).
+   */
+  addSigns(signs: Int8Array): void {
+    if (signs.length !== this.points * this.terms) throw new Error("SignTally: one sign per strength and term is needed");
+    for (let t = 0; t < signs.length; t++) {
+      if (signs[t] > 0) this.positive[t]++;
+      else if (signs[t] < 0) this.negative[t]++;
+    }
+    this.folds++;
+  }
+
   /** Fold models counted. */
   get count(): number {
     return this.folds;

@@ -10,6 +10,8 @@
  *        { type: "error", id, error }            a PlainError (see below)
  * Every fit gets exactly one "result" or "error". Several fits may run at once: fitAsync
  * yields a macrotask between units of work, so they interleave and cancel messages get through.
+ * Where the host allows nested workers, a fit's mixes and folds run on a pool of task workers
+ * (taskPool.ts, task.worker.ts), with the same result bit for bit; a cancel stops them at once.
  *
  * The handler (`createFitHandler`) is plain code with no worker globals, so tests drive it
  * directly; the bootstrap at the bottom wires it to the worker's own message port.
@@ -17,6 +19,7 @@
 import { fitAsync, FitOptions, FitResult } from "../engine/fit";
 import { CancelledError, InputError, InputErrorCode } from "../engine/errors";
 import type { FitRequest } from "./runner";
+import { browserTaskPool, pooledFit } from "./taskPool";
 
 /** An error as it crosses the worker boundary. */
 export interface PlainError {
@@ -107,6 +110,7 @@ interface WorkerScope {
 
 const scope = globalThis as unknown as WorkerScope & { WorkerGlobalScope?: new () => unknown };
 if (typeof scope.WorkerGlobalScope === "function" && scope instanceof scope.WorkerGlobalScope) {
-  const handle = createFitHandler((message) => scope.postMessage(message));
+  // The folds and mixes run on nested task workers where the host allows them (taskPool.ts).
+  const handle = createFitHandler((message) => scope.postMessage(message), pooledFit(browserTaskPool()));
   scope.onmessage = (event) => handle(event.data);
 }

@@ -79,6 +79,8 @@ export interface CommandOptions {
   predictionsOut: string | null;
   /** With --predict: the level of CV+ prediction intervals (number targets); null for none. */
   interval: number | null;
+  /** Worker threads for the folds and mixes: a whole number from 1, or "auto" (the cores available); null: 1, no workers. */
+  threads?: number | "auto" | null;
 }
 
 export type ParsedCommand = { help: true } | { help: false; options: CommandOptions };
@@ -163,6 +165,10 @@ Predictions
                             usual; without it the CSV goes to standard output and the report
                             (or --json) is not printed (its warnings go to standard error)
 
+Speed
+  --threads <n>|auto        fit the folds and mixes on n worker threads (auto: one per core);
+                            the result is the same, bit for bit (default 1: no workers)
+
 Output
   --json                    print one JSON object
   --help                    show this text
@@ -215,6 +221,7 @@ const OPTIONS: Record<string, Kind> = {
   "predictions-out": "text",
   interval: "text",
   json: "flag",
+  threads: "text",
   help: "flag",
 };
 
@@ -369,6 +376,15 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
   if (seed !== null && !(Number.isInteger(seed) && Math.abs(seed) <= MAX_SEED)) {
     throw new CommandError(`--seed must be a whole number from -${MAX_SEED} to ${MAX_SEED}; got '${text("seed") as string}'`);
   }
+  const threadsText = text("threads");
+  let threads: number | "auto" | null = null;
+  if (threadsText !== null) {
+    const value = threadsText.trim().toLowerCase() === "auto" ? "auto" : parseNumber(threadsText);
+    if (value === null || (value !== "auto" && !(Number.isInteger(value) && value >= 1 && value <= 256))) {
+      throw new CommandError(`--threads must be a whole number from 1 to 256, or auto; got '${threadsText}'`);
+    }
+    threads = value;
+  }
   const count = number("count");
   if (count === 1 && strength === null) {
     throw new CommandError(
@@ -465,6 +481,8 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
       predict,
       predictionsOut,
       interval,
+      // Only when given: the options object is otherwise what it always was.
+      ...(threads !== null ? { threads } : {}),
     },
   };
 }

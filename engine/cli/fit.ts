@@ -6,9 +6,10 @@
  */
 import { readFileSync, writeFileSync } from "fs";
 import { predictionIntervals } from "../conformal";
-import { checkMeasure, fit, type FitResult } from "../fit";
+import { checkMeasure, fit, type FitOptions, type FitResult } from "../fit";
 import { fromRows } from "../matrix";
 import { predict } from "../model";
+import { fitParallel } from "../node/threadPool";
 import { CommandError, parseArgs, toFitOptions, USAGE, type CommandOptions } from "./args";
 import { failureLine, jsonText, predictionsCsv, textReport, warningMessages } from "./format";
 import { readFitTable, readNewRows, type FitTable } from "./table";
@@ -72,13 +73,57 @@ export function predictionsFor(result: FitResult, table: FitTable, options: Comm
 
 /**
  * Runs the command on `argv` (the arguments after `npm run fit --`); never throws. `read` reads
- * the data file and the --predict file; `write` writes --predictions-out.
+ * the data file and the --predict file; `write` writes --predictions-out. The fit runs in this
+ * thread whatever --threads says (see runCommandAsync).
  */
 export function runCommand(
   argv: readonly string[],
   read: (file: string) => string = readInput,
   write: (file: string, text: string) => void = writeOutput,
 ): CommandOutcome {
+  const step = commandSteps(argv, read, write);
+  let next = step.next();
+  while (!next.done) {
+    const [x, y, options] = next.value;
+    let result: FitResult;
+    try {
+      result = fit(x, y, options);
+    } catch (error) {
+      next = step.throw(error);
+      continue;
+    }
+    next = step.next(result);
+  }
+  return next.value;
+}
+
+/** As runCommand, with the folds and mixes on --threads worker threads (engine/node/threadPool.ts): the same output. */
+export async function runCommandAsync(
+  argv: readonly string[],
+  read: (file: string) => string = readInput,
+  write: (file: string, text: string) => void = writeOutput,
+): Promise<CommandOutcome> {
+  const step = commandSteps(argv, read, write);
+  let next = step.next();
+  while (!next.done) {
+    const [x, y, options, threads] = next.value;
+    try {
+      next = step.next(await fitParallel(x, y, options, { threads: threads ?? 1 }));
+    } catch (error) {
+      next = step.throw(error);
+    }
+  }
+  return next.value;
+}
+
+type FitCall = [number[][], ArrayLike<number>, FitOptions, number | "auto" | null];
+
+/** The command as steps: yields the one fit it needs (the caller runs it) and returns the outcome; never throws. */
+function* commandSteps(
+  argv: readonly string[],
+  read: (file: string) => string,
+  write: (file: string, text: string) => void,
+): Generator<FitCall, CommandOutcome, FitResult> {
   try {
     const command = parseArgs(argv);
     if (command.help) return { exitCode: 0, stdout: USAGE + "\n", stderr: "" };
@@ -110,11 +155,12 @@ export function runCommand(
         );
       }
     }
-    const result = fit(
+    const result: FitResult = yield [
       table.predictors,
       table.targetValues,
       toFitOptions(options, { names: table.predictorNames, weights: table.weights, foldLabels: table.foldLabels, outcome: table.outcome }),
-    );
+      options.threads ?? null,
+    ];
     const context = { table, foldColumn: options.foldColumn };
     const report = (): string => (options.json ? jsonText(result, context) : textReport(result, context));
     if (options.predict !== null) {
@@ -134,8 +180,9 @@ export function runCommand(
 }
 
 if (require.main === module) {
-  const outcome = runCommand(process.argv.slice(2));
-  process.stdout.write(outcome.stdout);
-  process.stderr.write(outcome.stderr);
-  process.exitCode = outcome.exitCode;
+  void runCommandAsync(process.argv.slice(2)).then((outcome) => {
+    process.stdout.write(outcome.stdout);
+    process.stderr.write(outcome.stderr);
+    process.exitCode = outcome.exitCode;
+  });
 }

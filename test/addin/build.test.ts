@@ -56,7 +56,7 @@ test("builds without errors, in reasonable time", () => {
 });
 
 test("the bundles, metadata, page, manifest and icons are where the manifest points", () => {
-  for (const name of ["taskpane.html", "functions.js", "taskpane.js", "fit.worker.js", "functions.json", "manifest.xml"]) {
+  for (const name of ["taskpane.html", "functions.js", "taskpane.js", "fit.worker.js", "task.worker.js", "functions.json", "manifest.xml"]) {
     expect([name, existsSync(join(out, name))]).toEqual([name, true]);
   }
   expect(readdirSync(join(out, "assets")).filter((f) => f.endsWith(".png")).length).toBeGreaterThanOrEqual(3);
@@ -93,7 +93,7 @@ test("office.js, the Excel host files and locale strings are copied and marked m
 });
 
 test("no eval: source maps are separate files and the bundles hold no eval calls", () => {
-  for (const name of ["functions.js", "taskpane.js", "fit.worker.js"]) {
+  for (const name of ["functions.js", "taskpane.js", "fit.worker.js", "task.worker.js"]) {
     expect([name, /\beval\(/.test(file(name))]).toEqual([name, false]);
     expect([name, existsSync(join(out, `${name}.map`))]).toEqual([name, true]);
   }
@@ -101,6 +101,9 @@ test("no eval: source maps are separate files and the bundles hold no eval calls
   expect(file("functions.js")).not.toMatch(/associate\("COEFS"/);
   // The worker bundle holds its bootstrap.
   expect(file("fit.worker.js")).toMatch(/WorkerGlobalScope/);
+  // The task workers' bundle (parallel folds, functions/taskPool.ts), which the fit worker starts beside itself.
+  expect(file("task.worker.js")).toMatch(/WorkerGlobalScope/);
+  expect(file("fit.worker.js")).toMatch(/task\.worker\.js/);
 });
 
 test("ends with build-stamp.json holding when the build started (npm test's pretest reads it)", () => {

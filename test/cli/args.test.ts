@@ -379,3 +379,14 @@ describe("parseArgs: repeats, honest error, stability, predictions", () => {
     expect(USAGE).toMatch(/without it the CSV goes to standard output and the report\s+\(or --json\) is not printed/);
   });
 });
+
+describe("--threads", () => {
+  it("takes a whole number or auto, and is left out when not given", () => {
+    expect((parseArgs(["d.csv", "--target", "y", "--threads", "3"]) as { options: { threads?: unknown } }).options.threads).toBe(3);
+    expect((parseArgs(["d.csv", "--target", "y", "--threads=auto"]) as { options: { threads?: unknown } }).options.threads).toBe("auto");
+    expect("threads" in (parseArgs(["d.csv", "--target", "y"]) as { options: object }).options).toBe(false);
+  });
+  it("refuses anything else with a message", () => {
+    for (const bad of ["0", "1.5", "two", "-2"]) expect(() => parseArgs(["d.csv", "--target", "y", "--threads", bad])).toThrow(/--threads must be a whole number from 1 to 256, or auto/);
+  });
+});
