@@ -37,11 +37,9 @@ export type FromWorker =
   | { type: "result"; id: number; result: FitResult }
   | { type: "error"; id: number; error: PlainError };
 
-export type FitFunction = (
-  predictors: FitRequest["predictors"],
-  target: FitRequest["target"],
-  options: FitOptions,
-) => Promise<FitResult>;
+/** The fit a worker runs (defined beside the pool, which provides one; see taskPool.ts). */
+import type { FitFunction } from "./taskPool";
+export type { FitFunction };
 
 /** Turns any thrown value into plain data that survives structured cloning. */
 export function toPlainError(error: unknown): PlainError {

@@ -11,7 +11,7 @@
  */
 import { fitAsync, FitOptions, FitResult } from "../engine/fit";
 import { PoolUnavailableError, TaskEndpoint, TaskPool, WorkerPool } from "../engine/parallel";
-import type { FitFunction } from "./fit.worker";
+import type { FitRequest } from "./runner";
 
 /** File name of the task worker bundle (webpack entry "task.worker", see addin/webpack.config.js). */
 export const TASK_WORKER_FILE = "task.worker.js";
@@ -60,6 +60,13 @@ export function browserTaskPool(url?: string): TaskPool | null {
  * The fit worker's fit function with a pool (see the module comment): pooled while the pool is
  * free and working, sequential otherwise. Without a pool it is plain fitAsync.
  */
+/** A fit as the worker runs it: the request's data and options in, the result out. */
+export type FitFunction = (
+  predictors: FitRequest["predictors"],
+  target: FitRequest["target"],
+  options: FitOptions,
+) => Promise<FitResult>;
+
 export function pooledFit(pool: TaskPool | null): FitFunction & { poolBroken: () => boolean } {
   let busy = false;
   let broken = pool === null;
