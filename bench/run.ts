@@ -42,7 +42,9 @@ import { fork } from "child_process";
 import * as fs from "fs";
 import * as os from "os";
 import * as path from "path";
-import { fit, FitOptions, FitResult } from "../engine/fit";
+import { fit, fitAsync, FitOptions, FitResult } from "../engine/fit";
+import { threadCount, threadPool } from "../engine/node/threadPool";
+import type { TaskPool } from "../engine/parallel";
 import { planFolds } from "../engine/folds";
 import { ColumnMatrix } from "../engine/matrix";
 import { EXACT_FIT_RATIO, strengthGrid } from "../engine/path";
@@ -103,16 +105,42 @@ function pinnedSettings(n: number, p: number): string {
 // Threads
 
 /**
- * Worker threads for the fit. `auto` means os.availableParallelism(); until the worker pool lands
- * (issue 11, the pool branch) every fit runs on one thread, and the run says so.
+ * Worker threads for the pooled fit (engine/node/threadPool.ts). `1`: single-threaded only.
+ * `auto` (os.availableParallelism) or a whole number N ≥ 2: every engine case is timed
+ * single-threaded AND pooled over N worker threads, interleaved in the same child process, and
+ * the pooled result is checked to be bit-identical to the single-threaded one.
  */
 function threadsFor(asked: string): { asked: string; used: number; note: string } {
   if (asked === "1") return { asked, used: 1, note: "" };
-  if (asked === "auto") {
-    const cores = typeof os.availableParallelism === "function" ? os.availableParallelism() : os.cpus().length;
-    return { asked, used: 1, note: `--threads auto: ${cores} cores here, but the engine has no worker pool yet: every fit runs single-threaded (threads 1)` };
+  const n = asked === "auto" ? "auto" : Number(asked);
+  if (n !== "auto" && !(Number.isInteger(n) && n >= 1)) throw new Error(`--threads must be 1, auto or a whole number; got ${asked}`);
+  const used = threadCount(n);
+  return { asked, used, note: used > 1 ? "" : `--threads ${asked}: 1 core here, so every fit runs single-threaded` };
+}
+
+/** The pooled run's JSON fields (null when only one thread ran). */
+function pooledFields(report: { ms: number; pooledMs: number | null; pooledIdentical: boolean | null }): Record<string, number | boolean | null> {
+  return {
+    pooledMs: report.pooledMs === null ? null : Number(report.pooledMs.toFixed(1)),
+    pooledSpeedup: report.pooledMs === null ? null : Number((report.ms / report.pooledMs).toFixed(3)),
+    pooledIdentical: report.pooledIdentical,
+  };
+}
+
+/** Same numbers everywhere (Object.is on every number, so -0 and NaN count), ignoring nothing. */
+function sameResult(a: unknown, b: unknown): boolean {
+  if (typeof a === "number" && typeof b === "number") return Object.is(a, b);
+  if (a === null || b === null || typeof a !== "object" || typeof b !== "object") return a === b;
+  if (ArrayBuffer.isView(a) || Array.isArray(a)) {
+    const x = a as unknown as ArrayLike<unknown>;
+    const y = b as unknown as ArrayLike<unknown>;
+    if (x.length !== y.length) return false;
+    for (let i = 0; i < x.length; i++) if (!sameResult(x[i], y[i])) return false;
+    return true;
   }
-  throw new Error(`--threads must be 1 or auto; got ${asked}`);
+  const keys = Object.keys(a as object);
+  if (keys.length !== Object.keys(b as object).length) return false;
+  return keys.every((k) => sameResult((a as Record<string, unknown>)[k], (b as Record<string, unknown>)[k]));
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -165,6 +193,9 @@ interface CurveOfMix {
 }
 
 interface ChildReport {
+  /** Best pooled time (threads > 1), and whether every pooled result equalled the single-threaded one bit for bit. */
+  pooledMs: number | null;
+  pooledIdentical: boolean | null;
   name: string;
   ms: number;
   gramMs: number;
@@ -204,11 +235,15 @@ function curvesOf(result: FitResult): CurveOfMix[] {
   return curves;
 }
 
-async function runChild(c: Case, repeat: number, floorDir: string | null, floorBinary: string | null): Promise<ChildReport> {
+async function runChild(c: Case, repeat: number, floorDir: string | null, floorBinary: string | null, threads: number): Promise<ChildReport> {
   const probe = memoryProbe();
   const warm = makeData(200, 10, 1);
   fit(warm.x, warm.y, { mixes: [0.5], folds: 3 });
   if (c.kind === "two-class") fit(warm.x, makeTwoClass(warm.x, warm.y, 1), { mixes: [0.5], folds: 3, outcome: "two-class" });
+  // The pool starts (and compiles the engine in each worker) before the memory baseline and any
+  // timing, so its idle workers are not counted in the single-threaded fit's peak.
+  const pool: TaskPool | null = threads > 1 && c.kind !== "cells" ? threadPool(threads) : null;
+  if (pool) await fitAsync(warm.x, warm.y, { mixes: [0.5], folds: 3 }, { pool });
   probe.start();
   const { x, y } = makeData(c.n, c.p, DATA_SEED);
   const events = c.kind === "two-class" ? makeTwoClass(x, y, 20261203) : null;
@@ -230,6 +265,8 @@ async function runChild(c: Case, repeat: number, floorDir: string | null, floorB
     otherMs: null,
     eventShare: null,
     stepHalvings: 0,
+    pooledMs: null,
+    pooledIdentical: null,
   };
   let result: FitResult | null = null;
   if (c.kind === "cells") {
@@ -254,6 +291,7 @@ async function runChild(c: Case, repeat: number, floorDir: string | null, floorB
       runner.dispose();
     }
   } else {
+    try {
     let floorInput: string | null = null;
     for (let r = 0; r < repeat; r++) {
       report.gramMs = Math.min(report.gramMs, timeGram(x, y));
@@ -267,6 +305,13 @@ async function runChild(c: Case, repeat: number, floorDir: string | null, floorB
       result = events ? fit(x, events, { ...options, outcome: "two-class" }) : fit(x, y, options);
       report.ms = Math.min(report.ms, performance.now() - start);
       if (r === 0 && !events) report.peakMB = probe.peakMB();
+      if (pool && result) {
+        const fitOptions = events ? { ...options, outcome: "two-class" as const } : options;
+        const pooledStart = performance.now();
+        const pooled = await fitAsync(x, events ?? y, fitOptions, { pool });
+        report.pooledMs = Math.min(report.pooledMs ?? Infinity, performance.now() - pooledStart);
+        report.pooledIdentical = (report.pooledIdentical ?? true) && sameResult(pooled, result);
+      }
       // The floor right after ours, in each repeat: both see the same load on a shared machine.
       if (r === 0 && c.kind === "number" && floorDir && floorBinary) floorInput = writeFloorFile(c, x, y, floorDir, curvesOf(result));
       if (floorInput && floorBinary) {
@@ -275,6 +320,9 @@ async function runChild(c: Case, repeat: number, floorDir: string | null, floorB
       }
     }
     if (floorInput) fs.rmSync(floorInput, { force: true });
+    } finally {
+      pool?.dispose();
+    }
   }
   if (!result) throw new Error("no fit ran");
   report.chosen = { mix: result.mix, strength: result.strength, index: result.choices?.lowest.index ?? -1, termsKept: result.coefficients.filter((b) => b !== 0).length };
@@ -313,9 +361,9 @@ function writeFloorFile(c: Case, x: ColumnMatrix, y: Float64Array, floorDir: str
   return file;
 }
 
-function inChild(c: Case, repeat: number, floorDir: string | null, floorBinary: string | null): Promise<ChildReport> {
+function inChild(c: Case, repeat: number, floorDir: string | null, floorBinary: string | null, threads: number): Promise<ChildReport> {
   return new Promise((resolve, reject) => {
-    const args = ["--child", c.name, "--repeat", String(repeat)];
+    const args = ["--child", c.name, "--repeat", String(repeat), "--threads", String(threads)];
     if (floorDir && floorBinary) args.push("--floor-dir", floorDir, "--floor-binary", floorBinary);
     const child = fork(__filename, args, { execArgv: [...process.execArgv, "--expose-gc"], stdio: ["ignore", "inherit", "inherit", "ipc"] });
     let report: ChildReport | null = null;
@@ -365,7 +413,7 @@ async function main(): Promise<void> {
   if (childCase) {
     const c = CASES.find((k) => k.name === childCase);
     if (!c) throw new Error(`unknown case ${childCase}`);
-    const report = await runChild(c, repeat, argValue(args, "--floor-dir"), argValue(args, "--floor-binary"));
+    const report = await runChild(c, repeat, argValue(args, "--floor-dir"), argValue(args, "--floor-binary"), Number(argValue(args, "--threads") ?? 1));
     process.send?.(report);
     return;
   }
@@ -386,13 +434,13 @@ async function main(): Promise<void> {
       console.log(`floor skipped: ${built.reason}`);
     }
   }
-  const table: string[][] = [["case", "ours ms", "floor ms", "ours÷floor", "target", "peak MB", "data MB", "8p² MB", "CV rel diff", "same choice", "sweeps ours/floor", "max KKT"]];
+  const table: string[][] = [["case", "ours ms", "floor ms", "ours÷floor", "target", "peak MB", "data MB", "8p² MB", "CV rel diff", "same choice", "sweeps ours/floor", "max KKT", "pooled ms", "1 thread ÷ pooled", "pooled = 1 thread"]];
   const cellTable: string[][] = [["case", "cell path ms", "engine ms", "cells÷engine", "target"]];
   const twoTable: string[][] = [["case", "ms", "number ms", "vs number", "event share", "chosen mix", "strength", "CV deviance", "max KKT", "halvings", "target"]];
   const lines: string[] = [];
   try {
     for (const c of chosen) {
-      const report = await inChild(c, repeat, floorDir, floorBinary);
+      const report = await inChild(c, repeat, floorDir, floorBinary, c.kind === "cells" ? 1 : threads.used);
       const base = { case: c.name, n: c.n, p: c.p, folds: FOLDS, mixes: MIXES.length, grid: GRID };
       if (c.kind === "number") {
         const floorMs = report.floor ? report.floor.ms : null;
@@ -411,6 +459,9 @@ async function main(): Promise<void> {
           check ? (check.sameChoice ? "yes" : "NO") : "–",
           `${report.sweeps}/${check ? check.floorSweeps : "–"}`,
           report.maxKkt.toExponential(1),
+          fixed(report.pooledMs, 0),
+          fixed(report.pooledMs === null ? null : report.ms / report.pooledMs, 2),
+          report.pooledIdentical === null ? "–" : report.pooledIdentical ? "yes" : "NO",
         ]);
         lines.push(
           JSON.stringify({
@@ -432,6 +483,7 @@ async function main(): Promise<void> {
             floorCapped: check ? check.floorCapped : null,
             maxKkt: report.maxKkt,
             converged: report.converged,
+            ...pooledFields(report),
           }),
         );
       } else if (c.kind === "cells") {
@@ -473,6 +525,7 @@ async function main(): Promise<void> {
             vsNumber: Number((report.ms / numberMs).toFixed(3)),
             outcome: "two-class",
             threads: threads.used,
+            ...pooledFields(report),
           }),
         );
       }
