@@ -525,7 +525,12 @@ export function toNumber(value: unknown): number | null {
   if (typeof value === "bigint") return Number(value);
   if (typeof value === "string" && value.trim() !== "") {
     const n = Number(value);
-    if (!Number.isNaN(n) || value.trim().toLowerCase() === "nan") return n;
+    if (!Number.isNaN(n)) return n;
+    // ClickHouse writes non-finite floats as nan, -nan, inf, -inf.
+    const word = value.trim().toLowerCase();
+    if (word === "nan" || word === "-nan") return NaN;
+    if (word === "inf" || word === "+inf") return Infinity;
+    if (word === "-inf") return -Infinity;
   }
   throw new Error(`expected a number from the query, got ${String(value)}`);
 }
