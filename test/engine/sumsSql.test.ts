@@ -18,9 +18,11 @@ import { join } from "path";
 import { InputError } from "../../engine/errors";
 import { duckdbRun, duckdbSums, fileSource } from "../../engine/node/duckdb";
 import { computeSums, exactLiteral, foldHashSql, foldOfKey, quoteIdentifier, quoteString, type FoldRule, type SqlRow } from "../../engine/sumsSql";
-import type { SumsTable } from "../../engine/sumsTable";
+import { fitFromSums } from "../../engine/fitSums";
+import { checkSums, sumsOfRows } from "../../engine/sums";
+import { upperIndex, type SumsTable } from "../../engine/sumsTable";
 import { TestRandom } from "../helpers/random";
-import { csvOf, gap, referenceSums, roastLog, weightedMean, type Reading } from "../helpers/sumsReference";
+import { csvOf, gap, referenceSums, roastLog, termValue, weightedMean, type Reading } from "../helpers/sumsReference";
 
 let folder: string;
 beforeAll(() => {
@@ -140,6 +142,41 @@ describe("sums of a file by DuckDB against a two-pass reference", () => {
       const centred = (x: SumsTable["blocks"][number]) => x.cross[0] - x.weight * x.offset[0] * x.offset[0];
       expect(Math.abs(centred(b) - centred(c)) / centred(c)).toBeLessThan(1e-7);
     }
+  });
+});
+
+describe("DuckDB's table against the engine's own (engine/sums.ts, fitSums.ts)", () => {
+  test("checkSums accepts it; block-centred sums and means equal sumsOfRows's to 1e-10; fitFromSums gives the same model to 1e-9", async () => {
+    const rows = roastLog(2500, 31);
+    const csv = writeCsv("engine.csv", csvOf(rows));
+    const table = await duckdbSums({ source: fileSource(csv), target: "roast_loss", predictors: ["drum_temp", "airflow", "bean_moisture", "roast_level"], weights: "lot_weight", fold: { kind: "column", column: "batch" } });
+    expect(checkSums(table)).toEqual(table);
+    const used: (keyof Reading)[] = ["roast_loss", "drum_temp", "airflow", "bean_moisture", "roast_level", "lot_weight", "batch"];
+    const kept = rows.filter((r) => used.every((c) => r[c] !== null));
+    const x = kept.map((r) => table.terms.map((t) => termValue(r, t) as number));
+    const memory = sumsOfRows(x, kept.map((r) => r.roast_loss as number), kept.map((r) => r.lot_weight), kept.map((r) => r.batch), table.terms, "roast_loss", { weightsName: "lot_weight" });
+    const p = table.terms.length;
+    expect(memory.blocks.map((b) => b.label)).toEqual(table.blocks.map((b) => b.label));
+    let worst = 0;
+    table.blocks.forEach((block, k) => {
+      const other = memory.blocks[k];
+      expect(block.rows).toBe(other.rows);
+      // Centre-free quantities: the block's own weighted means and its sums about them.
+      const own = (b: typeof block, a: number, c: number) => b.cross[upperIndex(p, a, c)] - b.weight * b.offset[a] * b.offset[c];
+      for (let a = 0; a < p; a++) {
+        const scale = Math.sqrt(own(other, a, a) / other.weight);
+        worst = Math.max(worst, Math.abs(block.mean[a] - other.mean[a]) / scale);
+        for (let c = a; c < p; c++) worst = Math.max(worst, Math.abs(own(block, a, c) - own(other, a, c)) / Math.sqrt(own(other, a, a) * own(other, c, c)));
+      }
+      worst = Math.max(worst, Math.abs(block.weight - other.weight) / other.weight);
+    });
+    expect(worst).toBeLessThan(1e-10);
+    const options = { mixes: [0.5, 1] };
+    const a = fitFromSums(table, options);
+    const b = fitFromSums(memory, options);
+    expect(a.terms).toEqual(b.terms);
+    const size = Math.max(...b.coefficients.map(Math.abs));
+    a.coefficients.forEach((v, j) => expect(Math.abs(v - b.coefficients[j]) / size).toBeLessThan(1e-9));
   });
 });
 
