@@ -136,6 +136,8 @@ export async function duckdbSumsBench(repeat = 1): Promise<DuckdbSumsBench> {
           oneColumnScanMs: Number(oneMs.toFixed(1)),
           peakMB: peakMB === null ? null : Number(peakMB.toFixed(1)),
           fileMB: Number(fileMB.toFixed(1)),
+          // Milliseconds on a shared machine: the load beside them says how much to trust them.
+          loadAverage: Number(os.loadavg()[0].toFixed(2)),
         }),
       );
       fs.rmSync(file, { force: true });
