@@ -4,15 +4,20 @@
  * `runCommand` does everything but the printing, so tests run it in process; the pieces it
  * calls are pure functions tested on their own (test/cli/).
  */
+import Papa from "papaparse";
 import { readFileSync, writeFileSync } from "fs";
 import { predictionIntervals } from "../conformal";
 import { checkMeasure, fit, type FitOptions, type FitResult } from "../fit";
+import { fitFromSums } from "../fitSums";
 import { fromRows } from "../matrix";
 import { predict } from "../model";
 import { fitParallel } from "../node/threadPool";
+import { randomFolds } from "../random";
+import { parseSumsJSON, sumsFromLong, sumsOfRows, sumsToJSON, sumsToLong } from "../sums";
+import type { SumsTable } from "../sumsTable";
 import { CommandError, parseArgs, toFitOptions, USAGE, type CommandOptions } from "./args";
-import { failureLine, jsonText, predictionsCsv, textReport, warningMessages } from "./format";
-import { readFitTable, readNewRows, type FitTable } from "./table";
+import { failureLine, jsonText, predictionsCsv, textReport, warningMessages, type ReportContext } from "./format";
+import { parseDelimited, readFitTable, readNewRows, type FitTable } from "./table";
 
 export interface CommandOutcome {
   exitCode: 0 | 1 | 2;
@@ -128,6 +133,7 @@ function* commandSteps(
     const command = parseArgs(argv);
     if (command.help) return { exitCode: 0, stdout: USAGE + "\n", stderr: "" };
     const options = command.options;
+    if (options.sums) return sumsCommand(options, read, write);
     const table = readFitTable(read(options.file), {
       target: options.target,
       predictors: options.predictors,
@@ -155,14 +161,33 @@ function* commandSteps(
         );
       }
     }
+    // The sums are computed before the fit (so their own problems are reported first) and saved after it succeeds.
+    const sums = options.sumsOut ? sumsOfTable(table, options) : null;
     const result: FitResult = yield [
       table.predictors,
       table.targetValues,
       toFitOptions(options, { names: table.predictorNames, weights: table.weights, foldLabels: table.foldLabels, outcome: table.outcome }),
       options.threads ?? null,
     ];
-    const context = { table, foldColumn: options.foldColumn };
-    const report = (): string => (options.json ? jsonText(result, context) : textReport(result, context));
+    if (options.sumsOut && sums) write(options.sumsOut, sumsFileText(options.sumsOut, sums));
+    return finish(result, table, { table, foldColumn: options.foldColumn }, options, read, write);
+  } catch (error) {
+    const failure = failureLine(error);
+    return { exitCode: failure.exitCode, stdout: "", stderr: failure.line };
+  }
+}
+
+/** The report (or predictions) for a fitted result: the common end of both routes. */
+function finish(
+  result: FitResult,
+  table: FitTable,
+  context: ReportContext,
+  options: CommandOptions,
+  read: (file: string) => string,
+  write: (file: string, text: string) => void,
+): CommandOutcome {
+  const report = (): string => (options.json ? jsonText(result, context) : textReport(result, context));
+  {
     if (options.predict !== null) {
       const csv = predictionsFor(result, table, options, read(options.predict));
       if (options.predictionsOut === null) {
@@ -173,10 +198,86 @@ function* commandSteps(
       write(options.predictionsOut, csv);
     }
     return { exitCode: 0, stdout: report(), stderr: "" };
-  } catch (error) {
-    const failure = failureLine(error);
-    return { exitCode: failure.exitCode, stdout: "", stderr: failure.line };
   }
+}
+
+/**
+ * `--sums-out`: the sums table of the rows the fit used, one block per fold label it used: the
+ * --fold-column's values, the time blocks of --time-ordered (K + 1 blocks in row order, as
+ * engine/folds.ts cuts them), or the random folds' numbers 1 … K (engine/random.ts randomFolds
+ * with the fit's seed), so fitting the table (`--sums`) gives the model fitting the file did.
+ */
+export function sumsOfTable(table: FitTable, options: CommandOptions): SumsTable {
+  if (table.outcome !== "number") {
+    throw new CommandError(`--sums-out saves sums for a number target, and '${table.target}' was read as yes/no: leave --sums-out out (a yes/no fit needs the rows)`);
+  }
+  const n = table.targetValues.length;
+  const K = options.folds ?? 10;
+  let labels: string[];
+  let blocking: string;
+  if (table.foldLabels) {
+    labels = table.foldLabels;
+    blocking = `one block per value of column '${options.foldColumn as string}'`;
+  } else if (options.timeOrdered) {
+    labels = new Array<string>(n);
+    for (let b = 0; b <= K; b++) {
+      for (let i = Math.floor((b * n) / (K + 1)); i < Math.floor(((b + 1) * n) / (K + 1)); i++) labels[i] = String(b + 1);
+    }
+    blocking = `${K + 1} time blocks in row order`;
+  } else {
+    const seed = options.seed ?? 1;
+    labels = Array.from(randomFolds(n, K, seed), (k) => String(k + 1));
+    blocking = `${K} random folds (seed ${seed})`;
+  }
+  return sumsOfRows(table.predictors, table.targetValues, table.weights, labels, table.predictorNames, table.target, {
+    weightsName: options.weightsColumn ?? undefined,
+    blocking,
+    skippedRows: table.rowsSkipped,
+    source: `shrinkwise in memory from ${options.file === "-" ? "standard input" : options.file}`,
+    timeOrdered: options.timeOrdered && !table.foldLabels,
+  });
+}
+
+/** A sums table as file text: the long form as CSV for a name ending in .csv, else JSON. */
+export function sumsFileText(file: string, sums: SumsTable): string {
+  if (/\.csv$/i.test(file)) return Papa.unparse(sumsToLong(sums), { newline: "\n" }) + "\n";
+  return sumsToJSON(sums);
+}
+
+/** A sums table from file text: JSON (starting with '{'), else the long form in a delimited file. */
+export function readSumsText(text: string): SumsTable {
+  const body = text.charCodeAt(0) === 0xfeff ? text.slice(1) : text;
+  if (body.trimStart().startsWith("{")) return parseSumsJSON(body);
+  const cells = parseDelimited(body);
+  return sumsFromLong([cells.columns, ...cells.rows]);
+}
+
+/** `--sums`: fit from a saved sums table; the report is the usual one, with the table's rows. */
+function sumsCommand(options: CommandOptions, read: (file: string) => string, write: (file: string, text: string) => void): CommandOutcome {
+  const file = options.sums as string;
+  const sums = readSumsText(read(file));
+  if (options.target !== "" && options.target !== sums.target) {
+    throw new CommandError(`--target ${options.target} doesn't match the sums table, whose target is '${sums.target}': leave --target out or give '${sums.target}'`);
+  }
+  const rows = sums.blocks.reduce((total, block) => total + block.rows, 0);
+  const table: FitTable = {
+    target: sums.target,
+    predictorNames: sums.terms.slice(),
+    predictors: [],
+    targetValues: [],
+    outcome: "number",
+    classes: null,
+    weights: sums.weights === null ? null : [],
+    foldLabels: null,
+    rowsUsed: rows,
+    rowsSkipped: sums.skippedRows,
+    skippedRows: [],
+    blanksByColumn: {},
+  };
+  const fitOptions = toFitOptions(options, { names: sums.terms, weights: null, foldLabels: null });
+  delete fitOptions.timeOrdered;
+  const result = fitFromSums(sums, fitOptions);
+  return finish(result, table, { table, sums: { file, blocking: sums.blocking, blocks: sums.blocks.length, source: sums.source ?? null } }, options, read, write);
 }
 
 if (require.main === module) {
