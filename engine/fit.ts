@@ -1156,7 +1156,7 @@ export async function fitAsync(
  * worker) are handled first. A MessageChannel round trip is used where available: browsers
  * clamp nested setTimeout(0) to 4 ms, which would add ~4 ms per unit of work.
  */
-function nextTask(): Promise<void> {
+export function nextTask(): Promise<void> {
   if (typeof MessageChannel !== "undefined") {
     return new Promise<void>((resolve) => {
       const channel = new MessageChannel();

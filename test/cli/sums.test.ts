@@ -4,6 +4,8 @@
  * data file. Source of the expected values: two routes agreeing (the file's fit and the saved
  * sums' fit use the same rows and folds; engine/fitSums.ts promises 1e-10 relative).
  */
+import { readFileSync } from "fs";
+import { join } from "path";
 import { readInput, runCommand } from "../../engine/cli/fit";
 import { parseSumsJSON } from "../../engine/sums";
 import { vectorRelativeError } from "../helpers/numeric";
@@ -130,5 +132,28 @@ describe("--sums fits other settings without the data", () => {
     expectFailure(["checks.csv", "--target", "check", "--sums-out", "c.json"], /--sums-out saves sums for a number target/, s);
     expectFailure(["roasts.csv", "--target", "weight_loss", "--exclude", "lot", "--repeats", "3", "--sums-out", "c.json"], /--sums-out saves one deal of the folds/, s);
     expect(s.written["c.json"]).toBeUndefined();
+  });
+});
+
+describe("the README's 'Fit from sums' commands", () => {
+  it("run as stated on the demo roastery: the sums fit prints the file fit's model; --folds 5 merges the 10 blocks", () => {
+    const readme = readFileSync(join(__dirname, "..", "..", "README.md"), "utf8");
+    const section = readme.slice(readme.indexOf("### Fit from sums"), readme.indexOf("## Cell functions"));
+    const commands = section
+      .split("\n")
+      .filter((line) => line.startsWith("npm run fit -- "))
+      .map((line) => line.slice("npm run fit -- ".length).trim().split(/\s+/));
+    expect(commands).toHaveLength(3);
+    const s = session();
+    const outcomes = commands.map((argv) => runCommand([...argv, "--json"], s.read, s.write));
+    outcomes.forEach((o) => expect(o.stderr).toBe(""));
+    const [fromFile, fromSums, merged] = outcomes.map((o) => json(o.stdout));
+    const names = Object.keys(fromFile.coefficients);
+    expect(vectorRelativeError(names.map((n) => fromSums.coefficients[n]), names.map((n) => fromFile.coefficients[n]))).toBeLessThanOrEqual(1e-10);
+    const table = parseSumsJSON(s.written["roastery-sums.json"]);
+    expect(table.blocks).toHaveLength(10);
+    expect(table.blocking).toBe("10 random folds (seed 1)");
+    expect(merged.cv?.folds).toBe(5);
+    expect((merged as unknown as { mix: number }).mix).toBe(1);
   });
 });
