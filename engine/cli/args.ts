@@ -61,6 +61,10 @@ export interface CommandOptions {
   intercept: boolean;
   /** Print one JSON object instead of the readable report. */
   json: boolean;
+  /** `--sums-out <file>`: also save the data's sums table (engine/sums.ts) with the fit's fold labels (JSON; long form for a .csv name). Absent: not saved. */
+  sumsOut?: string | null;
+  /** `--sums <file>`: fit from a saved sums table (JSON, or its long form as CSV) instead of a data file. Absent: fit a data file. */
+  sums?: string | null;
   /** Deals of the random folds (1 to 50); null for 1. */
   repeats: number | null;
   /** Also estimate the whole procedure's error by nested cross-validation. */
@@ -81,10 +85,6 @@ export interface CommandOptions {
   interval: number | null;
   /** Worker threads for the folds and mixes: a whole number from 1, or "auto" (the cores available); null: 1, no workers. */
   threads?: number | "auto" | null;
-  /** `--sums-out <file>`: also save the data's sums table (engine/sums.ts) with the fit's fold labels (JSON; long form for a .csv name). Absent: not saved. */
-  sumsOut?: string | null;
-  /** `--sums <file>`: fit from a saved sums table (JSON, or its long form as CSV) instead of a data file. Absent: fit a data file. */
-  sums?: string | null;
 }
 
 export type ParsedCommand = { help: true } | { help: false; options: CommandOptions };
@@ -157,6 +157,16 @@ How sure is it
                             0.5 and 1 (default 0.75); not the yes/no cutoff, which is --cutoff
                             (--draws, --q and --threshold need --stability)
 
+Sums (fit without the rows)
+  --sums-out <file>         also save the data's sums table: per fold block, the weights' total,
+                            means and centred cross-products of the predictors and the target,
+                            with the folds this fit uses (JSON; the long form block | term_a |
+                            term_b | value when the name ends in .csv)
+  --sums <file>             fit from a saved sums table (JSON, or the long form as CSV) instead
+                            of a data file: other --mix, grid, --rule or --folds (which merges
+                            blocks) need no pass over the data; options that need the rows are
+                            refused
+
 Predictions
   --predict <new.csv>       after fitting, predict every row of new.csv (it needs the
                             predictor columns, by name; other columns are copied through) and
@@ -169,16 +179,6 @@ Predictions
   --predictions-out <file>  write the predictions CSV to this file and print the report as
                             usual; without it the CSV goes to standard output and the report
                             (or --json) is not printed (its warnings go to standard error)
-
-Sums (fit without the rows)
-  --sums-out <file>         also save the data's sums table: per fold block, the weights' total,
-                            means and centred cross-products of the predictors and the target,
-                            with the folds this fit uses (JSON; the long form block | term_a |
-                            term_b | value when the name ends in .csv)
-  --sums <file>             fit from a saved sums table (JSON, or the long form as CSV) instead
-                            of a data file: other --mix, grid, --rule or --folds (which merges
-                            blocks) need no pass over the data; options that need the rows are
-                            refused
 
 Speed
   --threads <n>|auto        fit the folds and mixes on n worker threads (auto: one per core);
@@ -234,11 +234,11 @@ const OPTIONS: Record<string, Kind> = {
   threshold: "number",
   predict: "text",
   "predictions-out": "text",
+  "sums-out": "text",
+  sums: "text",
   interval: "text",
   json: "flag",
   threads: "text",
-  "sums-out": "text",
-  sums: "text",
   help: "flag",
 };
 
@@ -474,6 +474,10 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
     const fixed = seen.has("time-ordered") ? "--time-ordered" : "--fold-column";
     throw new CommandError(`--repeats ${repeats} deals random folds again with new seeds, but ${fixed} fixes the folds (one deal): leave one out`);
   }
+  const sumsOut = text("sums-out");
+  if (sumsOut !== null && repeats !== null && repeats > 1) {
+    throw new CommandError(`--sums-out saves one deal of the folds, and --repeats ${repeats} deals them ${repeats} times: leave one out`);
+  }
   const predict = text("predict");
   const predictionsOut = text("predictions-out");
   const intervalText = text("interval");
@@ -493,10 +497,6 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
   }
   if (predictionsOut !== null && predict === null) {
     throw new CommandError("--predictions-out says where to write predictions: add --predict <new.csv>");
-  }
-  const sumsOut = text("sums-out");
-  if (sumsOut !== null && repeats !== null && repeats > 1) {
-    throw new CommandError(`--sums-out saves one deal of the folds, and --repeats ${repeats} deals them ${repeats} times: leave one out`);
   }
 
   return {
@@ -535,10 +535,11 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
       predict,
       predictionsOut,
       interval,
-      // Only when given: the options object is otherwise what it always was.
-      ...(threads !== null ? { threads } : {}),
+      // The sums route's options, only when given.
       ...(sumsOut !== null ? { sumsOut } : {}),
       ...(fromSums ? { sums: text("sums") } : {}),
+      // Only when given: the options object is otherwise what it always was.
+      ...(threads !== null ? { threads } : {}),
     },
   };
 }

@@ -5,19 +5,22 @@
  * calls are pure functions tested on their own (test/cli/).
  */
 import Papa from "papaparse";
-import { readFileSync, writeFileSync } from "fs";
-import { predictionIntervals } from "../conformal";
-import { checkMeasure, fit, type FitOptions, type FitResult } from "../fit";
+// The sums route (--sums, --sums-out): engine/sums.ts, engine/fitSums.ts.
 import { fitFromSums } from "../fitSums";
-import { fromRows } from "../matrix";
-import { predict } from "../model";
-import { fitParallel } from "../node/threadPool";
 import { randomFolds } from "../random";
 import { parseSumsJSON, sumsFromLong, sumsOfRows, sumsToJSON, sumsToLong } from "../sums";
 import type { SumsTable } from "../sumsTable";
+import type { ReportContext } from "./format";
+import { parseDelimited } from "./table";
+import { readFileSync, writeFileSync } from "fs";
+import { predictionIntervals } from "../conformal";
+import { checkMeasure, fit, type FitOptions, type FitResult } from "../fit";
+import { fromRows } from "../matrix";
+import { predict } from "../model";
+import { fitParallel } from "../node/threadPool";
 import { CommandError, parseArgs, toFitOptions, USAGE, type CommandOptions } from "./args";
-import { failureLine, jsonText, predictionsCsv, textReport, warningMessages, type ReportContext } from "./format";
-import { parseDelimited, readFitTable, readNewRows, type FitTable } from "./table";
+import { failureLine, jsonText, predictionsCsv, textReport, warningMessages } from "./format";
+import { readFitTable, readNewRows, type FitTable } from "./table";
 
 export interface CommandOutcome {
   exitCode: 0 | 1 | 2;
