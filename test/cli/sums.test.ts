@@ -138,7 +138,9 @@ describe("--sums fits other settings without the data", () => {
 describe("the README's 'Fit from sums' commands", () => {
   it("run as stated on the demo roastery: the sums fit prints the file fit's model; --folds 5 merges the 10 blocks", () => {
     const readme = readFileSync(join(__dirname, "..", "..", "README.md"), "utf8");
-    const section = readme.slice(readme.indexOf("### Fit from sums"), readme.indexOf("## Cell functions"));
+    const start = readme.indexOf("### Fit from sums");
+    const next = readme.slice(start + 1).search(/\n##/);
+    const section = readme.slice(start, next < 0 ? undefined : start + 1 + next);
     const commands = section
       .split("\n")
       .filter((line) => line.startsWith("npm run fit -- "))
