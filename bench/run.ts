@@ -33,6 +33,9 @@
  * with a yes/no outcome drawn from the logistic model, fitted as penalized logistic regression on
  * the pinned workload; the numeric fit of the same predictors is timed beside it, `vsNumber`.
  *
+ * `--only sums`: the fit from a sums table (bench/sums.ts): fitFromSums on 20 predictors × 10 blocks
+ * × the default grid × 6 mixes, from tables summed from 10,000 and 1,000,000 rows (goal ≤ 50 ms,
+ * the same for both: the fit never sees the rows).
  * `--only sums` also times the sums table by DuckDB (bench/sumsDuckdb.ts): a seeded 10,000,000 × 20
  * Parquet file in a temporary folder (removed afterwards), the sums' time as a ratio to a plain
  * single-aggregate scan of the same columns (goal ≤ 3), and the process's peak memory at 1M and
@@ -56,6 +59,7 @@ import { EXACT_FIT_RATIO, strengthGrid } from "../engine/path";
 import { blockSums } from "../engine/problem";
 import { coefsThroughCells, nodeWorkerRunner, worksheetValues } from "./cellPath";
 import { makeData, makeTwoClass } from "./data";
+import { sumsFitBench } from "./sums";
 import { duckdbSumsBench } from "./sumsDuckdb";
 import { compileFloor, FloorRun, runFloor, writeFloorInput } from "./floor";
 
@@ -444,6 +448,9 @@ async function main(): Promise<void> {
   const cellTable: string[][] = [["case", "cell path ms", "engine ms", "cells÷engine", "target"]];
   const twoTable: string[][] = [["case", "ms", "number ms", "vs number", "event share", "chosen mix", "strength", "CV deviance", "max KKT", "halvings", "target"]];
   const lines: string[] = [];
+  // The fit from sums runs in this process: it times milliseconds of work on tables of a few kB.
+  const sums = only?.has("sums") ? sumsFitBench(repeat) : null;
+  if (sums) lines.push(...sums.lines);
   // The sums by DuckDB run in this process: its peak memory is the figure.
   const duckdbSums = only?.has("sums") ? await duckdbSumsBench(repeat) : null;
   if (duckdbSums) lines.push(...duckdbSums.lines);
@@ -551,6 +558,7 @@ async function main(): Promise<void> {
   print(table);
   print(cellTable);
   print(twoTable);
+  if (sums) print(sums.table);
   if (duckdbSums) print(duckdbSums.table);
   console.log("");
   for (const line of lines) console.log(line);

@@ -61,6 +61,10 @@ export interface CommandOptions {
   intercept: boolean;
   /** Print one JSON object instead of the readable report. */
   json: boolean;
+  /** `--sums-out <file>`: also save the data's sums table (engine/sums.ts) with the fit's fold labels (JSON; long form for a .csv name). Absent: not saved. */
+  sumsOut?: string | null;
+  /** `--sums <file>`: fit from a saved sums table (JSON, or its long form as CSV) instead of a data file. Absent: fit a data file. */
+  sums?: string | null;
   /** Deals of the random folds (1 to 50); null for 1. */
   repeats: number | null;
   /** Also estimate the whole procedure's error by nested cross-validation. */
@@ -94,6 +98,7 @@ export interface CommandOptions {
 export type ParsedCommand = { help: true } | { help: false; options: CommandOptions };
 
 export const USAGE = `Usage: npm run fit -- <data.csv> --target <column> [options]
+       npm run fit -- --sums <sums.json> [options]
 
 Fits a cross-validated ridge / lasso / elastic-net regression to the numeric columns of a
 CSV or tab-separated file (header row required) and prints the model. A yes/no target (two
@@ -159,6 +164,16 @@ How sure is it
   --threshold <pi>          stability: the share at or above which a term is stable, between
                             0.5 and 1 (default 0.75); not the yes/no cutoff, which is --cutoff
                             (--draws, --q and --threshold need --stability)
+
+Sums (fit without the rows)
+  --sums-out <file>         also save the data's sums table: per fold block, the weights' total,
+                            means and centred cross-products of the predictors and the target,
+                            with the folds this fit uses (JSON; the long form block | term_a |
+                            term_b | value when the name ends in .csv)
+  --sums <file>             fit from a saved sums table (JSON, or the long form as CSV) instead
+                            of a data file: other --mix, grid, --rule or --folds (which merges
+                            blocks) need no pass over the data; options that need the rows are
+                            refused
 
 Predictions
   --predict <new.csv>       after fitting, predict every row of new.csv (it needs the
@@ -241,6 +256,8 @@ const OPTIONS: Record<string, Kind> = {
   threshold: "number",
   predict: "text",
   "predictions-out": "text",
+  "sums-out": "text",
+  sums: "text",
   interval: "text",
   json: "flag",
   threads: "text",
@@ -326,9 +343,41 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
     seen.set(name, value);
   }
 
-  if (positional.length === 0) throw new CommandError("no data file given: npm run fit -- <data.csv> --target <column>");
-  if (positional.length > 1) {
-    throw new CommandError(`one data file expected, got ${positional.length}: ${positional.join(", ")}`);
+  const fromSums = seen.has("sums");
+  if (fromSums) {
+    if (positional.length > 0) throw new CommandError(`--sums fits from a saved sums table, without a data file: leave out ${positional.join(", ")}`);
+    // Options that need the rows (or a data file's columns), each refused by name.
+    const needRows: Record<string, string> = {
+      predictors: "the table's terms are the predictors",
+      exclude: "the table's terms are the predictors",
+      "weights-column": "the weights were summed into the table",
+      "fold-column": "the table's blocks are the folds",
+      "time-ordered": "the table says whether its blocks are in time order",
+      seed: "the table's blocks are the folds, nothing is dealt",
+      event: "a sums table holds a number target",
+      cutoff: "a sums table holds a number target",
+      honest: "nested cross-validation refits on rows",
+      stability: "stability selection fits half-samples of rows",
+      interval: "CV+ intervals need the held-out rows' residuals",
+      "sums-out": "the sums are already saved",
+      threads: "a fit from sums takes milliseconds on one thread",
+    };
+    for (const [name, why] of Object.entries(needRows)) {
+      if (seen.has(name)) throw new CommandError(`--${name} can't be used with --sums: ${why}; leave it out`);
+    }
+    const repeatsGiven = seen.get("repeats");
+    if (typeof repeatsGiven === "string" && parseNumber(repeatsGiven) !== 1) {
+      throw new CommandError("--repeats can't be used with --sums: the table's blocks are dealt once; leave it out");
+    }
+    const outcomeGiven = seen.get("outcome");
+    if (typeof outcomeGiven === "string" && parseOutcome(outcomeGiven) === "two-class") {
+      throw new CommandError("--outcome two-class can't be used with --sums: a yes/no fit needs a pass over the rows at every step; fit the data file");
+    }
+  } else {
+    if (positional.length === 0) throw new CommandError("no data file given: npm run fit -- <data.csv> --target <column>");
+    if (positional.length > 1) {
+      throw new CommandError(`one data file expected, got ${positional.length}: ${positional.join(", ")}`);
+    }
   }
   // Column names are compared in Unicode NFC, as the file's header is read (table.ts).
   const text = (name: string): string | null => {
@@ -344,7 +393,8 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
     return value === null ? null : splitList(name, value);
   };
 
-  const target = text("target");
+  // With --sums the table names its target; --target, when given, must agree (checked on reading it).
+  const target = text("target") ?? (fromSums ? "" : null);
   if (target === null) throw new CommandError("--target is missing: name the column to predict, e.g. --target price");
 
   const ruleText = text("rule");
@@ -450,6 +500,10 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
     const fixed = seen.has("time-ordered") ? "--time-ordered" : "--fold-column";
     throw new CommandError(`--repeats ${repeats} deals random folds again with new seeds, but ${fixed} fixes the folds (one deal): leave one out`);
   }
+  const sumsOut = text("sums-out");
+  if (sumsOut !== null && repeats !== null && repeats > 1) {
+    throw new CommandError(`--sums-out saves one deal of the folds, and --repeats ${repeats} deals them ${repeats} times: leave one out`);
+  }
   const predict = text("predict");
   const predictionsOut = text("predictions-out");
   const intervalText = text("interval");
@@ -476,7 +530,7 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
   return {
     help: false,
     options: {
-      file: positional[0],
+      file: fromSums ? "" : positional[0],
       target,
       predictors,
       exclude,
@@ -509,6 +563,9 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
       predict,
       predictionsOut,
       interval,
+      // The sums route's options, only when given.
+      ...(sumsOut !== null ? { sumsOut } : {}),
+      ...(fromSums ? { sums: text("sums") } : {}),
       // Only when given: the options object is otherwise what it always was.
       ...(threads !== null ? { threads } : {}),
       ...sumsRoute,

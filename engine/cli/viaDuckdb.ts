@@ -14,16 +14,17 @@
  * file_row_number; CSV: the row's number as read, in file order on one DuckDB thread). The
  * in-memory route's random folds need the rows, so --seed is refused here, as are the options
  * that need the rows (--predict, --repeats, --honest, --stability, --time-ordered: fitFromSums
- * and this file say which).
+ * and this file say which). `--sums-out` saves the sums DuckDB computed (cli/sumsFile.ts), for
+ * `--sums` to fit again without the file.
  */
 import { statSync } from "fs";
 import type { FitResult } from "../fit";
 import { fitFromSums } from "../fitSums";
-import { duckdbColumns, duckdbPrepare, duckdbSums, fileSource } from "../node/duckdb";
 import { quoteString, type FoldRule, type SumsSource } from "../sumsSql";
 import type { SumsTable } from "../sumsTable";
 import { CommandError, toFitOptions, type CommandOptions } from "./args";
 import { jsonText, textReport } from "./format";
+import { sumsFileText } from "./sumsFile";
 import type { FitTable } from "./table";
 
 /** Files larger than this go through DuckDB without --via (200 MB). */
@@ -75,7 +76,7 @@ function refuseRowOptions(options: CommandOptions): void {
 
 /** The source DuckDB reads: the file, with the row's position as a column when the folds hash it. */
 function sourceFor(options: CommandOptions, needPosition: boolean): SumsSource {
-  const plain = fileSource(options.file);
+  const plain: SumsSource = /\.parq(uet)?$/i.test(options.file) ? { kind: "parquet", path: options.file } : { kind: "csv", path: options.file };
   if (!needPosition) return plain;
   const path = quoteString(options.file, "duckdb");
   const column = `"${ROW_POSITION_COLUMN}"`;
@@ -135,8 +136,10 @@ export interface DuckdbOutcome {
  * --print-sql, the queries). Throws CommandError / InputError for bad input, as the in-memory
  * route does; the caller turns them into exit code 2.
  */
-export async function runViaDuckdb(options: CommandOptions): Promise<DuckdbOutcome> {
+export async function runViaDuckdb(options: CommandOptions, write: (file: string, text: string) => void): Promise<DuckdbOutcome> {
   refuseRowOptions(options);
+  // DuckDB's native module loads only on this route: the in-memory route starts as fast as before.
+  const { duckdbColumns, duckdbPrepare, duckdbSums } = await import("../node/duckdb");
   const rule = foldRuleFor(options);
   const source = sourceFor(options, rule.kind === "hash" && rule.key === ROW_POSITION_COLUMN);
   const columns = await duckdbColumns(source, options.file);
@@ -161,6 +164,8 @@ export async function runViaDuckdb(options: CommandOptions): Promise<DuckdbOutco
   delete fitOptions.timeOrdered;
   const result = fitFromSums(sums, fitOptions);
   const table = tableOfSums(sums);
-  const context = { table, foldColumn: options.foldColumn };
+  // Saved after the fit succeeds, as the in-memory route saves its sums.
+  if (options.sumsOut) write(options.sumsOut, sumsFileText(options.sumsOut, sums));
+  const context = { table, foldColumn: options.foldColumn, sums: { file: options.file, blocking: sums.blocking, blocks: sums.blocks.length, source: sums.source ?? null } };
   return { stdout: options.json ? jsonText(result, context) : textReport(result, context), sums, result };
 }

@@ -98,6 +98,14 @@ describe("the DuckDB route gives the in-memory route's model", () => {
     expect(Math.abs(byKey.coefficients.drum_temp - 0.05)).toBeLessThan(0.005);
   }, 60_000);
 
+  test("--sums-out saves DuckDB's sums; --sums fits them again without the file: the same model", async () => {
+    const saved = join(folder, "drum sums.json");
+    const direct = await json([parquet, "--target", "roast_loss", "--fold-key", "reading_id", "--exclude", "batch", "--sums-out", saved, "--json"]);
+    const again = await json(["--sums", saved, "--json"]);
+    expect(closeModels(again, direct)).toBe(0);
+    expect(again.rowsUsed).toBe(direct.rowsUsed);
+  }, 60_000);
+
   test("--print-sql prints the queries and exits", async () => {
     const outcome = await runCommandAsync([parquet, "--target", "roast_loss", "--fold-column", "batch", "--exclude", "reading_id", "--print-sql"]);
     expect(outcome.exitCode).toBe(0);
