@@ -304,6 +304,7 @@ describe("bad input: one line that says what to fix", () => {
     ["one fold", () => ask(writeCsv("k2.csv", good), { fold: { kind: "hash", key: "x", folds: 1 } }), "the number of folds must be a whole number from 2"],
     ["a yes/no target", () => ask(writeCsv("yn.csv", "y,x,lot\ntrue,2,a\nfalse,3,b\n")), "fitting from sums takes number targets only"],
     ["no predictors", () => ask(writeCsv("np.csv", good), { predictors: [] }), "no predictors given"],
+    ["a stray text past the rows DuckDB samples for types", () => ask(writeCsv("late.csv", lateText())), "late.csv line 40002, column 'x': 'n/a' is not a number"],
     ["a NaN in a Parquet column", () => nanParquet().then((path) => ask(path)), "column 'x' has values that are not finite"],
   ];
   for (const [what, run, message] of cases) {
@@ -318,6 +319,12 @@ describe("bad input: one line that says what to fix", () => {
     });
   }
 });
+
+function lateText(): string {
+  const lines = ["y,x,lot"];
+  for (let i = 0; i < 40000; i++) lines.push(`${i % 7},${i % 11},${i % 3}`);
+  return [...lines, "1,n/a,2"].join("\n") + "\n";
+}
 
 async function nanParquet(): Promise<string> {
   const path = join(folder, "nan.parquet");
