@@ -54,17 +54,20 @@ answers() {
   [ "$(query 'SELECT 1' 2 2>/dev/null)" = "1" ]
 }
 
-# Runs schema.sql one statement at a time (the HTTP interface takes one per request).
+# Runs schema.sql one statement at a time (the HTTP interface takes one per request): statements
+# end with a semicolon at the end of a line; lines starting with two dashes are skipped.
 load_schema() {
-  local statement=""
-  while IFS= read -r line || [ -n "$line" ]; do
-    case "$line" in "--"*|"") continue ;; esac
-    statement="$statement $line"
-    if [[ "$line" == *";" ]]; then
-      query "${statement%;}" >/dev/null
-      statement=""
-    fi
-  done <"$here/schema.sql"
+  node -e '
+    const [url, file] = process.argv.slice(1);
+    const lines = require("fs").readFileSync(file, "utf8").split("\n").filter((l) => l.trim() !== "" && !l.startsWith("--"));
+    const statements = lines.join("\n").split(/;\s*$/m).map((s) => s.trim()).filter((s) => s !== "");
+    (async () => {
+      for (const sql of statements) {
+        const response = await fetch(url, { method: "POST", body: sql, signal: AbortSignal.timeout(30000) });
+        if (!response.ok) throw new Error(`${(await response.text()).split("\n")[0]} (in: ${sql.slice(0, 80)}...)`);
+      }
+    })().catch((error) => { process.stderr.write(`server.sh: schema.sql: ${error.message}\n`); process.exit(1); });
+  ' "$url/" "$here/schema.sql"
 }
 
 start() {
