@@ -24,7 +24,9 @@
 import * as http from "http";
 import * as https from "https";
 import { randomUUID } from "crypto";
-import { CancelledError, InputError } from "../errors";
+import { CancelledError, InputError, type CancelSignal } from "../errors";
+import { computeSums, type SumsQueries, type SumsRequest } from "../sumsSql";
+import type { SumsTable } from "../sumsTable";
 
 /** A value of a result cell: numbers for numeric types, bigint for 64-bit integers beyond 2^53, text otherwise. */
 export type SqlValue = number | bigint | string | boolean | null | SqlValue[];
@@ -344,4 +346,58 @@ export function clickhouseRunner(options: ClickHouseOptions): SqlRunner {
 
 function formatSeconds(ms: number): string {
   return ms < 1000 ? `${ms} ms` : `${Number((ms / 1000).toPrecision(3))} s`;
+}
+
+export interface ClickHouseSumsOptions extends ClickHouseOptions {
+  /** A cancel flag (engine/errors.ts) or an AbortSignal: raised, the running query is aborted (CancelledError). */
+  signal?: CancelSignal | AbortSignal;
+  /** Sees every query before it runs (--print-sql, progress). */
+  onQuery?: (step: keyof SumsQueries, sql: string) => void;
+}
+
+/** True for an AbortSignal (it can tell the runner at once), false for a plain cancel flag (polled). */
+function isAbortSignal(signal: CancelSignal | AbortSignal): signal is AbortSignal {
+  return typeof (signal as AbortSignal).addEventListener === "function";
+}
+
+/**
+ * The sums table of `request` (its source a table or view on the server, `db.table`; a
+ * Distributed table sums on every shard and the server merges the partial sums) computed by the
+ * ClickHouse server at `options.url`: the queries of engine/sumsSql.ts in its ClickHouse dialect,
+ * POSTed one by one. Throws InputError for bad input or a server that can't be queried,
+ * CancelledError when the signal is raised.
+ */
+export async function clickhouseSums(request: Omit<SumsRequest, "dialect">, options: ClickHouseSumsOptions): Promise<SumsTable> {
+  if (request.source.kind === "csv" || request.source.kind === "parquet") {
+    throw new InputError("setting", `${request.source.path} is a file: ClickHouse sums a table on the server (--table db.table); a local file goes through DuckDB`);
+  }
+  const run = clickhouseRunner(options);
+  const controller = new AbortController();
+  const signal = options.signal;
+  let watch: ReturnType<typeof setInterval> | null = null;
+  const forward = () => controller.abort();
+  if (signal) {
+    if (isAbortSignal(signal)) {
+      if (signal.aborted) controller.abort();
+      else signal.addEventListener("abort", forward, { once: true });
+    } else {
+      // A flag, not an event: look at it while a query runs.
+      watch = setInterval(() => {
+        if (signal.aborted) controller.abort();
+      }, 50);
+    }
+  }
+  try {
+    const version = (await run("SELECT version() AS version", controller.signal))[0]?.version;
+    const server = parseEndpoint(options.url).shown;
+    const where = request.source.kind === "table" ? request.source.name : "a query";
+    return await computeSums({ ...request, dialect: "clickhouse" }, (sql) => run(sql, controller.signal), {
+      signal: signal && !isAbortSignal(signal) ? signal : controller.signal,
+      onQuery: options.onQuery,
+      source: `clickhouse ${String(version ?? "")} at ${server} on ${where}`.replace(/\s+/g, " "),
+    });
+  } finally {
+    if (watch !== null) clearInterval(watch);
+    if (signal && isAbortSignal(signal)) signal.removeEventListener("abort", forward);
+  }
 }
