@@ -14,7 +14,8 @@
  *    for text columns the count of distinct values in the used rows (the level cap) and how many
  *    values read as numbers (a mostly-number text column is a typo: refused naming a sample value;
  *    an all-number text column is read as numbers), and for time blocks the cut points.
- * 1b. Levels: one small GROUP BY per text predictor (within the cap): each level and its rows.
+ * 1b. Levels: one small GROUP BY per text predictor (within the cap): each level, its rows and
+ *    its weight (an indicator's centre is its level's weighted share).
  * 2. Second pass: per block, Σw, rows, Σw(x_a − c_a), Σw(x_a − c_a)(x_b − c_b) for a ≤ b,
  *    Σw(x_a − c_a)(y − c_y), Σw(y − c_y)² and max|x| over rows with w > 0, the centre inlined as
  *    exact literals. The aggregates are dealt into queries of at most `maxAggregates` each
@@ -29,14 +30,16 @@
  *
  * Blocks (the fold rule):
  * - `column`: one block per distinct value of a fold-label column (numbers written as JavaScript
- *   writes them, so 3.0 and 3 are one label "3"); blocks in text order of the labels.
+ *   writes them, so 3.0 and 3 are one label "3"); blocks in number order for a column of
+ *   numbers, else in text order (UTF-16 units), as engine/sums.ts orders labels.
  * - `hash`: a whole-number key column dealt into K blocks "1".."K" by `foldOfKey` below, the
  *   same on every engine and in TypeScript; blocks in number order.
  * - `time`: an ordering column (numbers, dates or times) cut into K + 1 blocks of near-equal row
  *   counts, "1".."K+1" in time order, so that K forward folds can each be scored on one later
  *   block (as engine/folds.ts's time plan cuts rows). Cut points: the engine's exact discrete
  *   quantiles of the ordering column at j/(K+1), j = 1..K (DuckDB quantile_disc, ClickHouse
- *   quantilesExact), over the used rows; a row goes to block 1 + #{cuts ≤ its value}. Tied
+ *   quantilesExact), over the used rows; a row goes to block 1 + #{cuts ≤ its value}. The table
+ *   is marked `timeOrdered`, so fitFromSums trains each fold on the blocks before it. Tied
  *   values stay in one block, so blocks are near-equal, not equal, in size; the two engines'
  *   quantile rules may pick different cut points, so `cuts` can be given to fix them.
  *
@@ -525,7 +528,12 @@ export function toNumber(value: unknown): number | null {
   if (typeof value === "bigint") return Number(value);
   if (typeof value === "string" && value.trim() !== "") {
     const n = Number(value);
-    if (!Number.isNaN(n) || value.trim().toLowerCase() === "nan") return n;
+    if (!Number.isNaN(n)) return n;
+    // ClickHouse writes non-finite floats as nan, -nan, inf, -inf.
+    const word = value.trim().toLowerCase();
+    if (word === "nan" || word === "-nan") return NaN;
+    if (word === "inf" || word === "+inf") return Infinity;
+    if (word === "-inf") return -Infinity;
   }
   throw new Error(`expected a number from the query, got ${String(value)}`);
 }
@@ -904,8 +912,10 @@ export function assembleSums(
   }
   const fold = plan.request.fold;
   const ordered = [...blocks.values()];
-  if (fold.kind === "column") ordered.sort((a, b) => (a.label < b.label ? -1 : a.label > b.label ? 1 : 0));
-  else ordered.sort((a, b) => Number(a.label) - Number(b.label));
+  // The order engine/sums.ts gives labels: numerically when every label is a number, else as text.
+  const byText = (a: SumsBlock, b: SumsBlock): number => (a.label < b.label ? -1 : a.label > b.label ? 1 : 0);
+  const numbers = fold.kind !== "column" || plan.foldColumn.kind === "integer" || plan.foldColumn.kind === "number";
+  ordered.sort(numbers ? (a, b) => Number(a.label) - Number(b.label) || byText(a, b) : byText);
   return {
     format: SUMS_FORMAT,
     version: SUMS_VERSION,
@@ -917,6 +927,7 @@ export function assembleSums(
     blocking: blockingWords(plan, facts.cuts),
     blocks: ordered,
     ...(source !== undefined ? { source } : {}),
+    ...(fold.kind === "time" ? { timeOrdered: true } : {}),
   };
 }
 
