@@ -15,9 +15,12 @@ import { join } from "path";
 import { CancelledError, InputError } from "../../engine/errors";
 import { clickhouseRunner, clickhouseSums } from "../../engine/node/clickhouse";
 import { duckdbSums } from "../../engine/node/duckdb";
+import { fit } from "../../engine/fit";
+import { fitFromSums } from "../../engine/fitSums";
 import { sumsOfRows } from "../../engine/sums";
 import { exactLiteral, foldHashSql, foldOfKey, type FoldRule, type SumsRequest } from "../../engine/sumsSql";
 import type { SumsTable } from "../../engine/sumsTable";
+import { vectorRelativeError } from "../helpers/numeric";
 import { clickhouseNeed, clickhouseServer, suiteGate } from "../helpers/requirements";
 import { sumsGap } from "../helpers/sumsCompare";
 import { loadRoastLog, roastLog, ROAST_COLUMNS, type RoastReading } from "./roastLog";
@@ -96,6 +99,34 @@ gate.describe("the generator's ClickHouse SQL on two shards", () => {
       }
     });
   }
+
+  test("the model fitted from ClickHouse's sums = the in-memory fit of the same rows and fold labels (coefficients ≤ 1e-9)", async () => {
+    // Source: two routes to one model (fit.ts on the rows with fold labels in gram form, and
+    // fitFromSums on the server's sums); the bar for coefficients is 1e-9 relative.
+    const options = { mixes: [0.5, 1], updates: "gram" as const };
+    const viaClickHouse = await clickhouseSums(request(rules[0][1]), { url, env: {} });
+    const fromSums = fitFromSums(viaClickHouse, { mixes: options.mixes });
+    const kept = rows.filter((row) => row.bean_moisture !== null);
+    const value = (row: RoastReading, term: string): number => {
+      const colon = term.indexOf(": ");
+      return colon < 0 ? (row[term as keyof RoastReading] as number) : row[term.slice(0, colon) as keyof RoastReading] === term.slice(colon + 2) ? 1 : 0;
+    };
+    const fromRows = fit(
+      kept.map((row) => viaClickHouse.terms.map((term) => value(row, term))),
+      kept.map((row) => row.roast_loss),
+      { ...options, weights: kept.map((row) => row.lot_weight), foldLabels: kept.map((row) => String(row.fold_label)), names: viaClickHouse.terms },
+    );
+    expect(fromSums.mix).toBe(fromRows.mix);
+    expect(Math.abs(fromSums.strength - fromRows.strength)).toBeLessThanOrEqual(1e-9 * fromRows.strength);
+    // Norm-wise over the standardized coefficients (unit-free: per SD of each term; reading_id
+    // moves in step with minute, so its own coefficient is rounding noise, 1e-22, in both routes).
+    expect(vectorRelativeError(fromSums.standardizedCoefficients, fromRows.standardizedCoefficients)).toBeLessThanOrEqual(1e-9);
+    expect(vectorRelativeError(fromSums.coefficients.slice(0, 5), fromRows.coefficients.slice(0, 5))).toBeLessThanOrEqual(1e-9);
+    // The roastery's true model shows through: moisture lowers the loss, dark roasts raise it.
+    const coefficient = (term: string) => fromSums.coefficients[viaClickHouse.terms.indexOf(term)];
+    expect(coefficient("bean_moisture")).toBeLessThan(-0.3);
+    expect(coefficient("roast_level: dark")).toBeGreaterThan(1.3);
+  });
 
   test("the comparison can fail: one shard alone is far from the whole", async () => {
     const whole = await clickhouseSums(request(rules[0][1]), { url, env: {} });
