@@ -95,7 +95,11 @@ start() {
     config="$home/config.xml"
   fi
   rm -f "$pidfile"
-  (cd "$home" && "$server" --config-file="$config" --pid-file="$pidfile" --daemon)
+  if ! (cd "$home" && "$server" --config-file="$config" --pid-file="$pidfile" --daemon); then
+    echo "server.sh: $server did not start; see $home/log/server.err.log" >&2
+    tail -n 5 "$home/log/server.err.log" >&2 2>/dev/null || true
+    exit 1
+  fi
   local started=$SECONDS
   until answers; do
     if [ $((SECONDS - started)) -ge "$timeout" ]; then
