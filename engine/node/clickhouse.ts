@@ -16,6 +16,7 @@
  *   `output_format_json_quote_denormals=1` (NaN and ±∞ arrive as "nan", "-nan", "inf", "-inf").
  *   `wait_end_of_query=1`: the server buffers the answer, so an error part-way through a query
  *   comes back as an HTTP error, never as a truncated 200.
+ * - Threads: one per server by default (`threads`), for bit-identical sums from run to run.
  * - Failures: a refused connection, an unknown host, a timeout, an HTTP error, a SQL error, a
  *   wrong password: each an InputError with a one-line message naming the server (URL without
  *   credentials) and what to do. Cancel: an AbortSignal aborts the request (CancelledError) and
@@ -53,6 +54,16 @@ export interface ClickHouseOptions {
   database?: string;
   /** Milliseconds one query may take, from connecting to the last byte; default 600,000. */
   timeoutMs?: number;
+  /**
+   * Threads each server uses for one query (ClickHouse's max_threads; it travels with the query
+   * to every shard). Default 1: a parallel sum of doubles adds its partial sums in the order the
+   * threads finish, and the same table must give the same sums bit for bit (as the DuckDB route,
+   * which runs one thread for the same reason). Shards still work in parallel with each other;
+   * with two shards the merge is one addition, which does not depend on their order (with three
+   * or more, the order in which their answers arrive can move the last bits). 0: the server's
+   * own default (all its cores).
+   */
+  threads?: number;
   /** The environment to read user and password from; default process.env (tests pass their own). */
   env?: Record<string, string | undefined>;
 }
@@ -224,6 +235,10 @@ export function clickhouseRunner(options: ClickHouseOptions): SqlRunner {
   if (!(Number.isFinite(timeoutMs) && timeoutMs > 0)) {
     throw new InputError("setting", `the ClickHouse timeout must be a positive number of milliseconds, not ${timeoutMs}`);
   }
+  const threads = options.threads ?? 1;
+  if (!(Number.isInteger(threads) && threads >= 0)) {
+    throw new InputError("setting", `the ClickHouse threads must be a whole number from 0 (0: the server's default), not ${threads}`);
+  }
   const server = endpoint.shown;
   const clean = (message: string) => scrub(message, user, password);
   const authorization =
@@ -309,6 +324,7 @@ export function clickhouseRunner(options: ClickHouseOptions): SqlRunner {
       output_format_write_statistics: "0",
     };
     if (options.database) parameters.database = options.database;
+    if (threads > 0) parameters.max_threads = String(threads);
     let answer: RawAnswer;
     try {
       answer = await post(parameters, `${statement}\nFORMAT JSON`, signal, timeoutMs);

@@ -225,6 +225,15 @@ gate.describe("the runner against ClickHouse", () => {
     await expect(run("SELECT sleep(2)", controller.signal)).rejects.toBeInstanceOf(CancelledError);
   });
 
+  test("one thread per server unless asked (bit-identical sums), the server's default with 0", async () => {
+    const setting = async (threads?: number) =>
+      (await clickhouseRunner({ url, env: {}, threads })("SELECT value FROM system.settings WHERE name = 'max_threads'"))[0].value;
+    expect(await setting()).toBe("1");
+    expect(await setting(3)).toBe("3");
+    expect(await setting(0)).not.toBe("3");
+    expect(() => clickhouseRunner({ url, threads: -1 })).toThrow("whole number from 0");
+  });
+
   test("user and password from the environment: accepted when right; when wrong, a message without the password", async () => {
     const good = clickhouseRunner({ url, env: { SHRINKWISE_CLICKHOUSE_USER: "sw_tester", SHRINKWISE_CLICKHOUSE_PASSWORD: PASSWORD } });
     expect(await good("SELECT 1 AS one")).toEqual([{ one: 1 }]);

@@ -97,19 +97,19 @@ start() {
   rm -f "$pidfile"
   if ! (cd "$home" && "$server" --config-file="$config" --pid-file="$pidfile" --daemon); then
     echo "server.sh: $server did not start; see $home/log/server.err.log" >&2
-    tail -n 5 "$home/log/server.err.log" >&2 2>/dev/null || true
+    grep -E "<(Error|Fatal)>" "$home/log/server.err.log" 2>/dev/null | tail -n 2 >&2 || true
     exit 1
   fi
   local started=$SECONDS
   until answers; do
     if [ $((SECONDS - started)) -ge "$timeout" ]; then
       echo "server.sh: ClickHouse did not answer 'SELECT 1' at $url within ${timeout}s; see $home/log/server.err.log" >&2
-      tail -n 5 "$home/log/server.err.log" >&2 2>/dev/null || true
+      grep -E "<(Error|Fatal)>" "$home/log/server.err.log" 2>/dev/null | tail -n 2 >&2 || true
       exit 1
     fi
     if [ $((SECONDS - started)) -ge 2 ] && ! running_pid >/dev/null; then
       echo "server.sh: ClickHouse exited while starting; see $home/log/server.err.log" >&2
-      tail -n 5 "$home/log/server.err.log" >&2 2>/dev/null || true
+      grep -E "<(Error|Fatal)>" "$home/log/server.err.log" 2>/dev/null | tail -n 2 >&2 || true
       exit 1
     fi
     sleep 0.5
