@@ -934,25 +934,31 @@ export function assembleSums(
 // ---------------------------------------------------------------------------------------------
 // The whole run.
 
-/** Every query of one run, for --print-sql (the second pass needs the first pass's answers). */
-export interface SumsQueries {
-  describe: string;
-  firstPass: string;
-  levels: string[];
-  secondPass: string[];
+/** The steps of one run, as onQuery names them. */
+export type SumsStep = "describe" | "firstPass" | "levels" | "secondPass";
+
+export interface SumsRunOptions {
+  /** Read before each query; a raised signal throws CancelledError. */
+  signal?: CancelSignal;
+  /** Sees each query's text before it runs (progress, --print-sql). */
+  onQuery?: (step: SumsStep, sql: string) => void;
+  /** SumsTable.source. */
+  source?: string;
+}
+
+/** Everything up to the second pass: the plan, the first pass's facts and the second pass's queries. */
+export interface PreparedSums {
+  plan: SumsPlan;
+  facts: FirstPassFacts;
+  second: SecondPass;
 }
 
 /**
- * Runs every query of a request through `run` and returns the sums table. `onQuery` sees each
- * query's text before it runs (for --print-sql and progress). The signal is read before each
- * query; `CancelledError` comes from the runner or from here.
+ * Runs the describe, first-pass and levels queries of a request through `run` and builds the
+ * second pass's queries (not run): what --print-sql prints, and the first half of computeSums.
  */
-export async function computeSums(
-  request: SumsRequest,
-  run: RunQuery,
-  options: { signal?: CancelSignal; onQuery?: (step: keyof SumsQueries, sql: string) => void; source?: string } = {},
-): Promise<SumsTable> {
-  const step = async (name: keyof SumsQueries, sql: string): Promise<SqlRow[]> => {
+export async function prepareSums(request: SumsRequest, run: RunQuery, options: SumsRunOptions = {}): Promise<PreparedSums> {
+  const step = async (name: SumsStep, sql: string): Promise<SqlRow[]> => {
     throwIfCancelled(options.signal);
     options.onQuery?.(name, sql);
     return run(sql);
@@ -966,8 +972,21 @@ export async function computeSums(
   for (const column of facts.textPredictors) levels.set(column, readLevels(await step("levels", levelsSql(plan, column))));
   const terms = termsOf(plan, levels, facts.weight);
   if (terms.length === 0) throw new InputError("no-predictors", "no predictor is left to fit: every text predictor has one level in the used rows");
-  const second = secondPassSql(plan, facts, terms);
+  return { plan, facts, second: secondPassSql(plan, facts, terms) };
+}
+
+/**
+ * Runs every query of a request through `run` (one at a time, in order) and returns the sums
+ * table. Throws InputError for bad input (see planSums, readFirstPass), CancelledError when the
+ * signal is raised between queries (a runner may also stop a running query).
+ */
+export async function computeSums(request: SumsRequest, run: RunQuery, options: SumsRunOptions = {}): Promise<SumsTable> {
+  const { plan, facts, second } = await prepareSums(request, run, options);
   const answers: SqlRow[][] = [];
-  for (const query of second.queries) answers.push(await step("secondPass", query.sql));
+  for (const query of second.queries) {
+    throwIfCancelled(options.signal);
+    options.onQuery?.("secondPass", query.sql);
+    answers.push(await run(query.sql));
+  }
   return assembleSums(plan, facts, second, answers, options.source);
 }

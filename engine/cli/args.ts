@@ -81,6 +81,14 @@ export interface CommandOptions {
   interval: number | null;
   /** Worker threads for the folds and mixes: a whole number from 1, or "auto" (the cores available); null: 1, no workers. */
   threads?: number | "auto" | null;
+  /** How the data file is summed (cli/viaDuckdb.ts): "duckdb", "memory", or null to decide by the file (Parquet or large: DuckDB). */
+  via?: "duckdb" | "memory" | null;
+  /** DuckDB route: a whole-number column hashed into --folds blocks. */
+  foldKey?: string | null;
+  /** DuckDB route: an ordering column cut into --folds + 1 time blocks. */
+  timeColumn?: string | null;
+  /** Print the queries that compute the sums, and exit. */
+  printSql?: boolean;
 }
 
 export type ParsedCommand = { help: true } | { help: false; options: CommandOptions };
@@ -165,6 +173,20 @@ Predictions
                             usual; without it the CSV goes to standard output and the report
                             (or --json) is not printed (its warnings go to standard error)
 
+Large files (DuckDB)
+  --via duckdb|memory       how the file is read: duckdb sums it where it lies (memory independent
+                            of its rows) and fits from the sums; memory reads it whole (default:
+                            duckdb for a Parquet file or a file over 200 MB, else memory)
+  --fold-key <column>       duckdb: deal rows into --folds blocks by a hash of this whole-number
+                            column (an ID), the same on every engine
+  --time-column <column>    duckdb: cut rows into --folds + 1 blocks of near-equal size in the
+                            order of this column (numbers, dates or times); each fold is scored on
+                            one block by a fit on the blocks before it
+                            (without --fold-column, --fold-key or --time-column: a hash of the
+                            row's position in the file)
+  --print-sql               print the queries that compute the sums (DuckDB SQL; the first pass
+                            runs on the file to fill in the second) and exit
+
 Speed
   --threads <n>|auto        fit the folds and mixes on n worker threads (auto: one per core);
                             the result is the same, bit for bit (default 1: no workers)
@@ -222,6 +244,10 @@ const OPTIONS: Record<string, Kind> = {
   interval: "text",
   json: "flag",
   threads: "text",
+  via: "text",
+  "fold-key": "text",
+  "time-column": "text",
+  "print-sql": "flag",
   help: "flag",
 };
 
@@ -445,6 +471,8 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
     throw new CommandError("--predictions-out says where to write predictions: add --predict <new.csv>");
   }
 
+  const sumsRoute = sumsRouteOptions(seen, text);
+
   return {
     help: false,
     options: {
@@ -483,8 +511,34 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
       interval,
       // Only when given: the options object is otherwise what it always was.
       ...(threads !== null ? { threads } : {}),
+      ...sumsRoute,
     },
   };
+}
+
+/** The DuckDB route's options (only those given, so the options object is otherwise unchanged), checked against each other. */
+function sumsRouteOptions(seen: ReadonlyMap<string, string | true>, text: (name: string) => string | null): Partial<CommandOptions> {
+  const out: Partial<CommandOptions> = {};
+  const via = text("via");
+  if (via !== null) {
+    const lower = via.toLowerCase();
+    if (lower !== "duckdb" && lower !== "memory") throw new CommandError(`--via must be duckdb or memory; got '${via}'`);
+    out.via = lower;
+  }
+  const foldKey = text("fold-key");
+  const timeColumn = text("time-column");
+  const rules = ["fold-column", "fold-key", "time-column", "time-ordered"].filter((name) => seen.has(name)).map((name) => `--${name}`);
+  if (rules.length > 1) throw new CommandError(`${rules.join(" and ")} each say how rows make folds: give one`);
+  const duckdbOnly = [foldKey !== null ? "--fold-key" : null, timeColumn !== null ? "--time-column" : null, seen.has("print-sql") ? "--print-sql" : null].filter(
+    (flag): flag is string => flag !== null,
+  );
+  if (duckdbOnly.length > 0 && out.via === "memory") {
+    throw new CommandError(`${duckdbOnly.join(" and ")} ${duckdbOnly.length === 1 ? "works" : "work"} on the DuckDB route: leave out --via memory`);
+  }
+  if (foldKey !== null) out.foldKey = foldKey;
+  if (timeColumn !== null) out.timeColumn = timeColumn;
+  if (seen.has("print-sql")) out.printSql = true;
+  return out;
 }
 
 /**

@@ -13,6 +13,7 @@ import { fitParallel } from "../node/threadPool";
 import { CommandError, parseArgs, toFitOptions, USAGE, type CommandOptions } from "./args";
 import { failureLine, jsonText, predictionsCsv, textReport, warningMessages } from "./format";
 import { readFitTable, readNewRows, type FitTable } from "./table";
+import { chooseRoute, runViaDuckdb } from "./viaDuckdb";
 
 export interface CommandOutcome {
   exitCode: 0 | 1 | 2;
@@ -81,6 +82,9 @@ export function runCommand(
   read: (file: string) => string = readInput,
   write: (file: string, text: string) => void = writeOutput,
 ): CommandOutcome {
+  if (duckdbCommand(argv) !== null) {
+    return { exitCode: 2, stdout: "", stderr: "shrinkwise: this file goes through DuckDB, which runs asynchronously: use runCommandAsync (or --via memory)\n" };
+  }
   const step = commandSteps(argv, read, write);
   let next = step.next();
   while (!next.done) {
@@ -103,6 +107,16 @@ export async function runCommandAsync(
   read: (file: string) => string = readInput,
   write: (file: string, text: string) => void = writeOutput,
 ): Promise<CommandOutcome> {
+  // A Parquet or large file (or --via duckdb) is summed by DuckDB and fitted from the sums.
+  const duckdb = duckdbCommand(argv);
+  if (duckdb !== null) {
+    try {
+      return { exitCode: 0, stdout: (await runViaDuckdb(duckdb)).stdout, stderr: "" };
+    } catch (error) {
+      const failure = failureLine(error);
+      return { exitCode: failure.exitCode, stdout: "", stderr: failure.line };
+    }
+  }
   const step = commandSteps(argv, read, write);
   let next = step.next();
   while (!next.done) {
@@ -114,6 +128,16 @@ export async function runCommandAsync(
     }
   }
   return next.value;
+}
+
+/** The parsed command when it takes the DuckDB route (cli/viaDuckdb.ts chooseRoute), else null (bad arguments included: commandSteps reports them). */
+function duckdbCommand(argv: readonly string[]): CommandOptions | null {
+  try {
+    const command = parseArgs(argv);
+    return !command.help && chooseRoute(command.options) === "duckdb" ? command.options : null;
+  } catch {
+    return null;
+  }
 }
 
 type FitCall = [number[][], ArrayLike<number>, FitOptions, number | "auto" | null];

@@ -15,7 +15,7 @@
 import { DuckDBInstance, type DuckDBConnection } from "@duckdb/node-api";
 import { statSync } from "fs";
 import { CancelledError, InputError, type CancelSignal } from "../errors";
-import { computeSums, type SqlRow, type SumsQueries, type SumsRequest, type SumsSource } from "../sumsSql";
+import { computeSums, describeSql, prepareSums, type PreparedSums, type SqlRow, type SumsRequest, type SumsSource, type SumsStep } from "../sumsSql";
 import type { SumsTable } from "../sumsTable";
 
 /** Reads a file by its extension: `.parquet` (or `.parq`) as Parquet, anything else as CSV (DuckDB detects the delimiter). */
@@ -28,7 +28,7 @@ export interface DuckDBSumsOptions {
   /** DuckDB's worker threads (default 1: bit-identical sums from run to run). */
   threads?: number;
   /** Sees every query before it runs. */
-  onQuery?: (step: keyof SumsQueries, sql: string) => void;
+  onQuery?: (step: SumsStep, sql: string) => void;
 }
 
 /** DuckDB's first message line, without its "Error:" prefixes and the noise after it. */
@@ -64,28 +64,36 @@ function text(error: unknown): string {
   return error instanceof Error ? error.message : String(error);
 }
 
-/**
- * The sums table of `request` (its source a file, table or query DuckDB can read) by DuckDB.
- * Throws InputError for bad input, CancelledError when the signal is raised.
- */
-export async function duckdbSums(request: Omit<SumsRequest, "dialect">, options: DuckDBSumsOptions = {}): Promise<SumsTable> {
-  const file = request.source.kind === "csv" || request.source.kind === "parquet" ? request.source.path : null;
-  if (file !== null) {
-    let isFile: boolean;
-    try {
-      isFile = statSync(file).isFile();
-    } catch {
-      throw new InputError("setting", `can't read ${file}: no such file`);
-    }
-    if (!isFile) throw new InputError("setting", `can't read ${file}: it is a folder`);
+/** The file a source reads, or null. */
+function fileOf(source: SumsSource): string | null {
+  return source.kind === "csv" || source.kind === "parquet" ? source.path : null;
+}
+
+/** Refuses a missing file or a folder before DuckDB sees it. */
+function checkFile(file: string | null): void {
+  if (file === null) return;
+  let isFile: boolean;
+  try {
+    isFile = statSync(file).isFile();
+  } catch {
+    throw new InputError("setting", `can't read ${file}: no such file`);
   }
+  if (!isFile) throw new InputError("setting", `can't read ${file}: it is a folder`);
+}
+
+/**
+ * Opens an in-memory DuckDB, hands `body` a runner whose failures read as the user's one-liners
+ * (naming `file`), and closes it whatever happens. A raised signal interrupts the running query.
+ */
+async function withDuckdb<T>(file: string | null, options: DuckDBSumsOptions, body: (run: (sql: string) => Promise<SqlRow[]>, version: string) => Promise<T>): Promise<T> {
+  checkFile(file);
   const instance = await DuckDBInstance.create(":memory:", { threads: String(options.threads ?? 1) });
   let connection: DuckDBConnection | null = null;
   let watch: ReturnType<typeof setInterval> | null = null;
   try {
     connection = await instance.connect();
     const open = connection;
-    const version = (await open.runAndReadAll("SELECT version() AS v")).getRowObjectsJS()[0]?.v;
+    const version = String((await open.runAndReadAll("SELECT version() AS v")).getRowObjectsJS()[0]?.v ?? "");
     if (options.signal) {
       const signal = options.signal;
       // The signal is a flag, not an event: look at it while a query runs and interrupt DuckDB.
@@ -104,17 +112,34 @@ export async function duckdbSums(request: Omit<SumsRequest, "dialect">, options:
         throw error;
       }
     };
-    const where = file ?? (request.source.kind === "table" ? request.source.name : "a query");
-    return await computeSums({ ...request, dialect: "duckdb" }, run, {
-      signal: options.signal,
-      onQuery: options.onQuery,
-      source: `duckdb ${String(version ?? "")} on ${where}`.replace(/\s+/g, " "),
-    });
+    return await body(run, version);
   } finally {
     if (watch !== null) clearInterval(watch);
     connection?.closeSync();
     instance.closeSync();
   }
+}
+
+/**
+ * The sums table of `request` (its source a file, table or query DuckDB can read) by DuckDB.
+ * Throws InputError for bad input, CancelledError when the signal is raised.
+ */
+export async function duckdbSums(request: Omit<SumsRequest, "dialect">, options: DuckDBSumsOptions = {}): Promise<SumsTable> {
+  const file = fileOf(request.source);
+  return withDuckdb(file, options, (run, version) => {
+    const where = file ?? (request.source.kind === "table" ? request.source.name : "a query");
+    return computeSums({ ...request, dialect: "duckdb" }, run, { signal: options.signal, onQuery: options.onQuery, source: `duckdb ${version} on ${where}` });
+  });
+}
+
+/** The describe, first-pass and levels queries run by DuckDB, and the second pass's queries built (not run): for --print-sql. */
+export async function duckdbPrepare(request: Omit<SumsRequest, "dialect">, options: DuckDBSumsOptions = {}): Promise<PreparedSums> {
+  return withDuckdb(fileOf(request.source), options, (run) => prepareSums({ ...request, dialect: "duckdb" }, run, { signal: options.signal, onQuery: options.onQuery }));
+}
+
+/** The source's column names, in order (DuckDB's DESCRIBE). */
+export async function duckdbColumns(source: SumsSource, file: string | null = fileOf(source)): Promise<string[]> {
+  return withDuckdb(file, {}, async (run) => (await run(describeSql(source, "duckdb"))).map((row) => String(row.column_name)));
 }
 
 /** Runs one query on a fresh in-memory DuckDB (tests and the bench write files with it). */
