@@ -26,7 +26,7 @@ import * as http from "http";
 import * as https from "https";
 import { randomUUID } from "crypto";
 import { CancelledError, InputError, type CancelSignal } from "../errors";
-import { computeSums, type SumsQueries, type SumsRequest } from "../sumsSql";
+import { computeSums, type SumsRequest, type SumsStep } from "../sumsSql";
 import type { SumsTable } from "../sumsTable";
 
 /** A value of a result cell: numbers for numeric types, bigint for 64-bit integers beyond 2^53, text otherwise. */
@@ -368,7 +368,7 @@ export interface ClickHouseSumsOptions extends ClickHouseOptions {
   /** A cancel flag (engine/errors.ts) or an AbortSignal: raised, the running query is aborted (CancelledError). */
   signal?: CancelSignal | AbortSignal;
   /** Sees every query before it runs (--print-sql, progress). */
-  onQuery?: (step: keyof SumsQueries, sql: string) => void;
+  onQuery?: (step: SumsStep, sql: string) => void;
 }
 
 /** True for an AbortSignal (it can tell the runner at once), false for a plain cancel flag (polled). */
