@@ -89,6 +89,8 @@ export interface CommandOptions {
   timeColumn?: string | null;
   /** Print the queries that compute the sums, and exit. */
   printSql?: boolean;
+  /** ClickHouse route (cli/viaClickhouse.ts): the server's HTTP URL; `file` then holds the --table name. */
+  clickhouse?: string | null;
 }
 
 export type ParsedCommand = { help: true } | { help: false; options: CommandOptions };
@@ -187,6 +189,14 @@ Large files (DuckDB)
   --print-sql               print the queries that compute the sums (DuckDB SQL; the first pass
                             runs on the file to fill in the second) and exit
 
+A table on a ClickHouse server (instead of a data file)
+  --clickhouse <url>        the server's HTTP interface (http://host:8123); the sums are computed
+                            there (a Distributed table: on every shard) and fitted here. User and
+                            password from SHRINKWISE_CLICKHOUSE_USER / SHRINKWISE_CLICKHOUSE_PASSWORD
+  --table <db.table>        the table or view to fit; fold rule: --fold-column, --fold-key or
+                            --time-column (a table has no row order to hash); --print-sql prints
+                            the ClickHouse SQL
+
 Speed
   --threads <n>|auto        fit the folds and mixes on n worker threads (auto: one per core);
                             the result is the same, bit for bit (default 1: no workers)
@@ -248,6 +258,8 @@ const OPTIONS: Record<string, Kind> = {
   "fold-key": "text",
   "time-column": "text",
   "print-sql": "flag",
+  clickhouse: "text",
+  table: "text",
   help: "flag",
 };
 
@@ -326,6 +338,16 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
     seen.set(name, value);
   }
 
+  // The ClickHouse route reads a table on a server instead of a file: its name stands in for the file's.
+  const clickhouse = typeof seen.get("clickhouse") === "string" ? (seen.get("clickhouse") as string).trim() : null;
+  const table = typeof seen.get("table") === "string" ? (seen.get("table") as string).trim() : null;
+  if (table !== null && clickhouse === null) throw new CommandError("--table names a table on a ClickHouse server: add --clickhouse <url>");
+  if (clickhouse !== null) {
+    if (table === null) throw new CommandError("--clickhouse needs the table to fit: add --table <db.table>");
+    if (positional.length > 0) throw new CommandError(`--clickhouse fits a table on the server, not a file: leave out ${positional.join(", ")}`);
+    if (seen.has("via")) throw new CommandError("--via chooses how a file is read; --clickhouse reads a table on the server: leave out --via");
+    positional.push(table);
+  }
   if (positional.length === 0) throw new CommandError("no data file given: npm run fit -- <data.csv> --target <column>");
   if (positional.length > 1) {
     throw new CommandError(`one data file expected, got ${positional.length}: ${positional.join(", ")}`);
@@ -512,6 +534,7 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
       // Only when given: the options object is otherwise what it always was.
       ...(threads !== null ? { threads } : {}),
       ...sumsRoute,
+      ...(clickhouse !== null ? { clickhouse } : {}),
     },
   };
 }
