@@ -146,6 +146,23 @@ gate.describe("the ClickHouse route gives the other routes' model", () => {
     expectSameModel(await json([...server(), ...hashed]), await json([csv, ...hashed, "--via", "duckdb"]));
   });
 
+  test("the README's example: the generator's model on roastLog.ts's default rows (20,000, seed 12)", async () => {
+    // The README runs it on shrinkwise.roast_log as `npx tsx test/clickhouse/roastLog.ts` loads it;
+    // here the same rows go into this file's own table.
+    const readmeTable = `${TABLE}_readme`;
+    await loadRoastLog(url, readmeTable, roastLog(20_000, 12));
+    const result = await json([
+      ...["--clickhouse", url, "--table", `shrinkwise.${readmeTable}`, "--target", "roast_loss", "--fold-column", "fold_label"],
+      ...["--weights-column", "lot_weight", "--exclude", "reading_id,batch_id", "--json"],
+    ]);
+    const c = result.coefficients;
+    // As the README states them: +0.030, −0.45, +0.004, +1.6, −1.2; minute and humidity near 0.
+    expect([c.drum_temp.toFixed(3), c.bean_moisture.toFixed(2), c.airflow.toFixed(3)]).toEqual(["0.030", "-0.45", "0.004"]);
+    expect([c["roast_level: dark"].toFixed(1), c["roast_level: light"].toFixed(1)]).toEqual(["1.6", "-1.2"]);
+    expect(Math.abs(result.standardizedCoefficients.minute)).toBeLessThan(0.01);
+    expect(Math.abs(result.standardizedCoefficients.ambient_humidity)).toBeLessThan(0.01);
+  });
+
   test("--print-sql prints the ClickHouse queries, first pass run on the server to fill in the second", async () => {
     const outcome = await runCommandAsync([...server(), "--target", "roast_loss", "--fold-column", "fold_label", "--print-sql"]);
     expect(outcome.exitCode).toBe(0);
