@@ -33,6 +33,11 @@
  * with a yes/no outcome drawn from the logistic model, fitted as penalized logistic regression on
  * the pinned workload; the numeric fit of the same predictors is timed beside it, `vsNumber`.
  *
+ * `--only sums` also times the sums table by DuckDB (bench/sumsDuckdb.ts): a seeded 10,000,000 × 20
+ * Parquet file in a temporary folder (removed afterwards), the sums' time as a ratio to a plain
+ * single-aggregate scan of the same columns (goal ≤ 3), and the process's peak memory at 1M and
+ * 10M rows (goal: independent of the rows).
+ *
  * Prints a table, then one JSON line per case.
  *
  * Usage: npm run bench [-- --only 1000x50,cells-1000x50] [-- --repeat 3] [-- --threads 1|auto]
@@ -51,6 +56,7 @@ import { EXACT_FIT_RATIO, strengthGrid } from "../engine/path";
 import { blockSums } from "../engine/problem";
 import { coefsThroughCells, nodeWorkerRunner, worksheetValues } from "./cellPath";
 import { makeData, makeTwoClass } from "./data";
+import { duckdbSumsBench } from "./sumsDuckdb";
 import { compileFloor, FloorRun, runFloor, writeFloorInput } from "./floor";
 
 type Kind = "number" | "two-class" | "cells";
@@ -438,6 +444,9 @@ async function main(): Promise<void> {
   const cellTable: string[][] = [["case", "cell path ms", "engine ms", "cells÷engine", "target"]];
   const twoTable: string[][] = [["case", "ms", "number ms", "vs number", "event share", "chosen mix", "strength", "CV deviance", "max KKT", "halvings", "target"]];
   const lines: string[] = [];
+  // The sums by DuckDB run in this process: its peak memory is the figure.
+  const duckdbSums = only?.has("sums") ? await duckdbSumsBench(repeat) : null;
+  if (duckdbSums) lines.push(...duckdbSums.lines);
   try {
     for (const c of chosen) {
       const report = await inChild(c, repeat, floorDir, floorBinary, c.kind === "cells" ? 1 : threads.used);
@@ -542,6 +551,7 @@ async function main(): Promise<void> {
   print(table);
   print(cellTable);
   print(twoTable);
+  if (duckdbSums) print(duckdbSums.table);
   console.log("");
   for (const line of lines) console.log(line);
 }
