@@ -2,7 +2,7 @@
  * The fit worker: runs the engine off the add-in's UI thread.
  *
  * Protocol (all messages are plain data; ids are chosen by the main side):
- *   in:  { type: "fit", id, request }        start a fit of `request` (a FitRequest)
+ *   in:  { type: "fit", id, request }        start a fit of `request` (an AnyFitRequest)
  *        { type: "cancel", id }              raise that fit's signal; it stops at the next
  *                                            checkpoint and answers with a "cancelled" error
  *   out: { type: "progress", id, done, total }  after each unit of work
@@ -18,7 +18,7 @@
  */
 import { fitAsync, FitOptions, FitResult } from "../engine/fit";
 import { CancelledError, InputError, InputErrorCode } from "../engine/errors";
-import type { FitRequest } from "./runner";
+import type { AnyFitRequest } from "./runner";
 import { browserTaskPool, pooledFit } from "./taskPool";
 
 /** An error as it crosses the worker boundary. */
@@ -30,7 +30,7 @@ export interface PlainError {
   message: string;
 }
 
-export type ToWorker = { type: "fit"; id: number; request: FitRequest } | { type: "cancel"; id: number };
+export type ToWorker = { type: "fit"; id: number; request: AnyFitRequest } | { type: "cancel"; id: number };
 
 export type FromWorker =
   | { type: "progress"; id: number; done: number; total: number }

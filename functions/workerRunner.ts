@@ -23,11 +23,12 @@ import type { FitResult } from "../engine/fit";
 import type { FromWorker, ToWorker } from "./fit.worker";
 import { fromPlainError } from "./fit.worker";
 import { InProcessRunner } from "./inProcessRunner";
-import type { CancelToken, FitProgress, FitRequest, FitRunner } from "./runner";
+import type { AnyFitRequest, CancelToken, FitProgress, FitRunner } from "./runner";
 
 /** The part of the DOM Worker this runner uses (a fake in tests). */
 export interface WorkerLike {
-  postMessage(message: ToWorker): void;
+  /** `transfer`: buffers whose ownership moves to the worker (no copy; detached here). */
+  postMessage(message: ToWorker, transfer?: ArrayBuffer[]): void;
   terminate(): void;
   onmessage: ((event: { data: FromWorker }) => void) | null;
   onerror: ((event: unknown) => void) | null;
@@ -44,7 +45,7 @@ export const DEFAULT_CANCEL_GRACE_MS = 2000;
 
 interface Job {
   id: number;
-  request: FitRequest;
+  request: AnyFitRequest;
   resolve: (result: FitResult) => void;
   reject: (error: unknown) => void;
   onProgress?: (progress: FitProgress) => void;
@@ -82,7 +83,7 @@ export class WorkerRunner implements FitRunner {
     this.fallback = options.fallback ?? new InProcessRunner();
   }
 
-  fit(request: FitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
+  fit(request: AnyFitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
     if (this.failedOver) return this.fallback.fit(request, cancel, onProgress);
     if (cancel?.cancelled) return Promise.reject(new CancelledError());
     return new Promise<FitResult>((resolve, reject) => {
@@ -121,7 +122,8 @@ export class WorkerRunner implements FitRunner {
   private post(job: Job): void {
     this.counters.posted++;
     try {
-      this.ensureWorker().postMessage({ type: "fit", id: job.id, request: job.request });
+      const { request, transfer } = wireRequest(job.request);
+      this.ensureWorker().postMessage({ type: "fit", id: job.id, request }, transfer);
     } catch (error) {
       // `new Worker` can throw (a security policy, a bad URL): the same as a worker failing.
       this.workerFailed(error);
@@ -194,6 +196,20 @@ export class WorkerRunner implements FitRunner {
     const detail = describeEvent(event);
     for (const job of jobs) job.reject(new Error(`the fit worker stopped unexpectedly${detail ? `: ${detail}` : ""}`));
   }
+}
+
+/**
+ * A request as it is posted. A packed request's matrix goes as a copy whose buffer is transferred,
+ * so the one block copy made here is the only one: a structured clone would copy it twice (into the
+ * message, then out of it in the worker). The request itself stays intact: the cache keeps its
+ * matrix as the key, and a fit is posted again, unchanged, when its worker is replaced. The rows
+ * form (small grids, and callers that build requests by hand) is cloned as before.
+ */
+export function wireRequest(request: AnyFitRequest): { request: AnyFitRequest; transfer: ArrayBuffer[] } {
+  const predictors = request.predictors;
+  if (Array.isArray(predictors)) return { request, transfer: [] };
+  const data = predictors.data.slice();
+  return { request: { ...request, predictors: { rows: predictors.rows, columns: predictors.columns, data } }, transfer: [data.buffer] };
 }
 
 function describeEvent(event: unknown): string {
