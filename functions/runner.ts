@@ -21,7 +21,7 @@ export interface FitRequest {
 }
 
 /**
- * The packed form of a request, which large grids use (functions/dataset.ts `requestPredictors`):
+ * The packed form of a request, which large grids use (functions/dataset.ts `datasetRequest`):
  * the same encoded predictors as one column-major matrix in a single Float64Array. It crosses to a
  * worker as one block copy instead of an array per row, and the cache keys it without a copy.
  * The engine's result, and the cache entry, are the same as for the rows form of the same numbers.
