@@ -427,9 +427,8 @@ interface ColumnScan {
   firstDate: number;
 }
 
-/** `numberAt` (optional): a plain number's value, else NaN (CellGrid.numberAt), read before `cellAt`. */
-function scanColumn(cellAt: (i: number) => Cell, from: number, to: number, numberAt?: (i: number) => number): ColumnScan {
-  const scan: ColumnScan = {
+function emptyScan(): ColumnScan {
+  return {
     numbers: 0,
     texts: 0,
     numericTexts: 0,
@@ -441,35 +440,52 @@ function scanColumn(cellAt: (i: number) => Cell, from: number, to: number, numbe
     firstOtherText: -1,
     firstDate: -1,
   };
-  for (let i = from; i < to; i++) {
-    if (numberAt && !Number.isNaN(numberAt(i))) {
-      scan.numbers++;
-      if (scan.firstNumber < 0) scan.firstNumber = i;
-      continue;
-    }
-    const c = cellAt(i);
-    if (isNumeric(c)) {
-      scan.numbers++;
-      if (scan.firstNumber < 0) scan.firstNumber = i;
-      continue;
-    }
-    if (c.kind !== "text") continue;
-    scan.texts++;
-    const reading = readNumberText(c.value);
-    if (reading.kind === "number") {
-      scan.numericTexts++;
-      if (scan.firstNumericText < 0) scan.firstNumericText = i;
-      if (reading.grouped && scan.firstGrouped < 0) scan.firstGrouped = i;
-      continue;
-    }
-    if (scan.firstOtherText < 0) scan.firstOtherText = i;
-    if (reading.kind === "foreign" || reading.kind === "too-large") scan.foreignTexts++;
-    if (reading.kind === "date") {
-      scan.dateTexts++;
-      if (scan.firstDate < 0) scan.firstDate = i;
+}
+
+/** Counts cell `c` of row `i` into `scan`. */
+function scanCell(scan: ColumnScan, c: Cell, i: number): void {
+  if (isNumeric(c)) {
+    scan.numbers++;
+    if (scan.firstNumber < 0) scan.firstNumber = i;
+    return;
+  }
+  if (c.kind !== "text") return;
+  scan.texts++;
+  const reading = readNumberText(c.value);
+  if (reading.kind === "number") {
+    scan.numericTexts++;
+    if (scan.firstNumericText < 0) scan.firstNumericText = i;
+    if (reading.grouped && scan.firstGrouped < 0) scan.firstGrouped = i;
+    return;
+  }
+  if (scan.firstOtherText < 0) scan.firstOtherText = i;
+  if (reading.kind === "foreign" || reading.kind === "too-large") scan.foreignTexts++;
+  if (reading.kind === "date") {
+    scan.dateTexts++;
+    if (scan.firstDate < 0) scan.firstDate = i;
+  }
+}
+
+/**
+ * The scans of every column of `cells` over rows `from` on, in one pass row by row (each row of
+ * a worksheet range is an array of its own, so one pass over them beats one per column). A plain
+ * number is counted without a Cell.
+ */
+function scanColumns(cells: CellGrid, from: number): ColumnScan[] {
+  const scans: ColumnScan[] = [];
+  for (let j = 0; j < cells.width; j++) scans.push(emptyScan());
+  for (let i = from; i < cells.rows; i++) {
+    for (let j = 0; j < cells.width; j++) {
+      const scan = scans[j];
+      if (!Number.isNaN(cells.numberAt(i, j))) {
+        scan.numbers++;
+        if (scan.firstNumber < 0) scan.firstNumber = i;
+        continue;
+      }
+      scanCell(scan, cells.at(i, j), i);
     }
   }
-  return scan;
+  return scans;
 }
 
 /**
@@ -680,9 +696,10 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   // Column kinds.
   const kinds: ("number" | "text" | "labels")[] = [];
   let numericFoldLabels = false;
+  const scans = scanColumns(cells, h);
   for (let j = 0; j < width; j++) {
     const cellAt = (i: number): Cell => cells.at(i, j);
-    const scan = scanColumn(cellAt, h, cells.rows, (i) => cells.numberAt(i, j));
+    const scan = scans[j];
     const label = j === foldIndex ? "fold column" : j === weightsIndex ? "weights column" : "predictors column";
     if (scan.numbers === 0 && scan.texts === 0) {
       throw new DataError(`${label} '${names[j]}' has no values (only blank or error cells): fill it in or leave it out of predictors`);
@@ -733,7 +750,7 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   // and error cells skip the row. The kind is decided over every data row, so a third class in a
   // skipped row is still caught; the event and the 0/1 coding come from the rows used (below).
   const targetAt = (i: number): Cell => targetCells.at(i, 0);
-  const targetScan = scanColumn(targetAt, targetStart, targetStart + dataRows, (i) => targetCells.numberAt(i, 0));
+  const targetScan = scanColumns(targetCells, targetStart)[0];
   // readOutcome quotes a name it is given; an unnamed target is "the target" in its messages.
   const outcomeName = targetName === "target" ? undefined : targetName;
   const outcome = targetKind(targetCells, targetStart, dataRows, targetScan, settings, outcomeName);
