@@ -74,6 +74,8 @@ export class WorkerRunner implements FitRunner {
   /** Cancelled fits still running in the current worker → their backstop timers. */
   private readonly stopping = new Map<number, ReturnType<typeof setTimeout>>();
   private counters = { started: 0, replaced: 0, posted: 0 };
+  /** A packed request's buffer handed back by the worker, reused for the next copy of the same size. */
+  private spare: ArrayBuffer | null = null;
 
   constructor(
     private readonly createWorker: () => WorkerLike,
@@ -98,6 +100,7 @@ export class WorkerRunner implements FitRunner {
   dispose(): void {
     for (const job of this.jobs.values()) job.reject(new CancelledError());
     this.jobs.clear();
+    this.spare = null;
     this.stopWorker();
   }
 
@@ -122,7 +125,8 @@ export class WorkerRunner implements FitRunner {
   private post(job: Job): void {
     this.counters.posted++;
     try {
-      const { request, transfer } = wireRequest(job.request);
+      const { request, transfer, reusedSpare } = wireRequest(job.request, this.spare);
+      if (reusedSpare) this.spare = null;
       this.ensureWorker().postMessage({ type: "fit", id: job.id, request }, transfer);
     } catch (error) {
       // `new Worker` can throw (a security policy, a bad URL): the same as a worker failing.
@@ -138,6 +142,7 @@ export class WorkerRunner implements FitRunner {
       return;
     }
     // A result or an error ends the fit in the worker.
+    if (message.spare) this.spare = message.spare;
     const timer = this.stopping.get(message.id);
     if (timer !== undefined) {
       clearTimeout(timer);
@@ -201,15 +206,27 @@ export class WorkerRunner implements FitRunner {
 /**
  * A request as it is posted. A packed request's matrix goes as a copy whose buffer is transferred,
  * so the one block copy made here is the only one: a structured clone would copy it twice (into the
- * message, then out of it in the worker). The request itself stays intact: the cache keeps its
- * matrix as the key, and a fit is posted again, unchanged, when its worker is replaced. The rows
- * form (small grids, and callers that build requests by hand) is cloned as before.
+ * message, then out of it in the worker). The copy is written into `spare` (a buffer the worker
+ * handed back, fit.worker.ts) when it is the right size, so a recalculation of a same-sized grid
+ * needs no fresh memory for it. The request itself stays intact: the cache keeps its matrix as
+ * the key, and a fit is posted again, unchanged, when its worker is replaced. The rows form (small
+ * grids, and callers that build requests by hand) is cloned as before.
  */
-export function wireRequest(request: AnyFitRequest): { request: AnyFitRequest; transfer: ArrayBuffer[] } {
+export function wireRequest(
+  request: AnyFitRequest,
+  spare: ArrayBuffer | null = null,
+): { request: AnyFitRequest; transfer: ArrayBuffer[]; reusedSpare: boolean } {
   const predictors = request.predictors;
-  if (Array.isArray(predictors)) return { request, transfer: [] };
-  const data = predictors.data.slice();
-  return { request: { ...request, predictors: { rows: predictors.rows, columns: predictors.columns, data } }, transfer: [data.buffer] };
+  if (Array.isArray(predictors)) return { request, transfer: [], reusedSpare: false };
+  const reusedSpare = spare !== null && spare.byteLength === predictors.data.byteLength;
+  let data: Float64Array;
+  if (reusedSpare) {
+    data = new Float64Array(spare as ArrayBuffer);
+    data.set(predictors.data);
+  } else {
+    data = predictors.data.slice();
+  }
+  return { request: { ...request, predictors: { rows: predictors.rows, columns: predictors.columns, data } }, transfer: [data.buffer as ArrayBuffer], reusedSpare };
 }
 
 function describeEvent(event: unknown): string {

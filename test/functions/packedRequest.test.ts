@@ -14,7 +14,8 @@ import { fromRows } from "../../engine/matrix";
 import { mulberry32 } from "../../engine/random";
 import { FitCache, murmur3Words, requestHash } from "../../functions/cache";
 import type { AnyFitRequest, CancelToken, FitProgress, FitRunner, PackedFitRequest } from "../../functions/runner";
-import { wireRequest } from "../../functions/workerRunner";
+import { createFitHandler, FromWorker, ToWorker } from "../../functions/fit.worker";
+import { WorkerLike, WorkerRunner, wireRequest } from "../../functions/workerRunner";
 
 /** Records requests; every fit resolves with a tag so tests can tell runs apart. */
 class RecordingRunner implements FitRunner {
@@ -142,5 +143,72 @@ describe("the packed wire form", () => {
     const received = structuredClone(wire, { transfer });
     const options = { mixes: [0, 0.5, 1], folds: 4, seed: 3 };
     expect(fit(received.predictors, received.target, options)).toStrictEqual(fit(plain.predictors, plain.target, options));
+  });
+});
+
+describe("the packed request's buffer goes back to the main side", () => {
+  /** A worker on this thread: messages cross by structured clone with their transfer lists, as on a real port. */
+  class CloningWorker implements WorkerLike {
+    onmessage: ((event: { data: FromWorker }) => void) | null = null;
+    onerror: ((event: unknown) => void) | null = null;
+    /** What each fit message carried, read when it arrived (the buffer is handed back later). */
+    readonly receivedData: number[][] = [];
+    readonly handle = createFitHandler((message, transfer) => {
+      const copy = structuredClone(message, { transfer: transfer ?? [] });
+      setImmediate(() => this.onmessage?.({ data: copy }));
+    });
+    postMessage(message: ToWorker, transfer?: ArrayBuffer[]): void {
+      const copy = structuredClone(message, { transfer: transfer ?? [] });
+      if (copy.type === "fit" && !Array.isArray(copy.request.predictors)) this.receivedData.push(Array.from(copy.request.predictors.data));
+      setImmediate(() => this.handle(copy));
+    }
+    terminate(): void {}
+  }
+
+  test("the worker hands the buffer back with its answer, and the next same-sized request is copied into it", async () => {
+    const worker = new CloningWorker();
+    const runner = new WorkerRunner(() => worker);
+    const options = { mixes: [1], folds: 3, seed: 1, strengthCount: 8 };
+    const first = { ...packed(rowsRequest(6, 40, 3)), options };
+    const second = { ...packed(rowsRequest(7, 40, 3)), options };
+    const spareOf = (): ArrayBuffer | null => (runner as unknown as { spare: ArrayBuffer | null }).spare;
+    expect(spareOf()).toBeNull();
+    const a = await runner.fit(first);
+    // The first answer brought the buffer back.
+    expect(spareOf()?.byteLength).toBe(960);
+    const pending = runner.fit(second);
+    // Posting the second request used it up (the copy went into it, and it went out again)...
+    expect(spareOf()).toBeNull();
+    const b = await pending;
+    // ...and the second answer brought it back once more.
+    expect(spareOf()?.byteLength).toBe(960);
+    expect(a).toStrictEqual(fit(first.predictors, first.target, options));
+    expect(b).toStrictEqual(fit(second.predictors, second.target, options));
+    expect(worker.receivedData).toEqual([Array.from(first.predictors.data), Array.from(second.predictors.data)]);
+    // The requests themselves are untouched (the cache keeps them as keys).
+    expect(first.predictors.data.length).toBe(120);
+    expect(second.predictors.data.length).toBe(120);
+  });
+
+  test("rows requests get no spare; a spare of another size is not used", () => {
+    const handlerPosts: { message: FromWorker; transfer?: ArrayBuffer[] }[] = [];
+    const handle = createFitHandler(
+      (message, transfer) => handlerPosts.push({ message, transfer }),
+      () => Promise.resolve({} as FitResult),
+    );
+    handle({ type: "fit", id: 1, request: rowsRequest(8) });
+    return new Promise<void>((resolve) => setImmediate(resolve)).then(() => {
+      expect(handlerPosts[0].message).toEqual({ type: "result", id: 1, result: {} });
+      expect(handlerPosts[0].transfer).toBeUndefined();
+      const request = packed(rowsRequest(9, 10, 2));
+      const wrongSize = new ArrayBuffer(8);
+      const { reusedSpare, transfer } = wireRequest(request, wrongSize);
+      expect(reusedSpare).toBe(false);
+      expect(transfer[0]).not.toBe(wrongSize);
+      const rightSize = new ArrayBuffer(160);
+      const reused = wireRequest(request, rightSize);
+      expect(reused.reusedSpare).toBe(true);
+      expect(reused.transfer[0]).toBe(rightSize);
+    });
   });
 });
