@@ -488,6 +488,40 @@ function scanCell(scan: ColumnScan, c: Cell, i: number): void {
   }
 }
 
+/** The scans of `width` columns whose `count` data cells from row `from` on are all plain numbers. */
+function plainScans(width: number, from: number, count: number): ColumnScan[] {
+  const scans: ColumnScan[] = [];
+  for (let j = 0; j < width; j++) {
+    const scan = emptyScan();
+    scan.numbers = count;
+    scan.firstNumber = count > 0 ? from : -1;
+    scans.push(scan);
+  }
+  return scans;
+}
+
+/**
+ * The `count` data rows of predictors (from row `from`) as a column-major matrix, with the target's
+ * rows (from `targetFrom`) checked alongside, when every one of those cells is a plain number
+ * (isPlain); null at the first cell that is not.
+ */
+function plainBlock(cells: CellGrid, target: CellGrid, from: number, targetFrom: number, count: number): Float64Array | null {
+  const width = cells.width;
+  const data = new Float64Array(count * width);
+  for (let d = 0; d < count; d++) {
+    if (Number.isNaN(target.numberAt(targetFrom + d, 0))) return null;
+    const i = from + d;
+    const row = cells.rawRow(i);
+    const zeros = cells.zerosBlankAt(i);
+    for (let j = 0; j < width; j++) {
+      const v = row[j];
+      if (!isPlain(v, zeros, j)) return null;
+      data[j * count + d] = v;
+    }
+  }
+  return data;
+}
+
 /**
  * The scans of every column of `cells` over rows `from` on, in one pass row by row (each row of
  * a worksheet range is an array of its own, so one pass over them beats one per column). A plain
@@ -729,10 +763,15 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   cells.blankZeros(zeroColumns, h);
   if (zeroTarget) targetCells.blankZeros(new Set([0]), targetStart);
 
+  // The usual grid: every data cell of predictors and target a plain number, and no fold or
+  // weights column. Its matrix is copied in this one pass; the scans, the column kinds and the rows
+  // used follow from that without another pass (every column reads as numbers, every row is used).
+  const block = foldIndex === null && weightsIndex === null ? plainBlock(cells, targetCells, h, targetStart, dataRows) : null;
+
   // Column kinds.
   const kinds: ("number" | "text" | "labels")[] = [];
   let numericFoldLabels = false;
-  const scans = scanColumns(cells, h);
+  const scans = block ? plainScans(width, h, dataRows) : scanColumns(cells, h);
   for (let j = 0; j < width; j++) {
     const cellAt = (i: number): Cell => cells.at(i, j);
     const scan = scans[j];
@@ -786,7 +825,7 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   // and error cells skip the row. The kind is decided over every data row, so a third class in a
   // skipped row is still caught; the event and the 0/1 coding come from the rows used (below).
   const targetAt = (i: number): Cell => targetCells.at(i, 0);
-  const targetScan = scanColumns(targetCells, targetStart)[0];
+  const targetScan = block ? plainScans(1, targetStart, dataRows)[0] : scanColumns(targetCells, targetStart)[0];
   // readOutcome quotes a name it is given; an unnamed target is "the target" in its messages.
   const outcomeName = targetName === "target" ? undefined : targetName;
   const outcome = targetKind(targetCells, targetStart, dataRows, targetScan, settings, outcomeName);
@@ -796,7 +835,8 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   const used: number[] = [];
   let skipped = 0;
   let firstSkip: string | null = null;
-  for (let d = 0; d < dataRows; d++) {
+  for (let d = 0; block && d < dataRows; d++) used.push(d);
+  for (let d = 0; !block && d < dataRows; d++) {
     const i = h + d;
     let allBlank = false;
     let reason: string | null = null;
@@ -979,7 +1019,8 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   // request's), through one reused row buffer.
   const n = used.length;
   const p = terms.length;
-  const data = new Float64Array(n * p);
+  if (block && (n !== dataRows || p !== width)) throw new Error("a grid of plain numbers was encoded to another shape");
+  const data = block ?? new Float64Array(n * p);
   const values = new Array<number>(p);
   const target: number[] = [];
   let zeroRows = 0;
@@ -991,6 +1032,7 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
     // Rows of plain numbers in number columns (the usual grid) are copied without a Cell (row by
     // row: measured as quick as copying in blocks of rows); any other row is encoded cell by cell.
     let plain = allNumbers;
+    if (block) plain = false; // copied already
     const row = cells.rawRow(i);
     const zeros = cells.zerosBlankAt(i);
     for (let k = 0; plain && k < p; k++) {
@@ -998,7 +1040,7 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
       if (isPlain(v, zeros, positions[k])) data[k * n + r] = v;
       else plain = false;
     }
-    if (!plain) {
+    if (!plain && !block) {
       encodeInto(
         encoder,
         (column) => cells.at(i, column.position),
