@@ -42,6 +42,8 @@ const TYPES: Record<string, string> = {
   ".png": "image/png",
   ".css": "text/css; charset=utf-8",
   ".map": "application/json; charset=utf-8",
+  // DuckDB's WebAssembly (Fit from a file): browsers compile a streamed module only with this type.
+  ".wasm": "application/wasm",
 };
 
 export interface StaticServer {
