@@ -26,7 +26,9 @@ export type InputErrorCode =
   | "multipliers"
   | "setting"
   | "no-predictors"
-  | "out-of-range";
+  | "out-of-range"
+  /** A sums table (sums.ts) that can't be read: wrong format or version, missing or inconsistent entries. */
+  | "sums";
 
 export class InputError extends Error {
   readonly code: InputErrorCode;

@@ -376,7 +376,7 @@ export const MAX_GRAM_PREDICTORS = 2000;
  * (scale.ts). Rows with weight 0 are stored as 0 in x and y: they take no part in any sum,
  * and an extreme value there can't overflow one. Bounds are moved to the working units too.
  */
-interface Prepared {
+export interface Prepared {
   x: ColumnMatrix;
   y: Float64Array;
   weights: Float64Array | null;
@@ -405,6 +405,12 @@ interface Prepared {
   covariance: boolean;
   /** Two-class: the probability at or above which a row counts as the event. */
   cutoff: number;
+  /**
+   * Fits from a sums table (fitSums.ts): the rows are absent (x and y hold none) and the whole
+   * data's sums, about the shifts, stand in for them wherever the fit would read rows (the
+   * in-sample score). Null when fitting rows.
+   */
+  totalSums: { sums: BlockSums; shiftX: Float64Array; shiftY: number } | null;
 }
 
 function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target: ArrayLike<number>, options: FitOptions): Prepared {
@@ -418,6 +424,77 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
   const twoClass = options.outcome === "two-class";
   const cutoff = twoClass ? checkCutoff(options.cutoff) : 0.5;
   if (twoClass) checkClasses(y, weights);
+  const { intercept, standardize, multipliers, lower, upper, mixes, lowEndRatio, strengthCount, tolerance, maxSweeps, updates } = checkSettings(options, n, p, names);
+  // Two-class fits always keep the rows: the quadratic's weights change at every step.
+  const covarianceForm = updates === "gram" || (updates === "auto" && n >= p && p <= 500);
+  const gram = !twoClass && covarianceForm;
+  // Checkpoints between the O(n·p) passes over the input (checks, working copy).
+  throwIfCancelled(options.signal);
+  const work = workingCopy(x, y, weights, !twoClass);
+  throwIfCancelled(options.signal);
+  // Constant target (the rule problem.ts applies to columns): nothing to predict.
+  const omega = new Float64Array(n);
+  let total = 0;
+  for (let i = 0; i < n; i++) total += work.weights ? work.weights[i] : 1;
+  for (let i = 0; i < n; i++) omega[i] = (work.weights ? work.weights[i] : 1) / total;
+  const centre = intercept ? stableMean(work.y, omega, n) : 0;
+  let meanSquare = 0;
+  let largest = 0;
+  for (let i = 0; i < n; i++) {
+    meanSquare += omega[i] * (work.y[i] - centre) * (work.y[i] - centre);
+    if (omega[i] > 0) largest = Math.max(largest, Math.abs(work.y[i]));
+  }
+  if (!twoClass && (!(meanSquare > 0) || !(Math.sqrt(meanSquare) > CONSTANT_SPREAD_RATIO * largest))) {
+    let first = 0;
+    while (weights && !(weights[first] > 0)) first++;
+    throw new InputError("constant-target", `the target has the same value (${y[first]}) in every row: there is nothing to predict`);
+  }
+  if (!standardize) checkOwnUnits(work.xExponent, names);
+  const { workLower, workUpper } = workingBounds(lower, upper, work.xExponent, work.yExponent);
+  return {
+    x: work.x,
+    y: work.y,
+    weights: work.weights,
+    original: { x, y, weights },
+    xExponent: work.xExponent,
+    yExponent: work.yExponent,
+    names: names ?? Array.from({ length: p }, (_, j) => `x${j + 1}`),
+    multipliers,
+    lower: workLower,
+    upper: workUpper,
+    bounded: lower.some(Number.isFinite) || upper.some(Number.isFinite),
+    mixes,
+    intercept,
+    standardize,
+    gram,
+    strengthCount,
+    lowEndRatio,
+    settings: { tolerance, maxSweeps, exactRidge: options.exactRidge ?? true, signal: options.signal },
+    stopEarly: options.stopEarly ?? false,
+    outcome: twoClass ? "two-class" : "number",
+    covariance: twoClass && covarianceForm,
+    cutoff,
+    totalSums: null,
+  };
+}
+
+/** The checked settings of a fit of `n` rows and `p` predictors (shared by row and sums fits: fitSums.ts). */
+export interface CheckedSettings {
+  intercept: boolean;
+  standardize: boolean;
+  multipliers: Float64Array;
+  /** Bounds as given, in the data's units. */
+  lower: Float64Array;
+  upper: Float64Array;
+  mixes: number[];
+  lowEndRatio: number;
+  strengthCount: number;
+  tolerance: number;
+  maxSweeps: number;
+  updates: UpdateScheme;
+}
+
+export function checkSettings(options: FitOptions, n: number, p: number, names: string[] | undefined): CheckedSettings {
   const intercept = options.intercept ?? true;
   const standardize = options.standardize ?? true;
   const multipliers = options.penaltyMultipliers
@@ -476,73 +553,35 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
   if (updates === "gram" && p > MAX_GRAM_PREDICTORS) {
     throw new InputError("setting", `gram updates keep a ${p} × ${p} matrix per fold; they are limited to ${MAX_GRAM_PREDICTORS} predictors: use residual updates`);
   }
-  // Two-class fits always keep the rows: the quadratic's weights change at every step.
-  const covarianceForm = updates === "gram" || (updates === "auto" && n >= p && p <= 500);
-  const gram = !twoClass && covarianceForm;
-  // Checkpoints between the O(n·p) passes over the input (checks, working copy).
-  throwIfCancelled(options.signal);
-  const work = workingCopy(x, y, weights, !twoClass);
-  throwIfCancelled(options.signal);
-  // Constant target (the rule problem.ts applies to columns): nothing to predict.
-  const omega = new Float64Array(n);
-  let total = 0;
-  for (let i = 0; i < n; i++) total += work.weights ? work.weights[i] : 1;
-  for (let i = 0; i < n; i++) omega[i] = (work.weights ? work.weights[i] : 1) / total;
-  const centre = intercept ? stableMean(work.y, omega, n) : 0;
-  let meanSquare = 0;
-  let largest = 0;
-  for (let i = 0; i < n; i++) {
-    meanSquare += omega[i] * (work.y[i] - centre) * (work.y[i] - centre);
-    if (omega[i] > 0) largest = Math.max(largest, Math.abs(work.y[i]));
-  }
-  if (!twoClass && (!(meanSquare > 0) || !(Math.sqrt(meanSquare) > CONSTANT_SPREAD_RATIO * largest))) {
-    let first = 0;
-    while (weights && !(weights[first] > 0)) first++;
-    throw new InputError("constant-target", `the target has the same value (${y[first]}) in every row: there is nothing to predict`);
-  }
-  if (!standardize) {
-    // Unstandardized columns are penalized in their own units: beyond about 1e±135 their
-    // Gram matrix would overflow or underflow (standardized columns have no such limit).
-    for (let j = 0; j < p; j++) {
-      if (Math.abs(work.xExponent[j]) > 450) {
-        const size = work.xExponent[j] < 0 ? "too large (beyond 1e135)" : "too small (below 1e-135)";
-        throw new InputError(
-          "out-of-range",
-          `with standardization off, predictor ${describeColumn(names, j)} is penalized in its own units, and its values are ${size} for that: standardize the predictors, or record it in other units`,
-        );
-      }
+  return { intercept, standardize, multipliers, lower, upper, mixes, lowEndRatio, strengthCount, tolerance, maxSweeps, updates };
+}
+
+/**
+ * Unstandardized columns are penalized in their own units: beyond about 1e±135 their Gram matrix
+ * would overflow or underflow (standardized columns have no such limit).
+ */
+export function checkOwnUnits(xExponent: Int32Array, names: readonly string[] | undefined): void {
+  for (let j = 0; j < xExponent.length; j++) {
+    if (Math.abs(xExponent[j]) > 450) {
+      const size = xExponent[j] < 0 ? "too large (beyond 1e135)" : "too small (below 1e-135)";
+      throw new InputError(
+        "out-of-range",
+        `with standardization off, predictor ${describeColumn(names, j)} is penalized in its own units, and its values are ${size} for that: standardize the predictors, or record it in other units`,
+      );
     }
   }
+}
+
+/** Bounds moved to the working copy's units: b × 2^(yExponent − xExponent[j]). */
+export function workingBounds(lower: Float64Array, upper: Float64Array, xExponent: Int32Array, yExponent: number): { workLower: Float64Array; workUpper: Float64Array } {
+  const p = lower.length;
   const workLower = new Float64Array(p);
   const workUpper = new Float64Array(p);
   for (let j = 0; j < p; j++) {
-    workLower[j] = scaleByPowerOfTwo(lower[j], work.yExponent - work.xExponent[j]);
-    workUpper[j] = scaleByPowerOfTwo(upper[j], work.yExponent - work.xExponent[j]);
+    workLower[j] = scaleByPowerOfTwo(lower[j], yExponent - xExponent[j]);
+    workUpper[j] = scaleByPowerOfTwo(upper[j], yExponent - xExponent[j]);
   }
-  return {
-    x: work.x,
-    y: work.y,
-    weights: work.weights,
-    original: { x, y, weights },
-    xExponent: work.xExponent,
-    yExponent: work.yExponent,
-    names: names ?? Array.from({ length: p }, (_, j) => `x${j + 1}`),
-    multipliers,
-    lower: workLower,
-    upper: workUpper,
-    bounded: lower.some(Number.isFinite) || upper.some(Number.isFinite),
-    mixes,
-    intercept,
-    standardize,
-    gram,
-    strengthCount,
-    lowEndRatio,
-    settings: { tolerance, maxSweeps, exactRidge: options.exactRidge ?? true, signal: options.signal },
-    stopEarly: options.stopEarly ?? false,
-    outcome: twoClass ? "two-class" : "number",
-    covariance: twoClass && covarianceForm,
-    cutoff,
-  };
+  return { workLower, workUpper };
 }
 
 /** The two-class cutoff: default 0.5, strictly between 0 and 1. */
@@ -697,12 +736,14 @@ function coefficientInDataUnits(data: Prepared, j: number, value: number): numbe
  * built when first asked for and kept, so a pooled fit's coordinator, which solves no fold itself,
  * never copies them.
  */
-interface Problems {
+export interface Problems {
   full: TrainingProblem;
   /** Fold f's training problem. */
   fold: (f: number) => TrainingProblem;
   /** Held-out block sums (gram form), for squared error without touching the rows. */
   heldOutSums: BlockSums[] | null;
+  /** Each fold's held-out weight when there are no rows to add it up from (a fit from sums: fitSums.ts). */
+  heldOutWeights?: number[] | null;
   shiftX: Float64Array;
   shiftY: number;
 }
@@ -744,14 +785,29 @@ function buildProblems(data: Prepared, plan: FoldPlan | null): Problems {
     const sums = blockSums(x, y, weights, all, shiftX, shiftY, signal);
     return { full: problemFromSums(sums, shiftX, shiftY, options), fold: noFolds, heldOutSums: null, shiftX, shiftY };
   }
-  // One pass: every block's sums; the total is their sum; a fold's training sums are the
-  // sum of its training blocks (total minus its own block when it trains on all the rest).
+  // One pass: every block's sums, then the problems from them.
   const sums = blockSumsOf(x, y, weights, plan.blocks, shiftX, shiftY, signal);
-  const total = emptySums(x.columns);
+  return problemsFromBlockSums(sums, plan, shiftX, shiftY, options);
+}
+
+/**
+ * Gram-form problems from every block's sums about the shifts: the total is their sum; a fold's
+ * training sums are the sum of its training blocks (total minus its own block when it trains on
+ * all the rest). Cost O(blocks·p²). Shared by the rows' one pass and a sums table (fitSums.ts).
+ */
+export function problemsFromBlockSums(
+  sums: BlockSums[],
+  plan: FoldPlan,
+  shiftX: Float64Array,
+  shiftY: number,
+  options: { intercept: boolean; standardize: boolean; columnUnits: Float64Array },
+): Problems {
+  const p = shiftX.length;
+  const total = emptySums(p);
   for (const s of sums) accumulateSums(total, s, 1);
   const full = problemFromSums(total, shiftX, shiftY, options);
   const folds = plan.trainBlocks.map((blocks, k) => {
-    const training = emptySums(x.columns);
+    const training = emptySums(p);
     if (blocks.length === plan.blocks.length - 1) {
       accumulateSums(training, total, 1);
       accumulateSums(training, sums[plan.validateBlock[k]], -1);
@@ -791,7 +847,7 @@ function makeDeal(data: Prepared, plan: FoldPlan, problems: Problems): Deal {
   return {
     plan,
     problems,
-    foldWeights: plan.validateBlock.map((b) => {
+    foldWeights: problems.heldOutWeights ?? plan.validateBlock.map((b) => {
       let s = 0;
       for (const i of plan.blocks[b]) s += data.weights ? data.weights[i] : 1;
       return s;
@@ -877,33 +933,11 @@ function foldErrors(
   const p = problem.p;
   const std = problem.std;
   if (sums && measure === "mse") {
-    // Σw(y' − c − bᵀx')² expanded over the block's sums (x' = x − shift, y' = y − shift):
-    // yy − 2c·Σy' − 2bᵀxy + c²W + 2c·bᵀΣx' + bᵀ xx b. Cost O(nonzero²) per point.
-    // c = b0 − shiftY + bᵀshiftX, formed from the centres' parts relative to the shifts (the fold's
-    // anchors are these shifts), never from b0 itself, which a large offset would make imprecise.
     const nz = new Int32Array(p);
     for (let k = 0; k < run.strengths.length; k++) {
       throwIfCancelled(data.settings.signal);
       const { coefficients } = toOriginal(problem, run.coefficients[k]);
-      let c = std.yAnchor - shiftY + std.yOffset;
-      let count = 0;
-      for (let j = 0; j < p; j++) {
-        if (coefficients[j] !== 0) {
-          nz[count++] = j;
-          c -= coefficients[j] * (std.xAnchor[j] - shiftX[j] + std.xOffset[j]);
-        }
-      }
-      let sse = sums.yy - 2 * c * sums.sumY + c * c * sums.weight;
-      for (let a = 0; a < count; a++) {
-        const j = nz[a];
-        const bj = coefficients[j];
-        sse += -2 * bj * sums.xy[j] + 2 * c * bj * sums.sumX[j];
-        let quad = 0;
-        const off = j * p;
-        for (let b = 0; b < count; b++) quad += sums.xx[off + nz[b]] * coefficients[nz[b]];
-        sse += bj * quad;
-      }
-      errors[k] = Math.max(sse, 0) / sums.weight;
+      errors[k] = Math.max(squaredErrorOfSums(sums, std, coefficients, shiftX, shiftY, nz).sse, 0) / sums.weight;
     }
     return errors;
   }
@@ -932,6 +966,67 @@ function foldErrors(
     errors[k] = loss / held.totalWeight;
   }
   return errors;
+}
+
+/**
+ * Σw(y − ŷ)² and Σw(y − ŷ) of the rows behind `sums` for the model with working coefficients
+ * `coefficients` and the centres of `std`, from the sums alone. Over the block's sums (x' = x − shift,
+ * y' = y − shift) with residual y' − c − bᵀx':
+ * SSE = yy − 2c·Σy' − 2bᵀxy + c²W + 2c·bᵀΣx' + bᵀ xx b, and the residuals' sum Σy' − cW − bᵀΣx'.
+ * c = b0 − shiftY + bᵀshiftX, formed from the centres' parts relative to the shifts (a fold's
+ * anchors are these shifts), never from b0 itself, which a large offset would make imprecise.
+ * `nz` is scratch space of p entries. Cost O(nonzero²).
+ */
+function squaredErrorOfSums(
+  sums: BlockSums,
+  std: Standardization,
+  coefficients: Float64Array,
+  shiftX: Float64Array,
+  shiftY: number,
+  nz: Int32Array,
+): { sse: number; residualSum: number } {
+  const p = sums.p;
+  let c = std.yAnchor - shiftY + std.yOffset;
+  let count = 0;
+  for (let j = 0; j < p; j++) {
+    if (coefficients[j] !== 0) {
+      nz[count++] = j;
+      c -= coefficients[j] * (std.xAnchor[j] - shiftX[j] + std.xOffset[j]);
+    }
+  }
+  let sse = sums.yy - 2 * c * sums.sumY + c * c * sums.weight;
+  let residualSum = sums.sumY - c * sums.weight;
+  for (let a = 0; a < count; a++) {
+    const j = nz[a];
+    const bj = coefficients[j];
+    sse += -2 * bj * sums.xy[j] + 2 * c * bj * sums.sumX[j];
+    residualSum -= bj * sums.sumX[j];
+    let quad = 0;
+    const off = j * p;
+    for (let b = 0; b < count; b++) quad += sums.xx[off + nz[b]] * coefficients[nz[b]];
+    sse += bj * quad;
+  }
+  return { sse, residualSum };
+}
+
+/**
+ * The in-sample score of a fit from sums (Prepared.totalSums), in the target's units: RMSE, R² and
+ * bias from the whole data's sums (squaredErrorOfSums); the MAE needs the rows and is NaN; count is
+ * the rows the sums cover. R² is 1 − SSE / Σw(y − ȳ)², as score() computes it from rows.
+ */
+function scoreOfSums(data: Prepared, full: TrainingProblem, coefficients: Float64Array): Score {
+  const total = data.totalSums as NonNullable<Prepared["totalSums"]>;
+  const sums = total.sums;
+  const { sse, residualSum } = squaredErrorOfSums(sums, full.std, coefficients, total.shiftX, total.shiftY, new Int32Array(full.p));
+  const spread = sums.yy - (sums.sumY * sums.sumY) / sums.weight;
+  const inTargetUnits = (value: number): number => scaleByPowerOfTwo(value, -data.yExponent);
+  return {
+    mae: NaN,
+    rmse: inTargetUnits(Math.sqrt(Math.max(sse, 0) / sums.weight)),
+    r2: spread > 0 ? 1 - Math.max(sse, 0) / spread : NaN,
+    bias: inTargetUnits(-residualSum / sums.weight) || 0,
+    count: sums.rows,
+  };
 }
 
 /** Held-out errors of an exact ridge path, predicted through the eigendecomposition. */
@@ -1081,7 +1176,11 @@ export function* fitSteps(
   target: ArrayLike<number>,
   options: FitOptions = {},
 ): Generator<void, FitResult, void> {
-  const plan = fitPlan(predictors, target, options);
+  return yield* runPlan(fitPlan(predictors, target, options), options);
+}
+
+/** Runs a fit's plan in this thread (fitSteps; fitSums.ts): yields after each unit of work. */
+export function* runPlan(plan: FitPlan, options: FitOptions): Generator<void, FitResult, void> {
   for (;;) {
     const step = plan.next();
     if (step.done) return step.value;
@@ -1131,7 +1230,7 @@ interface TaskBatch {
  * The fit as a plan: yields batches of tasks (the caller runs them and hands back the results
  * through the batch's consume) and, between other units of work, undefined (a point to yield).
  */
-type FitPlan = Generator<TaskBatch | void, FitResult, void>;
+export type FitPlan = Generator<TaskBatch | void, FitResult, void>;
 
 /** Everything the tasks of one cross-validated fit read (parallel.ts): built by the fit, and by each pool worker from the same inputs. */
 export interface TaskContext {
@@ -1150,7 +1249,7 @@ export interface TaskContext {
 }
 
 /** The checked options and everything built before the first path is solved. */
-interface SetUp {
+export interface SetUp {
   data: Prepared;
   warnings: FitWarning[];
   fixed: number | null;
@@ -1305,7 +1404,15 @@ function* fitPlan(
   target: ArrayLike<number>,
   options: FitOptions,
 ): FitPlan {
-  const { data, warnings, fixed, plan, problems, repeats, honestError, constantColumns } = setUp(predictors, target, options);
+  return yield* planFromSetUp(setUp(predictors, target, options), options);
+}
+
+/**
+ * The fit after its set-up (fitPlan; a fit from sums builds its own set-up: fitSums.ts). Runs
+ * sequentially through `runPlan`.
+ */
+export function* planFromSetUp(s: SetUp, options: FitOptions): FitPlan {
+  const { data, warnings, fixed, plan, problems, repeats, honestError, constantColumns } = s;
   const full = problems.full;
   // Stability selection (stability.ts): its settings are checked before any fitting.
   if (options.stability) {
@@ -1692,7 +1799,7 @@ function heldOutModels(
   folds: FoldPoints[],
   index: number,
   pointAt: ReadonlyMap<number, Float64Array>,
-): { foldModels: FoldModel[]; heldOut: { row: number[]; fold: number[]; residual: number[] } } {
+): { foldModels: FoldModel[]; heldOut: { row: number[]; fold: number[]; residual: number[] } | null } {
   const foldModels: FoldModel[] = [];
   const n = data.x.rows;
   const p = data.x.columns;
@@ -1713,6 +1820,8 @@ function heldOutModels(
     const coefficients: number[] = [];
     for (let j = 0; j < p; j++) coefficients.push(pathValueInDataUnits(data, j, working.coefficients[j]));
     foldModels.push({ intercept: pathValueInDataUnits(data, -1, working.intercept), coefficients });
+    // A fit from sums has no rows to score: the fold models only.
+    if (data.totalSums) continue;
     slopes.set(working.coefficients, f * p);
     anchors.set(problem.std.xAnchor, f * p);
     offsets.set(problem.std.xOffset, f * p);
@@ -1722,6 +1831,7 @@ function heldOutModels(
       prediction[i] = problem.std.yOffset;
     }
   }
+  if (data.totalSums) return { foldModels, heldOut: null };
   // One pass over the data, column by column in row order (each cache line read once, where a
   // pass per fold over its shuffled rows reads most lines of every column once per fold); each
   // row's prediction adds the same terms in the same order as row by row: yOffset, then
@@ -2076,7 +2186,6 @@ function assemble(
   const coefficients = coefficientRows[index];
   const intercept = intercepts[index];
   const model = linearModel(data.names, intercept, coefficients);
-  const predictions = predict(model, data.original.x);
   const chosenWork = toOriginal(full, run.coefficients[index]).coefficients;
   if (run.earlyStop) {
     const last = run.strengths.length - 1;
@@ -2113,10 +2222,10 @@ function assemble(
       termsKept: run.nonzero.slice(),
       r2: run.r2.slice(),
     },
-    fit: score(data.original.y, predictions, data.original.weights),
+    fit: data.totalSums ? scoreOfSums(data, full, chosenWork) : score(data.original.y, predict(model, data.original.x), data.original.weights),
     classFit: null,
     baseline: null,
-    rowsUsed: data.x.rows,
+    rowsUsed: data.totalSums ? data.totalSums.sums.rows : data.x.rows,
     constantColumns,
     diagnostics: {
       updates: full.kind === "gram" ? "gram" : "residual",

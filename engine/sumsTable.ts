@@ -80,6 +80,13 @@ export interface SumsTable {
   blocks: SumsBlock[];
   /** Where the sums were computed, for the report (e.g. "duckdb 1.x on sensor.parquet"). */
   source?: string;
+  /**
+   * True when the blocks are in time order (block 0 earliest; e.g. time blocks by an ordering
+   * column): fitFromSums then trains each fold on the blocks before the one it scores, as
+   * time-ordered folds do. Absent or false: every block is scored by a fit on all the others.
+   * (Added with the sums engine; readers of version 1 treat it as optional.)
+   */
+  timeOrdered?: boolean;
 }
 
 /** Index of (a, b), a ≤ b, in an upper triangle of a p × p matrix stored row by row. */
