@@ -139,6 +139,8 @@ export interface PaneOptions {
    * ranges only (no "Data source" choice).
    */
   sumsRoutes?: () => Promise<SumsRoutes>;
+  /** Which of the two routes to offer beside worksheet ranges (default both). */
+  sumsSources?: readonly ("file" | "sums")[];
   /** Reads local files with DuckDB; default one opening DuckDB from the add-in's own origin on first use. */
   fileReader?: FileSumsReader;
 }
@@ -641,7 +643,8 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
   const loadRoutes = options.sumsRoutes;
   if (loadRoutes) {
     sourceChoice.append(el("legend", { text: "Data source" }));
-    for (const kind of SOURCE_KINDS) {
+    const offered = options.sumsSources ?? ["file", "sums"];
+    for (const kind of SOURCE_KINDS.filter((k) => k.id === "sheet" || offered.includes(k.id))) {
       const label = el("label");
       const input = el("input", { testid: `source-${kind.id}`, id: `source-${kind.id}` });
       input.type = "radio";

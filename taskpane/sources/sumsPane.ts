@@ -66,8 +66,8 @@ export interface RouteSignal {
 
 /** What the panel needs from the engine and the SQL side (pane.ts passes the real ones; tests may pass their own). */
 export interface SumsRoutes {
-  /** The sums table of `file` for `spec`, computed by DuckDB; progress per query. */
-  fileSums(reader: FileSumsReader, file: File, spec: FileSpec, onProgress: (progress: FileProgress) => void, signal: RouteSignal): Promise<SumsTable>;
+  /** The sums table of `file` for `spec`, computed by DuckDB; progress per query. Absent: the pane offers no file route. */
+  fileSums?(reader: FileSumsReader, file: File, spec: FileSpec, onProgress: (progress: FileProgress) => void, signal: RouteSignal): Promise<SumsTable>;
   /** A long-form sums table read from a worksheet range (checked). */
   sumsFromLong(rows: CellValue[][]): SumsTable;
   /** The cross-validated fit from the sums. */
@@ -720,6 +720,7 @@ export function mountSumsPane(options: SumsPaneOptions): SumsPaneHandle {
       let sums: SumsTable;
       let source: string;
       if (kind === "file" && file && spec) {
+        if (!routes.fileSums) throw new Error("fitting from a file is not available in this build");
         const picked = file;
         sums = await routes.fileSums(reader, picked, spec, (p) => {
           if (run !== myRun) return;
