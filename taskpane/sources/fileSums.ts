@@ -46,9 +46,9 @@ export function sqlName(name: string): string {
   return `"${name.replace(/"/g, '""')}"`;
 }
 
-/** The table function that reads a registered file: read_csv('…') or read_parquet('…'). */
+/** The table function that reads a registered file: read_csv('…', header = true) or read_parquet('…'), as the SQL generator reads it. */
 export function readerOf(registered: string, kind: FileKind): string {
-  return kind === "parquet" ? `read_parquet(${sqlText(registered)})` : `read_csv(${sqlText(registered)})`;
+  return kind === "parquet" ? `read_parquet(${sqlText(registered)})` : `read_csv(${sqlText(registered)}, header = true)`;
 }
 
 /** The name a picked file is registered under in DuckDB (its kind's extension, so readers and messages agree). */
@@ -114,6 +114,15 @@ export async function openFromOrigin(): Promise<DuckdbSession> {
   return openDuckdbSession(duckdbBase());
 }
 
+/** A picked file as DuckDB knows it. */
+export interface RegisteredFile {
+  /** The name SQL reads it by (registeredName). */
+  name: string;
+  kind: FileKind;
+  /** DuckDB's version, for the report of where the sums were computed. */
+  version: string;
+}
+
 /** Progress of the file's queries: `done` of `total` done, and what runs now. */
 export interface FileProgress {
   done: number;
@@ -144,8 +153,8 @@ export class FileSumsReader {
     return this.session;
   }
 
-  /** Registers `file` (once per file) and returns the SQL that reads it. */
-  private async source(session: DuckdbSession, file: File): Promise<string> {
+  /** Registers `file` (once per file); returns the name SQL reads it by, and its kind. */
+  private async source(session: DuckdbSession, file: File): Promise<RegisteredFile> {
     const kind = fileKindOf(file.name);
     const name = registeredName(kind);
     if (this.registered?.file !== file) {
@@ -154,14 +163,15 @@ export class FileSumsReader {
       await session.registerFile(name, file);
       this.registered = { file, name };
     }
-    return readerOf(name, kind);
+    return { name, kind, version: session.version };
   }
 
   /**
-   * Runs `work` with the session and the file's reader SQL; cancelling `signal` terminates the
-   * worker (the session is opened again next time) and rejects with CancelledError.
+   * Runs `work` with a query function on the session and the registered file; cancelling
+   * `signal` terminates the worker (the session is opened again next time) and rejects with
+   * CancelledError. DuckDB's errors come out as `fileProblem` one-liners.
    */
-  async run<T>(file: File, signal: { readonly aborted: boolean; onAbort(callback: () => void): void }, work: (query: (sql: string) => Promise<SqlRow[]>, reader: string) => Promise<T>): Promise<T> {
+  async run<T>(file: File, signal: { readonly aborted: boolean; onAbort(callback: () => void): void }, work: (query: (sql: string) => Promise<SqlRow[]>, registered: RegisteredFile) => Promise<T>): Promise<T> {
     const mine = ++this.job;
     let stopped = false;
     const stop = new Promise<never>((_, reject) => {
@@ -176,9 +186,9 @@ export class FileSumsReader {
       if (signal.aborted) throw new CancelledError();
       const session = await this.sessionNow();
       if (stopped || mine !== this.job) throw new CancelledError();
-      let reader: string;
+      let registered: RegisteredFile;
       try {
-        reader = await this.source(session, file);
+        registered = await this.source(session, file);
       } catch (error) {
         throw fileProblem(error, file.name);
       }
@@ -191,15 +201,15 @@ export class FileSumsReader {
           throw fileProblem(error, file.name);
         }
       };
-      return work(query, reader);
+      return work(query, registered);
     };
     return Promise.race([go(), stop]);
   }
 
   /** The file's columns (DESCRIBE of its reader). */
   async columns(file: File, signal: { readonly aborted: boolean; onAbort(callback: () => void): void } = NEVER): Promise<FileColumn[]> {
-    return this.run(file, signal, async (query, reader) => {
-      const columns = columnsOf(await query(`DESCRIBE SELECT * FROM ${reader}`));
+    return this.run(file, signal, async (query, registered) => {
+      const columns = columnsOf(await query(`DESCRIBE SELECT * FROM ${readerOf(registered.name, registered.kind)}`));
       if (columns.length === 0) throw new InputError("empty", `'${file.name}' has no columns`);
       return columns;
     });

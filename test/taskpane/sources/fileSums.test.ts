@@ -66,7 +66,7 @@ test("SQL quoting doubles the quote characters (DuckDB's rules)", () => {
   expect(sqlText("it's")).toBe("'it''s'");
   expect(sqlName('a "b"')).toBe('"a ""b"""');
   expect(readerOf("x.parquet", "parquet")).toBe("read_parquet('x.parquet')");
-  expect(readerOf("x.csv", "csv")).toBe("read_csv('x.csv')");
+  expect(readerOf("x.csv", "csv")).toBe("read_csv('x.csv', header = true)");
 });
 
 test("DESCRIBE's rows become columns; number types are marked", () => {
@@ -103,8 +103,8 @@ test("columns: the file is registered once, DESCRIBE runs on its reader", async 
   expect(recorder.opened).toBe(1);
   expect(recorder.log).toEqual([
     "#1 register shrinkwise-source.csv ← roasts.csv",
-    "#1 DESCRIBE SELECT * FROM read_csv('shrinkwise-source.csv')",
-    "#1 DESCRIBE SELECT * FROM read_csv('shrinkwise-source.csv')",
+    "#1 DESCRIBE SELECT * FROM read_csv('shrinkwise-source.csv', header = true)",
+    "#1 DESCRIBE SELECT * FROM read_csv('shrinkwise-source.csv', header = true)",
   ]);
   // Another file: the first is dropped, the second registered under its kind's name.
   await reader.columns(fakeFile("sensor.parquet"));
@@ -121,7 +121,7 @@ test("cancel terminates the worker at once; the next use opens a new session (re
   const callbacks: (() => void)[] = [];
   const signal = { aborted: false, onAbort: (callback: () => void) => callbacks.push(callback) };
   const file = fakeFile("roasts.csv");
-  const running = reader.run(file, signal, (query, source) => query(`SELECT count(*) FROM ${source}`));
+  const running = reader.run(file, signal, (query, registered) => query(`SELECT count(*) FROM ${readerOf(registered.name, registered.kind)}`));
   while (!recorder.release) await new Promise((resolve) => setTimeout(resolve, 1));
   signal.aborted = true;
   callbacks.forEach((callback) => callback());
