@@ -91,6 +91,12 @@ export function fileProblem(error: unknown, fileName: string): Error {
       `${quoted} has text '${match[1]}' where numbers are expected${column ? ` (column '${column}')` : ""}: fix or blank that cell, or leave the column out`,
     );
   }
+  if (/exists in the parquet extension|parquet extension/i.test(text)) {
+    return new InputError(
+      "empty",
+      `${quoted} is Parquet, and DuckDB in this pane has no Parquet reader (it is an extension, not served with the add-in yet): save the file as CSV, or fit it with the command line (npm run fit -- ${fileName} --target …)`,
+    );
+  }
   if (/magic bytes|not a parquet file|Invalid Input Error:.*parquet/i.test(text)) {
     return new InputError("empty", `${quoted} can't be read as Parquet (${text.slice(0, 120)}): check that it is a Parquet file, or save it again`);
   }

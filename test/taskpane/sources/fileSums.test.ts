@@ -89,6 +89,9 @@ test("DuckDB's messages become one line that says what to fix, naming the file",
   expect(fileProblem(new Error("Invalid Input Error: No magic bytes found at end of file 'x.parquet'"), "log.parquet").message).toMatch(
     /^'log.parquet' can't be read as Parquet .*: check that it is a Parquet file/,
   );
+  expect(
+    fileProblem(new Error('Catalog Error: Table Function with name "read_parquet" is not in the catalog, but it exists in the parquet extension.'), "log.parquet").message,
+  ).toMatch(/^'log.parquet' is Parquet, and DuckDB in this pane has no Parquet reader .*: save the file as CSV, or fit it with the command line/);
   for (const message of [one("x\ny"), one("Something else entirely")]) expect(message).not.toMatch(/\n/);
   const input = new InputError("setting", "from the generator");
   expect(fileProblem(input, "a.csv")).toBe(input);
