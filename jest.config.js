@@ -8,6 +8,8 @@ module.exports = {
   },
   testTimeout: 60000,
   setupFiles: ["<rootDir>/test/setup/customFunctionsShim.ts"],
+  // Stops the ClickHouse test server when a suite started it (test/helpers/requirements.ts).
+  globalTeardown: "<rootDir>/test/clickhouse/teardown.js",
   // office-addin-mock reaches an ESM-only module through office-addin-manifest; use its CommonJS entry.
   moduleNameMapper: { "^office-addin-manifest$": "<rootDir>/node_modules/office-addin-manifest/lib/officeApp.js" },
 };

@@ -33,6 +33,10 @@
  * with a yes/no outcome drawn from the logistic model, fitted as penalized logistic regression on
  * the pinned workload; the numeric fit of the same predictors is timed beside it, `vsNumber`.
  *
+ * `--only sums`: the fit from a sums table (bench/sums.ts): fitFromSums on 20 predictors × 10 blocks
+ * × the default grid × 6 mixes, from tables summed from 10,000 and 1,000,000 rows (goal ≤ 50 ms,
+ * the same for both: the fit never sees the rows).
+ *
  * Prints a table, then one JSON line per case.
  *
  * Usage: npm run bench [-- --only 1000x50,cells-1000x50] [-- --repeat 3] [-- --threads 1|auto]
@@ -51,6 +55,7 @@ import { EXACT_FIT_RATIO, strengthGrid } from "../engine/path";
 import { blockSums } from "../engine/problem";
 import { coefsThroughCells, nodeWorkerRunner, worksheetValues } from "./cellPath";
 import { makeData, makeTwoClass } from "./data";
+import { sumsFitBench } from "./sums";
 import { compileFloor, FloorRun, runFloor, writeFloorInput } from "./floor";
 
 type Kind = "number" | "two-class" | "cells";
@@ -438,6 +443,9 @@ async function main(): Promise<void> {
   const cellTable: string[][] = [["case", "cell path ms", "engine ms", "cells÷engine", "target"]];
   const twoTable: string[][] = [["case", "ms", "number ms", "vs number", "event share", "chosen mix", "strength", "CV deviance", "max KKT", "halvings", "target"]];
   const lines: string[] = [];
+  // The fit from sums runs in this process: it times milliseconds of work on tables of a few kB.
+  const sums = only?.has("sums") ? sumsFitBench(repeat) : null;
+  if (sums) lines.push(...sums.lines);
   try {
     for (const c of chosen) {
       const report = await inChild(c, repeat, floorDir, floorBinary, c.kind === "cells" ? 1 : threads.used);
@@ -542,6 +550,7 @@ async function main(): Promise<void> {
   print(table);
   print(cellTable);
   print(twoTable);
+  if (sums) print(sums.table);
   console.log("");
   for (const line of lines) console.log(line);
 }

@@ -271,7 +271,11 @@ export interface FitResult {
     termsKept: number[];
     r2: number[];
   };
-  /** In-sample accuracy of the chosen model (weighted when weights are given); two-class: of its probabilities against 0/1 (rmse² is the Brier score). */
+  /**
+   * In-sample accuracy of the chosen model (weighted when weights are given); two-class: of its
+   * probabilities against 0/1 (rmse² is the Brier score). From a sums table (fitSums.ts): RMSE,
+   * R² and bias from the sums, MAE NaN (it needs the rows), count the rows the sums cover.
+   */
   fit: Score;
   /** Two-class only: in-sample log loss, Brier score, AUC and the table at the cutoff. Null for a number outcome. */
   classFit: TwoClassScore | null;
@@ -302,6 +306,7 @@ export interface FitResult {
     /** Two-class only: set when the classes are (nearly) separated and the unpenalized estimates do not exist. */
     separation?: { kind: "complete" | "quasi"; terms: string[]; message: string } | null;
   } | null;
+  /** Rows fitted (rows of weight 0 included); from a sums table, the rows its blocks cover. */
   rowsUsed: number;
   /** Names of predictors dropped because they are constant. */
   constantColumns: string[];
@@ -339,6 +344,7 @@ export interface FitResult {
    * the rows given, the fold that held it out as an index into foldModels, and its held-out
    * residual y − prediction of that fold's model, in the target's units). Rows of weight 0 are
    * not listed; with time-ordered folds the first block, never held out, is not either.
+   * Null for a fit from a sums table (fitSums.ts): there are no rows to hold out.
    */
   heldOut?: { row: number[]; fold: number[]; residual: number[] } | null;
   /**
@@ -1156,7 +1162,7 @@ export async function fitAsync(
  * worker) are handled first. A MessageChannel round trip is used where available: browsers
  * clamp nested setTimeout(0) to 4 ms, which would add ~4 ms per unit of work.
  */
-function nextTask(): Promise<void> {
+export function nextTask(): Promise<void> {
   if (typeof MessageChannel !== "undefined") {
     return new Promise<void>((resolve) => {
       const channel = new MessageChannel();

@@ -38,6 +38,7 @@ import {
   FitResult,
   FitPlan,
   MAX_GRAM_PREDICTORS,
+  nextTask,
   planFromSetUp,
   Prepared,
   Problems,
@@ -73,13 +74,13 @@ export function* fitFromSumsSteps(sums: SumsTable | unknown, options: SumsFitOpt
   return yield* runPlan(sumsPlan(sums, options), options);
 }
 
-/** As fitFromSums, awaiting a macrotask between units of work so a cancel gets through. */
+/** As fitFromSums, awaiting a fresh macrotask between units of work (fit.ts nextTask) so a cancel gets through. */
 export async function fitFromSumsAsync(sums: SumsTable | unknown, options: SumsFitOptions = {}): Promise<FitResult> {
   const steps = fitFromSumsSteps(sums, options);
   for (;;) {
     const step = steps.next();
     if (step.done) return step.value;
-    await new Promise<void>((resolve) => setTimeout(resolve, 0));
+    await nextTask();
   }
 }
 

@@ -7,6 +7,13 @@ export { fit, fitAsync, fitSteps, parseRule, DEFAULT_MIXES, MEASURES, higherIsBe
 export type { FitOptions, FitResult, ChoicePoint, CvRow, ChoiceRule, ErrorMeasure, UpdateScheme } from "./fit";
 export { leastSquares } from "./leastSquares";
 export type { LeastSquaresOptions, LeastSquaresResult } from "./leastSquares";
+// Fitting from sums: per-block sums computed where the data live (sumsTable.ts, sums.ts, fitSums.ts)
+export { fitFromSums, fitFromSumsSteps, fitFromSumsAsync } from "./fitSums";
+export type { SumsFitOptions } from "./fitSums";
+export { checkSums, sumsToJSON, parseSumsJSON, sumsToLong, sumsFromLong, sumsOfRows, LONG_HEADER, GLOBAL_BLOCK, VARIANCE_ROUNDING } from "./sums";
+export type { SumsDetails, LongCell } from "./sums";
+export { SUMS_FORMAT, SUMS_VERSION, upperIndex, upperSize } from "./sumsTable";
+export type { SumsTable, SumsBlock } from "./sumsTable";
 // Models and accuracy
 export { predict, linearScore, logistic, linearModel, modelFromJSON } from "./model";
 export type { LinearModel, ModelLink } from "./model";

@@ -61,6 +61,10 @@ export interface CommandOptions {
   intercept: boolean;
   /** Print one JSON object instead of the readable report. */
   json: boolean;
+  /** `--sums-out <file>`: also save the data's sums table (engine/sums.ts) with the fit's fold labels (JSON; long form for a .csv name). Absent: not saved. */
+  sumsOut?: string | null;
+  /** `--sums <file>`: fit from a saved sums table (JSON, or its long form as CSV) instead of a data file. Absent: fit a data file. */
+  sums?: string | null;
   /** Deals of the random folds (1 to 50); null for 1. */
   repeats: number | null;
   /** Also estimate the whole procedure's error by nested cross-validation. */
@@ -81,11 +85,20 @@ export interface CommandOptions {
   interval: number | null;
   /** Worker threads for the folds and mixes: a whole number from 1, or "auto" (the cores available); null: 1, no workers. */
   threads?: number | "auto" | null;
+  /** How the data file is summed (cli/viaDuckdb.ts): "duckdb", "memory", or null to decide by the file (Parquet or large: DuckDB). */
+  via?: "duckdb" | "memory" | null;
+  /** DuckDB route: a whole-number column hashed into --folds blocks. */
+  foldKey?: string | null;
+  /** DuckDB route: an ordering column cut into --folds + 1 time blocks. */
+  timeColumn?: string | null;
+  /** Print the queries that compute the sums, and exit. */
+  printSql?: boolean;
 }
 
 export type ParsedCommand = { help: true } | { help: false; options: CommandOptions };
 
 export const USAGE = `Usage: npm run fit -- <data.csv> --target <column> [options]
+       npm run fit -- --sums <sums.json> [options]
 
 Fits a cross-validated ridge / lasso / elastic-net regression to the numeric columns of a
 CSV or tab-separated file (header row required) and prints the model. A yes/no target (two
@@ -152,6 +165,16 @@ How sure is it
                             0.5 and 1 (default 0.75); not the yes/no cutoff, which is --cutoff
                             (--draws, --q and --threshold need --stability)
 
+Sums (fit without the rows)
+  --sums-out <file>         also save the data's sums table: per fold block, the weights' total,
+                            means and centred cross-products of the predictors and the target,
+                            with the folds this fit uses (JSON; the long form block | term_a |
+                            term_b | value when the name ends in .csv)
+  --sums <file>             fit from a saved sums table (JSON, or the long form as CSV) instead
+                            of a data file: other --mix, grid, --rule or --folds (which merges
+                            blocks) need no pass over the data; options that need the rows are
+                            refused
+
 Predictions
   --predict <new.csv>       after fitting, predict every row of new.csv (it needs the
                             predictor columns, by name; other columns are copied through) and
@@ -164,6 +187,20 @@ Predictions
   --predictions-out <file>  write the predictions CSV to this file and print the report as
                             usual; without it the CSV goes to standard output and the report
                             (or --json) is not printed (its warnings go to standard error)
+
+Large files (DuckDB)
+  --via duckdb|memory       how the file is read: duckdb sums it where it lies (memory independent
+                            of its rows) and fits from the sums; memory reads it whole (default:
+                            duckdb for a Parquet file or a file over 200 MB, else memory)
+  --fold-key <column>       duckdb: deal rows into --folds blocks by a hash of this whole-number
+                            column (an ID), the same on every engine
+  --time-column <column>    duckdb: cut rows into --folds + 1 blocks of near-equal size in the
+                            order of this column (numbers, dates or times); each fold is scored on
+                            one block by a fit on the blocks before it
+                            (without --fold-column, --fold-key or --time-column: a hash of the
+                            row's position in the file)
+  --print-sql               print the queries that compute the sums (DuckDB SQL; the first pass
+                            runs on the file to fill in the second) and exit
 
 Speed
   --threads <n>|auto        fit the folds and mixes on n worker threads (auto: one per core);
@@ -219,9 +256,15 @@ const OPTIONS: Record<string, Kind> = {
   threshold: "number",
   predict: "text",
   "predictions-out": "text",
+  "sums-out": "text",
+  sums: "text",
   interval: "text",
   json: "flag",
   threads: "text",
+  via: "text",
+  "fold-key": "text",
+  "time-column": "text",
+  "print-sql": "flag",
   help: "flag",
 };
 
@@ -300,9 +343,41 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
     seen.set(name, value);
   }
 
-  if (positional.length === 0) throw new CommandError("no data file given: npm run fit -- <data.csv> --target <column>");
-  if (positional.length > 1) {
-    throw new CommandError(`one data file expected, got ${positional.length}: ${positional.join(", ")}`);
+  const fromSums = seen.has("sums");
+  if (fromSums) {
+    if (positional.length > 0) throw new CommandError(`--sums fits from a saved sums table, without a data file: leave out ${positional.join(", ")}`);
+    // Options that need the rows (or a data file's columns), each refused by name.
+    const needRows: Record<string, string> = {
+      predictors: "the table's terms are the predictors",
+      exclude: "the table's terms are the predictors",
+      "weights-column": "the weights were summed into the table",
+      "fold-column": "the table's blocks are the folds",
+      "time-ordered": "the table says whether its blocks are in time order",
+      seed: "the table's blocks are the folds, nothing is dealt",
+      event: "a sums table holds a number target",
+      cutoff: "a sums table holds a number target",
+      honest: "nested cross-validation refits on rows",
+      stability: "stability selection fits half-samples of rows",
+      interval: "CV+ intervals need the held-out rows' residuals",
+      "sums-out": "the sums are already saved",
+      threads: "a fit from sums takes milliseconds on one thread",
+    };
+    for (const [name, why] of Object.entries(needRows)) {
+      if (seen.has(name)) throw new CommandError(`--${name} can't be used with --sums: ${why}; leave it out`);
+    }
+    const repeatsGiven = seen.get("repeats");
+    if (typeof repeatsGiven === "string" && parseNumber(repeatsGiven) !== 1) {
+      throw new CommandError("--repeats can't be used with --sums: the table's blocks are dealt once; leave it out");
+    }
+    const outcomeGiven = seen.get("outcome");
+    if (typeof outcomeGiven === "string" && parseOutcome(outcomeGiven) === "two-class") {
+      throw new CommandError("--outcome two-class can't be used with --sums: a yes/no fit needs a pass over the rows at every step; fit the data file");
+    }
+  } else {
+    if (positional.length === 0) throw new CommandError("no data file given: npm run fit -- <data.csv> --target <column>");
+    if (positional.length > 1) {
+      throw new CommandError(`one data file expected, got ${positional.length}: ${positional.join(", ")}`);
+    }
   }
   // Column names are compared in Unicode NFC, as the file's header is read (table.ts).
   const text = (name: string): string | null => {
@@ -318,7 +393,8 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
     return value === null ? null : splitList(name, value);
   };
 
-  const target = text("target");
+  // With --sums the table names its target; --target, when given, must agree (checked on reading it).
+  const target = text("target") ?? (fromSums ? "" : null);
   if (target === null) throw new CommandError("--target is missing: name the column to predict, e.g. --target price");
 
   const ruleText = text("rule");
@@ -424,6 +500,10 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
     const fixed = seen.has("time-ordered") ? "--time-ordered" : "--fold-column";
     throw new CommandError(`--repeats ${repeats} deals random folds again with new seeds, but ${fixed} fixes the folds (one deal): leave one out`);
   }
+  const sumsOut = text("sums-out");
+  if (sumsOut !== null && repeats !== null && repeats > 1) {
+    throw new CommandError(`--sums-out saves one deal of the folds, and --repeats ${repeats} deals them ${repeats} times: leave one out`);
+  }
   const predict = text("predict");
   const predictionsOut = text("predictions-out");
   const intervalText = text("interval");
@@ -445,10 +525,12 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
     throw new CommandError("--predictions-out says where to write predictions: add --predict <new.csv>");
   }
 
+  const sumsRoute = sumsRouteOptions(seen, text);
+
   return {
     help: false,
     options: {
-      file: positional[0],
+      file: fromSums ? "" : positional[0],
       target,
       predictors,
       exclude,
@@ -481,10 +563,39 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
       predict,
       predictionsOut,
       interval,
+      // The sums route's options, only when given.
+      ...(sumsOut !== null ? { sumsOut } : {}),
+      ...(fromSums ? { sums: text("sums") } : {}),
       // Only when given: the options object is otherwise what it always was.
       ...(threads !== null ? { threads } : {}),
+      ...sumsRoute,
     },
   };
+}
+
+/** The DuckDB route's options (only those given, so the options object is otherwise unchanged), checked against each other. */
+function sumsRouteOptions(seen: ReadonlyMap<string, string | true>, text: (name: string) => string | null): Partial<CommandOptions> {
+  const out: Partial<CommandOptions> = {};
+  const via = text("via");
+  if (via !== null) {
+    const lower = via.toLowerCase();
+    if (lower !== "duckdb" && lower !== "memory") throw new CommandError(`--via must be duckdb or memory; got '${via}'`);
+    out.via = lower;
+  }
+  const foldKey = text("fold-key");
+  const timeColumn = text("time-column");
+  const rules = ["fold-column", "fold-key", "time-column", "time-ordered"].filter((name) => seen.has(name)).map((name) => `--${name}`);
+  if (rules.length > 1) throw new CommandError(`${rules.join(" and ")} each say how rows make folds: give one`);
+  const duckdbOnly = [foldKey !== null ? "--fold-key" : null, timeColumn !== null ? "--time-column" : null, seen.has("print-sql") ? "--print-sql" : null].filter(
+    (flag): flag is string => flag !== null,
+  );
+  if (duckdbOnly.length > 0 && out.via === "memory") {
+    throw new CommandError(`${duckdbOnly.join(" and ")} ${duckdbOnly.length === 1 ? "works" : "work"} on the DuckDB route: leave out --via memory`);
+  }
+  if (foldKey !== null) out.foldKey = foldKey;
+  if (timeColumn !== null) out.timeColumn = timeColumn;
+  if (seen.has("print-sql")) out.printSql = true;
+  return out;
 }
 
 /**

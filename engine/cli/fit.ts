@@ -4,6 +4,10 @@
  * `runCommand` does everything but the printing, so tests run it in process; the pieces it
  * calls are pure functions tested on their own (test/cli/).
  */
+// The sums route (--sums, --sums-out): engine/fitSums.ts, cli/sumsFile.ts.
+import { fitFromSums } from "../fitSums";
+import type { ReportContext } from "./format";
+import { readSumsText, sumsFileText, sumsOfTable } from "./sumsFile";
 import { readFileSync, writeFileSync } from "fs";
 import { predictionIntervals } from "../conformal";
 import { checkMeasure, fit, type FitOptions, type FitResult } from "../fit";
@@ -13,6 +17,7 @@ import { fitParallel } from "../node/threadPool";
 import { CommandError, parseArgs, toFitOptions, USAGE, type CommandOptions } from "./args";
 import { failureLine, jsonText, predictionsCsv, textReport, warningMessages } from "./format";
 import { readFitTable, readNewRows, type FitTable } from "./table";
+import { chooseRoute, runViaDuckdb } from "./viaDuckdb";
 
 export interface CommandOutcome {
   exitCode: 0 | 1 | 2;
@@ -81,6 +86,9 @@ export function runCommand(
   read: (file: string) => string = readInput,
   write: (file: string, text: string) => void = writeOutput,
 ): CommandOutcome {
+  if (duckdbCommand(argv) !== null) {
+    return { exitCode: 2, stdout: "", stderr: "shrinkwise: this file goes through DuckDB, which runs asynchronously: use runCommandAsync (or --via memory)\n" };
+  }
   const step = commandSteps(argv, read, write);
   let next = step.next();
   while (!next.done) {
@@ -103,6 +111,16 @@ export async function runCommandAsync(
   read: (file: string) => string = readInput,
   write: (file: string, text: string) => void = writeOutput,
 ): Promise<CommandOutcome> {
+  // A Parquet or large file (or --via duckdb) is summed by DuckDB and fitted from the sums.
+  const duckdb = duckdbCommand(argv);
+  if (duckdb !== null) {
+    try {
+      return { exitCode: 0, stdout: (await runViaDuckdb(duckdb)).stdout, stderr: "" };
+    } catch (error) {
+      const failure = failureLine(error);
+      return { exitCode: failure.exitCode, stdout: "", stderr: failure.line };
+    }
+  }
   const step = commandSteps(argv, read, write);
   let next = step.next();
   while (!next.done) {
@@ -114,6 +132,16 @@ export async function runCommandAsync(
     }
   }
   return next.value;
+}
+
+/** The parsed command when it takes the DuckDB route (cli/viaDuckdb.ts chooseRoute), else null (bad arguments included: commandSteps reports them). */
+function duckdbCommand(argv: readonly string[]): CommandOptions | null {
+  try {
+    const command = parseArgs(argv);
+    return !command.help && chooseRoute(command.options) === "duckdb" ? command.options : null;
+  } catch {
+    return null;
+  }
 }
 
 type FitCall = [number[][], ArrayLike<number>, FitOptions, number | "auto" | null];
@@ -128,6 +156,7 @@ function* commandSteps(
     const command = parseArgs(argv);
     if (command.help) return { exitCode: 0, stdout: USAGE + "\n", stderr: "" };
     const options = command.options;
+    if (options.sums) return sumsCommand(options, read, write);
     const table = readFitTable(read(options.file), {
       target: options.target,
       predictors: options.predictors,
@@ -155,14 +184,33 @@ function* commandSteps(
         );
       }
     }
+    // The sums are computed before the fit (so their own problems are reported first) and saved after it succeeds.
+    const sums = options.sumsOut ? sumsOfTable(table, options) : null;
     const result: FitResult = yield [
       table.predictors,
       table.targetValues,
       toFitOptions(options, { names: table.predictorNames, weights: table.weights, foldLabels: table.foldLabels, outcome: table.outcome }),
       options.threads ?? null,
     ];
-    const context = { table, foldColumn: options.foldColumn };
-    const report = (): string => (options.json ? jsonText(result, context) : textReport(result, context));
+    if (options.sumsOut && sums) write(options.sumsOut, sumsFileText(options.sumsOut, sums));
+    return finish(result, table, { table, foldColumn: options.foldColumn }, options, read, write);
+  } catch (error) {
+    const failure = failureLine(error);
+    return { exitCode: failure.exitCode, stdout: "", stderr: failure.line };
+  }
+}
+
+/** The report (or predictions) for a fitted result: the common end of both routes. */
+function finish(
+  result: FitResult,
+  table: FitTable,
+  context: ReportContext,
+  options: CommandOptions,
+  read: (file: string) => string,
+  write: (file: string, text: string) => void,
+): CommandOutcome {
+  const report = (): string => (options.json ? jsonText(result, context) : textReport(result, context));
+  {
     if (options.predict !== null) {
       const csv = predictionsFor(result, table, options, read(options.predict));
       if (options.predictionsOut === null) {
@@ -173,10 +221,35 @@ function* commandSteps(
       write(options.predictionsOut, csv);
     }
     return { exitCode: 0, stdout: report(), stderr: "" };
-  } catch (error) {
-    const failure = failureLine(error);
-    return { exitCode: failure.exitCode, stdout: "", stderr: failure.line };
   }
+}
+
+/** `--sums`: fit from a saved sums table; the report is the usual one, with the table's rows. */
+function sumsCommand(options: CommandOptions, read: (file: string) => string, write: (file: string, text: string) => void): CommandOutcome {
+  const file = options.sums as string;
+  const sums = readSumsText(read(file));
+  if (options.target !== "" && options.target !== sums.target) {
+    throw new CommandError(`--target ${options.target} doesn't match the sums table, whose target is '${sums.target}': leave --target out or give '${sums.target}'`);
+  }
+  const rows = sums.blocks.reduce((total, block) => total + block.rows, 0);
+  const table: FitTable = {
+    target: sums.target,
+    predictorNames: sums.terms.slice(),
+    predictors: [],
+    targetValues: [],
+    outcome: "number",
+    classes: null,
+    weights: sums.weights === null ? null : [],
+    foldLabels: null,
+    rowsUsed: rows,
+    rowsSkipped: sums.skippedRows,
+    skippedRows: [],
+    blanksByColumn: {},
+  };
+  const fitOptions = toFitOptions(options, { names: sums.terms, weights: null, foldLabels: null });
+  delete fitOptions.timeOrdered;
+  const result = fitFromSums(sums, fitOptions);
+  return finish(result, table, { table, sums: { file, blocking: sums.blocking, blocks: sums.blocks.length, source: sums.source ?? null } }, options, read, write);
 }
 
 if (require.main === module) {

@@ -35,6 +35,8 @@ export interface ReportContext {
   table: FitTable;
   /** Name of the fold-label column, when folds came from one. */
   foldColumn?: string | null;
+  /** `--sums`: the sums table the fit came from (its file, how its rows were dealt into blocks, its block count, where it was computed). */
+  sums?: { file: string; blocking: string; blocks: number; source: string | null } | null;
 }
 
 export interface JsonChoice {
@@ -161,6 +163,8 @@ export interface JsonReport {
     /** candidate: whether the term could be selected (false for never-penalized, constant or bound-held terms; counted in `candidates`). */
     terms: Record<string, { share: number | null; stable: boolean; candidate: boolean }>;
   } | null;
+  /** --sums only (absent otherwise): the sums table fitted, how its rows were dealt into blocks, its block count and where it was computed. */
+  sums?: { file: string; blocking: string; blocks: number; source: string | null };
 }
 
 /** A finite number as is; NaN and ±Infinity as null. */
@@ -306,6 +310,8 @@ export function jsonReport(result: FitResult, context: ReportContext): JsonRepor
     repeats: result.cv ? result.cv.repeats : 0,
     honest: result.honest ? honestJson(result.honest) : null,
     stability: result.stability ? stabilityJson(result.stability, result.terms) : null,
+    // Only with --sums: where the numbers came from.
+    ...(context.sums ? { sums: { file: context.sums.file, blocking: context.sums.blocking, blocks: context.sums.blocks, source: context.sums.source } } : {}),
   };
 }
 
@@ -363,9 +369,14 @@ function columns(rows: string[][], indent = "  ", allLeft = false): string[] {
   );
 }
 
-function schemeText(result: FitResult, foldColumn: string | null | undefined): string {
+function schemeText(result: FitResult, foldColumn: string | null | undefined, sums?: ReportContext["sums"]): string {
   const cv = result.cv;
   if (!cv) return "";
+  if (sums) {
+    const merged = cv.folds < sums.blocks - (cv.scheme === "time" ? 1 : 0) ? `, merged from ${sums.blocks} blocks` : "";
+    const how = sums.blocking ? ` (${sums.blocking})` : "";
+    return cv.scheme === "time" ? `${cv.folds} time-ordered folds of the sums table's blocks${how}${merged}` : `${cv.folds} folds, the sums table's blocks${how}${merged}`;
+  }
   if (cv.scheme === "labels") return `${cv.folds} folds, one per value of '${foldColumn ?? "fold labels"}'`;
   if (cv.scheme === "time") return `${cv.folds} time-ordered folds`;
   return `${cv.folds} random folds (seed ${cv.seed})`;
@@ -490,7 +501,7 @@ export function textReport(result: FitResult, context: ReportContext): string {
     );
   }
   if (result.choices && result.cv) {
-    lines.push(`Cross-validation: ${schemeText(result, context.foldColumn)}, scored by ${measureName(result.cv.measure, true)}`);
+    lines.push(`Cross-validation: ${schemeText(result, context.foldColumn, context.sums)}, scored by ${measureName(result.cv.measure, true)}`);
     const d = result.diagnostics;
     lines.push(
       `Grid: ${d.strengthCount} strengths per mix (${formatNumber(d.gridDensity, 4)} per tenfold drop), from each mix's top down to ${formatNumber(d.lowEndRatio)} of it`,
@@ -533,7 +544,11 @@ export function textReport(result: FitResult, context: ReportContext): string {
     const fit = result.fit;
     lines.push(`In-sample: R² ${formatNumber(fit.r2, 4)}, RMSE ${formatNumber(fit.rmse)}, MAE ${formatNumber(fit.mae)}`);
   }
-  lines.push(`Rows: ${result.rowsUsed} used, ${table.rowsSkipped} skipped`);
+  if (context.sums) {
+    lines.push(`Rows: ${result.rowsUsed} used, ${table.rowsSkipped} skipped, as summed in ${context.sums.file}${context.sums.source ? ` (${context.sums.source})` : ""}; MAE needs the rows`);
+  } else {
+    lines.push(`Rows: ${result.rowsUsed} used, ${table.rowsSkipped} skipped`);
+  }
   // The separation message is printed with the baseline above: not again among the warnings.
   const warnings = warningMessages(result, table).filter((message) => message !== separation?.message);
   if (warnings.length > 0) {

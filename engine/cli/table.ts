@@ -297,6 +297,8 @@ export function readFitTable(text: string, roles: ColumnRoles): FitTable {
 /** One sentence about skipped rows for the warnings, or null when none were skipped. */
 export function skippedRowsMessage(table: FitTable, shown = 10): string | null {
   if (table.rowsSkipped === 0) return null;
+  // A fit from sums knows how many rows were skipped, not which: its own warning says so.
+  if (table.skippedRows.length === 0) return null;
   const rows = table.skippedRows.slice(0, shown).join(", ") + (table.skippedRows.length > shown ? ", …" : "");
   const columns = Object.entries(table.blanksByColumn)
     .map(([name, count]) => `${name} ${count}`)

@@ -151,6 +151,18 @@ describe("fitFromSums equals the in-memory gram-form fit on the same rows and fo
     expectSameFit(fitFromSums(tableOf(timed, true), { folds: 3 }), fitFromSums(tableOf(pairs, true)), TOLERANCE);
   });
 
+  it("a column constant on one block (an indicator absent there), a constant column, and 30 predictors", () => {
+    const d = makeData(12, 160, 5, 4, true);
+    // 'roast_4' is 0 on every row of block f0 (a level that lot never had) and 'roast_5' is 7 everywhere.
+    d.x = d.x.map((row, i) => row.map((v, j) => (j === 3 ? (d.labels[i] === "f0" ? 0 : i % 3 === 0 ? 1 : 0) : j === 4 ? 7 : v)));
+    const fromRows = fit(d.x, d.y, { weights: d.w, foldLabels: d.labels, updates: "gram", names: d.names, mixes: [0, 0.5, 1] });
+    const fromSums = fitFromSums(tableOf(d), { mixes: [0, 0.5, 1] });
+    expect(fromSums.constantColumns).toEqual(["roast_5"]);
+    expectSameFit(fromSums, fromRows, TOLERANCE);
+    const wide = makeData(13, 200, 30, 5, false, "equicorrelated", 0.4);
+    expectSameFit(fitFromSums(tableOf(wide), { mixes: [0.5, 1] }), fit(wide.x, wide.y, { foldLabels: wide.labels, updates: "gram", names: wide.names, mixes: [0.5, 1] }), TOLERANCE);
+  });
+
   it("a fixed strength, and a table without largest values", () => {
     const d = makeData(9, 120, 6, 4, true);
     const fromRows = fit(d.x, d.y, { weights: d.w, strength: 0.05, mixes: [0.5], updates: "gram", names: d.names });

@@ -3,7 +3,11 @@
  *
  * - Debian's Chromium at /usr/bin/chromium (`apt-get install -y chromium`): browser checks;
  * - xmllint at /usr/bin/xmllint (Debian's libxml2-utils): the manifest's well-formedness;
- * - the built dist/ (`npm run build`; `npm test` builds it first, see addin/ensure-build.js).
+ * - the built dist/ (`npm run build`; `npm test` builds it first, see addin/ensure-build.js);
+ * - a ClickHouse server (Debian's `clickhouse-server`, 18.16 or newer): the ClickHouse route.
+ *   SHRINKWISE_CLICKHOUSE_URL names a running one (CI starts test/clickhouse/server.sh and sets
+ *   it); unset, the suites start the repo's test server themselves with server.sh when the
+ *   binary is installed, and jest's global teardown stops it again (test/clickhouse/teardown.js).
  *
  * Without one of them a suite (or test) is skipped, and says so in one line with the command
  * that fixes it. With SHRINKWISE_REQUIRE_ALL=1 (set by .ci/run) it fails instead: CI must never
@@ -13,7 +17,8 @@
  * that does not exist, they show the skip (or, with SHRINKWISE_REQUIRE_ALL=1, the failure)
  * without uninstalling anything.
  */
-import { accessSync, constants, existsSync } from "fs";
+import { spawnSync } from "child_process";
+import { accessSync, constants, existsSync, writeFileSync } from "fs";
 import { join, resolve } from "path";
 
 export const ROOT = resolve(__dirname, "..", "..");
@@ -109,4 +114,63 @@ export function suiteGate(suite: string, missing: readonly (Need | null)[], requ
       else test(name, failing(gate.message));
     },
   };
+}
+
+/** The repo's ClickHouse test server script (config, schema) and what `server.sh url` prints. */
+export const CLICKHOUSE_SERVER_SCRIPT = join(ROOT, "test", "clickhouse", "server.sh");
+export const CLICKHOUSE_TEST_URL = "http://127.0.0.1:18123";
+/** Written when a test run started the server, so that jest's global teardown stops it (and only then). */
+export const CLICKHOUSE_STARTED_MARK = join(process.env.SHRINKWISE_CLICKHOUSE_HOME || "/tmp/shrinkwise-clickhouse", "started-by-jest");
+const CLICKHOUSE_INSTALL = "apt-get install -y clickhouse-server clickhouse-client";
+
+/** Whether `SELECT 1` answers 1 at `url` within a few seconds (a child Node process: gates are decided synchronously). */
+export function clickhouseAnswers(url: string): boolean {
+  const probe = spawnSync(
+    process.execPath,
+    [
+      "-e",
+      `fetch(process.argv[1], { method: "POST", body: "SELECT 1", signal: AbortSignal.timeout(3000) })
+        .then((r) => r.text()).then((t) => process.exit(t.trim() === "1" ? 0 : 1), () => process.exit(1))`,
+      url,
+    ],
+    { encoding: "utf8", timeout: 10_000 },
+  );
+  return probe.status === 0;
+}
+
+let clickhouseDecided: { url: string | null; need: Need | null } | null = null;
+
+/**
+ * The ClickHouse server the suites use: SHRINKWISE_CLICKHOUSE_URL when set (it must answer), else
+ * the repo's test server, started here with server.sh when the binary is installed. Decided once
+ * per test file. `url` is null when there is none; `need` then says why and what fixes it.
+ */
+export function clickhouseServer(): { url: string | null; need: Need | null } {
+  if (clickhouseDecided) return clickhouseDecided;
+  const named = process.env.SHRINKWISE_CLICKHOUSE_URL?.trim();
+  if (named) {
+    clickhouseDecided = clickhouseAnswers(named)
+      ? { url: named, need: null }
+      : { url: null, need: { what: `no ClickHouse answers at SHRINKWISE_CLICKHOUSE_URL=${named}`, fix: `${CLICKHOUSE_SERVER_SCRIPT} start` } };
+    return clickhouseDecided;
+  }
+  const binary = process.env.SHRINKWISE_CLICKHOUSE_SERVER || "/usr/sbin/clickhouse-server";
+  const missing = programNeed(binary, CLICKHOUSE_INSTALL);
+  if (missing) {
+    clickhouseDecided = { url: null, need: missing };
+    return clickhouseDecided;
+  }
+  const started = spawnSync(CLICKHOUSE_SERVER_SCRIPT, ["start"], { encoding: "utf8", timeout: 120_000 });
+  if (started.status !== 0) {
+    const reason = `${started.stderr ?? ""}`.trim().split("\n")[0] || `server.sh start exited with ${started.status}`;
+    clickhouseDecided = { url: null, need: { what: `the ClickHouse test server did not start (${reason})`, fix: `${CLICKHOUSE_SERVER_SCRIPT} start` } };
+    return clickhouseDecided;
+  }
+  if (/^ClickHouse test server running/m.test(started.stdout)) writeFileSync(CLICKHOUSE_STARTED_MARK, `${process.pid}\n`);
+  clickhouseDecided = { url: CLICKHOUSE_TEST_URL, need: null };
+  return clickhouseDecided;
+}
+
+export function clickhouseNeed(): Need | null {
+  return clickhouseServer().need;
 }
