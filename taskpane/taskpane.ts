@@ -114,12 +114,10 @@ export function demoChoice(current: DemoSet, onChoose: (set: DemoSet) => void): 
 
 /**
  * The pane's fits from sums (taskpane/sources/): the panel and its routes are a chunk loaded on
- * the first switch away from worksheet ranges. The sums-table route is offered; the file route
- * joins it with the SQL generator.
+ * the first switch away from worksheet ranges (DuckDB, for a file, on the first file read).
  */
 const SUMS_OPTIONS = {
   sumsRoutes: () => import(/* webpackChunkName: "sums-pane" */ "./sources/routes").then((m) => m.sumsRoutes),
-  sumsSources: ["sums"] as const,
 };
 
 async function startExcel(root: HTMLElement): Promise<void> {
