@@ -12,7 +12,8 @@
  *   origin          text: "Huila", "Sidamo", "Cerrado" (an invented mix of growing regions)
  *   color_index     the target: a roast colour reading (higher is lighter)
  *
- * `roastLog(roasts, seed)` gives the rows; `numberColumns` are the number predictors in order.
+ * `roastLog(roasts, seed)` gives the rows, `roastCsv` their CSV text, `designOf` the matrix the
+ * in-memory engine takes; `NUMBER_PREDICTORS` are the number predictors in order.
  */
 import { TestRandom } from "../helpers/random";
 
@@ -75,4 +76,12 @@ function round(x: number, digits: number): number {
 export function roastCsv(rows: readonly RoastMinute[]): string {
   const columns = Object.keys(rows[0]) as (keyof RoastMinute)[];
   return [columns.join(","), ...rows.map((row) => columns.map((c) => String(row[c])).join(","))].join("\n") + "\n";
+}
+
+/** The roast log as the in-memory engine takes it: number predictors, origin as two indicators (reference: Huila, the most frequent; levels in code-point order, as the SQL generator names them). */
+export function designOf(rows: readonly RoastMinute[]): { x: number[][]; y: number[]; names: string[] } {
+  const levels = ORIGINS.filter((o) => o !== "Huila").sort();
+  const names = [...NUMBER_PREDICTORS, ...levels.map((l) => `origin: ${l}`)];
+  const x = rows.map((row) => [...NUMBER_PREDICTORS.map((c) => row[c]), ...levels.map((l) => (row.origin === l ? 1 : 0))]);
+  return { x, y: rows.map((row) => row.color_index), names };
 }

@@ -22,7 +22,7 @@ import { fit, type FitResult } from "../../engine/fit";
 import { sumsOfRows, sumsToLong } from "../../engine/sums";
 import { foldOfKey } from "../../engine/sumsSql";
 import { browserGate, launchBrowser, saveScreenshot, scanAccessibility, startServer, StaticServer } from "./harness";
-import { NUMBER_PREDICTORS, ORIGINS, roastCsv, roastLog } from "./roastLog";
+import { designOf, roastCsv, roastLog } from "./roastLog";
 
 const suite = browserGate("the pane's fits from sums in Chromium (test/browser/sumsRoutes.test.ts)").describe;
 
@@ -57,14 +57,6 @@ async function waitForSumsStatus(page: Page, pattern: RegExp, timeout = 90000): 
     { timeout },
   );
   return (await page.getByTestId("sums-status").textContent()) ?? "";
-}
-
-/** The roast log as the in-memory engine takes it: number predictors, origin as two indicators (reference: Huila, the most frequent). */
-export function designOf(rows: ReturnType<typeof roastLog>): { x: number[][]; y: number[]; names: string[] } {
-  const levels = ORIGINS.filter((o) => o !== "Huila").sort();
-  const names = [...NUMBER_PREDICTORS, ...levels.map((l) => `origin: ${l}`)];
-  const x = rows.map((row) => [...NUMBER_PREDICTORS.map((c) => row[c]), ...levels.map((l) => (row.origin === l ? 1 : 0))]);
-  return { x, y: rows.map((row) => row.color_index), names };
 }
 
 suite("fits from sums in Chromium (standalone preview, strict CSP)", () => {
