@@ -26,7 +26,8 @@
  *   prediction intervals), `foldModels` and `keptShare` are there as usual.
  * - Refused with a message: two-class outcomes and the MAE (they need passes over the rows),
  *   repeats, honest error and stability selection (they re-deal the rows), residual updates (they
- *   keep rows), fold labels or time order given as options (the table's blocks are the folds),
+ *   keep rows), fold labels, time order or a seed given as options (the table's blocks are the
+ *   folds), weights (they are summed into the table),
  *   and strength 0 without bounds (least squares with its standard errors: fit the rows, or give
  *   a small strength). A fixed positive strength is fitted from the whole table's sums.
  */
@@ -107,6 +108,8 @@ function refuseRowOptions(options: SumsFitOptions): void {
   if (options.updates === "residual") refuse("residual updates work on the rows, and a sums table holds only their sums: use gram (covariance) updates, the default here");
   if (options.foldLabels) refuse("fold labels can't be given with a sums table: its blocks are the folds (use folds to merge them)");
   if (options.timeOrdered) refuse("time order can't be set with a sums table: the table says whether its blocks are in time order");
+  if (options.weights) refuse("weights can't be given with a sums table: they were summed into it (its weights column); leave them out");
+  if (options.seed !== undefined && options.seed !== null) refuse("a seed deals rows into random folds, and a sums table's blocks are already the folds: leave the seed out");
 }
 
 /** Largest magnitude of each term and of the target, from the blocks' `largest` or an upper estimate of the typical size (module comment). */

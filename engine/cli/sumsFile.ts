@@ -23,20 +23,21 @@ export function sumsOfTable(table: FitTable, options: CommandOptions): SumsTable
   }
   const n = table.targetValues.length;
   const K = options.folds ?? 10;
-  let labels: string[];
+  // Fold numbers as numbers, so the blocks sort 1, 2, …, 10 (the fit's own fold order), not as text.
+  let labels: (string | number)[];
   let blocking: string;
   if (table.foldLabels) {
     labels = table.foldLabels;
     blocking = `one block per value of column '${options.foldColumn as string}'`;
   } else if (options.timeOrdered) {
-    labels = new Array<string>(n);
+    labels = new Array<number>(n);
     for (let b = 0; b <= K; b++) {
-      for (let i = Math.floor((b * n) / (K + 1)); i < Math.floor(((b + 1) * n) / (K + 1)); i++) labels[i] = String(b + 1);
+      for (let i = Math.floor((b * n) / (K + 1)); i < Math.floor(((b + 1) * n) / (K + 1)); i++) labels[i] = b + 1;
     }
     blocking = `${K + 1} time blocks in row order`;
   } else {
     const seed = options.seed ?? 1;
-    labels = Array.from(randomFolds(n, K, seed), (k) => String(k + 1));
+    labels = Array.from(randomFolds(n, K, seed), (k) => k + 1);
     blocking = `${K} random folds (seed ${seed})`;
   }
   return sumsOfRows(table.predictors, table.targetValues, table.weights, labels, table.predictorNames, table.target, {

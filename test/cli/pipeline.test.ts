@@ -120,7 +120,7 @@ describe("runCommand", () => {
     [["good.csv", "--target", "y", "--exclude", "site", "--folds", "1"], /^shrinkwise: folds must be a whole number from 2 to 1000; got 1/],
     [["good.csv", "--target", "y", "--exclude", "site", "--count", "0"], /^shrinkwise: the number of strengths must be a whole number/],
     [["good.csv", "--target", "y", "--exclude", "site", "--low-end", "2"], /^shrinkwise: the low-end ratio must be between 0 and 1/],
-    [["good.csv", "--target", "y", "--fold-column", "site", "--time-ordered"], /^shrinkwise: fold labels and time-ordered folds can't be used together/],
+    [["good.csv", "--target", "y", "--fold-column", "site", "--time-ordered"], "--fold-column and --time-ordered each say how rows make folds: give one"],
     [["good.csv", "--target", "z"], /^shrinkwise: the target 'z' is not a column of the file; the columns are 'a', 'b', 'y', 'w', 'site'/],
     [["good.csv", "--target", "y"], "column 'site' has text in data row 1 ('n'); leave the column out with --exclude site"],
     [["constant.csv", "--target", "y"], /^shrinkwise: the target has the same value \(5\) in every row/],

@@ -155,6 +155,7 @@ describe("the README's 'Fit from sums' commands", () => {
     const table = parseSumsJSON(s.written["roastery-sums.json"]);
     expect(table.blocks).toHaveLength(10);
     expect(table.blocking).toBe("10 random folds (seed 1)");
+    expect(table.blocks.map((b) => b.label)).toEqual(["1", "2", "3", "4", "5", "6", "7", "8", "9", "10"]);
     expect(merged.cv?.folds).toBe(5);
     expect((merged as unknown as { mix: number }).mix).toBe(1);
   });

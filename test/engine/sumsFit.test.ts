@@ -252,6 +252,8 @@ describe("refusals say what to do", () => {
     [{ folds: 5 }, /folds is 5, but this sums table has 3 blocks: give a whole number from 2 to 3/],
     [{ folds: 1 }, /folds is 1/],
     [{ mixes: [2] }, /mix/],
+    [{ weights: [1, 2] }, /weights can't be given with a sums table/],
+    [{ seed: 4 }, /leave the seed out/],
   ];
   it.each(refused.map(([o, m]) => [JSON.stringify(o), o, m] as const))("%s", (_, options, message) => {
     expect(() => fitFromSums(table(), options)).toThrow(InputError);
