@@ -17,7 +17,7 @@
 import * as duckdb from "@duckdb/duckdb-wasm";
 
 /** One cell of a query result as the pane uses it. */
-export type SqlValue = number | string | boolean | null;
+export type SqlValue = number | string | boolean | null | SqlValue[];
 export type SqlRow = Record<string, SqlValue>;
 
 /** The files copied into dist/duckdb/ (the build test checks each is there). */
@@ -44,8 +44,9 @@ export interface DuckdbSession {
 
 /**
  * A JavaScript value from an Arrow result as the pane keeps it: 64-bit integers (bigint) become
- * numbers when they are exact as doubles, else text (so nothing is rounded silently); other
- * Arrow types (dates, decimals) become their text.
+ * numbers when they are exact as doubles, else text (so nothing is rounded silently); lists (an
+ * Arrow vector, a typed array or an array: e.g. the time blocks' quantiles) become arrays of such
+ * values; other Arrow types (dates, decimals) become their text.
  */
 export function plainValue(value: unknown): SqlValue {
   if (value === null || value === undefined) return null;
@@ -54,6 +55,10 @@ export function plainValue(value: unknown): SqlValue {
     return value <= BigInt(Number.MAX_SAFE_INTEGER) && value >= BigInt(-Number.MAX_SAFE_INTEGER) ? Number(value) : value.toString();
   }
   if (value instanceof Date) return value.toISOString();
+  if (Array.isArray(value) || ArrayBuffer.isView(value)) return Array.from(value as ArrayLike<unknown>, plainValue);
+  if (typeof value === "object" && typeof (value as { toArray?: unknown }).toArray === "function") {
+    return Array.from((value as { toArray(): ArrayLike<unknown> }).toArray(), plainValue);
+  }
   return String(value);
 }
 

@@ -295,6 +295,16 @@ suite("fits from sums in Chromium (standalone preview, strict CSP)", () => {
       expect(requests.filter((url) => url.endsWith("/duckdb/duckdb-browser-eh.worker.js")).length).toBe(workersBefore + 1);
       await saveScreenshot(page, "file-after-cancel");
     }, 150000);
+
+    test("time blocks in the order of a column: K + 1 blocks, fitted forward", async () => {
+      await page.getByTestId("file-fold-rule").selectOption("time");
+      await page.getByTestId("file-fold-column").selectOption("batch_id");
+      await page.getByTestId("file-folds").fill("3");
+      expect(await page.getByTestId("sums-stale-banner").isVisible()).toBe(true);
+      await page.getByTestId("sums-fit-button").click();
+      expect(await waitForSumsStatus(page, /^Fitted|could not/)).toMatch(/^Fitted from sums/);
+      expect(await page.getByTestId("sums-chosen-rows").textContent()).toMatch(new RegExp(`^${rows.length} used, 0 skipped .*4 blocks`));
+    }, 150000);
   });
 
   describe("at the end", () => {

@@ -6,7 +6,7 @@
  * (test/browser/fileSums.test.ts).
  */
 import { CancelledError, InputError } from "../../../engine/errors";
-import type { DuckdbSession, SqlRow } from "../../../taskpane/sources/duckdbSession";
+import { plainValue, type DuckdbSession, type SqlRow } from "../../../taskpane/sources/duckdbSession";
 import { columnsOf, fileKindOf, fileProblem, FileSumsReader, readerOf, sqlName, sqlText } from "../../../taskpane/sources/fileSums";
 
 /** A File as the browser gives one (only the name matters to the reader). */
@@ -54,6 +54,17 @@ const DESCRIBED: SqlRow[] = [
   { column_name: "cup_score", column_type: "DOUBLE", null: "YES" },
   { column_name: "price", column_type: "DECIMAL(9,2)", null: "YES" },
 ];
+
+test("query values as the pane keeps them: exact 64-bit integers as numbers, larger ones as text, lists as arrays", () => {
+  expect(plainValue(BigInt(2) ** BigInt(53) - BigInt(1))).toBe(9007199254740991);
+  expect(plainValue(BigInt(2) ** BigInt(60))).toBe("1152921504606846976");
+  expect(plainValue([BigInt(3), 2.5, null, "a"])).toEqual([3, 2.5, null, "a"]);
+  expect(plainValue(new Float64Array([0.1, 2]))).toEqual([0.1, 2]);
+  // An Arrow vector (a list cell from duckdb-wasm) has toArray().
+  expect(plainValue({ toArray: () => new BigInt64Array([BigInt(40001), BigInt(40090)]) })).toEqual([40001, 40090]);
+  expect(plainValue(new Date(Date.UTC(2026, 11, 4)))).toBe("2026-12-04T00:00:00.000Z");
+  expect(plainValue(undefined)).toBeNull();
+});
 
 test("file kinds by name; anything else is refused with what to choose", () => {
   expect(fileKindOf("Roast log 2026.CSV")).toBe("csv");

@@ -131,6 +131,24 @@ test("cancel between queries stops the file route with CancelledError", async ()
   expect(log).toEqual(["DESCRIBE SELECT * FR"]);
 });
 
+test("time blocks by an ordering column: a time-ordered table of K + 1 blocks, fitted forward (the pane's third fold rule)", async () => {
+  const reader = new FileSumsReader(nodeSession(new Map([["roast-log.csv", csv]]), []));
+  const table = await sumsOfFile(
+    reader,
+    { name: "roast-log.csv" } as File,
+    { target: "color_index", predictors: ["drum_temp", "bean_moisture", "origin"], weights: null, fold: { kind: "time", column: "batch_id", folds: 3 } },
+    () => undefined,
+    { aborted: false, onAbort: () => undefined },
+  );
+  await reader.reset();
+  expect(table.timeOrdered).toBe(true);
+  expect(table.blocks.map((b) => b.label)).toEqual(["1", "2", "3", "4"]);
+  expect(table.blocks.reduce((n, b) => n + b.rows, 0)).toBe(rows.length);
+  const result = await fitWithSettings(table, { rule: "lowest", standardize: true, intercept: true }, () => undefined, { aborted: false, onAbort: () => undefined });
+  expect(result.cv?.folds).toBe(3); // forward chaining: each later block scored once
+  expect(result.terms).toEqual(["drum_temp", "bean_moisture", "origin: Cerrado", "origin: Sidamo"]);
+});
+
 test("the sums-table route reads the long form as a range holds it (blank cells as \"\")", () => {
   const { x, y, names } = designOf(rows);
   const labels = rows.map((row) => `shift ${row.minute % 3}`);
