@@ -30,8 +30,8 @@ class NodeFitWorker implements WorkerLike {
     this.worker.on("error", (error) => this.onerror?.(error));
   }
 
-  postMessage(message: ToWorker): void {
-    this.worker.postMessage(message);
+  postMessage(message: ToWorker, transfer?: ArrayBuffer[]): void {
+    this.worker.postMessage(message, transfer);
   }
 
   terminate(): void {

@@ -68,8 +68,8 @@ function blocks(base: DataSet, size: number, count: number): DataSet[] {
 
 function roastery(): DataSet {
   const sheet = demoSheet();
-  const { request } = prepare(sheet.target, sheet.predictors, null, null);
-  return { name: "roastery (demo)", x: request.predictors, y: request.target };
+  const { dataset } = prepare(sheet.target, sheet.predictors, null, null);
+  return { name: "roastery (demo)", x: dataset.predictors, y: dataset.target };
 }
 
 interface MixCurve {

@@ -37,6 +37,11 @@
  * × the default grid × 6 mixes, from tables summed from 10,000 and 1,000,000 rows (goal ≤ 50 ms,
  * the same for both: the fit never sees the rows).
  *
+ * `--only sums` also times the sums table by DuckDB (bench/sumsDuckdb.ts): a seeded 10,000,000 × 20
+ * Parquet file in a temporary folder (removed afterwards), the sums' time as a ratio to a plain
+ * single-aggregate scan of the same columns (goal ≤ 3), and the process's peak memory at 1M and
+ * 10M rows (goal: independent of the rows).
+ *
  * Prints a table, then one JSON line per case.
  *
  * Usage: npm run bench [-- --only 1000x50,cells-1000x50] [-- --repeat 3] [-- --threads 1|auto]
@@ -56,6 +61,7 @@ import { blockSums } from "../engine/problem";
 import { coefsThroughCells, nodeWorkerRunner, worksheetValues } from "./cellPath";
 import { makeData, makeTwoClass } from "./data";
 import { sumsFitBench } from "./sums";
+import { duckdbSumsBench } from "./sumsDuckdb";
 import { compileFloor, FloorRun, runFloor, writeFloorInput } from "./floor";
 
 type Kind = "number" | "two-class" | "cells";
@@ -443,6 +449,10 @@ async function main(): Promise<void> {
   const cellTable: string[][] = [["case", "cell path ms", "engine ms", "cells÷engine", "target"]];
   const twoTable: string[][] = [["case", "ms", "number ms", "vs number", "event share", "chosen mix", "strength", "CV deviance", "max KKT", "halvings", "target"]];
   const lines: string[] = [];
+  // The sums by DuckDB run in this process: its peak memory is the figure, so they run first,
+  // before the fit-from-sums case below builds its tables from rows held in memory.
+  const duckdbSums = only?.has("sums") ? await duckdbSumsBench(repeat) : null;
+  if (duckdbSums) lines.push(...duckdbSums.lines);
   // The fit from sums runs in this process: it times milliseconds of work on tables of a few kB.
   const sums = only?.has("sums") ? sumsFitBench(repeat) : null;
   if (sums) lines.push(...sums.lines);
@@ -551,6 +561,7 @@ async function main(): Promise<void> {
   print(cellTable);
   print(twoTable);
   if (sums) print(sums.table);
+  if (duckdbSums) print(duckdbSums.table);
   console.log("");
   for (const line of lines) console.log(line);
 }

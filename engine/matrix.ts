@@ -11,6 +11,17 @@ export interface ColumnMatrix {
   readonly data: Float64Array;
 }
 
+/**
+ * True for a column-major matrix (rather than rows of numbers). The storage is recognized by its
+ * tag as well as by `instanceof`, so a matrix made in another realm (a structured clone from a
+ * worker's port, or a test harness's own globals) still counts.
+ */
+export function isColumnMatrix(value: unknown): value is ColumnMatrix {
+  if (typeof value !== "object" || value === null) return false;
+  const data = (value as ColumnMatrix).data;
+  return data instanceof Float64Array || Object.prototype.toString.call(data) === "[object Float64Array]";
+}
+
 /** A zero-filled `rows × columns` matrix. Cost O(rows·columns). */
 export function zeroMatrix(rows: number, columns: number): ColumnMatrix {
   return { rows, columns, data: new Float64Array(rows * columns) };

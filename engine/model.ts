@@ -7,7 +7,7 @@
  * coefficients are log-odds of the event, and predicts the event's probability 1 / (1 + e^−η).
  */
 import { InputError } from "./errors";
-import type { ColumnMatrix } from "./matrix";
+import { isColumnMatrix, type ColumnMatrix } from "./matrix";
 import { tableExp } from "./portableMath";
 
 export type ModelLink = "identity" | "logistic";
@@ -77,7 +77,7 @@ export function predict(model: LinearModel, rows: ArrayLike<ArrayLike<number>> |
 /** The linear score b0 + Σ b_j x_ij for each row (log-odds for a logistic model), before the link. */
 export function linearScore(model: LinearModel, rows: ArrayLike<ArrayLike<number>> | ColumnMatrix): Float64Array {
   const p = model.coefficients.length;
-  if ("data" in rows && (rows as ColumnMatrix).data instanceof Float64Array) {
+  if (isColumnMatrix(rows)) {
     const matrix = rows as ColumnMatrix;
     if (matrix.columns !== p) {
       throw new InputError("shape", `new rows have ${matrix.columns} columns but the model has ${p} terms`);

@@ -60,6 +60,28 @@ export function parseOutcome(text: string): OutcomeSetting | null {
 }
 
 /**
+ * True when the rules above make `values` a number outcome without looking further: every value
+ * is a number and the setting is `number`, or it is `auto` and the distinct values are not exactly
+ * 0 and 1. One pass and no text key per value (the general reading below keys every value, which
+ * cost a 50,000-row worksheet target as much as the rest of its reading). Any other case (text,
+ * booleans, 0/1 targets, `two-class`) is left to the general reading, which gives the same answer.
+ */
+function plainNumberOutcome(values: readonly OutcomeValue[], setting: OutcomeSetting): boolean {
+  if (setting === "two-class") return false;
+  let zero = false;
+  let one = false;
+  let other = false;
+  for (let i = 0; i < values.length; i++) {
+    const v = values[i];
+    if (typeof v !== "number") return false;
+    if (v === 0) zero = true;
+    else if (v === 1) one = true;
+    else other = true;
+  }
+  return setting === "number" || other || !(zero && one);
+}
+
+/**
  * Reads a target column (blanks removed) as a number outcome or a two-class one (see the file
  * comment). `name` is the target's name for messages. Throws InputError with what to fix.
  */
@@ -68,6 +90,7 @@ export function readOutcome(
   options: { outcome?: OutcomeSetting; event?: string | null; name?: string } = {},
 ): OutcomeReading {
   const setting = options.outcome ?? "auto";
+  if (plainNumberOutcome(values, setting)) return { kind: "number", values: Float64Array.from(values as number[]) };
   const name = options.name ? `'${options.name}'` : "the target";
   const distinct = new Map<string, { value: OutcomeValue; count: number; first: number }>();
   for (let i = 0; i < values.length; i++) {

@@ -10,7 +10,8 @@
  *    expected or a key column that is not whole numbers is refused here, before any scan.
  * 1. First pass (one row, one scan): rows in the source, rows used (no NULL in any used column;
  *    the rest are skipped and counted, as the cells skip rows with a blank), Σw, Σw·x of every
- *    number column (the global centre c = Σw·x/Σw), non-finite values and negative weights (refused),
+ *    number column (the global centre c = Σw·x/Σw; a non-finite sum means a NaN or ±∞ in the
+ *    column, refused), negative weights (refused),
  *    for text columns the count of distinct values in the used rows (the level cap) and how many
  *    values read as numbers (a mostly-number text column is a typo: refused naming a sample value;
  *    an all-number text column is read as numbers), and for time blocks the cut points.
@@ -129,8 +130,9 @@ export function foldOfKey(key: bigint | number, folds: number): number {
 /** The SQL of foldOfKey(key, K) + 1 (labels 1..K) for an integer expression. */
 export function foldHashSql(keyExpression: string, folds: number, dialect: SqlDialect): string {
   if (dialect === "duckdb") {
-    // HUGEINT first: a UBIGINT key above 2^63 would not fit BIGINT; m fits BIGINT after it.
-    const m = `CAST(((CAST(${keyExpression} AS HUGEINT) % ${TWO_32}) + ${TWO_32}) % ${TWO_32} AS BIGINT)`;
+    // The remainder first, in the key's own type (|key % 2^32| < 2^32 fits BIGINT whatever the
+    // type, UBIGINT above 2^63 included); HUGEINT arithmetic on every row would cost a scan's worth.
+    const m = `((CAST(${keyExpression} % ${TWO_32} AS BIGINT) + ${TWO_32}) % ${TWO_32})`;
     return `(((((${m}) % 65536) * ${GOLDEN} + (((${m}) // 65536) * ${GOLDEN} % 65536) * 65536) % ${TWO_32}) % ${folds} + 1)`;
   }
   // toInt64 of a UInt64 key above 2^63 wraps by 2^64, which leaves key mod 2^32 unchanged.
@@ -424,10 +426,6 @@ function distinctWhere(plan: SumsPlan, expression: string, condition: string): s
   return plan.dialect === "duckdb" ? `count(DISTINCT ${expression}) FILTER (WHERE ${condition})` : `uniqExactIf(${expression}, ${condition})`;
 }
 
-function notFinite(plan: SumsPlan, expression: string): string {
-  return plan.dialect === "duckdb" ? `NOT isfinite(${expression})` : `NOT isFinite(${expression})`;
-}
-
 /** A list of aggregates with aliases a0, a1, …: add returns the alias. */
 class AggregateList {
   readonly items: string[] = [];
@@ -452,8 +450,6 @@ export interface FirstPass {
   negativeWeights: string | null;
   /** Per number column (target, weights, number-typed and text predictors): Σw·x over used rows. */
   weightedSum: Map<string, string>;
-  /** Per number column: non-finite values in used rows. */
-  nonFinite: Map<string, string>;
   /** Per text column: non-NULL values (all rows), those that read as numbers, the smallest that does not. */
   textCheck: Map<string, { present: string; numbers: string; sample: string }>;
   /** Per text predictor: distinct values in used rows. */
@@ -474,7 +470,6 @@ export function firstPassSql(plan: SumsPlan): FirstPass {
     weight: list.add(w === null ? countWhere(plan, used) : conditional(plan, "sum", w, used)),
     negativeWeights: w === null ? null : list.add(countWhere(plan, `${used} AND ${w} < 0`)),
     weightedSum: new Map(),
-    nonFinite: new Map(),
     textCheck: new Map(),
     distinct: new Map(),
     cuts: null,
@@ -493,8 +488,9 @@ export function firstPassSql(plan: SumsPlan): FirstPass {
     }
     const x = numberSql(plan, c);
     // A text column that turns out to hold levels adds these two harmlessly (NULL reads skipped).
+    // A NaN or ±∞ in the column (or values too large to add) makes this sum non-finite: the check
+    // costs no aggregate of its own.
     out.weightedSum.set(c.name, list.add(conditional(plan, "sum", w === null ? x : `${w} * ${x}`, used)));
-    out.nonFinite.set(c.name, list.add(countWhere(plan, `${used} AND ${notFinite(plan, x)}`)));
   }
   const fold = plan.request.fold;
   if (fold.kind === "time" && fold.cuts === undefined) {
@@ -577,20 +573,20 @@ export function readFirstPass(plan: SumsPlan, pass: FirstPass, row: SqlRow): Fir
   if (usedRows === 0) {
     throw new InputError("empty", totalRows === 0 ? `${describeSource(plan.request.source)} has no rows` : `every one of the ${totalRows} rows has a blank (NULL) in a used column: nothing to fit`);
   }
-  for (const [name, alias] of pass.nonFinite) {
-    if (textPredictors.includes(name)) continue;
-    const count = needNumber(row, alias);
-    if (count > 0) throw new InputError("not-finite", `column '${name}' has ${count} value${count === 1 ? "" : "s"} that ${count === 1 ? "is" : "are"} not finite (NaN or infinity): fix them or clear the cells`);
-  }
   if (pass.negativeWeights !== null && needNumber(row, pass.negativeWeights) > 0) {
     throw new InputError("weights", `the weights column '${plan.weights?.name}' has negative values: weights must be 0 or more`);
   }
   const weight = needNumber(row, pass.weight);
   if (!(weight > 0)) throw new InputError("weights", `the weights column '${plan.weights?.name}' adds up to 0 over the used rows: at least one row must weigh more than 0`);
+  if (!Number.isFinite(weight)) throw new InputError("not-finite", `the weights column '${plan.weights?.name}' has values that are not finite (NaN or infinity) or too large to add up: fix them or clear the cells`);
   const centre = new Map<string, number>();
   for (const [name, alias] of pass.weightedSum) {
     if (textPredictors.includes(name)) continue;
-    centre.set(name, needNumber(row, alias) / weight);
+    const sum = needNumber(row, alias);
+    if (!Number.isFinite(sum)) {
+      throw new InputError("not-finite", `column '${name}' has values that are not finite (NaN or infinity) or too large to add up: fix them, clear the cells, or record the column in other units`);
+    }
+    centre.set(name, sum / weight);
   }
   let cuts: number[] | null = null;
   const fold = plan.request.fold;

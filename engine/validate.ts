@@ -4,7 +4,7 @@
  * Message shape: what is wrong, in the user's terms, then what to do about it.
  */
 import { InputError } from "./errors";
-import { ColumnMatrix, fromRows } from "./matrix";
+import { ColumnMatrix, fromRows, isColumnMatrix } from "./matrix";
 
 export function describeColumn(names: readonly string[] | undefined, j: number): string {
   return names && names[j] !== undefined ? `'${names[j]}'` : `${j + 1}`;
@@ -54,10 +54,6 @@ export function checkPredictors(
     }
   }
   return matrix;
-}
-
-function isColumnMatrix(value: unknown): value is ColumnMatrix {
-  return typeof value === "object" && value !== null && (value as ColumnMatrix).data instanceof Float64Array;
 }
 
 function describeValue(v: number): string {

@@ -49,6 +49,7 @@ import {
   applyCoefficientTable,
   buildDataset,
   Dataset,
+  datasetRequest,
   EncodedRows,
   encodeNewRows,
   listNames,
@@ -57,7 +58,7 @@ import {
   termIndices,
 } from "./dataset";
 import { DataError, SettingError, toCellError } from "./errors";
-import type { CancelToken, FitRequest, FitRunner, PlainFitOptions } from "./runner";
+import type { AnyFitRequest, CancelToken, FitRunner, PlainFitOptions } from "./runner";
 import { BASELINE_SETTINGS, DEFAULT_CUTOFF, parseMixes, parseSettings, SCORE_SETTINGS, Settings } from "./settings";
 import {
   baselineSpill,
@@ -219,7 +220,7 @@ function checkOutcomeSettings(dataset: Dataset, settings: Settings): void {
 export interface Prepared {
   dataset: Dataset;
   settings: Settings;
-  request: FitRequest;
+  request: AnyFitRequest;
 }
 
 /**
@@ -233,7 +234,7 @@ export function prepare(target: unknown, predictors: unknown, mixesRaw: unknown,
   const dataset = buildDataset(target, predictors, settings);
   checkOutcomeSettings(dataset, settings);
   const options = fitOptions(dataset, settings, mixList, mixes !== undefined ? "mix" : "mixes");
-  return { dataset, settings, request: { predictors: dataset.predictors, target: dataset.target, options } };
+  return { dataset, settings, request: datasetRequest(dataset, options) };
 }
 
 /**
@@ -629,7 +630,7 @@ export function baseline(runner: FitRunner, target: unknown, predictors: unknown
     checkOutcomeSettings(dataset, settings);
     const options: PlainFitOptions = { names: dataset.names.slice(), mixes: [1], strength: 0 };
     if (dataset.outcome === "two-class") options.outcome = "two-class";
-    const request: FitRequest = { predictors: dataset.predictors, target: dataset.target, options };
+    const request = datasetRequest(dataset, options);
     const result = await runner.fit(request, cancel ?? undefined);
     if (!result.baseline) throw new Error("the unpenalized fit returned no standard errors");
     return dataset.outcome === "two-class" ? twoClassBaselineSpill(result, dataset) : baselineSpill(result, dataset);

@@ -239,16 +239,29 @@ export function textKey(text: string): string {
 
 /**
  * A range argument as rows of raw cells. A scalar becomes a 1×1 range, a flat array one
- * column, `null`/`undefined` an empty range; short rows are padded with blanks.
+ * column, `null`/`undefined` an empty range; short rows are padded with blanks. A range that
+ * already is rows of equal length (what Excel passes) is returned as it is, not copied: callers
+ * only read it.
  */
 export function toGrid(value: unknown): unknown[][] {
   if (value === null || value === undefined) return [];
   if (!Array.isArray(value)) return [[value]];
   if (value.length === 0) return [];
+  if (isRectangular(value)) return value as unknown[][];
   const rows: unknown[][] = value.map((row) => (Array.isArray(row) ? row : [row]));
   let width = 0;
   for (const row of rows) width = Math.max(width, row.length);
   return rows.map((row) => (row.length === width ? row : [...row, ...new Array<unknown>(width - row.length).fill(null)]));
+}
+
+function isRectangular(value: unknown[]): boolean {
+  const first = value[0];
+  if (!Array.isArray(first)) return false;
+  for (let i = 1; i < value.length; i++) {
+    const row = value[i];
+    if (!Array.isArray(row) || row.length !== first.length) return false;
+  }
+  return true;
 }
 
 /** True when every cell of the grid is blank. */

@@ -67,9 +67,11 @@ import {
   textKey,
   toGrid,
 } from "./cells";
+import { rowOf, type ColumnMatrix } from "../engine/matrix";
 import { numberFromText, readNumberText } from "../engine/numberText";
 import { readOutcome, type OutcomeKind, type OutcomeValue } from "../engine/outcome";
 import { DataError, SettingError } from "./errors";
+import type { AnyFitRequest, PlainFitOptions } from "./runner";
 import type { Settings } from "./settings";
 
 /** How one source column turns into terms (0 or 1 number column, or indicators). */
@@ -112,8 +114,10 @@ export interface Dataset {
   targetName: string;
   /** Term names (engine `names`). */
   names: string[];
-  /** One encoded row per used row. */
-  predictors: number[][];
+  /** One encoded row per used row (made from `matrix` when first read). */
+  readonly predictors: number[][];
+  /** The same encoded values as one column-major matrix (rows used × terms): what large requests send. */
+  matrix: ColumnMatrix;
   target: number[];
   weights: number[] | null;
   foldLabels: (number | string)[] | null;
@@ -133,6 +137,26 @@ export interface Dataset {
   outcome: OutcomeKind;
   /** The two classes of a yes/no target; null for a number target. */
   classes: TargetClasses | null;
+}
+
+/**
+ * Grids of at least this many encoded values (rows used × terms) send the packed request
+ * (runner.ts PackedFitRequest). Below it both forms cost microseconds, and the rows form keeps a
+ * small request readable where tests and diagnostics show it.
+ */
+export const PACKED_MIN_VALUES = 4096;
+
+/** The fit request for this dataset: packed (the matrix) for large grids, else rows. */
+export function datasetRequest(dataset: Dataset, options: PlainFitOptions): AnyFitRequest {
+  if (dataset.matrix.rows * dataset.matrix.columns >= PACKED_MIN_VALUES) return { predictors: dataset.matrix, target: dataset.target, options };
+  return { predictors: dataset.predictors, target: dataset.target, options };
+}
+
+/** A matrix's rows as arrays. */
+function rowsOf(matrix: ColumnMatrix): number[][] {
+  const rows = new Array<number[]>(matrix.rows);
+  for (let i = 0; i < matrix.rows; i++) rows[i] = rowOf(matrix, i);
+  return rows;
 }
 
 /** The settings the data layer reads (`outcome` and `event` default to auto and the default event). */
@@ -170,6 +194,97 @@ export function listNames(names: readonly string[], limit = 12): string {
 
 function classifyGrid(grid: unknown[][]): Cell[][] {
   return grid.map((row) => row.map(classifyCell));
+}
+
+const BLANK_CELL: Cell = { kind: "blank" };
+
+/**
+ * True when raw value `v` of column `j` is a plain finite number that reads as itself: not a zero
+ * that `zeros` (CellGrid.zerosBlankAt) makes blank. Such a cell is classified as
+ * { kind: "number", value: v } by cells.ts, so its Cell need not be made.
+ */
+function isPlain(v: unknown, zeros: Uint8Array | null, j: number): v is number {
+  return typeof v === "number" && v - v === 0 && (v !== 0 || zeros === null || zeros[j] === 0);
+}
+
+/**
+ * A training range's cells, classified on demand (cells.ts policy). A plain finite number, the
+ * bulk of a data range, is read straight from the raw value by `numberAt`, with no Cell object:
+ * building one object per cell of a 50,000 × 40 range cost more than the fit itself, mostly in
+ * garbage collection. Other cells (text, booleans, errors, wrapped values) are classified once
+ * and kept. `blankZeros` makes the zeros of some columns blank (setting `zero is missing`)
+ * without touching the raw values.
+ */
+class CellGrid {
+  readonly rows: number;
+  readonly width: number;
+  private readonly kept: (Cell[] | undefined)[];
+  private zeroColumns: ReadonlySet<number> = new Set();
+  private zeroMask: Uint8Array | null = null;
+  private zeroFrom = Infinity;
+
+  constructor(private readonly raw: unknown[][]) {
+    this.rows = raw.length;
+    this.width = raw.length > 0 ? raw[0].length : 0;
+    this.kept = new Array<Cell[] | undefined>(this.rows);
+  }
+
+  /** From row `from` on, a number 0 in one of `columns` reads as a blank cell. */
+  blankZeros(columns: ReadonlySet<number>, from: number): void {
+    this.zeroColumns = columns;
+    this.zeroFrom = from;
+    this.zeroMask = null;
+    if (columns.size === 0) return;
+    this.zeroMask = new Uint8Array(this.width);
+    for (const j of columns) this.zeroMask[j] = 1;
+  }
+
+  /**
+   * The value of a cell that is a plain finite number (exactly what numberOfCell(at(i, j)) gives
+   * for it), or NaN for any other cell: the caller then reads `at(i, j)`.
+   */
+  numberAt(i: number, j: number): number {
+    const v = this.raw[i][j];
+    return isPlain(v, this.zerosBlankAt(i), j) ? v : NaN;
+  }
+
+  /** Row i's raw values, for loops over every cell that test `isPlain` inline. */
+  rawRow(i: number): readonly unknown[] {
+    return this.raw[i];
+  }
+
+  /** Row i's columns whose zeros read as blank (1), or null when none do. */
+  zerosBlankAt(i: number): Uint8Array | null {
+    return i >= this.zeroFrom ? this.zeroMask : null;
+  }
+
+  /** The number a cell stands for (numberOfCell), or null. */
+  numberOf(i: number, j: number): number | null {
+    const v = this.numberAt(i, j);
+    return v === v ? v : numberOfCell(this.at(i, j));
+  }
+
+  /** The classified cell. */
+  at(i: number, j: number): Cell {
+    const v = this.raw[i][j];
+    let cell: Cell;
+    if (typeof v === "number") {
+      cell = classifyCell(v);
+    } else {
+      let row = this.kept[i];
+      if (!row) row = this.kept[i] = new Array<Cell>(this.width);
+      cell = row[j] ?? (row[j] = classifyCell(v));
+    }
+    if (cell.kind === "number" && cell.value === 0 && i >= this.zeroFrom && this.zeroColumns.has(j)) return BLANK_CELL;
+    return cell;
+  }
+
+  /** Row i's cells. */
+  row(i: number): Cell[] {
+    const out = new Array<Cell>(this.width);
+    for (let j = 0; j < this.width; j++) out[j] = this.at(i, j);
+    return out;
+  }
 }
 
 function findColumn(names: readonly string[], wanted: string): number {
@@ -215,14 +330,15 @@ function risingWholeNumbers(row: readonly Cell[]): boolean {
  * more whole numbers rising from left to right, while fewer than half of the complete rows below
  * rise that way (so columns such as year built | year sold, which rise in every row, are data).
  */
-function looksLikeNumberLabels(cells: Cell[][]): boolean {
-  if (!risingWholeNumbers(cells[0])) return false;
+function looksLikeNumberLabels(cells: CellGrid): boolean {
+  if (!risingWholeNumbers(cells.row(0))) return false;
   let complete = 0;
   let rising = 0;
-  for (let i = 1; i < cells.length; i++) {
-    if (!cells[i].every(isNumberLike)) continue;
+  for (let i = 1; i < cells.rows; i++) {
+    const row = cells.row(i);
+    if (!row.every(isNumberLike)) continue;
     complete++;
-    if (risingWholeNumbers(cells[i])) rising++;
+    if (risingWholeNumbers(row)) rising++;
   }
   return complete === 0 || 2 * rising < complete;
 }
@@ -238,20 +354,21 @@ interface HeaderDecision {
  * when there are no data rows, or when row 1 is a row of numbers that looks like labels and
  * nothing else settles it.
  */
-function detectHeader(cells: Cell[][], target: Cell[], mode: Settings["header"]): HeaderDecision {
+function detectHeader(cells: CellGrid, targetCells: CellGrid, mode: Settings["header"]): HeaderDecision {
   const no: HeaderDecision = { header: false, note: null };
   const yes: HeaderDecision = { header: true, note: null };
   if (mode === "no") return no;
   if (mode === "yes") {
-    if (cells.length < 2) throw new DataError("settings say header=yes but predictors has only one row: select the header row and the data below it");
+    if (cells.rows < 2) throw new DataError("settings say header=yes but predictors has only one row: select the header row and the data below it");
     return yes;
   }
-  const first = cells[0];
-  if (cells.length < 2) {
+  const first = cells.row(0);
+  const targetTop = targetCells.at(0, 0);
+  if (cells.rows < 2) {
     if (first.every(isNameText)) {
-      if (target.length === 1 && isNameText(target[0])) {
+      if (targetCells.rows === 1 && isNameText(targetTop)) {
         throw new DataError(
-          `predictors and target hold only their header rows (${showRow(first)} and '${(target[0] as { value: string }).value}'): there are no data rows; select the rows of data below the headers too`,
+          `predictors and target hold only their header rows (${showRow(first)} and '${(targetTop as { value: string }).value}'): there are no data rows; select the rows of data below the headers too`,
         );
       }
       throw new DataError(`predictors holds only a header row (${showRow(first)}): there are no data rows; select the rows of data below it too`);
@@ -259,20 +376,32 @@ function detectHeader(cells: Cell[][], target: Cell[], mode: Settings["header"])
     return no;
   }
   const width = first.length;
+  // A plain number is a number (isNumeric) and number-like: no need to classify it.
   const below = (test: (c: Cell) => boolean): boolean => {
-    for (let j = 0; j < width; j++) for (let i = 1; i < cells.length; i++) if (test(cells[i][j])) return true;
+    for (let j = 0; j < width; j++) for (let i = 1; i < cells.rows; i++) if (!Number.isNaN(cells.numberAt(i, j)) || test(cells.at(i, j))) return true;
     return false;
   };
-  const targetHeader = target.length === cells.length && isNameText(target[0]) && target.slice(1).some(isNumberLike);
+  const numberLikeBelowTop = (): boolean => {
+    for (let i = 1; i < targetCells.rows; i++) if (!Number.isNaN(targetCells.numberAt(i, 0)) || isNumberLike(targetCells.at(i, 0))) return true;
+    return false;
+  };
+  const targetHeader = targetCells.rows === cells.rows && isNameText(targetTop) && numberLikeBelowTop();
   if (first.every((c) => c.kind === "text")) {
     if (below(isNumeric)) return yes;
     if (!first.every(isNumberLike)) {
       if (below(isNumberLike)) return yes;
       // Predictors hold only text: the target may still show the header.
       if (targetHeader) return yes;
-      if (target.length === cells.length - 1) {
+      if (targetCells.rows === cells.rows - 1) {
         // One row more than the target: row 1 is a header unless one of its texts is also a level below it.
-        const repeats = first.some((c, j) => cells.slice(1).some((row) => row[j].kind === "text" && textKey((row[j] as { value: string }).value) === textKey((c as { value: string }).value)));
+        const repeatsBelow = (c: Cell, j: number): boolean => {
+          for (let i = 1; i < cells.rows; i++) {
+            const below = cells.at(i, j);
+            if (below.kind === "text" && textKey(below.value) === textKey((c as { value: string }).value)) return true;
+          }
+          return false;
+        };
+        const repeats = first.some(repeatsBelow);
         if (!repeats) {
           return {
             header: true,
@@ -288,10 +417,10 @@ function detectHeader(cells: Cell[][], target: Cell[], mode: Settings["header"])
   if (targetHeader) {
     return {
       header: true,
-      note: `predictors row 1 (${showRow(first)}) is read as the header because the target's row 1 ('${(target[0] as { value: string }).value}') is a header beside it (add header=yes to settings to say so)`,
+      note: `predictors row 1 (${showRow(first)}) is read as the header because the target's row 1 ('${(targetTop as { value: string }).value}') is a header beside it (add header=yes to settings to say so)`,
     };
   }
-  const targetAbove = target.length === cells.length + 1 && isNameText(target[0]);
+  const targetAbove = targetCells.rows === cells.rows + 1 && isNameText(targetTop);
   if (!targetAbove && looksLikeNumberLabels(cells)) {
     throw new DataError(
       `predictors row 1 (${showRow(first)}) looks like column labels (whole numbers rising from left to right, like years) but could be data: add header=yes to settings if it names the columns, or header=no if it is data`,
@@ -320,8 +449,8 @@ interface ColumnScan {
   firstDate: number;
 }
 
-function scanColumn(cellAt: (i: number) => Cell, from: number, to: number): ColumnScan {
-  const scan: ColumnScan = {
+function emptyScan(): ColumnScan {
+  return {
     numbers: 0,
     texts: 0,
     numericTexts: 0,
@@ -333,30 +462,88 @@ function scanColumn(cellAt: (i: number) => Cell, from: number, to: number): Colu
     firstOtherText: -1,
     firstDate: -1,
   };
-  for (let i = from; i < to; i++) {
-    const c = cellAt(i);
-    if (isNumeric(c)) {
-      scan.numbers++;
-      if (scan.firstNumber < 0) scan.firstNumber = i;
-      continue;
-    }
-    if (c.kind !== "text") continue;
-    scan.texts++;
-    const reading = readNumberText(c.value);
-    if (reading.kind === "number") {
-      scan.numericTexts++;
-      if (scan.firstNumericText < 0) scan.firstNumericText = i;
-      if (reading.grouped && scan.firstGrouped < 0) scan.firstGrouped = i;
-      continue;
-    }
-    if (scan.firstOtherText < 0) scan.firstOtherText = i;
-    if (reading.kind === "foreign" || reading.kind === "too-large") scan.foreignTexts++;
-    if (reading.kind === "date") {
-      scan.dateTexts++;
-      if (scan.firstDate < 0) scan.firstDate = i;
+}
+
+/** Counts cell `c` of row `i` into `scan`. */
+function scanCell(scan: ColumnScan, c: Cell, i: number): void {
+  if (isNumeric(c)) {
+    scan.numbers++;
+    if (scan.firstNumber < 0) scan.firstNumber = i;
+    return;
+  }
+  if (c.kind !== "text") return;
+  scan.texts++;
+  const reading = readNumberText(c.value);
+  if (reading.kind === "number") {
+    scan.numericTexts++;
+    if (scan.firstNumericText < 0) scan.firstNumericText = i;
+    if (reading.grouped && scan.firstGrouped < 0) scan.firstGrouped = i;
+    return;
+  }
+  if (scan.firstOtherText < 0) scan.firstOtherText = i;
+  if (reading.kind === "foreign" || reading.kind === "too-large") scan.foreignTexts++;
+  if (reading.kind === "date") {
+    scan.dateTexts++;
+    if (scan.firstDate < 0) scan.firstDate = i;
+  }
+}
+
+/** The scans of `width` columns whose `count` data cells from row `from` on are all plain numbers. */
+function plainScans(width: number, from: number, count: number): ColumnScan[] {
+  const scans: ColumnScan[] = [];
+  for (let j = 0; j < width; j++) {
+    const scan = emptyScan();
+    scan.numbers = count;
+    scan.firstNumber = count > 0 ? from : -1;
+    scans.push(scan);
+  }
+  return scans;
+}
+
+/**
+ * The `count` data rows of predictors (from row `from`) as a column-major matrix, with the target's
+ * rows (from `targetFrom`) checked alongside, when every one of those cells is a plain number
+ * (isPlain); null at the first cell that is not.
+ */
+function plainBlock(cells: CellGrid, target: CellGrid, from: number, targetFrom: number, count: number): Float64Array | null {
+  const width = cells.width;
+  const data = new Float64Array(count * width);
+  for (let d = 0; d < count; d++) {
+    if (Number.isNaN(target.numberAt(targetFrom + d, 0))) return null;
+    const i = from + d;
+    const row = cells.rawRow(i);
+    const zeros = cells.zerosBlankAt(i);
+    for (let j = 0; j < width; j++) {
+      const v = row[j];
+      if (!isPlain(v, zeros, j)) return null;
+      data[j * count + d] = v;
     }
   }
-  return scan;
+  return data;
+}
+
+/**
+ * The scans of every column of `cells` over rows `from` on, in one pass row by row (each row of
+ * a worksheet range is an array of its own, so one pass over them beats one per column). A plain
+ * number is counted without a Cell.
+ */
+function scanColumns(cells: CellGrid, from: number): ColumnScan[] {
+  const scans: ColumnScan[] = [];
+  for (let j = 0; j < cells.width; j++) scans.push(emptyScan());
+  for (let i = from; i < cells.rows; i++) {
+    const row = cells.rawRow(i);
+    const zeros = cells.zerosBlankAt(i);
+    for (let j = 0; j < cells.width; j++) {
+      const scan = scans[j];
+      if (isPlain(row[j], zeros, j)) {
+        scan.numbers++;
+        if (scan.firstNumber < 0) scan.firstNumber = i;
+        continue;
+      }
+      scanCell(scan, cells.at(i, j), i);
+    }
+  }
+  return scans;
 }
 
 /**
@@ -405,13 +592,26 @@ function outcomeValueOf(c: Cell): OutcomeValue | null {
  * reads as labels. TRUE/FALSE mixed with numbers are 1/0, as in any number column. Throws DataError
  * or the engine's InputError.
  */
-function targetKind(cells: Cell[], start: number, count: number, scan: ColumnScan, settings: DataSettings, name: string | undefined): OutcomeKind {
+function targetKind(cells: CellGrid, start: number, count: number, scan: ColumnScan, settings: DataSettings, name: string | undefined): OutcomeKind {
   const setting = settings.outcome ?? "auto";
+  // A target of plain numbers only (the usual one) is read as such without a boxed value per row;
+  // the general reading below gives the same answer for it.
+  const plainValues: number[] = [];
+  for (let i = start; i < start + count; i++) {
+    const v = cells.numberAt(i, 0);
+    if (Number.isNaN(v)) break;
+    plainValues.push(v);
+  }
+  if (plainValues.length === count) {
+    if (setting === "number") return "number";
+    return readOutcome(plainValues, { outcome: setting, name }).kind;
+  }
   const values: OutcomeValue[] = [];
   const labels = new Set<string>();
   let firstNumber = -1;
   for (let i = start; i < start + count; i++) {
-    const v = outcomeValueOf(cells[i]);
+    const plain = cells.numberAt(i, 0);
+    const v = plain === plain ? plain : outcomeValueOf(cells.at(i, 0));
     if (v === null) continue;
     values.push(v);
     if (typeof v === "string") labels.add(v.toLowerCase());
@@ -435,11 +635,11 @@ function targetKind(cells: Cell[], start: number, count: number, scan: ColumnSca
   if (setting === "auto" && labelCount > numberCount && numberCount > 0) {
     const shown = [...new Set(values.filter((v): v is string => typeof v === "string"))];
     throw new DataError(
-      `target row ${firstNumber + 1} has ${describeCell(cells[firstNumber])} among the labels ${listNames(shown, 4)}: a yes/no target holds two labels (or TRUE/FALSE, or 0/1), so fix the cell or clear it`,
+      `target row ${firstNumber + 1} has ${describeCell(cells.at(firstNumber, 0))} among the labels ${listNames(shown, 4)}: a yes/no target holds two labels (or TRUE/FALSE, or 0/1), so fix the cell or clear it`,
     );
   }
   const row = scan.firstOtherText + 1;
-  const c = cells[scan.firstOtherText] as { kind: "text"; value: string };
+  const c = cells.at(scan.firstOtherText, 0) as { kind: "text"; value: string };
   const headerHint =
     row !== 1 ? "" : settings.header === "no" ? " (settings say header=no, so row 1 is data)" : " (if it is a header, give predictors a header row too)";
   throw new DataError(`target row ${row} has text '${c.value}'${storedAsTextHint(c.value)}: the target must be numbers, so fix the cell or clear it${headerHint}`);
@@ -466,20 +666,20 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
       `target must be one column but it has ${targetGrid[0].length} columns: select only the column to predict (put the others in predictors)`,
     );
   }
-  const cells = classifyGrid(predictorGrid);
-  const targetCells = targetGrid.map((row) => classifyCell(row[0]));
-  const width = cells[0].length;
+  const cells = new CellGrid(predictorGrid);
+  const targetCells = new CellGrid(targetGrid);
+  const width = cells.width;
   const decision = detectHeader(cells, targetCells, settings.header);
   const header = decision.header;
   const h = header ? 1 : 0;
-  const dataRows = cells.length - h;
+  const dataRows = cells.rows - h;
   const notes: string[] = [];
   if (decision.note !== null) notes.push(decision.note);
 
   // Column names.
   const names: string[] = [];
   for (let j = 0; j < width; j++) {
-    const c = header ? cells[0][j] : null;
+    const c = header ? cells.at(0, j) : null;
     const name = c && c.kind === "text" ? c.value : c && c.kind !== "blank" && c.kind !== "error" ? describeCell(c) : `x${j + 1}`;
     names.push(name);
   }
@@ -497,11 +697,11 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   // Target alignment.
   let targetName = "target";
   let targetStart: number;
-  if (targetCells.length === cells.length) {
+  if (targetCells.rows === cells.rows) {
     targetStart = h;
     if (header) {
-      const first = targetCells[0];
-      const numberHeader = cells[0].every(isNumberLike);
+      const first = targetCells.at(0, 0);
+      const numberHeader = cells.row(0).every(isNumberLike);
       if (first.kind === "text") targetName = first.value;
       else if (numberHeader && isNumeric(first)) targetName = describeCell(first);
       else if (first.kind !== "blank") {
@@ -510,18 +710,18 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
         );
       }
     }
-  } else if (header && targetCells.length === dataRows) {
+  } else if (header && targetCells.rows === dataRows) {
     targetStart = 0;
-  } else if (!header && targetCells.length === cells.length + 1 && targetCells[0].kind === "text") {
-    targetName = targetCells[0].value;
+  } else if (!header && targetCells.rows === cells.rows + 1 && targetCells.at(0, 0).kind === "text") {
+    targetName = (targetCells.at(0, 0) as { value: string }).value;
     targetStart = 1;
-  } else if (!header && targetCells.length === cells.length - 1) {
-    const textOnly = cells[0].every(isNameText);
+  } else if (!header && targetCells.rows === cells.rows - 1) {
+    const textOnly = cells.row(0).every(isNameText);
     throw new DataError(
-      `predictors has ${cells.length} rows but target has ${targetCells.length}: if predictors' row 1 is a header, add header=yes to settings${textOnly ? " (predictors hold only text, and a text of row 1 also appears below it, so Shrinkwise can't tell a header from data)" : ""}; otherwise select the same rows in both`,
+      `predictors has ${cells.rows} rows but target has ${targetCells.rows}: if predictors' row 1 is a header, add header=yes to settings${textOnly ? " (predictors hold only text, and a text of row 1 also appears below it, so Shrinkwise can't tell a header from data)" : ""}; otherwise select the same rows in both`,
     );
   } else {
-    throw new DataError(`predictors has ${cells.length} rows but target has ${targetCells.length}: select the same rows in both`);
+    throw new DataError(`predictors has ${cells.rows} rows but target has ${targetCells.rows}: select the same rows in both`);
   }
   if (dataRows === 0) throw new DataError("predictors has a header row but no data below it");
 
@@ -560,25 +760,21 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
       }
     }
   }
-  for (const j of zeroColumns) {
-    for (let i = h; i < cells.length; i++) {
-      const c = cells[i][j];
-      if (c.kind === "number" && c.value === 0) cells[i][j] = { kind: "blank" };
-    }
-  }
-  if (zeroTarget) {
-    for (let i = targetStart; i < targetCells.length; i++) {
-      const c = targetCells[i];
-      if (c.kind === "number" && c.value === 0) targetCells[i] = { kind: "blank" };
-    }
-  }
+  cells.blankZeros(zeroColumns, h);
+  if (zeroTarget) targetCells.blankZeros(new Set([0]), targetStart);
+
+  // The usual grid: every data cell of predictors and target a plain number, and no fold or
+  // weights column. Its matrix is copied in this one pass; the scans, the column kinds and the rows
+  // used follow from that without another pass (every column reads as numbers, every row is used).
+  const block = foldIndex === null && weightsIndex === null ? plainBlock(cells, targetCells, h, targetStart, dataRows) : null;
 
   // Column kinds.
   const kinds: ("number" | "text" | "labels")[] = [];
   let numericFoldLabels = false;
+  const scans = block ? plainScans(width, h, dataRows) : scanColumns(cells, h);
   for (let j = 0; j < width; j++) {
-    const cellAt = (i: number): Cell => cells[i][j];
-    const scan = scanColumn(cellAt, h, cells.length);
+    const cellAt = (i: number): Cell => cells.at(i, j);
+    const scan = scans[j];
     const label = j === foldIndex ? "fold column" : j === weightsIndex ? "weights column" : "predictors column";
     if (scan.numbers === 0 && scan.texts === 0) {
       throw new DataError(`${label} '${names[j]}' has no values (only blank or error cells): fill it in or leave it out of predictors`);
@@ -591,7 +787,7 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
     }
     const reading = columnReading(scan);
     if (j === weightsIndex && scan.firstOtherText >= 0) {
-      const c = cells[scan.firstOtherText][j] as { kind: "text"; value: string };
+      const c = cells.at(scan.firstOtherText, j) as { kind: "text"; value: string };
       throw new DataError(
         `weights column '${names[j]}' row ${scan.firstOtherText + 1} has text '${c.value}'${storedAsTextHint(c.value)}: weights must be numbers of 0 or more`,
       );
@@ -599,7 +795,7 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
     if (reading === "date") throw datesError(`${label} '${names[j]}'`, scan, cellAt, "leave the column out of predictors");
     if (reading === "number") {
       if (scan.firstOtherText >= 0) {
-        const c = cells[scan.firstOtherText][j] as { kind: "text"; value: string };
+        const c = cells.at(scan.firstOtherText, j) as { kind: "text"; value: string };
         const headerHint =
           scan.firstOtherText === 0 && settings.header === "auto" ? " (if row 1 is a header, give every column a name there, or add header=yes to settings)" : "";
         // All text, mostly numbers stored as text, and an ordinary label: perhaps codes meant as categories.
@@ -616,7 +812,7 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
       continue;
     }
     if (scan.numbers > 0) {
-      const c = cells[scan.firstNumber][j];
+      const c = cells.at(scan.firstNumber, j);
       const hint = c.kind === "number" && c.value === 0 ? zeroHint(names[j]) : "";
       throw new DataError(
         `${label} '${names[j]}' row ${scan.firstNumber + 1} has ${describeCell(c)} in a text column: make it a text level or clear the cell${hint}`,
@@ -628,8 +824,8 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   // Target: numbers (numbers stored as text count) or a yes/no outcome (engine/outcome.ts); blank
   // and error cells skip the row. The kind is decided over every data row, so a third class in a
   // skipped row is still caught; the event and the 0/1 coding come from the rows used (below).
-  const targetAt = (i: number): Cell => targetCells[i];
-  const targetScan = scanColumn(targetAt, targetStart, targetStart + dataRows);
+  const targetAt = (i: number): Cell => targetCells.at(i, 0);
+  const targetScan = block ? plainScans(1, targetStart, dataRows)[0] : scanColumns(targetCells, targetStart)[0];
   // readOutcome quotes a name it is given; an unnamed target is "the target" in its messages.
   const outcomeName = targetName === "target" ? undefined : targetName;
   const outcome = targetKind(targetCells, targetStart, dataRows, targetScan, settings, outcomeName);
@@ -639,13 +835,26 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   const used: number[] = [];
   let skipped = 0;
   let firstSkip: string | null = null;
-  for (let d = 0; d < dataRows; d++) {
+  for (let d = 0; block && d < dataRows; d++) used.push(d);
+  for (let d = 0; !block && d < dataRows; d++) {
     const i = h + d;
-    const t = targetCells[targetStart + d];
-    let allBlank = t.kind === "blank";
-    let reason: string | null = t.kind === "blank" ? `target is blank` : t.kind === "error" ? `target is ${t.text}` : null;
+    let allBlank = false;
+    let reason: string | null = null;
+    const plainTarget = targetCells.numberAt(targetStart + d, 0);
+    if (plainTarget !== plainTarget) {
+      const t = targetCells.at(targetStart + d, 0);
+      allBlank = t.kind === "blank";
+      reason = t.kind === "blank" ? `target is blank` : t.kind === "error" ? `target is ${t.text}` : null;
+    }
+    const row = cells.rawRow(i);
+    const zeros = cells.zerosBlankAt(i);
     for (let j = 0; j < width; j++) {
-      const c = cells[i][j];
+      // A plain number is neither blank nor an error.
+      if (isPlain(row[j], zeros, j)) {
+        allBlank = false;
+        continue;
+      }
+      const c = cells.at(i, j);
       if (c.kind !== "blank") allBlank = false;
       if (reason === null && (c.kind === "blank" || c.kind === "error")) {
         reason = `'${names[j]}' is ${c.kind === "blank" ? "blank" : c.text}`;
@@ -670,7 +879,7 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   if (weightsIndex !== null) {
     weights = [];
     for (const d of used) {
-      const w = numberOfCell(cells[h + d][weightsIndex]) as number;
+      const w = cells.numberOf(h + d, weightsIndex) as number;
       if (w < 0) throw new DataError(`weights column '${names[weightsIndex]}' row ${h + d + 1} is ${w}: weights must be 0 or more`);
       weights.push(w);
     }
@@ -680,7 +889,7 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   if (foldIndex !== null) {
     const shown = new Map<string, string>();
     foldLabels = used.map((d) => {
-      const c = cells[h + d][foldIndex];
+      const c = cells.at(h + d, foldIndex);
       if (c.kind === "text" && !numericFoldLabels) {
         const key = textKey(c.value);
         if (!shown.has(key)) shown.set(key, c.value);
@@ -735,7 +944,7 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
     const display = new Map<string, string>();
     const counts = new Map<string, number>();
     for (const d of used) {
-      const c = cells[h + d][j] as { kind: "text"; value: string };
+      const c = cells.at(h + d, j) as { kind: "text"; value: string };
       const key = textKey(c.value);
       if (!counts.has(key)) {
         order.push(key);
@@ -765,8 +974,8 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
       terms.push(`${names[j]}: ${level}`);
     }
     // Levels seen only in skipped rows are still known (they encode as unseen otherwise).
-    for (let i = h; i < cells.length; i++) {
-      const c = cells[i][j];
+    for (let i = h; i < cells.rows; i++) {
+      const c = cells.at(i, j);
       if (c.kind === "text" && !levelIndex.has(textKey(c.value))) {
         notes.push(`'${names[j]}' level '${c.value}' appears only in skipped rows, so the model has no term for it`);
         levelIndex.set(textKey(c.value), -2);
@@ -806,27 +1015,67 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   }
 
   const encoder: RowEncoder = { columns, terms, width, sourceNames: names, source: "predictors" };
-  const rows: number[][] = [];
+  // The encoded rows go straight into one column-major matrix (the engine's layout and the packed
+  // request's), through one reused row buffer.
+  const n = used.length;
+  const p = terms.length;
+  if (block && (n !== dataRows || p !== width)) throw new Error("a grid of plain numbers was encoded to another shape");
+  const data = block ?? new Float64Array(n * p);
+  const values = new Array<number>(p);
   const target: number[] = [];
   let zeroRows = 0;
-  for (const d of used) {
+  const allNumbers = columns.every((column) => column.kind === "number");
+  const positions = columns.map((column) => column.position);
+  for (let r = 0; r < n; r++) {
+    const d = used[r];
     const i = h + d;
-    const values = new Array<number>(terms.length);
-    encodeInto(encoder, (column) => cells[i][column.position], values, () => "training");
-    rows.push(values);
-    const t = numberOfCell(targetCells[targetStart + d]);
+    // Rows of plain numbers in number columns (the usual grid) are copied without a Cell (row by
+    // row: measured as quick as copying in blocks of rows); any other row is encoded cell by cell.
+    let plain = allNumbers;
+    if (block) plain = false; // copied already
+    const row = cells.rawRow(i);
+    const zeros = cells.zerosBlankAt(i);
+    for (let k = 0; plain && k < p; k++) {
+      const v = row[positions[k]];
+      if (isPlain(v, zeros, positions[k])) data[k * n + r] = v;
+      else plain = false;
+    }
+    if (!plain && !block) {
+      encodeInto(
+        encoder,
+        (column) => cells.at(i, column.position),
+        values,
+        () => "training",
+        undefined,
+        (column) => cells.numberAt(i, column.position),
+      );
+      for (let k = 0; k < p; k++) data[k * n + r] = values[k];
+    }
+    const t = targetCells.numberOf(targetStart + d, 0);
     if (outcome === "number") target.push(t as number);
     let allZero = t === 0;
     for (const column of columns) {
-      const c = cells[i][column.position];
-      if (column.kind !== "number" || !(c.kind === "number" && c.value === 0)) allZero = false;
+      if (!allZero) break;
+      if (column.kind !== "number") {
+        allZero = false;
+        break;
+      }
+      const plain = cells.numberAt(i, column.position);
+      if (plain === plain) {
+        if (plain !== 0) allZero = false;
+        continue;
+      }
+      const c = cells.at(i, column.position);
+      if (!(c.kind === "number" && c.value === 0)) allZero = false;
     }
     if (allZero) zeroRows++;
   }
+  const matrix: ColumnMatrix = { rows: n, columns: p, data };
+  let rowsForm: number[][] | null = null;
 
   let classes: TargetClasses | null = null;
   if (outcome === "two-class") {
-    const values = used.map((d) => outcomeValueOf(targetCells[targetStart + d]) as OutcomeValue);
+    const values = used.map((d) => outcomeValueOf(targetCells.at(targetStart + d, 0)) as OutcomeValue);
     const reading = readOutcome(values, { outcome: "two-class", event: settings.event ?? null, name: outcomeName });
     if (reading.kind !== "two-class") throw new Error("a two-class reading of the target came back as numbers");
     for (const v of reading.values) target.push(v);
@@ -854,7 +1103,10 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   return {
     targetName,
     names: terms,
-    predictors: rows,
+    get predictors(): number[][] {
+      return (rowsForm ??= rowsOf(matrix));
+    },
+    matrix,
     target,
     weights,
     foldLabels,
@@ -882,9 +1134,18 @@ function encodeInto(
   out: number[],
   where: (column: ColumnCode) => string,
   inferred?: Map<ColumnCode, { key: string; text: string }>,
+  plainNumber?: (column: ColumnCode) => number,
 ): void {
   let t = 0;
   for (const column of encoder.columns) {
+    if (column.kind === "number" && plainNumber) {
+      // A plain number (CellGrid.numberAt) is its own value: no Cell needed.
+      const plain = plainNumber(column);
+      if (plain === plain) {
+        out[t++] = plain;
+        continue;
+      }
+    }
     const c = cellOf(column);
     if (column.kind === "number") {
       // Numbers stored as text are read as in training (engine/numberText.ts).

@@ -2,12 +2,15 @@
  * The fit worker: runs the engine off the add-in's UI thread.
  *
  * Protocol (all messages are plain data; ids are chosen by the main side):
- *   in:  { type: "fit", id, request }        start a fit of `request` (a FitRequest)
+ *   in:  { type: "fit", id, request }        start a fit of `request` (an AnyFitRequest)
  *        { type: "cancel", id }              raise that fit's signal; it stops at the next
  *                                            checkpoint and answers with a "cancelled" error
  *   out: { type: "progress", id, done, total }  after each unit of work
- *        { type: "result", id, result }          the engine's FitResult, structured-cloned
- *        { type: "error", id, error }            a PlainError (see below)
+ *        { type: "result", id, result, spare? }  the engine's FitResult, structured-cloned
+ *        { type: "error", id, error, spare? }    a PlainError (see below)
+ * A packed request (runner.ts PackedFitRequest) arrives with its matrix's buffer transferred, and
+ * its answer hands that buffer back as `spare` (transferred again, so no copy either way): the main
+ * side writes the next request's copy into it instead of into fresh memory (workerRunner.ts).
  * Every fit gets exactly one "result" or "error". Several fits may run at once: fitAsync
  * yields a macrotask between units of work, so they interleave and cancel messages get through.
  * Where the host allows nested workers, a fit's mixes and folds run on a pool of task workers
@@ -18,7 +21,7 @@
  */
 import { fitAsync, FitOptions, FitResult } from "../engine/fit";
 import { CancelledError, InputError, InputErrorCode } from "../engine/errors";
-import type { FitRequest } from "./runner";
+import type { AnyFitRequest } from "./runner";
 import { browserTaskPool, pooledFit } from "./taskPool";
 
 /** An error as it crosses the worker boundary. */
@@ -30,12 +33,12 @@ export interface PlainError {
   message: string;
 }
 
-export type ToWorker = { type: "fit"; id: number; request: FitRequest } | { type: "cancel"; id: number };
+export type ToWorker = { type: "fit"; id: number; request: AnyFitRequest } | { type: "cancel"; id: number };
 
 export type FromWorker =
   | { type: "progress"; id: number; done: number; total: number }
-  | { type: "result"; id: number; result: FitResult }
-  | { type: "error"; id: number; error: PlainError };
+  | { type: "result"; id: number; result: FitResult; spare?: ArrayBuffer }
+  | { type: "error"; id: number; error: PlainError; spare?: ArrayBuffer };
 
 /** The fit a worker runs (defined beside the pool, which provides one; see taskPool.ts). */
 import type { FitFunction } from "./taskPool";
@@ -58,11 +61,24 @@ export function fromPlainError(plain: PlainError): Error {
   return error;
 }
 
+/** The buffer of a packed request's matrix, once the fit is done with it (null for rows, or when it is no longer whole). */
+function spareOf(request: AnyFitRequest): ArrayBuffer | null {
+  const predictors = request.predictors;
+  if (Array.isArray(predictors)) return null;
+  const buffer = predictors.data.buffer;
+  // By tag, not instanceof: the buffer may come from another realm (a test harness's clone).
+  const whole = Object.prototype.toString.call(buffer) === "[object ArrayBuffer]" && buffer.byteLength > 0 && buffer.byteLength === predictors.data.byteLength;
+  return whole ? (buffer as ArrayBuffer) : null;
+}
+
 /**
- * The worker's message handler. `post` sends a message back; `fitImpl` is the engine's
- * fitAsync (replaceable in tests).
+ * The worker's message handler. `post` sends a message back (with the buffers to transfer);
+ * `fitImpl` is the engine's fitAsync (replaceable in tests).
  */
-export function createFitHandler(post: (message: FromWorker) => void, fitImpl: FitFunction = fitAsync): (message: ToWorker) => void {
+export function createFitHandler(
+  post: (message: FromWorker, transfer?: ArrayBuffer[]) => void,
+  fitImpl: FitFunction = fitAsync,
+): (message: ToWorker) => void {
   const signals = new Map<number, { aborted: boolean }>();
   return (message: ToWorker) => {
     if (message.type === "cancel") {
@@ -85,14 +101,20 @@ export function createFitHandler(post: (message: FromWorker) => void, fitImpl: F
     } catch (error) {
       run = Promise.reject(error);
     }
+    // The engine keeps no reference to its input in a result or after it settles, so a packed
+    // request's buffer can go back with the answer.
     run.then(
       (result) => {
         signals.delete(id);
-        post({ type: "result", id, result });
+        const spare = spareOf(request);
+        if (spare) post({ type: "result", id, result, spare }, [spare]);
+        else post({ type: "result", id, result });
       },
       (error: unknown) => {
         signals.delete(id);
-        post({ type: "error", id, error: toPlainError(error) });
+        const spare = spareOf(request);
+        if (spare) post({ type: "error", id, error: toPlainError(error), spare }, [spare]);
+        else post({ type: "error", id, error: toPlainError(error) });
       },
     );
   };
@@ -102,13 +124,13 @@ export function createFitHandler(post: (message: FromWorker) => void, fitImpl: F
 // Bootstrap: only inside a dedicated worker (WorkerGlobalScope exists there and nowhere else).
 
 interface WorkerScope {
-  postMessage(message: unknown): void;
+  postMessage(message: unknown, transfer?: ArrayBuffer[]): void;
   onmessage: ((event: { data: ToWorker }) => void) | null;
 }
 
 const scope = globalThis as unknown as WorkerScope & { WorkerGlobalScope?: new () => unknown };
 if (typeof scope.WorkerGlobalScope === "function" && scope instanceof scope.WorkerGlobalScope) {
   // The folds and mixes run on nested task workers where the host allows them (taskPool.ts).
-  const handle = createFitHandler((message) => scope.postMessage(message), pooledFit(browserTaskPool()));
+  const handle = createFitHandler((message, transfer) => scope.postMessage(message, transfer ?? []), pooledFit(browserTaskPool()));
   scope.onmessage = (event) => handle(event.data);
 }

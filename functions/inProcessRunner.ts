@@ -8,10 +8,10 @@
  */
 import { CancelledError } from "../engine/errors";
 import { fitAsync, FitResult } from "../engine/fit";
-import type { CancelToken, FitProgress, FitRequest, FitRunner } from "./runner";
+import type { AnyFitRequest, CancelToken, FitProgress, FitRunner } from "./runner";
 
 export class InProcessRunner implements FitRunner {
-  async fit(request: FitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
+  async fit(request: AnyFitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
     const signal = { aborted: false };
     if (cancel) {
       if (cancel.cancelled) throw new CancelledError();

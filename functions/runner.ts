@@ -7,6 +7,7 @@
  * Everything in a request is plain data (it is posted to a worker and hashed for the cache).
  */
 import type { FitOptions, FitResult } from "../engine/fit";
+import type { ColumnMatrix } from "../engine/matrix";
 
 /** Engine options without callbacks: what can cross to a worker and into a cache key. */
 export type PlainFitOptions = Omit<FitOptions, "onProgress" | "signal">;
@@ -18,6 +19,22 @@ export interface FitRequest {
   target: number[];
   options: PlainFitOptions;
 }
+
+/**
+ * The packed form of a request, which large grids use (functions/dataset.ts `datasetRequest`):
+ * the same encoded predictors as one column-major matrix in a single Float64Array. It crosses to a
+ * worker as one block copy instead of an array per row, and the cache keys it without a copy.
+ * The engine's result, and the cache entry, are the same as for the rows form of the same numbers.
+ * Read-only once made: the cache keeps the matrix itself as its key.
+ */
+export interface PackedFitRequest {
+  predictors: ColumnMatrix;
+  target: number[];
+  options: PlainFitOptions;
+}
+
+/** Either form: what runners, the cache and the fit worker take. */
+export type AnyFitRequest = FitRequest | PackedFitRequest;
 
 /**
  * Raised by the caller (e.g. Excel cancelling a superseded recalculation). `onCancel`
@@ -38,7 +55,7 @@ export interface FitRunner {
    * Resolves with the engine's result, or rejects with the engine's InputError (bad input),
    * or with CancelledError (engine/errors.ts) once `cancel` fires.
    */
-  fit(request: FitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult>;
+  fit(request: AnyFitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult>;
 }
 
 /** A token that is cancelled by calling `cancel()`. */

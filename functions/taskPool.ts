@@ -11,7 +11,7 @@
  */
 import { fitAsync, FitOptions, FitResult } from "../engine/fit";
 import { PoolUnavailableError, TaskEndpoint, TaskPool, WorkerPool } from "../engine/parallel";
-import type { FitRequest } from "./runner";
+import type { AnyFitRequest } from "./runner";
 
 /** File name of the task worker bundle (webpack entry "task.worker", see addin/webpack.config.js). */
 export const TASK_WORKER_FILE = "task.worker.js";
@@ -62,15 +62,15 @@ export function browserTaskPool(url?: string): TaskPool | null {
  */
 /** A fit as the worker runs it: the request's data and options in, the result out. */
 export type FitFunction = (
-  predictors: FitRequest["predictors"],
-  target: FitRequest["target"],
+  predictors: AnyFitRequest["predictors"],
+  target: AnyFitRequest["target"],
   options: FitOptions,
 ) => Promise<FitResult>;
 
 export function pooledFit(pool: TaskPool | null): FitFunction & { poolBroken: () => boolean } {
   let busy = false;
   let broken = pool === null;
-  const run = async (predictors: number[][], target: number[], options: FitOptions): Promise<FitResult> => {
+  const run = async (predictors: AnyFitRequest["predictors"], target: number[], options: FitOptions): Promise<FitResult> => {
     if (broken || busy || pool === null) return fitAsync(predictors, target, options);
     busy = true;
     try {

@@ -23,11 +23,12 @@ import type { FitResult } from "../engine/fit";
 import type { FromWorker, ToWorker } from "./fit.worker";
 import { fromPlainError } from "./fit.worker";
 import { InProcessRunner } from "./inProcessRunner";
-import type { CancelToken, FitProgress, FitRequest, FitRunner } from "./runner";
+import type { AnyFitRequest, CancelToken, FitProgress, FitRunner } from "./runner";
 
 /** The part of the DOM Worker this runner uses (a fake in tests). */
 export interface WorkerLike {
-  postMessage(message: ToWorker): void;
+  /** `transfer`: buffers whose ownership moves to the worker (no copy; detached here). */
+  postMessage(message: ToWorker, transfer?: ArrayBuffer[]): void;
   terminate(): void;
   onmessage: ((event: { data: FromWorker }) => void) | null;
   onerror: ((event: unknown) => void) | null;
@@ -44,7 +45,7 @@ export const DEFAULT_CANCEL_GRACE_MS = 2000;
 
 interface Job {
   id: number;
-  request: FitRequest;
+  request: AnyFitRequest;
   resolve: (result: FitResult) => void;
   reject: (error: unknown) => void;
   onProgress?: (progress: FitProgress) => void;
@@ -73,6 +74,8 @@ export class WorkerRunner implements FitRunner {
   /** Cancelled fits still running in the current worker → their backstop timers. */
   private readonly stopping = new Map<number, ReturnType<typeof setTimeout>>();
   private counters = { started: 0, replaced: 0, posted: 0 };
+  /** A packed request's buffer handed back by the worker, reused for the next copy of the same size. */
+  private spare: ArrayBuffer | null = null;
 
   constructor(
     private readonly createWorker: () => WorkerLike,
@@ -82,7 +85,7 @@ export class WorkerRunner implements FitRunner {
     this.fallback = options.fallback ?? new InProcessRunner();
   }
 
-  fit(request: FitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
+  fit(request: AnyFitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
     if (this.failedOver) return this.fallback.fit(request, cancel, onProgress);
     if (cancel?.cancelled) return Promise.reject(new CancelledError());
     return new Promise<FitResult>((resolve, reject) => {
@@ -97,6 +100,7 @@ export class WorkerRunner implements FitRunner {
   dispose(): void {
     for (const job of this.jobs.values()) job.reject(new CancelledError());
     this.jobs.clear();
+    this.spare = null;
     this.stopWorker();
   }
 
@@ -121,7 +125,9 @@ export class WorkerRunner implements FitRunner {
   private post(job: Job): void {
     this.counters.posted++;
     try {
-      this.ensureWorker().postMessage({ type: "fit", id: job.id, request: job.request });
+      const { request, transfer, reusedSpare } = wireRequest(job.request, this.spare);
+      if (reusedSpare) this.spare = null;
+      this.ensureWorker().postMessage({ type: "fit", id: job.id, request }, transfer);
     } catch (error) {
       // `new Worker` can throw (a security policy, a bad URL): the same as a worker failing.
       this.workerFailed(error);
@@ -136,6 +142,7 @@ export class WorkerRunner implements FitRunner {
       return;
     }
     // A result or an error ends the fit in the worker.
+    if (message.spare) this.spare = message.spare;
     const timer = this.stopping.get(message.id);
     if (timer !== undefined) {
       clearTimeout(timer);
@@ -194,6 +201,32 @@ export class WorkerRunner implements FitRunner {
     const detail = describeEvent(event);
     for (const job of jobs) job.reject(new Error(`the fit worker stopped unexpectedly${detail ? `: ${detail}` : ""}`));
   }
+}
+
+/**
+ * A request as it is posted. A packed request's matrix goes as a copy whose buffer is transferred,
+ * so the one block copy made here is the only one: a structured clone would copy it twice (into the
+ * message, then out of it in the worker). The copy is written into `spare` (a buffer the worker
+ * handed back, fit.worker.ts) when it is the right size, so a recalculation of a same-sized grid
+ * needs no fresh memory for it. The request itself stays intact: the cache keeps its matrix as
+ * the key, and a fit is posted again, unchanged, when its worker is replaced. The rows form (small
+ * grids, and callers that build requests by hand) is cloned as before.
+ */
+export function wireRequest(
+  request: AnyFitRequest,
+  spare: ArrayBuffer | null = null,
+): { request: AnyFitRequest; transfer: ArrayBuffer[]; reusedSpare: boolean } {
+  const predictors = request.predictors;
+  if (Array.isArray(predictors)) return { request, transfer: [], reusedSpare: false };
+  const reusedSpare = spare !== null && spare.byteLength === predictors.data.byteLength;
+  let data: Float64Array;
+  if (reusedSpare) {
+    data = new Float64Array(spare as ArrayBuffer);
+    data.set(predictors.data);
+  } else {
+    data = predictors.data.slice();
+  }
+  return { request: { ...request, predictors: { rows: predictors.rows, columns: predictors.columns, data } }, transfer: [data.buffer as ArrayBuffer], reusedSpare };
 }
 
 function describeEvent(event: unknown): string {

@@ -93,6 +93,8 @@ export interface CommandOptions {
   timeColumn?: string | null;
   /** Print the queries that compute the sums, and exit. */
   printSql?: boolean;
+  /** ClickHouse route (cli/viaClickhouse.ts): the server's HTTP URL; `file` then holds the --table name. */
+  clickhouse?: string | null;
 }
 
 export type ParsedCommand = { help: true } | { help: false; options: CommandOptions };
@@ -202,6 +204,14 @@ Large files (DuckDB)
   --print-sql               print the queries that compute the sums (DuckDB SQL; the first pass
                             runs on the file to fill in the second) and exit
 
+A table on a ClickHouse server (instead of a data file)
+  --clickhouse <url>        the server's HTTP interface (http://host:8123); the sums are computed
+                            there (a Distributed table: on every shard) and fitted here. User and
+                            password from SHRINKWISE_CLICKHOUSE_USER / SHRINKWISE_CLICKHOUSE_PASSWORD
+  --table <db.table>        the table or view to fit; fold rule: --fold-column, --fold-key or
+                            --time-column (a table has no row order to hash); --print-sql prints
+                            the ClickHouse SQL
+
 Speed
   --threads <n>|auto        fit the folds and mixes on n worker threads (auto: one per core);
                             the result is the same, bit for bit (default 1: no workers)
@@ -265,6 +275,8 @@ const OPTIONS: Record<string, Kind> = {
   "fold-key": "text",
   "time-column": "text",
   "print-sql": "flag",
+  clickhouse: "text",
+  table: "text",
   help: "flag",
 };
 
@@ -343,8 +355,13 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
     seen.set(name, value);
   }
 
+  // The ClickHouse route reads a table on a server instead of a file: its name stands in for the file's.
+  const clickhouse = typeof seen.get("clickhouse") === "string" ? (seen.get("clickhouse") as string).trim() : null;
+  const table = typeof seen.get("table") === "string" ? (seen.get("table") as string).trim() : null;
+  if (table !== null && clickhouse === null) throw new CommandError("--table names a table on a ClickHouse server: add --clickhouse <url>");
   const fromSums = seen.has("sums");
   if (fromSums) {
+    if (clickhouse !== null) throw new CommandError("--sums fits a saved sums table and --clickhouse sums a table on a server: give one");
     if (positional.length > 0) throw new CommandError(`--sums fits from a saved sums table, without a data file: leave out ${positional.join(", ")}`);
     // Options that need the rows (or a data file's columns), each refused by name.
     const needRows: Record<string, string> = {
@@ -374,6 +391,12 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
       throw new CommandError("--outcome two-class can't be used with --sums: a yes/no fit needs a pass over the rows at every step; fit the data file");
     }
   } else {
+    if (clickhouse !== null) {
+      if (table === null) throw new CommandError("--clickhouse needs the table to fit: add --table <db.table>");
+      if (positional.length > 0) throw new CommandError(`--clickhouse fits a table on the server, not a file: leave out ${positional.join(", ")}`);
+      if (seen.has("via")) throw new CommandError("--via chooses how a file is read; --clickhouse reads a table on the server: leave out --via");
+      positional.push(table);
+    }
     if (positional.length === 0) throw new CommandError("no data file given: npm run fit -- <data.csv> --target <column>");
     if (positional.length > 1) {
       throw new CommandError(`one data file expected, got ${positional.length}: ${positional.join(", ")}`);
@@ -569,6 +592,7 @@ export function parseArgs(argv: readonly string[]): ParsedCommand {
       // Only when given: the options object is otherwise what it always was.
       ...(threads !== null ? { threads } : {}),
       ...sumsRoute,
+      ...(clickhouse !== null ? { clickhouse } : {}),
     },
   };
 }

@@ -17,6 +17,7 @@ import { fitParallel } from "../node/threadPool";
 import { CommandError, parseArgs, toFitOptions, USAGE, type CommandOptions } from "./args";
 import { failureLine, jsonText, predictionsCsv, textReport, warningMessages } from "./format";
 import { readFitTable, readNewRows, type FitTable } from "./table";
+import { runViaClickhouse } from "./viaClickhouse";
 import { chooseRoute, runViaDuckdb } from "./viaDuckdb";
 
 export interface CommandOutcome {
@@ -89,6 +90,9 @@ export function runCommand(
   if (duckdbCommand(argv) !== null) {
     return { exitCode: 2, stdout: "", stderr: "shrinkwise: this file goes through DuckDB, which runs asynchronously: use runCommandAsync (or --via memory)\n" };
   }
+  if (clickhouseCommand(argv) !== null) {
+    return { exitCode: 2, stdout: "", stderr: "shrinkwise: the ClickHouse route runs asynchronously: use runCommandAsync\n" };
+  }
   const step = commandSteps(argv, read, write);
   let next = step.next();
   while (!next.done) {
@@ -111,6 +115,16 @@ export async function runCommandAsync(
   read: (file: string) => string = readInput,
   write: (file: string, text: string) => void = writeOutput,
 ): Promise<CommandOutcome> {
+  // A table on a ClickHouse server is summed there and fitted from the sums.
+  const clickhouse = clickhouseCommand(argv);
+  if (clickhouse !== null) {
+    try {
+      return { exitCode: 0, stdout: (await runViaClickhouse(clickhouse)).stdout, stderr: "" };
+    } catch (error) {
+      const failure = failureLine(error);
+      return { exitCode: failure.exitCode, stdout: "", stderr: failure.line };
+    }
+  }
   // A Parquet or large file (or --via duckdb) is summed by DuckDB and fitted from the sums.
   const duckdb = duckdbCommand(argv);
   if (duckdb !== null) {
@@ -138,7 +152,17 @@ export async function runCommandAsync(
 function duckdbCommand(argv: readonly string[]): CommandOptions | null {
   try {
     const command = parseArgs(argv);
-    return !command.help && chooseRoute(command.options) === "duckdb" ? command.options : null;
+    return !command.help && !command.options.clickhouse && chooseRoute(command.options) === "duckdb" ? command.options : null;
+  } catch {
+    return null;
+  }
+}
+
+/** The parsed command when it names a ClickHouse server (--clickhouse, cli/viaClickhouse.ts), else null (bad arguments included: commandSteps reports them). */
+function clickhouseCommand(argv: readonly string[]): CommandOptions | null {
+  try {
+    const command = parseArgs(argv);
+    return !command.help && command.options.clickhouse ? command.options : null;
   } catch {
     return null;
   }

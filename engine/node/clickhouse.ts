@@ -26,7 +26,7 @@ import * as http from "http";
 import * as https from "https";
 import { randomUUID } from "crypto";
 import { CancelledError, InputError, type CancelSignal } from "../errors";
-import { computeSums, type SumsRequest, type SumsStep } from "../sumsSql";
+import { computeSums, describeSql, prepareSums, type PreparedSums, type RunQuery, type SumsRequest, type SumsSource, type SumsStep } from "../sumsSql";
 import type { SumsTable } from "../sumsTable";
 
 /** A value of a result cell: numbers for numeric types, bigint for 64-bit integers beyond 2^53, text otherwise. */
@@ -377,16 +377,10 @@ function isAbortSignal(signal: CancelSignal | AbortSignal): signal is AbortSigna
 }
 
 /**
- * The sums table of `request` (its source a table or view on the server, `db.table`; a
- * Distributed table sums on every shard and the server merges the partial sums) computed by the
- * ClickHouse server at `options.url`: the queries of engine/sumsSql.ts in its ClickHouse dialect,
- * POSTed one by one. Throws InputError for bad input or a server that can't be queried,
- * CancelledError when the signal is raised.
+ * Runs `body` with a runner bound to the server and the caller's signal: an AbortSignal aborts
+ * the running request at once; a plain cancel flag is looked at every 50 ms while a query runs.
  */
-export async function clickhouseSums(request: Omit<SumsRequest, "dialect">, options: ClickHouseSumsOptions): Promise<SumsTable> {
-  if (request.source.kind === "csv" || request.source.kind === "parquet") {
-    throw new InputError("setting", `${request.source.path} is a file: ClickHouse sums a table on the server (--table db.table); a local file goes through DuckDB`);
-  }
+async function withClickhouse<T>(options: ClickHouseSumsOptions, body: (run: RunQuery, signal: CancelSignal) => Promise<T>): Promise<T> {
   const run = clickhouseRunner(options);
   const controller = new AbortController();
   const signal = options.signal;
@@ -397,23 +391,54 @@ export async function clickhouseSums(request: Omit<SumsRequest, "dialect">, opti
       if (signal.aborted) controller.abort();
       else signal.addEventListener("abort", forward, { once: true });
     } else {
-      // A flag, not an event: look at it while a query runs.
+      if (signal.aborted) controller.abort();
       watch = setInterval(() => {
         if (signal.aborted) controller.abort();
       }, 50);
     }
   }
   try {
-    const version = (await run("SELECT version() AS version", controller.signal))[0]?.version;
-    const server = parseEndpoint(options.url).shown;
-    const where = request.source.kind === "table" ? request.source.name : "a query";
-    return await computeSums({ ...request, dialect: "clickhouse" }, (sql) => run(sql, controller.signal), {
-      signal: signal && !isAbortSignal(signal) ? signal : controller.signal,
-      onQuery: options.onQuery,
-      source: `clickhouse ${String(version ?? "")} at ${server} on ${where}`.replace(/\s+/g, " "),
-    });
+    return await body((sql) => run(sql, controller.signal), controller.signal);
   } finally {
     if (watch !== null) clearInterval(watch);
     if (signal && isAbortSignal(signal)) signal.removeEventListener("abort", forward);
   }
+}
+
+function refuseFiles(source: SumsSource): void {
+  if (source.kind === "csv" || source.kind === "parquet") {
+    throw new InputError("setting", `${source.path} is a file: ClickHouse sums a table on the server (--table db.table); a local file goes through DuckDB`);
+  }
+}
+
+/**
+ * The sums table of `request` (its source a table or view on the server, `db.table`; a
+ * Distributed table sums on every shard and the server merges the partial sums) computed by the
+ * ClickHouse server at `options.url`: the queries of engine/sumsSql.ts in its ClickHouse dialect,
+ * POSTed one by one. Throws InputError for bad input or a server that can't be queried,
+ * CancelledError when the signal is raised.
+ */
+export async function clickhouseSums(request: Omit<SumsRequest, "dialect">, options: ClickHouseSumsOptions): Promise<SumsTable> {
+  refuseFiles(request.source);
+  return withClickhouse(options, async (run, signal) => {
+    const version = (await run("SELECT version() AS version"))[0]?.version;
+    const where = request.source.kind === "table" ? request.source.name : "a query";
+    return computeSums({ ...request, dialect: "clickhouse" }, run, {
+      signal,
+      onQuery: options.onQuery,
+      source: `clickhouse ${String(version ?? "")} at ${parseEndpoint(options.url).shown} on ${where}`.replace(/\s+/g, " "),
+    });
+  });
+}
+
+/** The describe, first-pass and levels queries run on the server, and the second pass's queries built (not run): for --print-sql. */
+export async function clickhousePrepare(request: Omit<SumsRequest, "dialect">, options: ClickHouseSumsOptions): Promise<PreparedSums> {
+  refuseFiles(request.source);
+  return withClickhouse(options, (run, signal) => prepareSums({ ...request, dialect: "clickhouse" }, run, { signal, onQuery: options.onQuery }));
+}
+
+/** The source's column names, in order (ClickHouse's DESCRIBE TABLE). */
+export async function clickhouseColumns(source: SumsSource, options: ClickHouseSumsOptions): Promise<string[]> {
+  refuseFiles(source);
+  return withClickhouse(options, async (run) => (await run(describeSql(source, "clickhouse"))).map((row) => String(row.name)));
 }

@@ -204,6 +204,12 @@ describe("fold hash", () => {
       const rows = await duckdbRun(`SELECT k, ${foldHashSql("k", folds, "duckdb")} AS fold FROM (SELECT CAST(col0 AS BIGINT) AS k FROM (VALUES ${values}))`);
       for (const row of rows) expect(Number(row.fold)).toBe(foldOfKey(row.k as bigint, folds) + 1);
     }
+    // UBIGINT keys above 2^63 and HUGEINT keys: the remainder is taken in the key's own type.
+    const wide = [18446744073709551615n, 9223372036854775808n, 12345678901234567890n];
+    for (const type of ["UBIGINT", "HUGEINT"]) {
+      const rows = await duckdbRun(`SELECT CAST(k AS VARCHAR) AS k, ${foldHashSql("k", 10, "duckdb")} AS fold FROM (SELECT unnest([${wide.map((k) => `CAST('${k}' AS ${type})`).join(", ")}]) AS k)`);
+      for (const row of rows) expect(Number(row.fold)).toBe(foldOfKey(BigInt(row.k as string), 10) + 1);
+    }
     // An exact product check against BigInt (from memory: h = m·G mod 2^32).
     for (const k of keys) {
       const m = ((k % 4294967296n) + 4294967296n) % 4294967296n;
@@ -298,6 +304,7 @@ describe("bad input: one line that says what to fix", () => {
     ["one fold", () => ask(writeCsv("k2.csv", good), { fold: { kind: "hash", key: "x", folds: 1 } }), "the number of folds must be a whole number from 2"],
     ["a yes/no target", () => ask(writeCsv("yn.csv", "y,x,lot\ntrue,2,a\nfalse,3,b\n")), "fitting from sums takes number targets only"],
     ["no predictors", () => ask(writeCsv("np.csv", good), { predictors: [] }), "no predictors given"],
+    ["a NaN in a Parquet column", () => nanParquet().then((path) => ask(path)), "column 'x' has values that are not finite"],
   ];
   for (const [what, run, message] of cases) {
     test(what, async () => {
@@ -311,6 +318,12 @@ describe("bad input: one line that says what to fix", () => {
     });
   }
 });
+
+async function nanParquet(): Promise<string> {
+  const path = join(folder, "nan.parquet");
+  await duckdbRun(`COPY (SELECT * FROM (VALUES (1.0, 2.0, 'a'), (2.0, CAST('NaN' AS DOUBLE), 'b'), (3.0, 4.0, 'a')) AS t(y, x, lot)) TO ${quoteString(path, "duckdb")} (FORMAT parquet)`);
+  return path;
+}
 
 describe("any runner: computeSums drives the queries", () => {
   test("a cancel raised before a query stops the run", async () => {

@@ -5,40 +5,24 @@
  * two-pass reference (test/helpers/sumsReference.ts) and DuckDB's on the same rows to 1e-10
  * relative to each entry's scale (the tolerance of test/engine/sumsSql.test.ts).
  *
- * Needs a server at SHRINKWISE_CLICKHOUSE_URL (default http://127.0.0.1:18123, the one
- * `test/clickhouse/server.sh start` runs) whose config defines the cluster shrinkwise_two_shards
+ * Needs a server at SHRINKWISE_CLICKHOUSE_URL (unset: the repo's test server, which the gate
+ * starts with `test/clickhouse/server.sh start` when clickhouse-server is installed) whose config defines the cluster shrinkwise_two_shards
  * with shards in the databases sw_shard1 and sw_shard2. The suite makes its own tables
  * (sums_sql_probe) and drops them afterwards. Skipped with a printed reason when no server
  * answers; a failure under SHRINKWISE_REQUIRE_ALL=1.
  */
-import { execFileSync } from "child_process";
 import { mkdtempSync, rmSync, writeFileSync } from "fs";
 import { tmpdir } from "os";
 import { join } from "path";
 import { duckdbRun, duckdbSums, fileSource } from "../../engine/node/duckdb";
 import { computeSums, exactLiteral, foldHashSql, foldOfKey, type FoldRule, type SqlRow } from "../../engine/sumsSql";
 import { csvOf, gap, referenceSums, roastLog, type Reading } from "../helpers/sumsReference";
-import { suiteGate } from "../helpers/requirements";
+import { clickhouseNeed, clickhouseServer, suiteGate } from "../helpers/requirements";
 
-const URL_TEXT = process.env.SHRINKWISE_CLICKHOUSE_URL || "http://127.0.0.1:18123";
-
-/** Whether the server answers `SELECT 1` (checked synchronously, so the suite can be gated). */
-function serverAnswers(): boolean {
-  try {
-    execFileSync(
-      process.execPath,
-      ["-e", `fetch(${JSON.stringify(URL_TEXT)} + "/?query=SELECT%201", { signal: AbortSignal.timeout(3000) }).then((r) => process.exit(r.ok ? 0 : 1), () => process.exit(1))`],
-      { stdio: "ignore", timeout: 10000 },
-    );
-    return true;
-  } catch {
-    return false;
-  }
-}
-
-const gate = suiteGate("the ClickHouse sums checks (test/engine/sumsSqlClickHouse.test.ts)", [
-  serverAnswers() ? null : { what: `no ClickHouse server answers at ${URL_TEXT}`, fix: "test/clickhouse/server.sh start" },
-]);
+// The shared ClickHouse gate: SHRINKWISE_CLICKHOUSE_URL, else the repo's test server, started
+// when clickhouse-server is installed (test/helpers/requirements.ts clickhouseServer).
+const gate = suiteGate("the ClickHouse sums checks (test/engine/sumsSqlClickHouse.test.ts)", [clickhouseNeed()]);
+const URL_TEXT = clickhouseServer().url ?? "http://127.0.0.1:18123";
 
 /** A minimal HTTP runner (POST, FORMAT JSON, 64-bit integers as text): enough for these checks. */
 async function clickhouse(sql: string): Promise<SqlRow[]> {

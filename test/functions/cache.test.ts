@@ -9,7 +9,7 @@
 import { CancelledError, InputError } from "../../engine/errors";
 import { fitAsync, FitResult } from "../../engine/fit";
 import { approximateBytes, canonicalText, FitCache, requestHash } from "../../functions/cache";
-import { cancelSource, CancelToken, FitProgress, FitRequest, FitRunner } from "../../functions/runner";
+import { AnyFitRequest, cancelSource, CancelToken, FitProgress, FitRequest, FitRunner } from "../../functions/runner";
 import { InProcessRunner } from "../../functions/inProcessRunner";
 import { mulberry32 } from "../../engine/random";
 import * as cells from "../../functions/functions";
@@ -17,7 +17,7 @@ import * as cells from "../../functions/functions";
 /** A runner whose fits finish only when the test says so. */
 class ManualRunner implements FitRunner {
   calls: {
-    request: FitRequest;
+    request: AnyFitRequest;
     cancel?: CancelToken;
     progress?: (progress: FitProgress) => void;
     resolve: (result: FitResult) => void;
@@ -25,7 +25,7 @@ class ManualRunner implements FitRunner {
     cancelled: boolean;
   }[] = [];
 
-  fit(request: FitRequest, cancel?: CancelToken, progress?: (progress: FitProgress) => void): Promise<FitResult> {
+  fit(request: AnyFitRequest, cancel?: CancelToken, progress?: (progress: FitProgress) => void): Promise<FitResult> {
     return new Promise<FitResult>((resolve, reject) => {
       const call = { request, cancel, progress, resolve, reject, cancelled: false };
       cancel?.onCancel(() => {

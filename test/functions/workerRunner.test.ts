@@ -140,7 +140,7 @@ test("backstop: a cancelled fit that does not stop is ended by replacing the wor
   const created: FakeWorker[] = [];
   // The first worker's engine ignores the cancel signal for this request (it never answers).
   const stubborn: FitFunction = (predictors, target, options) =>
-    predictors.length === 7 && created.length === 1 ? never() : Promise.resolve(fit(predictors, target, options));
+    (predictors as number[][]).length === 7 && created.length === 1 ? never() : Promise.resolve(fit(predictors, target, options));
   const runner = new WorkerRunner(
     () => {
       const w = new FakeWorker(stubborn);
@@ -189,8 +189,8 @@ test("a fit in flight when the worker is replaced is re-posted and answered", as
   const created: FakeWorker[] = [];
   let release: (() => void) | null = null;
   const impl: FitFunction = (predictors, target, options) => {
-    if (predictors.length === 7 && created.length === 1) return never(); // stuck, ignores cancel
-    if (predictors.length === 9 && created.length === 1) {
+    if ((predictors as number[][]).length === 7 && created.length === 1) return never(); // stuck, ignores cancel
+    if ((predictors as number[][]).length === 9 && created.length === 1) {
       // Slow in the first worker: still running when that worker is replaced.
       return new Promise<FitResult>((resolve) => {
         release = () => resolve(fit(predictors, target, options));

@@ -1,0 +1,72 @@
+/**
+ * Where a SHRINK.COEFS recalculation spends its time outside the engine (a script, not a test):
+ *   npx tsx bench/cellPhases.ts 50000x40 [--repeat 6]
+ * Each stage of the cell path, in one process and in order, timed in CPU milliseconds of this
+ * process (less disturbed than wall time on a shared machine), best and median of the repeats:
+ * `prepare` (worksheet values → dataset → request: functions/api.ts prepare), `key` (the cache's
+ * fingerprint and hash), `wire` (the copy posted to the worker, into the buffer handed back by the
+ * previous fit after the first repeat), `post` (the structured clone with its transfer list, standing
+ * in for the port), `fit` (the engine on the received request), `result` (the result's structured
+ * clone back), `spill` (the coefficient table), and `engine` (the engine's own fit on the same data
+ * and options, as `npm run bench` times it). Data and settings are the bench's cell cases'.
+ * The stages run on one thread here; in the add-in `fit` runs in the worker.
+ */
+import { prepare } from "../functions/api";
+import { requestHash } from "../functions/cache";
+import { coefficientSpill } from "../functions/spill";
+import { wireRequest } from "../functions/workerRunner";
+import { fit } from "../engine/fit";
+import type { AnyFitRequest } from "../functions/runner";
+import { worksheetValues } from "./cellPath";
+import { makeData } from "./data";
+
+function main(): void {
+  const args = process.argv.slice(2);
+  const [n, p] = (args[0] ?? "50000x40").split("x").map(Number);
+  const at = args.indexOf("--repeat");
+  const repeat = at >= 0 ? Number(args[at + 1]) : 6;
+  const { x, y } = makeData(n, p, 20261201);
+  const cells = worksheetValues(x, y);
+  const settings = `folds=10; seed=1; grid size=100; low end=${p >= n ? 1e-2 : 1e-4}; stop early=no`;
+  const mixes = [[0, 0.2, 0.4, 0.6, 0.8, 1]];
+  const cpu = (): number => {
+    const used = process.cpuUsage();
+    return (used.user + used.system) / 1000;
+  };
+  const times: Record<string, number[]> = {};
+  let spare: ArrayBuffer | null = null;
+  for (let r = 0; r < repeat; r++) {
+    let start = cpu();
+    const lap = (name: string): void => {
+      const now = cpu();
+      (times[name] ??= []).push(now - start);
+      start = now;
+    };
+    const prepared = prepare(cells.target, cells.predictors, mixes, settings);
+    lap("prepare");
+    requestHash(prepared.request);
+    lap("key");
+    const { request, transfer, reusedSpare } = wireRequest(prepared.request, spare);
+    if (reusedSpare) spare = null;
+    lap("wire");
+    const received = structuredClone(request, { transfer }) as AnyFitRequest;
+    lap("post");
+    const result = fit(received.predictors, received.target, received.options);
+    if (!Array.isArray(received.predictors)) spare = received.predictors.data.buffer as ArrayBuffer;
+    lap("fit");
+    const back = structuredClone(result);
+    lap("result");
+    coefficientSpill(back, prepared.dataset);
+    lap("spill");
+    fit(x, y, prepared.request.options);
+    lap("engine");
+  }
+  const summary: Record<string, string> = {};
+  for (const [name, list] of Object.entries(times)) {
+    const sorted = list.slice().sort((a, b) => a - b);
+    summary[name] = `${sorted[0].toFixed(0)} / ${sorted[Math.floor(sorted.length / 2)].toFixed(0)}`;
+  }
+  console.log(JSON.stringify({ case: `${n}x${p}`, repeat, "best / median CPU ms": summary }));
+}
+
+main();
