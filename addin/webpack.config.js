@@ -12,6 +12,11 @@
  *     fit.worker.js          the Web Worker running the engine (functions/fit.worker.ts)
  *     task.worker.js         the fit worker's task workers: folds and mixes in parallel
  *                            (functions/task.worker.ts, functions/taskPool.ts)
+ *     duckdb-session.js      chunk loaded on demand by the pane's "Fit from a file"
+ *                            (taskpane/sources/duckdbSession.ts + the duckdb-wasm package)
+ *     duckdb/                DuckDB's WebAssembly modules and their worker scripts (eh and mvp
+ *                            builds), copied from @duckdb/duckdb-wasm: served from the add-in's
+ *                            own origin, fetched only when a file is fitted
  *     functions.json         cell-function metadata generated from functions.ts's JSDoc, then
  *                            post-processed (allowErrorForDataTypeAny, see below)
  *     manifest.xml           the XML manifest (localhost URLs), copied from the project root
@@ -38,6 +43,7 @@ const DIST = path.join(ROOT, "dist");
 const OFFICE_DIST = path.join(ROOT, "node_modules", "@microsoft", "office-js", "dist");
 const FUNCTIONS_SOURCE = path.join(ROOT, "functions", "functions.ts");
 const CERTS = path.join(ROOT, ".certs");
+const DUCKDB_DIST = path.join(ROOT, "node_modules", "@duckdb", "duckdb-wasm", "dist");
 const PORT = 3000;
 
 /**
@@ -150,6 +156,18 @@ function officeJsPatterns() {
 }
 
 /**
+ * DuckDB for "Fit from a file" (taskpane/sources/duckdbSession.ts DUCKDB_FILES): the WebAssembly
+ * modules and worker scripts of the two browser builds the pane may pick, served from dist/duckdb/
+ * (never a CDN). Already minified upstream, so marked minimized (Terser would take minutes).
+ * Not copied: the cross-origin-isolated threaded build (an add-in page is not isolated) and the
+ * Node builds.
+ */
+function duckdbPatterns() {
+  const files = ["duckdb-mvp.wasm", "duckdb-eh.wasm", "duckdb-browser-mvp.worker.js", "duckdb-browser-eh.worker.js"];
+  return files.map((from) => ({ from, context: DUCKDB_DIST, to: "duckdb/", info: { minimized: true } }));
+}
+
+/**
  * Outside an Office host (the standalone preview) office.js falls back to
  * o15apptofilemappingtable.js, whose logger opens a frame on a remote telemetry page three
  * seconds after load. The add-in makes no network calls, so the copy served from dist/ points
@@ -198,9 +216,14 @@ module.exports = (_env = {}, argv = {}) => {
     output: {
       path: DIST,
       filename: "[name].js",
+      // Chunks loaded on demand (import()), named by their webpackChunkName: duckdb-session.js.
+      chunkFilename: "[name].js",
       clean: true,
     },
     resolve: { extensions: [".ts", ".js"] },
+    // Chunks loaded on demand stay whole (sums-pane.js, duckdb-session.js with the duckdb-wasm
+    // package inside), not split further into numbered vendor chunks.
+    optimization: { splitChunks: { cacheGroups: { defaultVendors: false, default: false } } },
     module: {
       rules: [
         {
@@ -217,8 +240,9 @@ module.exports = (_env = {}, argv = {}) => {
     devtool: "source-map",
     performance: {
       hints: production ? "warning" : false,
-      // Only our own bundles count; the copied Office files are large by nature.
-      assetFilter: (file) => /\.js$/.test(file) && !file.startsWith("office-js/"),
+      // Only our own bundles count; the copied Office and DuckDB files are large by nature, and
+      // the DuckDB chunk is fetched only when a file is fitted.
+      assetFilter: (file) => /\.js$/.test(file) && !file.startsWith("office-js/") && !file.startsWith("duckdb/") && file !== "duckdb-session.js",
       maxAssetSize: 600 * 1024,
       maxEntrypointSize: 800 * 1024,
     },
@@ -235,6 +259,7 @@ module.exports = (_env = {}, argv = {}) => {
       new CopyWebpackPlugin({
         patterns: [
           ...officeJsPatterns(),
+          ...duckdbPatterns(),
           { from: "manifest.xml", to: "manifest.xml", noErrorOnMissing: true },
           {
             from: "addin/assets",

@@ -112,13 +112,21 @@ export function demoChoice(current: DemoSet, onChoose: (set: DemoSet) => void): 
   return group;
 }
 
+/**
+ * The pane's fits from sums (taskpane/sources/): the panel and its routes are a chunk loaded on
+ * the first switch away from worksheet ranges (DuckDB, for a file, on the first file read).
+ */
+const SUMS_OPTIONS = {
+  sumsRoutes: () => import(/* webpackChunkName: "sums-pane" */ "./sources/routes").then((m) => m.sumsRoutes),
+};
+
 async function startExcel(root: HTMLElement): Promise<void> {
   const host: SheetHost = new OfficeSheetHost();
   const layout = element("div", undefined, "layout");
   const pane = element("div");
   layout.append(pane);
   root.replaceChildren(layout);
-  await mountPane(pane, host);
+  await mountPane(pane, host, SUMS_OPTIONS);
   pane.append(helpSection());
 }
 
@@ -141,7 +149,7 @@ async function startStandalone(root: HTMLElement): Promise<void> {
   layout.append(pane, side);
   root.replaceChildren(layout);
   const view = renderStandInView(sheetBox, host);
-  const handle = await mountPane(pane, host, { defaults: demoRanges(), onSheetWritten: () => view.refresh() });
+  const handle = await mountPane(pane, host, { defaults: demoRanges(), onSheetWritten: () => view.refresh(), ...SUMS_OPTIONS });
   const onQuality = ((): boolean => {
     try {
       return parseAddress(handle.inputs().ranges.target).sheet === QUALITY_SHEET;

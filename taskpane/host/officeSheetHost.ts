@@ -209,6 +209,19 @@ export class OfficeSheetHost implements SheetHost {
     });
   }
 
+  async writeValues(address: string, values: CellValue[][]): Promise<void> {
+    const target = parseAddress(address);
+    const size = rangeSize(target);
+    if (values.length !== size.rows || values.some((row) => row.length !== size.columns)) {
+      throw new SheetHostError(`${address} is ${size.rows} × ${size.columns} cells but ${values.length} row(s) of values were given`);
+    }
+    await excel(`could not write to ${address}`, async (context) => {
+      const range = worksheetOf(context, target).getRange(formatAddress(target, false));
+      range.values = values;
+      await context.sync();
+    });
+  }
+
   /** A sheet name not yet in the workbook: the cleaned wanted name, then numbered ones. */
   private async uniqueName(context: Excel.RequestContext, wanted: string): Promise<string> {
     const base = cleanSheetName(wanted);

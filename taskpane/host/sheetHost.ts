@@ -67,6 +67,12 @@ export interface SheetHost {
   filledCells(address: string): Promise<string[]>;
   /** Writes formulas (rows of formula text, e.g. "=SHRINK.COEFS(M1:M121, B1:L121)") at `address`. */
   writeFormulas(address: string, formulas: string[][]): Promise<void>;
+  /**
+   * Writes constants (numbers, text, booleans; "" clears a cell) at `address`, whose size must
+   * match `values`. Numbers keep every bit (no round trip through text). As in Excel, a text
+   * starting with "=" would be read as a formula: callers write no such text.
+   */
+  writeValues(address: string, values: CellValue[][]): Promise<void>;
   /** Adds a new worksheet with the report; resolves to the sheet's actual name. */
   writeReport(report: ReportSheet): Promise<string>;
   /** Calls `listener` when any cell in one of the addresses changes; returns a function that stops listening. */

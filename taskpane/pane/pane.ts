@@ -20,7 +20,13 @@
  * outcome, the in-sample log loss, Brier score and AUC and the table at the cutoff; the charts,
  * the coefficient table (with odds ratios) and the report follow the outcome.
  *
+ * Data source (when the pane is given `sumsRoutes`): a choice at the top between worksheet ranges
+ * (everything below), a local CSV or Parquet file, and a sums table on the sheet. The last two
+ * are the panel of taskpane/sources/sumsPane.ts (its own test ids, listed there), loaded with its
+ * routes and DuckDB on the first switch; the worksheet sections are hidden meanwhile.
+ *
  * Stable test ids (`data-testid`), for the browser tests:
+ *   Source      source-choice (the radio group), source-sheet, source-file, source-sums
  *   Ranges      target-address, target-use-selection, target-prompt (only where the host has a
  *               range prompt); the same for predictors-*, new-rows-* (+ new-rows-clear);
  *               target-outcome (how the target reads: "yes/no outcome, event 'fail' …",
@@ -113,6 +119,9 @@ import { buildReport } from "../report/report";
 import { coefficientRows, coefficientTsv, copyText, renderCoefficientTable } from "./resultsTable";
 import { renderSettingsForm } from "./settingsForm";
 import type { SheetHost } from "../host/sheetHost";
+import type { FileSumsReader } from "../sources/fileSums";
+import { SOURCE_KINDS, type SourceKind } from "../sources/sumsInputs";
+import type { SumsPaneHandle, SumsRoutes } from "../sources/sumsPane";
 
 export interface PaneOptions {
   /** Ranges to start with when the workbook has none saved (the demo workbook's). */
@@ -123,6 +132,17 @@ export interface PaneOptions {
   onSheetWritten?: () => void;
   /** The clock for the report's time stamp. */
   now?: () => Date;
+  /**
+   * Loads the engine and SQL behind "Fit from a file" and "Fit from a sums table"
+   * (taskpane/sources/), on the first switch to either: the panel, the routes and DuckDB are
+   * separate chunks the worksheet route never fetches. Without it the pane offers worksheet
+   * ranges only (no "Data source" choice).
+   */
+  sumsRoutes?: () => Promise<SumsRoutes>;
+  /** Which of the two routes to offer beside worksheet ranges (default both). */
+  sumsSources?: readonly ("file" | "sums")[];
+  /** Reads local files with DuckDB; default one opening DuckDB from the add-in's own origin on first use. */
+  fileReader?: FileSumsReader;
 }
 
 export interface PaneHandle {
@@ -134,6 +154,12 @@ export interface PaneHandle {
   applyTheme(): void;
   /** Sets ranges as the pickers would (e.g. the standalone preview's choice of demo data); the others stay. */
   setRanges(ranges: Partial<PaneRanges>): void;
+  /** Where the data come from now: worksheet ranges, a local file, or a sums table. */
+  source(): SourceKind;
+  /** Switches the data source as the "Data source" choice does; resolves once its panel is shown. */
+  setSource(kind: SourceKind): Promise<void>;
+  /** The panel of the routes that fit from sums, once loaded (null before the first switch, or without routes). */
+  sums(): SumsPaneHandle | null;
   dispose(): void;
 }
 
@@ -605,7 +631,79 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
   reportStatus.setAttribute("role", "status");
   report.section.append(reportButton, reportStatus);
 
-  root.append(ranges.section, settings.section, fitting.section, message, results.section, formulas.section, report.section);
+  // ---- Data source: worksheet ranges (the sections above), a local file or a sums table ------
+  // The file and sums-table panel (taskpane/sources/sumsPane.ts) is loaded on the first switch.
+  const sheetSections = [ranges.section, settings.section, fitting.section, results.section, formulas.section, report.section];
+  let source: SourceKind = "sheet";
+  let sums: SumsPaneHandle | null = null;
+  let sumsLoading: Promise<SumsPaneHandle> | null = null;
+  const sumsHolder = el("div", { className: "sums-holder" });
+  const sourceChoice = el("fieldset", { className: "segmented source-choice", testid: "source-choice" });
+  const sourceRadios = new Map<SourceKind, HTMLInputElement>();
+  const loadRoutes = options.sumsRoutes;
+  if (loadRoutes) {
+    sourceChoice.append(el("legend", { text: "Data source" }));
+    const offered = options.sumsSources ?? ["file", "sums"];
+    for (const kind of SOURCE_KINDS.filter((k) => k.id === "sheet" || offered.includes(k.id))) {
+      const label = el("label");
+      const input = el("input", { testid: `source-${kind.id}`, id: `source-${kind.id}` });
+      input.type = "radio";
+      input.name = "source-choice";
+      input.value = kind.id;
+      input.checked = kind.id === source;
+      input.addEventListener("change", () => {
+        if (input.checked) void showSource(kind.id);
+      });
+      sourceRadios.set(kind.id, input);
+      label.append(input, el("span", { text: kind.label }));
+      sourceChoice.append(label);
+    }
+  }
+
+  function sumsPanel(routesOf: () => Promise<SumsRoutes>): Promise<SumsPaneHandle> {
+    sumsLoading ??= (async () => {
+      const [{ mountSumsPane }, { FileSumsReader }, routes] = await Promise.all([
+        import(/* webpackChunkName: "sums-pane" */ "../sources/sumsPane"),
+        import(/* webpackChunkName: "sums-pane" */ "../sources/fileSums"),
+        routesOf(),
+      ]);
+      const handle = mountSumsPane({ host, reader: options.fileReader ?? new FileSumsReader(), routes, onSheetWritten: options.onSheetWritten, say });
+      handle.setTheme(host.theme());
+      sumsHolder.replaceChildren(handle.element);
+      sums = handle;
+      return handle;
+    })();
+    sumsLoading.catch(() => (sumsLoading = null));
+    return sumsLoading;
+  }
+
+  async function showSource(next: SourceKind): Promise<void> {
+    source = next;
+    const radio = sourceRadios.get(next);
+    if (radio && !radio.checked) radio.checked = true;
+    for (const part of sheetSections) part.hidden = next !== "sheet";
+    sumsHolder.hidden = next === "sheet";
+    if (next === "sheet" || !loadRoutes) return;
+    try {
+      const panel = await sumsPanel(loadRoutes);
+      if (source === next) panel.setKind(next);
+    } catch (error) {
+      say(`The file and sums-table fits could not be loaded: ${messageOf(error)}`, true);
+    }
+  }
+
+  root.append(
+    ...(loadRoutes ? [sourceChoice] : []),
+    ranges.section,
+    settings.section,
+    fitting.section,
+    sumsHolder,
+    message,
+    results.section,
+    formulas.section,
+    report.section,
+  );
+  void showSource("sheet");
 
   // ---------------------------------------------------------------------------------------------
   // Behaviour
@@ -1081,6 +1179,7 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
     document.documentElement.dataset.theme = theme;
     for (const chart of CHARTS) charts[chart.kind]?.handle?.setTheme(theme);
     for (const chart of ASSURANCE_CHARTS) sureCharts[chart.kind]?.handle?.setTheme(theme);
+    sums?.setTheme(theme);
   }
   applyTheme();
   if (typeof window !== "undefined" && typeof window.matchMedia === "function") {
@@ -1128,6 +1227,9 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
     state: () => state,
     inputs: () => inputs,
     applyTheme,
+    source: () => source,
+    setSource: showSource,
+    sums: () => sums,
     setRanges(next: Partial<PaneRanges>) {
       for (const field of ["target", "predictors", "newRows", "destination"] as const) {
         const address = next[field];
@@ -1151,6 +1253,7 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
       for (const cleanup of cleanups) cleanup();
       for (const chart of CHARTS) charts[chart.kind]?.handle?.dispose();
       for (const chart of ASSURANCE_CHARTS) sureCharts[chart.kind]?.handle?.dispose();
+      sums?.dispose();
     },
   };
 }

@@ -359,30 +359,40 @@ export interface FitOutcome {
   elapsedMs: number;
 }
 
-export type FitState =
-  | { phase: "idle" }
-  | { phase: "fitting"; run: number; done: number; total: number; changed: boolean; previous: FitOutcome | null }
-  | { phase: "done"; run: number; outcome: FitOutcome }
-  | { phase: "stale"; run: number; outcome: FitOutcome }
-  | { phase: "cancelled"; run: number; previous: FitOutcome | null }
-  | { phase: "failed"; run: number; message: string; previous: FitOutcome | null };
+/**
+ * What any finished fit leaves: its result and how long it took. The worksheet route's outcome is
+ * a FitOutcome; the routes that fit from sums (taskpane/sources/) keep their own, and share the
+ * state machine below through its type parameter.
+ */
+export interface AnyOutcome {
+  result: FitResult;
+  elapsedMs: number;
+}
 
-export type FitEvent =
+export type FitState<O extends AnyOutcome = FitOutcome> =
+  | { phase: "idle" }
+  | { phase: "fitting"; run: number; done: number; total: number; changed: boolean; previous: O | null }
+  | { phase: "done"; run: number; outcome: O }
+  | { phase: "stale"; run: number; outcome: O }
+  | { phase: "cancelled"; run: number; previous: O | null }
+  | { phase: "failed"; run: number; message: string; previous: O | null };
+
+export type FitEvent<O extends AnyOutcome = FitOutcome> =
   | { type: "start"; run: number }
   | { type: "progress"; run: number; done: number; total: number }
-  | { type: "succeeded"; run: number; outcome: FitOutcome }
+  | { type: "succeeded"; run: number; outcome: O }
   | { type: "failed"; run: number; message: string }
   | { type: "cancelled"; run: number }
   | { type: "inputsChanged" };
 
-export const IDLE: FitState = { phase: "idle" };
+export const IDLE: { phase: "idle" } = { phase: "idle" };
 
-function runOf(state: FitState): number | null {
+function runOf<O extends AnyOutcome>(state: FitState<O>): number | null {
   return state.phase === "idle" ? null : state.run;
 }
 
 /** The last successful outcome the state still shows (results stay on screen under a banner). */
-export function shownOutcome(state: FitState): FitOutcome | null {
+export function shownOutcome<O extends AnyOutcome = FitOutcome>(state: FitState<O>): O | null {
   switch (state.phase) {
     case "done":
     case "stale":
@@ -396,7 +406,7 @@ export function shownOutcome(state: FitState): FitOutcome | null {
   }
 }
 
-export function reduceFit(state: FitState, event: FitEvent): FitState {
+export function reduceFit<O extends AnyOutcome = FitOutcome>(state: FitState<O>, event: FitEvent<O>): FitState<O> {
   if (event.type === "start") {
     return { phase: "fitting", run: event.run, done: 0, total: 0, changed: false, previous: shownOutcome(state) };
   }
@@ -441,7 +451,7 @@ function mixName(mix: number): string {
 }
 
 /** One sentence for the status region; `ready` = target and predictors are chosen. */
-export function fitStatusText(state: FitState, ready = false): string {
+export function fitStatusText<O extends AnyOutcome = FitOutcome>(state: FitState<O>, ready = false): string {
   switch (state.phase) {
     case "idle":
       return ready ? "Ready: press Fit." : "Choose the target and predictors, then press Fit.";

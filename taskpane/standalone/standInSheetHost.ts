@@ -821,6 +821,15 @@ export class StandInSheetHost implements SheetHost {
     this.setCells(formatAddress(range), formulas, sheet);
   }
 
+  async writeValues(address: string, values: CellValue[][]): Promise<void> {
+    const { sheet, range } = this.resolve(address);
+    const size = rangeSize(range);
+    if (values.length !== size.rows || values.some((row) => row.length !== size.columns)) {
+      throw new SheetHostError(`${address} is ${size.rows} × ${size.columns} cells but ${values.length} row(s) of values were given`);
+    }
+    this.setCells(formatAddress(range), values, sheet);
+  }
+
   /** Resolves once every computation started so far (and any it set off) has finished. */
   async whenCalculated(): Promise<void> {
     while (this.pending.size > 0) await Promise.allSettled([...this.pending]);

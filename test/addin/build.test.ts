@@ -2,7 +2,8 @@
  * The production webpack build (addin/webpack.config.js) into a temporary folder, and what it
  * must contain: the three bundles, functions.json post-processed, taskpane.html loading the
  * functions bundle before the pane's (shared runtime), office.js with its Excel host files and
- * locale strings marked as already minimized, the manifest and icons, no eval.
+ * locale strings marked as already minimized, the manifest and icons, no eval; DuckDB's files for
+ * "Fit from a file" in dist/duckdb/ and its code in chunks loaded on demand.
  * Takes about 15 s here, so it runs with the other tests.
  *
  * Where Chromium is installed (/usr/bin/chromium; CI installs it and requires this check), the
@@ -93,10 +94,16 @@ test("office.js, the Excel host files and locale strings are copied and marked m
 });
 
 test("no eval: source maps are separate files and the bundles hold no eval calls", () => {
-  for (const name of ["functions.js", "taskpane.js", "fit.worker.js", "task.worker.js"]) {
+  // Our bundles and the chunks loaded on demand (Fit from a file). DuckDB's worker scripts are
+  // upstream builds whose Emscripten runtime holds eval for features DuckDB does not use here;
+  // test/browser/fileSums.test.ts runs them under a content security policy without
+  // 'unsafe-eval' to show none is reached.
+  for (const name of ["functions.js", "taskpane.js", "fit.worker.js", "task.worker.js", "sums-pane.js", "duckdb-session.js"]) {
     expect([name, /\beval\(/.test(file(name))]).toEqual([name, false]);
     expect([name, existsSync(join(out, `${name}.map`))]).toEqual([name, true]);
   }
+  // The on-demand chunks hold no Function constructor either (apache-arrow, inside duckdb-session.js, has one only on code paths left out).
+  for (const name of ["sums-pane.js", "duckdb-session.js"]) expect([name, /new Function\(/.test(file(name))]).toEqual([name, false]);
   // The metadata plugin's own loader (unguarded associate calls) is removed: functions.ts registers itself.
   expect(file("functions.js")).not.toMatch(/associate\("COEFS"/);
   // The worker bundle holds its bootstrap.
@@ -104,6 +111,28 @@ test("no eval: source maps are separate files and the bundles hold no eval calls
   // The task workers' bundle (parallel folds, functions/taskPool.ts), which the fit worker starts beside itself.
   expect(file("task.worker.js")).toMatch(/WorkerGlobalScope/);
   expect(file("fit.worker.js")).toMatch(/task\.worker\.js/);
+});
+
+test("Fit from a file: DuckDB's WebAssembly and workers are served from dist/duckdb/, marked minimized; its code is a separate chunk", () => {
+  // taskpane/sources/duckdbSession.ts DUCKDB_FILES: the two builds selectBundle may pick.
+  for (const name of ["duckdb-eh.wasm", "duckdb-mvp.wasm", "duckdb-browser-eh.worker.js", "duckdb-browser-mvp.worker.js"]) {
+    expect([name, existsSync(join(out, "duckdb", name))]).toEqual([name, true]);
+  }
+  const copied = (stats.assets ?? []).filter((a) => a.name.startsWith("duckdb/"));
+  expect(copied.map((a) => a.name).sort()).toEqual(["duckdb/duckdb-browser-eh.worker.js", "duckdb/duckdb-browser-mvp.worker.js", "duckdb/duckdb-eh.wasm", "duckdb/duckdb-mvp.wasm"]);
+  expect(copied.filter((a) => !a.info.minimized).map((a) => a.name)).toEqual([]);
+  // Loaded on demand: the panel (sums-pane.js) and DuckDB's bindings (duckdb-session.js), whole
+  // (no numbered vendor chunks), and not part of the bundles every page loads.
+  const scripts = readdirSync(out).filter((f) => f.endsWith(".js"));
+  expect(scripts.sort()).toEqual(["duckdb-session.js", "fit.worker.js", "functions.js", "sums-pane.js", "task.worker.js", "taskpane.js"]);
+  expect(/registerFileHandle/.test(file("duckdb-session.js"))).toBe(true);
+  for (const name of ["functions.js", "taskpane.js"]) expect([name, /registerFileHandle|duckdb-eh\.wasm/.test(file(name))]).toEqual([name, false]);
+  // The page's chunk loader (webpack's runtime, on the page's bundles) knows the chunk by name.
+  expect(/sums-pane/.test(file("functions.js") + file("taskpane.js"))).toBe(true);
+  // Never a CDN: the pane's own chunk names no other host. (duckdb-session.js holds the
+  // package's getJsDelivrBundles, which the pane never calls: duckdbSession.ts builds its
+  // bundles from dist/duckdb/, and test/browser/sumsRoutes.test.ts sees no request leave the origin.)
+  expect(/cdn\.jsdelivr|unpkg\.com|https:\/\//.test(file("sums-pane.js"))).toBe(false);
 });
 
 test("ends with build-stamp.json holding when the build started (npm test's pretest reads it)", () => {

@@ -42,6 +42,8 @@ const TYPES: Record<string, string> = {
   ".png": "image/png",
   ".css": "text/css; charset=utf-8",
   ".map": "application/json; charset=utf-8",
+  // DuckDB's WebAssembly (Fit from a file): browsers compile a streamed module only with this type.
+  ".wasm": "application/wasm",
 };
 
 export interface StaticServer {
@@ -49,8 +51,11 @@ export interface StaticServer {
   close(): Promise<void>;
 }
 
-/** Serves dist/ on 127.0.0.1; only files inside dist/ are reachable. */
-export async function startServer(root = DIST): Promise<StaticServer> {
+/**
+ * Serves dist/ on 127.0.0.1; only files inside dist/ are reachable. `headers` go on every
+ * response (e.g. a Content-Security-Policy, which a worker script's response sets for the worker).
+ */
+export async function startServer(root = DIST, headers: Record<string, string> = {}): Promise<StaticServer> {
   const server: Server = createServer((request, response) => {
     const path = decodeURIComponent((request.url ?? "/").split("?")[0]);
     const file = normalize(join(root, path === "/" ? "taskpane.html" : path));
@@ -59,7 +64,7 @@ export async function startServer(root = DIST): Promise<StaticServer> {
       response.end("not found");
       return;
     }
-    response.writeHead(200, { "Content-Type": TYPES[extname(file)] ?? "application/octet-stream" });
+    response.writeHead(200, { ...headers, "Content-Type": TYPES[extname(file)] ?? "application/octet-stream" });
     createReadStream(file).pipe(response);
   });
   await new Promise<void>((done) => server.listen(0, "127.0.0.1", done));
@@ -93,9 +98,19 @@ export interface AxeViolation {
   nodes: number;
 }
 
-/** Runs axe-core in the page; returns the serious and critical violations. */
-export async function scanAccessibility(page: Page): Promise<AxeViolation[]> {
-  await page.addScriptTag({ path: require.resolve("axe-core/axe.min.js") });
+/**
+ * Runs axe-core in the page; returns the serious and critical violations. With `origin` (the
+ * page's, served under a content security policy that refuses inline scripts) axe is loaded as a
+ * script of that origin, answered by the test itself.
+ */
+export async function scanAccessibility(page: Page, origin?: string): Promise<AxeViolation[]> {
+  if (origin) {
+    const url = `${origin}/__test-only__/axe.min.js`;
+    await page.route(url, (route) => route.fulfill({ path: require.resolve("axe-core/axe.min.js"), contentType: "text/javascript" }));
+    await page.addScriptTag({ url });
+  } else {
+    await page.addScriptTag({ path: require.resolve("axe-core/axe.min.js") });
+  }
   const violations = await page.evaluate(async () => {
     const axe = (window as unknown as { axe: { run: (context: unknown, options: unknown) => Promise<{ violations: { id: string; impact: string | null; help: string; nodes: unknown[] }[] }> } }).axe;
     const result = await axe.run(document, { resultTypes: ["violations"] });

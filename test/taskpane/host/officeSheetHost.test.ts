@@ -338,6 +338,27 @@ describe("writing formulas", () => {
   });
 });
 
+describe("writing values", () => {
+  test("range.values gets the rows as given: numbers keep every bit (no text round trip)", async () => {
+    const { mock, recorded } = await makeExcel();
+    const values = [
+      ["term", "coefficient"],
+      ["intercept", 0.1 + 0.2],
+    ];
+    await new OfficeSheetHost().writeValues("'Roast log'!O1:P2", values);
+    expect(recorded.rangeCalls).toEqual(["O1:P2"]);
+    const range = (mock as unknown as { context: { workbook: { worksheets: { named: { range: { values: unknown } } } } } }).context.workbook.worksheets.named.range;
+    expect(range.values).toEqual(values);
+    expect((range.values as number[][])[1][1]).toBe(0.30000000000000004);
+  });
+
+  test("rows that don't match the range's shape are refused before Excel is asked", async () => {
+    const { recorded } = await makeExcel();
+    await expect(new OfficeSheetHost().writeValues("O1:P2", [["a", 1]])).rejects.toThrow(/2 × 2 cells but 1 row/);
+    expect(recorded.rangeCalls).toEqual([]);
+  });
+});
+
 describe("report sheet", () => {
   const pathBlock = {
     at: "D2",

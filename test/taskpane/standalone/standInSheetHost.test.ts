@@ -144,6 +144,21 @@ describe("reading", () => {
   });
 });
 
+describe("writing values", () => {
+  test("writeValues stores constants at full precision; a size mismatch is refused", async () => {
+    const host = newHost(new StandInWorkbook(["Data"]));
+    await host.writeValues("B2:C3", [
+      ["term", "coefficient"],
+      ["intercept", 0.1 + 0.2],
+    ]);
+    expect(await host.readValues("B2:C3")).toEqual([
+      ["term", "coefficient"],
+      ["intercept", 0.30000000000000004],
+    ]);
+    await expect(host.writeValues("B2:C3", [["x"]])).rejects.toThrow(/2 × 2 cells but 1 row/);
+  });
+});
+
 describe("formulas", () => {
   test("parsing: ranges, sheet names, left-out arguments, text, numbers, arrays, spill refs, nested calls", () => {
     const call = parseFormula(`=shrink.coefs('Roast log'!M1:M121, $B$1:L121, , "a ""quoted"" word")`);
