@@ -119,7 +119,7 @@ export async function runCommandAsync(
   const clickhouse = clickhouseCommand(argv);
   if (clickhouse !== null) {
     try {
-      return { exitCode: 0, stdout: (await runViaClickhouse(clickhouse)).stdout, stderr: "" };
+      return { exitCode: 0, stdout: (await runViaClickhouse(clickhouse, write)).stdout, stderr: "" };
     } catch (error) {
       const failure = failureLine(error);
       return { exitCode: failure.exitCode, stdout: "", stderr: failure.line };

@@ -13,13 +13,11 @@
  * order to deal rows by. The options that need the rows are refused as on the DuckDB route.
  */
 import type { FitResult } from "../fit";
-import { fitFromSums } from "../fitSums";
 import { clickhouseColumns, clickhousePrepare, clickhouseSums, type ClickHouseSumsOptions } from "../node/clickhouse";
 import type { FoldRule, SumsRequest } from "../sumsSql";
 import type { SumsTable } from "../sumsTable";
-import { CommandError, toFitOptions, type CommandOptions } from "./args";
-import { jsonText, textReport } from "./format";
-import { foldRuleFor, tableOfSums } from "./viaDuckdb";
+import { CommandError, type CommandOptions } from "./args";
+import { fitQueriedSums, foldRuleFor } from "./viaDuckdb";
 
 export interface ClickhouseOutcome {
   stdout: string;
@@ -70,7 +68,11 @@ function predictorsFor(options: CommandOptions, columns: readonly string[], rule
  * queries). Throws CommandError / InputError for bad input and for a server that refuses or times
  * out; the caller turns them into exit code 2. `env` supplies user and password (tests pass their own).
  */
-export async function runViaClickhouse(options: CommandOptions, env: Record<string, string | undefined> = process.env): Promise<ClickhouseOutcome> {
+export async function runViaClickhouse(
+  options: CommandOptions,
+  write: (file: string, text: string) => void,
+  env: Record<string, string | undefined> = process.env,
+): Promise<ClickhouseOutcome> {
   const url = options.clickhouse;
   if (!url) throw new CommandError("the ClickHouse route needs --clickhouse <url>");
   refuseRowOptions(options);
@@ -88,16 +90,5 @@ export async function runViaClickhouse(options: CommandOptions, env: Record<stri
     return { stdout: printed.join("\n\n") + "\n", sums: null, result: null };
   }
   const sums = await clickhouseSums(request, server);
-  if (options.folds !== null && rule.kind === "column" && options.folds !== sums.blocks.length) {
-    const shown = sums.blocks.slice(0, 6).map((b) => `'${b.label}'`).join(", ") + (sums.blocks.length > 6 ? ", …" : "");
-    throw new CommandError(
-      `--folds ${options.folds} can't apply with --fold-column ${rule.column}: that column makes one fold per distinct value, and it has ${sums.blocks.length} (${shown}); leave --folds out`,
-    );
-  }
-  // The blocks are the folds: --folds has already made them (hash and time rules).
-  const fitOptions = toFitOptions({ ...options, folds: null }, { names: sums.terms, weights: null, foldLabels: null, outcome: "number" });
-  delete fitOptions.timeOrdered;
-  const result = fitFromSums(sums, fitOptions);
-  const context = { table: tableOfSums(sums), foldColumn: options.foldColumn };
-  return { stdout: options.json ? jsonText(result, context) : textReport(result, context), sums, result };
+  return fitQueriedSums(options, sums, rule, write);
 }

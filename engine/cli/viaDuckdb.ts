@@ -153,6 +153,15 @@ export async function runViaDuckdb(options: CommandOptions, write: (file: string
     return { stdout: printed.join("\n\n") + "\n", sums: null, result: null };
   }
   const sums = await duckdbSums(request);
+  return fitQueriedSums(options, sums, rule, write);
+}
+
+/**
+ * The fit of a sums table a query engine returned (the DuckDB and ClickHouse routes): checks
+ * --folds against a fold column's blocks, fits from the sums, saves them with --sums-out (after
+ * the fit succeeds, as the in-memory route saves its sums) and formats the report or JSON.
+ */
+export function fitQueriedSums(options: CommandOptions, sums: SumsTable, rule: FoldRule, write: (file: string, text: string) => void): DuckdbOutcome {
   if (options.folds !== null && rule.kind === "column" && options.folds !== sums.blocks.length) {
     const shown = sums.blocks.slice(0, 6).map((b) => `'${b.label}'`).join(", ") + (sums.blocks.length > 6 ? ", …" : "");
     throw new CommandError(

@@ -163,6 +163,18 @@ gate.describe("the ClickHouse route gives the other routes' model", () => {
     expect(Math.abs(result.standardizedCoefficients.ambient_humidity)).toBeLessThan(0.01);
   });
 
+  test("--sums-out saves the server's sums; --sums refits them without the server: the same model (fitFromSums twice on one table)", async () => {
+    const saved = join(folder, "roast-sums.json");
+    const written: Record<string, string> = {};
+    const outcome = await runCommandAsync([...server(), ...common, "--sums-out", saved], undefined, (file, text) => (written[file] = text));
+    expect(outcome.stderr).toBe("");
+    expect(outcome.exitCode).toBe(0);
+    expect(Object.keys(written)).toEqual([saved]);
+    writeFileSync(saved, written[saved]);
+    const refit = await json(["--sums", saved, "--mix", "0.5,1", "--json"]);
+    expectSameModel(refit, JSON.parse(outcome.stdout) as Json);
+  });
+
   test("--print-sql prints the ClickHouse queries, first pass run on the server to fill in the second", async () => {
     const outcome = await runCommandAsync([...server(), "--target", "roast_loss", "--fold-column", "fold_label", "--print-sql"]);
     expect(outcome.exitCode).toBe(0);
