@@ -62,7 +62,7 @@
  *   200×2000 and ~11% on 1000×50, but the paths stayed 2–9× slower than with the Newton step;
  *   with it, the Newton step comes first and Anderson never fires.
  */
-import { ActiveFactor, choleskyRows, EntrySource } from "./activeFactor";
+import { ActiveFactor, choleskyRows, StoredMatrix } from "./activeFactor";
 import { CancelSignal, throwIfCancelled } from "./errors";
 import { portableLog } from "./portableMath";
 import { dotRange, TrainingProblem } from "./problem";
@@ -233,6 +233,8 @@ export class CoordinateDescent {
   private systemBuffer: Float64Array;
   /** The last Newton system's Cholesky factor (see solveCached). */
   private factor: ActiveFactor | null = null;
+  /** Where the factor reads B (see solveCached); filled on the first Newton step. */
+  private readonly storedSystem: StoredMatrix = { values: new Float64Array(0), stride: 0, slot: new Int32Array(0) };
   /** The solution before the current one, and the strengths of both (NaN until solved). */
   private history: Float64Array;
   private historySpare: Float64Array;
@@ -554,22 +556,25 @@ export class CoordinateDescent {
   private solveCached(members: Int32Array, m: number, l2: number, rhs: Float64Array): boolean {
     const multipliers = this.penalty.multipliers;
     const factor = (this.factor ??= new ActiveFactor(this.problem.p));
-    const diagonal = (j: number): number => l2 * multipliers[j];
-    let entry: EntrySource;
+    const source = this.storedSystem;
     if (this.problem.kind === "gram") {
-      const gram = this.problem.gram as Float64Array;
-      const p = this.problem.p;
-      entry = (a, b) => gram[a * p + b];
+      if (source.slot.length === 0) {
+        // G̃ itself, read in place: the identity map, row stride p.
+        source.values = this.problem.gram as Float64Array;
+        source.stride = this.problem.p;
+        source.slot = new Int32Array(this.problem.p);
+        for (let j = 0; j < this.problem.p; j++) source.slot[j] = j;
+      }
     } else {
       this.productSlots(members, m);
-      const cache = this.productCache;
-      const stride = this.productCapacity;
-      const slotOf = this.slotOf;
-      entry = (a, b) => cache[slotOf[a] * stride + slotOf[b]];
+      // (The cache may have grown: its array and stride are read after productSlots.)
+      source.values = this.productCache;
+      source.stride = this.productCapacity;
+      source.slot = this.slotOf;
     }
     let ok = false;
-    if (FACTOR_CACHE && factor.count > 0 && factor.shift === l2) ok = factor.update(members, m, Math.max(2, m >> 3), diagonal, entry);
-    if (!ok) ok = factor.rebuild(members, m, l2, diagonal, entry);
+    if (FACTOR_CACHE && factor.count > 0 && factor.shift === l2) ok = factor.update(members, m, Math.max(2, m >> 3), multipliers, source);
+    if (!ok) ok = factor.rebuild(members, m, l2, multipliers, source);
     if (!ok) return false;
     factor.solve(members, m, rhs);
     if (!FACTOR_CACHE) factor.clear();

@@ -6,7 +6,7 @@
  */
 import fc from "fast-check";
 import { Matrix, solve } from "ml-matrix";
-import { ActiveFactor } from "../../engine/activeFactor";
+import { ActiveFactor, StoredMatrix } from "../../engine/activeFactor";
 import { TestRandom } from "../helpers/random";
 
 /** A p × p Gram matrix XᵀX / n of random columns (positive definite for n > p). */
@@ -24,6 +24,11 @@ function gramOf(p: number, random: TestRandom): Float64Array {
   return g;
 }
 
+/** The p × p matrix read in place (identity slots), as descent.ts does in gram form. */
+function storedGram(gram: Float64Array, p: number): StoredMatrix {
+  return { values: gram, stride: p, slot: Int32Array.from({ length: p }, (_, j) => j) };
+}
+
 describe("ActiveFactor", () => {
   test("after joins and leaves, solves agree with an LU solve of the edited system (ml-matrix)", () => {
     fc.assert(
@@ -32,12 +37,13 @@ describe("ActiveFactor", () => {
         const p = 12;
         const gram = gramOf(p, random);
         const shift = shifted ? 0.3 : 0;
-        const multipliers = Array.from({ length: p }, () => 0.5 + random.uniform());
+        const multipliers = Float64Array.from({ length: p }, () => 0.5 + random.uniform());
         const diagonal = (j: number): number => shift * multipliers[j];
         const entry = (a: number, b: number): number => gram[a * p + b];
+        const source = storedGram(gram, p);
         const factor = new ActiveFactor(p);
         let members = [0, 3, 5, 7];
-        expect(factor.rebuild(Int32Array.from(members), members.length, shift, diagonal, entry)).toBe(true);
+        expect(factor.rebuild(Int32Array.from(members), members.length, shift, multipliers, source)).toBe(true);
         for (let step = 0; step < 8; step++) {
           // Drop one member, add up to two new ones (in a shuffled order).
           const drop = Math.floor(random.uniform() * members.length);
@@ -48,7 +54,7 @@ describe("ActiveFactor", () => {
           }
           const m = members.length;
           const list = Int32Array.from(members);
-          if (!factor.update(list, m, p, diagonal, entry)) expect(factor.rebuild(list, m, shift, diagonal, entry)).toBe(true);
+          if (!factor.update(list, m, p, multipliers, source)) expect(factor.rebuild(list, m, shift, multipliers, source)).toBe(true);
           const rhs = Float64Array.from({ length: m }, () => random.normal());
           const system = Matrix.zeros(m, m);
           for (let a = 0; a < m; a++) for (let b = 0; b < m; b++) system.set(a, b, entry(members[a], members[b]) + (a === b ? diagonal(members[a]) : 0));
@@ -67,13 +73,14 @@ describe("ActiveFactor", () => {
     // Columns 0 and 1 identical: B restricted to {0, 1} is singular without a shift.
     for (let a = 0; a < p; a++) gram[a * p + a] = 1;
     gram[1] = gram[4] = 1;
-    const entry = (a: number, b: number): number => gram[a * p + b];
+    const source = storedGram(gram, p);
+    const ones = new Float64Array(p).fill(1);
     const factor = new ActiveFactor(p);
-    expect(factor.rebuild(Int32Array.of(0, 2), 2, 0, () => 0, entry)).toBe(true);
-    expect(factor.update(Int32Array.of(1, 3), 2, 2, () => 0, entry)).toBe(false);
+    expect(factor.rebuild(Int32Array.of(0, 2), 2, 0, ones, source)).toBe(true);
+    expect(factor.update(Int32Array.of(1, 3), 2, 2, ones, source)).toBe(false);
     expect(factor.count).toBe(0);
-    expect(factor.rebuild(Int32Array.of(0, 1), 2, 0, () => 0, entry)).toBe(false);
-    expect(factor.rebuild(Int32Array.of(0), 1, 0, () => 0, entry)).toBe(true);
-    expect(factor.update(Int32Array.of(0, 1), 2, 4, () => 0, entry)).toBe(false);
+    expect(factor.rebuild(Int32Array.of(0, 1), 2, 0, ones, source)).toBe(false);
+    expect(factor.rebuild(Int32Array.of(0), 1, 0, ones, source)).toBe(true);
+    expect(factor.update(Int32Array.of(0, 1), 2, 4, ones, source)).toBe(false);
   });
 });
