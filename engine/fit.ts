@@ -76,7 +76,7 @@ import {
   emptySums,
   problemFromRows,
   problemFromSums,
-  stableCentre,
+  stableAnchor,
   stableMean,
   Standardization,
   takeLargest,
@@ -767,8 +767,14 @@ function fullShift(data: Prepared): { shiftX: Float64Array; shiftY: number } {
   let total = 0;
   for (let i = 0; i < n; i++) total += weights ? weights[i] : 1;
   for (let i = 0; i < n; i++) omega[i] = (weights ? weights[i] : 1) / total;
-  const shiftY = stableCentre(y, omega, n).anchor;
-  for (let j = 0; j < x.columns; j++) shiftX[j] = stableCentre(x.data.subarray(j * n, (j + 1) * n), omega, n).anchor;
+  // Only the anchors (a value near each centre) are used: stableAnchor skips the two passes of
+  // stableCentre's offset; the same anchors (0 when no weight is positive, as stableCentre gives).
+  const anchorOf = (values: Float64Array): number => {
+    const anchor = stableAnchor(values, omega, n);
+    return Number.isNaN(anchor) ? 0 : anchor;
+  };
+  const shiftY = anchorOf(y);
+  for (let j = 0; j < x.columns; j++) shiftX[j] = anchorOf(x.data.subarray(j * n, (j + 1) * n));
   return { shiftX, shiftY };
 }
 
@@ -1871,13 +1877,19 @@ function heldOutModels(
   const row: number[] = [];
   const fold: number[] = [];
   const residual: number[] = [];
+  // Back to the target's units: a multiplication by 2^−yExponent, the power built once rather
+  // than per row (scaleByPowerOfTwo does exactly this product when the power is a normal double,
+  // and steps through it otherwise).
+  const exponent = -data.yExponent;
+  const unit = Math.abs(exponent) <= 1022 ? powerOfTwo(exponent) : NaN;
   for (let f = 0; f < K; f++) {
     const yAnchor = folds[f].std.yAnchor;
     for (const i of plan.blocks[plan.validateBlock[f]]) {
       if (foldOf[i] !== f) continue;
+      const held = data.y[i] - yAnchor - prediction[i];
       row.push(i);
       fold.push(f);
-      residual.push(scaleByPowerOfTwo(data.y[i] - yAnchor - prediction[i], -data.yExponent));
+      residual.push(Number.isNaN(unit) ? scaleByPowerOfTwo(held, exponent) : held * unit);
     }
   }
   return { foldModels, heldOut: { row, fold, residual } };
