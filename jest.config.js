@@ -5,7 +5,10 @@ module.exports = {
   testMatch: ["**/*.test.ts"],
   transform: {
     "^.+\\.ts$": ["ts-jest", { tsconfig: "tsconfig.json", diagnostics: { warnOnly: false } }],
+    // hyparquet (the pane's Parquet reader) ships ES modules only: compiled to CommonJS for jest.
+    "/node_modules/hyparquet/.+\\.js$": ["ts-jest", { tsconfig: { allowJs: true, module: "commonjs", target: "ES2020" }, diagnostics: false }],
   },
+  transformIgnorePatterns: ["/node_modules/(?!hyparquet/)"],
   testTimeout: 60000,
   setupFiles: ["<rootDir>/test/setup/customFunctionsShim.ts"],
   // Stops the ClickHouse test server when a suite started it (test/helpers/requirements.ts).

@@ -1,7 +1,10 @@
 /**
- * "Fit from a file": the sums table of a local CSV or Parquet file, computed in the browser by
- * DuckDB compiled to WebAssembly (duckdbSession.ts, loaded on first use as its own chunk). The
- * file is read in place by DuckDB's worker; it never leaves the machine.
+ * "Fit from a file": the sums table of a local CSV or Parquet file, computed in the browser. A
+ * CSV file is read by DuckDB compiled to WebAssembly (duckdbSession.ts, loaded on first use as
+ * its own chunk), in place by DuckDB's worker. A Parquet file is read by the pane's Parquet
+ * reader (parquetSums.ts, its own chunk: hyparquet, one row group at a time), because DuckDB's
+ * WebAssembly build reads Parquet only through an extension fetched from the internet. Either
+ * way the file never leaves the machine.
  *
  * `FileSumsReader` keeps one DuckDB session open between uses (reading the header, then the
  * sums), reports progress as queries done of queries to run, and cancels by terminating the
@@ -58,13 +61,14 @@ export function registeredName(kind: FileKind): string {
 
 const NUMERIC_TYPES = /^(DOUBLE|FLOAT|REAL|DECIMAL(\(.*\))?|TINYINT|SMALLINT|INTEGER|BIGINT|HUGEINT|UTINYINT|USMALLINT|UINTEGER|UBIGINT|UHUGEINT|BOOLEAN)$/i;
 
+/** A column with its DuckDB type name. */
+export function fileColumn(name: string, type: string): FileColumn {
+  return { name, type, numeric: NUMERIC_TYPES.test(type) };
+}
+
 /** The columns from DESCRIBE's rows (column_name, column_type). */
 export function columnsOf(rows: readonly SqlRow[]): FileColumn[] {
-  return rows.map((row) => {
-    const name = String(row.column_name ?? "");
-    const type = String(row.column_type ?? "");
-    return { name, type, numeric: NUMERIC_TYPES.test(type) };
-  });
+  return rows.map((row) => fileColumn(String(row.column_name ?? ""), String(row.column_type ?? "")));
 }
 
 function messageOf(error: unknown): string {
@@ -90,15 +94,6 @@ export function fileProblem(error: unknown, fileName: string): Error {
       "not-finite",
       `${quoted} has text '${match[1]}' where numbers are expected${column ? ` (column '${column}')` : ""}: fix or blank that cell, or leave the column out`,
     );
-  }
-  if (/exists in the parquet extension|parquet extension/i.test(text)) {
-    return new InputError(
-      "empty",
-      `${quoted} is Parquet, and DuckDB in this pane has no Parquet reader (it is an extension, not served with the add-in yet): save the file as CSV, or fit it with the command line (npm run fit -- ${fileName} --target …)`,
-    );
-  }
-  if (/magic bytes|not a parquet file|Invalid Input Error:.*parquet/i.test(text)) {
-    return new InputError("empty", `${quoted} can't be read as Parquet (${text.slice(0, 120)}): check that it is a Parquet file, or save it again`);
   }
   if (/No files found|Cannot open file|could not open/i.test(text)) {
     return new InputError("empty", `${quoted} can't be opened: choose the file again (it may have moved or be open in another program)`);
@@ -129,11 +124,13 @@ export interface RegisteredFile {
   version: string;
 }
 
-/** Progress of the file's queries: `done` of `total` done, and what runs now. */
+/** Progress of the file's reading: `done` of `total` steps done (queries, or row groups read), and what runs now. */
 export interface FileProgress {
   done: number;
   total: number;
   step: string;
+  /** What a step is, for the progress line (default "queries done"). */
+  unit?: string;
 }
 
 /**
@@ -212,8 +209,12 @@ export class FileSumsReader {
     return Promise.race([go(), stop]);
   }
 
-  /** The file's columns (DESCRIBE of its reader). */
+  /** The file's columns: DESCRIBE of DuckDB's CSV reader, or a Parquet file's footer (no DuckDB). */
   async columns(file: File, signal: { readonly aborted: boolean; onAbort(callback: () => void): void } = NEVER): Promise<FileColumn[]> {
+    if (fileKindOf(file.name) === "parquet") {
+      const { parquetOf } = await import(/* webpackChunkName: "parquet-reader" */ "./parquetSums");
+      return (await parquetOf(file)).columns.map((c) => fileColumn(c.name, c.type));
+    }
     return this.run(file, signal, async (query, registered) => {
       const columns = columnsOf(await query(`DESCRIBE SELECT * FROM ${readerOf(registered.name, registered.kind)}`));
       if (columns.length === 0) throw new InputError("empty", `'${file.name}' has no columns`);

@@ -1,8 +1,10 @@
 /**
  * The engine behind the pane's fits from sums (sumsPane.ts SumsRoutes), loaded with the panel
  * on the first switch away from worksheet ranges:
- * - a local file → engine/sumsSql.ts computeSums, its queries run by DuckDB in this browser
+ * - a local CSV file → engine/sumsSql.ts computeSums, its queries run by DuckDB in this browser
  *   (fileSums.ts FileSumsReader: the file is read in place by DuckDB's worker);
+ * - a local Parquet file → parquetSums.ts (its own chunk): hyparquet reads it row group by row
+ *   group and engine/sumsScan.ts evaluates the same plan (same checks, terms and blocks);
  * - a sums table in its long form on the sheet → engine/sums.ts sumsFromLong (checked);
  * - the fit → engine/fitSums.ts fitFromSumsAsync, in the pane's own thread: it costs
  *   O(blocks·p²) per strength, independent of the rows, and yields to the page between units of
@@ -14,7 +16,7 @@ import { sumsFromLong } from "../../engine/sums";
 import { computeSums, type SumsStep } from "../../engine/sumsSql";
 import type { SumsTable } from "../../engine/sumsTable";
 import type { CellValue } from "../host/sheetHost";
-import type { FileProgress, FileSumsReader } from "./fileSums";
+import { fileKindOf, type FileProgress, type FileSumsReader } from "./fileSums";
 import type { FileSpec, SumsFitSettings } from "./sumsInputs";
 import type { RouteSignal, SumsRoutes } from "./sumsPane";
 
@@ -50,7 +52,16 @@ const STEP_WORDS: Readonly<Record<SumsStep, string>> = {
  * counts queries; the total is known once the first pass has told how many text predictors there
  * are (before that: at least describe, first and second pass).
  */
-export function sumsOfFile(reader: FileSumsReader, file: File, spec: FileSpec, onProgress: (progress: FileProgress) => void, signal: RouteSignal): Promise<SumsTable> {
+export async function sumsOfFile(reader: FileSumsReader, file: File, spec: FileSpec, onProgress: (progress: FileProgress) => void, signal: RouteSignal): Promise<SumsTable> {
+  if (fileKindOf(file.name) === "parquet") {
+    const { sumsOfParquet } = await import(/* webpackChunkName: "parquet-reader" */ "./parquetSums");
+    return sumsOfParquet(
+      file,
+      spec,
+      (done, total, scan) => onProgress({ done, total, step: scan === "first" ? "first pass over the row groups (counts and centre)" : "second pass over the row groups (sums per block)", unit: "row groups read" }),
+      signal,
+    );
+  }
   return reader.run(file, signal, (query, registered) => {
     let done = 0;
     let total = 3;

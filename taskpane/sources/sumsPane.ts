@@ -200,7 +200,7 @@ export function mountSumsPane(options: SumsPaneOptions): SumsPaneHandle {
   fileSection.append(
     el("p", {
       className: "hint",
-      text: "A CSV or Parquet file of any size on this computer. DuckDB reads it inside this pane: the file is not uploaded anywhere, and only its sums (per fold: means and cross-products) are kept.",
+      text: "A CSV or Parquet file of any size on this computer, read inside this pane (CSV by DuckDB, Parquet one row group at a time): the file is not uploaded anywhere, and only its sums (per fold: means and cross-products) are kept.",
     }),
   );
   const fileInput = el("input");
@@ -470,6 +470,8 @@ export function mountSumsPane(options: SumsPaneOptions): SumsPaneHandle {
   staleBanner.hidden = true;
   fitSection.append(fitButtons, progressWrap, status, staleBanner);
   let stage = "";
+  /** What the progress counts while the sums are computed: "queries done" (DuckDB) or "row groups read" (Parquet). */
+  let progressUnit = "queries done";
 
   // ---- Results ------------------------------------------------------------------------------
   const resultsSection = section("sums-results-title", "Results");
@@ -612,7 +614,7 @@ export function mountSumsPane(options: SumsPaneOptions): SumsPaneHandle {
         progress.max = state.total;
         progress.value = Math.min(state.done, state.total);
       } else progress.removeAttribute("value");
-      progressLabel.textContent = stage.startsWith("Computing") ? `${Math.min(state.done, state.total)} of ${state.total} queries done` : progressText(state.done, state.total);
+      progressLabel.textContent = stage.startsWith("Computing") ? `${Math.min(state.done, state.total)} of ${state.total} ${progressUnit}` : progressText(state.done, state.total);
     }
     const text = statusText();
     if (status.textContent !== text) status.textContent = text;
@@ -725,9 +727,10 @@ export function mountSumsPane(options: SumsPaneOptions): SumsPaneHandle {
         sums = await routes.fileSums(reader, picked, spec, (p) => {
           if (run !== myRun) return;
           stage = `Computing the sums: ${p.step}`;
+          progressUnit = p.unit ?? "queries done";
           dispatch({ type: "progress", run: myRun, done: p.done, total: p.total });
         }, signal);
-        source = `${picked.name} (sums by DuckDB in this browser${sums.source ? `: ${sums.source}` : ""})`;
+        source = `${picked.name} (sums computed in this browser${sums.source ? `: ${sums.source}` : ""})`;
       } else {
         const address = sumsRange;
         const rows = await host.readValues(address);

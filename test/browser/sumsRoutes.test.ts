@@ -10,6 +10,9 @@
  *   issue's bar; the sums-engine tests hold the two routes to 1e-10 in Node). The coefficient
  *   table is then written into the sheet as values, after confirming over a filled cell, and
  *   SHRINK.APPLY on it predicts what the coefficients say.
+ * - "A local file": a CSV file (DuckDB in the page) and a Parquet file written by DuckDB (the
+ *   pane's Parquet reader, no DuckDB) fitted from their sums equal the in-memory fit on the same
+ *   rows and portable-hash folds to 1e-9; bad files and text in number columns give one line.
  * - Accessibility: the panel passes the axe scan (serious and critical), and every request stays
  *   on the add-in's origin.
  */
@@ -195,6 +198,7 @@ suite("fits from sums in Chromium (standalone preview, strict CSP)", () => {
     let parquet: string;
     let broken: string;
     let large: string;
+    let notParquet: string;
 
     beforeAll(async () => {
       folder = mkdtempSync(join(tmpdir(), "shrinkwise-file-"));
@@ -206,6 +210,8 @@ suite("fits from sums in Chromium (standalone preview, strict CSP)", () => {
       await connection.run(`COPY (SELECT * FROM read_csv('${csv}', header = true)) TO '${parquet}' (FORMAT parquet)`);
       connection.closeSync();
       instance.closeSync();
+      notParquet = join(folder, "roast-log-not.parquet");
+      writeFileSync(notParquet, roastCsv(rows));
       // Text in a number column, far down the file (past the CSV reader's type sample).
       const text = roastCsv(rows).split("\n");
       const at = text.length - 40;
@@ -258,11 +264,28 @@ suite("fits from sums in Chromium (standalone preview, strict CSP)", () => {
       await saveScreenshot(page, "file-csv-fitted");
     }, 150000);
 
-    test("a Parquet file: refused in one line that says what to do (DuckDB-wasm reads Parquet only through an extension the add-in does not serve)", async () => {
-      const status = await pickFile(parquet);
-      expect(status).toMatch(/^'roast-log\.parquet' is Parquet, and DuckDB in this pane has no Parquet reader .*save the file as CSV, or fit it with the command line/);
-      expect(status).not.toMatch(/\n/);
+    test("a Parquet file written by DuckDB: columns from its footer, sums by the pane's Parquet reader (no DuckDB worker), the model equal to the in-memory fit to 1e-9", async () => {
+      const workersBefore = requests.filter((url) => url.includes("/duckdb/")).length;
+      expect(await pickFile(parquet)).toBe("roast-log.parquet: 9 columns (8 of numbers).");
+      await page.locator('[data-testid="file-predictors"] input[data-column="origin"]').check();
+      expect(await page.getByTestId("file-fold-column").inputValue()).toBe("batch_id");
+      await page.getByTestId("file-folds").fill(String(K));
+      await page.getByTestId("sums-fit-button").click();
+      expect(await waitForSumsStatus(page, /^Fitted|could not/)).toMatch(/^Fitted from sums/);
+      expectSameModel(await shownModel(page), inMemory(), 1e-9);
+      expect(await page.getByTestId("sums-chosen-rows").textContent()).toMatch(new RegExp(`^${rows.length} used, 0 skipped .*${K} blocks`));
+      expect(await page.getByTestId("sums-chosen-source").textContent()).toMatch(/roast-log\.parquet, read by the pane's Parquet reader in this browser/);
+      // DuckDB was not asked: no request for its worker or WebAssembly while the Parquet file was read.
+      expect(requests.filter((url) => url.includes("/duckdb/")).length).toBe(workersBefore);
+      expect(requests.some((url) => url.endsWith("/parquet-reader.js"))).toBe(true);
+      await saveScreenshot(page, "file-parquet-fitted");
     }, 150000);
+
+    test("a file named .parquet that is not Parquet: one line that says what to fix", async () => {
+      const status = await pickFile(notParquet);
+      expect(status).toMatch(/^'roast-log-not\.parquet' can't be read as Parquet \(.*\): check that it is a Parquet file, or save it again$/);
+      expect(status).not.toMatch(/\n/);
+    }, 60000);
 
     test("text in a number column: one line naming the column and the value; the last results stay, marked", async () => {
       expect(await pickFile(broken)).toMatch(/^roast-log-typo\.csv: 9 columns \(7 of numbers\)/);

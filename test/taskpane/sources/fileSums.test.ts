@@ -97,12 +97,6 @@ test("DuckDB's messages become one line that says what to fix, naming the file",
   expect(one("Conversion Error: Could not convert string 'n/a' to DOUBLE when casting from source column drum_temp")).toBe(
     "'sensor.csv' has text 'n/a' where numbers are expected (column 'drum_temp'): fix or blank that cell, or leave the column out",
   );
-  expect(fileProblem(new Error("Invalid Input Error: No magic bytes found at end of file 'x.parquet'"), "log.parquet").message).toMatch(
-    /^'log.parquet' can't be read as Parquet .*: check that it is a Parquet file/,
-  );
-  expect(
-    fileProblem(new Error('Catalog Error: Table Function with name "read_parquet" is not in the catalog, but it exists in the parquet extension.'), "log.parquet").message,
-  ).toMatch(/^'log.parquet' is Parquet, and DuckDB in this pane has no Parquet reader .*: save the file as CSV, or fit it with the command line/);
   for (const message of [one("x\ny"), one("Something else entirely")]) expect(message).not.toMatch(/\n/);
   const input = new InputError("setting", "from the generator");
   expect(fileProblem(input, "a.csv")).toBe(input);
@@ -121,12 +115,20 @@ test("columns: the file is registered once, DESCRIBE runs on its reader", async 
     "#1 DESCRIBE SELECT * FROM read_csv('shrinkwise-source.csv', header = true)",
   ]);
   // Another file: the first is dropped, the second registered under its kind's name.
-  await reader.columns(fakeFile("sensor.parquet"));
+  await reader.columns(fakeFile("sensor.tsv"));
   expect(recorder.log.slice(3)).toEqual([
     "#1 drop shrinkwise-source.csv",
-    "#1 register shrinkwise-source.parquet ← sensor.parquet",
-    "#1 DESCRIBE SELECT * FROM read_parquet('shrinkwise-source.parquet')",
+    "#1 register shrinkwise-source.csv ← sensor.tsv",
+    "#1 DESCRIBE SELECT * FROM read_csv('shrinkwise-source.csv', header = true)",
   ]);
+});
+
+test("a Parquet file's columns come from its footer, read by the pane's Parquet reader: DuckDB is not opened", async () => {
+  const recorder: Recorder = { opened: 0, log: [], sessions: [], release: null };
+  const reader = new FileSumsReader(opener(recorder, () => DESCRIBED));
+  const notParquet = Object.assign(new Blob(["batch_id,price\n1,2\n"]), { name: "sensor.parquet" }) as File;
+  await expect(reader.columns(notParquet)).rejects.toThrow(/^'sensor\.parquet' can't be read as Parquet/);
+  expect(recorder.opened).toBe(0);
 });
 
 test("cancel terminates the worker at once; the next use opens a new session (restartable)", async () => {
