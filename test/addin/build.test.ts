@@ -124,8 +124,11 @@ test("Fit from a file: DuckDB's WebAssembly and workers are served from dist/duc
   // Loaded on demand: the panel (sums-pane.js) and DuckDB's bindings (duckdb-session.js), whole
   // (no numbered vendor chunks), and not part of the bundles every page loads.
   const scripts = readdirSync(out).filter((f) => f.endsWith(".js"));
-  expect(scripts.sort()).toEqual(["duckdb-session.js", "fit.worker.js", "functions.js", "sums-pane.js", "task.worker.js", "taskpane.js"]);
+  // parquet-reader.js: hyparquet plus engine/sumsScan.ts (taskpane/sources/parquetSums.ts), also on demand.
+  expect(scripts.sort()).toEqual(["duckdb-session.js", "fit.worker.js", "functions.js", "parquet-reader.js", "sums-pane.js", "task.worker.js", "taskpane.js"]);
   expect(/registerFileHandle/.test(file("duckdb-session.js"))).toBe(true);
+  expect(/parquetMetadata|readRowGroup|PAR1/.test(file("parquet-reader.js"))).toBe(true);
+  for (const name of ["functions.js", "taskpane.js"]) expect([name, /parquetMetadataAsync/.test(file(name))]).toEqual([name, false]);
   for (const name of ["functions.js", "taskpane.js"]) expect([name, /registerFileHandle|duckdb-eh\.wasm/.test(file(name))]).toEqual([name, false]);
   // The page's chunk loader (webpack's runtime, on the page's bundles) knows the chunk by name.
   expect(/sums-pane/.test(file("functions.js") + file("taskpane.js"))).toBe(true);
