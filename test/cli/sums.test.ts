@@ -121,7 +121,6 @@ describe("--sums fits other settings without the data", () => {
     expectFailure(["--sums", "s.json", "--repeats", "3"], /--repeats can't be used with --sums/, s);
     expectFailure(["--sums", "s.json", "--outcome", "two-class"], /--outcome two-class can't be used with --sums/, s);
     expectFailure(["--sums", "s.json", "--error", "mae"], /mae can't be computed from sums/, s);
-    expectFailure(["--sums", "s.json", "--strength", "0"], /strength 0 is least squares/, s);
     expectFailure(["--sums", "s.json", "--target", "cup_score"], /--target cup_score doesn't match the sums table, whose target is 'weight_loss'/, s);
     expectFailure(["--sums", "s.json", "--folds", "20"], /folds is 20, but this sums table has 10 blocks/, s);
     expectFailure(["--sums", "missing.json"], /can't read missing.json: no such file/, s);
