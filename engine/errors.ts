@@ -73,7 +73,9 @@ export type WarningCode =
   | "out-of-range"
   | "step-halved"
   | "separated"
-  | "stability";
+  | "stability"
+  /** A sums table's block whose rows all weigh 0, left out of least squares from sums (fitSums.ts). */
+  | "weight-zero-rows";
 
 export interface FitWarning {
   code: WarningCode;

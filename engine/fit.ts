@@ -35,7 +35,7 @@
  */
 import { CancelSignal, FitWarning, InputError, throwIfCancelled } from "./errors";
 import { FoldPlan, FoldScheme, planFolds, rowsOfBlocks } from "./folds";
-import { leastSquares } from "./leastSquares";
+import { leastSquares, leastSquaresOfSums, LeastSquaresOfSumsResult } from "./leastSquares";
 import { ColumnMatrix, selectRows } from "./matrix";
 import { LinearModel, linearModel, logistic, predict } from "./model";
 import { logisticBaseline } from "./logisticBaseline";
@@ -390,6 +390,8 @@ export interface Prepared {
   original: { x: ColumnMatrix; y: Float64Array; weights: Float64Array | null };
   xExponent: Int32Array;
   yExponent: number;
+  /** The weights' power of two (0 without weights): working weights = weights × 2^weightExponent. */
+  weightExponent: number;
   names: string[];
   multipliers: Float64Array;
   /** Bounds on the working copy's coefficients (b × 2^(yExponent − xExponent[j])). */
@@ -414,9 +416,10 @@ export interface Prepared {
   /**
    * Fits from a sums table (fitSums.ts): the rows are absent (x and y hold none) and the whole
    * data's sums, about the shifts, stand in for them wherever the fit would read rows (the
-   * in-sample score). Null when fitting rows.
+   * in-sample score). `weighedRows`: the rows of the blocks of positive weight, the count least
+   * squares' degrees of freedom start from (fitSums.ts). Null when fitting rows.
    */
-  totalSums: { sums: BlockSums; shiftX: Float64Array; shiftY: number } | null;
+  totalSums: { sums: BlockSums; shiftX: Float64Array; shiftY: number; weighedRows?: number } | null;
 }
 
 function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target: ArrayLike<number>, options: FitOptions): Prepared {
@@ -464,6 +467,7 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
     original: { x, y, weights },
     xExponent: work.xExponent,
     yExponent: work.yExponent,
+    weightExponent: work.weightExponent,
     names: names ?? Array.from({ length: p }, (_, j) => `x${j + 1}`),
     multipliers,
     lower: workLower,
@@ -639,14 +643,16 @@ function workingCopy(
   y: Float64Array,
   weights: Float64Array | null,
   scaleTarget: boolean,
-): { x: ColumnMatrix; y: Float64Array; weights: Float64Array | null; xExponent: Int32Array; yExponent: number } {
+): { x: ColumnMatrix; y: Float64Array; weights: Float64Array | null; xExponent: Int32Array; yExponent: number; weightExponent: number } {
   const n = x.rows;
   const p = x.columns;
   let workWeights: Float64Array | null = null;
+  let weightExponent = 0;
   if (weights) {
     let heaviest = 0;
     for (let i = 0; i < n; i++) heaviest = Math.max(heaviest, weights[i]);
-    const factor = powerOfTwo(unitExponent(heaviest));
+    weightExponent = unitExponent(heaviest);
+    const factor = powerOfTwo(weightExponent);
     workWeights = new Float64Array(n);
     for (let i = 0; i < n; i++) workWeights[i] = weights[i] * factor;
   }
@@ -683,7 +689,7 @@ function workingCopy(
     xExponent[j] = unitExponent(largestOf(x.data, off));
     copyScaled(x.data, off, powerOfTwo(xExponent[j]), data);
   }
-  return { x: { rows: n, columns: p, data }, y: workY, weights: workWeights, xExponent, yExponent };
+  return { x: { rows: n, columns: p, data }, y: workY, weights: workWeights, xExponent, yExponent, weightExponent };
 }
 
 /** Penalty for one problem: bounds moved to its standardized units (b̃ = b × scale / s_y). */
@@ -2281,9 +2287,17 @@ function assemble(
   };
 }
 
-/** Strength 0 without bounds: the exact least-squares baseline (Householder QR). */
+/**
+ * Strength 0 without bounds: the exact least-squares baseline (Householder QR on the rows; from
+ * a sums table, leastSquares.ts leastSquaresOfSums: the normal equations on the centred sums).
+ * Both on the working copy, with the same conventions (weighted residuals, df = rows of
+ * positive weight − terms kept − intercept), so the result has the same shape either way.
+ */
 function leastSquaresResult(data: Prepared, full: TrainingProblem, constantColumns: string[], warnings: FitWarning[]): FitResult {
-  const baseline = leastSquares(data.x, data.y, { intercept: data.intercept, weights: data.weights ?? undefined, signal: data.settings.signal });
+  const total = data.totalSums;
+  const baseline: LeastSquaresOfSumsResult = total
+    ? leastSquaresOfSums(total.sums, total.shiftX, total.shiftY, { intercept: data.intercept, rows: total.weighedRows, signal: data.settings.signal })
+    : leastSquares(data.x, data.y, { intercept: data.intercept, weights: data.weights ?? undefined, signal: data.settings.signal });
   if (baseline.aliased.length > 0) {
     warnings.push({
       code: "aliased",
@@ -2295,7 +2309,6 @@ function leastSquaresResult(data: Prepared, full: TrainingProblem, constantColum
   const intercept = coefficientInDataUnits(data, -1, baseline.intercept);
   const inTargetUnits = (value: number): number => scaleByPowerOfTwo(value, -data.yExponent);
   const model = linearModel(data.names, intercept, coefficients);
-  const predictions = predict(model, data.original.x);
   return {
     kind: "shrinkwise-fit",
     outcome: "number",
@@ -2312,17 +2325,19 @@ function leastSquaresResult(data: Prepared, full: TrainingProblem, constantColum
     choices: null,
     cv: null,
     path: { mix: data.mixes[0], top: 0, strengths: [0], intercepts: [intercept], coefficients: [coefficients], termsKept: [coefficients.filter((b) => b !== 0).length], r2: [baseline.r2] },
-    fit: score(data.original.y, predictions, data.original.weights),
+    fit: total ? scoreOfSums(data, full, Float64Array.from(baseline.coefficients)) : score(data.original.y, predict(model, data.original.x), data.original.weights),
     classFit: null,
     baseline: {
       standardErrors: baseline.standardErrors.map((se, j) => (se === null ? null : scaleByPowerOfTwo(se, data.xExponent[j] - data.yExponent))),
       interceptStandardError: baseline.interceptStandardError === null ? null : inTargetUnits(baseline.interceptStandardError),
-      residualStandardDeviation: inTargetUnits(baseline.residualStandardDeviation),
+      // σ² = Σw·r² / df with the weights as given: the working weights are ×2^weightExponent, so
+      // σ is ×2^(weightExponent/2) there (the standard errors don't depend on the weights' scale).
+      residualStandardDeviation: inTargetUnits(baseline.residualStandardDeviation) * Math.sqrt(powerOfTwo(-data.weightExponent)),
       degreesOfFreedom: baseline.degreesOfFreedom,
       r2: baseline.r2,
       aliased: baseline.aliased.map((j) => data.names[j]),
     },
-    rowsUsed: data.x.rows,
+    rowsUsed: total ? total.sums.rows : data.x.rows,
     constantColumns,
     diagnostics: {
       updates: full.kind === "gram" ? "gram" : "residual",

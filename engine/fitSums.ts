@@ -27,9 +27,18 @@
  * - Refused with a message: two-class outcomes and the MAE (they need passes over the rows),
  *   repeats, honest error and stability selection (they re-deal the rows), residual updates (they
  *   keep rows), fold labels, time order or a seed given as options (the table's blocks are the
- *   folds), weights (they are summed into the table),
- *   and strength 0 without bounds (least squares with its standard errors: fit the rows, or give
- *   a small strength). A fixed positive strength is fitted from the whole table's sums.
+ *   folds), weights (they are summed into the table). Cross-validation also needs 2 or more
+ *   blocks, each of positive weight.
+ * - A fixed strength is fitted from the whole table's sums (any number of blocks). Strength 0
+ *   without bounds is least squares (leastSquares.ts leastSquaresOfSums: the weighted normal
+ *   equations on the centred sums, with standard errors and aliased terms as fit.ts reports them
+ *   from rows). Its residual variance is Σw·r² / df with df = rows − terms kept − 1 (without an
+ *   intercept − 0), the convention of the rows' route; the rows counted are those of the blocks
+ *   of positive weight. Blocks of weight 0 are left out with the warning `weight-zero-rows`. A
+ *   table's block counts every row (rows of weight 0 too), so with a weights column whose rows
+ *   of weight 0 share blocks with rows that weigh more, df counts them and the standard errors
+ *   come out smaller than the rows' route gives (by √((n₊ − k)/(n − k))); without weights, or
+ *   when every row weighs more than 0, the two agree.
  */
 import { InputError } from "./errors";
 import {
@@ -198,6 +207,8 @@ function foldGroups(table: SumsTable, folds: number | undefined): { group: Int32
 export function setUpFromSums(input: SumsTable | unknown, options: SumsFitOptions): SetUp {
   const table = checkSums(input);
   refuseRowOptions(options);
+  const fixed = options.strength ?? null;
+  if (fixed === null) checkBlocksForFolds(table);
   const p = table.terms.length;
   const names = table.terms.slice();
   if (options.names && (options.names.length !== p || options.names.some((name, j) => name !== names[j]))) {
@@ -209,13 +220,6 @@ export function setUpFromSums(input: SumsTable | unknown, options: SumsFitOption
   const rows = table.blocks.reduce((n, b) => n + b.rows, 0);
   const settings = checkSettings({ ...options, updates: options.updates ?? "gram" }, rows, p, names);
   const { intercept, standardize } = settings;
-  const fixed = options.strength ?? null;
-  if (fixed === 0 && !settings.lower.some(Number.isFinite) && !settings.upper.some(Number.isFinite)) {
-    throw new InputError(
-      "strength",
-      "strength 0 is least squares, whose standard errors are computed from the rows, and a sums table has none: fit the rows for least squares, or give a small positive strength (e.g. 1e-6) for nearly the same coefficients",
-    );
-  }
   // Working units (module comment).
   const size = sizes(table);
   const xExponent = Int32Array.from(size.terms, (v) => unitExponent(v));
@@ -226,25 +230,26 @@ export function setUpFromSums(input: SumsTable | unknown, options: SumsFitOption
   const shiftX = intercept ? Float64Array.from(table.centre.terms, (c, j) => scaleByPowerOfTwo(c, xExponent[j])) : new Float64Array(p);
   const shiftY = intercept ? scaleByPowerOfTwo(table.centre.target, yExponent) : 0;
   const problemOptions = { intercept, standardize, columnUnits: Float64Array.from(xExponent, (e) => powerOfTwo(e)) };
-  // Folds: merged blocks, then the plan over them (its row lists are empty: there are no rows).
-  const { group, count, time } = foldGroups(table, fixed === null ? options.folds : undefined);
-  const merged = Array.from({ length: count }, () => emptySums(p));
-  table.blocks.forEach((_, b) => accumulateSums(merged[group[b]], blockSums[b], 1));
-  const labelsOf = Array.from({ length: count }, () => [] as string[]);
-  table.blocks.forEach((block, b) => labelsOf[group[b]].push(block.label));
-  const folds = time ? count - 1 : count;
-  const plan: FoldPlan = {
-    scheme: time ? "time" : "labels",
-    blocks: merged.map(() => new Int32Array(0)),
-    trainBlocks: time
-      ? Array.from({ length: folds }, (_, k) => Array.from({ length: k + 1 }, (__, g) => g))
-      : Array.from({ length: folds }, (_, k) => Array.from({ length: count }, (__, g) => g).filter((g) => g !== k)),
-    validateBlock: Array.from({ length: folds }, (_, k) => (time ? k + 1 : k)),
-    names: Array.from({ length: folds }, (_, k) => labelsOf[time ? k + 1 : k].join("+")),
-  };
-  if (fixed === null) checkTraining(plan, merged, labelsOf);
   let problems: Problems;
+  let plan: FoldPlan | null = null;
   if (fixed === null) {
+    // Folds: merged blocks, then the plan over them (its row lists are empty: there are no rows).
+    const { group, count, time } = foldGroups(table, options.folds);
+    const merged = Array.from({ length: count }, () => emptySums(p));
+    table.blocks.forEach((_, b) => accumulateSums(merged[group[b]], blockSums[b], 1));
+    const labelsOf = Array.from({ length: count }, () => [] as string[]);
+    table.blocks.forEach((block, b) => labelsOf[group[b]].push(block.label));
+    const folds = time ? count - 1 : count;
+    plan = {
+      scheme: time ? "time" : "labels",
+      blocks: merged.map(() => new Int32Array(0)),
+      trainBlocks: time
+        ? Array.from({ length: folds }, (_, k) => Array.from({ length: k + 1 }, (__, g) => g))
+        : Array.from({ length: folds }, (_, k) => Array.from({ length: count }, (__, g) => g).filter((g) => g !== k)),
+      validateBlock: Array.from({ length: folds }, (_, k) => (time ? k + 1 : k)),
+      names: Array.from({ length: folds }, (_, k) => labelsOf[time ? k + 1 : k].join("+")),
+    };
+    checkTraining(plan, merged, labelsOf);
     problems = problemsFromBlockSums(merged, plan, shiftX, shiftY, problemOptions);
     problems.heldOutWeights = plan.validateBlock.map((g) => merged[g].weight);
   } else {
@@ -276,6 +281,7 @@ export function setUpFromSums(input: SumsTable | unknown, options: SumsFitOption
     original: { x: noRows, y: none, weights: null },
     xExponent,
     yExponent,
+    weightExponent,
     names,
     multipliers: settings.multipliers,
     lower: workLower,
@@ -292,7 +298,8 @@ export function setUpFromSums(input: SumsTable | unknown, options: SumsFitOption
     outcome: "number",
     covariance: false,
     cutoff: 0.5,
-    totalSums: { sums: total, shiftX, shiftY },
+    // Least squares' degrees of freedom count the rows of the blocks of positive weight.
+    totalSums: { sums: total, shiftX, shiftY, weighedRows: table.blocks.reduce((n, b) => n + (b.weight > 0 ? b.rows : 0), 0) },
   };
   const warnings: SetUp["warnings"] = [];
   const constantColumns: string[] = [];
@@ -304,6 +311,14 @@ export function setUpFromSums(input: SumsTable | unknown, options: SumsFitOption
     warnings.push({
       code: "constant-column",
       message: `${constantColumns.join(", ")} ${constantColumns.length === 1 ? "is" : "are"} constant and left out (coefficient 0)`,
+    });
+  }
+  const weightless = table.blocks.filter((b) => !(b.weight > 0));
+  if (weightless.length > 0) {
+    const count = weightless.reduce((n, b) => n + b.rows, 0);
+    warnings.push({
+      code: "weight-zero-rows",
+      message: `block${weightless.length === 1 ? "" : "s"} ${weightless.map((b) => `'${b.label}'`).join(", ")} ${weightless.length === 1 ? "weighs" : "weigh"} 0 in total: ${count} row${count === 1 ? "" : "s"} of weight 0 left out of the fit and of the degrees of freedom`,
     });
   }
   if (table.skippedRows > 0) {
@@ -320,7 +335,22 @@ export function setUpFromSums(input: SumsTable | unknown, options: SumsFitOption
       throw new InputError("mix", `a fixed strength is fitted at one mix, but ${data.mixes.length} mixes were given: give a single mix`);
     }
   }
-  return { data, warnings, fixed, plan: fixed === null ? plan : null, problems, repeats: 1, honestError: false, constantColumns };
+  return { data, warnings, fixed, plan, problems, repeats: 1, honestError: false, constantColumns };
+}
+
+/** Cross-validation scores every block: 2 or more, each of positive weight (a fixed strength takes any). */
+function checkBlocksForFolds(table: SumsTable): void {
+  const B = table.blocks.length;
+  if (B < 2) {
+    throw new InputError(
+      "sums",
+      `the sums table has ${B} block${B === 1 ? "" : "s"}: cross-validation needs at least 2 (one per fold label); compute the sums with a fold rule that deals the rows into 2 or more blocks, or fit one strength (e.g. strength 0, least squares)`,
+    );
+  }
+  const empty = table.blocks.find((b) => !(b.weight > 0));
+  if (empty) {
+    throw new InputError("sums", `block '${empty.label}' has weight 0: cross-validation needs rows of positive weight in every block to score it; leave the block out, check the weights, or fit one strength (e.g. strength 0, least squares)`);
+  }
 }
 
 /** Every fold trains on at least MIN_TRAINING_ROWS rows (folds.ts checkPlan, counted from the blocks' row counts). */

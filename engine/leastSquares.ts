@@ -49,7 +49,7 @@
 import { hypotenuse } from "./portableMath";
 import { CancelSignal, throwIfCancelled } from "./errors";
 import { ColumnMatrix } from "./matrix";
-import { CONSTANT_SPREAD_RATIO } from "./problem";
+import { BlockSums, CONSTANT_SPREAD_RATIO, SUMS_CANCELLATION_RATIO } from "./problem";
 
 export interface LeastSquaresOptions {
   /** Fit an intercept (default true). The intercept is never aliased. */
@@ -503,4 +503,220 @@ function interceptPair(
   }
   const [renormalized, rest] = twoSum(high, low);
   return { high: renormalized, low: rest };
+}
+
+// ---------------------------------------------------------------------------------------------
+// Least squares from sums (no rows): the weighted normal equations on the centred cross-products
+
+/** What leastSquaresOfSums reads: a data set's sums (problem.ts BlockSums, about the shifts given with them). */
+export type LeastSquaresSums = Pick<BlockSums, "p" | "weight" | "rows" | "sumX" | "sumY" | "xx" | "xy" | "yy" | "largest">;
+
+export interface LeastSquaresOfSumsOptions {
+  /** Fit an intercept (default true). The sums must then be about the shifts given (any point near the means). */
+  intercept?: boolean;
+  /**
+   * Rows with positive weight, for the degrees of freedom (default the sums' own `rows`). A sums
+   * table counts rows of weight 0 in its blocks' rows; fitSums.ts leaves out whole blocks of weight 0.
+   */
+  rows?: number;
+  /** Aliasing threshold on a column's share of spread left by the columns before it (default PIVOT_TOLERANCE). */
+  pivotTolerance?: number;
+  /** Read before each column; when `aborted`, CancelledError. */
+  signal?: CancelSignal;
+}
+
+/** As LeastSquaresResult, without fitted values (there are no rows). */
+export type LeastSquaresOfSumsResult = Omit<LeastSquaresResult, "fitted">;
+
+/**
+ * The smallest share of a column's (weighted, centred) spread, left over once the columns before
+ * it have explained what they can, for the column to be kept. Cross-products summed by a query
+ * engine carry relative errors up to about n·2^-53 (sums.ts VARIANCE_ROUNDING allows 1e-9), and a
+ * coefficient solved from a share δ carries about (that error)/δ: below 1e-10 the digits left are
+ * rounding, and the column is reported aliased. (The QR route on rows, which never squares the
+ * data, keeps columns down to a share of 1e-20; the two disagree only where the predictors'
+ * correlation matrix has a condition number beyond about 1e10.)
+ */
+export const PIVOT_TOLERANCE = 1e-10;
+
+/**
+ * Weighted least squares from sums: the normal equations S b = s, with S = Σw(x − x̄)(x − x̄)ᵀ
+ * and s = Σw(x − x̄)(y − ȳ) the weighted centred cross-products (about 0 without an intercept),
+ * which is all squared error needs (common practice; e.g. Golub & Van Loan, Matrix
+ * Computations, §5.3.1, the method of normal equations). Solved stably:
+ * 1. Correlation scaling: C = D⁻¹ S D⁻¹, D = diag(√S_jj), so the unit-diagonal C's pivots are
+ *    shares of spread and the tests below do not depend on the units.
+ * 2. Cholesky C = L Lᵀ in the user's column order (Golub & Van Loan §4.2.8, Algorithm 4.2.2 by
+ *    rows) with deficient columns set aside as leastSquares does: a column whose pivot (its share
+ *    of spread not explained by the kept columns to its left) is at most `pivotTolerance`, or that
+ *    is constant (the rule of problem.ts problemFromSums: its variance is rounding), is aliased
+ *    (coefficient exactly 0), and at most rows − (intercept ? 1 : 0) columns are kept.
+ * 3. One step of iterative refinement (Golub & Van Loan §3.5.3): s − S b in double-double
+ *    (twoProduct, twoSum), the correction solved with the same factor; this leaves only the error
+ *    of the sums themselves.
+ * 4. RSS = t − 2bᵀs + bᵀSb (t = Σw(y − ȳ)²) in double-double; σ² = RSS / df with
+ *    df = rows − rank − (intercept ? 1 : 0), the convention of leastSquares (weighted residuals,
+ *    the rows of positive weight); Cov(b) = σ² S⁻¹ through L⁻¹; Var(b0) = σ²(1/Σw + x̄ᵀ S⁻¹ x̄).
+ *    The intercept ȳ − Σ b_j x̄_j in double-double, each mean in its two parts (shift + offset).
+ * Cost O(p³), independent of the rows. Sums should be of moderate size (fitSums.ts scales them
+ * by powers of two first).
+ */
+export function leastSquaresOfSums(
+  sums: LeastSquaresSums,
+  shiftX: ArrayLike<number>,
+  shiftY: number,
+  options: LeastSquaresOfSumsOptions = {},
+): LeastSquaresOfSumsResult {
+  const p = sums.p;
+  const W = sums.weight;
+  const withIntercept = options.intercept ?? true;
+  const rows = options.rows ?? sums.rows;
+  const tolerance = options.pivotTolerance ?? PIVOT_TOLERANCE;
+  if (!(W > 0)) throw new Error("leastSquaresOfSums requires a positive total weight");
+  if (!(tolerance >= 0)) throw new Error("leastSquaresOfSums requires pivotTolerance >= 0");
+  // Centred sums (about the weighted means; about 0 without an intercept).
+  const S = new Float64Array(p * p);
+  const s = new Float64Array(p);
+  const offsetX = new Float64Array(p);
+  const offsetY = withIntercept ? sums.sumY / W : 0;
+  for (let j = 0; j < p; j++) {
+    if (withIntercept) offsetX[j] = sums.sumX[j] / W;
+    for (let k = 0; k < p; k++) S[j * p + k] = withIntercept ? sums.xx[j * p + k] - (sums.sumX[j] * sums.sumX[k]) / W : sums.xx[j * p + k];
+    s[j] = withIntercept ? sums.xy[j] - (sums.sumX[j] * sums.sumY) / W : sums.xy[j];
+  }
+  const t = withIntercept ? sums.yy - (sums.sumY * sums.sumY) / W : sums.yy;
+  // Scales and constant columns (problem.ts problemFromSums's rule).
+  const scale = new Float64Array(p);
+  const constant = new Uint8Array(p);
+  for (let j = 0; j < p; j++) {
+    const variance = S[j * p + j] / W;
+    const second = sums.xx[j * p + j] / W;
+    constant[j] = !(variance > SUMS_CANCELLATION_RATIO * second) || !(Math.sqrt(variance) > CONSTANT_SPREAD_RATIO * sums.largest[j]) ? 1 : 0;
+    scale[j] = constant[j] ? 1 : Math.sqrt(S[j * p + j]);
+  }
+  // Cholesky of C by rows, in the user's order (row q of L holds the kept column kept[q]).
+  const maxRank = Math.max(0, rows - (withIntercept ? 1 : 0));
+  const kept: number[] = [];
+  const aliased: number[] = [];
+  const L = new Float64Array(p * p);
+  const row = new Float64Array(p);
+  for (let j = 0; j < p; j++) {
+    throwIfCancelled(options.signal);
+    const q = kept.length;
+    if (constant[j] || q >= maxRank) {
+      aliased.push(j);
+      continue;
+    }
+    let pivot = 1; // C_jj
+    for (let a = 0; a < q; a++) {
+      const k = kept[a];
+      let v = S[j * p + k] / (scale[j] * scale[k]);
+      for (let r = 0; r < a; r++) v -= row[r] * L[a * p + r];
+      v /= L[a * p + a];
+      row[a] = v;
+      pivot -= v * v;
+    }
+    if (!(pivot > tolerance)) {
+      aliased.push(j);
+      continue;
+    }
+    for (let a = 0; a < q; a++) L[q * p + a] = row[a];
+    L[q * p + q] = Math.sqrt(pivot);
+    kept.push(j);
+  }
+  const rank = kept.length;
+  // Solve L Lᵀ z = rhs in place (scaled, factor order).
+  const solve = (rhs: Float64Array): void => {
+    for (let a = 0; a < rank; a++) {
+      let v = rhs[a];
+      for (let r = 0; r < a; r++) v -= L[a * p + r] * rhs[r];
+      rhs[a] = v / L[a * p + a];
+    }
+    for (let a = rank - 1; a >= 0; a--) {
+      let v = rhs[a];
+      for (let r = a + 1; r < rank; r++) v -= L[r * p + a] * rhs[r];
+      rhs[a] = v / L[a * p + a];
+    }
+  };
+  const coefficients = new Float64Array(p);
+  const z = new Float64Array(rank);
+  for (let a = 0; a < rank; a++) z[a] = s[kept[a]] / scale[kept[a]];
+  solve(z);
+  for (let a = 0; a < rank; a++) coefficients[kept[a]] = z[a] / scale[kept[a]];
+  // Iterative refinement: s − S b over the kept columns, in double-double.
+  for (let a = 0; a < rank; a++) {
+    const j = kept[a];
+    let high = s[j];
+    let low = 0;
+    for (let c = 0; c < rank; c++) {
+      const k = kept[c];
+      const [product, productError] = twoProduct(S[j * p + k], coefficients[k]);
+      const [sum, sumError] = twoSum(high, -product);
+      high = sum;
+      low += sumError - productError;
+    }
+    z[a] = (high + low) / scale[j];
+  }
+  solve(z);
+  for (let a = 0; a < rank; a++) coefficients[kept[a]] += z[a] / scale[kept[a]];
+  // RSS = t − 2 bᵀs + bᵀ S b, in double-double.
+  let rssHigh = t;
+  let rssLow = 0;
+  const add = (x: number, y: number): void => {
+    const [product, productError] = twoProduct(x, y);
+    const [sum, sumError] = twoSum(rssHigh, product);
+    rssHigh = sum;
+    rssLow += sumError + productError;
+  };
+  for (let a = 0; a < rank; a++) {
+    const j = kept[a];
+    add(-2 * coefficients[j], s[j]);
+    for (let c = 0; c < rank; c++) add(coefficients[j] * coefficients[kept[c]], S[j * p + kept[c]]);
+  }
+  const residualSumOfSquares = Math.max(0, rssHigh + rssLow);
+  const intercept = withIntercept ? interceptPair({ anchor: shiftY, offset: offsetY }, Float64Array.from(shiftX), offsetX, coefficients) : { high: 0, low: 0 };
+  const degreesOfFreedom = rows - rank - (withIntercept ? 1 : 0);
+  const residualStandardDeviation = degreesOfFreedom > 0 ? Math.sqrt(residualSumOfSquares / degreesOfFreedom) : 0;
+  const r2 = rank > 0 && t > 0 ? 1 - residualSumOfSquares / t : 0;
+  // Standard errors: C⁻¹ = L⁻ᵀ L⁻¹, so (C⁻¹)_aa is the squared length of column a of L⁻¹.
+  const standardErrors: (number | null)[] = new Array<number | null>(p).fill(null);
+  let interceptStandardError: number | null = null;
+  if (degreesOfFreedom > 0) {
+    // L⁻¹ (lower triangular, row-major in `inverse`), column by column: L x = e_c.
+    const inverse = new Float64Array(rank * rank);
+    for (let c = 0; c < rank; c++) {
+      for (let a = c; a < rank; a++) {
+        let v = a === c ? 1 : 0;
+        for (let r = c; r < a; r++) v -= L[a * p + r] * inverse[r * rank + c];
+        inverse[a * rank + c] = v / L[a * p + a];
+      }
+    }
+    for (let c = 0; c < rank; c++) {
+      let square = 0;
+      for (let a = c; a < rank; a++) square += inverse[a * rank + c] * inverse[a * rank + c];
+      standardErrors[kept[c]] = (residualStandardDeviation * Math.sqrt(square)) / scale[kept[c]];
+    }
+    if (withIntercept) {
+      // x̄ᵀ S⁻¹ x̄ = ‖L⁻¹ u‖², u the means in the scaled, factor-ordered coordinates.
+      let quadratic = 0;
+      for (let a = 0; a < rank; a++) {
+        let projected = 0;
+        for (let c = 0; c <= a; c++) projected += inverse[a * rank + c] * ((shiftX[kept[c]] + offsetX[kept[c]]) / scale[kept[c]]);
+        quadratic += projected * projected;
+      }
+      interceptStandardError = residualStandardDeviation * Math.sqrt(1 / W + quadratic);
+    }
+  }
+  return {
+    intercept: intercept.high + intercept.low,
+    interceptStandardError,
+    coefficients: Array.from(coefficients),
+    standardErrors,
+    aliased,
+    rank,
+    degreesOfFreedom,
+    residualSumOfSquares,
+    residualStandardDeviation,
+    r2,
+  };
 }

@@ -129,14 +129,14 @@ export function checkSums(value: unknown): SumsTable {
     throw new InputError("sums", `the sums table's time order must be true or false; got ${describe(value.timeOrdered)}`);
   }
   if (!Array.isArray(value.blocks)) throw new InputError("sums", "the sums table has no blocks: it needs one block of sums per fold label");
-  if (value.blocks.length < 2) {
-    throw new InputError(
-      "sums",
-      `the sums table has ${value.blocks.length} block${value.blocks.length === 1 ? "" : "s"}: cross-validation needs at least 2 (one per fold label); compute the sums with a fold rule that deals the rows into 2 or more blocks`,
-    );
-  }
+  // One block, or a block of weight 0, is a valid table (least squares from sums takes it); the
+  // cross-validated fit asks for 2 or more blocks of positive weight (fitSums.ts).
+  if (value.blocks.length < 1) throw new InputError("sums", "the sums table has no blocks: it needs one block of sums per fold label");
   const labels = new Set<string>();
   const blocks = value.blocks.map((raw: unknown, b: number) => checkBlock(raw, b, p, terms, target, labels));
+  if (!blocks.some((block) => block.weight > 0)) {
+    throw new InputError("sums", `every block of the sums table has weight 0: at least one needs rows of positive weight; check the weights`);
+  }
   const table: SumsTable = {
     format: SUMS_FORMAT,
     version: SUMS_VERSION,
@@ -164,8 +164,8 @@ function checkBlock(raw: unknown, b: number, p: number, terms: string[], target:
   labels.add(label);
   const where = `block '${label}'`;
   const weight = finite(raw.weight, `${where}'s weight`);
-  if (!(weight > 0)) {
-    throw new InputError("sums", `${where} has weight ${weight}: every block needs rows of positive weight; leave the block out or check the weights`);
+  if (!(weight >= 0)) {
+    throw new InputError("sums", `${where} has weight ${weight}: a block's weight is a sum of weights, 0 or more; check the weights`);
   }
   const rows = raw.rows;
   if (typeof rows !== "number" || !Number.isInteger(rows) || rows < 1) {

@@ -25,6 +25,9 @@
  * - largest[a] = max |x_ia| over the block's rows with w_i > 0 (optional: lets the fit tell a
  *   column that is constant up to rounding; without it the spread test alone decides).
  * The target's `meanY`, `offsetY` and `largestY` follow the same rules.
+ * A block whose rows all weigh 0 (weight 0) is valid, with its means, offsets and sums 0: least
+ * squares from sums leaves it out (a warning), the cross-validated fit refuses it (it has nothing
+ * to score). A table needs one block of positive weight; cross-validation needs two.
  * Cross-products are about the global centre, not the block's own mean; the block-centred
  * versions follow as cross − weight·offset·offsetᵀ.
  */

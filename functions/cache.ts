@@ -167,6 +167,16 @@ export class FitCache implements FitRunner {
     return this.wait(entry, cancel, onProgress);
   }
 
+  /**
+   * A fit from a sums table goes straight to the runner behind the cache (the worker, off the
+   * pane's thread), not cached: the pane asks for it once per click, and it never repeats the
+   * cell functions' bursts of identical requests. Absent behind a runner without fitSums.
+   */
+  get fitSums(): FitRunner["fitSums"] {
+    const inner = this.inner;
+    return inner.fitSums ? (request, cancel, onProgress) => (inner.fitSums as NonNullable<FitRunner["fitSums"]>).call(inner, request, cancel, onProgress) : undefined;
+  }
+
   /** Counters and current occupancy. */
   stats(): FitCacheStats {
     return {

@@ -3,6 +3,9 @@
  *
  * Protocol (all messages are plain data; ids are chosen by the main side):
  *   in:  { type: "fit", id, request }        start a fit of `request` (an AnyFitRequest)
+ *        { type: "fitSums", id, request }    start a fit from a sums table (a SumsFitRequest:
+ *                                            engine/fitSums.ts fitFromSumsAsync, in this worker's
+ *                                            own thread; same progress, cancel and answers)
  *        { type: "cancel", id }              raise that fit's signal; it stops at the next
  *                                            checkpoint and answers with a "cancelled" error
  *   out: { type: "progress", id, done, total }  after each unit of work
@@ -21,7 +24,8 @@
  */
 import { fitAsync, FitOptions, FitResult } from "../engine/fit";
 import { CancelledError, InputError, InputErrorCode } from "../engine/errors";
-import type { AnyFitRequest } from "./runner";
+import { fitFromSumsAsync, type SumsFitOptions } from "../engine/fitSums";
+import type { AnyFitRequest, SumsFitRequest } from "./runner";
 import { browserTaskPool, pooledFit } from "./taskPool";
 
 /** An error as it crosses the worker boundary. */
@@ -33,7 +37,13 @@ export interface PlainError {
   message: string;
 }
 
-export type ToWorker = { type: "fit"; id: number; request: AnyFitRequest } | { type: "cancel"; id: number };
+export type ToWorker =
+  | { type: "fit"; id: number; request: AnyFitRequest }
+  | { type: "fitSums"; id: number; request: SumsFitRequest }
+  | { type: "cancel"; id: number };
+
+/** The fit from sums a worker runs (fitFromSumsAsync; replaceable in tests). */
+export type SumsFitFunction = (sums: unknown, options: SumsFitOptions) => Promise<FitResult>;
 
 export type FromWorker =
   | { type: "progress"; id: number; done: number; total: number }
@@ -73,17 +83,41 @@ function spareOf(request: AnyFitRequest): ArrayBuffer | null {
 
 /**
  * The worker's message handler. `post` sends a message back (with the buffers to transfer);
- * `fitImpl` is the engine's fitAsync (replaceable in tests).
+ * `fitImpl` is the engine's fitAsync and `fitSumsImpl` its fitFromSumsAsync (replaceable in tests).
  */
 export function createFitHandler(
   post: (message: FromWorker, transfer?: ArrayBuffer[]) => void,
   fitImpl: FitFunction = fitAsync,
+  fitSumsImpl: SumsFitFunction = fitFromSumsAsync,
 ): (message: ToWorker) => void {
   const signals = new Map<number, { aborted: boolean }>();
   return (message: ToWorker) => {
     if (message.type === "cancel") {
       const signal = signals.get(message.id);
       if (signal) signal.aborted = true;
+      return;
+    }
+    if (message.type === "fitSums") {
+      // A fit from sums: no rows, so no buffer to hand back.
+      const { id, request } = message;
+      const signal = { aborted: false };
+      signals.set(id, signal);
+      let run: Promise<FitResult>;
+      try {
+        run = fitSumsImpl(request.sums, { ...request.options, signal, onProgress: (done, total) => post({ type: "progress", id, done, total }) });
+      } catch (error) {
+        run = Promise.reject(error);
+      }
+      run.then(
+        (result) => {
+          signals.delete(id);
+          post({ type: "result", id, result });
+        },
+        (error: unknown) => {
+          signals.delete(id);
+          post({ type: "error", id, error: toPlainError(error) });
+        },
+      );
       return;
     }
     if (message.type !== "fit") return;

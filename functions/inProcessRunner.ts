@@ -8,7 +8,8 @@
  */
 import { CancelledError } from "../engine/errors";
 import { fitAsync, FitResult } from "../engine/fit";
-import type { AnyFitRequest, CancelToken, FitProgress, FitRunner } from "./runner";
+import { fitFromSumsAsync } from "../engine/fitSums";
+import type { AnyFitRequest, CancelToken, FitProgress, FitRunner, SumsFitRequest } from "./runner";
 
 export class InProcessRunner implements FitRunner {
   async fit(request: AnyFitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
@@ -20,6 +21,24 @@ export class InProcessRunner implements FitRunner {
       });
     }
     const result = await fitAsync(request.predictors, request.target, {
+      ...request.options,
+      signal,
+      onProgress: onProgress ? (done, total) => onProgress({ done, total }) : undefined,
+    });
+    if (signal.aborted) throw new CancelledError();
+    return result;
+  }
+
+  /** A fit from a sums table (fitFromSumsAsync), cancelled and reported like `fit`. */
+  async fitSums(request: SumsFitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
+    const signal = { aborted: false };
+    if (cancel) {
+      if (cancel.cancelled) throw new CancelledError();
+      cancel.onCancel(() => {
+        signal.aborted = true;
+      });
+    }
+    const result = await fitFromSumsAsync(request.sums, {
       ...request.options,
       signal,
       onProgress: onProgress ? (done, total) => onProgress({ done, total }) : undefined,

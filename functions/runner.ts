@@ -7,7 +7,9 @@
  * Everything in a request is plain data (it is posted to a worker and hashed for the cache).
  */
 import type { FitOptions, FitResult } from "../engine/fit";
+import type { SumsFitOptions } from "../engine/fitSums";
 import type { ColumnMatrix } from "../engine/matrix";
+import type { SumsTable } from "../engine/sumsTable";
 
 /** Engine options without callbacks: what can cross to a worker and into a cache key. */
 export type PlainFitOptions = Omit<FitOptions, "onProgress" | "signal">;
@@ -37,6 +39,17 @@ export interface PackedFitRequest {
 export type AnyFitRequest = FitRequest | PackedFitRequest;
 
 /**
+ * A fit from a sums table (engine/fitSums.ts fitFromSums): the table (plain data, checked by the
+ * engine again wherever it runs) and the options without callbacks. No rows: it costs
+ * O(blocks·p²) per strength however many rows the sums cover.
+ */
+export interface SumsFitRequest {
+  /** The table as read (SumsTable, or anything: the engine checks it and refuses a bad one with an InputError). */
+  sums: SumsTable | unknown;
+  options: Omit<SumsFitOptions, "onProgress" | "signal">;
+}
+
+/**
  * Raised by the caller (e.g. Excel cancelling a superseded recalculation). `onCancel`
  * registers a callback that runs once, at cancellation (immediately if already cancelled).
  */
@@ -56,6 +69,12 @@ export interface FitRunner {
    * or with CancelledError (engine/errors.ts) once `cancel` fires.
    */
   fit(request: AnyFitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult>;
+  /**
+   * A fit from a sums table, with the same progress, cancel and errors as `fit`. Optional: a
+   * runner without it leaves the caller to fit in its own thread (engine/fitSums.ts
+   * fitFromSumsAsync). The worker runner runs it in the fit worker, off the pane's thread.
+   */
+  fitSums?(request: SumsFitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult>;
 }
 
 /** A token that is cancelled by calling `cancel()`. */

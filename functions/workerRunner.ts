@@ -10,6 +10,9 @@
  * the worker is terminated and a fresh one started, and every other fit that was running in the
  * old worker is posted again to the new one (same request, so the same answer).
  *
+ * Fits from a sums table (`fitSums`, a SumsFitRequest) go to the same worker as {type:"fitSums"}
+ * and are answered, cancelled, re-posted and failed over exactly like ordinary fits.
+ *
  * Errors cross the boundary as plain data and are rebuilt here as InputError / CancelledError
  * (fromPlainError), so callers cannot tell a worker fit from an in-process one. Results are
  * structured clones of the engine's plain result object, equal to the in-process result.
@@ -23,7 +26,7 @@ import type { FitResult } from "../engine/fit";
 import type { FromWorker, ToWorker } from "./fit.worker";
 import { fromPlainError } from "./fit.worker";
 import { InProcessRunner } from "./inProcessRunner";
-import type { AnyFitRequest, CancelToken, FitProgress, FitRunner } from "./runner";
+import type { AnyFitRequest, CancelToken, FitProgress, FitRunner, SumsFitRequest } from "./runner";
 
 /** The part of the DOM Worker this runner uses (a fake in tests). */
 export interface WorkerLike {
@@ -43,9 +46,12 @@ export interface WorkerRunnerOptions {
 
 export const DEFAULT_CANCEL_GRACE_MS = 2000;
 
+/** What a job asks the worker for: an ordinary fit, or a fit from a sums table. */
+type Work = { kind: "fit"; request: AnyFitRequest } | { kind: "sums"; request: SumsFitRequest };
+
 interface Job {
   id: number;
-  request: AnyFitRequest;
+  work: Work;
   resolve: (result: FitResult) => void;
   reject: (error: unknown) => void;
   onProgress?: (progress: FitProgress) => void;
@@ -86,10 +92,19 @@ export class WorkerRunner implements FitRunner {
   }
 
   fit(request: AnyFitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
-    if (this.failedOver) return this.fallback.fit(request, cancel, onProgress);
+    return this.start({ kind: "fit", request }, cancel, onProgress);
+  }
+
+  /** A fit from a sums table, in the worker (see the module comment). */
+  fitSums(request: SumsFitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
+    return this.start({ kind: "sums", request }, cancel, onProgress);
+  }
+
+  private start(work: Work, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
+    if (this.failedOver) return this.onFallback(work, cancel, onProgress);
     if (cancel?.cancelled) return Promise.reject(new CancelledError());
     return new Promise<FitResult>((resolve, reject) => {
-      const job: Job = { id: this.nextId++, request, resolve, reject, onProgress, cancel };
+      const job: Job = { id: this.nextId++, work, resolve, reject, onProgress, cancel };
       this.jobs.set(job.id, job);
       cancel?.onCancel(() => this.cancelJob(job));
       this.post(job);
@@ -122,10 +137,22 @@ export class WorkerRunner implements FitRunner {
     return worker;
   }
 
+  /** Runs `work` on the fallback runner (a fit from sums in this thread when the fallback has no fitSums). */
+  private onFallback(work: Work, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
+    if (work.kind === "fit") return this.fallback.fit(work.request, cancel, onProgress);
+    if (this.fallback.fitSums) return this.fallback.fitSums(work.request, cancel, onProgress);
+    return new InProcessRunner().fitSums(work.request, cancel, onProgress);
+  }
+
   private post(job: Job): void {
     this.counters.posted++;
     try {
-      const { request, transfer, reusedSpare } = wireRequest(job.request, this.spare);
+      if (job.work.kind === "sums") {
+        // The table is plain data: structured-cloned, no buffers to move.
+        this.ensureWorker().postMessage({ type: "fitSums", id: job.id, request: job.work.request });
+        return;
+      }
+      const { request, transfer, reusedSpare } = wireRequest(job.work.request, this.spare);
       if (reusedSpare) this.spare = null;
       this.ensureWorker().postMessage({ type: "fit", id: job.id, request }, transfer);
     } catch (error) {
@@ -194,7 +221,7 @@ export class WorkerRunner implements FitRunner {
       this.failedOver = true;
       for (const job of jobs) {
         if (job.cancel?.cancelled) continue;
-        this.fallback.fit(job.request, job.cancel, job.onProgress).then(job.resolve, job.reject);
+        this.onFallback(job.work, job.cancel, job.onProgress).then(job.resolve, job.reject);
       }
       return;
     }

@@ -20,6 +20,7 @@
  * (PaneHandle), view } for browser tests, e.g. `__shrinkwisePreview.host.setCell("M2", 90)`.
  */
 import { sharedRunner } from "../functions/functions";
+import type { FitRunner } from "../functions/runner";
 import { FUNCTION_HELP, type FunctionHelp } from "./functionHelp";
 import { formatAddress, parseAddress } from "./host/address";
 import { OfficeSheetHost } from "./host/officeSheetHost";
@@ -117,7 +118,8 @@ export function demoChoice(current: DemoSet, onChoose: (set: DemoSet) => void): 
  * the first switch away from worksheet ranges (DuckDB, for a file, on the first file read).
  */
 const SUMS_OPTIONS = {
-  sumsRoutes: () => import(/* webpackChunkName: "sums-pane" */ "./sources/routes").then((m) => m.sumsRoutes),
+  // The fit from sums runs in the pane's fit worker (the runner mountPane uses).
+  sumsRoutes: (runner: FitRunner) => import(/* webpackChunkName: "sums-pane" */ "./sources/routes").then((m) => m.routesFor(runner)),
 };
 
 async function startExcel(root: HTMLElement): Promise<void> {

@@ -136,9 +136,10 @@ export interface PaneOptions {
    * Loads the engine and SQL behind "Fit from a file" and "Fit from a sums table"
    * (taskpane/sources/), on the first switch to either: the panel, the routes and DuckDB are
    * separate chunks the worksheet route never fetches. Without it the pane offers worksheet
-   * ranges only (no "Data source" choice).
+   * ranges only (no "Data source" choice). It is given the pane's runner, so the fit from sums
+   * can run where the pane's other fits do (the fit worker: routes.ts routesFor).
    */
-  sumsRoutes?: () => Promise<SumsRoutes>;
+  sumsRoutes?: (runner: FitRunner) => Promise<SumsRoutes>;
   /** Which of the two routes to offer beside worksheet ranges (default both). */
   sumsSources?: readonly ("file" | "sums")[];
   /** Reads local files with DuckDB; default one opening DuckDB from the add-in's own origin on first use. */
@@ -660,12 +661,12 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
     }
   }
 
-  function sumsPanel(routesOf: () => Promise<SumsRoutes>): Promise<SumsPaneHandle> {
+  function sumsPanel(routesOf: (runner: FitRunner) => Promise<SumsRoutes>): Promise<SumsPaneHandle> {
     sumsLoading ??= (async () => {
       const [{ mountSumsPane }, { FileSumsReader }, routes] = await Promise.all([
         import(/* webpackChunkName: "sums-pane" */ "../sources/sumsPane"),
         import(/* webpackChunkName: "sums-pane" */ "../sources/fileSums"),
-        routesOf(),
+        routesOf(runner),
       ]);
       const handle = mountSumsPane({ host, reader: options.fileReader ?? new FileSumsReader(), routes, onSheetWritten: options.onSheetWritten, say });
       handle.setTheme(host.theme());

@@ -6,9 +6,11 @@
  * - a local Parquet file → parquetSums.ts (its own chunk): hyparquet reads it row group by row
  *   group and engine/sumsScan.ts evaluates the same plan (same checks, terms and blocks);
  * - a sums table in its long form on the sheet → engine/sums.ts sumsFromLong (checked);
- * - the fit → engine/fitSums.ts fitFromSumsAsync, in the pane's own thread: it costs
- *   O(blocks·p²) per strength, independent of the rows, and yields to the page between units of
- *   work, so progress shows and Cancel gets through.
+ * - the fit → engine/fitSums.ts fitFromSums, in the fit worker (the runner's `fitSums`,
+ *   functions/workerRunner.ts), so the pane's thread stays free while it runs; progress and Cancel
+ *   as for a worksheet fit. Where the runner has no fitSums (tests, a host without workers) it
+ *   runs here with fitFromSumsAsync, which yields to the page between units of work. The result
+ *   is the same bit for bit either way.
  */
 import type { FitResult } from "../../engine/fit";
 import { fitFromSumsAsync } from "../../engine/fitSums";
@@ -16,21 +18,45 @@ import { sumsFromLong } from "../../engine/sums";
 import { computeSums, type SumsStep } from "../../engine/sumsSql";
 import type { SumsTable } from "../../engine/sumsTable";
 import type { CellValue } from "../host/sheetHost";
+import type { FitRunner, SumsFitRequest } from "../../functions/runner";
 import { fileKindOf, type FileProgress, type FileSumsReader } from "./fileSums";
 import type { FileSpec, SumsFitSettings } from "./sumsInputs";
 import type { RouteSignal, SumsRoutes } from "./sumsPane";
 
-/** The fit from sums with the pane's settings (engine option names). */
-export function fitWithSettings(sums: SumsTable, settings: SumsFitSettings, onProgress: (done: number, total: number) => void, signal: RouteSignal): Promise<FitResult> {
-  return fitFromSumsAsync(sums, {
+/** The engine's options for the pane's settings (engine option names). */
+export function sumsOptionsOf(settings: SumsFitSettings): SumsFitRequest["options"] {
+  return {
     ...(settings.mixes ? { mixes: settings.mixes } : {}),
     ...(settings.folds !== undefined ? { folds: settings.folds } : {}),
     rule: settings.rule,
     standardize: settings.standardize,
     intercept: settings.intercept,
-    onProgress,
-    signal,
-  });
+  };
+}
+
+/** The fit from sums with the pane's settings, in this thread. */
+export function fitWithSettings(sums: SumsTable, settings: SumsFitSettings, onProgress: (done: number, total: number) => void, signal: RouteSignal): Promise<FitResult> {
+  return fitFromSumsAsync(sums, { ...sumsOptionsOf(settings), onProgress, signal });
+}
+
+/**
+ * The fit from sums through `runner`'s fitSums (the fit worker), the pane's signal as its cancel
+ * token; in this thread (fitWithSettings) when the runner has none.
+ */
+export function fitThrough(runner: FitRunner | undefined): SumsRoutes["fitFromSums"] {
+  const fitSums = runner?.fitSums?.bind(runner);
+  if (!fitSums) return fitWithSettings;
+  return (sums, settings, onProgress, signal) =>
+    fitSums(
+      { sums, options: sumsOptionsOf(settings) },
+      {
+        get cancelled() {
+          return signal.aborted;
+        },
+        onCancel: (callback) => signal.onAbort(callback),
+      },
+      (progress) => onProgress(progress.done, progress.total),
+    );
 }
 
 /** A long sums table from a worksheet range (blank cells arrive as ""; the reader skips blank rows). */
@@ -93,9 +119,14 @@ export async function sumsOfFile(reader: FileSumsReader, file: File, spec: FileS
   });
 }
 
-/** The routes the pane uses. */
+/** The routes with the fit in this thread (tests, and hosts without a fit worker). */
 export const sumsRoutes: SumsRoutes = {
   fileSums: sumsOfFile,
   sumsFromLong: sumsOfRange,
   fitFromSums: fitWithSettings,
 };
+
+/** The routes the pane uses: the fit from sums through `runner` (its fit worker), see fitThrough. */
+export function routesFor(runner: FitRunner | undefined): SumsRoutes {
+  return { ...sumsRoutes, fitFromSums: fitThrough(runner) };
+}

@@ -146,6 +146,21 @@ gate.describe("the ClickHouse route gives the other routes' model", () => {
     expectSameModel(await json([...server(), ...hashed]), await json([csv, ...hashed, "--via", "duckdb"]));
   });
 
+  test("--strength 0 (least squares) from the server's sums = the in-memory least squares of the rows (1e-9)", async () => {
+    interface LeastSquaresJson extends Json {
+      baseline: { standardErrors: Record<string, number>; residualStandardDeviation: number; degreesOfFreedom: number; aliased: string[] };
+    }
+    const args = ["--target", "roast_loss", "--fold-column", "fold_label", "--weights-column", "lot_weight", "--strength", "0", "--json"];
+    const viaClickHouse = (await json([...server(), ...args, "--exclude", "reading_id,batch_id,roast_level"])) as LeastSquaresJson;
+    const inMemory = (await json([numbersCsv, ...args, "--exclude", "reading_id,batch_id", "--via", "memory"])) as LeastSquaresJson;
+    expect(viaClickHouse.strength).toBe(0);
+    expectSameModel({ ...viaClickHouse, strength: 1 }, { ...inMemory, strength: 1 });
+    const names = Object.keys(inMemory.baseline.standardErrors).sort();
+    expect(vectorRelativeError(names.map((n) => viaClickHouse.baseline.standardErrors[n]), names.map((n) => inMemory.baseline.standardErrors[n]))).toBeLessThanOrEqual(1e-9);
+    expect(Math.abs(viaClickHouse.baseline.residualStandardDeviation / inMemory.baseline.residualStandardDeviation - 1)).toBeLessThanOrEqual(1e-9);
+    expect(viaClickHouse.baseline.degreesOfFreedom).toBe(inMemory.baseline.degreesOfFreedom);
+  });
+
   test("the README's example: the generator's model on roastLog.ts's default rows (20,000, seed 12)", async () => {
     // The README runs it on shrinkwise.roast_log as `npx tsx test/clickhouse/roastLog.ts` loads it;
     // here the same rows go into this file's own table.

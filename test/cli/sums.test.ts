@@ -121,7 +121,6 @@ describe("--sums fits other settings without the data", () => {
     expectFailure(["--sums", "s.json", "--repeats", "3"], /--repeats can't be used with --sums/, s);
     expectFailure(["--sums", "s.json", "--outcome", "two-class"], /--outcome two-class can't be used with --sums/, s);
     expectFailure(["--sums", "s.json", "--error", "mae"], /mae can't be computed from sums/, s);
-    expectFailure(["--sums", "s.json", "--strength", "0"], /strength 0 is least squares/, s);
     expectFailure(["--sums", "s.json", "--target", "cup_score"], /--target cup_score doesn't match the sums table, whose target is 'weight_loss'/, s);
     expectFailure(["--sums", "s.json", "--folds", "20"], /folds is 20, but this sums table has 10 blocks/, s);
     expectFailure(["--sums", "missing.json"], /can't read missing.json: no such file/, s);
@@ -132,6 +131,53 @@ describe("--sums fits other settings without the data", () => {
     expectFailure(["checks.csv", "--target", "check", "--sums-out", "c.json"], /--sums-out saves sums for a number target/, s);
     expectFailure(["roasts.csv", "--target", "weight_loss", "--exclude", "lot", "--repeats", "3", "--sums-out", "c.json"], /--sums-out saves one deal of the folds/, s);
     expect(s.written["c.json"]).toBeUndefined();
+  });
+});
+
+describe("--sums with --strength 0: least squares from the saved sums", () => {
+  interface LeastSquaresJson {
+    intercept: number;
+    coefficients: Record<string, number>;
+    strength: number;
+    rowsUsed: number;
+    cv: unknown;
+    baseline: { standardErrors: Record<string, number | null>; interceptStandardError: number | null; residualStandardDeviation: number; degreesOfFreedom: number; r2: number; aliased: string[] };
+    diagnostics: { solver: string };
+  }
+  it.each([
+    ["no weights", ["--exclude", "lot,bags"]],
+    ["weights", ["--exclude", "lot", "--weights-column", "bags"]],
+  ])("%s: the same JSON as the file's --strength 0, estimates and standard errors to 1e-9 (two routes agreeing)", (_, extra) => {
+    const s = session();
+    runCommand(["roasts.csv", "--target", "weight_loss", "--folds", "4", "--sums-out", "s.json", ...extra], s.read, s.write);
+    const fromFile = runCommand(["roasts.csv", "--target", "weight_loss", "--strength", "0", "--json", ...extra], s.read, s.write);
+    const fromSums = runCommand(["--sums", "s.json", "--strength", "0", "--json"], s.read, s.write);
+    expect([fromSums.exitCode, fromSums.stderr]).toEqual([0, ""]);
+    const a = JSON.parse(fromSums.stdout) as LeastSquaresJson & Record<string, unknown>;
+    const b = JSON.parse(fromFile.stdout) as LeastSquaresJson & Record<string, unknown>;
+    // Same shape: the file's keys, and the sums' own note of where they came from.
+    expect(Object.keys(a).sort()).toEqual([...Object.keys(b), "sums"].sort());
+    expect(Object.keys(a.baseline).sort()).toEqual(Object.keys(b.baseline).sort());
+    expect([a.strength, a.cv, a.diagnostics.solver]).toEqual([0, null, "least-squares"]);
+    const names = Object.keys(b.coefficients);
+    expect(vectorRelativeError(names.map((n) => a.coefficients[n]), names.map((n) => b.coefficients[n]))).toBeLessThanOrEqual(1e-9);
+    expect(vectorRelativeError(names.map((n) => a.baseline.standardErrors[n] as number), names.map((n) => b.baseline.standardErrors[n] as number))).toBeLessThanOrEqual(1e-9);
+    expect(Math.abs(a.intercept - b.intercept)).toBeLessThanOrEqual(1e-9 * Math.abs(b.intercept));
+    expect(Math.abs(a.baseline.residualStandardDeviation / b.baseline.residualStandardDeviation - 1)).toBeLessThanOrEqual(1e-9);
+    expect([a.baseline.degreesOfFreedom, a.baseline.aliased, a.rowsUsed]).toEqual([b.baseline.degreesOfFreedom, b.baseline.aliased, b.rowsUsed]);
+    // The text report prints the least-squares line as for the file.
+    const text = runCommand(["--sums", "s.json", "--strength", "0"], s.read, s.write).stdout;
+    expect(text).toMatch(/\nLeast squares: residual SD [\d.]+, residual df 115 \(119 rows − 4 coefficients\)\n/);
+  });
+
+  it("refuses what least squares from sums can't do, one line each", () => {
+    const s = session();
+    runCommand(["roasts.csv", "--target", "weight_loss", "--exclude", "lot", "--sums-out", "s.json"], s.read, s.write);
+    expectFailure(["--sums", "s.json", "--strength", "0", "--mix", "0.5,1"], /^shrinkwise: a fixed strength is fitted at one mix, but 2 mixes were given: give a single mix$/m, s);
+    expectFailure(["--sums", "s.json", "--strength", "0", "--error", "mae"], /mae can't be computed from sums/, s);
+    expectFailure(["--sums", "s.json", "--strength", "0", "--predict", "new.csv", "--interval", "0.9"], /--interval can't be used with --sums/, s);
+    expectFailure(["--sums", "s.json", "--strength", "0", "--stability"], /--stability can't be used with --sums/, s);
+    expectFailure(["--sums", "s.json", "--strength", "-1"], /strength/, s);
   });
 });
 

@@ -106,6 +106,25 @@ describe("the DuckDB route gives the in-memory route's model", () => {
     expect(again.rowsUsed).toBe(direct.rowsUsed);
   }, 60_000);
 
+  test("--strength 0 (least squares) via DuckDB on CSV and Parquet = the in-memory least squares: estimates, SEs, df (1e-9)", async () => {
+    interface LeastSquaresJson extends Json {
+      baseline: { standardErrors: Record<string, number>; interceptStandardError: number; residualStandardDeviation: number; degreesOfFreedom: number; aliased: string[] };
+    }
+    const args = ["--target", "roast_loss", "--fold-column", "batch", "--exclude", "reading_id", "--weights-column", "lot_weight", "--strength", "0", "--json"];
+    const memory = (await json([csv, ...args, "--via", "memory"])) as LeastSquaresJson;
+    for (const other of [(await json([csv, ...args, "--via", "duckdb"])) as LeastSquaresJson, (await json([parquet, ...args])) as LeastSquaresJson]) {
+      expect(other.strength).toBe(0);
+      expect(closeModels(other, memory)).toBeLessThan(1e-9);
+      const names = Object.keys(memory.baseline.standardErrors);
+      for (const name of names) expect(Math.abs(other.baseline.standardErrors[name] / memory.baseline.standardErrors[name] - 1)).toBeLessThan(1e-9);
+      expect(Math.abs(other.baseline.residualStandardDeviation / memory.baseline.residualStandardDeviation - 1)).toBeLessThan(1e-9);
+      expect([other.baseline.degreesOfFreedom, other.baseline.aliased, other.rowsUsed]).toEqual([memory.baseline.degreesOfFreedom, memory.baseline.aliased, memory.rowsUsed]);
+    }
+    // Least squares is one point: several mixes are one line and exit 2.
+    const outcome = await runCommandAsync([parquet, ...args, "--mix", "0.5,1"]);
+    expect([outcome.exitCode, outcome.stdout, outcome.stderr]).toEqual([2, "", "shrinkwise: a fixed strength is fitted at one mix, but 2 mixes were given: give a single mix\n"]);
+  }, 120_000);
+
   test("--print-sql prints the queries and exits", async () => {
     const outcome = await runCommandAsync([parquet, "--target", "roast_loss", "--fold-column", "batch", "--exclude", "reading_id", "--print-sql"]);
     expect(outcome.exitCode).toBe(0);

@@ -233,10 +233,14 @@ describe("bad sums tables", () => {
     expectMessage(() => checkSums({ ...good(), terms: ["a", "a"] }), /term 'a' appears twice/);
     expectMessage(() => checkSums({ ...good(), terms: ["#a", "b"] }), /term '#a' starts with '#'/);
     expectMessage(() => checkSums({ ...good(), target: "bean_temp" }), /'bean_temp' is both the target and a term/);
-    expectMessage(() => checkSums({ ...good(), blocks: good().blocks.slice(0, 1) }), /1 block: cross-validation needs at least 2/);
+    // One block is a valid table (least squares from sums takes it); cross-validation refuses it (fitSums.ts).
+    expect(checkSums({ ...good(), blocks: good().blocks.slice(0, 1) }).blocks).toHaveLength(1);
+    expectMessage(() => checkSums({ ...good(), blocks: [] }), /the sums table has no blocks/);
     const t = good();
     expectMessage(() => checkSums({ ...t, blocks: [t.blocks[0], { ...t.blocks[1], label: t.blocks[0].label }] }), /block 'batch-0' appears twice/);
-    expectMessage(() => checkSums({ ...t, blocks: [t.blocks[0], { ...t.blocks[1], weight: 0 }] }), /block 'batch-1' has weight 0/);
+    // A block of weight 0 is valid (its rows all weigh 0); a negative weight, or no weight anywhere, is not.
+    expectMessage(() => checkSums({ ...t, blocks: [t.blocks[0], { ...t.blocks[1], weight: -1 }] }), /block 'batch-1' has weight -1/);
+    expectMessage(() => checkSums({ ...t, blocks: [{ ...t.blocks[0], weight: 0 }, { ...t.blocks[1], weight: 0 }] }), /every block of the sums table has weight 0/);
     expectMessage(() => checkSums({ ...t, blocks: [t.blocks[0], { ...t.blocks[1], rows: 0 }] }), /block 'batch-1' has 0 rows/);
     expectMessage(() => checkSums({ ...t, blocks: [t.blocks[0], { ...t.blocks[1], cross: [1, 2] }] }), /block 'batch-1' has 2 cross-products but 2 terms need 3/);
     expectMessage(() => checkSums({ ...t, blocks: [t.blocks[0], { ...t.blocks[1], crossY: [1, Infinity] }] }), /cross-products with the target of 'drum_rpm' is not a finite number/);

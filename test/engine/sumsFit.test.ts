@@ -248,7 +248,8 @@ describe("refusals say what to do", () => {
     [{ updates: "residual" }, /residual updates .* use gram/],
     [{ foldLabels: ["a", "b"] }, /fold labels can't be given with a sums table/],
     [{ timeOrdered: true }, /the table says whether its blocks are in time order/],
-    [{ strength: 0, mixes: [1] }, /strength 0 is least squares.* small positive strength/],
+    // (strength 0, least squares, fits from sums now: test/engine/sumsLeastSquares.test.ts)
+    [{ strength: 0, mixes: [0, 1] }, /a fixed strength is fitted at one mix/],
     [{ folds: 5 }, /folds is 5, but this sums table has 3 blocks: give a whole number from 2 to 3/],
     [{ folds: 1 }, /folds is 1/],
     [{ mixes: [2] }, /mix/],
