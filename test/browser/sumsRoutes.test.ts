@@ -115,9 +115,21 @@ suite("fits from sums in Chromium (standalone preview, strict CSP)", () => {
       await page.evaluate((a) => (window as unknown as { __shrinkwisePreview: { host: { setSelection(a: string): void } } }).__shrinkwisePreview.host.setSelection(a), `Sums!A1:D${long.length}`);
       await page.getByTestId("sums-range-use-selection").click();
       expect(await page.getByTestId("sums-range-address").textContent()).toContain(`A1:D${long.length}`);
+      // The fit goes to the fit worker (functions/fit.worker.ts "fitSums"), not the pane's thread:
+      // record the types of the messages posted to workers from here on.
+      await page.evaluate(() => {
+        const seen: string[] = [];
+        (window as unknown as { __postedToWorkers: string[] }).__postedToWorkers = seen;
+        const post = Worker.prototype.postMessage;
+        Worker.prototype.postMessage = function (this: Worker, message: unknown, ...rest: unknown[]) {
+          seen.push(String((message as { type?: unknown } | null)?.type));
+          return (post as (...args: unknown[]) => void).call(this, message, ...rest);
+        };
+      });
       await page.getByTestId("sums-fit-button").click();
       const status = await waitForSumsStatus(page, /^Fitted|could not/);
       expect(status).toMatch(/^Fitted from sums/);
+      expect(await page.evaluate(() => (window as unknown as { __postedToWorkers: string[] }).__postedToWorkers)).toContain("fitSums");
 
       const engine = fit(x, y, { foldLabels: labels, updates: "gram", names, rule: "lowest", standardize: true, intercept: true });
       const shown = await shownModel(page);
