@@ -20,6 +20,7 @@
  * (PaneHandle), view } for browser tests, e.g. `__shrinkwisePreview.host.setCell("M2", 90)`.
  */
 import { sharedRunner } from "../functions/functions";
+import { aboutLine } from "./about";
 import { FUNCTION_HELP, type FunctionHelp } from "./functionHelp";
 import { formatAddress, parseAddress } from "./host/address";
 import { OfficeSheetHost } from "./host/officeSheetHost";
@@ -127,7 +128,7 @@ async function startExcel(root: HTMLElement): Promise<void> {
   layout.append(pane);
   root.replaceChildren(layout);
   await mountPane(pane, host, SUMS_OPTIONS);
-  pane.append(helpSection());
+  pane.append(helpSection(), aboutLine());
 }
 
 async function startStandalone(root: HTMLElement): Promise<void> {
@@ -164,7 +165,7 @@ async function startStandalone(root: HTMLElement): Promise<void> {
     }),
   );
   renderPreview(side, { runner: sharedRunner(), help: FUNCTION_HELP });
-  pane.append(helpSection());
+  pane.append(helpSection(), aboutLine());
   // For the browser tests and for poking around in the console: the stand-in workbook and the pane.
   (globalThis as { __shrinkwisePreview?: unknown }).__shrinkwisePreview = { host, pane: handle, view };
 }
