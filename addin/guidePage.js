@@ -85,7 +85,8 @@ function inline(markdown, context) {
         if (href.startsWith("img/")) context.images.push(href);
         return `<a href="${href}">${text}</a>`;
       });
-      html = html.replace(/(^|[\s(])(https?:\/\/[^\s<)]+)/g, (_all, before, url) => `${before}<a href="${url}">${url}</a>`);
+      // A bare address, without the punctuation that ends its sentence.
+      html = html.replace(/(^|[\s(])(https?:\/\/[^\s<)]*[^\s<).,;:!?])/g, (_all, before, url) => `${before}<a href="${url}">${url}</a>`);
       html = html.replace(/\*\*([^*]+)\*\*/g, "<strong>$1</strong>");
       html = html.replace(/(^|[^\w*])\*([^*\s][^*]*?)\*(?![\w*])/g, "$1<em>$2</em>");
       return html;
@@ -215,6 +216,7 @@ function guideHtml(markdown, { available = new Set(), version = "" } = {}) {
 <meta http-equiv="Content-Security-Policy" content="${policy}">
 <meta name="viewport" content="width=device-width, initial-scale=1">
 <title>${escapeHtml(title)}</title>
+<link rel="icon" type="image/png" href="../assets/icon-32.png">
 <style>${STYLE}</style>
 </head>
 <body>
@@ -277,7 +279,8 @@ class GuidePagePlugin {
           const { files } = guideFiles();
           for (const [file, content] of files) {
             const source = typeof content === "string" ? new webpack.sources.RawSource(content) : new webpack.sources.RawSource(Buffer.from(content));
-            compilation.emitAsset(file, source);
+            // Marked minimized: a minifier rewriting the page's style block would break its hash in the policy.
+            compilation.emitAsset(file, source, { minimized: true });
           }
         } catch (error) {
           compilation.errors.push(new webpack.WebpackError(error instanceof Error ? error.message : String(error)));
