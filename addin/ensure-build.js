@@ -27,7 +27,7 @@ const { spawnSync } = require("child_process");
 const ROOT = path.resolve(__dirname, "..");
 const STAMP = "build-stamp.json";
 /** What the production build reads, relative to the project root (folders are walked). */
-const INPUTS = ["engine", "functions", "taskpane", "addin", "manifest.xml", "tsconfig.json", "package-lock.json"];
+const INPUTS = ["engine", "functions", "taskpane", "addin", "manifest.xml", "tsconfig.json", "package-lock.json", "docs/guide.md", "docs/img"];
 
 /** The most recently modified file or folder among `inputs` under `root`, or null when none exists. */
 function newestInput(root, inputs = INPUTS) {

@@ -37,6 +37,8 @@ const webpack = require("webpack");
 const HtmlWebpackPlugin = require("html-webpack-plugin");
 const CopyWebpackPlugin = require("copy-webpack-plugin");
 const CustomFunctionsMetadataPlugin = require("custom-functions-metadata-plugin");
+// The user guide, docs/guide.md → dist/guide/index.html with its pictures (addin/guidePage.js).
+const { GuidePagePlugin } = require("./guidePage");
 
 const ROOT = path.resolve(__dirname, "..");
 const DIST = path.join(ROOT, "dist");
@@ -250,6 +252,7 @@ module.exports = (_env = {}, argv = {}) => {
       ...(production ? [new BuildStamp()] : []),
       new CustomFunctionsMetadataPlugin({ input: FUNCTIONS_SOURCE, output: "functions.json" }),
       new FunctionsMetadataFinish(),
+      new GuidePagePlugin(),
       new HtmlWebpackPlugin({
         filename: "taskpane.html",
         template: "./taskpane/taskpane.html",

@@ -21,6 +21,7 @@
  */
 import { sharedRunner } from "../functions/functions";
 import type { FitRunner } from "../functions/runner";
+import { aboutLine } from "./about";
 import { FUNCTION_HELP, type FunctionHelp } from "./functionHelp";
 import { formatAddress, parseAddress } from "./host/address";
 import { OfficeSheetHost } from "./host/officeSheetHost";
@@ -129,7 +130,7 @@ async function startExcel(root: HTMLElement): Promise<void> {
   layout.append(pane);
   root.replaceChildren(layout);
   await mountPane(pane, host, SUMS_OPTIONS);
-  pane.append(helpSection());
+  pane.append(helpSection(), aboutLine());
 }
 
 async function startStandalone(root: HTMLElement): Promise<void> {
@@ -166,7 +167,7 @@ async function startStandalone(root: HTMLElement): Promise<void> {
     }),
   );
   renderPreview(side, { runner: sharedRunner(), help: FUNCTION_HELP });
-  pane.append(helpSection());
+  pane.append(helpSection(), aboutLine());
   // For the browser tests and for poking around in the console: the stand-in workbook and the pane.
   (globalThis as { __shrinkwisePreview?: unknown }).__shrinkwisePreview = { host, pane: handle, view };
 }

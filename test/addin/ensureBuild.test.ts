@@ -42,7 +42,7 @@ afterEach(() => {
 });
 
 test("the inputs are what the production build reads", () => {
-  expect(INPUTS).toEqual(["engine", "functions", "taskpane", "addin", "manifest.xml", "tsconfig.json", "package-lock.json"]);
+  expect(INPUTS).toEqual(["engine", "functions", "taskpane", "addin", "manifest.xml", "tsconfig.json", "package-lock.json", "docs/guide.md", "docs/img"]);
 });
 
 test("not fresh without dist/, without a stamp, or with a stamp holding no time", () => {
