@@ -454,7 +454,7 @@ async function main(): Promise<void> {
   const duckdbSums = only?.has("sums") ? await duckdbSumsBench(repeat) : null;
   if (duckdbSums) lines.push(...duckdbSums.lines);
   // The fit from sums runs in this process: it times milliseconds of work on tables of a few kB.
-  const sums = only?.has("sums") ? sumsFitBench(repeat) : null;
+  const sums = only?.has("sums") ? await sumsFitBench(repeat, threads.used) : null;
   if (sums) lines.push(...sums.lines);
   try {
     for (const c of chosen) {

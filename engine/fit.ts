@@ -1140,16 +1140,22 @@ export async function fitAsync(
   options: FitOptions = {},
   run: RunOptions = {},
 ): Promise<FitResult> {
-  const pool = run.pool ?? null;
+  return runPlanAsync(fitPlan(predictors, target, options), options, run.pool ?? null);
+}
+
+/**
+ * Runs a fit's plan (fitPlan, or fitSums.ts's plan from a sums table) awaiting a macrotask between
+ * units of work; with a pool, its batches of tasks run on the pool's workers (see fitAsync).
+ */
+export async function runPlanAsync(plan: FitPlan, options: FitOptions, pool: TaskPool | null): Promise<FitResult> {
   if (!pool) {
-    const steps = fitSteps(predictors, target, options);
+    const steps = runPlan(plan, options);
     for (;;) {
       const step = steps.next();
       if (step.done) return step.value;
       await nextTask();
     }
   }
-  const plan = fitPlan(predictors, target, options);
   let session: TaskSession | null = null;
   try {
     for (;;) {
@@ -1386,8 +1392,10 @@ function taskInput(context: TaskContext, options: FitOptions): FitTaskInput {
   const p = data.x.columns;
   const K = context.plan.trainBlocks.length;
   const snapshotSize = context.repeats * (2 * K + 1) * p * p;
-  // The honest error's outer folds fit rows: workers need them then.
-  if (!options.honestError && data.gram && data.outcome === "number" && context.measure === "mse" && snapshotSize <= Math.max(2 * n * p, SNAPSHOT_DOUBLES)) {
+  // The honest error's outer folds fit rows: workers need them then. A fit from sums has no rows
+  // to send: its workers always get the snapshot (the problems the fit itself holds).
+  const fromSums = data.totalSums !== null;
+  if (!options.honestError && data.gram && data.outcome === "number" && context.measure === "mse" && (fromSums || snapshotSize <= Math.max(2 * n * p, SNAPSHOT_DOUBLES))) {
     const none = new Float64Array(0);
     const noRows: ColumnMatrix = { rows: n, columns: p, data: none };
     const deals = Array.from({ length: context.repeats }, (_, d) => context.deals(d));

@@ -48,12 +48,13 @@ import {
   FitResult,
   FitPlan,
   MAX_GRAM_PREDICTORS,
-  nextTask,
   planFromSetUp,
   Prepared,
   Problems,
   problemsFromBlockSums,
   runPlan,
+  runPlanAsync,
+  RunOptions,
   SetUp,
   workingBounds,
 } from "./fit";
@@ -84,14 +85,14 @@ export function* fitFromSumsSteps(sums: SumsTable | unknown, options: SumsFitOpt
   return yield* runPlan(sumsPlan(sums, options), options);
 }
 
-/** As fitFromSums, awaiting a fresh macrotask between units of work (fit.ts nextTask) so a cancel gets through. */
-export async function fitFromSumsAsync(sums: SumsTable | unknown, options: SumsFitOptions = {}): Promise<FitResult> {
-  const steps = fitFromSumsSteps(sums, options);
-  for (;;) {
-    const step = steps.next();
-    if (step.done) return step.value;
-    await nextTask();
-  }
+/**
+ * As fitFromSums, awaiting a fresh macrotask between units of work (fit.ts nextTask) so a cancel
+ * gets through. With `run.pool` the mixes' paths and the folds run on the pool's workers, as
+ * fit.ts fitAsync runs them (each worker gets the fit's own problems, no rows): the same result
+ * bit for bit.
+ */
+export async function fitFromSumsAsync(sums: SumsTable | unknown, options: SumsFitOptions = {}, run: RunOptions = {}): Promise<FitResult> {
+  return runPlanAsync(sumsPlan(sums, options), options, run.pool ?? null);
 }
 
 function* sumsPlan(sums: SumsTable | unknown, options: SumsFitOptions): FitPlan {

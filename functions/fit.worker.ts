@@ -18,13 +18,14 @@
  * yields a macrotask between units of work, so they interleave and cancel messages get through.
  * Where the host allows nested workers, a fit's mixes and folds run on a pool of task workers
  * (taskPool.ts, task.worker.ts), with the same result bit for bit; a cancel stops them at once.
+ * A fit from sums uses the same pool (its workers get the fit's problems, never rows).
  *
  * The handler (`createFitHandler`) is plain code with no worker globals, so tests drive it
  * directly; the bootstrap at the bottom wires it to the worker's own message port.
  */
 import { fitAsync, FitOptions, FitResult } from "../engine/fit";
 import { CancelledError, InputError, InputErrorCode } from "../engine/errors";
-import { fitFromSumsAsync, type SumsFitOptions } from "../engine/fitSums";
+import { fitFromSumsAsync } from "../engine/fitSums";
 import type { AnyFitRequest, SumsFitRequest } from "./runner";
 import { browserTaskPool, pooledFit } from "./taskPool";
 
@@ -42,8 +43,9 @@ export type ToWorker =
   | { type: "fitSums"; id: number; request: SumsFitRequest }
   | { type: "cancel"; id: number };
 
-/** The fit from sums a worker runs (fitFromSumsAsync; replaceable in tests). */
-export type SumsFitFunction = (sums: unknown, options: SumsFitOptions) => Promise<FitResult>;
+/** The fit from sums a worker runs (fitFromSumsAsync, pooled where the host allows; replaceable in tests). */
+import type { SumsFitFunction } from "./taskPool";
+export type { SumsFitFunction };
 
 export type FromWorker =
   | { type: "progress"; id: number; done: number; total: number }
@@ -165,6 +167,7 @@ interface WorkerScope {
 const scope = globalThis as unknown as WorkerScope & { WorkerGlobalScope?: new () => unknown };
 if (typeof scope.WorkerGlobalScope === "function" && scope instanceof scope.WorkerGlobalScope) {
   // The folds and mixes run on nested task workers where the host allows them (taskPool.ts).
-  const handle = createFitHandler((message, transfer) => scope.postMessage(message, transfer ?? []), pooledFit(browserTaskPool()));
+  const pooled = pooledFit(browserTaskPool());
+  const handle = createFitHandler((message, transfer) => scope.postMessage(message, transfer ?? []), pooled, pooled.sums);
   scope.onmessage = (event) => handle(event.data);
 }

@@ -10,6 +10,7 @@
  * interleaved with the others as fits always have been in the fit worker.
  */
 import { fitAsync, FitOptions, FitResult } from "../engine/fit";
+import { fitFromSumsAsync, type SumsFitOptions } from "../engine/fitSums";
 import { PoolUnavailableError, TaskEndpoint, TaskPool, WorkerPool } from "../engine/parallel";
 import type { AnyFitRequest } from "./runner";
 
@@ -67,22 +68,29 @@ export type FitFunction = (
   options: FitOptions,
 ) => Promise<FitResult>;
 
-export function pooledFit(pool: TaskPool | null): FitFunction & { poolBroken: () => boolean } {
+export function pooledFit(pool: TaskPool | null): FitFunction & { poolBroken: () => boolean; sums: SumsFitFunction } {
   let busy = false;
   let broken = pool === null;
-  const run = async (predictors: AnyFitRequest["predictors"], target: number[], options: FitOptions): Promise<FitResult> => {
-    if (broken || busy || pool === null) return fitAsync(predictors, target, options);
+  /** `job` on the pool while it is free and working, else (and when it turns out broken) in this thread. */
+  const pooled = async (job: (pool: TaskPool | null) => Promise<FitResult>): Promise<FitResult> => {
+    if (broken || busy || pool === null) return job(null);
     busy = true;
     try {
-      return await fitAsync(predictors, target, options, { pool });
+      return await job(pool);
     } catch (error) {
       if (!(error instanceof PoolUnavailableError)) throw error;
       broken = true;
       pool.dispose();
-      return fitAsync(predictors, target, options);
+      return job(null);
     } finally {
       busy = false;
     }
   };
-  return Object.assign(run, { poolBroken: () => broken });
+  const run = (predictors: AnyFitRequest["predictors"], target: number[], options: FitOptions): Promise<FitResult> => pooled((p) => fitAsync(predictors, target, options, { pool: p }));
+  // A fit from a sums table shares the pool the same way (engine/fitSums.ts fitFromSumsAsync).
+  const sums: SumsFitFunction = (table, options) => pooled((p) => fitFromSumsAsync(table, options, { pool: p }));
+  return Object.assign(run, { poolBroken: () => broken, sums });
 }
+
+/** A fit from a sums table as the worker runs it (fit.worker.ts "fitSums"). */
+export type SumsFitFunction = (sums: unknown, options: SumsFitOptions) => Promise<FitResult>;

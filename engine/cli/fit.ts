@@ -217,7 +217,7 @@ function* commandSteps(
       options.threads ?? null,
     ];
     if (options.sumsOut && sums) write(options.sumsOut, sumsFileText(options.sumsOut, sums));
-    return finish(result, table, { table, foldColumn: options.foldColumn }, options, read, write);
+    return finish(result, table, { table, foldColumn: options.foldColumn, intercept: options.intercept }, options, read, write);
   } catch (error) {
     const failure = failureLine(error);
     return { exitCode: failure.exitCode, stdout: "", stderr: failure.line };
@@ -273,7 +273,7 @@ function sumsCommand(options: CommandOptions, read: (file: string) => string, wr
   const fitOptions = toFitOptions(options, { names: sums.terms, weights: null, foldLabels: null });
   delete fitOptions.timeOrdered;
   const result = fitFromSums(sums, fitOptions);
-  return finish(result, table, { table, sums: { file, blocking: sums.blocking, blocks: sums.blocks.length, source: sums.source ?? null } }, options, read, write);
+  return finish(result, table, { table, sums: { file, blocking: sums.blocking, blocks: sums.blocks.length, source: sums.source ?? null }, intercept: options.intercept }, options, read, write);
 }
 
 if (require.main === module) {

@@ -37,6 +37,8 @@ export interface ReportContext {
   foldColumn?: string | null;
   /** `--sums`: the sums table the fit came from (its file, how its rows were dealt into blocks, its block count, where it was computed). */
   sums?: { file: string; blocking: string; blocks: number; source: string | null } | null;
+  /** Whether the model has an intercept (default true): the least-squares line counts it among the coefficients. */
+  intercept?: boolean;
 }
 
 export interface JsonChoice {
@@ -532,10 +534,15 @@ export function textReport(result: FitResult, context: ReportContext): string {
       );
     }
   } else if (baseline) {
-    const coefficients = result.rowsUsed - baseline.degreesOfFreedom;
+    // df = rows counted − coefficients (terms kept, and the intercept): the rows counted are those
+    // of positive weight (from sums: the table's rows, less its blocks of weight 0), which with
+    // weights of 0 are fewer than the rows used.
+    const coefficients = p - baseline.aliased.length + (context.intercept === false ? 0 : 1);
+    const counted = baseline.degreesOfFreedom + coefficients;
+    const rows = counted === result.rowsUsed ? `${counted} rows` : `${counted} rows of positive weight`;
     lines.push(
       `Least squares: residual SD ${formatNumber(baseline.residualStandardDeviation, 4)}, residual df ${baseline.degreesOfFreedom}` +
-        ` (${result.rowsUsed} rows − ${coefficients} coefficient${coefficients === 1 ? "" : "s"})`,
+        ` (${rows} − ${coefficients} coefficient${coefficients === 1 ? "" : "s"})`,
     );
   }
   if (twoClass && result.classFit) {

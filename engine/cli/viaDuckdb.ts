@@ -175,6 +175,6 @@ export function fitQueriedSums(options: CommandOptions, sums: SumsTable, rule: F
   const table = tableOfSums(sums);
   // Saved after the fit succeeds, as the in-memory route saves its sums.
   if (options.sumsOut) write(options.sumsOut, sumsFileText(options.sumsOut, sums));
-  const context = { table, foldColumn: options.foldColumn, sums: { file: options.file, blocking: sums.blocking, blocks: sums.blocks.length, source: sums.source ?? null } };
+  const context = { table, foldColumn: options.foldColumn, sums: { file: options.file, blocking: sums.blocking, blocks: sums.blocks.length, source: sums.source ?? null }, intercept: options.intercept };
   return { stdout: options.json ? jsonText(result, context) : textReport(result, context), sums, result };
 }

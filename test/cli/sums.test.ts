@@ -170,6 +170,20 @@ describe("--sums with --strength 0: least squares from the saved sums", () => {
     expect(text).toMatch(/\nLeast squares: residual SD [\d.]+, residual df 115 \(119 rows − 4 coefficients\)\n/);
   });
 
+  it("the least-squares line counts the rows behind df: rows of weight 0 and the intercept (common practice: df = rows − coefficients)", () => {
+    const s = session();
+    // bags 0 on every 10th roast: 12 of the 119 rows used weigh 0.
+    s.written["zeros.csv"] = files["roasts.csv"]
+      .trimEnd()
+      .split("\n")
+      .map((line, i) => (i > 0 && (i - 1) % 10 === 0 ? line.replace(/,\d$/, ",0") : line))
+      .join("\n");
+    const weighted = runCommand(["zeros.csv", "--target", "weight_loss", "--exclude", "lot", "--weights-column", "bags", "--strength", "0"], s.read, s.write).stdout;
+    expect(weighted).toMatch(/\nLeast squares: residual SD [\d.]+, residual df 103 \(107 rows of positive weight − 4 coefficients\)\n/);
+    const plain = runCommand(["roasts.csv", "--target", "weight_loss", "--exclude", "lot,bags", "--strength", "0", "--no-intercept"], s.read, s.write).stdout;
+    expect(plain).toMatch(/\nLeast squares: residual SD [\d.]+, residual df 116 \(119 rows − 3 coefficients\)\n/);
+  });
+
   it("refuses what least squares from sums can't do, one line each", () => {
     const s = session();
     runCommand(["roasts.csv", "--target", "weight_loss", "--exclude", "lot", "--sums-out", "s.json"], s.read, s.write);

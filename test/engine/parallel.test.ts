@@ -9,6 +9,9 @@ import { CancelledError, InputError } from "../../engine/errors";
 import { mulberry32 } from "../../engine/random";
 import { createTaskHost, FromTaskWorker, PoolUnavailableError, TaskEndpoint, TaskPool, ToTaskWorker, WorkerPool } from "../../engine/parallel";
 import { fitParallel, threadPool } from "../../engine/node/threadPool";
+import { fitFromSums, fitFromSumsAsync } from "../../engine/fitSums";
+import { sumsOfRows } from "../../engine/sums";
+import type { SumsTable } from "../../engine/sumsTable";
 
 /** Correlated predictors, a sparse linear target with noise, and a 0/1 outcome from the same score. */
 function data(rows: number, columns: number, seed: number): { x: number[][]; y: number[]; events: number[] } {
@@ -116,6 +119,36 @@ describe("a pooled fit is the sequential fit bit for bit", () => {
   });
 });
 
+describe("a fit from a sums table on a pool is the sequential fitFromSums bit for bit", () => {
+  // The workers get the fit's own problems (the snapshot), never rows: a sums table has none.
+  const d = data(300, 12, 23);
+  const labels = d.y.map((_, i) => `lot ${i % 6}`);
+  const names = Array.from({ length: 12 }, (_, j) => `probe_${j + 1}`);
+  const weighted = d.y.map((_, i) => 1 + (i % 3));
+  const tables: [string, SumsTable, FitOptions][] = [
+    ["six blocks, three mixes", sumsOfRows(d.x, d.y, null, labels, names, "roast_loss"), { mixes: [0, 0.5, 1], gridDensity: 10 }],
+    ["weights, merged into 3 folds, one-SE", sumsOfRows(d.x, d.y, weighted, labels, names, "roast_loss"), { mixes: [0.25, 1], folds: 3, rule: "one-se", gridDensity: 10 }],
+    ["time-ordered blocks", sumsOfRows(d.x, d.y, null, labels, names, "roast_loss", { timeOrdered: true }), { mixes: [1], gridDensity: 10 }],
+  ];
+  for (const [name, table, options] of tables) {
+    test(`${name}: 2 and 3 workers finishing in shuffled order`, async () => {
+      const sequential = fitFromSums(table, options);
+      for (const size of [2, 3]) {
+        const pool = shuffledPool(size, size * 29);
+        const pooled = await fitFromSumsAsync(table, options, { pool });
+        pool.dispose();
+        expect(difference(pooled, sequential)).toBeNull();
+      }
+    });
+  }
+  test("least squares (strength 0) needs no tasks: the same result with a pool", async () => {
+    const pool = shuffledPool(2, 3);
+    const pooled = await fitFromSumsAsync(tables[0][1], { strength: 0, mixes: [1] }, { pool });
+    pool.dispose();
+    expect(difference(pooled, fitFromSums(tables[0][1], { strength: 0, mixes: [1] }))).toBeNull();
+  });
+});
+
 test("an honest error's outer fold that can't be fitted gives the sequential fit's InputError", async () => {
   const d = data(60, 4, 19);
   // Two fold labels: each outer training part holds one label, too few for its own folds.
@@ -157,6 +190,13 @@ describe("worker threads", () => {
     } finally {
       three.dispose();
     }
+  });
+
+  test("a fit from sums: identical on 2 threads", async () => {
+    const d = data(200, 10, 31);
+    const table = sumsOfRows(d.x, d.y, null, d.y.map((_, i) => i % 5), Array.from({ length: 10 }, (_, j) => `probe_${j + 1}`), "roast_loss");
+    const options: FitOptions = { mixes: [0, 0.5, 1] };
+    expect(difference(await fitFromSumsAsync(table, options, { pool }), fitFromSums(table, options))).toBeNull();
   });
 
   test("progress counts every unit once and ends at the total", async () => {

@@ -8,6 +8,8 @@
 import { fit, FitOptions, openTaskContext, runFitTask } from "../../engine/fit";
 import { createTaskHost, FromTaskWorker, ToTaskWorker, WorkerPool } from "../../engine/parallel";
 import { mulberry32 } from "../../engine/random";
+import { fitFromSums } from "../../engine/fitSums";
+import { sumsOfRows } from "../../engine/sums";
 import { pooledFit, poolSize, taskEndpoint, TaskWorkerLike } from "../../functions/taskPool";
 
 function data(rows: number, columns: number, seed: number): { x: number[][]; y: number[] } {
@@ -110,6 +112,28 @@ test("a second fit while the pool is busy runs sequentially; both give the seque
   pool.dispose();
   expect(first).toStrictEqual(fit(a.x, a.y, options));
   expect(second).toStrictEqual(fit(b.x, b.y, options));
+});
+
+test("a fit from sums on the task workers is fitFromSums bit for bit; the pool is shared with ordinary fits", async () => {
+  const uniform = mulberry32(8);
+  const workers: ReturnType<typeof fakeTaskWorker>[] = [];
+  const pool = new WorkerPool(() => {
+    const worker = fakeTaskWorker(uniform);
+    workers.push(worker);
+    return taskEndpoint(worker);
+  }, 2);
+  const run = pooledFit(pool);
+  const { x, y } = data(120, 5, 9);
+  const table = sumsOfRows(x, y, null, y.map((_, i) => `lot ${i % 4}`), ["a", "b", "c", "d", "e"], "y");
+  const sumsOptions = { mixes: [0, 0.5, 1], gridDensity: 8 };
+  await expect(run.sums(table, sumsOptions)).resolves.toStrictEqual(fitFromSums(table, sumsOptions));
+  expect(workers.length).toBe(2);
+  // While the pool runs an ordinary fit, a fit from sums runs in this thread: the same result.
+  const [ordinary, fromSums] = await Promise.all([run(x, y, options), run.sums(table, sumsOptions)]);
+  expect(ordinary).toStrictEqual(fit(x, y, options));
+  expect(fromSums).toStrictEqual(fitFromSums(table, sumsOptions));
+  pool.dispose();
+  await expect(pooledFit(null).sums(table, sumsOptions)).resolves.toStrictEqual(fitFromSums(table, sumsOptions));
 });
 
 test("without a pool the fit function is the sequential fit", async () => {
