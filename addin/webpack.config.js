@@ -19,7 +19,9 @@
  *                            own origin, fetched only when a file is fitted
  *     functions.json         cell-function metadata generated from functions.ts's JSDoc, then
  *                            post-processed (allowErrorForDataTypeAny, see below)
- *     manifest.xml           the XML manifest (localhost URLs), copied from the project root
+ *     manifest.xml           the XML manifest: copied from the project root (dev-server URLs), or
+ *                            with a base URL (addin/build.js --base-url) rewritten under that base
+ *                            with <Version> from package.json (addin/hosting.js hostedManifest)
  *     assets/                icons, copied from addin/assets
  *     office-js/             office.js loader + Excel host files + locale strings, copied from
  *                            @microsoft/office-js (served locally: these machines are offline)
@@ -28,6 +30,9 @@
  *                            addin/ensure-build.js, npm test's pretest)
  *
  * `npm run build:addin` = `webpack --config addin/webpack.config.js --mode production`.
+ * `npm run build` = addin/build.js: type check, then this build; `-- --base-url URL` makes the
+ * build for a web server of one's own (env.baseUrl here, or SHRINKWISE_BUILD_BASE_URL set by
+ * build.js).
  * `webpack serve --config addin/webpack.config.js` serves https://localhost:3000 with the
  * certificate in .certs/ (made by addin/start.js); `--server-type http` serves plain http (tests).
  */
@@ -37,6 +42,7 @@ const webpack = require("webpack");
 const HtmlWebpackPlugin = require("html-webpack-plugin");
 const CopyWebpackPlugin = require("copy-webpack-plugin");
 const CustomFunctionsMetadataPlugin = require("custom-functions-metadata-plugin");
+const { hostedManifest, manifestVersion, parseBaseUrl } = require("./hosting");
 
 const ROOT = path.resolve(__dirname, "..");
 const DIST = path.join(ROOT, "dist");
@@ -198,8 +204,29 @@ function serverOption() {
   return "https";
 }
 
-module.exports = (_env = {}, argv = {}) => {
+/**
+ * The base URL of a hosted build, checked (addin/hosting.js parseBaseUrl), or null for the
+ * development manifest. From `env.baseUrl` (webpack's --env, or the tests' config call) or
+ * SHRINKWISE_BUILD_BASE_URL (set by addin/build.js); `allowHttpLoopback` likewise.
+ */
+function baseUrlOf(env) {
+  const given = env.baseUrl ?? process.env.SHRINKWISE_BUILD_BASE_URL;
+  if (given === undefined || given === "") return null;
+  const allowHttpLoopback = env.allowHttpLoopback === true || env.allowHttpLoopback === "true" || process.env.SHRINKWISE_BUILD_ALLOW_HTTP_LOOPBACK === "1";
+  return parseBaseUrl(given, { allowHttpLoopback });
+}
+
+/** manifest.xml's copy: as it is, or rewritten for `baseUrl` with package.json's version. */
+function manifestPattern(baseUrl) {
+  const pattern = { from: "manifest.xml", to: "manifest.xml", noErrorOnMissing: baseUrl === null };
+  if (baseUrl === null) return pattern;
+  const version = manifestVersion(JSON.parse(fs.readFileSync(path.join(ROOT, "package.json"), "utf8")).version);
+  return { ...pattern, transform: (content) => hostedManifest(content.toString(), baseUrl, version) };
+}
+
+module.exports = (env = {}, argv = {}) => {
   const production = (argv.mode || process.env.NODE_ENV) === "production";
+  const baseUrl = baseUrlOf(env || {});
   return {
     mode: production ? "production" : "development",
     context: ROOT,
@@ -260,7 +287,7 @@ module.exports = (_env = {}, argv = {}) => {
         patterns: [
           ...officeJsPatterns(),
           ...duckdbPatterns(),
-          { from: "manifest.xml", to: "manifest.xml", noErrorOnMissing: true },
+          manifestPattern(baseUrl),
           {
             from: "addin/assets",
             to: "assets/",
