@@ -128,4 +128,12 @@ const CSP_DIRECTIVES = [
 ];
 const CONTENT_SECURITY_POLICY = CSP_DIRECTIVES.join("; ");
 
-module.exports = { DEV_ORIGIN, BaseUrlError, parseBaseUrl, manifestVersion, hostedManifest, CONTENT_SECURITY_POLICY, CSP_DIRECTIVES };
+/**
+ * The development build's policy (webpack serve, `npm start`): the same plus 'unsafe-eval',
+ * which webpack-dev-server's client needs: it receives the overlay's error filter
+ * (client.overlay.runtimeErrors in addin/webpack.config.js) as source text and rebuilds it into
+ * a function in the page. Never in a production build (test/addin/build.test.ts).
+ */
+const DEV_CONTENT_SECURITY_POLICY = CONTENT_SECURITY_POLICY.replace("script-src 'self' 'wasm-unsafe-eval'", "script-src 'self' 'wasm-unsafe-eval' 'unsafe-eval'");
+
+module.exports = { DEV_ORIGIN, BaseUrlError, parseBaseUrl, manifestVersion, hostedManifest, CONTENT_SECURITY_POLICY, DEV_CONTENT_SECURITY_POLICY, CSP_DIRECTIVES };

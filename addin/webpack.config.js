@@ -29,6 +29,9 @@
  *     build-stamp.json       production builds only: when the build started (read by
  *                            addin/ensure-build.js, npm test's pretest)
  *
+ * Every page carries addin/hosting.js CONTENT_SECURITY_POLICY (a <meta> tag first in taskpane.html's
+ * <head>; see hosting.js for why each source is allowed).
+ *
  * `npm run build:addin` = `webpack --config addin/webpack.config.js --mode production`.
  * `npm run build` = addin/build.js: type check, then this build; `-- --base-url URL` makes the
  * build for a web server of one's own (env.baseUrl here, or SHRINKWISE_BUILD_BASE_URL set by
@@ -42,7 +45,7 @@ const webpack = require("webpack");
 const HtmlWebpackPlugin = require("html-webpack-plugin");
 const CopyWebpackPlugin = require("copy-webpack-plugin");
 const CustomFunctionsMetadataPlugin = require("custom-functions-metadata-plugin");
-const { hostedManifest, manifestVersion, parseBaseUrl } = require("./hosting");
+const { CONTENT_SECURITY_POLICY, DEV_CONTENT_SECURITY_POLICY, hostedManifest, manifestVersion, parseBaseUrl } = require("./hosting");
 
 const ROOT = path.resolve(__dirname, "..");
 const DIST = path.join(ROOT, "dist");
@@ -282,6 +285,11 @@ module.exports = (env = {}, argv = {}) => {
         template: "./taskpane/taskpane.html",
         chunks: ["functions", "taskpane"],
         chunksSortMode: "manual",
+        // The page's Content-Security-Policy, written by the template as the first tag after the
+        // charset (a <meta> policy governs only what comes after it). The development build adds
+        // 'unsafe-eval' for webpack-dev-server's client only (hosting.js DEV_CONTENT_SECURITY_POLICY);
+        // its source maps are separate files and its live-reload socket is on the page's origin.
+        csp: production ? CONTENT_SECURITY_POLICY : DEV_CONTENT_SECURITY_POLICY,
       }),
       new CopyWebpackPlugin({
         patterns: [

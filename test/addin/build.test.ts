@@ -28,10 +28,12 @@ import { sharedBuild } from "../helpers/sharedBuild";
 
 // eslint-disable-next-line @typescript-eslint/no-require-imports
 const hosting = require("../../addin/hosting.js") as {
+  CONTENT_SECURITY_POLICY: string;
   hostedManifest(text: string, base: string, version: string): string;
   manifestVersion(version: string): string;
 };
 
+const { CONTENT_SECURITY_POLICY } = hosting;
 let out: string;
 let base: string;
 let stats: webpack.StatsCompilation;
@@ -107,6 +109,19 @@ test("taskpane.html loads the functions bundle before the pane's (one shared run
   const officeAt = html.search(/<script[^>]+src=["']?office-js\/office\.js/);
   expect(officeAt).toBeGreaterThanOrEqual(0);
   expect(officeAt).toBeLessThan(functionsAt);
+});
+
+test("the page carries the add-in's Content-Security-Policy first in <head>, without 'unsafe-eval'", () => {
+  const html = file("taskpane.html");
+  // The page is minified: attribute quotes may be dropped; the policy itself holds spaces, so it stays quoted.
+  const meta = /<meta http-equiv=["']?Content-Security-Policy["']? content="([^"]*)"/i.exec(html);
+  expect(meta).not.toBeNull();
+  const policy = (meta as RegExpExecArray)[1].replace(/&#39;|&apos;/g, "'");
+  expect(policy).toBe(CONTENT_SECURITY_POLICY);
+  expect(policy).not.toMatch(/(^|[\s;])'unsafe-eval'/);
+  expect(policy).toMatch(/script-src 'self' 'wasm-unsafe-eval';/);
+  // Before every script and style it governs.
+  expect(html.indexOf("Content-Security-Policy")).toBeLessThan(html.search(/<script|<style/));
 });
 
 test("office.js, the Excel host files and locale strings are copied and marked minimized", () => {
