@@ -87,7 +87,7 @@ suite("the hosted build, served from /shrinkwise/ by a plain static server", () 
     // What the server saw: only paths under /shrinkwise/, and the parts that prove the pane ran
     // from there (office.js, both bundles, the worker, the chart chunk).
     expect(hosted.served.filter((path) => !path.startsWith("/shrinkwise/"))).toEqual([]);
-    for (const file of ["taskpane.html", "office-js/office.js", "functions.js", "taskpane.js", "fit.worker.js"]) {
+    for (const file of ["taskpane.html", "office-js/office.js", "functions.js", "taskpane.js", "fit.worker.js", "charts.js"]) {
       expect([file, hosted.served.includes(`/shrinkwise/${file}`)]).toEqual([file, true]);
     }
   }, 180_000);
