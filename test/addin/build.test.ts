@@ -13,7 +13,7 @@
  * (determinism: same request, same result).
  */
 import { ChildProcess, spawn } from "child_process";
-import { existsSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from "fs";
+import { existsSync, mkdtempSync, readFileSync, readdirSync, rmSync } from "fs";
 import { cpus, loadavg } from "os";
 import { createServer, Server } from "http";
 import { AddressInfo } from "net";
@@ -227,8 +227,8 @@ suiteGate("the built bundle in Chromium (test/addin/build.test.ts)", [chromiumNe
       target.push([2 * a - b + 0.1 * (i % 3)]);
     }
     const settings = [["folds=3"]];
-    writeFileSync(
-      join(out, "smoke.html"),
+    // Served from memory, not written into the shared build (test/addin/package.test.ts zips that folder).
+    const smokeHtml = (
       `<!doctype html><html><head><title>smoke</title>
 <script>window.CustomFunctions = { associate: function (id, fn) { (window.F = window.F || {})[id] = fn; } };</script>
 <script src="functions.js"></script></head><body><script>
@@ -237,7 +237,7 @@ F.COEFS(${JSON.stringify(target)}, ${JSON.stringify(predictors)}, null, ${JSON.s
   var shared = window.__shrinkwiseSharedRunner;
   report(JSON.stringify({ result: r, worker: shared.inner.stats(), cache: shared.stats() }));
 }, function (e) { report(JSON.stringify({ error: String(e && e.code) + " " + String(e && e.message) })); });
-</script></body></html>`,
+</script></body></html>`
     );
     let server: Server | null = null;
     let browser: ChildProcess | null = null;
@@ -252,6 +252,11 @@ F.COEFS(${JSON.stringify(target)}, ${JSON.stringify(predictors)}, null, ${JSON.s
               response.end("ok");
               resolve(body);
             });
+            return;
+          }
+          if (request.url === "/smoke.html") {
+            response.setHeader("Content-Type", "text/html");
+            response.end(smokeHtml);
             return;
           }
           const path = normalize(join(out, decodeURIComponent((request.url ?? "/").split("?")[0])));
