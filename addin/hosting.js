@@ -98,7 +98,9 @@ function hostedManifest(devText, baseUrl, version) {
  * - style-src 'self' 'unsafe-inline': the page's own <style> block (the build has no CSS
  *   loader), the style attributes echarts writes into its SVG and on its chart boxes, and
  *   office.js's Excel host file, which inserts inline styles when it starts (office-js issue
- *   #1687, "'unsafe-inline' required ... to load excel-web-16.00.js"). Styles cannot run code.
+ *   #1687, "'unsafe-inline' required ... to load excel-web-16.00.js"). Tried: with only a hash of
+ *   the <style> block, Chromium still refuses inline style attributes in the preview before a fit
+ *   and in the charts after it. Styles cannot run code.
  * - worker-src 'self': the fit worker, its task workers and DuckDB's worker, all files of dist/.
  *   A worker started from a blob: URL would be refused.
  * - connect-src 'self': the only fetches are DuckDB's .wasm file from dist/duckdb/ (and the user's
