@@ -15,13 +15,19 @@
  *   server never hears of it.
  * - The pane fits, and its charts (the on-demand chart chunk) are drawn, under the policy, with no
  *   violation reported.
+ * - "Fit from a file" on a CSV: DuckDB's worker and WebAssembly come from /shrinkwise/duckdb/,
+ *   under the same policy.
  */
+import { mkdtempSync, rmSync, writeFileSync } from "fs";
+import { tmpdir } from "os";
+import { join } from "path";
 import type { Browser, BrowserContext, Page } from "playwright-core";
 import { createServer, Server } from "http";
 import { AddressInfo } from "net";
 import { chromiumNeed, suiteGate } from "../helpers/requirements";
 import { sharedBuild } from "../helpers/sharedBuild";
 import { launchBrowser } from "../browser/harness";
+import { roastCsv, roastLog } from "../browser/roastLog";
 
 // eslint-disable-next-line @typescript-eslint/no-require-imports
 const { startHostedServer } = require("../../addin/hosted.js") as {
@@ -122,4 +128,30 @@ suite("the hosted build, served from /shrinkwise/ by a plain static server", () 
       await new Promise<void>((resolve) => other.close(() => resolve()));
     }
   }, 60_000);
+
+  test("a CSV file fitted by DuckDB in the page: its worker and WebAssembly come from /shrinkwise/duckdb/", async () => {
+    const folder = mkdtempSync(join(tmpdir(), "shrinkwise-hosted-file-"));
+    // Counted from here: the test before reported its deliberate violation.
+    const [violationsBefore, requestsBefore] = [violations.length, requests.length];
+    try {
+      const csv = join(folder, "roast-log.csv");
+      writeFileSync(csv, roastCsv(roastLog(200, 5150)));
+      await page.getByTestId("source-file").check();
+      await page.getByTestId("file-input").waitFor({ state: "visible" });
+      await page.getByTestId("file-input").setInputFiles(csv);
+      await page.waitForFunction(() => / columns \(/.test(document.querySelector('[data-testid="file-status"]')?.textContent ?? ""), undefined, { timeout: 90_000 });
+      await page.getByTestId("sums-fit-button").click();
+      await page.waitForFunction(() => /^Fitted|could not/.test(document.querySelector('[data-testid="sums-status"]')?.textContent ?? ""), undefined, { timeout: 150_000 });
+      expect(await page.getByTestId("sums-status").textContent()).toMatch(/^Fitted from sums/);
+      expect(await page.getByTestId("sums-chosen-source").textContent()).toMatch(/DuckDB/);
+      expect(hosted.served.some((path) => /^\/shrinkwise\/duckdb\/duckdb-(eh|mvp)\.wasm$/.test(path))).toBe(true);
+      expect(hosted.served.some((path) => /^\/shrinkwise\/duckdb\/duckdb-browser-(eh|mvp)\.worker\.js$/.test(path))).toBe(true);
+      expect(hosted.served.filter((path) => !path.startsWith("/shrinkwise/"))).toEqual([]);
+      expect(requests.slice(requestsBefore).filter((url) => !url.startsWith(hosted.base) && !/^(data|blob|about):/.test(url))).toEqual([]);
+      expect(violations.slice(violationsBefore)).toEqual([]);
+      expect(problems).toEqual([]);
+    } finally {
+      rmSync(folder, { recursive: true, force: true });
+    }
+  }, 240_000);
 });
