@@ -12,6 +12,8 @@
  *     fit.worker.js          the Web Worker running the engine (functions/fit.worker.ts)
  *     task.worker.js         the fit worker's task workers: folds and mixes in parallel
  *                            (functions/task.worker.ts, functions/taskPool.ts)
+ *     charts.js              chunk loaded on demand when the first chart is drawn: echarts and
+ *                            taskpane/charts (taskpane/charts/chartLibrary.ts)
  *     duckdb-session.js      chunk loaded on demand by the pane's "Fit from a file"
  *                            (taskpane/sources/duckdbSession.ts + the duckdb-wasm package)
  *     duckdb/                DuckDB's WebAssembly modules and their worker scripts (eh and mvp
@@ -19,7 +21,9 @@
  *                            own origin, fetched only when a file is fitted
  *     functions.json         cell-function metadata generated from functions.ts's JSDoc, then
  *                            post-processed (allowErrorForDataTypeAny, see below)
- *     manifest.xml           the XML manifest (localhost URLs), copied from the project root
+ *     manifest.xml           the XML manifest: copied from the project root (dev-server URLs), or
+ *                            with a base URL (addin/build.js --base-url) rewritten under that base
+ *                            with <Version> from package.json (addin/hosting.js hostedManifest)
  *     assets/                icons, copied from addin/assets
  *     office-js/             office.js loader + Excel host files + locale strings, copied from
  *                            @microsoft/office-js (served locally: these machines are offline)
@@ -27,7 +31,13 @@
  *     build-stamp.json       production builds only: when the build started (read by
  *                            addin/ensure-build.js, npm test's pretest)
  *
+ * Every page carries addin/hosting.js CONTENT_SECURITY_POLICY (a <meta> tag first in taskpane.html's
+ * <head>; see hosting.js for why each source is allowed).
+ *
  * `npm run build:addin` = `webpack --config addin/webpack.config.js --mode production`.
+ * `npm run build` = addin/build.js: type check, then this build; `-- --base-url URL` makes the
+ * build for a web server of one's own (env.baseUrl here, or SHRINKWISE_BUILD_BASE_URL set by
+ * build.js).
  * `webpack serve --config addin/webpack.config.js` serves https://localhost:3000 with the
  * certificate in .certs/ (made by addin/start.js); `--server-type http` serves plain http (tests).
  */
@@ -39,6 +49,7 @@ const CopyWebpackPlugin = require("copy-webpack-plugin");
 const CustomFunctionsMetadataPlugin = require("custom-functions-metadata-plugin");
 // The user guide, docs/guide.md → dist/guide/index.html with its pictures (addin/guidePage.js).
 const { GuidePagePlugin } = require("./guidePage");
+const { CONTENT_SECURITY_POLICY, DEV_CONTENT_SECURITY_POLICY, hostedManifest, manifestVersion, parseBaseUrl } = require("./hosting");
 
 const ROOT = path.resolve(__dirname, "..");
 const DIST = path.join(ROOT, "dist");
@@ -200,8 +211,29 @@ function serverOption() {
   return "https";
 }
 
-module.exports = (_env = {}, argv = {}) => {
+/**
+ * The base URL of a hosted build, checked (addin/hosting.js parseBaseUrl), or null for the
+ * development manifest. From `env.baseUrl` (webpack's --env, or the tests' config call) or
+ * SHRINKWISE_BUILD_BASE_URL (set by addin/build.js); `allowHttpLoopback` likewise.
+ */
+function baseUrlOf(env) {
+  const given = env.baseUrl ?? process.env.SHRINKWISE_BUILD_BASE_URL;
+  if (given === undefined || given === "") return null;
+  const allowHttpLoopback = env.allowHttpLoopback === true || env.allowHttpLoopback === "true" || process.env.SHRINKWISE_BUILD_ALLOW_HTTP_LOOPBACK === "1";
+  return parseBaseUrl(given, { allowHttpLoopback });
+}
+
+/** manifest.xml's copy: as it is, or rewritten for `baseUrl` with package.json's version. */
+function manifestPattern(baseUrl) {
+  const pattern = { from: "manifest.xml", to: "manifest.xml", noErrorOnMissing: baseUrl === null };
+  if (baseUrl === null) return pattern;
+  const version = manifestVersion(JSON.parse(fs.readFileSync(path.join(ROOT, "package.json"), "utf8")).version);
+  return { ...pattern, transform: (content) => hostedManifest(content.toString(), baseUrl, version) };
+}
+
+module.exports = (env = {}, argv = {}) => {
   const production = (argv.mode || process.env.NODE_ENV) === "production";
+  const baseUrl = baseUrlOf(env || {});
   return {
     mode: production ? "production" : "development",
     context: ROOT,
@@ -242,9 +274,10 @@ module.exports = (_env = {}, argv = {}) => {
     devtool: "source-map",
     performance: {
       hints: production ? "warning" : false,
-      // Only our own bundles count; the copied Office and DuckDB files are large by nature, and
-      // the DuckDB chunk is fetched only when a file is fitted.
-      assetFilter: (file) => /\.js$/.test(file) && !file.startsWith("office-js/") && !file.startsWith("duckdb/") && file !== "duckdb-session.js",
+      // Only our own bundles count; the copied Office and DuckDB files are large by nature, the
+      // DuckDB chunk is fetched only when a file is fitted, and the chart chunk (echarts) only
+      // when the first chart is drawn: the advisory is about what the page loads to start.
+      assetFilter: (file) => /\.js$/.test(file) && !file.startsWith("office-js/") && !file.startsWith("duckdb/") && file !== "duckdb-session.js" && file !== "charts.js",
       maxAssetSize: 600 * 1024,
       maxEntrypointSize: 800 * 1024,
     },
@@ -258,12 +291,17 @@ module.exports = (_env = {}, argv = {}) => {
         template: "./taskpane/taskpane.html",
         chunks: ["functions", "taskpane"],
         chunksSortMode: "manual",
+        // The page's Content-Security-Policy, written by the template as the first tag after the
+        // charset (a <meta> policy governs only what comes after it). The development build adds
+        // 'unsafe-eval' for webpack-dev-server's client only (hosting.js DEV_CONTENT_SECURITY_POLICY);
+        // its source maps are separate files and its live-reload socket is on the page's origin.
+        csp: production ? CONTENT_SECURITY_POLICY : DEV_CONTENT_SECURITY_POLICY,
       }),
       new CopyWebpackPlugin({
         patterns: [
           ...officeJsPatterns(),
           ...duckdbPatterns(),
-          { from: "manifest.xml", to: "manifest.xml", noErrorOnMissing: true },
+          manifestPattern(baseUrl),
           {
             from: "addin/assets",
             to: "assets/",

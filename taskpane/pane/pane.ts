@@ -78,8 +78,10 @@ import { prepare } from "../../functions/api";
 import { sharedRunner } from "../../functions/functions";
 import { cancelSource, type FitRunner } from "../../functions/runner";
 import { formatAddress, parseAddress } from "../host/address";
-import { CV_AXES, CV_AXIS_NAMES, DEFAULT_CV_AXIS, mountChart, type ChartHandle, type CvAxis } from "../charts/charts";
-import { describeAssuranceChart, mountAssuranceChart, type AssuranceChartHandle, type AssuranceKind, type AssuranceView } from "../charts/assuranceCharts";
+import type { ChartHandle } from "../charts/charts";
+import type { AssuranceChartHandle, AssuranceKind, AssuranceView } from "../charts/assuranceCharts";
+import { CV_AXES, CV_AXIS_NAMES, DEFAULT_CV_AXIS, type CvAxis } from "../charts/chartNames";
+import { chartLibraryNow, loadChartLibrary, type ChartLibrary } from "../charts/chartLibrary";
 import { heldOutPoints, type HeldOutPoints } from "../charts/assuranceData";
 import {
   filledLines,
@@ -874,7 +876,34 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
     tableHolder.replaceChildren(renderCoefficientTable(r, caption));
   }
 
+  /**
+   * The chart library, or null while its chunk loads (charts.ts is loaded on first use,
+   * chartLibrary.ts): then the captions say so and the outcome's charts are drawn when it
+   * arrives, if that outcome is still the one shown. fit() starts the load with the fit, so
+   * this is rare.
+   */
+  function chartsOrLater(outcome: FitOutcome): ChartLibrary | null {
+    const library = chartLibraryNow();
+    if (library) return library;
+    const captions = [...CHARTS.map((c) => charts[c.kind]?.caption), ...ASSURANCE_CHARTS.map((c) => sureCharts[c.kind]?.caption)];
+    for (const caption of captions) if (caption) caption.textContent = "Loading the charts…";
+    loadChartLibrary().then(
+      () => {
+        if (!disposed && renderedOutcome === outcome) {
+          renderCharts(outcome.result, outcome.result.predictorSpreads.map((spread) => (spread > 0 ? spread : null)));
+          renderAssurance(outcome);
+        }
+      },
+      (error: unknown) => {
+        for (const caption of captions) if (caption) caption.textContent = `The charts could not be loaded from the add-in's server: ${messageOf(error)}`;
+      },
+    );
+    return null;
+  }
+
   function renderCharts(result: FitResult, spreads: (number | null)[]): void {
+    const library = renderedOutcome ? chartsOrLater(renderedOutcome) : chartLibraryNow();
+    if (!library) return;
     for (const chart of CHARTS) {
       const slot = charts[chart.kind];
       if (!slot) continue;
@@ -891,7 +920,7 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
       }
       try {
         if (slot.handle) slot.handle.update(result, spreads);
-        else slot.handle = mountChart(slot.box, chart.kind, result, { theme: host.theme(), spreads, cvAxis });
+        else slot.handle = library.mountChart(slot.box, chart.kind, result, { theme: host.theme(), spreads, cvAxis });
         slot.caption.textContent = slot.handle.describe();
       } catch (error) {
         slot.caption.textContent = `The chart could not be drawn: ${messageOf(error)}`;
@@ -917,6 +946,8 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
   }
 
   function renderAssurance(outcome: FitOutcome): void {
+    const library = chartLibraryNow();
+    if (!library) return; // renderCharts has asked for it and draws both when it arrives
     const result = outcome.result;
     const { points, problem } = heldOutOf(outcome);
     const view: AssuranceView = { result, heldOut: points };
@@ -944,10 +975,10 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
       }
       try {
         if (slot.handle) slot.handle.update(view);
-        else slot.handle = mountAssuranceChart(slot.box, chart.kind, view, host.theme());
+        else slot.handle = library.mountAssuranceChart(slot.box, chart.kind, view, host.theme());
         slot.caption.textContent = slot.handle.describe();
       } catch (error) {
-        slot.caption.textContent = `The chart could not be drawn: ${messageOf(error)} (${describeAssuranceChart(chart.kind, view)})`;
+        slot.caption.textContent = `The chart could not be drawn: ${messageOf(error)} (${library.describeAssuranceChart(chart.kind, view)})`;
       }
     }
   }
@@ -973,6 +1004,8 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
     };
     const used = copyInputs(inputs);
     dispatch({ type: "start", run: myRun });
+    // The results will want the charts: fetch their chunk while the fit runs (chartLibrary.ts).
+    const chartsReady = loadChartLibrary().catch(() => null);
     const started = performance.now();
     // Watch the ranges from now on: a change during the fit already makes its result stale.
     unwatch?.();
@@ -995,6 +1028,10 @@ export async function mountPane(root: HTMLElement, host: SheetHost, options: Pan
       const prepared = prepare(target, predictors, mixesText(used) || null, settingsText(used) || null);
       const result = await runner.fit(prepared.request, source.token, (p) => dispatch({ type: "progress", run: myRun, done: p.done, total: p.total }));
       const outcome: FitOutcome = { result, prepared, inputs: used, values: { target, predictors, newRows }, elapsedMs: performance.now() - started };
+      // Results and charts together ("Fitted" means drawn); a chunk that fails to load leaves a
+      // caption saying so (renderCharts) and the results without charts.
+      await chartsReady;
+      if (source.token.cancelled) throw new CancelledError();
       dispatch({ type: "succeeded", run: myRun, outcome });
       return state.phase === "done" && state.outcome === outcome ? outcome : null;
     } catch (error) {

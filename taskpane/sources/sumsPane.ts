@@ -37,7 +37,8 @@
 import type { FitResult } from "../../engine/fit";
 import type { SumsTable } from "../../engine/sumsTable";
 import { errorWithSe, MIX_LABEL, RULE_WORDS } from "../../engine/words";
-import { mountChart, type ChartHandle } from "../charts/charts";
+import type { ChartHandle } from "../charts/charts";
+import { chartLibraryNow, loadChartLibrary } from "../charts/chartLibrary";
 import type { CellValue, SheetHost } from "../host/sheetHost";
 import { formatNumber, IDLE, measureSummary, progressText, reduceFit, shownOutcome, type FitEvent, type FitState } from "../pane/paneState";
 import { renderRangePicker } from "../pane/rangePickers";
@@ -647,6 +648,9 @@ export function mountSumsPane(options: SumsPaneOptions): SumsPaneHandle {
     notes.replaceChildren(...noteTexts.map((text) => el("li", { text })));
     notes.hidden = noteTexts.length === 0;
     const spreads = r.predictorSpreads.map((s) => (s > 0 ? s : null));
+    // The chart chunk loads on first use (chartLibrary.ts); fit() waits for it, so it is here
+    // unless its load failed.
+    const library = chartLibraryNow();
     for (const chart of charts) {
       const unavailable = chart.kind === "cv" && !r.cv;
       chart.box.hidden = unavailable;
@@ -655,8 +659,9 @@ export function mountSumsPane(options: SumsPaneOptions): SumsPaneHandle {
         continue;
       }
       try {
+        if (!library) throw new Error("the chart library did not load from the add-in's server");
         if (chart.handle) chart.handle.update(r, spreads);
-        else chart.handle = mountChart(chart.box, chart.kind, r, { theme, spreads });
+        else chart.handle = library.mountChart(chart.box, chart.kind, r, { theme, spreads });
         chart.caption.textContent = chart.handle.describe();
       } catch (error) {
         chart.caption.textContent = `The chart could not be drawn: ${messageOf(error)}`;
@@ -718,6 +723,8 @@ export function mountSumsPane(options: SumsPaneOptions): SumsPaneHandle {
     stage = kind === "file" ? "Computing the sums in this browser…" : "Reading the sums table…";
     dispatch({ type: "start", run: myRun });
     const started = performance.now();
+    // The results will want the charts: fetch their chunk while the sums are computed.
+    const chartsReady = loadChartLibrary().catch(() => null);
     try {
       let sums: SumsTable;
       let source: string;
@@ -742,6 +749,8 @@ export function mountSumsPane(options: SumsPaneOptions): SumsPaneHandle {
       dispatch({ type: "progress", run: myRun, done: 0, total: 0 });
       const result = await routes.fitFromSums(sums, settings, (done, total) => dispatch({ type: "progress", run: myRun, done, total }), signal);
       const outcome: SumsOutcome = { result, sums, source, elapsedMs: performance.now() - started };
+      await chartsReady;
+      if (flag.aborted) return null;
       dispatch({ type: "succeeded", run: myRun, outcome });
       return state.phase === "done" && state.outcome === outcome ? outcome : null;
     } catch (error) {

@@ -17,7 +17,7 @@
  * text contrast of at least 4.5:1.
  */
 import { cellName, columnLetters, formatAddress, MAX_COLUMNS, MAX_ROWS, parseAddress, RangeAddress, rangeOf } from "../host/address";
-import { mountSeriesChart } from "../charts/charts";
+import { loadChartLibrary } from "../charts/chartLibrary";
 import type { StandInCell, StandInChart, StandInSheet, StandInSheetHost } from "./standInSheetHost";
 
 /** Grid size drawn: at least this, and a margin past the used cells and the selection. */
@@ -611,6 +611,10 @@ function chartFigure(doc: Document, sheet: StandInSheet, chart: StandInChart, id
   holder.setAttribute("role", "img");
   holder.setAttribute("aria-labelledby", caption.id);
   figure.append(holder);
-  mountSeriesChart(holder, { title: chart.title, xTitle: chart.xTitle, yTitle: chart.yTitle, logX: chart.logX, series }, theme);
+  // The chart chunk loads on first use (chartLibrary.ts): the figure is placed now, drawn when it arrives.
+  loadChartLibrary().then(
+    (library) => library.mountSeriesChart(holder, { title: chart.title, xTitle: chart.xTitle, yTitle: chart.yTitle, logX: chart.logX, series }, theme),
+    (error: unknown) => holder.replaceChildren(element(doc, "p", "muted", `The chart could not be loaded from the add-in's server: ${String(error instanceof Error ? error.message : error)}`)),
+  );
   return figure;
 }

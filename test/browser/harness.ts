@@ -99,11 +99,11 @@ export interface AxeViolation {
 }
 
 /**
- * Runs axe-core in the page; returns the serious and critical violations. With `origin` (the
- * page's, served under a content security policy that refuses inline scripts) axe is loaded as a
- * script of that origin, answered by the test itself.
+ * Runs axe-core in the page; returns the serious and critical violations. The built page's
+ * content security policy refuses inline scripts (addin/hosting.js), so axe is loaded as a script
+ * of the page's own origin (`origin`, by default the page's), answered by the test itself.
  */
-export async function scanAccessibility(page: Page, origin?: string): Promise<AxeViolation[]> {
+export async function scanAccessibility(page: Page, origin: string | undefined = /^https?:/.test(page.url()) ? new URL(page.url()).origin : undefined): Promise<AxeViolation[]> {
   if (origin) {
     const url = `${origin}/__test-only__/axe.min.js`;
     await page.route(url, (route) => route.fulfill({ path: require.resolve("axe-core/axe.min.js"), contentType: "text/javascript" }));

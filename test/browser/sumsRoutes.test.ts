@@ -29,9 +29,13 @@ import { designOf, roastCsv, roastLog } from "./roastLog";
 
 const suite = browserGate("the pane's fits from sums in Chromium (test/browser/sumsRoutes.test.ts)").describe;
 
-/** A strict policy: no eval anywhere (page or workers), requests to our own origin only. */
-export const STRICT_CSP =
-  "default-src 'self'; script-src 'self' 'wasm-unsafe-eval'; worker-src 'self'; connect-src 'self'; style-src 'self' 'unsafe-inline'; img-src 'self' data: blob:; frame-src 'self' about:; object-src 'none'";
+/**
+ * The add-in's own policy (addin/hosting.js, the built page's <meta> tag and addin/hosted.js's
+ * header): no eval anywhere (page or workers), requests to our own origin only. Sent as a header
+ * here too, since DuckDB's worker takes its policy from its own response.
+ */
+// eslint-disable-next-line @typescript-eslint/no-require-imports
+export const STRICT_CSP = (require("../../addin/hosting.js") as { CONTENT_SECURITY_POLICY: string }).CONTENT_SECURITY_POLICY;
 
 interface Shown {
   terms: string[];
