@@ -383,7 +383,21 @@ export const MAX_GRAM_PREDICTORS = 2000;
  * and an extreme value there can't overflow one. Bounds are moved to the working units too.
  */
 export interface Prepared {
+  /**
+   * The working copy of the predictors. When `inPlace` is set this is a deferred copy: its
+   * `data` is made (the same values) only if a step other than the O(n·p) passes below asks for
+   * it; `rows` and `columns` cost nothing.
+   */
   x: ColumnMatrix;
+  /**
+   * Set when the fit reads the caller's predictors in place (every row has positive weight, so
+   * the working copy is exactly source × 2^xExponent[j] per column, with no rows zeroed): the
+   * Gram pass, the shifts, row-form problems, held-out rows and predictions read `source` and
+   * form each value × factors[j] as they read it, the very product the copy would hold, so the
+   * results are the same bit for bit and the copy's n·p doubles are never allocated. Null: read
+   * `x` (weights with zeros, fits from sums, setReadInPlace(false)).
+   */
+  inPlace: { source: ColumnMatrix; factors: Float64Array } | null;
   y: Float64Array;
   weights: Float64Array | null;
   /** The data as given (for the in-sample score). */
@@ -436,7 +450,7 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
   const gram = !twoClass && covarianceForm;
   // Checkpoints between the O(n·p) passes over the input (checks, working copy).
   throwIfCancelled(options.signal);
-  const work = workingCopy(x, y, weights, !twoClass);
+  const work = workingCopy(x, y, weights, !twoClass, readInPlace);
   throwIfCancelled(options.signal);
   // Constant target (the rule problem.ts applies to columns): nothing to predict.
   const omega = new Float64Array(n);
@@ -459,6 +473,7 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
   const { workLower, workUpper } = workingBounds(lower, upper, work.xExponent, work.yExponent);
   return {
     x: work.x,
+    inPlace: work.inPlace,
     y: work.y,
     weights: work.weights,
     original: { x, y, weights },
@@ -629,17 +644,49 @@ function checkClasses(y: Float64Array, weights: Float64Array | null): void {
 }
 
 /**
+ * Whether fits read the caller's predictors in place when they can (Prepared.inPlace). On by
+ * default; off makes every fit copy them as before, for A/B measurements (bench/run.ts
+ * --copy-data). Either way the results are the same bit for bit.
+ */
+let readInPlace = true;
+
+/** Turns reading the predictors in place on or off (see readInPlace); returns the previous setting. */
+export function setReadInPlace(on: boolean): boolean {
+  const was = readInPlace;
+  readInPlace = on;
+  return was;
+}
+
+/**
+ * The predictors as the O(n·p) passes read them: the caller's data with each column's power of
+ * two (Prepared.inPlace), or the working copy with factors null.
+ */
+function readX(data: Prepared): { x: ColumnMatrix; factors: Float64Array | null } {
+  return data.inPlace ? { x: data.inPlace.source, factors: data.inPlace.factors } : { x: data.x, factors: null };
+}
+
+/**
  * The working copy (see Prepared): each column, the target and the weights scaled by the power
  * of two that brings its largest magnitude on rows with positive weight into [0.5, 1); rows with
  * weight 0 stored as 0. Exact (powers of two), so the standardized problems built from it are
  * the ones the unscaled data would give, without overflow or underflow. Cost O(n·p).
+ * With `inPlace` and every weight positive the predictors are not copied: x is a deferred copy
+ * and `inPlace` holds the data and the powers of two (see Prepared.inPlace).
  */
 function workingCopy(
   x: ColumnMatrix,
   y: Float64Array,
   weights: Float64Array | null,
   scaleTarget: boolean,
-): { x: ColumnMatrix; y: Float64Array; weights: Float64Array | null; xExponent: Int32Array; yExponent: number } {
+  inPlace: boolean,
+): {
+  x: ColumnMatrix;
+  inPlace: Prepared["inPlace"];
+  y: Float64Array;
+  weights: Float64Array | null;
+  xExponent: Int32Array;
+  yExponent: number;
+} {
   const n = x.rows;
   const p = x.columns;
   let workWeights: Float64Array | null = null;
@@ -677,13 +724,36 @@ function workingCopy(
   const workY = new Float64Array(n);
   copyScaled(y, 0, yFactor, workY);
   const xExponent = new Int32Array(p);
+  let allPositive = true;
+  if (weights) for (let i = 0; i < n && allPositive; i++) allPositive = weights[i] > 0;
+  if (inPlace && allPositive) {
+    // No row is zeroed, so the copy would be exactly x_ij × 2^xExponent[j]: formed where read.
+    const factors = new Float64Array(p);
+    for (let j = 0; j < p; j++) {
+      xExponent[j] = unitExponent(largestOf(x.data, j * n));
+      factors[j] = powerOfTwo(xExponent[j]);
+    }
+    let copy: Float64Array | null = null;
+    const deferred: ColumnMatrix = {
+      rows: n,
+      columns: p,
+      get data(): Float64Array {
+        if (!copy) {
+          copy = new Float64Array(n * p);
+          for (let j = 0; j < p; j++) copyScaled(x.data, j * n, factors[j], copy);
+        }
+        return copy;
+      },
+    };
+    return { x: deferred, inPlace: { source: x, factors }, y: workY, weights: workWeights, xExponent, yExponent };
+  }
   const data = new Float64Array(n * p);
   for (let j = 0; j < p; j++) {
     const off = j * n;
     xExponent[j] = unitExponent(largestOf(x.data, off));
     copyScaled(x.data, off, powerOfTwo(xExponent[j]), data);
   }
-  return { x: { rows: n, columns: p, data }, y: workY, weights: workWeights, xExponent, yExponent };
+  return { x: { rows: n, columns: p, data }, inPlace: null, y: workY, weights: workWeights, xExponent, yExponent };
 }
 
 /** Penalty for one problem: bounds moved to its standardized units (b̃ = b × scale / s_y). */
@@ -759,7 +829,8 @@ export interface Problems {
  * the values nearest the weighted means), so every shifted value is exact; 0 without an intercept.
  */
 function fullShift(data: Prepared): { shiftX: Float64Array; shiftY: number } {
-  const { x, y, weights } = data;
+  const { y, weights } = data;
+  const { x, factors } = readX(data);
   const n = x.rows;
   const shiftX = new Float64Array(x.columns);
   if (!data.intercept) return { shiftX, shiftY: 0 };
@@ -769,36 +840,37 @@ function fullShift(data: Prepared): { shiftX: Float64Array; shiftY: number } {
   for (let i = 0; i < n; i++) omega[i] = (weights ? weights[i] : 1) / total;
   // Only the anchors (a value near each centre) are used: stableAnchor skips the two passes of
   // stableCentre's offset; the same anchors (0 when no weight is positive, as stableCentre gives).
-  const anchorOf = (values: Float64Array): number => {
-    const anchor = stableAnchor(values, omega, n);
+  const anchorOf = (values: Float64Array, factor: number): number => {
+    const anchor = stableAnchor(values, omega, n, factor);
     return Number.isNaN(anchor) ? 0 : anchor;
   };
-  const shiftY = anchorOf(y);
-  for (let j = 0; j < x.columns; j++) shiftX[j] = anchorOf(x.data.subarray(j * n, (j + 1) * n));
+  const shiftY = anchorOf(y, 1);
+  for (let j = 0; j < x.columns; j++) shiftX[j] = anchorOf(x.data.subarray(j * n, (j + 1) * n), factors ? factors[j] : 1);
   return { shiftX, shiftY };
 }
 
 function buildProblems(data: Prepared, plan: FoldPlan | null): Problems {
-  const { x, y, weights } = data;
+  const { y, weights } = data;
+  const { x, factors } = readX(data);
   const signal = data.settings.signal;
   const columnUnits = Float64Array.from(data.xExponent, (e) => powerOfTwo(e));
   const options = { intercept: data.intercept, standardize: data.standardize, columnUnits };
   const { shiftX, shiftY } = fullShift(data);
   if (!data.gram || data.outcome === "two-class") {
-    const full = problemFromRows(x, y, weights, null, options, signal);
+    const full = problemFromRows(x, y, weights, null, options, signal, factors);
     const built: (TrainingProblem | null)[] = plan ? new Array(plan.trainBlocks.length).fill(null) : [];
     const fold = (f: number): TrainingProblem =>
-      (built[f] ??= problemFromRows(x, y, weights, rowsOfBlocks(plan as FoldPlan, (plan as FoldPlan).trainBlocks[f]), options, signal));
+      (built[f] ??= problemFromRows(x, y, weights, rowsOfBlocks(plan as FoldPlan, (plan as FoldPlan).trainBlocks[f]), options, signal, factors));
     return { full, fold, heldOutSums: null, shiftX, shiftY };
   }
   if (!plan) {
     const all = new Int32Array(x.rows);
     for (let i = 0; i < x.rows; i++) all[i] = i;
-    const sums = blockSums(x, y, weights, all, shiftX, shiftY, signal);
+    const sums = blockSums(x, y, weights, all, shiftX, shiftY, signal, factors);
     return { full: problemFromSums(sums, shiftX, shiftY, options), fold: noFolds, heldOutSums: null, shiftX, shiftY };
   }
   // One pass: every block's sums, then the problems from them.
-  const sums = blockSumsOf(x, y, weights, plan.blocks, shiftX, shiftY, signal);
+  const sums = blockSumsOf(x, y, weights, plan.blocks, shiftX, shiftY, signal, factors);
   return problemsFromBlockSums(sums, plan, shiftX, shiftY, options);
 }
 
@@ -918,7 +990,9 @@ interface HeldOut {
 }
 
 function gatherHeldOut(data: Prepared, rows: Int32Array): HeldOut {
-  const x = selectRows(data.x, rows);
+  const source = readX(data);
+  // In place: each value × its column's power of two, as the working copy holds it.
+  const x = source.factors ? selectScaledRows(source.x, rows, source.factors) : selectRows(source.x, rows);
   const y = new Float64Array(rows.length);
   const w = new Float64Array(rows.length);
   let totalWeight = 0;
@@ -928,6 +1002,19 @@ function gatherHeldOut(data: Prepared, rows: Int32Array): HeldOut {
     totalWeight += w[t];
   }
   return { x, y, w, totalWeight };
+}
+
+/** selectRows of x_j × factors[j] (the working copy's values, read in place). */
+function selectScaledRows(matrix: ColumnMatrix, keep: Int32Array, factors: Float64Array): ColumnMatrix {
+  const m = keep.length;
+  const out = new Float64Array(m * matrix.columns);
+  for (let j = 0; j < matrix.columns; j++) {
+    const src = j * matrix.rows;
+    const dst = j * m;
+    const factor = factors[j];
+    for (let t = 0; t < m; t++) out[dst + t] = matrix.data[src + keep[t]] * factor;
+  }
+  return { rows: m, columns: matrix.columns, data: out };
 }
 
 /** Weighted mean held-out error of each point of a fold's path. */
@@ -1386,7 +1473,7 @@ function taskInput(context: TaskContext, options: FitOptions): FitTaskInput {
     const noRows: ColumnMatrix = { rows: n, columns: p, data: none };
     const deals = Array.from({ length: context.repeats }, (_, d) => context.deals(d));
     const snapshot: TaskSnapshot = {
-      data: { ...data, x: noRows, y: none, original: { x: noRows, y: none, weights: null }, settings: { ...data.settings, signal: undefined } },
+      data: { ...data, x: noRows, inPlace: null, y: none, original: { x: noRows, y: none, weights: null }, settings: { ...data.settings, signal: undefined } },
       plans: deals.map((deal) => deal.plan),
       problems: deals.map(({ problems }) => ({
         full: problems.full,
@@ -1855,7 +1942,9 @@ function heldOutModels(
   // −0 sum could become +0, the same number). Per column, the folds' (b, anchor, offset) sit
   // side by side in `terms` (3 values per fold, the spare slot K all zeros); a column that no
   // fold's model uses is skipped.
-  const values = data.x.data;
+  // In place: x_ij × factors[j] formed per value (the working copy's value; × 1 is exact).
+  const { x: read, factors } = readX(data);
+  const values = read.data;
   const terms = new Float64Array(3 * (K + 1));
   for (let j = 0; j < p; j++) {
     throwIfCancelled(signal);
@@ -1869,9 +1958,10 @@ function heldOutModels(
     }
     if (!used) continue;
     const off = j * n;
+    const factor = factors ? factors[j] : 1;
     for (let i = 0; i < n; i++) {
       const t = 3 * foldOf[i];
-      prediction[i] += terms[t] * (values[off + i] - terms[t + 1] - terms[t + 2]);
+      prediction[i] += terms[t] * (values[off + i] * factor - terms[t + 1] - terms[t + 2]);
     }
   }
   const row: number[] = [];
@@ -2980,7 +3070,8 @@ function stabilityTerms(data: Prepared, full: TrainingProblem, options: FitOptio
  * runLogisticPath do for a fold (never stopping early), one strength per call.
  */
 function stabilityInput(data: Prepared, full: TrainingProblem, options: FitOptions, mix: number, run: PathRun, onHalf: () => void): StabilityInput {
-  const { x, y, weights } = data;
+  const { y, weights } = data;
+  const { x, factors } = readX(data);
   const signal = data.settings.signal;
   const strengths = run.strengths;
   const { candidate, unpenalized, settings } = stabilityTerms(data, full, options);
@@ -3004,7 +3095,7 @@ function stabilityInput(data: Prepared, full: TrainingProblem, options: FitOptio
   const fitHalf = (rows: Int32Array): HalfPath => {
     let converged = true;
     if (twoClass) {
-      const problem = problemFromRows(x, y, weights, rows, problemOptions, signal);
+      const problem = problemFromRows(x, y, weights, rows, problemOptions, signal, factors);
       const { solver, start } = startTwoClass(data, problem, outcomesOf(data, rows), penaltyFor(problem, data, mix), false, []);
       converged = start.converged;
       return {
@@ -3016,8 +3107,8 @@ function stabilityInput(data: Prepared, full: TrainingProblem, options: FitOptio
       };
     }
     const problem = data.gram
-      ? problemFromSums(blockSums(x, y, weights, rows, shiftX, shiftY, signal), shiftX, shiftY, problemOptions)
-      : problemFromRows(x, y, weights, rows, problemOptions, signal);
+      ? problemFromSums(blockSums(x, y, weights, rows, shiftX, shiftY, signal, factors), shiftX, shiftY, problemOptions)
+      : problemFromRows(x, y, weights, rows, problemOptions, signal, factors);
     const solver = new CoordinateDescent(problem, penaltyFor(problem, data, mix), data.settings);
     converged = solver.fitUnpenalized().converged;
     return {

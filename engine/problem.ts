@@ -213,8 +213,9 @@ export function blockSums(
   shiftX: Float64Array,
   shiftY: number,
   signal?: CancelSignal,
+  factors: Float64Array | null = null,
 ): BlockSums {
-  return blockSumsOf(x, y, weights, [rows], shiftX, shiftY, signal)[0];
+  return blockSumsOf(x, y, weights, [rows], shiftX, shiftY, signal, factors)[0];
 }
 
 /** Columns per panel of the cross-product kernel: tiles of 4 × 4 products, 16 accumulators. */
@@ -247,6 +248,10 @@ const WINDOW_VALUES = 2 ** 15;
  * blocks, never on timing, so results are bit-identical from run to run; the partial sums over
  * short segments keep the rounding of long blocks small. Cost O(rows·p²/2); a cancel checkpoint
  * per window.
+ *
+ * `factors` (optional): column j's values are read as x_j × factors[j], each product formed as
+ * the value is gathered (fit.ts reads the caller's data in place with its powers of two this
+ * way: the same products a scaled copy would hold, so the same sums). Null: as stored.
  */
 export function blockSumsOf(
   x: ColumnMatrix,
@@ -256,6 +261,7 @@ export function blockSumsOf(
   shiftX: Float64Array,
   shiftY: number,
   signal?: CancelSignal,
+  factors: Float64Array | null = null,
 ): BlockSums[] {
   const p = x.columns;
   const n = x.rows;
@@ -299,6 +305,8 @@ export function blockSumsOf(
       const values = j < p ? data : j === p ? y : null;
       const src = j < p ? j * n : 0;
       const shift = j < p ? shiftX[j] : j === p ? shiftY : 0;
+      // × 1 leaves every value as it is (finite values, -0 included).
+      const factor = j < p && factors ? factors[j] : 1;
       for (let k = 0; k < K; k++) {
         const list = sorted[k];
         let t = segment[k];
@@ -307,7 +315,7 @@ export function blockSumsOf(
         let largest = 0;
         if (values) {
           for (; t < end; t++, r++) {
-            const v = values[src + list[r]];
+            const v = values[src + list[r]] * factor;
             a[base + PANEL * t] = v - shift;
             if (w[t] > 0 && Math.abs(v) > largest) largest = Math.abs(v);
           }
@@ -588,17 +596,20 @@ export function stableCentre(values: ArrayLike<number>, omega: ArrayLike<number>
  * value near the centre, such as the shifts of the Gram pass (fit.ts fullShift), at half the
  * passes of the full centre.
  */
-export function stableAnchor(values: ArrayLike<number>, omega: ArrayLike<number>, m: number): number {
+export function stableAnchor(values: ArrayLike<number>, omega: ArrayLike<number>, m: number, factor = 1): number {
+  // Each value read as values[t] × factor (1: as stored, exactly), so a caller holding data and
+  // a power of two gets the anchor of the scaled values without a scaled copy (fit.ts fullShift).
   let rough = 0;
-  for (let t = 0; t < m; t++) rough += omega[t] * values[t];
+  for (let t = 0; t < m; t++) rough += omega[t] * (values[t] * factor);
   let anchor = NaN;
   let nearest = Infinity;
   for (let t = 0; t < m; t++) {
     if (!(omega[t] > 0)) continue;
-    const distance = Math.abs(values[t] - rough);
+    const v = values[t] * factor;
+    const distance = Math.abs(v - rough);
     if (distance < nearest) {
       nearest = distance;
-      anchor = values[t];
+      anchor = v;
     }
   }
   return anchor;
@@ -613,7 +624,7 @@ export function stableMean(values: ArrayLike<number>, omega: ArrayLike<number>, 
 /**
  * Naive-form problem over the listed rows (all rows when `rows` is null): standardized copy
  * of those rows, column-major. Centres by `stableCentre`, spreads by a second pass about them.
- * Cost O(rows·p).
+ * Cost O(rows·p). `factors` (optional): column j read as x_j × factors[j], as blockSumsOf reads it.
  */
 export function problemFromRows(
   x: ColumnMatrix,
@@ -622,6 +633,7 @@ export function problemFromRows(
   rows: ArrayLike<number> | null,
   options: ProblemOptions,
   signal?: CancelSignal,
+  factors: Float64Array | null = null,
 ): TrainingProblem {
   const n = x.rows;
   const p = x.columns;
@@ -666,9 +678,10 @@ export function problemFromRows(
     throwIfCancelled(signal);
     const src = j * n;
     const col = xs.data.subarray(j * m, (j + 1) * m);
+    const factor = factors ? factors[j] : 1;
     let largest = 0;
     for (let t = 0; t < m; t++) {
-      col[t] = x.data[src + index(t)];
+      col[t] = x.data[src + index(t)] * factor;
       if (omega[t] > 0 && Math.abs(col[t]) > largest) largest = Math.abs(col[t]);
     }
     const { anchor, offset } = options.intercept ? stableCentre(col, omega, m) : { anchor: 0, offset: 0 };
