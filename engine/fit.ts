@@ -453,17 +453,9 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
   const work = workingCopy(x, y, weights, !twoClass, readInPlace);
   throwIfCancelled(options.signal);
   // Constant target (the rule problem.ts applies to columns): nothing to predict.
-  const omega = new Float64Array(n);
-  let total = 0;
-  for (let i = 0; i < n; i++) total += work.weights ? work.weights[i] : 1;
-  for (let i = 0; i < n; i++) omega[i] = (work.weights ? work.weights[i] : 1) / total;
+  const omega = shareOfWeight(work.weights, n);
   const centre = intercept ? stableMean(work.y, omega, n) : 0;
-  let meanSquare = 0;
-  let largest = 0;
-  for (let i = 0; i < n; i++) {
-    meanSquare += omega[i] * (work.y[i] - centre) * (work.y[i] - centre);
-    if (omega[i] > 0) largest = Math.max(largest, Math.abs(work.y[i]));
-  }
+  const { meanSquare, largest } = spreadAbout(work.y, omega, centre, n);
   if (!twoClass && (!(meanSquare > 0) || !(Math.sqrt(meanSquare) > CONSTANT_SPREAD_RATIO * largest))) {
     let first = 0;
     while (weights && !(weights[first] > 0)) first++;
@@ -497,6 +489,53 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
     cutoff,
     totalSums: null,
   };
+}
+
+// prepare's and fullShift's passes over the rows as small functions of their own: run once per
+// fit, the same loops inside the large callers ran unoptimized (boxing each double) for much of a
+// process's first fit (V8 --trace-opt / --trace-deopt). Same operations, same order.
+
+/** Each row's share of the total weight, ω_i = w_i / Σw (1 / n without weights). */
+function shareOfWeight(weights: Float64Array | null, n: number): Float64Array {
+  const omega = new Float64Array(n);
+  let total = 0;
+  for (let i = 0; i < n; i++) total += weights ? weights[i] : 1;
+  for (let i = 0; i < n; i++) omega[i] = (weights ? weights[i] : 1) / total;
+  return omega;
+}
+
+/** Σ ω_i (y_i − centre)² and the largest |y_i| over rows of positive share. */
+function spreadAbout(y: Float64Array, omega: Float64Array, centre: number, n: number): { meanSquare: number; largest: number } {
+  let meanSquare = 0;
+  let largest = 0;
+  for (let i = 0; i < n; i++) {
+    meanSquare += omega[i] * (y[i] - centre) * (y[i] - centre);
+    if (omega[i] > 0) largest = Math.max(largest, Math.abs(y[i]));
+  }
+  return { meanSquare, largest };
+}
+
+/** Largest |values[offset + i]|, i < n, over rows of positive weight (every row without weights). */
+function largestMagnitude(values: Float64Array, offset: number, n: number, weights: Float64Array | null): number {
+  let largest = 0;
+  if (weights) {
+    for (let i = 0; i < n; i++) {
+      const v = Math.abs(values[offset + i]);
+      if (weights[i] > 0 && v > largest) largest = v;
+    }
+  } else {
+    for (let i = 0; i < n; i++) {
+      const v = Math.abs(values[offset + i]);
+      if (v > largest) largest = v;
+    }
+  }
+  return largest;
+}
+
+/** into[offset + i] = from[offset + i] × factor (0 on rows of weight 0), i < n. */
+function copyScaled(from: Float64Array, offset: number, n: number, factor: number, into: Float64Array, weights: Float64Array | null): void {
+  if (weights) for (let i = 0; i < n; i++) into[offset + i] = weights[i] > 0 ? from[offset + i] * factor : 0;
+  else for (let i = 0; i < n; i++) into[offset + i] = from[offset + i] * factor;
 }
 
 /** The checked settings of a fit of `n` rows and `p` predictors (shared by row and sums fits: fitSums.ts). */
@@ -699,30 +738,12 @@ function workingCopy(
   }
   // Values are finite here (checked before). Plain loops, the weighted test hoisted out: this
   // pass and the copy below read all n·p values, a noticeable share of a tall fit.
-  const largestOf = (values: Float64Array, offset: number): number => {
-    let largest = 0;
-    if (weights) {
-      for (let i = 0; i < n; i++) {
-        const v = Math.abs(values[offset + i]);
-        if (weights[i] > 0 && v > largest) largest = v;
-      }
-    } else {
-      for (let i = 0; i < n; i++) {
-        const v = Math.abs(values[offset + i]);
-        if (v > largest) largest = v;
-      }
-    }
-    return largest;
-  };
-  const copyScaled = (from: Float64Array, offset: number, factor: number, into: Float64Array): void => {
-    if (weights) for (let i = 0; i < n; i++) into[offset + i] = weights[i] > 0 ? from[offset + i] * factor : 0;
-    else for (let i = 0; i < n; i++) into[offset + i] = from[offset + i] * factor;
-  };
+  const largestOf = (values: Float64Array, offset: number): number => largestMagnitude(values, offset, n, weights);
   // A two-class target stays 0/1 (exponent 0): the log-likelihood needs the classes themselves.
   const yExponent = scaleTarget ? unitExponent(largestOf(y, 0)) : 0;
   const yFactor = powerOfTwo(yExponent);
   const workY = new Float64Array(n);
-  copyScaled(y, 0, yFactor, workY);
+  copyScaled(y, 0, n, yFactor, workY, weights);
   const xExponent = new Int32Array(p);
   let allPositive = true;
   if (weights) for (let i = 0; i < n && allPositive; i++) allPositive = weights[i] > 0;
@@ -740,7 +761,7 @@ function workingCopy(
       get data(): Float64Array {
         if (!copy) {
           copy = new Float64Array(n * p);
-          for (let j = 0; j < p; j++) copyScaled(x.data, j * n, factors[j], copy);
+          for (let j = 0; j < p; j++) copyScaled(x.data, j * n, n, factors[j], copy, weights);
         }
         return copy;
       },
@@ -751,7 +772,7 @@ function workingCopy(
   for (let j = 0; j < p; j++) {
     const off = j * n;
     xExponent[j] = unitExponent(largestOf(x.data, off));
-    copyScaled(x.data, off, powerOfTwo(xExponent[j]), data);
+    copyScaled(x.data, off, n, powerOfTwo(xExponent[j]), data, weights);
   }
   return { x: { rows: n, columns: p, data }, inPlace: null, y: workY, weights: workWeights, xExponent, yExponent };
 }
@@ -840,10 +861,7 @@ function fullShift(data: Prepared): { shiftX: Float64Array; shiftY: number } {
   const n = x.rows;
   const shiftX = new Float64Array(x.columns);
   if (!data.intercept) return { shiftX, shiftY: 0 };
-  const omega = new Float64Array(n);
-  let total = 0;
-  for (let i = 0; i < n; i++) total += weights ? weights[i] : 1;
-  for (let i = 0; i < n; i++) omega[i] = (weights ? weights[i] : 1) / total;
+  const omega = shareOfWeight(weights, n);
   // Only the anchors (a value near each centre) are used: stableAnchor skips the two passes of
   // stableCentre's offset; the same anchors (0 when no weight is positive, as stableCentre gives).
   const anchorOf = (values: Float64Array, factor: number): number => {
@@ -1934,11 +1952,7 @@ function heldOutModels(
     slopes.set(working.coefficients, f * p);
     anchors.set(problem.std.xAnchor, f * p);
     offsets.set(problem.std.xOffset, f * p);
-    for (const i of plan.blocks[plan.validateBlock[f]]) {
-      if (data.weights && !(data.weights[i] > 0)) continue;
-      foldOf[i] = f;
-      prediction[i] = problem.std.yOffset;
-    }
+    markHeldOut(plan.blocks[plan.validateBlock[f]], data.weights, f, problem.std.yOffset, foldOf, prediction);
   }
   if (data.totalSums) return { foldModels, heldOut: null };
   // One pass over the data, column by column in row order (each cache line read once, where a
@@ -1966,12 +1980,7 @@ function heldOutModels(
       if (b !== 0) used = true;
     }
     if (!used) continue;
-    const off = j * n;
-    const factor = factors ? factors[j] : 1;
-    for (let i = 0; i < n; i++) {
-      const t = 3 * foldOf[i];
-      prediction[i] += terms[t] * (values[off + i] * factor - terms[t + 1] - terms[t + 2]);
-    }
+    addColumnTerms(prediction, values, j * n, factors ? factors[j] : 1, foldOf, terms, n);
   }
   // The lists at their final length, filled by index: every row some fold holds out (foldOf < K)
   // is listed once. Growing them by push re-copied them as they grew (100,000 rows: about 3×
@@ -1988,17 +1997,60 @@ function heldOutModels(
   const exponent = -data.yExponent;
   const unit = Math.abs(exponent) <= 1022 ? powerOfTwo(exponent) : NaN;
   for (let f = 0; f < K; f++) {
-    const yAnchor = folds[f].std.yAnchor;
-    for (const i of plan.blocks[plan.validateBlock[f]]) {
-      if (foldOf[i] !== f) continue;
-      const held = data.y[i] - yAnchor - prediction[i];
-      row[at] = i;
-      fold[at] = f;
-      residual[at++] = Number.isNaN(unit) ? scaleByPowerOfTwo(held, exponent) : held * unit;
-    }
+    at = listResiduals(plan.blocks[plan.validateBlock[f]], f, foldOf, data.y, folds[f].std.yAnchor, prediction, unit, exponent, row, fold, residual, at);
   }
   if (at !== count) throw new Error(`heldOutModels: ${at} held-out rows listed, ${count} expected`);
   return { foldModels, heldOut: { row, fold, residual } };
+}
+
+// heldOutModels' passes over the rows, each a small function of its own: called once per fold or
+// column, each is optimized as a whole after its first calls, where the same loops inside the one
+// large heldOutModels ran unoptimized (boxing every double) while it compiled and after its
+// on-stack compilation left for code it had not yet run (first fit of a process: measured by
+// V8's --trace-opt --trace-deopt and a sampling allocation profile). Same operations, same order.
+
+/** Rows of `block` with positive weight: held out by fold f, their predictions start at yOffset. */
+function markHeldOut(block: Int32Array, weights: Float64Array | null, f: number, yOffset: number, foldOf: Int32Array, prediction: Float64Array): void {
+  for (let t = 0; t < block.length; t++) {
+    const i = block[t];
+    if (weights && !(weights[i] > 0)) continue;
+    foldOf[i] = f;
+    prediction[i] = yOffset;
+  }
+}
+
+/** prediction_i += b_f · ((x_ij × factor − anchor_f) − offset_f) for the fold f = foldOf[i] (terms: 3 per fold). */
+function addColumnTerms(prediction: Float64Array, values: Float64Array, off: number, factor: number, foldOf: Int32Array, terms: Float64Array, n: number): void {
+  for (let i = 0; i < n; i++) {
+    const t = 3 * foldOf[i];
+    prediction[i] += terms[t] * (values[off + i] * factor - terms[t + 1] - terms[t + 2]);
+  }
+}
+
+/** Lists fold f's held-out rows of `block` from `at` on (row, fold, residual in the target's units); returns the next free index. */
+function listResiduals(
+  block: Int32Array,
+  f: number,
+  foldOf: Int32Array,
+  y: Float64Array,
+  yAnchor: number,
+  prediction: Float64Array,
+  unit: number,
+  exponent: number,
+  row: number[],
+  fold: number[],
+  residual: number[],
+  at: number,
+): number {
+  for (let t = 0; t < block.length; t++) {
+    const i = block[t];
+    if (foldOf[i] !== f) continue;
+    const held = y[i] - yAnchor - prediction[i];
+    row[at] = i;
+    fold[at] = f;
+    residual[at++] = Number.isNaN(unit) ? scaleByPowerOfTwo(held, exponent) : held * unit;
+  }
+  return at;
 }
 
 /** As coefficientInDataUnits, but a value below the normal range is returned rounded (it only loses digits); overflow still throws. */

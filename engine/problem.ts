@@ -291,12 +291,7 @@ export function blockSumsOf(
     let count = 0;
     for (let k = 0; k < K; k++) {
       segment[k] = count;
-      const list = sorted[k];
-      for (let r = cursor[k]; r < list.length && list[r] < i1; r++) {
-        const i = list[r];
-        if (i < i0) throw new Error(`blockSumsOf: row ${i} is out of range`);
-        w[count++] = weights ? weights[i] : 1;
-      }
+      count = gatherWeights(sorted[k], cursor[k], i0, i1, weights, w, count);
     }
     segment[K] = count;
     if (count === 0) continue;
@@ -308,23 +303,14 @@ export function blockSumsOf(
       // × 1 leaves every value as it is (finite values, -0 included).
       const factor = j < p && factors ? factors[j] : 1;
       for (let k = 0; k < K; k++) {
-        const list = sorted[k];
-        let t = segment[k];
-        const end = segment[k + 1];
-        let r = cursor[k];
-        let largest = 0;
         if (values) {
-          for (; t < end; t++, r++) {
-            const v = values[src + list[r]] * factor;
-            a[base + PANEL * t] = v - shift;
-            if (w[t] > 0 && Math.abs(v) > largest) largest = Math.abs(v);
-          }
+          const largest = packValues(values, src, factor, shift, sorted[k], cursor[k], segment[k], segment[k + 1], a, base, w);
           const out = outs[k];
           if (j < p) {
             if (largest > out.largest[j]) out.largest[j] = largest;
           } else if (largest > out.largestY) out.largestY = largest;
         } else {
-          for (; t < end; t++) a[base + PANEL * t] = 1;
+          for (let t = segment[k]; t < segment[k + 1]; t++) a[base + PANEL * t] = 1;
         }
       }
     }
@@ -365,6 +351,45 @@ export function blockSumsOf(
     out.weight = total[(p + 1) * Q + p + 1];
   }
   return outs;
+}
+
+/** blockSumsOf: the weights (1 without) of a block's rows in [i0, i1) from list[r0] on, into w from `count`; returns the new count. */
+function gatherWeights(list: Int32Array, r0: number, i0: number, i1: number, weights: ArrayLike<number> | null, w: Float64Array, count: number): number {
+  for (let r = r0; r < list.length && list[r] < i1; r++) {
+    const i = list[r];
+    if (i < i0) throw new Error(`blockSumsOf: row ${i} is out of range`);
+    w[count++] = weights ? weights[i] : 1;
+  }
+  return count;
+}
+
+/**
+ * blockSumsOf's gather of one column's rows of one block into its panel slot: rows list[r0], …
+ * (one per t in [t0, t1)) read as value × factor, stored less the shift; returns the largest
+ * magnitude among rows of positive weight. A function of its own, called per column and block,
+ * so it is optimized as a whole after its first calls (inside blockSumsOf, which runs once per
+ * fit, this loop ran unoptimized, boxing each value, during most of a process's first fit).
+ */
+function packValues(
+  values: ArrayLike<number>,
+  src: number,
+  factor: number,
+  shift: number,
+  list: Int32Array,
+  r0: number,
+  t0: number,
+  t1: number,
+  a: Float64Array,
+  base: number,
+  w: Float64Array,
+): number {
+  let largest = 0;
+  for (let t = t0, r = r0; t < t1; t++, r++) {
+    const v = values[src + list[r]] * factor;
+    a[base + PANEL * t] = v - shift;
+    if (w[t] > 0 && Math.abs(v) > largest) largest = Math.abs(v);
+  }
+  return largest;
 }
 
 /**
