@@ -1060,10 +1060,11 @@ function foldErrors(
   const coefficients = new Float64Array(p);
   if (sums && measure === "mse") {
     const nz = new Int32Array(p);
+    const packed = new Float64Array(p);
     for (let k = 0; k < run.strengths.length; k++) {
       throwIfCancelled(data.settings.signal);
       slopesInto(problem, run.coefficients[k], coefficients);
-      errors[k] = Math.max(squaredErrorOfSums(sums, std, coefficients, shiftX, shiftY, nz).sse, 0) / sums.weight;
+      errors[k] = Math.max(squaredErrorOfSums(sums, std, coefficients, shiftX, shiftY, nz, packed).sse, 0) / sums.weight;
     }
     return errors;
   }
@@ -1101,7 +1102,9 @@ function foldErrors(
  * SSE = yy − 2c·Σy' − 2bᵀxy + c²W + 2c·bᵀΣx' + bᵀ xx b, and the residuals' sum Σy' − cW − bᵀΣx'.
  * c = b0 − shiftY + bᵀshiftX, formed from the centres' parts relative to the shifts (a fold's
  * anchors are these shifts), never from b0 itself, which a large offset would make imprecise.
- * `nz` is scratch space of p entries. Cost O(nonzero²).
+ * `nz` and `packed` are scratch space of p entries: the nonzero slopes' columns and the slopes
+ * themselves side by side, so the O(nonzero²) quadratic form reads its coefficients in order
+ * rather than through the column list (the same products in the same order).
  */
 function squaredErrorOfSums(
   sums: BlockSums,
@@ -1110,12 +1113,14 @@ function squaredErrorOfSums(
   shiftX: Float64Array,
   shiftY: number,
   nz: Int32Array,
+  packed: Float64Array = new Float64Array(sums.p),
 ): { sse: number; residualSum: number } {
   const p = sums.p;
   let c = std.yAnchor - shiftY + std.yOffset;
   let count = 0;
   for (let j = 0; j < p; j++) {
     if (coefficients[j] !== 0) {
+      packed[count] = coefficients[j];
       nz[count++] = j;
       c -= coefficients[j] * (std.xAnchor[j] - shiftX[j] + std.xOffset[j]);
     }
@@ -1124,12 +1129,13 @@ function squaredErrorOfSums(
   let residualSum = sums.sumY - c * sums.weight;
   for (let a = 0; a < count; a++) {
     const j = nz[a];
-    const bj = coefficients[j];
+    const bj = packed[a];
     sse += -2 * bj * sums.xy[j] + 2 * c * bj * sums.sumX[j];
     residualSum -= bj * sums.sumX[j];
     let quad = 0;
     const off = j * p;
-    for (let b = 0; b < count; b++) quad += sums.xx[off + nz[b]] * coefficients[nz[b]];
+    const xx = sums.xx;
+    for (let b = 0; b < count; b++) quad += xx[off + nz[b]] * packed[b];
     sse += bj * quad;
   }
   return { sse, residualSum };
