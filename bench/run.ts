@@ -44,14 +44,18 @@
  *
  * Prints a table, then one JSON line per case.
  *
+ * `--copy-data`: the fits copy the predictors into their working units as before instead of
+ * reading them in place (engine/fit.ts setReadInPlace; the same results), for A/B runs of time
+ * and peakMB. Single-threaded fits only (pool workers keep reading in place).
+ *
  * Usage: npm run bench [-- --only 1000x50,cells-1000x50] [-- --repeat 3] [-- --threads 1|auto]
- *        [-- --two-class] [-- --no-floor] [-- --no-cells]
+ *        [-- --two-class] [-- --no-floor] [-- --no-cells] [-- --copy-data]
  */
 import { fork } from "child_process";
 import * as fs from "fs";
 import * as os from "os";
 import * as path from "path";
-import { fit, fitAsync, FitOptions, FitResult } from "../engine/fit";
+import { fit, fitAsync, FitOptions, FitResult, setReadInPlace } from "../engine/fit";
 import { threadCount, threadPool } from "../engine/node/threadPool";
 import type { TaskPool } from "../engine/parallel";
 import { planFolds } from "../engine/folds";
@@ -86,6 +90,9 @@ const CASES: Case[] = [
   { name: "20000x100-2c", n: 20000, p: 100, kind: "two-class", target: 5 },
   { name: "200x2000-2c", n: 200, p: 2000, kind: "two-class", target: 5 },
 ];
+
+/** A/B runs: copy the predictors (see the file comment). Passed on to each case's child process. */
+const COPY_DATA = process.argv.includes("--copy-data");
 
 /** The pinned workload. */
 const MIXES = [0, 0.2, 0.4, 0.6, 0.8, 1];
@@ -376,6 +383,7 @@ function inChild(c: Case, repeat: number, floorDir: string | null, floorBinary: 
   return new Promise((resolve, reject) => {
     const args = ["--child", c.name, "--repeat", String(repeat), "--threads", String(threads)];
     if (floorDir && floorBinary) args.push("--floor-dir", floorDir, "--floor-binary", floorBinary);
+    if (COPY_DATA) args.push("--copy-data");
     const child = fork(__filename, args, { execArgv: [...process.execArgv, "--expose-gc"], stdio: ["ignore", "inherit", "inherit", "ipc"] });
     let report: ChildReport | null = null;
     child.on("message", (message) => (report = message as ChildReport));
@@ -422,6 +430,7 @@ async function main(): Promise<void> {
   const repeat = Math.max(1, Number(argValue(args, "--repeat") ?? 1));
   const childCase = argValue(args, "--child");
   if (childCase) {
+    if (COPY_DATA) setReadInPlace(false);
     const c = CASES.find((k) => k.name === childCase);
     if (!c) throw new Error(`unknown case ${childCase}`);
     const report = await runChild(c, repeat, argValue(args, "--floor-dir"), argValue(args, "--floor-binary"), Number(argValue(args, "--threads") ?? 1));

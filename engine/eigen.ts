@@ -107,6 +107,19 @@ function tridiagonalize(n: number, e: Float64Array, d: Float64Array, v: Float64A
     }
     d[i] = h;
   }
+  accumulateTransformations(n, e, d, v, signal);
+}
+
+/**
+ * tred2's second part: the Householder transformations accumulated into v, d and e finished.
+ * Its own function (the same statements, in the same order): while tridiagonalize held both parts,
+ * V8 compiled its first loop on the stack and then threw that code away on reaching this part,
+ * which it had not run yet, once per decomposition (--trace-deopt: "insufficient type feedback"),
+ * so this part ran unoptimized in a process's first fits.
+ */
+function accumulateTransformations(n: number, e: Float64Array, d: Float64Array, v: Float64Array, signal?: CancelSignal): void {
+  let g: number;
+  let h: number;
   for (let i = 0; i < n - 1; i++) {
     throwIfCancelled(signal);
     v[i * n + n - 1] = v[i * n + i];
@@ -194,6 +207,14 @@ function diagonalize(n: number, e: Float64Array, d: Float64Array, v: Float64Arra
     d[l] = d[l] + f;
     e[l] = 0;
   }
+  sortAscending(n, d, v);
+}
+
+/**
+ * tql2's last part: eigenvalues sorted ascending (selection sort), eigenvectors swapped with them.
+ * Its own function for the reason given at accumulateTransformations (same statements, same order).
+ */
+function sortAscending(n: number, d: Float64Array, v: Float64Array): void {
   for (let i = 0; i < n - 1; i++) {
     let k = i;
     let p = d[i];

@@ -383,7 +383,21 @@ export const MAX_GRAM_PREDICTORS = 2000;
  * and an extreme value there can't overflow one. Bounds are moved to the working units too.
  */
 export interface Prepared {
+  /**
+   * The working copy of the predictors. When `inPlace` is set this is a deferred copy: its
+   * `data` is made (the same values) only if a step other than the O(n·p) passes below asks for
+   * it; `rows` and `columns` cost nothing.
+   */
   x: ColumnMatrix;
+  /**
+   * Set when the fit reads the caller's predictors in place (every row has positive weight, so
+   * the working copy is exactly source × 2^xExponent[j] per column, with no rows zeroed): the
+   * Gram pass, the shifts, row-form problems, held-out rows and predictions read `source` and
+   * form each value × factors[j] as they read it, the very product the copy would hold, so the
+   * results are the same bit for bit and the copy's n·p doubles are never allocated. Null: read
+   * `x` (weights with zeros, fits from sums, setReadInPlace(false)).
+   */
+  inPlace: { source: ColumnMatrix; factors: Float64Array } | null;
   y: Float64Array;
   weights: Float64Array | null;
   /** The data as given (for the in-sample score). */
@@ -439,20 +453,12 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
   const gram = !twoClass && covarianceForm;
   // Checkpoints between the O(n·p) passes over the input (checks, working copy).
   throwIfCancelled(options.signal);
-  const work = workingCopy(x, y, weights, !twoClass);
+  const work = workingCopy(x, y, weights, !twoClass, readInPlace);
   throwIfCancelled(options.signal);
   // Constant target (the rule problem.ts applies to columns): nothing to predict.
-  const omega = new Float64Array(n);
-  let total = 0;
-  for (let i = 0; i < n; i++) total += work.weights ? work.weights[i] : 1;
-  for (let i = 0; i < n; i++) omega[i] = (work.weights ? work.weights[i] : 1) / total;
+  const omega = shareOfWeight(work.weights, n);
   const centre = intercept ? stableMean(work.y, omega, n) : 0;
-  let meanSquare = 0;
-  let largest = 0;
-  for (let i = 0; i < n; i++) {
-    meanSquare += omega[i] * (work.y[i] - centre) * (work.y[i] - centre);
-    if (omega[i] > 0) largest = Math.max(largest, Math.abs(work.y[i]));
-  }
+  const { meanSquare, largest } = spreadAbout(work.y, omega, centre, n);
   if (!twoClass && (!(meanSquare > 0) || !(Math.sqrt(meanSquare) > CONSTANT_SPREAD_RATIO * largest))) {
     let first = 0;
     while (weights && !(weights[first] > 0)) first++;
@@ -462,6 +468,7 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
   const { workLower, workUpper } = workingBounds(lower, upper, work.xExponent, work.yExponent);
   return {
     x: work.x,
+    inPlace: work.inPlace,
     y: work.y,
     weights: work.weights,
     original: { x, y, weights },
@@ -486,6 +493,53 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
     cutoff,
     totalSums: null,
   };
+}
+
+// prepare's and fullShift's passes over the rows as small functions of their own: run once per
+// fit, the same loops inside the large callers ran unoptimized (boxing each double) for much of a
+// process's first fit (V8 --trace-opt / --trace-deopt). Same operations, same order.
+
+/** Each row's share of the total weight, ω_i = w_i / Σw (1 / n without weights). */
+function shareOfWeight(weights: Float64Array | null, n: number): Float64Array {
+  const omega = new Float64Array(n);
+  let total = 0;
+  for (let i = 0; i < n; i++) total += weights ? weights[i] : 1;
+  for (let i = 0; i < n; i++) omega[i] = (weights ? weights[i] : 1) / total;
+  return omega;
+}
+
+/** Σ ω_i (y_i − centre)² and the largest |y_i| over rows of positive share. */
+function spreadAbout(y: Float64Array, omega: Float64Array, centre: number, n: number): { meanSquare: number; largest: number } {
+  let meanSquare = 0;
+  let largest = 0;
+  for (let i = 0; i < n; i++) {
+    meanSquare += omega[i] * (y[i] - centre) * (y[i] - centre);
+    if (omega[i] > 0) largest = Math.max(largest, Math.abs(y[i]));
+  }
+  return { meanSquare, largest };
+}
+
+/** Largest |values[offset + i]|, i < n, over rows of positive weight (every row without weights). */
+function largestMagnitude(values: Float64Array, offset: number, n: number, weights: Float64Array | null): number {
+  let largest = 0;
+  if (weights) {
+    for (let i = 0; i < n; i++) {
+      const v = Math.abs(values[offset + i]);
+      if (weights[i] > 0 && v > largest) largest = v;
+    }
+  } else {
+    for (let i = 0; i < n; i++) {
+      const v = Math.abs(values[offset + i]);
+      if (v > largest) largest = v;
+    }
+  }
+  return largest;
+}
+
+/** into[offset + i] = from[offset + i] × factor (0 on rows of weight 0), i < n. */
+function copyScaled(from: Float64Array, offset: number, n: number, factor: number, into: Float64Array, weights: Float64Array | null): void {
+  if (weights) for (let i = 0; i < n; i++) into[offset + i] = weights[i] > 0 ? from[offset + i] * factor : 0;
+  else for (let i = 0; i < n; i++) into[offset + i] = from[offset + i] * factor;
 }
 
 /** The checked settings of a fit of `n` rows and `p` predictors (shared by row and sums fits: fitSums.ts). */
@@ -633,17 +687,50 @@ function checkClasses(y: Float64Array, weights: Float64Array | null): void {
 }
 
 /**
+ * Whether fits read the caller's predictors in place when they can (Prepared.inPlace). On by
+ * default; off makes every fit copy them as before, for A/B measurements (bench/run.ts
+ * --copy-data). Either way the results are the same bit for bit.
+ */
+let readInPlace = true;
+
+/** Turns reading the predictors in place on or off (see readInPlace); returns the previous setting. */
+export function setReadInPlace(on: boolean): boolean {
+  const was = readInPlace;
+  readInPlace = on;
+  return was;
+}
+
+/**
+ * The predictors as the O(n·p) passes read them: the caller's data with each column's power of
+ * two (Prepared.inPlace), or the working copy with factors null.
+ */
+function readX(data: Prepared): { x: ColumnMatrix; factors: Float64Array | null } {
+  return data.inPlace ? { x: data.inPlace.source, factors: data.inPlace.factors } : { x: data.x, factors: null };
+}
+
+/**
  * The working copy (see Prepared): each column, the target and the weights scaled by the power
  * of two that brings its largest magnitude on rows with positive weight into [0.5, 1); rows with
  * weight 0 stored as 0. Exact (powers of two), so the standardized problems built from it are
  * the ones the unscaled data would give, without overflow or underflow. Cost O(n·p).
+ * With `inPlace` and every weight positive the predictors are not copied: x is a deferred copy
+ * and `inPlace` holds the data and the powers of two (see Prepared.inPlace).
  */
 function workingCopy(
   x: ColumnMatrix,
   y: Float64Array,
   weights: Float64Array | null,
   scaleTarget: boolean,
-): { x: ColumnMatrix; y: Float64Array; weights: Float64Array | null; xExponent: Int32Array; yExponent: number; weightExponent: number } {
+  inPlace: boolean,
+): {
+  x: ColumnMatrix;
+  inPlace: Prepared["inPlace"];
+  y: Float64Array;
+  weights: Float64Array | null;
+  xExponent: Int32Array;
+  yExponent: number;
+  weightExponent: number;
+} {
   const n = x.rows;
   const p = x.columns;
   let workWeights: Float64Array | null = null;
@@ -658,38 +745,43 @@ function workingCopy(
   }
   // Values are finite here (checked before). Plain loops, the weighted test hoisted out: this
   // pass and the copy below read all n·p values, a noticeable share of a tall fit.
-  const largestOf = (values: Float64Array, offset: number): number => {
-    let largest = 0;
-    if (weights) {
-      for (let i = 0; i < n; i++) {
-        const v = Math.abs(values[offset + i]);
-        if (weights[i] > 0 && v > largest) largest = v;
-      }
-    } else {
-      for (let i = 0; i < n; i++) {
-        const v = Math.abs(values[offset + i]);
-        if (v > largest) largest = v;
-      }
-    }
-    return largest;
-  };
-  const copyScaled = (from: Float64Array, offset: number, factor: number, into: Float64Array): void => {
-    if (weights) for (let i = 0; i < n; i++) into[offset + i] = weights[i] > 0 ? from[offset + i] * factor : 0;
-    else for (let i = 0; i < n; i++) into[offset + i] = from[offset + i] * factor;
-  };
+  const largestOf = (values: Float64Array, offset: number): number => largestMagnitude(values, offset, n, weights);
   // A two-class target stays 0/1 (exponent 0): the log-likelihood needs the classes themselves.
   const yExponent = scaleTarget ? unitExponent(largestOf(y, 0)) : 0;
   const yFactor = powerOfTwo(yExponent);
   const workY = new Float64Array(n);
-  copyScaled(y, 0, yFactor, workY);
+  copyScaled(y, 0, n, yFactor, workY, weights);
   const xExponent = new Int32Array(p);
+  let allPositive = true;
+  if (weights) for (let i = 0; i < n && allPositive; i++) allPositive = weights[i] > 0;
+  if (inPlace && allPositive) {
+    // No row is zeroed, so the copy would be exactly x_ij × 2^xExponent[j]: formed where read.
+    const factors = new Float64Array(p);
+    for (let j = 0; j < p; j++) {
+      xExponent[j] = unitExponent(largestOf(x.data, j * n));
+      factors[j] = powerOfTwo(xExponent[j]);
+    }
+    let copy: Float64Array | null = null;
+    const deferred: ColumnMatrix = {
+      rows: n,
+      columns: p,
+      get data(): Float64Array {
+        if (!copy) {
+          copy = new Float64Array(n * p);
+          for (let j = 0; j < p; j++) copyScaled(x.data, j * n, n, factors[j], copy, weights);
+        }
+        return copy;
+      },
+    };
+    return { x: deferred, inPlace: { source: x, factors }, y: workY, weights: workWeights, xExponent, yExponent, weightExponent };
+  }
   const data = new Float64Array(n * p);
   for (let j = 0; j < p; j++) {
     const off = j * n;
     xExponent[j] = unitExponent(largestOf(x.data, off));
-    copyScaled(x.data, off, powerOfTwo(xExponent[j]), data);
+    copyScaled(x.data, off, n, powerOfTwo(xExponent[j]), data, weights);
   }
-  return { x: { rows: n, columns: p, data }, y: workY, weights: workWeights, xExponent, yExponent, weightExponent };
+  return { x: { rows: n, columns: p, data }, inPlace: null, y: workY, weights: workWeights, xExponent, yExponent, weightExponent };
 }
 
 /** Penalty for one problem: bounds moved to its standardized units (b̃ = b × scale / s_y). */
@@ -720,6 +812,12 @@ function toOriginal(problem: { p: number; std: Standardization }, standardized: 
     intercept -= b * std.xCentre[j];
   }
   return { intercept, coefficients };
+}
+
+/** The slopes of toOriginal (b_j = s_y · b̃_j / scale_j, the same expression) written into `out`. */
+function slopesInto(problem: { p: number; std: Standardization }, standardized: Float64Array, out: Float64Array): void {
+  const std = problem.std;
+  for (let j = 0; j < problem.p; j++) out[j] = std.frozen[j] ? 0 : (std.yScale * standardized[j]) / std.xScale[j];
 }
 
 /**
@@ -765,46 +863,45 @@ export interface Problems {
  * the values nearest the weighted means), so every shifted value is exact; 0 without an intercept.
  */
 function fullShift(data: Prepared): { shiftX: Float64Array; shiftY: number } {
-  const { x, y, weights } = data;
+  const { y, weights } = data;
+  const { x, factors } = readX(data);
   const n = x.rows;
   const shiftX = new Float64Array(x.columns);
   if (!data.intercept) return { shiftX, shiftY: 0 };
-  const omega = new Float64Array(n);
-  let total = 0;
-  for (let i = 0; i < n; i++) total += weights ? weights[i] : 1;
-  for (let i = 0; i < n; i++) omega[i] = (weights ? weights[i] : 1) / total;
+  const omega = shareOfWeight(weights, n);
   // Only the anchors (a value near each centre) are used: stableAnchor skips the two passes of
   // stableCentre's offset; the same anchors (0 when no weight is positive, as stableCentre gives).
-  const anchorOf = (values: Float64Array): number => {
-    const anchor = stableAnchor(values, omega, n);
+  const anchorOf = (values: Float64Array, factor: number): number => {
+    const anchor = stableAnchor(values, omega, n, factor);
     return Number.isNaN(anchor) ? 0 : anchor;
   };
-  const shiftY = anchorOf(y);
-  for (let j = 0; j < x.columns; j++) shiftX[j] = anchorOf(x.data.subarray(j * n, (j + 1) * n));
+  const shiftY = anchorOf(y, 1);
+  for (let j = 0; j < x.columns; j++) shiftX[j] = anchorOf(x.data.subarray(j * n, (j + 1) * n), factors ? factors[j] : 1);
   return { shiftX, shiftY };
 }
 
 function buildProblems(data: Prepared, plan: FoldPlan | null): Problems {
-  const { x, y, weights } = data;
+  const { y, weights } = data;
+  const { x, factors } = readX(data);
   const signal = data.settings.signal;
   const columnUnits = Float64Array.from(data.xExponent, (e) => powerOfTwo(e));
   const options = { intercept: data.intercept, standardize: data.standardize, columnUnits };
   const { shiftX, shiftY } = fullShift(data);
   if (!data.gram || data.outcome === "two-class") {
-    const full = problemFromRows(x, y, weights, null, options, signal);
+    const full = problemFromRows(x, y, weights, null, options, signal, factors);
     const built: (TrainingProblem | null)[] = plan ? new Array(plan.trainBlocks.length).fill(null) : [];
     const fold = (f: number): TrainingProblem =>
-      (built[f] ??= problemFromRows(x, y, weights, rowsOfBlocks(plan as FoldPlan, (plan as FoldPlan).trainBlocks[f]), options, signal));
+      (built[f] ??= problemFromRows(x, y, weights, rowsOfBlocks(plan as FoldPlan, (plan as FoldPlan).trainBlocks[f]), options, signal, factors));
     return { full, fold, heldOutSums: null, shiftX, shiftY };
   }
   if (!plan) {
     const all = new Int32Array(x.rows);
     for (let i = 0; i < x.rows; i++) all[i] = i;
-    const sums = blockSums(x, y, weights, all, shiftX, shiftY, signal);
+    const sums = blockSums(x, y, weights, all, shiftX, shiftY, signal, factors);
     return { full: problemFromSums(sums, shiftX, shiftY, options), fold: noFolds, heldOutSums: null, shiftX, shiftY };
   }
   // One pass: every block's sums, then the problems from them.
-  const sums = blockSumsOf(x, y, weights, plan.blocks, shiftX, shiftY, signal);
+  const sums = blockSumsOf(x, y, weights, plan.blocks, shiftX, shiftY, signal, factors);
   return problemsFromBlockSums(sums, plan, shiftX, shiftY, options);
 }
 
@@ -924,7 +1021,9 @@ interface HeldOut {
 }
 
 function gatherHeldOut(data: Prepared, rows: Int32Array): HeldOut {
-  const x = selectRows(data.x, rows);
+  const source = readX(data);
+  // In place: each value × its column's power of two, as the working copy holds it.
+  const x = source.factors ? selectScaledRows(source.x, rows, source.factors) : selectRows(source.x, rows);
   const y = new Float64Array(rows.length);
   const w = new Float64Array(rows.length);
   let totalWeight = 0;
@@ -934,6 +1033,19 @@ function gatherHeldOut(data: Prepared, rows: Int32Array): HeldOut {
     totalWeight += w[t];
   }
   return { x, y, w, totalWeight };
+}
+
+/** selectRows of x_j × factors[j] (the working copy's values, read in place). */
+function selectScaledRows(matrix: ColumnMatrix, keep: Int32Array, factors: Float64Array): ColumnMatrix {
+  const m = keep.length;
+  const out = new Float64Array(m * matrix.columns);
+  for (let j = 0; j < matrix.columns; j++) {
+    const src = j * matrix.rows;
+    const dst = j * m;
+    const factor = factors[j];
+    for (let t = 0; t < m; t++) out[dst + t] = matrix.data[src + keep[t]] * factor;
+  }
+  return { rows: m, columns: matrix.columns, data: out };
 }
 
 /** Weighted mean held-out error of each point of a fold's path. */
@@ -950,12 +1062,16 @@ function foldErrors(
   const errors = new Float64Array(run.strengths.length);
   const p = problem.p;
   const std = problem.std;
+  // One array of slopes for every strength (slopesInto: toOriginal's slopes, the same products,
+  // without its intercept or a new array per strength).
+  const coefficients = new Float64Array(p);
   if (sums && measure === "mse") {
     const nz = new Int32Array(p);
+    const packed = new Float64Array(p);
     for (let k = 0; k < run.strengths.length; k++) {
       throwIfCancelled(data.settings.signal);
-      const { coefficients } = toOriginal(problem, run.coefficients[k]);
-      errors[k] = Math.max(squaredErrorOfSums(sums, std, coefficients, shiftX, shiftY, nz).sse, 0) / sums.weight;
+      slopesInto(problem, run.coefficients[k], coefficients);
+      errors[k] = Math.max(squaredErrorOfSums(sums, std, coefficients, shiftX, shiftY, nz, packed).sse, 0) / sums.weight;
     }
     return errors;
   }
@@ -966,7 +1082,7 @@ function foldErrors(
   const prediction = new Float64Array(m);
   for (let k = 0; k < run.strengths.length; k++) {
     throwIfCancelled(data.settings.signal);
-    const { coefficients } = toOriginal(problem, run.coefficients[k]);
+    slopesInto(problem, run.coefficients[k], coefficients);
     prediction.fill(std.yOffset);
     for (let j = 0; j < p; j++) {
       const b = coefficients[j];
@@ -993,7 +1109,9 @@ function foldErrors(
  * SSE = yy − 2c·Σy' − 2bᵀxy + c²W + 2c·bᵀΣx' + bᵀ xx b, and the residuals' sum Σy' − cW − bᵀΣx'.
  * c = b0 − shiftY + bᵀshiftX, formed from the centres' parts relative to the shifts (a fold's
  * anchors are these shifts), never from b0 itself, which a large offset would make imprecise.
- * `nz` is scratch space of p entries. Cost O(nonzero²).
+ * `nz` and `packed` are scratch space of p entries: the nonzero slopes' columns and the slopes
+ * themselves side by side, so the O(nonzero²) quadratic form reads its coefficients in order
+ * rather than through the column list (the same products in the same order).
  */
 function squaredErrorOfSums(
   sums: BlockSums,
@@ -1002,12 +1120,14 @@ function squaredErrorOfSums(
   shiftX: Float64Array,
   shiftY: number,
   nz: Int32Array,
+  packed: Float64Array = new Float64Array(sums.p),
 ): { sse: number; residualSum: number } {
   const p = sums.p;
   let c = std.yAnchor - shiftY + std.yOffset;
   let count = 0;
   for (let j = 0; j < p; j++) {
     if (coefficients[j] !== 0) {
+      packed[count] = coefficients[j];
       nz[count++] = j;
       c -= coefficients[j] * (std.xAnchor[j] - shiftX[j] + std.xOffset[j]);
     }
@@ -1016,12 +1136,13 @@ function squaredErrorOfSums(
   let residualSum = sums.sumY - c * sums.weight;
   for (let a = 0; a < count; a++) {
     const j = nz[a];
-    const bj = coefficients[j];
+    const bj = packed[a];
     sse += -2 * bj * sums.xy[j] + 2 * c * bj * sums.sumX[j];
     residualSum -= bj * sums.sumX[j];
     let quad = 0;
     const off = j * p;
-    for (let b = 0; b < count; b++) quad += sums.xx[off + nz[b]] * coefficients[nz[b]];
+    const xx = sums.xx;
+    for (let b = 0; b < count; b++) quad += xx[off + nz[b]] * packed[b];
     sse += bj * quad;
   }
   return { sse, residualSum };
@@ -1400,7 +1521,7 @@ function taskInput(context: TaskContext, options: FitOptions): FitTaskInput {
     const noRows: ColumnMatrix = { rows: n, columns: p, data: none };
     const deals = Array.from({ length: context.repeats }, (_, d) => context.deals(d));
     const snapshot: TaskSnapshot = {
-      data: { ...data, x: noRows, y: none, original: { x: noRows, y: none, weights: null }, settings: { ...data.settings, signal: undefined } },
+      data: { ...data, x: noRows, inPlace: null, y: none, original: { x: noRows, y: none, weights: null }, settings: { ...data.settings, signal: undefined } },
       plans: deals.map((deal) => deal.plan),
       problems: deals.map(({ problems }) => ({
         full: problems.full,
@@ -1852,11 +1973,7 @@ function heldOutModels(
     slopes.set(working.coefficients, f * p);
     anchors.set(problem.std.xAnchor, f * p);
     offsets.set(problem.std.xOffset, f * p);
-    for (const i of plan.blocks[plan.validateBlock[f]]) {
-      if (data.weights && !(data.weights[i] > 0)) continue;
-      foldOf[i] = f;
-      prediction[i] = problem.std.yOffset;
-    }
+    markHeldOut(plan.blocks[plan.validateBlock[f]], data.weights, f, problem.std.yOffset, foldOf, prediction);
   }
   if (data.totalSums) return { foldModels, heldOut: null };
   // One pass over the data, column by column in row order (each cache line read once, where a
@@ -1869,7 +1986,9 @@ function heldOutModels(
   // −0 sum could become +0, the same number). Per column, the folds' (b, anchor, offset) sit
   // side by side in `terms` (3 values per fold, the spare slot K all zeros); a column that no
   // fold's model uses is skipped.
-  const values = data.x.data;
+  // In place: x_ij × factors[j] formed per value (the working copy's value; × 1 is exact).
+  const { x: read, factors } = readX(data);
+  const values = read.data;
   const terms = new Float64Array(3 * (K + 1));
   for (let j = 0; j < p; j++) {
     throwIfCancelled(signal);
@@ -1882,31 +2001,77 @@ function heldOutModels(
       if (b !== 0) used = true;
     }
     if (!used) continue;
-    const off = j * n;
-    for (let i = 0; i < n; i++) {
-      const t = 3 * foldOf[i];
-      prediction[i] += terms[t] * (values[off + i] - terms[t + 1] - terms[t + 2]);
-    }
+    addColumnTerms(prediction, values, j * n, factors ? factors[j] : 1, foldOf, terms, n);
   }
-  const row: number[] = [];
-  const fold: number[] = [];
-  const residual: number[] = [];
+  // The lists at their final length, filled by index: every row some fold holds out (foldOf < K)
+  // is listed once. Growing them by push re-copied them as they grew (100,000 rows: about 3×
+  // the time of filling them, measured stand-alone).
+  let count = 0;
+  for (let i = 0; i < n; i++) if (foldOf[i] !== K) count++;
+  const row = new Array<number>(count);
+  const fold = new Array<number>(count);
+  const residual = new Array<number>(count);
+  let at = 0;
   // Back to the target's units: a multiplication by 2^−yExponent, the power built once rather
   // than per row (scaleByPowerOfTwo does exactly this product when the power is a normal double,
   // and steps through it otherwise).
   const exponent = -data.yExponent;
   const unit = Math.abs(exponent) <= 1022 ? powerOfTwo(exponent) : NaN;
   for (let f = 0; f < K; f++) {
-    const yAnchor = folds[f].std.yAnchor;
-    for (const i of plan.blocks[plan.validateBlock[f]]) {
-      if (foldOf[i] !== f) continue;
-      const held = data.y[i] - yAnchor - prediction[i];
-      row.push(i);
-      fold.push(f);
-      residual.push(Number.isNaN(unit) ? scaleByPowerOfTwo(held, exponent) : held * unit);
-    }
+    at = listResiduals(plan.blocks[plan.validateBlock[f]], f, foldOf, data.y, folds[f].std.yAnchor, prediction, unit, exponent, row, fold, residual, at);
   }
+  if (at !== count) throw new Error(`heldOutModels: ${at} held-out rows listed, ${count} expected`);
   return { foldModels, heldOut: { row, fold, residual } };
+}
+
+// heldOutModels' passes over the rows, each a small function of its own: called once per fold or
+// column, each is optimized as a whole after its first calls, where the same loops inside the one
+// large heldOutModels ran unoptimized (boxing every double) while it compiled and after its
+// on-stack compilation left for code it had not yet run (first fit of a process: measured by
+// V8's --trace-opt --trace-deopt and a sampling allocation profile). Same operations, same order.
+
+/** Rows of `block` with positive weight: held out by fold f, their predictions start at yOffset. */
+function markHeldOut(block: Int32Array, weights: Float64Array | null, f: number, yOffset: number, foldOf: Int32Array, prediction: Float64Array): void {
+  for (let t = 0; t < block.length; t++) {
+    const i = block[t];
+    if (weights && !(weights[i] > 0)) continue;
+    foldOf[i] = f;
+    prediction[i] = yOffset;
+  }
+}
+
+/** prediction_i += b_f · ((x_ij × factor − anchor_f) − offset_f) for the fold f = foldOf[i] (terms: 3 per fold). */
+function addColumnTerms(prediction: Float64Array, values: Float64Array, off: number, factor: number, foldOf: Int32Array, terms: Float64Array, n: number): void {
+  for (let i = 0; i < n; i++) {
+    const t = 3 * foldOf[i];
+    prediction[i] += terms[t] * (values[off + i] * factor - terms[t + 1] - terms[t + 2]);
+  }
+}
+
+/** Lists fold f's held-out rows of `block` from `at` on (row, fold, residual in the target's units); returns the next free index. */
+function listResiduals(
+  block: Int32Array,
+  f: number,
+  foldOf: Int32Array,
+  y: Float64Array,
+  yAnchor: number,
+  prediction: Float64Array,
+  unit: number,
+  exponent: number,
+  row: number[],
+  fold: number[],
+  residual: number[],
+  at: number,
+): number {
+  for (let t = 0; t < block.length; t++) {
+    const i = block[t];
+    if (foldOf[i] !== f) continue;
+    const held = y[i] - yAnchor - prediction[i];
+    row[at] = i;
+    fold[at] = f;
+    residual[at++] = Number.isNaN(unit) ? scaleByPowerOfTwo(held, exponent) : held * unit;
+  }
+  return at;
 }
 
 /** As coefficientInDataUnits, but a value below the normal range is returned rounded (it only loses digits); overflow still throws. */
@@ -3003,7 +3168,8 @@ function stabilityTerms(data: Prepared, full: TrainingProblem, options: FitOptio
  * runLogisticPath do for a fold (never stopping early), one strength per call.
  */
 function stabilityInput(data: Prepared, full: TrainingProblem, options: FitOptions, mix: number, run: PathRun, onHalf: () => void): StabilityInput {
-  const { x, y, weights } = data;
+  const { y, weights } = data;
+  const { x, factors } = readX(data);
   const signal = data.settings.signal;
   const strengths = run.strengths;
   const { candidate, unpenalized, settings } = stabilityTerms(data, full, options);
@@ -3027,7 +3193,7 @@ function stabilityInput(data: Prepared, full: TrainingProblem, options: FitOptio
   const fitHalf = (rows: Int32Array): HalfPath => {
     let converged = true;
     if (twoClass) {
-      const problem = problemFromRows(x, y, weights, rows, problemOptions, signal);
+      const problem = problemFromRows(x, y, weights, rows, problemOptions, signal, factors);
       const { solver, start } = startTwoClass(data, problem, outcomesOf(data, rows), penaltyFor(problem, data, mix), false, []);
       converged = start.converged;
       return {
@@ -3039,8 +3205,8 @@ function stabilityInput(data: Prepared, full: TrainingProblem, options: FitOptio
       };
     }
     const problem = data.gram
-      ? problemFromSums(blockSums(x, y, weights, rows, shiftX, shiftY, signal), shiftX, shiftY, problemOptions)
-      : problemFromRows(x, y, weights, rows, problemOptions, signal);
+      ? problemFromSums(blockSums(x, y, weights, rows, shiftX, shiftY, signal, factors), shiftX, shiftY, problemOptions)
+      : problemFromRows(x, y, weights, rows, problemOptions, signal, factors);
     const solver = new CoordinateDescent(problem, penaltyFor(problem, data, mix), data.settings);
     converged = solver.fitUnpenalized().converged;
     return {

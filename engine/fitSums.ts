@@ -277,6 +277,7 @@ export function setUpFromSums(input: SumsTable | unknown, options: SumsFitOption
   const noRows = { rows: 0, columns: p, data: none };
   const data: Prepared = {
     x: noRows,
+    inPlace: null,
     y: none,
     weights: null,
     original: { x: noRows, y: none, weights: null },

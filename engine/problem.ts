@@ -213,8 +213,9 @@ export function blockSums(
   shiftX: Float64Array,
   shiftY: number,
   signal?: CancelSignal,
+  factors: Float64Array | null = null,
 ): BlockSums {
-  return blockSumsOf(x, y, weights, [rows], shiftX, shiftY, signal)[0];
+  return blockSumsOf(x, y, weights, [rows], shiftX, shiftY, signal, factors)[0];
 }
 
 /** Columns per panel of the cross-product kernel: tiles of 4 × 4 products, 16 accumulators. */
@@ -247,6 +248,10 @@ const WINDOW_VALUES = 2 ** 15;
  * blocks, never on timing, so results are bit-identical from run to run; the partial sums over
  * short segments keep the rounding of long blocks small. Cost O(rows·p²/2); a cancel checkpoint
  * per window.
+ *
+ * `factors` (optional): column j's values are read as x_j × factors[j], each product formed as
+ * the value is gathered (fit.ts reads the caller's data in place with its powers of two this
+ * way: the same products a scaled copy would hold, so the same sums). Null: as stored.
  */
 export function blockSumsOf(
   x: ColumnMatrix,
@@ -256,6 +261,7 @@ export function blockSumsOf(
   shiftX: Float64Array,
   shiftY: number,
   signal?: CancelSignal,
+  factors: Float64Array | null = null,
 ): BlockSums[] {
   const p = x.columns;
   const n = x.rows;
@@ -285,12 +291,7 @@ export function blockSumsOf(
     let count = 0;
     for (let k = 0; k < K; k++) {
       segment[k] = count;
-      const list = sorted[k];
-      for (let r = cursor[k]; r < list.length && list[r] < i1; r++) {
-        const i = list[r];
-        if (i < i0) throw new Error(`blockSumsOf: row ${i} is out of range`);
-        w[count++] = weights ? weights[i] : 1;
-      }
+      count = gatherWeights(sorted[k], cursor[k], i0, i1, weights, w, count);
     }
     segment[K] = count;
     if (count === 0) continue;
@@ -299,24 +300,17 @@ export function blockSumsOf(
       const values = j < p ? data : j === p ? y : null;
       const src = j < p ? j * n : 0;
       const shift = j < p ? shiftX[j] : j === p ? shiftY : 0;
+      // × 1 leaves every value as it is (finite values, -0 included).
+      const factor = j < p && factors ? factors[j] : 1;
       for (let k = 0; k < K; k++) {
-        const list = sorted[k];
-        let t = segment[k];
-        const end = segment[k + 1];
-        let r = cursor[k];
-        let largest = 0;
         if (values) {
-          for (; t < end; t++, r++) {
-            const v = values[src + list[r]];
-            a[base + PANEL * t] = v - shift;
-            if (w[t] > 0 && Math.abs(v) > largest) largest = Math.abs(v);
-          }
+          const largest = packValues(values, src, factor, shift, sorted[k], cursor[k], segment[k], segment[k + 1], a, base, w);
           const out = outs[k];
           if (j < p) {
             if (largest > out.largest[j]) out.largest[j] = largest;
           } else if (largest > out.largestY) out.largestY = largest;
         } else {
-          for (; t < end; t++) a[base + PANEL * t] = 1;
+          for (let t = segment[k]; t < segment[k + 1]; t++) a[base + PANEL * t] = 1;
         }
       }
     }
@@ -357,6 +351,45 @@ export function blockSumsOf(
     out.weight = total[(p + 1) * Q + p + 1];
   }
   return outs;
+}
+
+/** blockSumsOf: the weights (1 without) of a block's rows in [i0, i1) from list[r0] on, into w from `count`; returns the new count. */
+function gatherWeights(list: Int32Array, r0: number, i0: number, i1: number, weights: ArrayLike<number> | null, w: Float64Array, count: number): number {
+  for (let r = r0; r < list.length && list[r] < i1; r++) {
+    const i = list[r];
+    if (i < i0) throw new Error(`blockSumsOf: row ${i} is out of range`);
+    w[count++] = weights ? weights[i] : 1;
+  }
+  return count;
+}
+
+/**
+ * blockSumsOf's gather of one column's rows of one block into its panel slot: rows list[r0], …
+ * (one per t in [t0, t1)) read as value × factor, stored less the shift; returns the largest
+ * magnitude among rows of positive weight. A function of its own, called per column and block,
+ * so it is optimized as a whole after its first calls (inside blockSumsOf, which runs once per
+ * fit, this loop ran unoptimized, boxing each value, during most of a process's first fit).
+ */
+function packValues(
+  values: ArrayLike<number>,
+  src: number,
+  factor: number,
+  shift: number,
+  list: Int32Array,
+  r0: number,
+  t0: number,
+  t1: number,
+  a: Float64Array,
+  base: number,
+  w: Float64Array,
+): number {
+  let largest = 0;
+  for (let t = t0, r = r0; t < t1; t++, r++) {
+    const v = values[src + list[r]] * factor;
+    a[base + PANEL * t] = v - shift;
+    if (w[t] > 0 && Math.abs(v) > largest) largest = Math.abs(v);
+  }
+  return largest;
 }
 
 /**
@@ -588,17 +621,20 @@ export function stableCentre(values: ArrayLike<number>, omega: ArrayLike<number>
  * value near the centre, such as the shifts of the Gram pass (fit.ts fullShift), at half the
  * passes of the full centre.
  */
-export function stableAnchor(values: ArrayLike<number>, omega: ArrayLike<number>, m: number): number {
+export function stableAnchor(values: ArrayLike<number>, omega: ArrayLike<number>, m: number, factor = 1): number {
+  // Each value read as values[t] × factor (1: as stored, exactly), so a caller holding data and
+  // a power of two gets the anchor of the scaled values without a scaled copy (fit.ts fullShift).
   let rough = 0;
-  for (let t = 0; t < m; t++) rough += omega[t] * values[t];
+  for (let t = 0; t < m; t++) rough += omega[t] * (values[t] * factor);
   let anchor = NaN;
   let nearest = Infinity;
   for (let t = 0; t < m; t++) {
     if (!(omega[t] > 0)) continue;
-    const distance = Math.abs(values[t] - rough);
+    const v = values[t] * factor;
+    const distance = Math.abs(v - rough);
     if (distance < nearest) {
       nearest = distance;
-      anchor = values[t];
+      anchor = v;
     }
   }
   return anchor;
@@ -613,7 +649,7 @@ export function stableMean(values: ArrayLike<number>, omega: ArrayLike<number>, 
 /**
  * Naive-form problem over the listed rows (all rows when `rows` is null): standardized copy
  * of those rows, column-major. Centres by `stableCentre`, spreads by a second pass about them.
- * Cost O(rows·p).
+ * Cost O(rows·p). `factors` (optional): column j read as x_j × factors[j], as blockSumsOf reads it.
  */
 export function problemFromRows(
   x: ColumnMatrix,
@@ -622,6 +658,7 @@ export function problemFromRows(
   rows: ArrayLike<number> | null,
   options: ProblemOptions,
   signal?: CancelSignal,
+  factors: Float64Array | null = null,
 ): TrainingProblem {
   const n = x.rows;
   const p = x.columns;
@@ -666,9 +703,10 @@ export function problemFromRows(
     throwIfCancelled(signal);
     const src = j * n;
     const col = xs.data.subarray(j * m, (j + 1) * m);
+    const factor = factors ? factors[j] : 1;
     let largest = 0;
     for (let t = 0; t < m; t++) {
-      col[t] = x.data[src + index(t)];
+      col[t] = x.data[src + index(t)] * factor;
       if (omega[t] > 0 && Math.abs(col[t]) > largest) largest = Math.abs(col[t]);
     }
     const { anchor, offset } = options.intercept ? stableCentre(col, omega, m) : { anchor: 0, offset: 0 };
