@@ -61,7 +61,8 @@ export type SumsSource =
   | { kind: "table"; name: string }
   | { kind: "csv"; path: string }
   | { kind: "parquet"; path: string }
-  | { kind: "query"; sql: string };
+  /** `countWithoutScan`: count(*) of the query is answered without reading its rows (e.g. a query over read_parquet, whose footer holds the row count). */
+  | { kind: "query"; sql: string; countWithoutScan?: boolean };
 
 /** How rows are dealt into blocks (see the file comment). */
 export type FoldRule =
@@ -458,23 +459,48 @@ export interface FirstPass {
   cuts: string | null;
 }
 
-/** The first pass (see the file comment). */
+/** Whether count(*) of a DuckDB source costs no scan: a Parquet file (its footer holds the row count) or a query said to be one. */
+function countWithoutScan(source: SumsSource): boolean {
+  return source.kind === "parquet" || (source.kind === "query" && source.countWithoutScan === true);
+}
+
+/**
+ * The first pass (see the file comment). Its aggregates are over the used rows, as FILTER (WHERE
+ * used) (ClickHouse -If) beside the count of all rows. For DuckDB, when no column is text (no
+ * check over all rows) and counting the source's rows costs no scan (Parquet), the used rows are
+ * chosen once instead, by WHERE, with the count of all rows from a scalar subquery: the same
+ * aggregates over the same rows in the same order, without evaluating the condition (one NOT NULL
+ * test per used column) again for every aggregate; measured at about 0.6 of the FILTER form's
+ * time on 1,000,000 × 20 Parquet (bench/sumsDuckdb.ts). A CSV keeps the FILTER form, since its
+ * count would read the file a second time.
+ */
 export function firstPassSql(plan: SumsPlan): FirstPass {
   const list = new AggregateList();
+  const numberColumns = [plan.target, ...(plan.weights ? [plan.weights] : []), ...plan.predictors];
+  const byWhere = plan.dialect === "duckdb" && countWithoutScan(plan.request.source) && !numberColumns.some((c) => c.kind === "text");
   const used = usedSql(plan);
   const w = weightSql(plan);
+  const from = sourceSql(plan.request.source, plan.dialect);
+  // An aggregate over the used rows: filtered here, or by the WHERE clause.
+  const overUsed = (fn: "sum" | "count", expression: string, extra: string | null = null): string => {
+    if (byWhere) {
+      if (fn === "sum") return `sum(${expression})`;
+      return extra === null ? "count(*)" : countWhere(plan, extra);
+    }
+    if (fn === "sum") return conditional(plan, "sum", expression, used);
+    return countWhere(plan, extra === null ? used : `${used} AND ${extra}`);
+  };
   const out: FirstPass = {
     sql: "",
-    total: list.add(plan.dialect === "duckdb" ? "count(*)" : "count()"),
-    used: list.add(countWhere(plan, used)),
-    weight: list.add(w === null ? countWhere(plan, used) : conditional(plan, "sum", w, used)),
-    negativeWeights: w === null ? null : list.add(countWhere(plan, `${used} AND ${w} < 0`)),
+    total: list.add(byWhere ? `(SELECT count(*) FROM ${from})` : plan.dialect === "duckdb" ? "count(*)" : "count()"),
+    used: list.add(overUsed("count", "")),
+    weight: list.add(w === null ? overUsed("count", "") : overUsed("sum", w)),
+    negativeWeights: w === null ? null : list.add(overUsed("count", "", `${w} < 0`)),
     weightedSum: new Map(),
     textCheck: new Map(),
     distinct: new Map(),
     cuts: null,
   };
-  const numberColumns = [plan.target, ...(plan.weights ? [plan.weights] : []), ...plan.predictors];
   for (const c of numberColumns) {
     if (c.kind === "text") {
       const id = q(plan, c.name);
@@ -490,17 +516,21 @@ export function firstPassSql(plan: SumsPlan): FirstPass {
     // A text column that turns out to hold levels adds these two harmlessly (NULL reads skipped).
     // A NaN or ±∞ in the column (or values too large to add) makes this sum non-finite: the check
     // costs no aggregate of its own.
-    out.weightedSum.set(c.name, list.add(conditional(plan, "sum", w === null ? x : `${w} * ${x}`, used)));
+    out.weightedSum.set(c.name, list.add(overUsed("sum", w === null ? x : `${w} * ${x}`)));
   }
   const fold = plan.request.fold;
   if (fold.kind === "time" && fold.cuts === undefined) {
     const levels = Array.from({ length: fold.folds }, (_, j) => String((j + 1) / (fold.folds + 1)));
     const t = timeSql(plan);
     out.cuts = list.add(
-      plan.dialect === "duckdb" ? `quantile_disc(${t}, [${levels.join(", ")}]) FILTER (WHERE ${used})` : `quantilesExactIf(${levels.join(", ")})(${t}, ${used})`,
+      byWhere
+        ? `quantile_disc(${t}, [${levels.join(", ")}])`
+        : plan.dialect === "duckdb"
+          ? `quantile_disc(${t}, [${levels.join(", ")}]) FILTER (WHERE ${used})`
+          : `quantilesExactIf(${levels.join(", ")})(${t}, ${used})`,
     );
   }
-  out.sql = `SELECT\n  ${list.select()}\nFROM ${sourceSql(plan.request.source, plan.dialect)}`;
+  out.sql = `SELECT\n  ${list.select()}\nFROM ${from}${byWhere ? `\nWHERE ${used}` : ""}`;
   return out;
 }
 

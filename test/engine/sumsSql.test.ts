@@ -126,6 +126,45 @@ describe("sums of a file by DuckDB against a two-pass reference", () => {
     expect(gap(fixed, reference)).toBeLessThan(1e-10);
   });
 
+  test("Parquet without text columns: the first pass picks the used rows by WHERE, and gives the FILTER form's table bit for bit", async () => {
+    // Property (common practice: two routes agreeing): the same file read as a plain Parquet source
+    // (WHERE form, count from the footer) and through a query over it (FILTER form) must give the
+    // same table bit for bit, and both the reference's to 1e-10, for column, hash and time blocks.
+    const parquet = await toParquet(writeCsv("numbers.csv", csvOf(rows)), "numbers.parquet");
+    const numbersOnly = used.filter((c) => c !== "roast_level");
+    const viaQuery = { kind: "query" as const, sql: `SELECT * FROM read_parquet(${quoteString(parquet, "duckdb")})` };
+    const firstPasses: string[] = [];
+    const onQuery = (step: string, sql: string) => {
+      if (step === "firstPass") firstPasses.push(sql);
+    };
+    const folds: [FoldRule, (r: Reading) => string, (keyof Reading)[]][] = [
+      [{ kind: "column", column: "batch" }, (r) => r.batch, []],
+      [{ kind: "hash", key: "reading_id", folds: 7 }, (r) => String(foldOfKey(r.reading_id, 7) + 1), ["reading_id"]],
+    ];
+    for (const [fold, label, extra] of folds) {
+      const base = { ...request(parquet, fold), predictors: ["drum_temp", "airflow", "bean_moisture"] };
+      firstPasses.length = 0;
+      const byWhere = await duckdbSums(base, { onQuery });
+      const byFilter = await duckdbSums({ ...base, source: viaQuery }, { onQuery });
+      expect(firstPasses[0]).toMatch(/\nWHERE /);
+      expect(firstPasses[0].match(/IS NOT NULL/g)).toHaveLength(6); // the condition once: one test per used column
+      expect(firstPasses[1]).toMatch(/FILTER \(WHERE/);
+      expect(JSON.stringify({ ...byWhere, source: "" })).toBe(JSON.stringify({ ...byFilter, source: "" }));
+      const reference = referenceSums(rows, byWhere, [...numbersOnly.filter((c) => c !== "batch" || fold.kind === "column"), ...extra], "lot_weight", label);
+      expect(gap(byWhere, reference)).toBeLessThan(1e-10);
+      expect(byWhere.skippedRows).toBe(rows.length - reference.kept);
+    }
+    // Time blocks: the quantiles are taken over the used rows in both forms.
+    const time = { ...request(parquet, { kind: "time", column: "minute", folds: 4 }), predictors: ["drum_temp", "airflow", "bean_moisture"] };
+    const a = await duckdbSums(time);
+    const b = await duckdbSums({ ...time, source: viaQuery });
+    expect(JSON.stringify({ ...a, source: "" })).toBe(JSON.stringify({ ...b, source: "" }));
+    // Negative weights are still found (a count over the used rows, without the repeated condition).
+    const negative = join(folder, "negative.parquet");
+    await duckdbRun(`COPY (SELECT * FROM (VALUES (1.0, 2.0, 1.0, 1), (2.0, 3.0, -1.0, 2), (3.0, 5.0, 1.0, 3)) AS t(y, x, w, id)) TO ${quoteString(negative, "duckdb")} (FORMAT parquet)`);
+    await expect(duckdbSums({ source: fileSource(negative), target: "y", predictors: ["x"], weights: "w", fold: { kind: "hash", key: "id", folds: 2 } })).rejects.toThrow(/negative values/);
+  });
+
   test("precision: an offset of 1e8 × the spread keeps the sums' digits", async () => {
     // drum_temp's spread is 15; 1.5e9 + ~200 is 1e8 × 15. Without centring, Σw(x − x̄)² from
     // Σwx² − (Σwx)²/Σw would lose all its digits (x² ≈ 2e18, eps·x² ≈ 500 ≫ the spread² 225).
