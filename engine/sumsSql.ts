@@ -767,12 +767,23 @@ export function secondPassSql(plan: SumsPlan, facts: FirstPassFacts, terms: read
     term: (a: number) => `sw_t${a}`,
     termRaw: (a: number) => `sw_x${a}`,
   };
+  // DuckDB with weights: the row's weight times its first factor is formed once per row in the
+  // subquery (sw_wy, sw_wt<a>) and each aggregate multiplies it by the second factor. That is the
+  // expression sum(sw_w * a * b) computed before, (w·a)·b, so the sums are the same bit for bit,
+  // with one multiply per aggregate and row instead of two. Without weights no weight enters.
+  const preWeighted = d === "duckdb" && w !== null;
+  const weightedName = (factor: string): string => factor.replace(/^sw_/, "sw_w");
   const sum = (...factors: string[]): string => {
+    if (preWeighted && factors.length > 0) return `sum(${[weightedName(factors[0]), ...factors.slice(1)].join(" * ")})`;
     const all = w === null ? factors : [names.weight, ...factors];
     return all.length === 0 ? (d === "duckdb" ? "count(*)" : "count()") : `sum(${all.join(" * ")})`;
   };
   const positive = w === null ? null : `${names.weight} > 0`;
-  const largest = (x: string): string => (positive === null ? `max(abs(${x}))` : conditional(plan, "max", `abs(${x})`, positive));
+  // DuckDB: CASE rather than FILTER (WHERE sw_w > 0): the same maximum (max skips the NULLs of
+  // the other rows), but FILTER slices every column of the chunk once per aggregate, which cost
+  // more than all the cross-products together (1,000,000 × 20 Parquet with weights: 2.2 s → 1.2 s).
+  const largest = (x: string): string =>
+    positive === null ? `max(abs(${x}))` : d === "duckdb" ? `max(CASE WHEN ${positive} THEN abs(${x}) END)` : conditional(plan, "max", `abs(${x})`, positive);
   const slotSql = (s: Slot): string => {
     switch (s.kind) {
       case "weight":
@@ -818,8 +829,12 @@ export function secondPassSql(plan: SumsPlan, facts: FirstPassFacts, terms: read
     const defs: [string, string][] = [];
     if (w !== null) defs.push([names.weight, w]);
     if (needY) defs.push([names.y, centred(targetRaw, targetCentre)]);
+    if (needY && preWeighted) defs.push([weightedName(names.y), `${w} * ${centred(targetRaw, targetCentre)}`]);
     if (needYRaw) defs.push([names.yRaw, targetRaw]);
-    for (const a of [...needTerm].sort((x, y) => x - y)) defs.push([names.term(a), centred(raw(terms[a]), termCentre[a])]);
+    for (const a of [...needTerm].sort((x, y) => x - y)) {
+      defs.push([names.term(a), centred(raw(terms[a]), termCentre[a])]);
+      if (preWeighted) defs.push([weightedName(names.term(a)), `${w} * ${centred(raw(terms[a]), termCentre[a])}`]);
+    }
     for (const a of [...needRaw].sort((x, y) => x - y)) defs.push([names.termRaw(a), raw(terms[a])]);
     const aggregates = chunk.map((s, i) => `${slotSql(s)} AS s${i}`).join(",\n  ");
     let sql: string;

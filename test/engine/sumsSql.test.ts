@@ -16,7 +16,7 @@ import { mkdtempSync, rmSync, writeFileSync } from "fs";
 import { tmpdir } from "os";
 import { join } from "path";
 import { InputError } from "../../engine/errors";
-import { duckdbRun, duckdbSums, fileSource } from "../../engine/node/duckdb";
+import { duckdbPrepare, duckdbRun, duckdbSums, fileSource } from "../../engine/node/duckdb";
 import { computeSums, exactLiteral, foldHashSql, foldOfKey, quoteIdentifier, quoteString, type FoldRule, type SqlRow } from "../../engine/sumsSql";
 import { fitFromSums } from "../../engine/fitSums";
 import { checkSums, sumsOfRows } from "../../engine/sums";
@@ -163,6 +163,28 @@ describe("sums of a file by DuckDB against a two-pass reference", () => {
     const negative = join(folder, "negative.parquet");
     await duckdbRun(`COPY (SELECT * FROM (VALUES (1.0, 2.0, 1.0, 1), (2.0, 3.0, -1.0, 2), (3.0, 5.0, 1.0, 3)) AS t(y, x, w, id)) TO ${quoteString(negative, "duckdb")} (FORMAT parquet)`);
     await expect(duckdbSums({ source: fileSource(negative), target: "y", predictors: ["x"], weights: "w", fold: { kind: "hash", key: "id", folds: 2 } })).rejects.toThrow(/negative values/);
+  });
+
+  test("weights: each aggregate's w·a formed once a row, and the largest magnitudes by CASE, give the sums of sum(w * a * b) and FILTER bit for bit", async () => {
+    // Property (IEEE 754 multiplication is deterministic; w * a * b parses as (w * a) * b): the
+    // second pass with sw_wt<a> = w·(x_a − c_a) precomputed must answer exactly what the same query
+    // with every product written out sum(sw_w * sw_t<a> * …) answers, cell for cell.
+    // Every seventh row weighs 0, so that the largest magnitudes (over rows of weight > 0) leave rows out.
+    const csv = writeCsv("weighted.csv", csvOf(rows.map((r, i) => (i % 7 === 0 ? { ...r, lot_weight: 0 } : r))));
+    for (const fold of [{ kind: "column", column: "batch" }, { kind: "hash", key: "reading_id", folds: 5 }] as FoldRule[]) {
+      const { second } = await duckdbPrepare(request(csv, fold));
+      for (const query of second.queries) {
+        expect(query.sql).toMatch(/sum\(sw_wt0 \* sw_t1\)/);
+        // The largest magnitudes as FILTER, as they were written before (common practice: both skip the rows of weight 0).
+        expect(query.sql).toMatch(/max\(CASE WHEN sw_w > 0 THEN abs\(sw_x0\) END\)/);
+        const spelledOut = query.sql
+          .replace(/sum\(sw_w(y|t\d+)((?: \* sw_\w+)?)\)/g, "sum(sw_w * sw_$1$2)")
+          .replace(/max\(CASE WHEN sw_w > 0 THEN abs\((sw_\w+)\) END\)/g, "max(abs($1)) FILTER (WHERE sw_w > 0)");
+        expect(spelledOut).not.toMatch(/sum\(sw_wt|sum\(sw_wy/);
+        const byBlock = (answer: SqlRow[]) => JSON.stringify([...answer].sort((a, b) => String(a.sw_block).localeCompare(String(b.sw_block))), (_, v: unknown) => (typeof v === "bigint" ? v.toString() : v));
+        expect(byBlock(await duckdbRun(query.sql))).toBe(byBlock(await duckdbRun(spelledOut)));
+      }
+    }
   });
 
   test("precision: an offset of 1e8 × the spread keeps the sums' digits", async () => {
