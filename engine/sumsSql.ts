@@ -14,12 +14,14 @@
  *    column, refused), negative weights (refused),
  *    for text columns the count of distinct values in the used rows (the level cap) and how many
  *    values read as numbers (a mostly-number text column is a typo: refused naming a sample value;
- *    an all-number text column is read as numbers), and for time blocks the cut points.
+ *    an all-number text column is read as numbers), and for time blocks the cut points. DuckDB on
+ *    Parquet without text columns picks the used rows once by WHERE and counts all rows from the
+ *    file's footer (firstPassSql), rather than repeating the condition on every aggregate.
  * 1b. Levels: one small GROUP BY per text predictor (within the cap): each level, its rows and
  *    its weight (an indicator's centre is its level's weighted share).
  * 2. Second pass: per block, Σw, rows, Σw(x_a − c_a), Σw(x_a − c_a)(x_b − c_b) for a ≤ b,
  *    Σw(x_a − c_a)(y − c_y), Σw(y − c_y)² and max|x| over rows with w > 0, the centre inlined as
- *    exact literals. The aggregates are dealt into queries of at most `maxAggregates` each
+ *    exact literals (DuckDB with weights forms w·(x_a − c_a) once a row: the same (w·a)·b). The aggregates are dealt into queries of at most `maxAggregates` each
  *    (default 1000 DuckDB, 400 ClickHouse, whose default max_query_size is 256 KiB), so a wide
  *    model never sends one unbounded query; each query returns one row per block.
  *
