@@ -39,7 +39,8 @@
  *
  * `--only sums` also times the sums table by DuckDB (bench/sumsDuckdb.ts): a seeded 10,000,000 × 20
  * Parquet file in a temporary folder (removed afterwards), the sums' time as a ratio to a plain
- * single-aggregate scan of the same columns (goal ≤ 3), and the process's peak memory at 1M and
+ * single-aggregate scan of the same columns at the same DuckDB thread count (one, then every core;
+ * goal ≤ 3), and the process's peak memory at 1M and
  * 10M rows (goal: independent of the rows).
  *
  * Prints a table, then one JSON line per case.

@@ -7,8 +7,9 @@
  * for the same seed), in a temporary folder removed afterwards; and the same for 1,000,000 rows
  * (for the memory figure). One predictor is a timestamp near 1.7e9 (a large offset).
  *
- * Figures, each best of --repeat (default 1) on one DuckDB thread (the route's default, for
- * bit-identical sums), both in this process, interleaved:
+ * Figures, each best of --repeat (default 1), in this process, interleaved; first on one DuckDB
+ * thread (the route's default, for bit-identical sums), then, on a machine with more cores, on
+ * every core (DuckDB's own default), the scan and the sums at the same thread count:
  * - `sumsMs`: the whole sums table (describe, first pass, second pass: 231 cross-products,
  *   20 offsets and cross-products with the target, 10 blocks by the hash of the reading id);
  * - `scanMs`: a plain single-aggregate scan of the same file that reads every column the sums read
@@ -85,7 +86,9 @@ export interface DuckdbSumsBench {
 /** Runs the bench (see the file comment); the temporary folder is removed whatever happens. */
 export async function duckdbSumsBench(repeat = 1): Promise<DuckdbSumsBench> {
   const folder = fs.mkdtempSync(path.join(os.tmpdir(), "shrinkwise-bench-sums-"));
-  const table: string[][] = [["sums by DuckDB", "rows", "sums ms", "scan ms", "sums÷scan", "goal", "1-column scan ms", "peak MB", "blocks", "file MB"]];
+  const table: string[][] = [["sums by DuckDB", "rows", "threads", "sums ms", "scan ms", "sums÷scan", "goal", "1-column scan ms", "peak MB", "blocks", "file MB"]];
+  const cores = os.cpus().length;
+  const threadCounts = cores > 1 ? [1, cores] : [1];
   const lines: string[] = [];
   try {
     for (const rows of [1_000_000, 10_000_000]) {
@@ -97,49 +100,52 @@ export async function duckdbSumsBench(repeat = 1): Promise<DuckdbSumsBench> {
       const scanSql = (aggregate: string) => `SELECT ${aggregate} AS s FROM read_parquet(${quoteString(file, "duckdb")})`;
       // Warm the file cache once, then interleave: scan, sums, one-column scan.
       await duckdbRun(scanSql(every), 1);
-      let scanMs = Infinity;
-      let sumsMs = Infinity;
-      let oneMs = Infinity;
-      let peakMB: number | null = null;
-      let blocks = 0;
-      for (let r = 0; r < repeat; r++) {
-        scanMs = Math.min(scanMs, (await best(1, () => duckdbRun(scanSql(every), 1))).ms);
-        const measured = await peakDuring(() => best(1, () => duckdbSums(request)));
-        sumsMs = Math.min(sumsMs, measured.value.ms);
-        peakMB = measured.peakMB === null ? null : Math.max(peakMB ?? 0, measured.peakMB);
-        blocks = measured.value.value.blocks.length;
-        oneMs = Math.min(oneMs, (await best(1, () => duckdbRun(scanSql("sum(y)"), 1))).ms);
-      }
       const fileMB = fs.statSync(file).size / 1e6;
-      table.push([
-        `${rows} × ${PREDICTORS}`,
-        String(rows),
-        sumsMs.toFixed(0),
-        scanMs.toFixed(0),
-        (sumsMs / scanMs).toFixed(2),
-        "≤ 3",
-        oneMs.toFixed(0),
-        peakMB === null ? "–" : peakMB.toFixed(1),
-        String(blocks),
-        fileMB.toFixed(0),
-      ]);
-      lines.push(
-        JSON.stringify({
-          case: `sums-duckdb-${rows}x${PREDICTORS}`,
-          rows,
-          p: PREDICTORS,
-          blocks,
-          threads: 1,
-          sumsMs: Number(sumsMs.toFixed(1)),
-          scanMs: Number(scanMs.toFixed(1)),
-          vsScan: Number((sumsMs / scanMs).toFixed(3)),
-          oneColumnScanMs: Number(oneMs.toFixed(1)),
-          peakMB: peakMB === null ? null : Number(peakMB.toFixed(1)),
-          fileMB: Number(fileMB.toFixed(1)),
-          // Milliseconds on a shared machine: the load beside them says how much to trust them.
-          loadAverage: Number(os.loadavg()[0].toFixed(2)),
-        }),
-      );
+      for (const threads of threadCounts) {
+        let scanMs = Infinity;
+        let sumsMs = Infinity;
+        let oneMs = Infinity;
+        let peakMB: number | null = null;
+        let blocks = 0;
+        for (let r = 0; r < repeat; r++) {
+          scanMs = Math.min(scanMs, (await best(1, () => duckdbRun(scanSql(every), threads))).ms);
+          const measured = await peakDuring(() => best(1, () => duckdbSums(request, { threads })));
+          sumsMs = Math.min(sumsMs, measured.value.ms);
+          peakMB = measured.peakMB === null ? null : Math.max(peakMB ?? 0, measured.peakMB);
+          blocks = measured.value.value.blocks.length;
+          oneMs = Math.min(oneMs, (await best(1, () => duckdbRun(scanSql("sum(y)"), threads))).ms);
+        }
+        table.push([
+          `${rows} × ${PREDICTORS}`,
+          String(rows),
+          String(threads),
+          sumsMs.toFixed(0),
+          scanMs.toFixed(0),
+          (sumsMs / scanMs).toFixed(2),
+          "≤ 3",
+          oneMs.toFixed(0),
+          peakMB === null ? "–" : peakMB.toFixed(1),
+          String(blocks),
+          fileMB.toFixed(0),
+        ]);
+        lines.push(
+          JSON.stringify({
+            case: `sums-duckdb-${rows}x${PREDICTORS}`,
+            rows,
+            p: PREDICTORS,
+            blocks,
+            threads,
+            sumsMs: Number(sumsMs.toFixed(1)),
+            scanMs: Number(scanMs.toFixed(1)),
+            vsScan: Number((sumsMs / scanMs).toFixed(3)),
+            oneColumnScanMs: Number(oneMs.toFixed(1)),
+            peakMB: peakMB === null ? null : Number(peakMB.toFixed(1)),
+            fileMB: Number(fileMB.toFixed(1)),
+            // Milliseconds on a shared machine: the load beside them says how much to trust them.
+            loadAverage: Number(os.loadavg()[0].toFixed(2)),
+          }),
+        );
+      }
       fs.rmSync(file, { force: true });
     }
   } finally {

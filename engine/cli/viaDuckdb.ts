@@ -81,7 +81,7 @@ function sourceFor(options: CommandOptions, needPosition: boolean): SumsSource {
   const path = quoteString(options.file, "duckdb");
   const column = `"${ROW_POSITION_COLUMN}"`;
   return plain.kind === "parquet"
-    ? { kind: "query", sql: `SELECT * EXCLUDE (file_row_number), file_row_number AS ${column} FROM read_parquet(${path}, file_row_number = true)` }
+    ? { kind: "query", sql: `SELECT * EXCLUDE (file_row_number), file_row_number AS ${column} FROM read_parquet(${path}, file_row_number = true)`, countWithoutScan: true }
     : { kind: "query", sql: `SELECT *, row_number() OVER () - 1 AS ${column} FROM read_csv(${path}, header = true)` };
 }
 

@@ -16,7 +16,7 @@ import { mkdtempSync, rmSync, writeFileSync } from "fs";
 import { tmpdir } from "os";
 import { join } from "path";
 import { InputError } from "../../engine/errors";
-import { duckdbRun, duckdbSums, fileSource } from "../../engine/node/duckdb";
+import { duckdbPrepare, duckdbRun, duckdbSums, fileSource } from "../../engine/node/duckdb";
 import { computeSums, exactLiteral, foldHashSql, foldOfKey, quoteIdentifier, quoteString, type FoldRule, type SqlRow } from "../../engine/sumsSql";
 import { fitFromSums } from "../../engine/fitSums";
 import { checkSums, sumsOfRows } from "../../engine/sums";
@@ -124,6 +124,67 @@ describe("sums of a file by DuckDB against a two-pass reference", () => {
     const label = (r: Reading) => String(1 + cuts.filter((c) => r.minute >= c).length);
     const reference = referenceSums(rows, fixed, [...used.filter((c) => c !== "batch"), "minute"], "lot_weight", label);
     expect(gap(fixed, reference)).toBeLessThan(1e-10);
+  });
+
+  test("Parquet without text columns: the first pass picks the used rows by WHERE, and gives the FILTER form's table bit for bit", async () => {
+    // Property (common practice: two routes agreeing): the same file read as a plain Parquet source
+    // (WHERE form, count from the footer) and through a query over it (FILTER form) must give the
+    // same table bit for bit, and both the reference's to 1e-10, for column, hash and time blocks.
+    const parquet = await toParquet(writeCsv("numbers.csv", csvOf(rows)), "numbers.parquet");
+    const numbersOnly = used.filter((c) => c !== "roast_level");
+    const viaQuery = { kind: "query" as const, sql: `SELECT * FROM read_parquet(${quoteString(parquet, "duckdb")})` };
+    const firstPasses: string[] = [];
+    const onQuery = (step: string, sql: string) => {
+      if (step === "firstPass") firstPasses.push(sql);
+    };
+    const folds: [FoldRule, (r: Reading) => string, (keyof Reading)[]][] = [
+      [{ kind: "column", column: "batch" }, (r) => r.batch, []],
+      [{ kind: "hash", key: "reading_id", folds: 7 }, (r) => String(foldOfKey(r.reading_id, 7) + 1), ["reading_id"]],
+    ];
+    for (const [fold, label, extra] of folds) {
+      const base = { ...request(parquet, fold), predictors: ["drum_temp", "airflow", "bean_moisture"] };
+      firstPasses.length = 0;
+      const byWhere = await duckdbSums(base, { onQuery });
+      const byFilter = await duckdbSums({ ...base, source: viaQuery }, { onQuery });
+      expect(firstPasses[0]).toMatch(/\nWHERE /);
+      expect(firstPasses[0].match(/IS NOT NULL/g)).toHaveLength(6); // the condition once: one test per used column
+      expect(firstPasses[1]).toMatch(/FILTER \(WHERE/);
+      expect(JSON.stringify({ ...byWhere, source: "" })).toBe(JSON.stringify({ ...byFilter, source: "" }));
+      const reference = referenceSums(rows, byWhere, [...numbersOnly.filter((c) => c !== "batch" || fold.kind === "column"), ...extra], "lot_weight", label);
+      expect(gap(byWhere, reference)).toBeLessThan(1e-10);
+      expect(byWhere.skippedRows).toBe(rows.length - reference.kept);
+    }
+    // Time blocks: the quantiles are taken over the used rows in both forms.
+    const time = { ...request(parquet, { kind: "time", column: "minute", folds: 4 }), predictors: ["drum_temp", "airflow", "bean_moisture"] };
+    const a = await duckdbSums(time);
+    const b = await duckdbSums({ ...time, source: viaQuery });
+    expect(JSON.stringify({ ...a, source: "" })).toBe(JSON.stringify({ ...b, source: "" }));
+    // Negative weights are still found (a count over the used rows, without the repeated condition).
+    const negative = join(folder, "negative.parquet");
+    await duckdbRun(`COPY (SELECT * FROM (VALUES (1.0, 2.0, 1.0, 1), (2.0, 3.0, -1.0, 2), (3.0, 5.0, 1.0, 3)) AS t(y, x, w, id)) TO ${quoteString(negative, "duckdb")} (FORMAT parquet)`);
+    await expect(duckdbSums({ source: fileSource(negative), target: "y", predictors: ["x"], weights: "w", fold: { kind: "hash", key: "id", folds: 2 } })).rejects.toThrow(/negative values/);
+  });
+
+  test("weights: each aggregate's w·a formed once a row, and the largest magnitudes by CASE, give the sums of sum(w * a * b) and FILTER bit for bit", async () => {
+    // Property (IEEE 754 multiplication is deterministic; w * a * b parses as (w * a) * b): the
+    // second pass with sw_wt<a> = w·(x_a − c_a) precomputed must answer exactly what the same query
+    // with every product written out sum(sw_w * sw_t<a> * …) answers, cell for cell.
+    // Every seventh row weighs 0, so that the largest magnitudes (over rows of weight > 0) leave rows out.
+    const csv = writeCsv("weighted.csv", csvOf(rows.map((r, i) => (i % 7 === 0 ? { ...r, lot_weight: 0 } : r))));
+    for (const fold of [{ kind: "column", column: "batch" }, { kind: "hash", key: "reading_id", folds: 5 }] as FoldRule[]) {
+      const { second } = await duckdbPrepare(request(csv, fold));
+      for (const query of second.queries) {
+        expect(query.sql).toMatch(/sum\(sw_wt0 \* sw_t1\)/);
+        // The largest magnitudes as FILTER, as they were written before (common practice: both skip the rows of weight 0).
+        expect(query.sql).toMatch(/max\(CASE WHEN sw_w > 0 THEN abs\(sw_x0\) END\)/);
+        const spelledOut = query.sql
+          .replace(/sum\(sw_w(y|t\d+)((?: \* sw_\w+)?)\)/g, "sum(sw_w * sw_$1$2)")
+          .replace(/max\(CASE WHEN sw_w > 0 THEN abs\((sw_\w+)\) END\)/g, "max(abs($1)) FILTER (WHERE sw_w > 0)");
+        expect(spelledOut).not.toMatch(/sum\(sw_wt|sum\(sw_wy/);
+        const byBlock = (answer: SqlRow[]) => JSON.stringify([...answer].sort((a, b) => String(a.sw_block).localeCompare(String(b.sw_block))), (_, v: unknown) => (typeof v === "bigint" ? v.toString() : v));
+        expect(byBlock(await duckdbRun(query.sql))).toBe(byBlock(await duckdbRun(spelledOut)));
+      }
+    }
   });
 
   test("precision: an offset of 1e8 × the spread keeps the sums' digits", async () => {
