@@ -223,8 +223,12 @@ export class ActiveFactor {
 
 /**
  * In-place Cholesky–Crout factorization (Golub & Van Loan Alg. 4.2.1) of the m × m matrix in the
- * lower triangle of L (row stride S), two rows at a time: each entry of an earlier row b is loaded
- * once for both rows' inner products (measured: 1.3–1.9× the one-row loop at m = 100–190).
+ * lower triangle of L (row stride S), two rows and two columns at a time: a 2 × 2 block of
+ * inner products shares each loaded entry of the two rows and of the two earlier rows b, b + 1
+ * (two rows at a time, one column: 1.3–1.9× the one-row loop at m = 100–190; two columns as well:
+ * a further 1.2–1.4× at m = 50–100, bench/PROFILE.md "2 × 2 blocks"). Every entry is summed exactly as
+ * in the one-column loop — even and odd k in separate sums, in increasing k, the odd-length tail
+ * last — so the factor is the same bit for bit.
  * False when a pivot is at or below `floor`.
  */
 export function choleskyRows(L: Float64Array, S: number, m: number, floor: number): boolean {
@@ -232,30 +236,49 @@ export function choleskyRows(L: Float64Array, S: number, m: number, floor: numbe
   for (; a + 1 < m; a += 2) {
     const r0 = a * S;
     const r1 = r0 + S;
-    for (let b = 0; b < a; b++) {
+    // a is even, so the columns b < a go in pairs (b even, b + 1): one pass over k < b serves
+    // both columns of both rows (each of the eight loads feeds two products), then column b is
+    // finished and its new entry is column b + 1's last (odd-b tail) term.
+    for (let b = 0; b < a; b += 2) {
       const rb = b * S;
+      const rc = rb + S;
       let s0 = 0;
       let s1 = 0;
       let t0 = 0;
       let t1 = 0;
-      let k = 0;
-      const end = b - (b % 2);
-      for (; k < end; k += 2) {
+      let u0 = 0;
+      let u1 = 0;
+      let v0 = 0;
+      let v1 = 0;
+      for (let k = 0; k < b; k += 2) {
         const x0 = L[rb + k];
         const x1 = L[rb + k + 1];
-        s0 += L[r0 + k] * x0;
-        t0 += L[r0 + k + 1] * x1;
-        s1 += L[r1 + k] * x0;
-        t1 += L[r1 + k + 1] * x1;
-      }
-      if (k < b) {
-        const x = L[rb + k];
-        s0 += L[r0 + k] * x;
-        s1 += L[r1 + k] * x;
+        const y0 = L[rc + k];
+        const y1 = L[rc + k + 1];
+        const p0 = L[r0 + k];
+        const p1 = L[r0 + k + 1];
+        const q0 = L[r1 + k];
+        const q1 = L[r1 + k + 1];
+        s0 += p0 * x0;
+        t0 += p1 * x1;
+        s1 += q0 * x0;
+        t1 += q1 * x1;
+        u0 += p0 * y0;
+        v0 += p1 * y1;
+        u1 += q0 * y0;
+        v1 += q1 * y1;
       }
       const d = L[rb + b];
-      L[r0 + b] = (L[r0 + b] - (s0 + t0)) / d;
-      L[r1 + b] = (L[r1 + b] - (s1 + t1)) / d;
+      const e0 = (L[r0 + b] - (s0 + t0)) / d;
+      const e1 = (L[r1 + b] - (s1 + t1)) / d;
+      L[r0 + b] = e0;
+      L[r1 + b] = e1;
+      const y = L[rc + b];
+      u0 += e0 * y;
+      u1 += e1 * y;
+      const dc = L[rc + b + 1];
+      L[r0 + b + 1] = (L[r0 + b + 1] - (u0 + v0)) / dc;
+      L[r1 + b + 1] = (L[r1 + b + 1] - (u1 + v1)) / dc;
     }
     const s = L[r0 + a] - dotRange(L, r0, L, r0, a);
     if (!(s > floor)) return false;

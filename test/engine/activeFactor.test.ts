@@ -6,7 +6,8 @@
  */
 import fc from "fast-check";
 import { Matrix, solve } from "ml-matrix";
-import { ActiveFactor, StoredMatrix } from "../../engine/activeFactor";
+import { ActiveFactor, choleskyRows, StoredMatrix } from "../../engine/activeFactor";
+import { dotRange } from "../../engine/problem";
 import { TestRandom } from "../helpers/random";
 
 /** A p × p Gram matrix XᵀX / n of random columns (positive definite for n > p). */
@@ -83,4 +84,91 @@ describe("ActiveFactor", () => {
     expect(factor.rebuild(Int32Array.of(0), 1, 0, ones, source)).toBe(true);
     expect(factor.update(Int32Array.of(0, 1), 2, 4, ones, source)).toBe(false);
   });
+
+  test("choleskyRows in 2 × 2 blocks gives the one-column loop's factor bit for bit, and L·Lᵀ = S (Golub & Van Loan Alg. 4.2.1)", () => {
+    fc.assert(
+      fc.property(fc.integer({ min: 0, max: 41 }), fc.integer({ min: 0, max: 3 }), fc.integer({ min: 1, max: 1e9 }), (m, pad, seed) => {
+        const random = new TestRandom(seed);
+        const stride = Math.max(m + pad, 1);
+        const gram = gramOf(Math.max(m, 1), random);
+        const L = new Float64Array(stride * stride);
+        for (let a = 0; a < m; a++) for (let b = 0; b <= a; b++) L[a * stride + b] = gram[a * Math.max(m, 1) + b];
+        const reference = L.slice();
+        const ok = choleskyRows(L, stride, m, 1e-12);
+        expect(oneColumnCholesky(reference, stride, m, 1e-12)).toBe(ok);
+        expect(ok).toBe(true);
+        expect(Buffer.from(L.buffer).equals(Buffer.from(reference.buffer))).toBe(true);
+        // Another route: L·Lᵀ reproduces S (common practice).
+        for (let a = 0; a < m; a++) {
+          for (let b = 0; b <= a; b++) {
+            let s = 0;
+            for (let k = 0; k <= b; k++) s += L[a * stride + k] * L[b * stride + k];
+            const entry = gram[a * Math.max(m, 1) + b];
+            expect(Math.abs(s - entry)).toBeLessThanOrEqual(1e-12 * (1 + Math.abs(entry)) * m);
+          }
+        }
+      }),
+      { numRuns: 60 },
+    );
+  });
+
+  test("choleskyRows refuses a singular matrix as the one-column loop does", () => {
+    for (let m = 2; m < 12; m++) {
+      // Rank 1: every pivot after the first is zero up to rounding.
+      const L = new Float64Array(m * m);
+      for (let a = 0; a < m; a++) for (let b = 0; b <= a; b++) L[a * m + b] = (a + 1) * (b + 1);
+      const reference = L.slice();
+      expect(choleskyRows(L, m, m, 1e-12 * m * m)).toBe(false);
+      expect(oneColumnCholesky(reference, m, m, 1e-12 * m * m)).toBe(false);
+    }
+  });
 });
+
+/**
+ * The previous form of choleskyRows (two rows, one earlier column at a time), kept as the reference
+ * the blocked form must reproduce bit for bit: each entry sums even and odd k apart, in increasing
+ * k, an odd tail last; the pair's diagonal entries and a last odd row through dotRange.
+ */
+function oneColumnCholesky(L: Float64Array, S: number, m: number, floor: number): boolean {
+  let a = 0;
+  for (; a + 1 < m; a += 2) {
+    const r0 = a * S;
+    const r1 = r0 + S;
+    for (let b = 0; b < a; b++) {
+      const rb = b * S;
+      let s0 = 0;
+      let s1 = 0;
+      let t0 = 0;
+      let t1 = 0;
+      let k = 0;
+      const end = b - (b % 2);
+      for (; k < end; k += 2) {
+        s0 += L[r0 + k] * L[rb + k];
+        t0 += L[r0 + k + 1] * L[rb + k + 1];
+        s1 += L[r1 + k] * L[rb + k];
+        t1 += L[r1 + k + 1] * L[rb + k + 1];
+      }
+      if (k < b) {
+        s0 += L[r0 + k] * L[rb + k];
+        s1 += L[r1 + k] * L[rb + k];
+      }
+      L[r0 + b] = (L[r0 + b] - (s0 + t0)) / L[rb + b];
+      L[r1 + b] = (L[r1 + b] - (s1 + t1)) / L[rb + b];
+    }
+    const s = L[r0 + a] - dotRange(L, r0, L, r0, a);
+    if (!(s > floor)) return false;
+    L[r0 + a] = Math.sqrt(s);
+    L[r1 + a] = (L[r1 + a] - dotRange(L, r1, L, r0, a)) / L[r0 + a];
+    const s2 = L[r1 + a + 1] - dotRange(L, r1, L, r1, a + 1);
+    if (!(s2 > floor)) return false;
+    L[r1 + a + 1] = Math.sqrt(s2);
+  }
+  if (a < m) {
+    const r0 = a * S;
+    for (let b = 0; b < a; b++) L[r0 + b] = (L[r0 + b] - dotRange(L, r0, L, b * S, b)) / L[b * S + b];
+    const s = L[r0 + a] - dotRange(L, r0, L, r0, a);
+    if (!(s > floor)) return false;
+    L[r0 + a] = Math.sqrt(s);
+  }
+  return true;
+}
