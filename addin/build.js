@@ -23,33 +23,24 @@
 
 const path = require("path");
 const { spawnSync } = require("child_process");
-const { BaseUrlError, parseBaseUrl } = require("./hosting");
+const { BaseUrlError, UsageError, baseUrlOf, readFlags } = require("./hosting");
 
 const ROOT = path.resolve(__dirname, "..");
 
-class UsageError extends Error {}
-
 /** `{ baseUrl, out, typecheck, allowHttpLoopback }` from the arguments and the environment. */
 function parseArgs(argv, env = process.env) {
-  const options = { baseUrl: null, out: null, typecheck: true, allowHttpLoopback: false };
-  let given = null;
-  for (let i = 0; i < argv.length; i++) {
-    const arg = argv[i];
-    const [flag, inline] = arg.startsWith("--") && arg.includes("=") ? [arg.slice(0, arg.indexOf("=")), arg.slice(arg.indexOf("=") + 1)] : [arg, undefined];
-    const value = () => {
-      if (inline !== undefined) return inline;
-      const next = argv[++i];
-      if (next === undefined || next.startsWith("--")) throw new UsageError(`${flag} needs a value`);
-      return next;
-    };
-    if (flag === "--base-url") given = value();
-    else if (flag === "--out") options.out = path.resolve(value());
-    else if (flag === "--no-typecheck") options.typecheck = false;
-    else if (flag === "--allow-http-loopback") options.allowHttpLoopback = true;
-    else throw new UsageError(`unknown argument '${arg}' (known: --base-url URL, --out DIR, --no-typecheck, --allow-http-loopback)`);
-  }
-  if (given === null && env.SHRINKWISE_BASE_URL !== undefined && env.SHRINKWISE_BASE_URL !== "") given = env.SHRINKWISE_BASE_URL;
-  if (given !== null) options.baseUrl = parseBaseUrl(given, { allowHttpLoopback: options.allowHttpLoopback });
+  const flags = readFlags(argv, {
+    withValue: ["--base-url", "--out"],
+    switches: ["--no-typecheck", "--allow-http-loopback"],
+    known: "--base-url URL, --out DIR, --no-typecheck, --allow-http-loopback",
+  });
+  const allowHttpLoopback = flags["--allow-http-loopback"] === true;
+  const options = {
+    baseUrl: baseUrlOf(flags["--base-url"], env, allowHttpLoopback),
+    out: flags["--out"] === undefined ? null : path.resolve(flags["--out"]),
+    typecheck: flags["--no-typecheck"] !== true,
+    allowHttpLoopback,
+  };
   if (options.out !== null && options.out === ROOT) throw new UsageError("--out must not be the project folder (the build empties it first)");
   return options;
 }

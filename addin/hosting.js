@@ -138,4 +138,37 @@ const CONTENT_SECURITY_POLICY = CSP_DIRECTIVES.join("; ");
  */
 const DEV_CONTENT_SECURITY_POLICY = CONTENT_SECURITY_POLICY.replace("script-src 'self' 'wasm-unsafe-eval'", "script-src 'self' 'wasm-unsafe-eval' 'unsafe-eval'");
 
-module.exports = { DEV_ORIGIN, BaseUrlError, parseBaseUrl, manifestVersion, hostedManifest, CONTENT_SECURITY_POLICY, DEV_CONTENT_SECURITY_POLICY, CSP_DIRECTIVES };
+/** A command-line mistake: printed as one line, exit 2 (addin/build.js, addin/package.js). */
+class UsageError extends Error {}
+
+/**
+ * The flags of a command line: `--flag value`, `--flag=value` or a bare switch. Returns
+ * `{ flag: value }` (true for a switch); an unknown argument or a flag without its value is a
+ * UsageError, the first naming the `known` flags.
+ */
+function readFlags(argv, { withValue, switches, known }) {
+  const flags = {};
+  for (let i = 0; i < argv.length; i++) {
+    const arg = argv[i];
+    const cut = arg.startsWith("--") ? arg.indexOf("=") : -1;
+    const flag = cut > 0 ? arg.slice(0, cut) : arg;
+    if (withValue.includes(flag)) {
+      const value = cut > 0 ? arg.slice(cut + 1) : argv[++i];
+      if (cut <= 0 && (value === undefined || value.startsWith("--"))) throw new UsageError(`${flag} needs a value`);
+      flags[flag] = value;
+    } else if (switches.includes(flag)) {
+      flags[flag] = true;
+    } else {
+      throw new UsageError(`unknown argument '${arg}' (known: ${known})`);
+    }
+  }
+  return flags;
+}
+
+/** The base URL from --base-url, else the environment's SHRINKWISE_BASE_URL (if not empty), checked; null when neither. */
+function baseUrlOf(given, env, allowHttpLoopback) {
+  const text = given ?? (env.SHRINKWISE_BASE_URL ? env.SHRINKWISE_BASE_URL : null);
+  return text === null ? null : parseBaseUrl(text, { allowHttpLoopback });
+}
+
+module.exports = { DEV_ORIGIN, BaseUrlError, parseBaseUrl, manifestVersion, hostedManifest, CONTENT_SECURITY_POLICY, DEV_CONTENT_SECURITY_POLICY, CSP_DIRECTIVES, UsageError, readFlags, baseUrlOf };

@@ -19,12 +19,10 @@
 
 const fs = require("fs");
 const path = require("path");
-const { BaseUrlError, parseBaseUrl } = require("./hosting");
+const { BaseUrlError, UsageError, baseUrlOf, parseBaseUrl, readFlags } = require("./hosting");
 const { writeZip } = require("./zip");
 
 const ROOT = path.resolve(__dirname, "..");
-
-class UsageError extends Error {}
 
 /** Files of a build that a web server does not need: source maps and the build stamp. */
 function shipped(relative) {
@@ -78,25 +76,14 @@ function packageBuild(dir, baseUrl, version, target) {
 }
 
 function parseArgs(argv, env = process.env) {
-  const options = { baseUrl: null, out: null, from: null, allowHttpLoopback: false };
-  let given = null;
-  for (let i = 0; i < argv.length; i++) {
-    const arg = argv[i];
-    const [flag, inline] = arg.startsWith("--") && arg.includes("=") ? [arg.slice(0, arg.indexOf("=")), arg.slice(arg.indexOf("=") + 1)] : [arg, undefined];
-    const value = () => {
-      if (inline !== undefined) return inline;
-      const next = argv[++i];
-      if (next === undefined || next.startsWith("--")) throw new UsageError(`${flag} needs a value`);
-      return next;
-    };
-    if (flag === "--base-url") given = value();
-    else if (flag === "--out") options.out = path.resolve(value());
-    else if (flag === "--from") options.from = path.resolve(value());
-    else if (flag === "--allow-http-loopback") options.allowHttpLoopback = true;
-    else throw new UsageError(`unknown argument '${arg}' (known: --base-url URL, --out FILE, --from DIR, --allow-http-loopback)`);
-  }
-  if (given === null && env.SHRINKWISE_BASE_URL) given = env.SHRINKWISE_BASE_URL;
-  if (given !== null) options.baseUrl = parseBaseUrl(given, { allowHttpLoopback: options.allowHttpLoopback });
+  const flags = readFlags(argv, {
+    withValue: ["--base-url", "--out", "--from"],
+    switches: ["--allow-http-loopback"],
+    known: "--base-url URL, --out FILE, --from DIR, --allow-http-loopback",
+  });
+  const allowHttpLoopback = flags["--allow-http-loopback"] === true;
+  const resolved = (flag) => (flags[flag] === undefined ? null : path.resolve(flags[flag]));
+  const options = { baseUrl: baseUrlOf(flags["--base-url"], env, allowHttpLoopback), out: resolved("--out"), from: resolved("--from"), allowHttpLoopback };
   if (options.from === null && options.baseUrl === null) {
     throw new UsageError("give the address the files will be served from: npm run package -- --base-url https://host.example/shrinkwise/");
   }
