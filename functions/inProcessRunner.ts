@@ -11,40 +11,38 @@ import { fitAsync, FitResult } from "../engine/fit";
 import { fitFromSumsAsync } from "../engine/fitSums";
 import type { AnyFitRequest, CancelToken, FitProgress, FitRunner, SumsFitRequest } from "./runner";
 
-export class InProcessRunner implements FitRunner {
-  async fit(request: AnyFitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
-    const signal = { aborted: false };
-    if (cancel) {
-      if (cancel.cancelled) throw new CancelledError();
-      cancel.onCancel(() => {
-        signal.aborted = true;
-      });
-    }
-    const result = await fitAsync(request.predictors, request.target, {
-      ...request.options,
-      signal,
-      onProgress: onProgress ? (done, total) => onProgress({ done, total }) : undefined,
+type Progress = ((done: number, total: number) => void) | undefined;
+
+/**
+ * Runs one engine call with the token mapped to its `{ aborted }` signal and its progress as
+ * FitProgress: a token cancelled before the call rejects at once, a raised signal ends in
+ * CancelledError.
+ */
+async function cancellable(
+  cancel: CancelToken | undefined,
+  onProgress: ((progress: FitProgress) => void) | undefined,
+  run: (signal: { aborted: boolean }, progress: Progress) => Promise<FitResult>,
+): Promise<FitResult> {
+  const signal = { aborted: false };
+  if (cancel) {
+    if (cancel.cancelled) throw new CancelledError();
+    cancel.onCancel(() => {
+      signal.aborted = true;
     });
-    if (signal.aborted) throw new CancelledError();
-    return result;
+  }
+  const result = await run(signal, onProgress ? (done, total) => onProgress({ done, total }) : undefined);
+  if (signal.aborted) throw new CancelledError();
+  return result;
+}
+
+export class InProcessRunner implements FitRunner {
+  fit(request: AnyFitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
+    return cancellable(cancel, onProgress, (signal, progress) => fitAsync(request.predictors, request.target, { ...request.options, signal, onProgress: progress }));
   }
 
   /** A fit from a sums table (fitFromSumsAsync), cancelled and reported like `fit`. */
-  async fitSums(request: SumsFitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
-    const signal = { aborted: false };
-    if (cancel) {
-      if (cancel.cancelled) throw new CancelledError();
-      cancel.onCancel(() => {
-        signal.aborted = true;
-      });
-    }
-    const result = await fitFromSumsAsync(request.sums, {
-      ...request.options,
-      signal,
-      onProgress: onProgress ? (done, total) => onProgress({ done, total }) : undefined,
-    });
-    if (signal.aborted) throw new CancelledError();
-    return result;
+  fitSums(request: SumsFitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
+    return cancellable(cancel, onProgress, (signal, progress) => fitFromSumsAsync(request.sums, { ...request.options, signal, onProgress: progress }));
   }
 }
 
