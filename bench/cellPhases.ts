@@ -6,8 +6,9 @@
  * `prepare` (worksheet values → dataset → request: functions/api.ts prepare), `key` (the cache's
  * fingerprint and hash), `wire` (the copy posted to the worker, into the buffer handed back by the
  * previous fit after the first repeat), `post` (the structured clone with its transfer list, standing
- * in for the port), `fit` (the engine on the received request), `result` (the result's structured
- * clone back), `spill` (the coefficient table), and `engine` (the engine's own fit on the same data
+ * in for the port), `fit` (the engine on the received request), `result` (the result's trip back:
+ * functions/fit.worker.ts packResult, the structured clone with its transfer list, unpackResult;
+ * the handed-back clone), `spill` (the coefficient table), and `engine` (the engine's own fit on the same data
  * and options, as `npm run bench` times it). Data and settings are the bench's cell cases'.
  * The stages run on one thread here; in the add-in `fit` runs in the worker.
  */
@@ -15,6 +16,7 @@ import { prepare } from "../functions/api";
 import { requestHash } from "../functions/cache";
 import { coefficientSpill } from "../functions/spill";
 import { wireRequest } from "../functions/workerRunner";
+import { packResult, unpackResult } from "../functions/fit.worker";
 import { fit } from "../engine/fit";
 import type { AnyFitRequest } from "../functions/runner";
 import { worksheetValues } from "./cellPath";
@@ -54,7 +56,9 @@ function main(): void {
     const result = fit(received.predictors, received.target, received.options);
     if (!Array.isArray(received.predictors)) spare = received.predictors.data.buffer as ArrayBuffer;
     lap("fit");
-    const back = structuredClone(result);
+    // As the worker posts it: held-out lists packed and transferred, unpacked on the main side.
+    const wire = packResult(result);
+    const back = unpackResult(structuredClone(wire.result, { transfer: wire.transfer }));
     lap("result");
     coefficientSpill(back, prepared.dataset);
     lap("spill");

@@ -9,7 +9,8 @@
  *        { type: "cancel", id }              raise that fit's signal; it stops at the next
  *                                            checkpoint and answers with a "cancelled" error
  *   out: { type: "progress", id, done, total }  after each unit of work
- *        { type: "result", id, result, spare? }  the engine's FitResult, structured-cloned
+ *        { type: "result", id, result, spare? }  the engine's FitResult, structured-cloned (its
+ *                                            held-out lists packed: packResult / unpackResult)
  *        { type: "error", id, error, spare? }    a PlainError (see below)
  * A packed request (runner.ts PackedFitRequest) arrives with its matrix's buffer transferred, and
  * its answer hands that buffer back as `spare` (transferred again, so no copy either way): the main
@@ -49,12 +50,45 @@ export type { SumsFitFunction };
 
 export type FromWorker =
   | { type: "progress"; id: number; done: number; total: number }
-  | { type: "result"; id: number; result: FitResult; spare?: ArrayBuffer }
+  | { type: "result"; id: number; result: WireFitResult; spare?: ArrayBuffer }
   | { type: "error"; id: number; error: PlainError; spare?: ArrayBuffer };
 
 /** The fit a worker runs (defined beside the pool, which provides one; see taskPool.ts). */
 import type { FitFunction } from "./taskPool";
 export type { FitFunction };
+
+/**
+ * FitResult.heldOut's three lists (one entry per held-out row) as typed arrays for the trip to
+ * the main side, their buffers transferred: the structured clone of three arrays of 50,000 numbers
+ * took 17–19 ms each way and back (v8 serialize + deserialize, measured), about 10% of the
+ * 50,000 × 40 recalculation; the typed arrays move without a copy. Every value is kept exactly
+ * (row and fold are whole numbers below 2³¹, the residuals doubles). `unpackResult` rebuilds the
+ * plain lists, so callers see the same FitResult as from the in-process runner.
+ */
+export interface PackedHeldOut {
+  packed: true;
+  row: Int32Array;
+  fold: Int32Array;
+  residual: Float64Array;
+}
+
+/** A FitResult as it crosses the worker boundary (heldOut possibly packed). */
+export type WireFitResult = Omit<FitResult, "heldOut"> & { heldOut?: FitResult["heldOut"] | PackedHeldOut };
+
+/** The result to post and the buffers to transfer with it (the result itself is not changed). */
+export function packResult(result: FitResult): { result: WireFitResult; transfer: ArrayBuffer[] } {
+  const held = result.heldOut;
+  if (!held || !Array.isArray(held.row)) return { result, transfer: [] };
+  const packed: PackedHeldOut = { packed: true, row: Int32Array.from(held.row), fold: Int32Array.from(held.fold), residual: Float64Array.from(held.residual) };
+  return { result: { ...result, heldOut: packed }, transfer: [packed.row.buffer, packed.fold.buffer, packed.residual.buffer] as ArrayBuffer[] };
+}
+
+/** The FitResult a packed one stands for (plain lists again); anything else as it came. */
+export function unpackResult(result: WireFitResult): FitResult {
+  const held = result.heldOut;
+  if (!held || !("packed" in held)) return result as FitResult;
+  return { ...result, heldOut: { row: Array.from(held.row), fold: Array.from(held.fold), residual: Array.from(held.residual) } } as FitResult;
+}
 
 /** Turns any thrown value into plain data that survives structured cloning. */
 export function toPlainError(error: unknown): PlainError {
@@ -143,8 +177,10 @@ export function createFitHandler(
       (result) => {
         signals.delete(id);
         const spare = spareOf(request);
-        if (spare) post({ type: "result", id, result, spare }, [spare]);
-        else post({ type: "result", id, result });
+        const wire = packResult(result);
+        if (spare) post({ type: "result", id, result: wire.result, spare }, [spare, ...wire.transfer]);
+        else if (wire.transfer.length > 0) post({ type: "result", id, result: wire.result }, wire.transfer);
+        else post({ type: "result", id, result: wire.result });
       },
       (error: unknown) => {
         signals.delete(id);

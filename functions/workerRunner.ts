@@ -24,7 +24,7 @@
 import { CancelledError } from "../engine/errors";
 import type { FitResult } from "../engine/fit";
 import type { FromWorker, ToWorker } from "./fit.worker";
-import { fromPlainError } from "./fit.worker";
+import { fromPlainError, unpackResult } from "./fit.worker";
 import { InProcessRunner } from "./inProcessRunner";
 import type { AnyFitRequest, CancelToken, FitProgress, FitRunner, SumsFitRequest } from "./runner";
 
@@ -177,7 +177,7 @@ export class WorkerRunner implements FitRunner {
     }
     if (!job) return;
     this.jobs.delete(message.id);
-    if (message.type === "result") job.resolve(message.result);
+    if (message.type === "result") job.resolve(unpackResult(message.result));
     else job.reject(fromPlainError(message.error));
   }
 

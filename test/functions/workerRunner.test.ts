@@ -10,7 +10,7 @@
 import { CancelledError, InputError } from "../../engine/errors";
 import { fit, FitResult } from "../../engine/fit";
 import { mulberry32 } from "../../engine/random";
-import { createFitHandler, FitFunction, FromWorker, ToWorker, toPlainError, fromPlainError } from "../../functions/fit.worker";
+import { createFitHandler, FitFunction, FromWorker, ToWorker, toPlainError, fromPlainError, packResult, unpackResult } from "../../functions/fit.worker";
 import { cancelSource, FitProgress, FitRequest } from "../../functions/runner";
 import { InProcessRunner } from "../../functions/inProcessRunner";
 import { WorkerLike, WorkerRunner } from "../../functions/workerRunner";
@@ -278,7 +278,32 @@ describe("the worker bootstrap", () => {
     for (let i = 0; i < 200 && !out.some((m) => m.type === "result"); i++) await new Promise((r) => setTimeout(r, 2));
     const result = out.find((m) => m.type === "result");
     expect(result && result.id).toBe(42);
-    expect(result && result.type === "result" && result.result).toStrictEqual(fit(request.predictors, request.target, request.options));
+    const expected = fit(request.predictors, request.target, request.options);
+    // The held-out lists travel packed (typed arrays, transferred) and unpack to the same result.
+    if (!result || result.type !== "result") throw new Error("no result");
+    expect(result.result.heldOut).toMatchObject({ packed: true });
+    expect(unpackResult(result.result)).toStrictEqual(expected);
+  });
+
+  test("packResult / unpackResult: the held-out lists round-trip bit for bit, the result itself untouched", () => {
+    const { predictors, target } = data(6, 40, 5);
+    const result = fit(predictors, target, { folds: 4, mixes: [0.5] });
+    const held = result.heldOut;
+    if (!held) throw new Error("fit kept no held-out rows");
+    // A −0 residual and a large row index survive the trip too.
+    held.residual[0] = -0;
+    held.row[1] = 2 ** 31 - 1;
+    const before = structuredClone(result);
+    const wire = packResult(result);
+    expect(result).toStrictEqual(before);
+    expect(wire.transfer).toHaveLength(3);
+    const back = unpackResult(structuredClone(wire.result));
+    expect(Object.is(back.heldOut?.residual[0], -0)).toBe(true);
+    expect(back).toStrictEqual(before);
+    // Results without held-out lists (two-class fits, fits from sums, fakes) pass through as they are.
+    const none = { ...result, heldOut: null };
+    expect(packResult(none)).toEqual({ result: none, transfer: [] });
+    expect(unpackResult(none)).toBe(none);
   });
 
   test("outside a worker it does nothing", () => {
