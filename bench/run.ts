@@ -56,6 +56,8 @@
  * reading them in place (engine/fit.ts setReadInPlace; the same results), for A/B runs of time
  * and peakMB. Single-threaded fits only (pool workers keep reading in place).
  *
+ * `npm run bench` starts this file under tsx's require hook (package.json), as its children.
+ *
  * Usage: npm run bench [-- --only 1000x50,cells-1000x50] [-- --repeat 3] [-- --warm 3] [-- --threads 1|auto]
  *        [-- --two-class] [-- --no-floor] [-- --no-cells] [-- --copy-data]
  */
@@ -344,6 +346,10 @@ async function runChild(c: Case, repeat: number, warmFits: number, floorDir: str
       fitCase();
       warmTotal += performance.now() - warmStart;
       report.warmFits++;
+    }
+    // The pool's workers warmed on the case alike (as many pooled fits as single-threaded ones).
+    if (pool) {
+      for (let w = 0; w < report.warmFits; w++) await fitAsync(x, events ?? y, events ? { ...options, outcome: "two-class" as const } : options, { pool });
     }
     for (let r = 0; r < repeat; r++) {
       report.gramMs = Math.min(report.gramMs, timeGram(x, y));

@@ -139,7 +139,10 @@ export interface DuckdbOutcome {
 export async function runViaDuckdb(options: CommandOptions, write: (file: string, text: string) => void): Promise<DuckdbOutcome> {
   refuseRowOptions(options);
   // DuckDB's native module loads only on this route: the in-memory route starts as fast as before.
-  const { duckdbColumns, duckdbPrepare, duckdbSums } = await import("../node/duckdb");
+  // A require, not import(): `npm run fit` runs the sources under tsx's require hook alone (see
+  // package.json), which compiles modules on require but has no hook for import() of a .ts file.
+  // eslint-disable-next-line @typescript-eslint/no-require-imports
+  const { duckdbColumns, duckdbPrepare, duckdbSums } = require("../node/duckdb") as typeof import("../node/duckdb");
   const rule = foldRuleFor(options);
   const source = sourceFor(options, rule.kind === "hash" && rule.key === ROW_POSITION_COLUMN);
   const columns = await duckdbColumns(source, options.file);

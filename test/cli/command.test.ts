@@ -18,9 +18,11 @@ interface Outcome {
   stderr: string;
 }
 
-function runCommand(args: string[]): Promise<Outcome> {
+/** Runs the command through `npx tsx` (the default) or, with viaScript, as the README does: `npm run fit --`. */
+function runCommand(args: string[], viaScript = false): Promise<Outcome> {
   return new Promise((done, fail) => {
-    const child = spawn("npx", ["tsx", "engine/cli/fit.ts", ...args], { cwd: ROOT, env: { ...process.env, NO_COLOR: "1" } });
+    const launch = viaScript ? ["npm", ["run", "-s", "fit", "--", ...args]] as const : ["npx", ["tsx", "engine/cli/fit.ts", ...args]] as const;
+    const child = spawn(launch[0], [...launch[1]], { cwd: ROOT, env: { ...process.env, NO_COLOR: "1" } });
     let stdout = "";
     let stderr = "";
     child.stdout.on("data", (chunk) => (stdout += chunk));
@@ -86,8 +88,12 @@ describe("npx tsx engine/cli/fit.ts", () => {
       predictStdout: [csv, "--target", "y", "--predictors", "a,b", "--folds", "5", "--predict", csv],
       predictBadFolder: [csv, "--target", "y", "--predictors", "a,b", "--folds", "5", "--predict", csv, "--predictions-out", join(folder, "nowhere", "out.csv")],
     };
+    // `npm run fit` starts the sources under tsx's require hook (package.json): the same output,
+    // and DuckDB's module, loaded on demand, found by that route too.
+    runs.scriptJson = runs.json;
+    runs.scriptDuckdb = [csv, "--target", "y", "--predictors", "a,b", "--folds", "5", "--via", "duckdb", "--json"];
     const names = Object.keys(runs);
-    const results = await Promise.all(names.map((name) => runCommand(runs[name])));
+    const results = await Promise.all(names.map((name) => runCommand(runs[name], name.startsWith("script"))));
     names.forEach((name, k) => (outcomes[name] = results[k]));
   }, 60000);
 
@@ -109,6 +115,16 @@ describe("npx tsx engine/cli/fit.ts", () => {
     expect(typeof report.cv.se).toBe("number");
     expect(report.rowsUsed).toBe(30);
     expect(report.rowsSkipped).toBe(0);
+  });
+
+  it("`npm run fit --` (tsx's require hook) gives the same output as npx tsx, and reaches DuckDB", () => {
+    expect(outcomes.scriptJson.stderr).toBe("");
+    expect(outcomes.scriptJson.status).toBe(0);
+    expect(outcomes.scriptJson.stdout).toBe(outcomes.json.stdout);
+    const duck = outcomes.scriptDuckdb;
+    expect(duck.stderr).toBe("");
+    expect(duck.status).toBe(0);
+    expect(Object.keys(JSON.parse(duck.stdout).coefficients)).toEqual(["a", "b"]);
   });
 
   it("readable report from a tab-separated file: exit 0", () => {
