@@ -77,6 +77,7 @@ import {
   problemFromRows,
   problemFromSums,
   stableAnchor,
+  stableAnchors,
   stableMean,
   Standardization,
   takeLargest,
@@ -88,7 +89,7 @@ import {
   checkInteger,
   checkMixes,
   checkPerPredictor,
-  checkPredictors,
+  checkedPredictors,
   checkRowVector,
   checkWeights,
   describeColumn,
@@ -438,7 +439,7 @@ export interface Prepared {
 
 function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target: ArrayLike<number>, options: FitOptions): Prepared {
   const names = options.names ? options.names.map(String) : undefined;
-  const x = checkPredictors(predictors, names);
+  const { matrix: x, largest: columnLargest } = checkedPredictors(predictors, names);
   const n = x.rows;
   const p = x.columns;
   const y = checkRowVector(target, n, "target");
@@ -453,7 +454,7 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
   const gram = !twoClass && covarianceForm;
   // Checkpoints between the O(n·p) passes over the input (checks, working copy).
   throwIfCancelled(options.signal);
-  const work = workingCopy(x, y, weights, !twoClass, readInPlace);
+  const work = workingCopy(x, y, weights, !twoClass, readInPlace, columnLargest);
   throwIfCancelled(options.signal);
   // Constant target (the rule problem.ts applies to columns): nothing to predict.
   const omega = shareOfWeight(work.weights, n);
@@ -713,6 +714,8 @@ function readX(data: Prepared): { x: ColumnMatrix; factors: Float64Array | null 
  * of two that brings its largest magnitude on rows with positive weight into [0.5, 1); rows with
  * weight 0 stored as 0. Exact (powers of two), so the standardized problems built from it are
  * the ones the unscaled data would give, without overflow or underflow. Cost O(n·p).
+ * `columnLargest`: each column's largest magnitude over all rows (validate.ts
+ * checkedPredictors), used as it is when there are no weights.
  * With `inPlace` and every weight positive the predictors are not copied: x is a deferred copy
  * and `inPlace` holds the data and the powers of two (see Prepared.inPlace).
  */
@@ -722,6 +725,7 @@ function workingCopy(
   weights: Float64Array | null,
   scaleTarget: boolean,
   inPlace: boolean,
+  columnLargest: Float64Array,
 ): {
   x: ColumnMatrix;
   inPlace: Prepared["inPlace"];
@@ -758,7 +762,8 @@ function workingCopy(
     // No row is zeroed, so the copy would be exactly x_ij × 2^xExponent[j]: formed where read.
     const factors = new Float64Array(p);
     for (let j = 0; j < p; j++) {
-      xExponent[j] = unitExponent(largestOf(x.data, j * n));
+      // Without weights every row counts: the largest magnitudes the input check found.
+      xExponent[j] = unitExponent(weights ? largestOf(x.data, j * n) : columnLargest[j]);
       factors[j] = powerOfTwo(xExponent[j]);
     }
     let copy: Float64Array | null = null;
@@ -778,7 +783,7 @@ function workingCopy(
   const data = new Float64Array(n * p);
   for (let j = 0; j < p; j++) {
     const off = j * n;
-    xExponent[j] = unitExponent(largestOf(x.data, off));
+    xExponent[j] = unitExponent(weights ? largestOf(x.data, off) : columnLargest[j]);
     copyScaled(x.data, off, n, powerOfTwo(xExponent[j]), data, weights);
   }
   return { x: { rows: n, columns: p, data }, inPlace: null, y: workY, weights: workWeights, xExponent, yExponent, weightExponent };
@@ -871,12 +876,11 @@ function fullShift(data: Prepared): { shiftX: Float64Array; shiftY: number } {
   const omega = shareOfWeight(weights, n);
   // Only the anchors (a value near each centre) are used: stableAnchor skips the two passes of
   // stableCentre's offset; the same anchors (0 when no weight is positive, as stableCentre gives).
-  const anchorOf = (values: Float64Array, factor: number): number => {
-    const anchor = stableAnchor(values, omega, n, factor);
-    return Number.isNaN(anchor) ? 0 : anchor;
-  };
-  const shiftY = anchorOf(y, 1);
-  for (let j = 0; j < x.columns; j++) shiftX[j] = anchorOf(x.data.subarray(j * n, (j + 1) * n), factors ? factors[j] : 1);
+  const anchorY = stableAnchor(y, omega, n);
+  const shiftY = Number.isNaN(anchorY) ? 0 : anchorY;
+  // The columns four at a time (stableAnchors: the same anchor per column, bit for bit).
+  stableAnchors(x, omega, factors, shiftX);
+  for (let j = 0; j < x.columns; j++) if (Number.isNaN(shiftX[j])) shiftX[j] = 0;
   return { shiftX, shiftY };
 }
 
