@@ -1993,19 +1993,36 @@ function heldOutModels(
   // In place: x_ij × factors[j] formed per value (the working copy's value; × 1 is exact).
   const { x: read, factors } = readX(data);
   const values = read.data;
-  const terms = new Float64Array(3 * (K + 1));
+  // Up to four used columns a pass (addColumnTerms): each row's prediction still adds their
+  // terms one column after another in column order, and the prediction is read and written
+  // once per pass instead of once per column.
+  const S = 3 * (K + 1);
+  const terms = new Float64Array(4 * S);
+  const used: number[] = [];
   for (let j = 0; j < p; j++) {
-    throwIfCancelled(signal);
-    let used = false;
     for (let f = 0; f < K; f++) {
-      const b = slopes[f * p + j];
-      terms[3 * f] = b;
-      terms[3 * f + 1] = anchors[f * p + j];
-      terms[3 * f + 2] = offsets[f * p + j];
-      if (b !== 0) used = true;
+      if (slopes[f * p + j] !== 0) {
+        used.push(j);
+        break;
+      }
     }
-    if (!used) continue;
-    addColumnTerms(prediction, values, j * n, factors ? factors[j] : 1, foldOf, terms, n);
+  }
+  const offs = new Int32Array(4);
+  const scale = new Float64Array(4);
+  for (let u = 0; u < used.length; u += 4) {
+    throwIfCancelled(signal);
+    const count = Math.min(4, used.length - u);
+    for (let c = 0; c < count; c++) {
+      const j = used[u + c];
+      for (let f = 0; f < K; f++) {
+        terms[c * S + 3 * f] = slopes[f * p + j];
+        terms[c * S + 3 * f + 1] = anchors[f * p + j];
+        terms[c * S + 3 * f + 2] = offsets[f * p + j];
+      }
+      offs[c] = j * n;
+      scale[c] = factors ? factors[j] : 1;
+    }
+    addColumnTerms(prediction, values, offs, scale, count, foldOf, terms, S, n);
   }
   // The lists at their final length, filled by index: every row some fold holds out (foldOf < K)
   // is listed once. Growing them by push re-copied them as they grew (100,000 rows: about 3×
@@ -2044,11 +2061,53 @@ function markHeldOut(block: Int32Array, weights: Float64Array | null, f: number,
   }
 }
 
-/** prediction_i += b_f · ((x_ij × factor − anchor_f) − offset_f) for the fold f = foldOf[i] (terms: 3 per fold). */
-function addColumnTerms(prediction: Float64Array, values: Float64Array, off: number, factor: number, foldOf: Int32Array, terms: Float64Array, n: number): void {
-  for (let i = 0; i < n; i++) {
-    const t = 3 * foldOf[i];
-    prediction[i] += terms[t] * (values[off + i] * factor - terms[t + 1] - terms[t + 2]);
+/**
+ * prediction_i += b_f · ((x_ij × factor_j − anchor_f) − offset_f) for the fold f = foldOf[i],
+ * for `count` (1 to 4) columns j in turn: column c at values[offs[c] …], scaled by scale[c], its
+ * terms at terms[c·S …] (3 per fold).
+ */
+function addColumnTerms(
+  prediction: Float64Array,
+  values: Float64Array,
+  offs: Int32Array,
+  scale: Float64Array,
+  count: number,
+  foldOf: Int32Array,
+  terms: Float64Array,
+  S: number,
+  n: number,
+): void {
+  const o0 = offs[0];
+  const f0 = scale[0];
+  if (count === 4) {
+    const o1 = offs[1];
+    const o2 = offs[2];
+    const o3 = offs[3];
+    const f1 = scale[1];
+    const f2 = scale[2];
+    const f3 = scale[3];
+    for (let i = 0; i < n; i++) {
+      const t = 3 * foldOf[i];
+      const u = t + S;
+      const v = u + S;
+      const w = v + S;
+      prediction[i] =
+        prediction[i] +
+        terms[t] * (values[o0 + i] * f0 - terms[t + 1] - terms[t + 2]) +
+        terms[u] * (values[o1 + i] * f1 - terms[u + 1] - terms[u + 2]) +
+        terms[v] * (values[o2 + i] * f2 - terms[v + 1] - terms[v + 2]) +
+        terms[w] * (values[o3 + i] * f3 - terms[w + 1] - terms[w + 2]);
+    }
+    return;
+  }
+  for (let c = 0; c < count; c++) {
+    const o = offs[c];
+    const f = scale[c];
+    const base = c * S;
+    for (let i = 0; i < n; i++) {
+      const t = base + 3 * foldOf[i];
+      prediction[i] += terms[t] * (values[o + i] * f - terms[t + 1] - terms[t + 2]);
+    }
   }
 }
 

@@ -76,12 +76,14 @@ export function checkedPredictors(
 function largestFinite(data: Float64Array, offset: number, n: number): number {
   let largest = 0;
   for (let i = 0; i < n; i++) {
-    const v = data[offset + i];
-    if (!Number.isFinite(v)) return NaN;
-    const magnitude = Math.abs(v);
-    if (magnitude > largest) largest = magnitude;
+    const magnitude = Math.abs(data[offset + i]);
+    // One comparison for the usual value; NaN fails both, ±Infinity is caught after the loop.
+    if (!(magnitude <= largest)) {
+      if (magnitude > largest) largest = magnitude;
+      else return NaN;
+    }
   }
-  return largest;
+  return largest === Infinity ? NaN : largest;
 }
 
 /**
