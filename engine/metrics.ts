@@ -59,14 +59,7 @@ export function score(actual: ArrayLike<number>, predicted: ArrayLike<number>, w
   if (actual.length !== predicted.length) {
     throw new RangeError(`score requires equally long inputs; got ${actual.length} actual and ${predicted.length} predicted`);
   }
-  const used = (i: number): boolean => Number.isFinite(actual[i]) && Number.isFinite(predicted[i]) && (weights ? weights[i] > 0 : true);
-  let largest = 0;
-  let heaviest = 0;
-  for (let i = 0; i < actual.length; i++) {
-    if (!used(i)) continue;
-    largest = Math.max(largest, Math.abs(actual[i]), Math.abs(predicted[i]));
-    if (weights) heaviest = Math.max(heaviest, weights[i]);
-  }
+  const { largest, heaviest } = largestUsed(actual, predicted, weights);
   const sv = scaleFor(largest);
   const sw = weights ? scaleFor(heaviest) : 1;
   let total = 0;
@@ -76,7 +69,7 @@ export function score(actual: ArrayLike<number>, predicted: ArrayLike<number>, w
   let squared = 0;
   let signed = 0;
   for (let i = 0; i < actual.length; i++) {
-    if (!used(i)) continue;
+    if (!isUsed(actual, predicted, weights, i)) continue;
     const a = actual[i] * sv;
     const w = (weights ? weights[i] : 1) * sw;
     const e = predicted[i] * sv - a;
@@ -91,7 +84,7 @@ export function score(actual: ArrayLike<number>, predicted: ArrayLike<number>, w
   const mean = sumActual / total;
   let spread = 0;
   for (let i = 0; i < actual.length; i++) {
-    if (!used(i)) continue;
+    if (!isUsed(actual, predicted, weights, i)) continue;
     const a = actual[i] * sv;
     const w = (weights ? weights[i] : 1) * sw;
     spread += w * (a - mean) * (a - mean);
@@ -103,4 +96,29 @@ export function score(actual: ArrayLike<number>, predicted: ArrayLike<number>, w
     bias: signed / total / sv,
     count,
   };
+}
+
+/** Whether score uses pair i: both values finite and the weight (if any) positive. A module function, not a closure made per call (V8 deoptimized score on each new closure). */
+function isUsed(actual: ArrayLike<number>, predicted: ArrayLike<number>, weights: ArrayLike<number> | null | undefined, i: number): boolean {
+  return Number.isFinite(actual[i]) && Number.isFinite(predicted[i]) && (weights ? weights[i] > 0 : true);
+}
+
+/**
+ * score's first pass: the largest |actual| or |predicted| and the heaviest weight over the pairs
+ * it uses (both finite, weight positive). A function of its own with plain comparisons (the
+ * same maxima as Math.max over these finite, non-negative values).
+ */
+function largestUsed(actual: ArrayLike<number>, predicted: ArrayLike<number>, weights: ArrayLike<number> | null | undefined): { largest: number; heaviest: number } {
+  let largest = 0;
+  let heaviest = 0;
+  for (let i = 0; i < actual.length; i++) {
+    const a = actual[i];
+    const p = predicted[i];
+    if (!Number.isFinite(a) || !Number.isFinite(p)) continue;
+    if (weights && !(weights[i] > 0)) continue;
+    const magnitude = Math.abs(a) > Math.abs(p) ? Math.abs(a) : Math.abs(p);
+    if (magnitude > largest) largest = magnitude;
+    if (weights && weights[i] > heaviest) heaviest = weights[i];
+  }
+  return { largest, heaviest };
 }
