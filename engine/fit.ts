@@ -879,7 +879,7 @@ function fullShift(data: Prepared): { shiftX: Float64Array; shiftY: number } {
   const anchorY = stableAnchor(y, omega, n);
   const shiftY = Number.isNaN(anchorY) ? 0 : anchorY;
   // The columns four at a time (stableAnchors: the same anchor per column, bit for bit).
-  stableAnchors(x, omega, factors, shiftX);
+  stableAnchors(x, omega, factors, shiftX, weights === null);
   for (let j = 0; j < x.columns; j++) if (Number.isNaN(shiftX[j])) shiftX[j] = 0;
   return { shiftX, shiftY };
 }

@@ -322,7 +322,7 @@ export function blockSumsOf(
         }
       }
     }
-    if (weights) {
+    if (weightOf) {
       for (let g = 0; g < panels; g++) {
         const off = g * stride;
         for (let t = 0; t < count; t++) {
@@ -365,20 +365,21 @@ export function blockSumsOf(
  * blockSumsOf's order of reading, worked out once for every column: window by window
  * (`window` consecutive rows), each block's rows of the window in increasing order, block after
  * block. `order` lists the rows so; window v's block k occupies order[segments[v(K+1) + k] …
- * segments[v(K+1) + k + 1]); `weightOf` holds each listed row's weight (1 without weights).
+ * segments[v(K+1) + k + 1]); `weightOf` holds each listed row's weight (null without weights:
+ * every row counts).
  */
 function gatherOrder(
   blocks: readonly ArrayLike<number>[],
   n: number,
   window: number,
   weights: ArrayLike<number> | null,
-): { order: Int32Array; segments: Int32Array; weightOf: Float64Array } {
+): { order: Int32Array; segments: Int32Array; weightOf: Float64Array | null } {
   const K = blocks.length;
   const sorted = blocks.map((rows) => Int32Array.from(rows).sort());
   let total = 0;
   for (const list of sorted) total += list.length;
   const order = new Int32Array(total);
-  const weightOf = new Float64Array(total);
+  const weightOf = weights ? new Float64Array(total) : null;
   const windows = Math.ceil(n / window);
   const segments = new Int32Array(windows * (K + 1) + 1);
   const cursor = new Int32Array(K);
@@ -399,7 +400,7 @@ function gatherOrder(
     const list = sorted[k];
     if (cursor[k] !== list.length) throw new Error(`blockSumsOf: row ${list[cursor[k]]} is out of range`);
   }
-  for (let t = 0; t < count; t++) weightOf[t] = weights ? weights[order[t]] : 1;
+  if (weights && weightOf) for (let t = 0; t < count; t++) weightOf[t] = weights[order[t]];
   return { order, segments, weightOf };
 }
 
@@ -430,7 +431,7 @@ function packColumn(
   segments: Int32Array,
   seg: number,
   K: number,
-  weightOf: Float64Array,
+  weightOf: Float64Array | null,
   a: Float64Array,
   base: number,
   largest: Float64Array,
@@ -442,7 +443,7 @@ function packColumn(
     for (let s = segments[seg + k]; s < end; s++) {
       const v = values[src + order[s]] * factor;
       a[base + PANEL * (s - first)] = v - shift;
-      if (weightOf[s] > 0 && Math.abs(v) > top) top = Math.abs(v);
+      if ((weightOf === null || weightOf[s] > 0) && Math.abs(v) > top) top = Math.abs(v);
     }
     largest[k] = top;
   }
@@ -463,7 +464,7 @@ function packPanel(
   segments: Int32Array,
   seg: number,
   K: number,
-  weightOf: Float64Array,
+  weightOf: Float64Array | null,
   a: Float64Array,
   base: number,
   largest: Float64Array,
@@ -498,7 +499,7 @@ function packPanel(
       a[o + 1] = v1 - h1;
       a[o + 2] = v2 - h2;
       a[o + 3] = v3 - h3;
-      if (weightOf[s] > 0) {
+      if (weightOf === null || weightOf[s] > 0) {
         if (Math.abs(v0) > m0) m0 = Math.abs(v0);
         if (Math.abs(v1) > m1) m1 = Math.abs(v1);
         if (Math.abs(v2) > m2) m2 = Math.abs(v2);
@@ -641,26 +642,22 @@ function panelSquares(a: Float64Array, stride: number, panels: number, width: nu
     let s22 = 0;
     let s23 = 0;
     let s33 = 0;
-    for (let t = t0; t < t1; t++) {
-      const o = bg + 4 * t;
+    const end = (bg + 4 * t1) | 0;
+    for (let o = (bg + 4 * t0) | 0; o < end; o = (o + 4) | 0) {
       const a0 = a[o];
-      const a1 = a[o + 1];
-      const a2 = a[o + 2];
-      const a3 = a[o + 3];
-      const b0 = a[o];
-      const b1 = a[o + 1];
-      const b2 = a[o + 2];
-      const b3 = a[o + 3];
-      s00 += b0 * a0;
-      s01 += b0 * a1;
-      s02 += b0 * a2;
-      s03 += b0 * a3;
-      s11 += b1 * a1;
-      s12 += b1 * a2;
-      s13 += b1 * a3;
-      s22 += b2 * a2;
-      s23 += b2 * a3;
-      s33 += b3 * a3;
+      const a1 = a[(o + 1) | 0];
+      const a2 = a[(o + 2) | 0];
+      const a3 = a[(o + 3) | 0];
+      s00 += a0 * a0;
+      s01 += a0 * a1;
+      s02 += a0 * a2;
+      s03 += a0 * a3;
+      s11 += a1 * a1;
+      s12 += a1 * a2;
+      s13 += a1 * a3;
+      s22 += a2 * a2;
+      s23 += a2 * a3;
+      s33 += a3 * a3;
     }
     const d = 4 * g * (Q + 1);
     total[d] += s00;
@@ -928,16 +925,17 @@ export function stableAnchor(values: ArrayLike<number>, omega: ArrayLike<number>
  * column, the same operations in the same order per column, so the same anchors bit for bit,
  * but four columns a pass. The rough mean's sum is a chain of dependent additions (each waits
  * for the last); four columns' chains side by side keep the core busy instead of waiting.
+ * `everyPositive`: the caller knows every ω is positive (no weights), and the test is skipped.
  * Cost O(n·p).
  */
-export function stableAnchors(x: ColumnMatrix, omega: ArrayLike<number>, factors: Float64Array | null, out: Float64Array): void {
+export function stableAnchors(x: ColumnMatrix, omega: ArrayLike<number>, factors: Float64Array | null, out: Float64Array, everyPositive = false): void {
   const n = x.rows;
   const p = x.columns;
   const data = x.data;
   let j = 0;
   for (; j + 4 <= p; j += 4) {
     roughOfFour(data, n, j, omega, factors, out);
-    nearestOfFour(data, n, j, omega, factors, out);
+    nearestOfFour(data, n, j, everyPositive ? null : omega, factors, out);
   }
   for (; j < p; j++) out[j] = stableAnchor(data.subarray(j * n, (j + 1) * n), omega, n, factors ? factors[j] : 1);
 }
@@ -945,7 +943,8 @@ export function stableAnchors(x: ColumnMatrix, omega: ArrayLike<number>, factors
 /**
  * stableAnchors' first pass for columns j0 … j0 + 3: the rough means Σ ω v into rough[j0 …].
  * Each pass a function of its own with one loop, so V8 optimizes it whole (compiled while its
- * loop runs, a function of two loops was thrown away on reaching the second in a first fit).
+ * loop runs, a function of two loops was thrown away on reaching the second); the stores run
+ * before the loop too, for their type feedback (see nearestOfFour).
  */
 function roughOfFour(data: Float64Array, n: number, j0: number, omega: ArrayLike<number>, factors: Float64Array | null, rough: Float64Array): void {
   const s0 = j0 * n;
@@ -960,7 +959,6 @@ function roughOfFour(data: Float64Array, n: number, j0: number, omega: ArrayLike
   let r1 = 0;
   let r2 = 0;
   let r3 = 0;
-  // The stores run before the loop (zeros) and after it: see nearestOfFour.
   for (let done = false; ; done = true) {
     rough[j0] = r0;
     rough[j0 + 1] = r1;
@@ -979,13 +977,12 @@ function roughOfFour(data: Float64Array, n: number, j0: number, omega: ArrayLike
 
 /**
  * stableAnchors' second pass for columns j0 … j0 + 3: out[j] becomes the positively weighted
- * value nearest out[j] (the rough mean), NaN if none. The stores into `out` run once before the
- * loop (writing back what was read) and once after it: V8 compiles this function while its loop
- * runs (on-stack replacement), and stores it has never run would be thrown out of that code at
- * the loop's end for want of type feedback — at every call, seen in a stand-alone run where such
- * a function stayed at half speed.
+ * value nearest out[j] (the rough mean), NaN if none; omega null: every weight is positive.
+ * Nothing is stored after the loop: V8 compiles such a function while its loop runs (on-stack
+ * replacement), and that code is thrown away ("insufficient type feedback") on reaching stores
+ * it has never run, which `--trace-deopt` showed at every call in a stand-alone run.
  */
-function nearestOfFour(data: Float64Array, n: number, j0: number, omega: ArrayLike<number>, factors: Float64Array | null, out: Float64Array): void {
+function nearestOfFour(data: Float64Array, n: number, j0: number, omega: ArrayLike<number> | null, factors: Float64Array | null, out: Float64Array): void {
   const s0 = j0 * n;
   const s1 = s0 + n;
   const s2 = s1 + n;
@@ -998,50 +995,41 @@ function nearestOfFour(data: Float64Array, n: number, j0: number, omega: ArrayLi
   const r1 = out[j0 + 1];
   const r2 = out[j0 + 2];
   const r3 = out[j0 + 3];
-  let c0 = r0;
-  let c1 = r1;
-  let c2 = r2;
-  let c3 = r3;
-  for (let done = false; ; done = true) {
-    out[j0] = c0;
-    out[j0 + 1] = c1;
-    out[j0 + 2] = c2;
-    out[j0 + 3] = c3;
-    if (done) break;
-    c0 = NaN;
-    c1 = NaN;
-    c2 = NaN;
-    c3 = NaN;
-    let d0 = Infinity;
-    let d1 = Infinity;
-    let d2 = Infinity;
-    let d3 = Infinity;
-    for (let t = 0; t < n; t++) {
-      if (!(omega[t] > 0)) continue;
-      const v0 = data[s0 + t] * f0;
-      const v1 = data[s1 + t] * f1;
-      const v2 = data[s2 + t] * f2;
-      const v3 = data[s3 + t] * f3;
-      const e0 = Math.abs(v0 - r0);
-      const e1 = Math.abs(v1 - r1);
-      const e2 = Math.abs(v2 - r2);
-      const e3 = Math.abs(v3 - r3);
-      if (e0 < d0) {
-        d0 = e0;
-        c0 = v0;
-      }
-      if (e1 < d1) {
-        d1 = e1;
-        c1 = v1;
-      }
-      if (e2 < d2) {
-        d2 = e2;
-        c2 = v2;
-      }
-      if (e3 < d3) {
-        d3 = e3;
-        c3 = v3;
-      }
+  out[j0] = NaN;
+  out[j0 + 1] = NaN;
+  out[j0 + 2] = NaN;
+  out[j0 + 3] = NaN;
+  let d0 = Infinity;
+  let d1 = Infinity;
+  let d2 = Infinity;
+  let d3 = Infinity;
+  // Each nearer value is stored as it is found (rarely, after the first rows): no store waits
+  // after the loop (see the function comment).
+  for (let t = 0; t < n; t++) {
+    if (omega !== null && !(omega[t] > 0)) continue;
+    const v0 = data[s0 + t] * f0;
+    const v1 = data[s1 + t] * f1;
+    const v2 = data[s2 + t] * f2;
+    const v3 = data[s3 + t] * f3;
+    const e0 = Math.abs(v0 - r0);
+    const e1 = Math.abs(v1 - r1);
+    const e2 = Math.abs(v2 - r2);
+    const e3 = Math.abs(v3 - r3);
+    if (e0 < d0) {
+      d0 = e0;
+      out[j0] = v0;
+    }
+    if (e1 < d1) {
+      d1 = e1;
+      out[j0 + 1] = v1;
+    }
+    if (e2 < d2) {
+      d2 = e2;
+      out[j0 + 2] = v2;
+    }
+    if (e3 < d3) {
+      d3 = e3;
+      out[j0 + 3] = v3;
     }
   }
 }
