@@ -62,33 +62,10 @@ export function score(actual: ArrayLike<number>, predicted: ArrayLike<number>, w
   const { largest, heaviest } = largestUsed(actual, predicted, weights);
   const sv = scaleFor(largest);
   const sw = weights ? scaleFor(heaviest) : 1;
-  let total = 0;
-  let count = 0;
-  let sumActual = 0;
-  let absolute = 0;
-  let squared = 0;
-  let signed = 0;
-  for (let i = 0; i < actual.length; i++) {
-    if (!isUsed(actual, predicted, weights, i)) continue;
-    const a = actual[i] * sv;
-    const w = (weights ? weights[i] : 1) * sw;
-    const e = predicted[i] * sv - a;
-    total += w;
-    count++;
-    sumActual += w * a;
-    absolute += w * Math.abs(e);
-    squared += w * e * e;
-    signed += w * e;
-  }
+  const { total, count, sumActual, absolute, squared, signed } = errorSums(actual, predicted, weights, sv, sw);
   if (count === 0) return { mae: NaN, rmse: NaN, r2: NaN, bias: NaN, count: 0 };
   const mean = sumActual / total;
-  let spread = 0;
-  for (let i = 0; i < actual.length; i++) {
-    if (!isUsed(actual, predicted, weights, i)) continue;
-    const a = actual[i] * sv;
-    const w = (weights ? weights[i] : 1) * sw;
-    spread += w * (a - mean) * (a - mean);
-  }
+  const spread = spreadOf(actual, predicted, weights, sv, sw, mean);
   return {
     mae: absolute / total / sv,
     rmse: Math.sqrt(squared / total) / sv,
@@ -121,4 +98,45 @@ function largestUsed(actual: ArrayLike<number>, predicted: ArrayLike<number>, we
     if (weights && weights[i] > heaviest) heaviest = weights[i];
   }
   return { largest, heaviest };
+}
+
+/** score's second pass: Σw, the count, Σw·a, Σw|e|, Σw·e², Σw·e over the pairs it uses (values × sv, weights × sw, e = predicted − actual). */
+function errorSums(
+  actual: ArrayLike<number>,
+  predicted: ArrayLike<number>,
+  weights: ArrayLike<number> | null | undefined,
+  sv: number,
+  sw: number,
+): { total: number; count: number; sumActual: number; absolute: number; squared: number; signed: number } {
+  let total = 0;
+  let count = 0;
+  let sumActual = 0;
+  let absolute = 0;
+  let squared = 0;
+  let signed = 0;
+  for (let i = 0; i < actual.length; i++) {
+    if (!isUsed(actual, predicted, weights, i)) continue;
+    const a = actual[i] * sv;
+    const w = (weights ? weights[i] : 1) * sw;
+    const e = predicted[i] * sv - a;
+    total += w;
+    count++;
+    sumActual += w * a;
+    absolute += w * Math.abs(e);
+    squared += w * e * e;
+    signed += w * e;
+  }
+  return { total, count, sumActual, absolute, squared, signed };
+}
+
+/** score's third pass: Σw·(a − mean)² over the pairs it uses. */
+function spreadOf(actual: ArrayLike<number>, predicted: ArrayLike<number>, weights: ArrayLike<number> | null | undefined, sv: number, sw: number, mean: number): number {
+  let spread = 0;
+  for (let i = 0; i < actual.length; i++) {
+    if (!isUsed(actual, predicted, weights, i)) continue;
+    const a = actual[i] * sv;
+    const w = (weights ? weights[i] : 1) * sw;
+    spread += w * (a - mean) * (a - mean);
+  }
+  return spread;
 }
