@@ -1996,8 +1996,9 @@ function heldOutModels(
   // Up to four used columns a pass (addColumnTerms): each row's prediction still adds their
   // terms one column after another in column order, and the prediction is read and written
   // once per pass instead of once per column.
-  const S = 3 * (K + 1);
-  const terms = new Float64Array(4 * S);
+  // terms[12f + 3c …]: fold f's (b, anchor, offset) for the group's column c, so one row's
+  // terms sit side by side (slot K, rows no fold holds out, stays all zeros).
+  const terms = new Float64Array(12 * (K + 1));
   const used: number[] = [];
   for (let j = 0; j < p; j++) {
     for (let f = 0; f < K; f++) {
@@ -2015,14 +2016,14 @@ function heldOutModels(
     for (let c = 0; c < count; c++) {
       const j = used[u + c];
       for (let f = 0; f < K; f++) {
-        terms[c * S + 3 * f] = slopes[f * p + j];
-        terms[c * S + 3 * f + 1] = anchors[f * p + j];
-        terms[c * S + 3 * f + 2] = offsets[f * p + j];
+        terms[12 * f + 3 * c] = slopes[f * p + j];
+        terms[12 * f + 3 * c + 1] = anchors[f * p + j];
+        terms[12 * f + 3 * c + 2] = offsets[f * p + j];
       }
       offs[c] = j * n;
       scale[c] = factors ? factors[j] : 1;
     }
-    addColumnTerms(prediction, values, offs, scale, count, foldOf, terms, S, n);
+    addColumnTerms(prediction, values, offs, scale, count, foldOf, terms, n);
   }
   // The lists at their final length, filled by index: every row some fold holds out (foldOf < K)
   // is listed once. Growing them by push re-copied them as they grew (100,000 rows: about 3×
@@ -2064,7 +2065,7 @@ function markHeldOut(block: Int32Array, weights: Float64Array | null, f: number,
 /**
  * prediction_i += b_f · ((x_ij × factor_j − anchor_f) − offset_f) for the fold f = foldOf[i],
  * for `count` (1 to 4) columns j in turn: column c at values[offs[c] …], scaled by scale[c], its
- * terms at terms[c·S …] (3 per fold).
+ * terms for fold f at terms[12f + 3c …].
  */
 function addColumnTerms(
   prediction: Float64Array,
@@ -2074,7 +2075,6 @@ function addColumnTerms(
   count: number,
   foldOf: Int32Array,
   terms: Float64Array,
-  S: number,
   n: number,
 ): void {
   const o0 = offs[0];
@@ -2087,25 +2087,22 @@ function addColumnTerms(
     const f2 = scale[2];
     const f3 = scale[3];
     for (let i = 0; i < n; i++) {
-      const t = 3 * foldOf[i];
-      const u = t + S;
-      const v = u + S;
-      const w = v + S;
+      const t = 12 * foldOf[i];
       prediction[i] =
         prediction[i] +
         terms[t] * (values[o0 + i] * f0 - terms[t + 1] - terms[t + 2]) +
-        terms[u] * (values[o1 + i] * f1 - terms[u + 1] - terms[u + 2]) +
-        terms[v] * (values[o2 + i] * f2 - terms[v + 1] - terms[v + 2]) +
-        terms[w] * (values[o3 + i] * f3 - terms[w + 1] - terms[w + 2]);
+        terms[t + 3] * (values[o1 + i] * f1 - terms[t + 4] - terms[t + 5]) +
+        terms[t + 6] * (values[o2 + i] * f2 - terms[t + 7] - terms[t + 8]) +
+        terms[t + 9] * (values[o3 + i] * f3 - terms[t + 10] - terms[t + 11]);
     }
     return;
   }
   for (let c = 0; c < count; c++) {
     const o = offs[c];
     const f = scale[c];
-    const base = c * S;
+    const base = 3 * c;
     for (let i = 0; i < n; i++) {
-      const t = base + 3 * foldOf[i];
+      const t = base + 12 * foldOf[i];
       prediction[i] += terms[t] * (values[o + i] * f - terms[t + 1] - terms[t + 2]);
     }
   }
