@@ -932,80 +932,92 @@ export function stableAnchors(x: ColumnMatrix, omega: ArrayLike<number>, factors
   const n = x.rows;
   const p = x.columns;
   const data = x.data;
+  // state: the four running sums, then the four nearest distances and values (a double stored in
+  // a Float64Array and read back is the same double, so chunking changes no result).
+  const state = new Float64Array(12);
+  const f = new Float64Array(4);
   let j = 0;
   for (; j + 4 <= p; j += 4) {
-    roughOfFour(data, n, j, omega, factors, out);
-    nearestOfFour(data, n, j, everyPositive ? null : omega, factors, out);
+    const s = j * n;
+    for (let c = 0; c < 4; c++) f[c] = factors ? factors[j + c] : 1;
+    state.fill(0);
+    for (let t = 0; t < n; t += ANCHOR_CHUNK) roughOfFour(data, s, n, f, omega, state, t, Math.min(n, t + ANCHOR_CHUNK));
+    state.fill(Infinity, 4, 8);
+    state.fill(NaN, 8, 12);
+    const positive = everyPositive ? null : omega;
+    for (let t = 0; t < n; t += ANCHOR_CHUNK) nearestOfFour(data, s, n, f, positive, state, t, Math.min(n, t + ANCHOR_CHUNK));
+    for (let c = 0; c < 4; c++) out[j + c] = state[8 + c];
   }
   for (; j < p; j++) out[j] = stableAnchor(data.subarray(j * n, (j + 1) * n), omega, n, factors ? factors[j] : 1);
 }
 
 /**
- * stableAnchors' first pass for columns j0 … j0 + 3: the rough means Σ ω v into rough[j0 …].
- * Each pass a function of its own with one loop, so V8 optimizes it whole (compiled while its
- * loop runs, a function of two loops was thrown away on reaching the second); the stores run
- * before the loop too, for their type feedback (see nearestOfFour).
+ * Rows per call of stableAnchors' passes. A function called a handful of times per fit, each call
+ * one long loop, was compiled by V8 before it had type feedback for its entry and exit (its
+ * feedback is allocated only after several calls) and then ran deoptimized: in about half of the
+ * processes the four-column passes took twice the time of the column-by-column ones. Called per
+ * chunk of rows, they are called often enough to be optimized with full feedback.
  */
-function roughOfFour(data: Float64Array, n: number, j0: number, omega: ArrayLike<number>, factors: Float64Array | null, rough: Float64Array): void {
-  const s0 = j0 * n;
+const ANCHOR_CHUNK = 1024;
+
+/**
+ * stableAnchors' first pass over rows [t0, t1) for the four columns at data[s], data[s + n], …
+ * (scaled by f[c]): the running sums Σ ω v in state[0 … 3], carried from chunk to chunk.
+ */
+function roughOfFour(data: Float64Array, s: number, n: number, f: Float64Array, omega: ArrayLike<number>, state: Float64Array, t0: number, t1: number): void {
+  const s0 = s;
   const s1 = s0 + n;
   const s2 = s1 + n;
   const s3 = s2 + n;
-  const f0 = factors ? factors[j0] : 1;
-  const f1 = factors ? factors[j0 + 1] : 1;
-  const f2 = factors ? factors[j0 + 2] : 1;
-  const f3 = factors ? factors[j0 + 3] : 1;
-  let r0 = 0;
-  let r1 = 0;
-  let r2 = 0;
-  let r3 = 0;
-  for (let done = false; ; done = true) {
-    rough[j0] = r0;
-    rough[j0 + 1] = r1;
-    rough[j0 + 2] = r2;
-    rough[j0 + 3] = r3;
-    if (done) break;
-    for (let t = 0; t < n; t++) {
-      const w = omega[t];
-      r0 += w * (data[s0 + t] * f0);
-      r1 += w * (data[s1 + t] * f1);
-      r2 += w * (data[s2 + t] * f2);
-      r3 += w * (data[s3 + t] * f3);
-    }
+  const f0 = f[0];
+  const f1 = f[1];
+  const f2 = f[2];
+  const f3 = f[3];
+  let r0 = state[0];
+  let r1 = state[1];
+  let r2 = state[2];
+  let r3 = state[3];
+  for (let t = t0; t < t1; t++) {
+    const w = omega[t];
+    r0 += w * (data[s0 + t] * f0);
+    r1 += w * (data[s1 + t] * f1);
+    r2 += w * (data[s2 + t] * f2);
+    r3 += w * (data[s3 + t] * f3);
   }
+  state[0] = r0;
+  state[1] = r1;
+  state[2] = r2;
+  state[3] = r3;
 }
 
 /**
- * stableAnchors' second pass for columns j0 … j0 + 3: out[j] becomes the positively weighted
- * value nearest out[j] (the rough mean), NaN if none; omega null: every weight is positive.
- * Nothing is stored after the loop: V8 compiles such a function while its loop runs (on-stack
- * replacement), and that code is thrown away ("insufficient type feedback") on reaching stores
- * it has never run, which `--trace-deopt` showed at every call in a stand-alone run.
+ * stableAnchors' second pass over rows [t0, t1): for each of the four columns, the positively
+ * weighted value nearest its rough mean (state[c]), the distance so far in state[4 + c] and the
+ * value in state[8 + c] (NaN while none); a later value replaces it only when strictly nearer,
+ * as in stableAnchor. omega null: every weight is positive.
  */
-function nearestOfFour(data: Float64Array, n: number, j0: number, omega: ArrayLike<number> | null, factors: Float64Array | null, out: Float64Array): void {
-  const s0 = j0 * n;
+function nearestOfFour(data: Float64Array, s: number, n: number, f: Float64Array, omega: ArrayLike<number> | null, state: Float64Array, t0: number, t1: number): void {
+  const s0 = s;
   const s1 = s0 + n;
   const s2 = s1 + n;
   const s3 = s2 + n;
-  const f0 = factors ? factors[j0] : 1;
-  const f1 = factors ? factors[j0 + 1] : 1;
-  const f2 = factors ? factors[j0 + 2] : 1;
-  const f3 = factors ? factors[j0 + 3] : 1;
-  const r0 = out[j0];
-  const r1 = out[j0 + 1];
-  const r2 = out[j0 + 2];
-  const r3 = out[j0 + 3];
-  out[j0] = NaN;
-  out[j0 + 1] = NaN;
-  out[j0 + 2] = NaN;
-  out[j0 + 3] = NaN;
-  let d0 = Infinity;
-  let d1 = Infinity;
-  let d2 = Infinity;
-  let d3 = Infinity;
-  // Each nearer value is stored as it is found (rarely, after the first rows): no store waits
-  // after the loop (see the function comment).
-  for (let t = 0; t < n; t++) {
+  const f0 = f[0];
+  const f1 = f[1];
+  const f2 = f[2];
+  const f3 = f[3];
+  const r0 = state[0];
+  const r1 = state[1];
+  const r2 = state[2];
+  const r3 = state[3];
+  let d0 = state[4];
+  let d1 = state[5];
+  let d2 = state[6];
+  let d3 = state[7];
+  let c0 = state[8];
+  let c1 = state[9];
+  let c2 = state[10];
+  let c3 = state[11];
+  for (let t = t0; t < t1; t++) {
     if (omega !== null && !(omega[t] > 0)) continue;
     const v0 = data[s0 + t] * f0;
     const v1 = data[s1 + t] * f1;
@@ -1017,21 +1029,29 @@ function nearestOfFour(data: Float64Array, n: number, j0: number, omega: ArrayLi
     const e3 = Math.abs(v3 - r3);
     if (e0 < d0) {
       d0 = e0;
-      out[j0] = v0;
+      c0 = v0;
     }
     if (e1 < d1) {
       d1 = e1;
-      out[j0 + 1] = v1;
+      c1 = v1;
     }
     if (e2 < d2) {
       d2 = e2;
-      out[j0 + 2] = v2;
+      c2 = v2;
     }
     if (e3 < d3) {
       d3 = e3;
-      out[j0 + 3] = v3;
+      c3 = v3;
     }
   }
+  state[4] = d0;
+  state[5] = d1;
+  state[6] = d2;
+  state[7] = d3;
+  state[8] = c0;
+  state[9] = c1;
+  state[10] = c2;
+  state[11] = c3;
 }
 
 /** The centre of `stableCentre` rounded to one double. */
