@@ -77,6 +77,7 @@ import {
   problemFromRows,
   problemFromSums,
   stableAnchor,
+  stableAnchors,
   stableMean,
   Standardization,
   takeLargest,
@@ -88,7 +89,7 @@ import {
   checkInteger,
   checkMixes,
   checkPerPredictor,
-  checkPredictors,
+  checkedPredictors,
   checkRowVector,
   checkWeights,
   describeColumn,
@@ -438,7 +439,7 @@ export interface Prepared {
 
 function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target: ArrayLike<number>, options: FitOptions): Prepared {
   const names = options.names ? options.names.map(String) : undefined;
-  const x = checkPredictors(predictors, names);
+  const { matrix: x, largest: columnLargest } = checkedPredictors(predictors, names);
   const n = x.rows;
   const p = x.columns;
   const y = checkRowVector(target, n, "target");
@@ -453,7 +454,7 @@ function prepare(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target
   const gram = !twoClass && covarianceForm;
   // Checkpoints between the O(n·p) passes over the input (checks, working copy).
   throwIfCancelled(options.signal);
-  const work = workingCopy(x, y, weights, !twoClass, readInPlace);
+  const work = workingCopy(x, y, weights, !twoClass, readInPlace, columnLargest);
   throwIfCancelled(options.signal);
   // Constant target (the rule problem.ts applies to columns): nothing to predict.
   const omega = shareOfWeight(work.weights, n);
@@ -713,6 +714,8 @@ function readX(data: Prepared): { x: ColumnMatrix; factors: Float64Array | null 
  * of two that brings its largest magnitude on rows with positive weight into [0.5, 1); rows with
  * weight 0 stored as 0. Exact (powers of two), so the standardized problems built from it are
  * the ones the unscaled data would give, without overflow or underflow. Cost O(n·p).
+ * `columnLargest`: each column's largest magnitude over all rows (validate.ts
+ * checkedPredictors), used as it is when there are no weights.
  * With `inPlace` and every weight positive the predictors are not copied: x is a deferred copy
  * and `inPlace` holds the data and the powers of two (see Prepared.inPlace).
  */
@@ -722,6 +725,7 @@ function workingCopy(
   weights: Float64Array | null,
   scaleTarget: boolean,
   inPlace: boolean,
+  columnLargest: Float64Array,
 ): {
   x: ColumnMatrix;
   inPlace: Prepared["inPlace"];
@@ -758,7 +762,8 @@ function workingCopy(
     // No row is zeroed, so the copy would be exactly x_ij × 2^xExponent[j]: formed where read.
     const factors = new Float64Array(p);
     for (let j = 0; j < p; j++) {
-      xExponent[j] = unitExponent(largestOf(x.data, j * n));
+      // Without weights every row counts: the largest magnitudes the input check found.
+      xExponent[j] = unitExponent(weights ? largestOf(x.data, j * n) : columnLargest[j]);
       factors[j] = powerOfTwo(xExponent[j]);
     }
     let copy: Float64Array | null = null;
@@ -778,7 +783,7 @@ function workingCopy(
   const data = new Float64Array(n * p);
   for (let j = 0; j < p; j++) {
     const off = j * n;
-    xExponent[j] = unitExponent(largestOf(x.data, off));
+    xExponent[j] = unitExponent(weights ? largestOf(x.data, off) : columnLargest[j]);
     copyScaled(x.data, off, n, powerOfTwo(xExponent[j]), data, weights);
   }
   return { x: { rows: n, columns: p, data }, inPlace: null, y: workY, weights: workWeights, xExponent, yExponent, weightExponent };
@@ -871,12 +876,11 @@ function fullShift(data: Prepared): { shiftX: Float64Array; shiftY: number } {
   const omega = shareOfWeight(weights, n);
   // Only the anchors (a value near each centre) are used: stableAnchor skips the two passes of
   // stableCentre's offset; the same anchors (0 when no weight is positive, as stableCentre gives).
-  const anchorOf = (values: Float64Array, factor: number): number => {
-    const anchor = stableAnchor(values, omega, n, factor);
-    return Number.isNaN(anchor) ? 0 : anchor;
-  };
-  const shiftY = anchorOf(y, 1);
-  for (let j = 0; j < x.columns; j++) shiftX[j] = anchorOf(x.data.subarray(j * n, (j + 1) * n), factors ? factors[j] : 1);
+  const anchorY = stableAnchor(y, omega, n);
+  const shiftY = Number.isNaN(anchorY) ? 0 : anchorY;
+  // The columns four at a time (stableAnchors: the same anchor per column, bit for bit).
+  stableAnchors(x, omega, factors, shiftX, weights === null);
+  for (let j = 0; j < x.columns; j++) if (Number.isNaN(shiftX[j])) shiftX[j] = 0;
   return { shiftX, shiftY };
 }
 
@@ -1989,19 +1993,37 @@ function heldOutModels(
   // In place: x_ij × factors[j] formed per value (the working copy's value; × 1 is exact).
   const { x: read, factors } = readX(data);
   const values = read.data;
-  const terms = new Float64Array(3 * (K + 1));
+  // Up to four used columns a pass (addColumnTerms): each row's prediction still adds their
+  // terms one column after another in column order, and the prediction is read and written
+  // once per pass instead of once per column.
+  // terms[12f + 3c …]: fold f's (b, anchor, offset) for the group's column c, so one row's
+  // terms sit side by side (slot K, rows no fold holds out, stays all zeros).
+  const terms = new Float64Array(12 * (K + 1));
+  const used: number[] = [];
   for (let j = 0; j < p; j++) {
-    throwIfCancelled(signal);
-    let used = false;
     for (let f = 0; f < K; f++) {
-      const b = slopes[f * p + j];
-      terms[3 * f] = b;
-      terms[3 * f + 1] = anchors[f * p + j];
-      terms[3 * f + 2] = offsets[f * p + j];
-      if (b !== 0) used = true;
+      if (slopes[f * p + j] !== 0) {
+        used.push(j);
+        break;
+      }
     }
-    if (!used) continue;
-    addColumnTerms(prediction, values, j * n, factors ? factors[j] : 1, foldOf, terms, n);
+  }
+  const offs = new Int32Array(4);
+  const scale = new Float64Array(4);
+  for (let u = 0; u < used.length; u += 4) {
+    throwIfCancelled(signal);
+    const count = Math.min(4, used.length - u);
+    for (let c = 0; c < count; c++) {
+      const j = used[u + c];
+      for (let f = 0; f < K; f++) {
+        terms[12 * f + 3 * c] = slopes[f * p + j];
+        terms[12 * f + 3 * c + 1] = anchors[f * p + j];
+        terms[12 * f + 3 * c + 2] = offsets[f * p + j];
+      }
+      offs[c] = j * n;
+      scale[c] = factors ? factors[j] : 1;
+    }
+    addColumnTerms(prediction, values, offs, scale, count, foldOf, terms, n);
   }
   // The lists at their final length, filled by index: every row some fold holds out (foldOf < K)
   // is listed once. Growing them by push re-copied them as they grew (100,000 rows: about 3×
@@ -2040,11 +2062,49 @@ function markHeldOut(block: Int32Array, weights: Float64Array | null, f: number,
   }
 }
 
-/** prediction_i += b_f · ((x_ij × factor − anchor_f) − offset_f) for the fold f = foldOf[i] (terms: 3 per fold). */
-function addColumnTerms(prediction: Float64Array, values: Float64Array, off: number, factor: number, foldOf: Int32Array, terms: Float64Array, n: number): void {
-  for (let i = 0; i < n; i++) {
-    const t = 3 * foldOf[i];
-    prediction[i] += terms[t] * (values[off + i] * factor - terms[t + 1] - terms[t + 2]);
+/**
+ * prediction_i += b_f · ((x_ij × factor_j − anchor_f) − offset_f) for the fold f = foldOf[i],
+ * for `count` (1 to 4) columns j in turn: column c at values[offs[c] …], scaled by scale[c], its
+ * terms for fold f at terms[12f + 3c …].
+ */
+function addColumnTerms(
+  prediction: Float64Array,
+  values: Float64Array,
+  offs: Int32Array,
+  scale: Float64Array,
+  count: number,
+  foldOf: Int32Array,
+  terms: Float64Array,
+  n: number,
+): void {
+  const o0 = offs[0];
+  const f0 = scale[0];
+  if (count === 4) {
+    const o1 = offs[1];
+    const o2 = offs[2];
+    const o3 = offs[3];
+    const f1 = scale[1];
+    const f2 = scale[2];
+    const f3 = scale[3];
+    for (let i = 0; i < n; i++) {
+      const t = 12 * foldOf[i];
+      prediction[i] =
+        prediction[i] +
+        terms[t] * (values[o0 + i] * f0 - terms[t + 1] - terms[t + 2]) +
+        terms[t + 3] * (values[o1 + i] * f1 - terms[t + 4] - terms[t + 5]) +
+        terms[t + 6] * (values[o2 + i] * f2 - terms[t + 7] - terms[t + 8]) +
+        terms[t + 9] * (values[o3 + i] * f3 - terms[t + 10] - terms[t + 11]);
+    }
+    return;
+  }
+  for (let c = 0; c < count; c++) {
+    const o = offs[c];
+    const f = scale[c];
+    const base = 3 * c;
+    for (let i = 0; i < n; i++) {
+      const t = base + 12 * foldOf[i];
+      prediction[i] += terms[t] * (values[o + i] * f - terms[t + 1] - terms[t + 2]);
+    }
   }
 }
 

@@ -59,16 +59,55 @@ export function score(actual: ArrayLike<number>, predicted: ArrayLike<number>, w
   if (actual.length !== predicted.length) {
     throw new RangeError(`score requires equally long inputs; got ${actual.length} actual and ${predicted.length} predicted`);
   }
-  const used = (i: number): boolean => Number.isFinite(actual[i]) && Number.isFinite(predicted[i]) && (weights ? weights[i] > 0 : true);
+  const { largest, heaviest } = largestUsed(actual, predicted, weights);
+  const sv = scaleFor(largest);
+  const sw = weights ? scaleFor(heaviest) : 1;
+  const { total, count, sumActual, absolute, squared, signed } = errorSums(actual, predicted, weights, sv, sw);
+  if (count === 0) return { mae: NaN, rmse: NaN, r2: NaN, bias: NaN, count: 0 };
+  const mean = sumActual / total;
+  const spread = spreadOf(actual, predicted, weights, sv, sw, mean);
+  return {
+    mae: absolute / total / sv,
+    rmse: Math.sqrt(squared / total) / sv,
+    r2: spread > 0 ? 1 - squared / spread : NaN,
+    bias: signed / total / sv,
+    count,
+  };
+}
+
+/** Whether score uses pair i: both values finite and the weight (if any) positive. A module function, not a closure made per call (V8 deoptimized score on each new closure). */
+function isUsed(actual: ArrayLike<number>, predicted: ArrayLike<number>, weights: ArrayLike<number> | null | undefined, i: number): boolean {
+  return Number.isFinite(actual[i]) && Number.isFinite(predicted[i]) && (weights ? weights[i] > 0 : true);
+}
+
+/**
+ * score's first pass: the largest |actual| or |predicted| and the heaviest weight over the pairs
+ * it uses (both finite, weight positive). A function of its own with plain comparisons (the
+ * same maxima as Math.max over these finite, non-negative values).
+ */
+function largestUsed(actual: ArrayLike<number>, predicted: ArrayLike<number>, weights: ArrayLike<number> | null | undefined): { largest: number; heaviest: number } {
   let largest = 0;
   let heaviest = 0;
   for (let i = 0; i < actual.length; i++) {
-    if (!used(i)) continue;
-    largest = Math.max(largest, Math.abs(actual[i]), Math.abs(predicted[i]));
-    if (weights) heaviest = Math.max(heaviest, weights[i]);
+    const a = actual[i];
+    const p = predicted[i];
+    if (!Number.isFinite(a) || !Number.isFinite(p)) continue;
+    if (weights && !(weights[i] > 0)) continue;
+    const magnitude = Math.abs(a) > Math.abs(p) ? Math.abs(a) : Math.abs(p);
+    if (magnitude > largest) largest = magnitude;
+    if (weights && weights[i] > heaviest) heaviest = weights[i];
   }
-  const sv = scaleFor(largest);
-  const sw = weights ? scaleFor(heaviest) : 1;
+  return { largest, heaviest };
+}
+
+/** score's second pass: Σw, the count, Σw·a, Σw|e|, Σw·e², Σw·e over the pairs it uses (values × sv, weights × sw, e = predicted − actual). */
+function errorSums(
+  actual: ArrayLike<number>,
+  predicted: ArrayLike<number>,
+  weights: ArrayLike<number> | null | undefined,
+  sv: number,
+  sw: number,
+): { total: number; count: number; sumActual: number; absolute: number; squared: number; signed: number } {
   let total = 0;
   let count = 0;
   let sumActual = 0;
@@ -76,7 +115,7 @@ export function score(actual: ArrayLike<number>, predicted: ArrayLike<number>, w
   let squared = 0;
   let signed = 0;
   for (let i = 0; i < actual.length; i++) {
-    if (!used(i)) continue;
+    if (!isUsed(actual, predicted, weights, i)) continue;
     const a = actual[i] * sv;
     const w = (weights ? weights[i] : 1) * sw;
     const e = predicted[i] * sv - a;
@@ -87,20 +126,17 @@ export function score(actual: ArrayLike<number>, predicted: ArrayLike<number>, w
     squared += w * e * e;
     signed += w * e;
   }
-  if (count === 0) return { mae: NaN, rmse: NaN, r2: NaN, bias: NaN, count: 0 };
-  const mean = sumActual / total;
+  return { total, count, sumActual, absolute, squared, signed };
+}
+
+/** score's third pass: Σw·(a − mean)² over the pairs it uses. */
+function spreadOf(actual: ArrayLike<number>, predicted: ArrayLike<number>, weights: ArrayLike<number> | null | undefined, sv: number, sw: number, mean: number): number {
   let spread = 0;
   for (let i = 0; i < actual.length; i++) {
-    if (!used(i)) continue;
+    if (!isUsed(actual, predicted, weights, i)) continue;
     const a = actual[i] * sv;
     const w = (weights ? weights[i] : 1) * sw;
     spread += w * (a - mean) * (a - mean);
   }
-  return {
-    mae: absolute / total / sv,
-    rmse: Math.sqrt(squared / total) / sv,
-    r2: spread > 0 ? 1 - squared / spread : NaN,
-    bias: signed / total / sv,
-    count,
-  };
+  return spread;
 }

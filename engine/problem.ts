@@ -238,10 +238,13 @@ const WINDOW_VALUES = 2 ** 15;
  *   ΩA beside it. Reading the data in row order touches each cache line once, where gathering a
  *   block's rows straight from a long column touches most lines of it for every block.
  * - For each block, its rows of the window are one segment of the panels; every pair of panels
- *   g ≤ h gives a 4 × 4 tile of products (10 on the diagonal, by symmetry) summed over the
- *   segment in 16 register accumulators, 8 loads per 16 multiply-adds, then added to the block's
- *   totals (Goto & van de Geijn, "Anatomy of high-performance matrix multiplication", ACM TOMS
- *   34(3), 2008: packed panels, register tiles).
+ *   g ≤ h gives a tile of products (panelProducts: 4 × 4 on the diagonal, 10 by symmetry; 2 × 4
+ *   off it) summed over the segment in register accumulators, then added to the block's totals
+ *   (Goto & van de Geijn, "Anatomy of high-performance matrix multiplication", ACM TOMS 34(3),
+ *   2008: packed panels, register tiles).
+ * - The order of reading (gatherOrder: each window's rows block by block) is worked out once,
+ *   not per column, and four columns are gathered at a time (packPanel), one read of a row's
+ *   index serving the four values.
  *
  * Summation order: each block's rows in increasing row order, summed within a window's segment
  * and the segments added in window order. It depends only on the shape of the data and the
@@ -274,52 +277,56 @@ export function blockSumsOf(
   const stride = PANEL * window;
   const a = new Float64Array(panels * stride);
   const b = weights ? new Float64Array(panels * stride) : a;
-  const w = new Float64Array(window);
-  const sorted = blocks.map((rows) => Int32Array.from(rows).sort());
-  const cursor = new Int32Array(K);
-  const segment = new Int32Array(K + 1);
+  // The column of ones (j = p + 1) is the same in every window: written once.
+  const ones = Math.floor((p + 1) / PANEL) * stride + ((p + 1) % PANEL);
+  for (let t = 0; t < window; t++) a[ones + PANEL * t] = 1;
+  const { order, segments, weightOf } = gatherOrder(blocks, n, window, weights);
   const totals = blocks.map(() => new Float64Array(Q * Q));
   const outs = blocks.map((rows) => {
     const out = emptySums(p);
     out.rows = rows.length;
     return out;
   });
-  for (let i0 = 0; i0 < n; i0 += window) {
+  const largest = new Float64Array(K * PANEL);
+  const windows = Math.ceil(n / window);
+  for (let v = 0; v < windows; v++) {
     throwIfCancelled(signal);
-    const i1 = Math.min(n, i0 + window);
-    // Each block's rows in [i0, i1): a run of its sorted list, placed at segment[k] … segment[k + 1).
-    let count = 0;
-    for (let k = 0; k < K; k++) {
-      segment[k] = count;
-      count = gatherWeights(sorted[k], cursor[k], i0, i1, weights, w, count);
-    }
-    segment[K] = count;
+    const seg = v * (K + 1);
+    const first = segments[seg];
+    const count = segments[seg + K] - first;
     if (count === 0) continue;
-    for (let j = 0; j < q; j++) {
-      const base = Math.floor(j / PANEL) * stride + (j % PANEL);
-      const values = j < p ? data : j === p ? y : null;
-      const src = j < p ? j * n : 0;
-      const shift = j < p ? shiftX[j] : j === p ? shiftY : 0;
-      // × 1 leaves every value as it is (finite values, -0 included).
-      const factor = j < p && factors ? factors[j] : 1;
-      for (let k = 0; k < K; k++) {
-        if (values) {
-          const largest = packValues(values, src, factor, shift, sorted[k], cursor[k], segment[k], segment[k + 1], a, base, w);
+    for (let g = 0; g < panels; g++) {
+      const j0 = PANEL * g;
+      if (j0 + PANEL <= p) {
+        // Four predictor columns: one read of each row's index serves all four.
+        packPanel(data, n, j0, factors, shiftX, order, segments, seg, K, weightOf, a, g * stride, largest);
+        for (let k = 0; k < K; k++) {
+          const out = outs[k];
+          for (let c = 0; c < PANEL; c++) if (largest[PANEL * k + c] > out.largest[j0 + c]) out.largest[j0 + c] = largest[PANEL * k + c];
+        }
+        continue;
+      }
+      for (let j = j0; j < j0 + PANEL && j <= p; j++) {
+        const base = g * stride + (j % PANEL);
+        const values = j < p ? data : y;
+        const src = j < p ? j * n : 0;
+        const shift = j < p ? shiftX[j] : shiftY;
+        // × 1 leaves every value as it is (finite values, -0 included).
+        const factor = j < p && factors ? factors[j] : 1;
+        packColumn(values, src, factor, shift, order, segments, seg, K, weightOf, a, base, largest);
+        for (let k = 0; k < K; k++) {
           const out = outs[k];
           if (j < p) {
-            if (largest > out.largest[j]) out.largest[j] = largest;
-          } else if (largest > out.largestY) out.largestY = largest;
-        } else {
-          for (let t = segment[k]; t < segment[k + 1]; t++) a[base + PANEL * t] = 1;
+            if (largest[k] > out.largest[j]) out.largest[j] = largest[k];
+          } else if (largest[k] > out.largestY) out.largestY = largest[k];
         }
       }
     }
-    for (let k = 0; k < K; k++) cursor[k] += segment[k + 1] - segment[k];
-    if (weights) {
+    if (weightOf) {
       for (let g = 0; g < panels; g++) {
         const off = g * stride;
         for (let t = 0; t < count; t++) {
-          const wt = w[t];
+          const wt = weightOf[first + t];
           const o = off + PANEL * t;
           b[o] = wt * a[o];
           b[o + 1] = wt * a[o + 1];
@@ -329,12 +336,13 @@ export function blockSumsOf(
       }
     }
     for (let k = 0; k < K; k++) {
-      if (segment[k + 1] > segment[k]) panelProducts(a, b, stride, panels, segment[k], segment[k + 1], totals[k]);
+      const t0 = segments[seg + k] - first;
+      const t1 = segments[seg + k + 1] - first;
+      if (t1 <= t0) continue;
+      panelProducts(a, b, stride, panels, q - PANEL * (panels - 1), t0, t1, totals[k]);
     }
   }
   for (let k = 0; k < K; k++) {
-    const list = sorted[k];
-    if (cursor[k] !== list.length) throw new Error(`blockSumsOf: row ${list[cursor[k]]} is out of range`);
     const out = outs[k];
     const total = totals[k];
     for (let j = 0; j < p; j++) {
@@ -353,52 +361,178 @@ export function blockSumsOf(
   return outs;
 }
 
-/** blockSumsOf: the weights (1 without) of a block's rows in [i0, i1) from list[r0] on, into w from `count`; returns the new count. */
-function gatherWeights(list: Int32Array, r0: number, i0: number, i1: number, weights: ArrayLike<number> | null, w: Float64Array, count: number): number {
+/**
+ * blockSumsOf's order of reading, worked out once for every column: window by window
+ * (`window` consecutive rows), each block's rows of the window in increasing order, block after
+ * block. `order` lists the rows so; window v's block k occupies order[segments[v(K+1) + k] …
+ * segments[v(K+1) + k + 1]); `weightOf` holds each listed row's weight (null without weights:
+ * every row counts).
+ */
+function gatherOrder(
+  blocks: readonly ArrayLike<number>[],
+  n: number,
+  window: number,
+  weights: ArrayLike<number> | null,
+): { order: Int32Array; segments: Int32Array; weightOf: Float64Array | null } {
+  const K = blocks.length;
+  const sorted = blocks.map((rows) => Int32Array.from(rows).sort());
+  let total = 0;
+  for (const list of sorted) total += list.length;
+  const order = new Int32Array(total);
+  const weightOf = weights ? new Float64Array(total) : null;
+  const windows = Math.ceil(n / window);
+  const segments = new Int32Array(windows * (K + 1) + 1);
+  const cursor = new Int32Array(K);
+  let count = 0;
+  for (let v = 0; v < windows; v++) {
+    const i0 = v * window;
+    const i1 = Math.min(n, i0 + window);
+    for (let k = 0; k < K; k++) {
+      segments[v * (K + 1) + k] = count;
+      const list = sorted[k];
+      const from = count;
+      count = listRows(list, cursor[k], i0, i1, order, count);
+      cursor[k] += count - from;
+    }
+    segments[v * (K + 1) + K] = count;
+  }
+  for (let k = 0; k < K; k++) {
+    const list = sorted[k];
+    if (cursor[k] !== list.length) throw new Error(`blockSumsOf: row ${list[cursor[k]]} is out of range`);
+  }
+  if (weights && weightOf) for (let t = 0; t < count; t++) weightOf[t] = weights[order[t]];
+  return { order, segments, weightOf };
+}
+
+/** gatherOrder: a block's rows in [i0, i1) from list[r0] on, into order from `count`; returns the new count. */
+function listRows(list: Int32Array, r0: number, i0: number, i1: number, order: Int32Array, count: number): number {
   for (let r = r0; r < list.length && list[r] < i1; r++) {
     const i = list[r];
     if (i < i0) throw new Error(`blockSumsOf: row ${i} is out of range`);
-    w[count++] = weights ? weights[i] : 1;
+    order[count++] = i;
   }
   return count;
 }
 
 /**
- * blockSumsOf's gather of one column's rows of one block into its panel slot: rows list[r0], …
- * (one per t in [t0, t1)) read as value × factor, stored less the shift; returns the largest
- * magnitude among rows of positive weight. A function of its own, called per column and block,
- * so it is optimized as a whole after its first calls (inside blockSumsOf, which runs once per
- * fit, this loop ran unoptimized, boxing each value, during most of a process's first fit).
+ * blockSumsOf's gather of one column's rows of one window into its panel slot: for each block k,
+ * the rows order[segments[seg + k]] … read as value × factor, stored less the shift;
+ * largest[k] gets the largest magnitude among the block's rows of positive weight. A function of
+ * its own, called per column and window, so it is optimized as a whole after its first calls
+ * (inside blockSumsOf, which runs once per fit, this loop ran unoptimized, boxing each value,
+ * during most of a process's first fit).
  */
-function packValues(
+function packColumn(
   values: ArrayLike<number>,
   src: number,
   factor: number,
   shift: number,
-  list: Int32Array,
-  r0: number,
-  t0: number,
-  t1: number,
+  order: Int32Array,
+  segments: Int32Array,
+  seg: number,
+  K: number,
+  weightOf: Float64Array | null,
   a: Float64Array,
   base: number,
-  w: Float64Array,
-): number {
-  let largest = 0;
-  for (let t = t0, r = r0; t < t1; t++, r++) {
-    const v = values[src + list[r]] * factor;
-    a[base + PANEL * t] = v - shift;
-    if (w[t] > 0 && Math.abs(v) > largest) largest = Math.abs(v);
+  largest: Float64Array,
+): void {
+  const first = segments[seg];
+  for (let k = 0; k < K; k++) {
+    let top = 0;
+    const end = segments[seg + k + 1];
+    for (let s = segments[seg + k]; s < end; s++) {
+      const v = values[src + order[s]] * factor;
+      a[base + PANEL * (s - first)] = v - shift;
+      if ((weightOf === null || weightOf[s] > 0) && Math.abs(v) > top) top = Math.abs(v);
+    }
+    largest[k] = top;
   }
-  return largest;
+}
+
+/**
+ * packColumn for four predictor columns j0 … j0 + 3 filling panel `base` whole: each row's
+ * index read once for the four values. largest[4k + c]: block k's largest magnitude in column
+ * j0 + c. The same value, product and difference per entry as packColumn.
+ */
+function packPanel(
+  data: Float64Array,
+  n: number,
+  j0: number,
+  factors: Float64Array | null,
+  shiftX: Float64Array,
+  order: Int32Array,
+  segments: Int32Array,
+  seg: number,
+  K: number,
+  weightOf: Float64Array | null,
+  a: Float64Array,
+  base: number,
+  largest: Float64Array,
+): void {
+  const s0 = j0 * n;
+  const s1 = s0 + n;
+  const s2 = s1 + n;
+  const s3 = s2 + n;
+  const f0 = factors ? factors[j0] : 1;
+  const f1 = factors ? factors[j0 + 1] : 1;
+  const f2 = factors ? factors[j0 + 2] : 1;
+  const f3 = factors ? factors[j0 + 3] : 1;
+  const h0 = shiftX[j0];
+  const h1 = shiftX[j0 + 1];
+  const h2 = shiftX[j0 + 2];
+  const h3 = shiftX[j0 + 3];
+  const first = segments[seg];
+  for (let k = 0; k < K; k++) {
+    let m0 = 0;
+    let m1 = 0;
+    let m2 = 0;
+    let m3 = 0;
+    const end = segments[seg + k + 1];
+    for (let s = segments[seg + k]; s < end; s++) {
+      const i = order[s];
+      const v0 = data[s0 + i] * f0;
+      const v1 = data[s1 + i] * f1;
+      const v2 = data[s2 + i] * f2;
+      const v3 = data[s3 + i] * f3;
+      const o = base + PANEL * (s - first);
+      a[o] = v0 - h0;
+      a[o + 1] = v1 - h1;
+      a[o + 2] = v2 - h2;
+      a[o + 3] = v3 - h3;
+      if (weightOf === null || weightOf[s] > 0) {
+        if (Math.abs(v0) > m0) m0 = Math.abs(v0);
+        if (Math.abs(v1) > m1) m1 = Math.abs(v1);
+        if (Math.abs(v2) > m2) m2 = Math.abs(v2);
+        if (Math.abs(v3) > m3) m3 = Math.abs(v3);
+      }
+    }
+    largest[PANEL * k] = m0;
+    largest[PANEL * k + 1] = m1;
+    largest[PANEL * k + 2] = m2;
+    largest[PANEL * k + 3] = m3;
+  }
 }
 
 /**
  * `total[r·Q + s] += Σ_t b_r(t) a_s(t)` over the segment t ∈ [t0, t1), for every r ≤ s
- * (Q = 4·panels): the upper triangle of BᵀA, in tiles of 4 × 4 (see blockSumsOf). Panels are
- * row-interleaved: column 4g + c at row t is at g·stride + 4t + c.
+ * (Q = 4·panels): the upper triangle of BᵀA (see blockSumsOf). Panels are row-interleaved:
+ * column 4g + c at row t is at g·stride + 4t + c. Each entry is summed in one accumulator over t
+ * in increasing order, then added to its total, whatever the tile, so the tiling changes no bit.
+ * Tiles: 4 × 4 on the diagonal (10 products by symmetry); 2 × 4 off it, eight accumulators
+ * (measured on V8, x64: a 4 × 4 tile's sixteen accumulators and its loaded values overflow the
+ * sixteen double registers and were spilled to the stack every step, and each load carries an
+ * array check, so fewer live values ran faster although they load more per product); a last
+ * panel of one or two columns (the rest padding) takes 4 × 2 tiles (edgeProducts) instead of
+ * multiplying the padding. Indices as `| 0` sums: no overflow check per load.
  */
-function panelProducts(a: Float64Array, b: Float64Array, stride: number, panels: number, t0: number, t1: number, total: Float64Array): void {
-  const Q = panels * PANEL;
+function panelProducts(a: Float64Array, b: Float64Array, stride: number, panels: number, width: number, t0: number, t1: number, total: Float64Array): void {
+  if (a === b) {
+    panelSquares(a, stride, panels, width, t0, t1, total);
+    return;
+  }
+  const Q = panels * 4;
+  // A last panel of at most two columns (the rest padding) takes narrower tiles: edgeProducts.
+  const full = width <= 2 ? panels - 1 : panels;
   for (let g = 0; g < panels; g++) {
     const bg = g * stride;
     let s00 = 0;
@@ -412,7 +546,7 @@ function panelProducts(a: Float64Array, b: Float64Array, stride: number, panels:
     let s23 = 0;
     let s33 = 0;
     for (let t = t0; t < t1; t++) {
-      const o = bg + PANEL * t;
+      const o = bg + 4 * t;
       const a0 = a[o];
       const a1 = a[o + 1];
       const a2 = a[o + 2];
@@ -432,7 +566,7 @@ function panelProducts(a: Float64Array, b: Float64Array, stride: number, panels:
       s23 += b2 * a3;
       s33 += b3 * a3;
     }
-    const d = PANEL * g * (Q + 1);
+    const d = 4 * g * (Q + 1);
     total[d] += s00;
     total[d + 1] += s01;
     total[d + 2] += s02;
@@ -443,71 +577,216 @@ function panelProducts(a: Float64Array, b: Float64Array, stride: number, panels:
     total[d + 2 * Q + 2] += s22;
     total[d + 2 * Q + 3] += s23;
     total[d + 3 * Q + 3] += s33;
-    for (let h = g + 1; h < panels; h++) {
+    for (let h = g + 1; h < full; h++) {
       const ah = h * stride;
-      let t00 = 0;
-      let t01 = 0;
-      let t02 = 0;
-      let t03 = 0;
-      let t10 = 0;
-      let t11 = 0;
-      let t12 = 0;
-      let t13 = 0;
-      let t20 = 0;
-      let t21 = 0;
-      let t22 = 0;
-      let t23 = 0;
-      let t30 = 0;
-      let t31 = 0;
-      let t32 = 0;
-      let t33 = 0;
-      for (let t = t0; t < t1; t++) {
-        const o = bg + PANEL * t;
-        const u = ah + PANEL * t;
-        const a0 = a[u];
-        const a1 = a[u + 1];
-        const a2 = a[u + 2];
-        const a3 = a[u + 3];
-        const b0 = b[o];
-        t00 += b0 * a0;
-        t01 += b0 * a1;
-        t02 += b0 * a2;
-        t03 += b0 * a3;
-        const b1 = b[o + 1];
-        t10 += b1 * a0;
-        t11 += b1 * a1;
-        t12 += b1 * a2;
-        t13 += b1 * a3;
-        const b2 = b[o + 2];
-        t20 += b2 * a0;
-        t21 += b2 * a1;
-        t22 += b2 * a2;
-        t23 += b2 * a3;
-        const b3 = b[o + 3];
-        t30 += b3 * a0;
-        t31 += b3 * a1;
-        t32 += b3 * a2;
-        t33 += b3 * a3;
+      const e = 4 * (g * Q + h);
+      for (let r = 0; r < 4; r += 2) {
+        let t00 = 0;
+        let t01 = 0;
+        let t02 = 0;
+        let t03 = 0;
+        let t10 = 0;
+        let t11 = 0;
+        let t12 = 0;
+        let t13 = 0;
+        const u1 = (ah + 4 * t1) | 0;
+        for (let u = (ah + 4 * t0) | 0, o = (bg + 4 * t0 + r) | 0; u < u1; u = (u + 4) | 0, o = (o + 4) | 0) {
+          const a0 = a[u];
+          const a1 = a[(u + 1) | 0];
+          const a2 = a[(u + 2) | 0];
+          const a3 = a[(u + 3) | 0];
+          const b0 = b[o];
+          const b1 = b[(o + 1) | 0];
+          t00 += b0 * a0;
+          t01 += b0 * a1;
+          t02 += b0 * a2;
+          t03 += b0 * a3;
+          t10 += b1 * a0;
+          t11 += b1 * a1;
+          t12 += b1 * a2;
+          t13 += b1 * a3;
+        }
+        const f = e + r * Q;
+        total[f] += t00;
+        total[f + 1] += t01;
+        total[f + 2] += t02;
+        total[f + 3] += t03;
+        total[f + Q] += t10;
+        total[f + Q + 1] += t11;
+        total[f + Q + 2] += t12;
+        total[f + Q + 3] += t13;
       }
-      const e = PANEL * (g * Q + h);
-      total[e] += t00;
-      total[e + 1] += t01;
-      total[e + 2] += t02;
-      total[e + 3] += t03;
-      total[e + Q] += t10;
-      total[e + Q + 1] += t11;
-      total[e + Q + 2] += t12;
-      total[e + Q + 3] += t13;
-      total[e + 2 * Q] += t20;
-      total[e + 2 * Q + 1] += t21;
-      total[e + 2 * Q + 2] += t22;
-      total[e + 2 * Q + 3] += t23;
-      total[e + 3 * Q] += t30;
-      total[e + 3 * Q + 1] += t31;
-      total[e + 3 * Q + 2] += t32;
-      total[e + 3 * Q + 3] += t33;
     }
+    if (full < panels && g < full) edgeProducts(a, b, bg, full * stride, t0, t1, total, 4 * (g * Q + full), Q);
   }
+}
+
+/**
+ * panelProducts when b is a (no weights): one array to check and address per load, and the
+ * off-diagonal tiles take two rows a step (each product still added in row order), which halves
+ * the loop's per-step checks (measured: about 5% of the whole pass at p = 20 and 100).
+ */
+function panelSquares(a: Float64Array, stride: number, panels: number, width: number, t0: number, t1: number, total: Float64Array): void {
+  const Q = panels * 4;
+  // A last panel of at most two columns (the rest padding) takes narrower tiles: edgeProducts.
+  const full = width <= 2 ? panels - 1 : panels;
+  for (let g = 0; g < panels; g++) {
+    const bg = g * stride;
+    let s00 = 0;
+    let s01 = 0;
+    let s02 = 0;
+    let s03 = 0;
+    let s11 = 0;
+    let s12 = 0;
+    let s13 = 0;
+    let s22 = 0;
+    let s23 = 0;
+    let s33 = 0;
+    const end = (bg + 4 * t1) | 0;
+    for (let o = (bg + 4 * t0) | 0; o < end; o = (o + 4) | 0) {
+      const a0 = a[o];
+      const a1 = a[(o + 1) | 0];
+      const a2 = a[(o + 2) | 0];
+      const a3 = a[(o + 3) | 0];
+      s00 += a0 * a0;
+      s01 += a0 * a1;
+      s02 += a0 * a2;
+      s03 += a0 * a3;
+      s11 += a1 * a1;
+      s12 += a1 * a2;
+      s13 += a1 * a3;
+      s22 += a2 * a2;
+      s23 += a2 * a3;
+      s33 += a3 * a3;
+    }
+    const d = 4 * g * (Q + 1);
+    total[d] += s00;
+    total[d + 1] += s01;
+    total[d + 2] += s02;
+    total[d + 3] += s03;
+    total[d + Q + 1] += s11;
+    total[d + Q + 2] += s12;
+    total[d + Q + 3] += s13;
+    total[d + 2 * Q + 2] += s22;
+    total[d + 2 * Q + 3] += s23;
+    total[d + 3 * Q + 3] += s33;
+    for (let h = g + 1; h < full; h++) {
+      const ah = h * stride;
+      const e = 4 * (g * Q + h);
+      for (let r = 0; r < 4; r += 2) {
+        let t00 = 0;
+        let t01 = 0;
+        let t02 = 0;
+        let t03 = 0;
+        let t10 = 0;
+        let t11 = 0;
+        let t12 = 0;
+        let t13 = 0;
+        const u1 = (ah + 4 * t1) | 0;
+        const u2 = (u1 - 4) | 0;
+        let u = (ah + 4 * t0) | 0;
+        let o = (bg + 4 * t0 + r) | 0;
+        // Two rows a step, each product added in row order (the same sums as one row a step).
+        for (; u < u2; u = (u + 8) | 0, o = (o + 8) | 0) {
+          let a0 = a[u];
+          let a1 = a[(u + 1) | 0];
+          let a2 = a[(u + 2) | 0];
+          let a3 = a[(u + 3) | 0];
+          let b0 = a[o];
+          let b1 = a[(o + 1) | 0];
+          t00 += b0 * a0;
+          t01 += b0 * a1;
+          t02 += b0 * a2;
+          t03 += b0 * a3;
+          t10 += b1 * a0;
+          t11 += b1 * a1;
+          t12 += b1 * a2;
+          t13 += b1 * a3;
+          a0 = a[(u + 4) | 0];
+          a1 = a[(u + 5) | 0];
+          a2 = a[(u + 6) | 0];
+          a3 = a[(u + 7) | 0];
+          b0 = a[(o + 4) | 0];
+          b1 = a[(o + 5) | 0];
+          t00 += b0 * a0;
+          t01 += b0 * a1;
+          t02 += b0 * a2;
+          t03 += b0 * a3;
+          t10 += b1 * a0;
+          t11 += b1 * a1;
+          t12 += b1 * a2;
+          t13 += b1 * a3;
+        }
+        if (u < u1) {
+          const a0 = a[u];
+          const a1 = a[(u + 1) | 0];
+          const a2 = a[(u + 2) | 0];
+          const a3 = a[(u + 3) | 0];
+          const b0 = a[o];
+          const b1 = a[(o + 1) | 0];
+          t00 += b0 * a0;
+          t01 += b0 * a1;
+          t02 += b0 * a2;
+          t03 += b0 * a3;
+          t10 += b1 * a0;
+          t11 += b1 * a1;
+          t12 += b1 * a2;
+          t13 += b1 * a3;
+        }
+        const f = e + r * Q;
+        total[f] += t00;
+        total[f + 1] += t01;
+        total[f + 2] += t02;
+        total[f + 3] += t03;
+        total[f + Q] += t10;
+        total[f + Q + 1] += t11;
+        total[f + Q + 2] += t12;
+        total[f + Q + 3] += t13;
+      }
+    }
+    if (full < panels && g < full) edgeProducts(a, a, bg, full * stride, t0, t1, total, 4 * (g * Q + full), Q);
+  }
+}
+
+/**
+ * The tile of panel g (rows of b at bg) against a last panel of two columns (at ah; its other two
+ * columns padding): `total[e + r·Q + c] += Σ_t b_r(t) a_c(t)` for r < 4, c < 2, each summed in
+ * one accumulator in increasing t as in the full tiles.
+ */
+function edgeProducts(a: Float64Array, b: Float64Array, bg: number, ah: number, t0: number, t1: number, total: Float64Array, e: number, Q: number): void {
+  let t00 = 0;
+  let t01 = 0;
+  let t10 = 0;
+  let t11 = 0;
+  let t20 = 0;
+  let t21 = 0;
+  let t30 = 0;
+  let t31 = 0;
+  const u1 = (ah + 4 * t1) | 0;
+  for (let u = (ah + 4 * t0) | 0, o = (bg + 4 * t0) | 0; u < u1; u = (u + 4) | 0, o = (o + 4) | 0) {
+    const a0 = a[u];
+    const a1 = a[(u + 1) | 0];
+    const b0 = b[o];
+    const b1 = b[(o + 1) | 0];
+    const b2 = b[(o + 2) | 0];
+    const b3 = b[(o + 3) | 0];
+    t00 += b0 * a0;
+    t01 += b0 * a1;
+    t10 += b1 * a0;
+    t11 += b1 * a1;
+    t20 += b2 * a0;
+    t21 += b2 * a1;
+    t30 += b3 * a0;
+    t31 += b3 * a1;
+  }
+  total[e] += t00;
+  total[e + 1] += t01;
+  total[e + Q] += t10;
+  total[e + Q + 1] += t11;
+  total[e + 2 * Q] += t20;
+  total[e + 2 * Q + 1] += t21;
+  total[e + 3 * Q] += t30;
+  total[e + 3 * Q + 1] += t31;
 }
 
 /**
@@ -638,6 +917,141 @@ export function stableAnchor(values: ArrayLike<number>, omega: ArrayLike<number>
     }
   }
   return anchor;
+}
+
+/**
+ * stableAnchor of every column of x (column j read as x_j × factors[j]; factors null: as
+ * stored) into `out` (NaN for a column when no weight is positive): the same two passes per
+ * column, the same operations in the same order per column, so the same anchors bit for bit,
+ * but four columns a pass. The rough mean's sum is a chain of dependent additions (each waits
+ * for the last); four columns' chains side by side keep the core busy instead of waiting.
+ * `everyPositive`: the caller knows every ω is positive (no weights), and the test is skipped.
+ * Cost O(n·p).
+ */
+export function stableAnchors(x: ColumnMatrix, omega: ArrayLike<number>, factors: Float64Array | null, out: Float64Array, everyPositive = false): void {
+  const n = x.rows;
+  const p = x.columns;
+  const data = x.data;
+  // state: the four running sums, then the four nearest distances and values (a double stored in
+  // a Float64Array and read back is the same double, so chunking changes no result).
+  const state = new Float64Array(12);
+  const f = new Float64Array(4);
+  let j = 0;
+  for (; j + 4 <= p; j += 4) {
+    const s = j * n;
+    for (let c = 0; c < 4; c++) f[c] = factors ? factors[j + c] : 1;
+    state.fill(0);
+    for (let t = 0; t < n; t += ANCHOR_CHUNK) roughOfFour(data, s, n, f, omega, state, t, Math.min(n, t + ANCHOR_CHUNK));
+    state.fill(Infinity, 4, 8);
+    state.fill(NaN, 8, 12);
+    const positive = everyPositive ? null : omega;
+    for (let t = 0; t < n; t += ANCHOR_CHUNK) nearestOfFour(data, s, n, f, positive, state, t, Math.min(n, t + ANCHOR_CHUNK));
+    for (let c = 0; c < 4; c++) out[j + c] = state[8 + c];
+  }
+  for (; j < p; j++) out[j] = stableAnchor(data.subarray(j * n, (j + 1) * n), omega, n, factors ? factors[j] : 1);
+}
+
+/**
+ * Rows per call of stableAnchors' passes. A function called a handful of times per fit, each call
+ * one long loop, was compiled by V8 before it had type feedback for its entry and exit (its
+ * feedback is allocated only after several calls) and then ran deoptimized: in about half of the
+ * processes the four-column passes took twice the time of the column-by-column ones. Called per
+ * chunk of rows, they are called often enough to be optimized with full feedback.
+ */
+const ANCHOR_CHUNK = 1024;
+
+/**
+ * stableAnchors' first pass over rows [t0, t1) for the four columns at data[s], data[s + n], …
+ * (scaled by f[c]): the running sums Σ ω v in state[0 … 3], carried from chunk to chunk.
+ */
+function roughOfFour(data: Float64Array, s: number, n: number, f: Float64Array, omega: ArrayLike<number>, state: Float64Array, t0: number, t1: number): void {
+  const s0 = s;
+  const s1 = s0 + n;
+  const s2 = s1 + n;
+  const s3 = s2 + n;
+  const f0 = f[0];
+  const f1 = f[1];
+  const f2 = f[2];
+  const f3 = f[3];
+  let r0 = state[0];
+  let r1 = state[1];
+  let r2 = state[2];
+  let r3 = state[3];
+  for (let t = t0; t < t1; t++) {
+    const w = omega[t];
+    r0 += w * (data[s0 + t] * f0);
+    r1 += w * (data[s1 + t] * f1);
+    r2 += w * (data[s2 + t] * f2);
+    r3 += w * (data[s3 + t] * f3);
+  }
+  state[0] = r0;
+  state[1] = r1;
+  state[2] = r2;
+  state[3] = r3;
+}
+
+/**
+ * stableAnchors' second pass over rows [t0, t1): for each of the four columns, the positively
+ * weighted value nearest its rough mean (state[c]), the distance so far in state[4 + c] and the
+ * value in state[8 + c] (NaN while none); a later value replaces it only when strictly nearer,
+ * as in stableAnchor. omega null: every weight is positive.
+ */
+function nearestOfFour(data: Float64Array, s: number, n: number, f: Float64Array, omega: ArrayLike<number> | null, state: Float64Array, t0: number, t1: number): void {
+  const s0 = s;
+  const s1 = s0 + n;
+  const s2 = s1 + n;
+  const s3 = s2 + n;
+  const f0 = f[0];
+  const f1 = f[1];
+  const f2 = f[2];
+  const f3 = f[3];
+  const r0 = state[0];
+  const r1 = state[1];
+  const r2 = state[2];
+  const r3 = state[3];
+  let d0 = state[4];
+  let d1 = state[5];
+  let d2 = state[6];
+  let d3 = state[7];
+  let c0 = state[8];
+  let c1 = state[9];
+  let c2 = state[10];
+  let c3 = state[11];
+  for (let t = t0; t < t1; t++) {
+    if (omega !== null && !(omega[t] > 0)) continue;
+    const v0 = data[s0 + t] * f0;
+    const v1 = data[s1 + t] * f1;
+    const v2 = data[s2 + t] * f2;
+    const v3 = data[s3 + t] * f3;
+    const e0 = Math.abs(v0 - r0);
+    const e1 = Math.abs(v1 - r1);
+    const e2 = Math.abs(v2 - r2);
+    const e3 = Math.abs(v3 - r3);
+    if (e0 < d0) {
+      d0 = e0;
+      c0 = v0;
+    }
+    if (e1 < d1) {
+      d1 = e1;
+      c1 = v1;
+    }
+    if (e2 < d2) {
+      d2 = e2;
+      c2 = v2;
+    }
+    if (e3 < d3) {
+      d3 = e3;
+      c3 = v3;
+    }
+  }
+  state[4] = d0;
+  state[5] = d1;
+  state[6] = d2;
+  state[7] = d3;
+  state[8] = c0;
+  state[9] = c1;
+  state[10] = c2;
+  state[11] = c3;
 }
 
 /** The centre of `stableCentre` rounded to one double. */
