@@ -1134,18 +1134,56 @@ function squaredErrorOfSums(
   }
   let sse = sums.yy - 2 * c * sums.sumY + c * c * sums.weight;
   let residualSum = sums.sumY - c * sums.weight;
-  for (let a = 0; a < count; a++) {
+  const xx = sums.xx;
+  const xy = sums.xy;
+  const sumX = sums.sumX;
+  // Four rows of the quadratic form at a time: each row's sum is its own chain in increasing b,
+  // as in the one-row loop, but the four chains run side by side and share each slope's load
+  // (a lone chain waits on its previous addition). The rows' terms then join sse and
+  // residualSum in row order, so both are the same bit for bit.
+  let a = 0;
+  for (; a + 3 < count; a += 4) {
+    const off0 = nz[a] * p;
+    const off1 = nz[a + 1] * p;
+    const off2 = nz[a + 2] * p;
+    const off3 = nz[a + 3] * p;
+    let q0 = 0;
+    let q1 = 0;
+    let q2 = 0;
+    let q3 = 0;
+    for (let b = 0; b < count; b++) {
+      const k = nz[b];
+      const v = packed[b];
+      q0 += xx[off0 + k] * v;
+      q1 += xx[off1 + k] * v;
+      q2 += xx[off2 + k] * v;
+      q3 += xx[off3 + k] * v;
+    }
+    sse = addRowTerms(sse, packed[a], nz[a], q0, c, xy, sumX);
+    residualSum -= packed[a] * sumX[nz[a]];
+    sse = addRowTerms(sse, packed[a + 1], nz[a + 1], q1, c, xy, sumX);
+    residualSum -= packed[a + 1] * sumX[nz[a + 1]];
+    sse = addRowTerms(sse, packed[a + 2], nz[a + 2], q2, c, xy, sumX);
+    residualSum -= packed[a + 2] * sumX[nz[a + 2]];
+    sse = addRowTerms(sse, packed[a + 3], nz[a + 3], q3, c, xy, sumX);
+    residualSum -= packed[a + 3] * sumX[nz[a + 3]];
+  }
+  for (; a < count; a++) {
     const j = nz[a];
     const bj = packed[a];
-    sse += -2 * bj * sums.xy[j] + 2 * c * bj * sums.sumX[j];
-    residualSum -= bj * sums.sumX[j];
     let quad = 0;
     const off = j * p;
-    const xx = sums.xx;
     for (let b = 0; b < count; b++) quad += xx[off + nz[b]] * packed[b];
-    sse += bj * quad;
+    sse = addRowTerms(sse, bj, j, quad, c, xy, sumX);
+    residualSum -= bj * sumX[j];
   }
   return { sse, residualSum };
+}
+
+/** squaredErrorOfSums' terms of row j (slope bj, quadratic-form row sum `quad`), added to sse in the one-row loop's order. */
+function addRowTerms(sse: number, bj: number, j: number, quad: number, c: number, xy: Float64Array, sumX: Float64Array): number {
+  sse += -2 * bj * xy[j] + 2 * c * bj * sumX[j];
+  return sse + bj * quad;
 }
 
 /**
