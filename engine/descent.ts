@@ -66,6 +66,7 @@ import { ActiveFactor, choleskyRows, StoredMatrix } from "./activeFactor";
 import { CancelSignal, throwIfCancelled } from "./errors";
 import { portableLog } from "./portableMath";
 import { dotRange, TrainingProblem } from "./problem";
+import { sharedSpectralRidge, SpectralRidge } from "./ridgeSpectral";
 
 export interface PenaltySpec {
   /** α in [0, 1]: 0 ridge, 1 lasso. */
@@ -210,6 +211,16 @@ export function setFactorCache(on: boolean): void {
   FACTOR_CACHE = on;
 }
 
+/** Newton systems with a new shift through the eigendecomposition (spectralSolve); switch as above. */
+export let SPECTRAL_NEWTON = true;
+export function setSpectralNewton(on: boolean): void {
+  SPECTRAL_NEWTON = on;
+}
+/** Largest relative residual accepted from spectralSolve (see there). */
+const SPECTRAL_RESIDUAL = 1e-13;
+/** spectralSolve's solves and, of those, the ones its residual check sent back to factorization (counters, for measurement). */
+export const spectralCounts = [0, 0];
+
 /**
  * Solver state for one training problem and one mix: coefficients, gradient (and residual in
  * naive form) persist between strengths, which is what makes warm starts free.
@@ -234,6 +245,13 @@ export class CoordinateDescent {
   private readonly changedColumns: Int32Array;
   private readonly changedDeltas: Float64Array;
   private systemBuffer: Float64Array;
+  /** The problem's eigendecomposition for Newton systems with a new shift (spectralSolve), once asked for. */
+  private spectral: SpectralRidge | null = null;
+  /** 0 not yet decided, 1 not usable (a free multiplier is 0), 2 usable (see spectralShiftWanted). */
+  private spectralState = 0;
+  private freeCount = 0;
+  private readonly spectralRhs: Float64Array;
+  private readonly spectralSpread: Float64Array;
   /** The last Newton system's Cholesky factor (see solveCached). */
   private factor: ActiveFactor | null = null;
   /** Where the factor reads B (see solveCached); filled on the first Newton step. */
@@ -310,6 +328,8 @@ export class CoordinateDescent {
     this.rhsBuffer = new Float64Array(p);
     this.rowBuffer = new Float64Array(problem.n);
     this.changedColumns = new Int32Array(p);
+    this.spectralRhs = new Float64Array(p);
+    this.spectralSpread = new Float64Array(p);
     this.changedDeltas = new Float64Array(p);
     this.systemBuffer = new Float64Array(Math.min(p, 64) ** 2);
     let equal = 0;
@@ -675,11 +695,80 @@ export class CoordinateDescent {
     }
     let ok = false;
     if (FACTOR_CACHE && factor.count > 0 && factor.shift === l2) ok = factor.update(members, m, Math.max(2, m >> 3), multipliers, source);
+    else if (SPECTRAL_NEWTON && this.problem.kind === "gram" && l2 > 0 && this.spectralShiftWanted(m) && this.spectralSolve(members, m, l2, rhs)) return true;
     if (!ok) ok = factor.rebuild(members, m, l2, multipliers, source);
     if (!ok) return false;
     factor.solve(members, m, rhs);
     if (!FACTOR_CACHE) factor.clear();
     return true;
+  }
+
+  /**
+   * Whether a Newton system of m members whose factor would have to be built afresh (the shift
+   * changed) is cheaper through the problem's eigendecomposition (SpectralRidge.shiftedSolve):
+   * gram form, every free multiplier positive, and 3f² + r²f/2 + r³/6 + m² (the solve and its
+   * residual check, r = f − m) below m³/6.
+   */
+  private spectralShiftWanted(m: number): boolean {
+    if (this.spectralState === 0) {
+      this.spectralState = 2;
+      const { multipliers } = this.penalty;
+      const frozen = this.problem.std.frozen;
+      let free = 0;
+      for (let j = 0; j < this.problem.p; j++) {
+        if (frozen[j]) continue;
+        free++;
+        if (!(multipliers[j] > 0)) this.spectralState = 1;
+      }
+      this.freeCount = free;
+    }
+    if (this.spectralState !== 2) return false;
+    const f = this.freeCount;
+    const r = f - m;
+    return 3 * f * f + (r * r * f) / 2 + (r * r * r) / 6 + m * m < (m * m * m) / 6;
+  }
+
+  /**
+   * The Newton system solved through the eigendecomposition (see spectralShiftWanted), accepted
+   * when its residual ‖rhs − (G̃_AA + λ(1−α)M_A) δ‖∞ is within SPECTRAL_RESIDUAL of
+   * ‖rhs‖∞ + max_a S_aa·‖δ‖∞ (a factorization's backward error is of that order); otherwise rhs
+   * is left as it was and the caller factorizes.
+   */
+  private spectralSolve(members: Int32Array, m: number, l2: number, rhs: Float64Array): boolean {
+    const problem = this.problem;
+    const multipliers = this.penalty.multipliers;
+    const spectral = (this.spectral ??= sharedSpectralRidge(problem, multipliers, this.settings.signal));
+    const original = this.spectralRhs;
+    for (let a = 0; a < m; a++) original[a] = rhs[a];
+    if (!spectral.shiftedSolve(members, m, l2, rhs)) {
+      for (let a = 0; a < m; a++) rhs[a] = original[a];
+      return false;
+    }
+    const gram = problem.gram as Float64Array;
+    const p = problem.p;
+    // δ spread over all p predictors (0 off the members), so each row's product is stride 1.
+    const spread = this.spectralSpread;
+    spread.fill(0);
+    for (let a = 0; a < m; a++) spread[members[a]] = rhs[a];
+    let residual = 0;
+    let size = 0;
+    let scale = 0;
+    let diagonal = 0;
+    for (let a = 0; a < m; a++) {
+      const j = members[a];
+      const off = j * p;
+      const s = original[a] - l2 * multipliers[j] * rhs[a] - dotRange(gram, off, spread, 0, p);
+      if (Math.abs(s) > residual) residual = Math.abs(s);
+      if (Math.abs(rhs[a]) > size) size = Math.abs(rhs[a]);
+      if (Math.abs(original[a]) > scale) scale = Math.abs(original[a]);
+      const dj = gram[off + j] + l2 * multipliers[j];
+      if (dj > diagonal) diagonal = dj;
+    }
+    spectralCounts[0]++;
+    if (residual <= SPECTRAL_RESIDUAL * (scale + diagonal * size)) return true;
+    spectralCounts[1]++;
+    for (let a = 0; a < m; a++) rhs[a] = original[a];
+    return false;
   }
 
   /** Steps along δ (in `step`) as far as signs and bounds allow; see newtonStep. */
