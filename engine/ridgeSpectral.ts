@@ -544,6 +544,27 @@ export class SpectralRidge {
     return true;
   }
 
+  /** Largest and smallest eigenvalue (after clipping at 0). */
+  get largestValue(): number {
+    if (Number.isNaN(this.extremes[0])) this.findExtremes();
+    return this.extremes[0];
+  }
+  get smallestValue(): number {
+    if (Number.isNaN(this.extremes[0])) this.findExtremes();
+    return this.extremes[1];
+  }
+  private findExtremes(): void {
+    let largest = 0;
+    let smallest = Infinity;
+    for (let t = 0; t < this.size; t++) {
+      if (this.values[t] > largest) largest = this.values[t];
+      if (this.values[t] < smallest) smallest = this.values[t];
+    }
+    this.extremes[0] = largest;
+    this.extremes[1] = this.size > 0 ? smallest : 0;
+  }
+  private readonly extremes = [NaN, NaN];
+
   private freeIndex: Int32Array | null = null;
   private inSet: Uint8Array | null = null;
   private shiftWork = new Float64Array(0);
