@@ -266,7 +266,7 @@ export function runPath(
     }
     const r2 = yVariance > 0 ? 1 - residual / yVariance : 0;
     if (kkt > run.maxKktViolation) run.maxKktViolation = kkt;
-    const coef = Float64Array.from(spectral ? exact : solver.coef);
+    const coef = (spectral ? exact : solver.coef).slice();
     let nonzero = 0;
     for (let j = 0; j < coef.length; j++) if (coef[j] !== 0) nonzero++;
     run.strengths.push(lambda);
