@@ -12,7 +12,8 @@
  *
  * The factor keeps its own column order (insertion order); solve permutes in and out. When
  * too many columns change, c changes, or an edit meets a pivot that is not clearly positive,
- * the caller refactorizes from scratch (`rebuild`).
+ * the caller refactorizes from scratch (`rebuild`) — or, in gram form when that is cheaper,
+ * solves through the problem's eigendecomposition instead (descent.ts spectralSolve).
  */
 import { dotRange } from "./problem";
 

@@ -36,6 +36,9 @@
  * with one (from the extrapolated warm start, on the carried-over active set) rather than
  * sweeping first: measured on the benchmark shapes, this halves the sweeps of elastic-net paths.
  * The Cholesky factor is kept and edited as the active set changes (solveCached, activeFactor.ts).
+ * When the shift λ(1−α) has changed (every strength of an elastic-net path) and most free
+ * predictors are active, gram-form systems are solved through the problem's eigendecomposition
+ * instead of a new factorization (spectralSolve: SpectralRidge.shiftedSolve, a Schur complement).
  *
  * Screening: the sequential strong rule (Tibshirani et al. 2012, JRSS-B 74(2), eq. 7) keeps
  * j when |g_j(λ_prev)| >= α m_j (2λ − λ_prev); after convergence on the kept set every
