@@ -214,6 +214,11 @@ export function setFactorCache(on: boolean): void {
   FACTOR_CACHE = on;
 }
 
+/** Newton-first steps from the previous solution, the extrapolation's smooth moves held back (see solve); switch as above. */
+export let STEP_FROM_PREVIOUS = true;
+export function setStepFromPrevious(on: boolean): void {
+  STEP_FROM_PREVIOUS = on;
+}
 /** Newton systems with a new shift through the eigendecomposition (spectralSolve); switch as above. */
 export let SPECTRAL_NEWTON = true;
 export function setSpectralNewton(on: boolean): void {
@@ -256,6 +261,9 @@ export class CoordinateDescent {
   private spectralState = 0;
   private freeCount = 0;
   private readonly spectralRhs: Float64Array;
+  /** The extrapolation's moves held back for a Newton step (see solve). */
+  private readonly deferredColumns: Int32Array;
+  private readonly deferredValues: Float64Array;
   private readonly spectralSpread: Float64Array;
   /** The last Newton system's Cholesky factor (see solveCached). */
   private factor: ActiveFactor | null = null;
@@ -334,6 +342,8 @@ export class CoordinateDescent {
     this.rowBuffer = new Float64Array(problem.n);
     this.changedColumns = new Int32Array(p);
     this.spectralRhs = new Float64Array(p);
+    this.deferredColumns = new Int32Array(p);
+    this.deferredValues = new Float64Array(p);
     this.spectralSpread = new Float64Array(p);
     this.changedDeltas = new Float64Array(p);
     this.systemBuffer = new Float64Array(Math.min(p, 64) ** 2);
@@ -1001,10 +1011,11 @@ export class CoordinateDescent {
    * close to the new solution. A step that would cross zero stops at zero; bounds clip.
    * Descent then corrects it, so this changes the work, never the answer.
    */
-  private extrapolate(lambda: number): void {
+  private extrapolate(lambda: number, deferSmooth: boolean): number {
     const previous = this.solvedLambda;
     const before = this.historyLambda;
-    if (!(previous > 0 && before > previous && lambda < previous)) return;
+    if (!(previous > 0 && before > previous && lambda < previous)) return 0;
+    let held = 0;
     const ratio = (lambda - previous) / (previous - before);
     const { lower, upper } = this.penalty;
     const coef = this.coef;
@@ -1022,7 +1033,30 @@ export class CoordinateDescent {
       else if (value > upper[j]) value = upper[j];
       const delta = value - now;
       if (delta === 0) continue;
+      if (deferSmooth && value !== 0 && value !== lower[j] && value !== upper[j]) {
+        this.deferredColumns[held] = j;
+        this.deferredValues[held++] = value;
+        continue;
+      }
       coef[j] = value;
+      changed[changes] = j;
+      deltas[changes++] = delta;
+    }
+    this.applyChanges(changed, deltas, changes);
+    return held;
+  }
+
+  /** Applies the extrapolation's held-back moves (see solve). */
+  private applyDeferred(held: number): void {
+    const coef = this.coef;
+    const changed = this.changedColumns;
+    const deltas = this.changedDeltas;
+    let changes = 0;
+    for (let t = 0; t < held; t++) {
+      const j = this.deferredColumns[t];
+      const delta = this.deferredValues[t] - coef[j];
+      if (delta === 0) continue;
+      coef[j] = this.deferredValues[t];
       changed[changes] = j;
       deltas[changes++] = delta;
     }
@@ -1052,7 +1086,11 @@ export class CoordinateDescent {
       if (keep) set[count++] = j;
     }
     this.historySpare.set(coef);
-    this.extrapolate(lambda);
+    const stepFirst = this.newtonFirst && NEWTON_FIRST && (mix < 1 || this.problem.kind === "naive");
+    // Before a Newton step on the carried-over set, only the extrapolation's moves onto zero or a
+    // bound are applied (they decide the step's members); the others are held back, since the
+    // step lands on the same point from either start, and applied only if no step is taken.
+    const deferred = this.extrapolate(lambda, stepFirst && STEP_FROM_PREVIOUS && this.problem.kind === "gram");
     const limit = this.threshold(lambda);
     const cap = this.settings.maxSweeps;
     let sweeps = 0;
@@ -1060,16 +1098,18 @@ export class CoordinateDescent {
     let misses = 0;
     const l1 = lambda * mix;
     const stepsBefore = this.newtonSteps;
-    if (this.newtonFirst && NEWTON_FIRST && (mix < 1 || this.problem.kind === "naive")) {
+    if (stepFirst) {
       // The previous strength needed a Newton step: its active set and signs usually carry over,
       // so step at once from the extrapolated start instead of sweeping towards it first
       // (the sweeps below then confirm the result, or carry on if a sign changed).
       let activeCount = 0;
       for (let t = 0; t < count; t++) if (coef[set[t]] !== 0) active[activeCount++] = set[t];
+      let stepped = false;
       if (activeCount > 0 && (activeCount <= NEWTON_MAX_ACTIVE || (this.problem.kind === "naive" && this.problem.n <= NEWTON_MAX_ACTIVE && mix < 1))) {
         this.newtonTries++;
-        this.newtonStep(active, activeCount, lambda);
+        stepped = this.newtonStep(active, activeCount, lambda);
       }
+      if (!stepped && deferred > 0) this.applyDeferred(deferred);
     }
     let settled = false;
     outer: for (;;) {
