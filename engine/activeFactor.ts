@@ -12,7 +12,8 @@
  *
  * The factor keeps its own column order (insertion order); solve permutes in and out. When
  * too many columns change, c changes, or an edit meets a pivot that is not clearly positive,
- * the caller refactorizes from scratch (`rebuild`).
+ * the caller refactorizes from scratch (`rebuild`) — or, in gram form when that is cheaper,
+ * solves through the problem's eigendecomposition instead (descent.ts spectralSolve).
  */
 import { dotRange } from "./problem";
 
@@ -46,6 +47,7 @@ export class ActiveFactor {
   private largestDiagonal = 0;
   private readonly work: Float64Array;
   private readonly flag: Uint8Array;
+  private readonly slots: Int32Array;
 
   constructor(p: number) {
     this.columns = new Int32Array(0);
@@ -53,6 +55,7 @@ export class ActiveFactor {
     this.lower = new Float64Array(0);
     this.work = new Float64Array(p);
     this.flag = new Uint8Array(p);
+    this.slots = new Int32Array(p);
   }
 
   private reserve(q: number): void {
@@ -87,11 +90,14 @@ export class ActiveFactor {
     const S = this.capacity;
     const { values, stride, slot } = source;
     let largest = 0;
+    // The members' slots once, so the copy below reads B through one index rather than two.
+    const slots = this.slots;
+    for (let a = 0; a < m; a++) slots[a] = slot[members[a]];
     for (let a = 0; a < m; a++) {
       const j = members[a];
       const row = a * S;
-      const from = slot[j] * stride;
-      for (let b = 0; b < a; b++) L[row + b] = values[from + slot[members[b]]];
+      const from = slots[a] * stride;
+      for (let b = 0; b < a; b++) L[row + b] = values[from + slots[b]];
       const d = values[from + slot[j]] + shift * multipliers[j];
       L[row + a] = d;
       if (d > largest) largest = d;

@@ -36,6 +36,9 @@
  * with one (from the extrapolated warm start, on the carried-over active set) rather than
  * sweeping first: measured on the benchmark shapes, this halves the sweeps of elastic-net paths.
  * The Cholesky factor is kept and edited as the active set changes (solveCached, activeFactor.ts).
+ * When the shift λ(1−α) has changed (every strength of an elastic-net path) and most free
+ * predictors are active, gram-form systems are solved through the problem's eigendecomposition
+ * instead of a new factorization (spectralSolve: SpectralRidge.shiftedSolve, a Schur complement).
  *
  * Screening: the sequential strong rule (Tibshirani et al. 2012, JRSS-B 74(2), eq. 7) keeps
  * j when |g_j(λ_prev)| >= α m_j (2λ − λ_prev); after convergence on the kept set every
@@ -66,6 +69,7 @@ import { ActiveFactor, choleskyRows, StoredMatrix } from "./activeFactor";
 import { CancelSignal, throwIfCancelled } from "./errors";
 import { portableLog } from "./portableMath";
 import { dotRange, TrainingProblem } from "./problem";
+import { sharedSpectralRidge, SpectralRidge } from "./ridgeSpectral";
 
 export interface PenaltySpec {
   /** α in [0, 1]: 0 ridge, 1 lasso. */
@@ -210,6 +214,23 @@ export function setFactorCache(on: boolean): void {
   FACTOR_CACHE = on;
 }
 
+/** Newton-first steps from the previous solution, the extrapolation's smooth moves held back (see solve); switch as above. */
+export let STEP_FROM_PREVIOUS = true;
+export function setStepFromPrevious(on: boolean): void {
+  STEP_FROM_PREVIOUS = on;
+}
+/** Newton systems with a new shift through the eigendecomposition (spectralSolve); switch as above. */
+export let SPECTRAL_NEWTON = true;
+export function setSpectralNewton(on: boolean): void {
+  SPECTRAL_NEWTON = on;
+}
+/** Largest relative residual accepted from spectralSolve (see there). */
+const SPECTRAL_RESIDUAL = 1e-13;
+/** Condition number of G̃ + cM (M's metric) up to which spectralSolve's result is taken unchecked. */
+const SPECTRAL_TRUSTED = 1e3;
+/** spectralSolve's solves and, of those, the ones its residual check sent back to factorization (counters, for measurement). */
+export const spectralCounts = [0, 0];
+
 /**
  * Solver state for one training problem and one mix: coefficients, gradient (and residual in
  * naive form) persist between strengths, which is what makes warm starts free.
@@ -230,7 +251,20 @@ export class CoordinateDescent {
   private readonly memberBuffer: Int32Array;
   private readonly rhsBuffer: Float64Array;
   private readonly rowBuffer: Float64Array;
+  /** Scratch for applyChanges: the columns that moved and by how much. */
+  private readonly changedColumns: Int32Array;
+  private readonly changedDeltas: Float64Array;
   private systemBuffer: Float64Array;
+  /** The problem's eigendecomposition for Newton systems with a new shift (spectralSolve), once asked for. */
+  private spectral: SpectralRidge | null = null;
+  /** 0 not yet decided, 1 not usable (a free multiplier is 0), 2 usable (see spectralShiftWanted). */
+  private spectralState = 0;
+  private freeCount = 0;
+  private readonly spectralRhs: Float64Array;
+  /** The extrapolation's moves held back for a Newton step (see solve). */
+  private readonly deferredColumns: Int32Array;
+  private readonly deferredValues: Float64Array;
+  private readonly spectralSpread: Float64Array;
   /** The last Newton system's Cholesky factor (see solveCached). */
   private factor: ActiveFactor | null = null;
   /** Where the factor reads B (see solveCached); filled on the first Newton step. */
@@ -306,6 +340,12 @@ export class CoordinateDescent {
     this.dualVector = new Float64Array(problem.n);
     this.rhsBuffer = new Float64Array(p);
     this.rowBuffer = new Float64Array(problem.n);
+    this.changedColumns = new Int32Array(p);
+    this.spectralRhs = new Float64Array(p);
+    this.deferredColumns = new Int32Array(p);
+    this.deferredValues = new Float64Array(p);
+    this.spectralSpread = new Float64Array(p);
+    this.changedDeltas = new Float64Array(p);
     this.systemBuffer = new Float64Array(Math.min(p, 64) ** 2);
     let equal = 0;
     if (problem.kind === "naive") {
@@ -369,8 +409,42 @@ export class CoordinateDescent {
     }
   }
 
+  /**
+   * applyChange for each listed (column, Δ) in turn, four columns per pass over g (or r): each
+   * entry takes the same subtractions in the same order as four separate calls, so the result is
+   * the same bit for bit, with a quarter of the loads and stores of g (or r).
+   */
+  private applyChanges(columns: Int32Array, deltas: Float64Array, count: number): void {
+    const problem = this.problem;
+    const gramForm = problem.kind === "gram";
+    const length = gramForm ? problem.p : problem.n;
+    const source = gramForm ? (problem.gram as Float64Array) : (problem.xs as { data: Float64Array }).data;
+    const target = gramForm ? this.grad : (this.residual as Float64Array);
+    let t = 0;
+    for (; t + 3 < count; t += 4) {
+      const o0 = columns[t] * length;
+      const o1 = columns[t + 1] * length;
+      const o2 = columns[t + 2] * length;
+      const o3 = columns[t + 3] * length;
+      const d0 = deltas[t];
+      const d1 = deltas[t + 1];
+      const d2 = deltas[t + 2];
+      const d3 = deltas[t + 3];
+      for (let k = 0; k < length; k++) {
+        let v = target[k];
+        v -= d0 * source[o0 + k];
+        v -= d1 * source[o1 + k];
+        v -= d2 * source[o2 + k];
+        v -= d3 * source[o3 + k];
+        target[k] = v;
+      }
+    }
+    for (; t < count; t++) this.applyChange(columns[t], deltas[t]);
+  }
+
   /** One pass over the listed coordinates; returns the largest scaled change. */
   private sweep(set: Int32Array, count: number, lambda: number): number {
+    if (this.problem.kind === "gram") return this.sweepGram(set, count, lambda);
     const { mix, multipliers, lower, upper } = this.penalty;
     const curvature = this.problem.curvature;
     const naive = this.problem.kind === "naive";
@@ -411,6 +485,68 @@ export class CoordinateDescent {
         if (change > largest) largest = change;
       }
     }
+    this.totalSweeps++;
+    return largest;
+  }
+
+  /**
+   * sweep in gram form, with the gradient updates of up to four moves held back and applied in
+   * one pass over g (applyChanges). A coordinate's gradient is read as g_j less the held-back
+   * moves' terms, subtracted in the order the moves were made: exactly the value g_j would hold
+   * had each move been applied at once, so every iterate is the same bit for bit.
+   */
+  private sweepGram(set: Int32Array, count: number, lambda: number): number {
+    const { mix, multipliers, lower, upper } = this.penalty;
+    const curvature = this.problem.curvature;
+    const gram = this.problem.gram as Float64Array;
+    const p = this.problem.p;
+    const coef = this.coef;
+    const grad = this.grad;
+    const l1 = lambda * mix;
+    const l2 = lambda * (1 - mix);
+    const signal = this.settings.signal;
+    throwIfCancelled(signal);
+    const negligible = NEGLIGIBLE * this.threshold(lambda);
+    const held = this.changedColumns;
+    const deltas = this.changedDeltas;
+    let pending = 0;
+    this.sweepMoved = false;
+    let largest = 0;
+    for (let t = 0; t < count; t++) {
+      if (t % CHECK_EVERY === CHECK_EVERY - 1) {
+        this.applyChanges(held, deltas, pending);
+        pending = 0;
+        throwIfCancelled(signal);
+      }
+      const j = set[t];
+      let g = grad[j];
+      for (let h = 0; h < pending; h++) g -= deltas[h] * gram[held[h] * p + j];
+      const d = curvature[j];
+      const old = coef[j];
+      const m = multipliers[j];
+      const denominator = d + l2 * m;
+      let value = softThreshold(g + d * old, l1 * m) / denominator;
+      if (value < lower[j]) value = lower[j];
+      else if (value > upper[j]) value = upper[j];
+      const delta = value - old;
+      if (delta !== 0) {
+        const edge = Math.sign(value) !== Math.sign(old) || value === lower[j] || value === upper[j];
+        // As in sweep: a negligible move is not applied.
+        if (!edge && denominator * Math.abs(delta) <= negligible) continue;
+        if (edge) this.patternChanged = true;
+        this.sweepMoved = true;
+        coef[j] = value;
+        held[pending] = j;
+        deltas[pending++] = delta;
+        if (pending === 4) {
+          this.applyChanges(held, deltas, 4);
+          pending = 0;
+        }
+        const change = denominator * Math.abs(delta);
+        if (change > largest) largest = change;
+      }
+    }
+    this.applyChanges(held, deltas, pending);
     this.totalSweeps++;
     return largest;
   }
@@ -574,11 +710,84 @@ export class CoordinateDescent {
     }
     let ok = false;
     if (FACTOR_CACHE && factor.count > 0 && factor.shift === l2) ok = factor.update(members, m, Math.max(2, m >> 3), multipliers, source);
+    else if (SPECTRAL_NEWTON && this.problem.kind === "gram" && l2 > 0 && this.spectralShiftWanted(m) && this.spectralSolve(members, m, l2, rhs)) return true;
     if (!ok) ok = factor.rebuild(members, m, l2, multipliers, source);
     if (!ok) return false;
     factor.solve(members, m, rhs);
     if (!FACTOR_CACHE) factor.clear();
     return true;
+  }
+
+  /**
+   * Whether a Newton system of m members whose factor would have to be built afresh (the shift
+   * changed) is cheaper through the problem's eigendecomposition (SpectralRidge.shiftedSolve):
+   * gram form, every free multiplier positive, and 2f² + r²f/2 + r³/6 + 3rf + m² (the solve,
+   * r = f − m, and the copies around it) below m³/6. (Measured on the bench shapes: weighting
+   * the solve's cost by 0.7 or 1.5 instead made no difference beyond the noise.)
+   */
+  private spectralShiftWanted(m: number): boolean {
+    if (this.spectralState === 0) {
+      this.spectralState = 2;
+      const { multipliers } = this.penalty;
+      const frozen = this.problem.std.frozen;
+      let free = 0;
+      for (let j = 0; j < this.problem.p; j++) {
+        if (frozen[j]) continue;
+        free++;
+        if (!(multipliers[j] > 0)) this.spectralState = 1;
+      }
+      this.freeCount = free;
+    }
+    if (this.spectralState !== 2) return false;
+    const f = this.freeCount;
+    const r = f - m;
+    return 2 * f * f + (r * r * f) / 2 + (r * r * r) / 6 + 3 * r * f + m * m < (m * m * m) / 6;
+  }
+
+  /**
+   * The Newton system solved through the eigendecomposition (see spectralShiftWanted), accepted
+   * when the whole system's condition number is at most SPECTRAL_TRUSTED, or else when its residual ‖rhs − (G̃_AA + λ(1−α)M_A) δ‖∞ is within SPECTRAL_RESIDUAL of
+   * ‖rhs‖∞ + max_a S_aa·‖δ‖∞ (a factorization's backward error is of that order); otherwise rhs
+   * is left as it was and the caller factorizes.
+   */
+  private spectralSolve(members: Int32Array, m: number, l2: number, rhs: Float64Array): boolean {
+    const problem = this.problem;
+    const multipliers = this.penalty.multipliers;
+    const spectral = (this.spectral ??= sharedSpectralRidge(problem, multipliers, this.settings.signal));
+    const original = this.spectralRhs;
+    for (let a = 0; a < m; a++) original[a] = rhs[a];
+    if (!spectral.shiftedSolve(members, m, l2, rhs)) {
+      for (let a = 0; a < m; a++) rhs[a] = original[a];
+      return false;
+    }
+    spectralCounts[0]++;
+    // A well-conditioned whole system needs no check: the solve's error is then of the order of
+    // a factorization's, ≈ ε · cond(G̃ + cM) (in M's metric: (Λ_max + c)/(Λ_min + c)).
+    if (spectral.largestValue + l2 <= SPECTRAL_TRUSTED * (spectral.smallestValue + l2)) return true;
+    const gram = problem.gram as Float64Array;
+    const p = problem.p;
+    // δ spread over all p predictors (0 off the members), so each row's product is stride 1.
+    const spread = this.spectralSpread;
+    spread.fill(0);
+    for (let a = 0; a < m; a++) spread[members[a]] = rhs[a];
+    let residual = 0;
+    let size = 0;
+    let scale = 0;
+    let diagonal = 0;
+    for (let a = 0; a < m; a++) {
+      const j = members[a];
+      const off = j * p;
+      const s = original[a] - l2 * multipliers[j] * rhs[a] - dotRange(gram, off, spread, 0, p);
+      if (Math.abs(s) > residual) residual = Math.abs(s);
+      if (Math.abs(rhs[a]) > size) size = Math.abs(rhs[a]);
+      if (Math.abs(original[a]) > scale) scale = Math.abs(original[a]);
+      const dj = gram[off + j] + l2 * multipliers[j];
+      if (dj > diagonal) diagonal = dj;
+    }
+    if (residual <= SPECTRAL_RESIDUAL * (scale + diagonal * size)) return true;
+    spectralCounts[1]++;
+    for (let a = 0; a < m; a++) rhs[a] = original[a];
+    return false;
   }
 
   /** Steps along δ (in `step`) as far as signs and bounds allow; see newtonStep. */
@@ -607,14 +816,19 @@ export class CoordinateDescent {
     }
     if (!(fraction > 0)) return false;
     // Apply the step member by member (O(m·p) gram, O(m·n) naive) rather than rebuilding g.
+    const changed = this.changedColumns;
+    const deltas = this.changedDeltas;
+    let changes = 0;
     for (let a = 0; a < m; a++) {
       const j = members[a];
       const value = j === stopper ? stopValue : coef[j] + fraction * step[a];
       const delta = value - coef[j];
       if (delta === 0) continue;
       coef[j] = value;
-      this.applyChange(j, delta);
+      changed[changes] = j;
+      deltas[changes++] = delta;
     }
+    this.applyChanges(changed, deltas, changes);
     this.newtonSteps++;
     this.lastStepFull = stopper < 0;
     return true;
@@ -797,14 +1011,18 @@ export class CoordinateDescent {
    * close to the new solution. A step that would cross zero stops at zero; bounds clip.
    * Descent then corrects it, so this changes the work, never the answer.
    */
-  private extrapolate(lambda: number): void {
+  private extrapolate(lambda: number, deferSmooth: boolean): number {
     const previous = this.solvedLambda;
     const before = this.historyLambda;
-    if (!(previous > 0 && before > previous && lambda < previous)) return;
+    if (!(previous > 0 && before > previous && lambda < previous)) return 0;
+    let held = 0;
     const ratio = (lambda - previous) / (previous - before);
     const { lower, upper } = this.penalty;
     const coef = this.coef;
     const history = this.history;
+    const changed = this.changedColumns;
+    const deltas = this.changedDeltas;
+    let changes = 0;
     for (let j = 0; j < this.problem.p; j++) {
       const now = coef[j];
       const then = history[j];
@@ -815,9 +1033,34 @@ export class CoordinateDescent {
       else if (value > upper[j]) value = upper[j];
       const delta = value - now;
       if (delta === 0) continue;
+      if (deferSmooth && value !== 0 && value !== lower[j] && value !== upper[j]) {
+        this.deferredColumns[held] = j;
+        this.deferredValues[held++] = value;
+        continue;
+      }
       coef[j] = value;
-      this.applyChange(j, delta);
+      changed[changes] = j;
+      deltas[changes++] = delta;
     }
+    this.applyChanges(changed, deltas, changes);
+    return held;
+  }
+
+  /** Applies the extrapolation's held-back moves (see solve). */
+  private applyDeferred(held: number): void {
+    const coef = this.coef;
+    const changed = this.changedColumns;
+    const deltas = this.changedDeltas;
+    let changes = 0;
+    for (let t = 0; t < held; t++) {
+      const j = this.deferredColumns[t];
+      const delta = this.deferredValues[t] - coef[j];
+      if (delta === 0) continue;
+      coef[j] = this.deferredValues[t];
+      changed[changes] = j;
+      deltas[changes++] = delta;
+    }
+    this.applyChanges(changed, deltas, changes);
   }
 
   /**
@@ -843,7 +1086,11 @@ export class CoordinateDescent {
       if (keep) set[count++] = j;
     }
     this.historySpare.set(coef);
-    this.extrapolate(lambda);
+    const stepFirst = this.newtonFirst && NEWTON_FIRST && (mix < 1 || this.problem.kind === "naive");
+    // Before a Newton step on the carried-over set, only the extrapolation's moves onto zero or a
+    // bound are applied (they decide the step's members); the others are held back, since the
+    // step lands on the same point from either start, and applied only if no step is taken.
+    const deferred = this.extrapolate(lambda, stepFirst && STEP_FROM_PREVIOUS && this.problem.kind === "gram");
     const limit = this.threshold(lambda);
     const cap = this.settings.maxSweeps;
     let sweeps = 0;
@@ -851,16 +1098,18 @@ export class CoordinateDescent {
     let misses = 0;
     const l1 = lambda * mix;
     const stepsBefore = this.newtonSteps;
-    if (this.newtonFirst && NEWTON_FIRST && (mix < 1 || this.problem.kind === "naive")) {
+    if (stepFirst) {
       // The previous strength needed a Newton step: its active set and signs usually carry over,
       // so step at once from the extrapolated start instead of sweeping towards it first
       // (the sweeps below then confirm the result, or carry on if a sign changed).
       let activeCount = 0;
       for (let t = 0; t < count; t++) if (coef[set[t]] !== 0) active[activeCount++] = set[t];
+      let stepped = false;
       if (activeCount > 0 && (activeCount <= NEWTON_MAX_ACTIVE || (this.problem.kind === "naive" && this.problem.n <= NEWTON_MAX_ACTIVE && mix < 1))) {
         this.newtonTries++;
-        this.newtonStep(active, activeCount, lambda);
+        stepped = this.newtonStep(active, activeCount, lambda);
       }
+      if (!stepped && deferred > 0) this.applyDeferred(deferred);
     }
     let settled = false;
     outer: for (;;) {
@@ -986,11 +1235,37 @@ export class CoordinateDescent {
     this.coef.set(values);
     if (problem.kind === "gram") {
       const gram = problem.gram as Float64Array;
-      for (let j = 0; j < p; j++) {
-        let s = problem.cross[j];
+      const cross = problem.cross;
+      const grad = this.grad;
+      // Four rows at a time: each row's sum is its own chain in increasing k, as one row at a
+      // time, so the same bits; the four chains run side by side and share each value's load.
+      let j = 0;
+      for (; j + 3 < p; j += 4) {
+        let s0 = cross[j];
+        let s1 = cross[j + 1];
+        let s2 = cross[j + 2];
+        let s3 = cross[j + 3];
+        const o0 = j * p;
+        const o1 = o0 + p;
+        const o2 = o1 + p;
+        const o3 = o2 + p;
+        for (let k = 0; k < p; k++) {
+          const v = values[k];
+          s0 -= gram[o0 + k] * v;
+          s1 -= gram[o1 + k] * v;
+          s2 -= gram[o2 + k] * v;
+          s3 -= gram[o3 + k] * v;
+        }
+        grad[j] = s0;
+        grad[j + 1] = s1;
+        grad[j + 2] = s2;
+        grad[j + 3] = s3;
+      }
+      for (; j < p; j++) {
+        let s = cross[j];
         const off = j * p;
         for (let k = 0; k < p; k++) s -= gram[off + k] * values[k];
-        this.grad[j] = s;
+        grad[j] = s;
       }
       return;
     }

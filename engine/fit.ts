@@ -1075,7 +1075,7 @@ function foldErrors(
     for (let k = 0; k < run.strengths.length; k++) {
       throwIfCancelled(data.settings.signal);
       slopesInto(problem, run.coefficients[k], coefficients);
-      errors[k] = Math.max(squaredErrorOfSums(sums, std, coefficients, shiftX, shiftY, nz, packed).sse, 0) / sums.weight;
+      errors[k] = Math.max(heldOutSquaredError(sums, std, coefficients, shiftX, shiftY, nz, packed), 0) / sums.weight;
     }
     return errors;
   }
@@ -1138,18 +1138,130 @@ function squaredErrorOfSums(
   }
   let sse = sums.yy - 2 * c * sums.sumY + c * c * sums.weight;
   let residualSum = sums.sumY - c * sums.weight;
-  for (let a = 0; a < count; a++) {
+  const xx = sums.xx;
+  const xy = sums.xy;
+  const sumX = sums.sumX;
+  // Four rows of the quadratic form at a time: each row's sum is its own chain in increasing b,
+  // as in the one-row loop, but the four chains run side by side and share each slope's load
+  // (a lone chain waits on its previous addition). The rows' terms then join sse and
+  // residualSum in row order, so both are the same bit for bit.
+  let a = 0;
+  for (; a + 3 < count; a += 4) {
+    const off0 = nz[a] * p;
+    const off1 = nz[a + 1] * p;
+    const off2 = nz[a + 2] * p;
+    const off3 = nz[a + 3] * p;
+    let q0 = 0;
+    let q1 = 0;
+    let q2 = 0;
+    let q3 = 0;
+    for (let b = 0; b < count; b++) {
+      const k = nz[b];
+      const v = packed[b];
+      q0 += xx[off0 + k] * v;
+      q1 += xx[off1 + k] * v;
+      q2 += xx[off2 + k] * v;
+      q3 += xx[off3 + k] * v;
+    }
+    sse = addRowTerms(sse, packed[a], nz[a], q0, c, xy, sumX);
+    residualSum -= packed[a] * sumX[nz[a]];
+    sse = addRowTerms(sse, packed[a + 1], nz[a + 1], q1, c, xy, sumX);
+    residualSum -= packed[a + 1] * sumX[nz[a + 1]];
+    sse = addRowTerms(sse, packed[a + 2], nz[a + 2], q2, c, xy, sumX);
+    residualSum -= packed[a + 2] * sumX[nz[a + 2]];
+    sse = addRowTerms(sse, packed[a + 3], nz[a + 3], q3, c, xy, sumX);
+    residualSum -= packed[a + 3] * sumX[nz[a + 3]];
+  }
+  for (; a < count; a++) {
     const j = nz[a];
     const bj = packed[a];
-    sse += -2 * bj * sums.xy[j] + 2 * c * bj * sums.sumX[j];
-    residualSum -= bj * sums.sumX[j];
     let quad = 0;
     const off = j * p;
-    const xx = sums.xx;
     for (let b = 0; b < count; b++) quad += xx[off + nz[b]] * packed[b];
-    sse += bj * quad;
+    sse = addRowTerms(sse, bj, j, quad, c, xy, sumX);
+    residualSum -= bj * sumX[j];
   }
   return { sse, residualSum };
+}
+
+/**
+ * squaredErrorOfSums' SSE alone, its quadratic form bᵀ xx b taken from the lower triangle of the
+ * nonzero block (xx is symmetric): Σ_a b_a (xx_aa b_a + 2 Σ_{b<a} xx_ab b_b), half the products.
+ * The sums of that form are ordered differently from squaredErrorOfSums', so the result can
+ * differ from it in the last bits. Four rows at a time over their shared columns b < a, each
+ * row's sum its own chain. For the held-out errors (foldErrors), called per fold and strength.
+ */
+function heldOutSquaredError(
+  sums: BlockSums,
+  std: Standardization,
+  coefficients: Float64Array,
+  shiftX: Float64Array,
+  shiftY: number,
+  nz: Int32Array,
+  packed: Float64Array,
+): number {
+  const p = sums.p;
+  let c = std.yAnchor - shiftY + std.yOffset;
+  let count = 0;
+  for (let j = 0; j < p; j++) {
+    if (coefficients[j] !== 0) {
+      packed[count] = coefficients[j];
+      nz[count++] = j;
+      c -= coefficients[j] * (std.xAnchor[j] - shiftX[j] + std.xOffset[j]);
+    }
+  }
+  let sse = sums.yy - 2 * c * sums.sumY + c * c * sums.weight;
+  const xx = sums.xx;
+  const xy = sums.xy;
+  const sumX = sums.sumX;
+  let a = 0;
+  for (; a + 3 < count; a += 4) {
+    const off0 = nz[a] * p;
+    const off1 = nz[a + 1] * p;
+    const off2 = nz[a + 2] * p;
+    const off3 = nz[a + 3] * p;
+    let q0 = 0;
+    let q1 = 0;
+    let q2 = 0;
+    let q3 = 0;
+    for (let b = 0; b < a; b++) {
+      const k = nz[b];
+      const v = packed[b];
+      q0 += xx[off0 + k] * v;
+      q1 += xx[off1 + k] * v;
+      q2 += xx[off2 + k] * v;
+      q3 += xx[off3 + k] * v;
+    }
+    const b0 = packed[a];
+    const b1 = packed[a + 1];
+    const b2 = packed[a + 2];
+    const b3 = packed[a + 3];
+    const k0 = nz[a];
+    const k1 = nz[a + 1];
+    const k2 = nz[a + 2];
+    q1 += xx[off1 + k0] * b0;
+    q2 += xx[off2 + k0] * b0 + xx[off2 + k1] * b1;
+    q3 += xx[off3 + k0] * b0 + xx[off3 + k1] * b1 + xx[off3 + k2] * b2;
+    sse = addRowTerms(sse, b0, k0, 2 * q0 + xx[off0 + k0] * b0, c, xy, sumX);
+    sse = addRowTerms(sse, b1, k1, 2 * q1 + xx[off1 + k1] * b1, c, xy, sumX);
+    sse = addRowTerms(sse, b2, k2, 2 * q2 + xx[off2 + k2] * b2, c, xy, sumX);
+    sse = addRowTerms(sse, b3, nz[a + 3], 2 * q3 + xx[off3 + nz[a + 3]] * b3, c, xy, sumX);
+  }
+  for (; a < count; a++) {
+    const j = nz[a];
+    const bj = packed[a];
+    const off = j * p;
+    let quad = 0;
+    for (let b = 0; b < a; b++) quad += xx[off + nz[b]] * packed[b];
+    sse = addRowTerms(sse, bj, j, 2 * quad + xx[off + j] * bj, c, xy, sumX);
+  }
+  return sse;
+}
+
+/** squaredErrorOfSums' terms of row j (slope bj, quadratic-form row sum `quad`), added to sse in the one-row loop's order. */
+function addRowTerms(sse: number, bj: number, j: number, quad: number, c: number, xy: Float64Array, sumX: Float64Array): number {
+  sse += -2 * bj * xy[j] + 2 * c * bj * sumX[j];
+  return sse + bj * quad;
 }
 
 /**

@@ -5,7 +5,7 @@ import { CancelledError, CancelSignal } from "./errors";
 import { CoordinateDescent, DescentSettings, PenaltySpec } from "./descent";
 import { portableExp, portableLog } from "./portableMath";
 import type { TrainingProblem } from "./problem";
-import { penalizedSpectrum, SpectralRidge, strengthForDegreesOfFreedom } from "./ridgeSpectral";
+import { penalizedSpectrum, sharedSpectralRidge, SpectralRidge, strengthForDegreesOfFreedom } from "./ridgeSpectral";
 
 /**
  * Effective degrees of freedom of the penalized terms at the top of a ridge grid (α = 0 has no
@@ -164,7 +164,7 @@ export function spectralApplies(problem: TrainingProblem, penalty: PenaltySpec):
  * every point of the path.
  */
 export function ridgeFactorization(problem: TrainingProblem, penalty: PenaltySpec, exactRidge: boolean, signal?: CancelSignal): SpectralRidge | null {
-  return exactRidge && spectralApplies(problem, penalty) ? new SpectralRidge(problem, penalty.multipliers, signal) : null;
+  return exactRidge && spectralApplies(problem, penalty) ? sharedSpectralRidge(problem, penalty.multipliers, signal) : null;
 }
 
 /**
@@ -266,7 +266,7 @@ export function runPath(
     }
     const r2 = yVariance > 0 ? 1 - residual / yVariance : 0;
     if (kkt > run.maxKktViolation) run.maxKktViolation = kkt;
-    const coef = Float64Array.from(spectral ? exact : solver.coef);
+    const coef = (spectral ? exact : solver.coef).slice();
     let nonzero = 0;
     for (let j = 0; j < coef.length; j++) if (coef[j] !== 0) nonzero++;
     run.strengths.push(lambda);
