@@ -7,7 +7,7 @@
 import { fit, fitAsync, FitOptions, FitResult, openTaskContext, runFitTask } from "../../engine/fit";
 import { CancelledError, InputError } from "../../engine/errors";
 import { mulberry32 } from "../../engine/random";
-import { createTaskHost, FromTaskWorker, PoolUnavailableError, TaskEndpoint, TaskPool, ToTaskWorker, WorkerPool } from "../../engine/parallel";
+import { createTaskHost, FitTask, FromTaskWorker, PoolUnavailableError, taskAffinity, TaskEndpoint, TaskPool, ToTaskWorker, WorkerPool } from "../../engine/parallel";
 import { fitParallel, threadPool } from "../../engine/node/threadPool";
 import { fitFromSums, fitFromSumsAsync } from "../../engine/fitSums";
 import { sumsOfRows } from "../../engine/sums";
@@ -285,4 +285,59 @@ test("a fit on a pool keeps the same result as fit when run twice on one pool (w
   pool.dispose();
   expect(difference(first, fit(d.x, d.y, options))).toBeNull();
   expect(difference(second, fit(d.x, d.y, { ...options, seed: 2 }))).toBeNull();
+});
+
+test("scheduling: a fold's tasks stay with the worker that took the fold first, at most two tasks are queued per worker, and every task runs once", async () => {
+  // Workers in this thread that log what they are sent and answer one task per tick, in order.
+  const sent: { slot: number; task: FitTask }[][] = [];
+  const queued: number[] = [];
+  // (Dealt in order without affinity, about half of the 18 fold tasks would land away from their fold's first worker.)
+  let slots = 0;
+  const pool = new WorkerPool((): TaskEndpoint => {
+    const slot = slots++;
+    let deliver: (message: FromTaskWorker) => void = () => undefined;
+    let waiting = 0;
+    const host = createTaskHost((message) => setTimeout(() => deliver(message), 1), openTaskContext, runFitTask);
+    return {
+      post: (message: ToTaskWorker) => {
+        if (message.type === "task") {
+          (sent[message.session] ??= []).push({ slot, task: message.task });
+          waiting++;
+          queued.push(waiting);
+        }
+        setTimeout(() => host(cloned(message)), 0);
+      },
+      listen: (onMessage) => {
+        deliver = (message) => {
+          waiting--;
+          onMessage(cloned(message));
+        };
+      },
+      terminate: () => undefined,
+    };
+  }, 2);
+  const d = data(120, 6, 4);
+  const options: FitOptions = { mixes: [0, 0.5, 1], folds: 6, gridDensity: 10 };
+  const pooled = await fitAsync(d.x, d.y, options, { pool });
+  pool.dispose();
+  expect(difference(pooled, fit(d.x, d.y, options))).toBeNull();
+  const log = sent.flat();
+  const folds = log.filter((entry) => entry.task.kind === "fold");
+  expect(folds).toHaveLength(3 * 6);
+  // Every (mix, fold) task sent once.
+  expect(new Set(folds.map(({ task }) => (task.kind === "fold" ? `${task.mix}/${task.fold}` : ""))).size).toBe(18);
+  // Affinity: a fold's tasks go to the worker that ran its first one, except when a worker has
+  // none of its own (or unclaimed) left and takes another's rather than idle: only near the end.
+  const owner = new Map<number, number>();
+  let elsewhere = 0;
+  folds.forEach(({ slot, task }) => {
+    if (task.kind !== "fold") return;
+    if (!owner.has(task.fold)) owner.set(task.fold, slot);
+    else if (owner.get(task.fold) !== slot) elsewhere++;
+  });
+  expect(elsewhere).toBeLessThanOrEqual(4);
+  expect(new Set(folds.map((entry) => entry.slot)).size).toBe(2);
+  expect(Math.max(...queued)).toBeLessThanOrEqual(2);
+  expect(taskAffinity({ kind: "fold", mix: 0, deal: 1, fold: 3, strengths: [], keepPath: false, keepSigns: false })).not.toBe(taskAffinity({ kind: "fold", mix: 2, deal: 0, fold: 3, strengths: [], keepPath: false, keepSigns: false }));
+  expect(taskAffinity({ kind: "honest", outer: 0 })).toBeNull();
 });
