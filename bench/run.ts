@@ -419,7 +419,8 @@ function writeFloorFile(c: Case, x: ColumnMatrix, y: Float64Array, floorDir: str
 
 /**
  * Node flags for a case's child: this process's own, except that tsx's module loader (its
- * `--import …/loader.mjs`, which `npm run bench` starts under) is replaced by tsx's require hook
+ * `--import …/loader.mjs`, when the bench is started by `npx tsx bench/run.ts` rather than
+ * `npm run bench`, which uses the require hook already) is replaced by tsx's require hook
  * alone, which compiles the same sources on require. Measured on 1,000 × 50 in steady state (CPU
  * per fit, alternated runs): about 225 ms under the loader against 175 ms under the require hook
  * or 150–160 ms from an esbuild bundle, the form the add-in ships in. The worker threads already

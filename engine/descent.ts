@@ -442,12 +442,11 @@ export class CoordinateDescent {
     for (; t < count; t++) this.applyChange(columns[t], deltas[t]);
   }
 
-  /** One pass over the listed coordinates; returns the largest scaled change. */
+  /** One pass over the listed coordinates; returns the largest scaled change. Residual form here, gram form in sweepGram. */
   private sweep(set: Int32Array, count: number, lambda: number): number {
     if (this.problem.kind === "gram") return this.sweepGram(set, count, lambda);
     const { mix, multipliers, lower, upper } = this.penalty;
     const curvature = this.problem.curvature;
-    const naive = this.problem.kind === "naive";
     const coef = this.coef;
     const grad = this.grad;
     const l1 = lambda * mix;
@@ -460,8 +459,8 @@ export class CoordinateDescent {
     for (let t = 0; t < count; t++) {
       if (t % CHECK_EVERY === CHECK_EVERY - 1) throwIfCancelled(signal);
       const j = set[t];
-      const g = naive ? this.residualGradient(j) : grad[j];
-      if (naive) grad[j] = g;
+      const g = this.residualGradient(j);
+      grad[j] = g;
       const d = curvature[j];
       const old = coef[j];
       const m = multipliers[j];
@@ -473,14 +472,14 @@ export class CoordinateDescent {
       if (delta !== 0) {
         const edge = Math.sign(value) !== Math.sign(old) || value === lower[j] || value === upper[j];
         // A move far below the convergence threshold (rounding after an exact Newton step) is
-        // not worth its O(n) or O(p) update: leaving it changes j's KKT residual by less than
+        // not worth its O(n) update: leaving it changes j's KKT residual by less than
         // NEGLIGIBLE × tolerance × λ.
         if (!edge && denominator * Math.abs(delta) <= negligible) continue;
         if (edge) this.patternChanged = true;
         this.sweepMoved = true;
         coef[j] = value;
         this.applyChange(j, delta);
-        if (naive) grad[j] = g - d * delta;
+        grad[j] = g - d * delta;
         const change = denominator * Math.abs(delta);
         if (change > largest) largest = change;
       }

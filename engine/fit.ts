@@ -1106,6 +1106,31 @@ function foldErrors(
   return errors;
 }
 
+/** The nonzero slopes' columns into `nz` and the slopes into `packed`, side by side, in column order; returns how many. */
+function packNonzero(coefficients: Float64Array, p: number, nz: Int32Array, packed: Float64Array): number {
+  let count = 0;
+  for (let j = 0; j < p; j++) {
+    if (coefficients[j] !== 0) {
+      packed[count] = coefficients[j];
+      nz[count++] = j;
+    }
+  }
+  return count;
+}
+
+/**
+ * c = b0 − shiftY + bᵀshiftX of squaredErrorOfSums, from the centres' parts relative to the shifts
+ * over the packed nonzero slopes (packNonzero), in column order.
+ */
+function centreTerm(std: Standardization, shiftX: Float64Array, shiftY: number, nz: Int32Array, packed: Float64Array, count: number): number {
+  let c = std.yAnchor - shiftY + std.yOffset;
+  for (let a = 0; a < count; a++) {
+    const j = nz[a];
+    c -= packed[a] * (std.xAnchor[j] - shiftX[j] + std.xOffset[j]);
+  }
+  return c;
+}
+
 /**
  * Σw(y − ŷ)² and Σw(y − ŷ) of the rows behind `sums` for the model with working coefficients
  * `coefficients` and the centres of `std`, from the sums alone. Over the block's sums (x' = x − shift,
@@ -1127,15 +1152,8 @@ function squaredErrorOfSums(
   packed: Float64Array = new Float64Array(sums.p),
 ): { sse: number; residualSum: number } {
   const p = sums.p;
-  let c = std.yAnchor - shiftY + std.yOffset;
-  let count = 0;
-  for (let j = 0; j < p; j++) {
-    if (coefficients[j] !== 0) {
-      packed[count] = coefficients[j];
-      nz[count++] = j;
-      c -= coefficients[j] * (std.xAnchor[j] - shiftX[j] + std.xOffset[j]);
-    }
-  }
+  const count = packNonzero(coefficients, p, nz, packed);
+  const c = centreTerm(std, shiftX, shiftY, nz, packed, count);
   let sse = sums.yy - 2 * c * sums.sumY + c * c * sums.weight;
   let residualSum = sums.sumY - c * sums.weight;
   const xx = sums.xx;
@@ -1201,15 +1219,8 @@ function heldOutSquaredError(
   packed: Float64Array,
 ): number {
   const p = sums.p;
-  let c = std.yAnchor - shiftY + std.yOffset;
-  let count = 0;
-  for (let j = 0; j < p; j++) {
-    if (coefficients[j] !== 0) {
-      packed[count] = coefficients[j];
-      nz[count++] = j;
-      c -= coefficients[j] * (std.xAnchor[j] - shiftX[j] + std.xOffset[j]);
-    }
-  }
+  const count = packNonzero(coefficients, p, nz, packed);
+  const c = centreTerm(std, shiftX, shiftY, nz, packed, count);
   let sse = sums.yy - 2 * c * sums.sumY + c * c * sums.weight;
   const xx = sums.xx;
   const xy = sums.xy;

@@ -18,19 +18,23 @@ import { portableExp, portableLog } from "./portableMath";
 import { choleskyRows } from "./activeFactor";
 import { dotRange, TrainingProblem } from "./problem";
 
-/** out (= 0 first unless `add`) += Σ_t weight_t · vector_t, vectors column-major size × size, four per pass. */
-function combineVectors(vectors: Float64Array, size: number, weights: Float64Array, out: Float64Array, fresh = true): void {
-  if (fresh) for (let i = 0; i < size; i++) out[i] = 0;
-  let t = 0;
-  for (; t + 3 < size; t += 4) {
-    const o0 = t * size;
-    const o1 = o0 + size;
-    const o2 = o1 + size;
-    const o3 = o2 + size;
-    const w0 = weights[t];
-    const w1 = weights[t + 1];
-    const w2 = weights[t + 2];
-    const w3 = weights[t + 3];
+/**
+ * out = Σ_u weights[u] · vectors[offsets[u] .. offsets[u] + size), u = 0 … count − 1, four vectors
+ * per pass over `out`: each entry takes the same additions in the same order (u increasing) as one
+ * vector per pass, so the same bits, with a quarter of the loads and stores of `out`.
+ */
+function combineVectors(vectors: Float64Array, size: number, offsets: Int32Array, weights: Float64Array, count: number, out: Float64Array): void {
+  for (let i = 0; i < size; i++) out[i] = 0;
+  let u = 0;
+  for (; u + 3 < count; u += 4) {
+    const o0 = offsets[u];
+    const o1 = offsets[u + 1];
+    const o2 = offsets[u + 2];
+    const o3 = offsets[u + 3];
+    const w0 = weights[u];
+    const w1 = weights[u + 1];
+    const w2 = weights[u + 2];
+    const w3 = weights[u + 3];
     for (let i = 0; i < size; i++) {
       let v = out[i];
       v += w0 * vectors[o0 + i];
@@ -40,9 +44,9 @@ function combineVectors(vectors: Float64Array, size: number, weights: Float64Arr
       out[i] = v;
     }
   }
-  for (; t < size; t++) {
-    const off = t * size;
-    const w = weights[t];
+  for (; u < count; u++) {
+    const off = offsets[u];
+    const w = weights[u];
     for (let i = 0; i < size; i++) out[i] += w * vectors[off + i];
   }
 }
@@ -471,6 +475,8 @@ export class SpectralRidge {
       this.freeIndex = new Int32Array(this.problem.p).fill(-1);
       for (let a = 0; a < f; a++) this.freeIndex[this.free[a]] = a;
       this.inSet = new Uint8Array(f);
+      this.everyVector = new Int32Array(f);
+      for (let t = 0; t < f; t++) this.everyVector[t] = t * f;
     }
     const freeIndex = this.freeIndex;
     const inSet = this.inSet as Uint8Array;
@@ -539,7 +545,7 @@ export class SpectralRidge {
       }
     }
     // y = V u over every free position (D⁻¹ applied below).
-    combineVectors(V, f, u, y);
+    combineVectors(V, f, this.everyVector as Int32Array, u, f, y);
     for (let a = 0; a < m; a++) rhs[a] = y[index[a]] / d[index[a]];
     return true;
   }
@@ -567,6 +573,8 @@ export class SpectralRidge {
 
   private freeIndex: Int32Array | null = null;
   private inSet: Uint8Array | null = null;
+  /** shiftedSolve's offsets of every eigenvector (t · size). */
+  private everyVector: Int32Array | null = null;
   private shiftWork = new Float64Array(0);
   private shiftIndex = new Int32Array(0);
 
@@ -575,10 +583,7 @@ export class SpectralRidge {
     const size = this.size;
     const f = this.free.length;
     const combined = this.scratch;
-    combined.fill(0);
-    // Σ_t weight_t · vector_t over the nonzero weights, four vectors per pass over `combined`:
-    // each entry takes the same additions in the same order (t increasing) as one vector per
-    // pass, so the same bits, with a quarter of the loads and stores of `combined`.
+    // Σ_t weight_t · vector_t over the nonzero weights.
     const used = this.usedVectors;
     const weights = this.usedWeights;
     let count = 0;
@@ -588,31 +593,7 @@ export class SpectralRidge {
       used[count] = t * size;
       weights[count++] = weight;
     }
-    const vectors = this.vectors;
-    let u = 0;
-    for (; u + 3 < count; u += 4) {
-      const o0 = used[u];
-      const o1 = used[u + 1];
-      const o2 = used[u + 2];
-      const o3 = used[u + 3];
-      const w0 = weights[u];
-      const w1 = weights[u + 1];
-      const w2 = weights[u + 2];
-      const w3 = weights[u + 3];
-      for (let i = 0; i < size; i++) {
-        let v = combined[i];
-        v += w0 * vectors[o0 + i];
-        v += w1 * vectors[o1 + i];
-        v += w2 * vectors[o2 + i];
-        v += w3 * vectors[o3 + i];
-        combined[i] = v;
-      }
-    }
-    for (; u < count; u++) {
-      const off = used[u];
-      const weight = weights[u];
-      for (let i = 0; i < size; i++) combined[i] += weight * vectors[off + i];
-    }
+    combineVectors(this.vectors, size, used, weights, count, combined);
     out.fill(0);
     const problem = this.problem;
     if (problem.kind === "gram") {
