@@ -51,11 +51,13 @@ export class ActiveFactor {
 
   constructor(p: number) {
     this.columns = new Int32Array(0);
-    this.position = new Int32Array(p).fill(-1);
+    // One backing store for the four p-long arrays (see CoordinateDescent's constructor).
+    const store = new ArrayBuffer(16 * p + p);
+    this.work = new Float64Array(store, 0, p);
+    this.position = new Int32Array(store, 8 * p, p).fill(-1);
+    this.slots = new Int32Array(store, 12 * p, p);
+    this.flag = new Uint8Array(store, 16 * p, p);
     this.lower = new Float64Array(0);
-    this.work = new Float64Array(p);
-    this.flag = new Uint8Array(p);
-    this.slots = new Int32Array(p);
   }
 
   private reserve(q: number): void {
@@ -212,8 +214,11 @@ export class ActiveFactor {
   solve(members: Int32Array, m: number, rhs: Float64Array): void {
     const L = this.lower;
     const S = this.capacity;
-    const z = this.work;
-    for (let a = 0; a < m; a++) z[this.position[members[a]]] = rhs[a];
+    let inOrder = true;
+    for (let a = 0; a < m && inOrder; a++) inOrder = this.columns[a] === members[a];
+    // Members in the factor's own order (as after a rebuild): the same substitutions in rhs itself.
+    const z = inOrder ? rhs : this.work;
+    if (!inOrder) for (let a = 0; a < m; a++) z[this.position[members[a]]] = rhs[a];
     for (let a = 0; a < m; a++) {
       const row = a * S;
       z[a] = (z[a] - dotRange(L, row, z, 0, a)) / L[row + a];
@@ -223,7 +228,7 @@ export class ActiveFactor {
       for (let k = a + 1; k < m; k++) s -= L[k * S + a] * z[k];
       z[a] = s / L[a * S + a];
     }
-    for (let a = 0; a < m; a++) rhs[a] = z[this.position[members[a]]];
+    if (!inOrder) for (let a = 0; a < m; a++) rhs[a] = z[this.position[members[a]]];
   }
 }
 

@@ -293,6 +293,8 @@ export class CoordinateDescent {
   private readonly dualVector: Float64Array;
   /** ω when every row has the same weight (naive form), else 0. */
   private readonly equalWeight: number;
+  /** No predictor has a finite bound (the usual case): kktViolation's shorter loop. */
+  private readonly unbounded: boolean;
   /**
    * Residual form: the residuals at the last SNAPSHOTS KKT passes (a ring), and for each
    * predictor the gradient last computed exactly and the pass it was computed at (see
@@ -324,29 +326,52 @@ export class CoordinateDescent {
     this.penalty = penalty;
     this.settings = settings;
     const p = problem.p;
-    this.coef = new Float64Array(p);
-    this.grad = Float64Array.from(problem.cross);
-    this.residual = problem.kind === "naive" ? Float64Array.from(problem.yc as Float64Array) : null;
-    this.strong = new Uint8Array(p);
-    this.setBuffer = new Int32Array(p);
-    this.activeBuffer = new Int32Array(p);
+    // The p-long scratch arrays carved from one buffer: a typed array of its own costs an
+    // allocation of its backing store each (about 20 per path; at p = 20 they showed as 3% of a
+    // fold path's time beside the garbage collector's share, bench/PROFILE.md "tall20").
+    const naive = problem.kind === "naive";
+    const store = new ArrayBuffer(8 * p * 9 + 4 * p * (naive ? 7 : 6) + p * (naive ? 2 : 1));
+    let at = 0;
+    const doubles = (): Float64Array => {
+      const v = new Float64Array(store, at, p);
+      at += 8 * p;
+      return v;
+    };
+    const ints = (): Int32Array => {
+      const v = new Int32Array(store, at, p);
+      at += 4 * p;
+      return v;
+    };
+    const bytes = (): Uint8Array => {
+      const v = new Uint8Array(store, at, p);
+      at += p;
+      return v;
+    };
+    this.coef = doubles();
+    this.grad = doubles();
+    this.grad.set(problem.cross);
+    this.history = doubles();
+    this.historySpare = doubles();
+    this.rhsBuffer = doubles();
+    this.spectralRhs = doubles();
+    this.deferredValues = doubles();
+    this.spectralSpread = doubles();
+    this.changedDeltas = doubles();
+    this.setBuffer = ints();
+    this.activeBuffer = ints();
+    this.memberBuffer = ints();
+    this.slotBuffer = ints();
+    this.changedColumns = ints();
+    this.deferredColumns = ints();
+    this.slotOf = naive ? ints().fill(-1) : new Int32Array(0);
+    this.strong = bytes();
+    this.dualWanted = naive ? bytes() : new Uint8Array(0);
+    this.residual = naive ? Float64Array.from(problem.yc as Float64Array) : null;
     this.floor = 1e-6 * Math.sqrt(problem.std.yVariance);
-    this.memberBuffer = new Int32Array(p);
-    this.history = new Float64Array(p);
-    this.historySpare = new Float64Array(p);
-    this.slotOf = new Int32Array(problem.kind === "naive" ? p : 0).fill(-1);
-    this.slotBuffer = new Int32Array(p);
-    this.dualWanted = new Uint8Array(problem.kind === "naive" ? p : 0);
     this.dualVector = new Float64Array(problem.n);
-    this.rhsBuffer = new Float64Array(p);
     this.rowBuffer = new Float64Array(problem.n);
-    this.changedColumns = new Int32Array(p);
-    this.spectralRhs = new Float64Array(p);
-    this.deferredColumns = new Int32Array(p);
-    this.deferredValues = new Float64Array(p);
-    this.spectralSpread = new Float64Array(p);
-    this.changedDeltas = new Float64Array(p);
-    this.systemBuffer = new Float64Array(Math.min(p, 64) ** 2);
+    // Only the residual form's dual solve uses it (and grows it to n × n there).
+    this.systemBuffer = new Float64Array(naive ? Math.min(p, 64) ** 2 : 0);
     let equal = 0;
     if (problem.kind === "naive") {
       const omega = problem.omega as Float64Array;
@@ -359,6 +384,9 @@ export class CoordinateDescent {
       }
     }
     this.equalWeight = equal;
+    let unbounded = true;
+    for (let j = 0; j < p; j++) if (penalty.lower[j] !== -Infinity || penalty.upper[j] !== Infinity) unbounded = false;
+    this.unbounded = unbounded;
     // The gradient used for the top of the grid must be summed exactly as the sweeps sum it,
     // or a rounding-sized coefficient could slip through the threshold at λ_max.
     this.refreshGradient();
@@ -1096,6 +1124,9 @@ export class CoordinateDescent {
     let converged = true;
     let misses = 0;
     const l1 = lambda * mix;
+    const l2 = lambda * (1 - mix);
+    /** kktViolation's figure when the last KKT check computed it (see there), else −1. */
+    let kkt = -1;
     const stepsBefore = this.newtonSteps;
     if (stepFirst) {
       // The previous strength needed a Newton step: its active set and signs usually carry over,
@@ -1167,17 +1198,43 @@ export class CoordinateDescent {
       if (CERTIFIED_CHECK) this.refreshCertified(lambda, settled);
       else this.refreshGradient();
       let added = 0;
-      for (let j = 0; j < p; j++) {
-        if (strong[j] || frozen[j]) continue;
-        const g = grad[j];
-        const t = l1 * multipliers[j];
-        if ((g > t && upper[j] > 0) || (g < -t && lower[j] < 0)) {
-          strong[j] = 1;
-          set[count++] = j;
-          added++;
+      if (this.unbounded) {
+        // The check and kktViolation's figure in one pass (the same expressions as there; a
+        // discarded predictor's coefficient is 0, so its h is g itself): the figure stands when
+        // nothing was added, as nothing moves after.
+        let worst = 0;
+        for (let j = 0; j < p; j++) {
+          if (frozen[j]) continue;
+          const b = coef[j];
+          const m = multipliers[j];
+          const g = grad[j];
+          const h = g - l2 * m * b;
+          const t = l1 * m;
+          const v = b > 0 ? Math.abs(h - t) : b < 0 ? Math.abs(h + t) : Math.abs(h) - t;
+          if (v > worst) worst = v;
+          if (!strong[j] && (g > t || g < -t)) {
+            strong[j] = 1;
+            set[count++] = j;
+            added++;
+          }
         }
+        if (added === 0) {
+          kkt = worst / Math.max(lambda, this.floor);
+          break;
+        }
+      } else {
+        for (let j = 0; j < p; j++) {
+          if (strong[j] || frozen[j]) continue;
+          const g = grad[j];
+          const t = l1 * multipliers[j];
+          if ((g > t && upper[j] > 0) || (g < -t && lower[j] < 0)) {
+            strong[j] = 1;
+            set[count++] = j;
+            added++;
+          }
+        }
+        if (added === 0) break;
       }
-      if (added === 0) break;
       misses += added;
     }
     if (!converged) this.refreshGradient();
@@ -1187,7 +1244,7 @@ export class CoordinateDescent {
     this.historySpare = spare;
     this.historyLambda = this.solvedLambda;
     this.solvedLambda = lambda;
-    return { sweeps, converged, kktViolation: this.kktViolation(lambda), strongRuleMisses: misses };
+    return { sweeps, converged, kktViolation: kkt >= 0 ? kkt : this.kktViolation(lambda), strongRuleMisses: misses };
   }
 
   /** Largest coordinateViolation over free predictors, divided by max(λ, floor). */
@@ -1195,6 +1252,26 @@ export class CoordinateDescent {
     const { mix, multipliers, lower, upper } = this.penalty;
     const frozen = this.problem.std.frozen;
     let worst = 0;
+    if (this.unbounded) {
+      // coordinateViolation without bounds, its products in its order (λ(1−α)·m_j·b̃_j and
+      // λα·m_j), so the same value: |h − t| for b̃_j > 0, |h + t| for b̃_j < 0 (t − h = −(h − t)
+      // exactly), |h| − t for b̃_j = 0 (where it is positive). One of the per-point O(p) passes
+      // that dominate small-p paths (bench/PROFILE.md "tall20").
+      const coef = this.coef;
+      const grad = this.grad;
+      const l2 = lambda * (1 - mix);
+      const l1 = lambda * mix;
+      for (let j = 0; j < this.problem.p; j++) {
+        if (frozen[j]) continue;
+        const b = coef[j];
+        const m = multipliers[j];
+        const h = grad[j] - l2 * m * b;
+        const t = l1 * m;
+        const v = b > 0 ? Math.abs(h - t) : b < 0 ? Math.abs(h + t) : Math.abs(h) - t;
+        if (v > worst) worst = v;
+      }
+      return worst / Math.max(lambda, this.floor);
+    }
     for (let j = 0; j < this.problem.p; j++) {
       if (frozen[j]) continue;
       const v = coordinateViolation(this.grad[j], this.coef[j], lambda, mix, multipliers[j], lower[j], upper[j]);

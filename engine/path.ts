@@ -120,7 +120,7 @@ export interface PathSettings extends DescentSettings {
 export interface PathRun {
   /** Strengths actually computed (a prefix of the grid when the path stopped early). */
   strengths: number[];
-  /** Standardized coefficients, one array per computed strength. */
+  /** Standardized coefficients, one array per computed strength (views of one block per path: never written after the path). */
   coefficients: Float64Array[];
   /** Fraction of the (weighted) variance of y explained on the training rows. */
   r2: number[];
@@ -219,7 +219,9 @@ export function runPath(
     solver: spectral ? "spectral" : "descent",
   };
   const yVariance = problem.std.yVariance;
-  const exact = new Float64Array(problem.p);
+  const p = problem.p;
+  const exact = new Float64Array(p);
+  const block = new Float64Array(strengths.length * p);
   // Residual mean square at each computed point, and the point a tenfold drop above the
   // current one (PLATEAU_SPAN; strengths decrease, so it only moves forward).
   const residuals: number[] = [];
@@ -266,9 +268,17 @@ export function runPath(
     }
     const r2 = yVariance > 0 ? 1 - residual / yVariance : 0;
     if (kkt > run.maxKktViolation) run.maxKktViolation = kkt;
-    const coef = (spectral ? exact : solver.coef).slice();
+    // A view into the path's one block rather than a new array per point: a typed array of its
+    // own costs an allocation of its backing store (≈ 0.2 µs at p = 20, more than the rest of the
+    // point's bookkeeping, bench/PROFILE.md "tall20"); the values are the same.
+    const coef = block.subarray(k * p, k * p + p);
+    const from = spectral ? exact : solver.coef;
     let nonzero = 0;
-    for (let j = 0; j < coef.length; j++) if (coef[j] !== 0) nonzero++;
+    for (let j = 0; j < p; j++) {
+      const b = from[j];
+      coef[j] = b;
+      if (b !== 0) nonzero++;
+    }
     run.strengths.push(lambda);
     run.coefficients.push(coef);
     run.r2.push(r2);
