@@ -14,6 +14,6 @@ interface TaskWorkerScope {
 // Only inside a dedicated worker (WorkerGlobalScope exists there and nowhere else).
 const scope = globalThis as unknown as TaskWorkerScope & { WorkerGlobalScope?: new () => unknown };
 if (typeof scope.WorkerGlobalScope === "function" && scope instanceof scope.WorkerGlobalScope) {
-  const handle = createTaskHost((message, transfer) => scope.postMessage(message, transfer), openTaskContext, runFitTask);
+  const handle = createTaskHost((message) => scope.postMessage(message, []), openTaskContext, runFitTask);
   scope.onmessage = (event) => handle(event.data);
 }

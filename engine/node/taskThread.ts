@@ -8,6 +8,6 @@ import { createTaskHost, ToTaskWorker } from "../parallel";
 
 const port = parentPort;
 if (port) {
-  const handle = createTaskHost((message, transfer) => port.postMessage(message, transfer), openTaskContext, runFitTask);
+  const handle = createTaskHost((message) => port.postMessage(message), openTaskContext, runFitTask);
   port.on("message", (message: ToTaskWorker) => handle(message));
 }

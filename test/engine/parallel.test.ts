@@ -341,3 +341,18 @@ test("scheduling: a fold's tasks stay with the worker that took the fold first, 
   expect(taskAffinity({ kind: "fold", mix: 0, deal: 1, fold: 3, strengths: [], keepPath: false, keepSigns: false })).not.toBe(taskAffinity({ kind: "fold", mix: 2, deal: 0, fold: 3, strengths: [], keepPath: false, keepSigns: false }));
   expect(taskAffinity({ kind: "honest", outer: 0 })).toBeNull();
 });
+
+test("a task worker answers with its results copied, never transferred (a detach would slow every later task in that worker)", () => {
+  const d = data(60, 4, 9);
+  const posts: unknown[][] = [];
+  const host = createTaskHost((...args: unknown[]) => void posts.push(args), openTaskContext, runFitTask);
+  const pool = new WorkerPool((): TaskEndpoint => ({ post: (message) => host(cloned(message)), listen: () => undefined, terminate: () => undefined }), 1);
+  const running = fitAsync(d.x, d.y, { mixes: [1], folds: 3, gridDensity: 5 }, { pool });
+  return new Promise<void>((resolve) => setTimeout(resolve, 50)).then(() => {
+    pool.dispose();
+    void running.catch(() => undefined);
+    expect(posts.length).toBeGreaterThan(0);
+    // One argument: the message alone, with no list of buffers to hand over.
+    for (const args of posts) expect(args).toHaveLength(1);
+  });
+});
