@@ -511,6 +511,11 @@ function hashFingerprint(fingerprint: Fingerprint): number {
   return murmurFinish(h, bytes);
 }
 
+/** The hash the cache finds a request's entries by (options, shape, target: lookupHash), with the fingerprint it is made from: what a lookup costs before any comparison (bench/cellPhases.ts). */
+export function requestLookupHash(request: AnyFitRequest): number {
+  return lookupHash(fingerprintOf(request));
+}
+
 /** The request's 32-bit content hash over its whole fingerprint, for diagnostics and tests (the cache's lookup leaves the predictors out: lookupHash). */
 export function requestHash(request: AnyFitRequest): number {
   return hashFingerprint(fingerprintOf(request));
