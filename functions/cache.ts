@@ -184,6 +184,11 @@ export class FitCache implements FitRunner {
     return inner.fitSums ? (request, cancel, onProgress) => (inner.fitSums as NonNullable<FitRunner["fitSums"]>).call(inner, request, cancel, onProgress) : undefined;
   }
 
+  /** Has the runner behind the cache warm up now, where it can (WorkerRunner.warmUp); caches nothing. */
+  warmUp(): void {
+    (this.inner as { warmUp?: () => void }).warmUp?.();
+  }
+
   /** Counters and current occupancy. */
   stats(): FitCacheStats {
     return {

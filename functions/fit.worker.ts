@@ -8,6 +8,9 @@
  *                                            own thread; same progress, cancel and answers)
  *        { type: "cancel", id }              raise that fit's signal; it stops at the next
  *                                            checkpoint and answers with a "cancelled" error
+ *        { type: "warm" }                    a small fit on made-up data, answered by nothing,
+ *                                            so the engine is compiled before the first real fit;
+ *                                            ignored once any fit came, stopped when one comes
  *   out: { type: "progress", id, done, total }  after each unit of work
  *        { type: "result", id, result, spare? }  the engine's FitResult, structured-cloned (its
  *                                            held-out lists packed: packResult / unpackResult)
@@ -26,6 +29,7 @@
  * directly; the bootstrap at the bottom wires it to the worker's own message port.
  */
 import { FitOptions, FitResult, fitSteps, nextTask } from "../engine/fit";
+import { mulberry32 } from "../engine/random";
 import { CancelledError, InputError, InputErrorCode } from "../engine/errors";
 import { fitFromSumsAsync } from "../engine/fitSums";
 import type { AnyFitRequest, SumsFitRequest } from "./runner";
@@ -43,7 +47,8 @@ export interface PlainError {
 export type ToWorker =
   | { type: "fit"; id: number; request: AnyFitRequest }
   | { type: "fitSums"; id: number; request: SumsFitRequest }
-  | { type: "cancel"; id: number };
+  | { type: "cancel"; id: number }
+  | { type: "warm" };
 
 /** The fit from sums a worker runs (fitFromSumsAsync, pooled where the host allows; replaceable in tests). */
 import type { SumsFitFunction } from "./taskPool";
@@ -127,6 +132,25 @@ export function fitInSlices(sliceMs: number = SLICE_MS): FitFunction {
   };
 }
 
+/**
+ * The warm-up fit: 200 rows × 20 made-up predictors, three mixes, five folds (a fit of ~80 ms that
+ * took the first real 1,000 × 50 fit from ~340 to ~240 ms, bench/PROFILE.md). Its result is thrown
+ * away: it only gets V8 to compile the engine, which changes no number of any later fit.
+ */
+function runWarmUp(signal: { aborted: boolean }): Promise<unknown> {
+  const uniform = mulberry32(20261205);
+  const predictors: number[][] = [];
+  const target: number[] = [];
+  for (let i = 0; i < 200; i++) {
+    const row: number[] = [];
+    for (let j = 0; j < 20; j++) row.push(uniform() - 0.5);
+    predictors.push(row);
+    target.push(row[0] - 0.5 * row[1] + 0.25 * row[2] + 0.1 * (uniform() - 0.5));
+  }
+  // Short slices, so a real fit that arrives stops it within ~2 ms.
+  return fitInSlices(2)(predictors, target, { mixes: [0, 0.5, 1], folds: 5, seed: 1, signal });
+}
+
 /** Turns any thrown value into plain data that survives structured cloning. */
 export function toPlainError(error: unknown): PlainError {
   if (error instanceof InputError) return { kind: "input", code: error.code, name: error.name, message: error.message };
@@ -165,7 +189,25 @@ export function createFitHandler(
   fitSumsImpl: SumsFitFunction = fitFromSumsAsync,
 ): (message: ToWorker) => void {
   const signals = new Map<number, { aborted: boolean }>();
+  /** The warm-up's signal while it runs; `worked` once any real fit came. */
+  let warming: { aborted: boolean } | null = null;
+  let worked = false;
   return (message: ToWorker) => {
+    if (message.type === "warm") {
+      if (worked || warming) return;
+      const signal = { aborted: false };
+      warming = signal;
+      const done = (): void => {
+        if (warming === signal) warming = null;
+      };
+      runWarmUp(signal).then(done, done);
+      return;
+    }
+    if (message.type === "fit" || message.type === "fitSums") {
+      // A real fit supersedes the warm-up at once.
+      worked = true;
+      if (warming) warming.aborted = true;
+    }
     if (message.type === "cancel") {
       const signal = signals.get(message.id);
       if (signal) signal.aborted = true;

@@ -335,3 +335,22 @@ test("the worker's fit in slices equals the engine's fit bit for bit, and a canc
   await expect(run).rejects.toBeInstanceOf(CancelledError);
   expect(units).toBeLessThan(18);
 });
+
+test("a warm-up started before the first fit changes nothing: the fit stops it and answers the same result", async () => {
+  const workers: FakeWorker[] = [];
+  const runner = new WorkerRunner(() => {
+    const w = new FakeWorker();
+    workers.push(w);
+    return w;
+  });
+  runner.warmUp();
+  runner.warmUp(); // the worker exists: nothing more
+  const request: FitRequest = { ...data(3, 80, 4), options: { mixes: [0, 0.5, 1], folds: 5, seed: 9 } };
+  const viaWorker = await runner.fit(request);
+  expect(viaWorker).toStrictEqual(fit(request.predictors, request.target, request.options));
+  expect(workers.length).toBe(1);
+  expect(workers[0].received.map((m) => m.type)).toEqual(["warm", "fit"]);
+  // A warm-up asked for after a fit is ignored by the worker (and not even posted by the runner).
+  runner.warmUp();
+  expect(workers[0].received.length).toBe(2);
+});
