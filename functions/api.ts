@@ -52,6 +52,7 @@ import {
   datasetRequest,
   EncodedRows,
   encodeNewRows,
+  reserveMatrix,
   listNames,
   readCoefficientTable,
   TargetClasses,
@@ -85,6 +86,17 @@ async function guard(work: () => Promise<Spill> | Spill): Promise<Spill> {
   } catch (e) {
     throw toCellError(e);
   }
+}
+
+/**
+ * Starts the request's fit, then (while it runs: in the add-in the worker fits and this thread
+ * waits) reserves the matrix buffer the next reading of a grid this size will write into
+ * (dataset.ts reserveMatrix), so the next recalculation does not pay for fresh memory.
+ */
+function fitPrepared(runner: FitRunner, request: AnyFitRequest, cancel: CancelToken | null | undefined): Promise<FitResult> {
+  const run = runner.fit(request, cancel ?? undefined);
+  if (!Array.isArray(request.predictors)) reserveMatrix(request.predictors.data.length);
+  return run;
 }
 
 /** Per-term multipliers from `penalty` and `no penalty`, or null when neither is given. */
@@ -251,7 +263,7 @@ export function coefs(
 ): Promise<Spill> {
   return guard(async () => {
     const prepared = prepare(target, predictors, mixes, settings);
-    const result = await runner.fit(prepared.request, cancel ?? undefined);
+    const result = await fitPrepared(runner, prepared.request, cancel);
     return coefficientSpill(result, prepared.dataset);
   });
 }
@@ -271,7 +283,7 @@ export function choice(
 ): Promise<Spill> {
   return guard(async () => {
     const prepared = prepare(target, predictors, mixes, settings);
-    const result = await runner.fit(prepared.request, cancel ?? undefined);
+    const result = await fitPrepared(runner, prepared.request, cancel);
     return choiceSpill(result, prepared.dataset);
   });
 }
@@ -340,7 +352,7 @@ export function predict(
   return guard(async () => {
     const prepared = prepare(target, predictors, mixes, settings);
     const encoded = encodeNewRows(prepared.dataset.encoder, newRows);
-    const result = await runner.fit(prepared.request, cancel ?? undefined);
+    const result = await fitPrepared(runner, prepared.request, cancel);
     if (prepared.settings.interval !== null) return predictWithIntervals(encoded, result, prepared.settings.interval, cancel ?? undefined);
     if (prepared.dataset.outcome === "two-class") {
       return predictRows(encoded, result.terms, result.intercept, result.coefficients, "logistic", twoClassOutput(prepared.dataset, prepared.settings));
@@ -385,7 +397,7 @@ export function path(
       );
     }
     const prepared = prepare(target, predictors, null, settings, mixes);
-    const result = await runner.fit(prepared.request, cancel ?? undefined);
+    const result = await fitPrepared(runner, prepared.request, cancel);
     return pathSpill(result, prepared.dataset);
   });
 }
@@ -408,7 +420,7 @@ export function cvcurve(
     if (prepared.settings.strength !== null) {
       throw new DataError("no cross-validation runs with a fixed strength: remove 'strength' from settings to see the curve", "n/a");
     }
-    const result = await runner.fit(prepared.request, cancel ?? undefined);
+    const result = await fitPrepared(runner, prepared.request, cancel);
     if (!result.cv) throw new DataError("no cross-validation ran for this fit", "n/a");
     return cvCurveSpill(result);
   });
@@ -434,7 +446,7 @@ export function kept(
     if (prepared.settings.strength !== null) {
       throw new DataError("kept shares count the cross-validation fold models, and a fixed strength runs no cross-validation: remove 'strength' from settings", "n/a");
     }
-    const result = await runner.fit(prepared.request, cancel ?? undefined);
+    const result = await fitPrepared(runner, prepared.request, cancel);
     if (!result.keptShare) throw new DataError("no cross-validation ran for this fit, so there are no fold models to count", "n/a");
     return keptSpill(result, prepared.dataset);
   });
@@ -631,7 +643,7 @@ export function baseline(runner: FitRunner, target: unknown, predictors: unknown
     const options: PlainFitOptions = { names: dataset.names.slice(), mixes: [1], strength: 0 };
     if (dataset.outcome === "two-class") options.outcome = "two-class";
     const request = datasetRequest(dataset, options);
-    const result = await runner.fit(request, cancel ?? undefined);
+    const result = await fitPrepared(runner, request, cancel);
     if (!result.baseline) throw new Error("the unpenalized fit returned no standard errors");
     return dataset.outcome === "two-class" ? twoClassBaselineSpill(result, dataset) : baselineSpill(result, dataset);
   });

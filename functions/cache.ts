@@ -7,12 +7,19 @@
  * Key. A request is reduced to a fingerprint: the options as canonical text (object keys
  * sorted, numbers written with `String`, which round-trips every double exactly, plus
  * explicit forms for -0, NaN and ±Infinity) and the numbers of the data (shape, target,
- * predictors column by column; a packed request's matrix is kept as it is, not copied). The
- * lookup key is a 32-bit MurmurHash3 over the option text and the data's bits (so numbers are
- * hashed by their exact bit patterns). A 32-bit hash can collide, so the hash only picks a
- * bucket: a hit is confirmed by comparing the stored fingerprint bit for bit. A collision
- * therefore costs one extra comparison, never a wrong answer. The two forms of a request
- * (rows of numbers, or the packed matrix) with the same numbers are the same entry.
+ * predictors column by column; a packed request's matrix is kept as it is, not copied). A
+ * request is the same as a cached one only when the whole fingerprint is equal bit for bit: the
+ * option text, the shape, and every number of the target and the predictors (-0 and 0 differ, a
+ * NaN equals the same NaN). No hash decides a hit. The entries are found by a 32-bit MurmurHash3
+ * of the option text, the shape and the target's bits, which picks a bucket; each entry of the
+ * bucket is then compared in full, stopping at the first differing number. The predictors are
+ * left out of that hash on purpose: hashing a 50,000 × 40 grid took 8 ms of every recalculation
+ * (on the way to the worker), while the comparison costs nothing when no entry has the same
+ * settings, shape and target (the first reading of a range, a changed target) and stops early
+ * when one differs in a cell (a cell edited). Entries that differ only in their predictors share
+ * a bucket; the bounds below keep it small. The two forms of a request (rows of numbers, or the
+ * packed matrix) with the same numbers are the same entry. `requestHash` (tests, diagnostics)
+ * still hashes the whole fingerprint.
  *
  * Sharing. A finished entry answers at once (a hit). A call that finds the same request in
  * flight joins it (also a hit): one engine run, any number of waiters, each receiving progress.
@@ -120,7 +127,7 @@ export class FitCache implements FitRunner {
   readonly maxEntries: number;
   readonly failureTtlMs: number;
   private readonly now: () => number;
-  /** Hash → entries with that hash (more than one only on a collision). */
+  /** Lookup hash → entries with that hash (more than one when they differ only in their predictors, or on a collision). */
   private readonly buckets = new Map<number, Entry[]>();
   /** Finished entries in least-recently-used-first order (Map keeps insertion order). */
   private readonly lru = new Map<Entry, true>();
@@ -141,7 +148,7 @@ export class FitCache implements FitRunner {
   fit(request: AnyFitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
     if (cancel?.cancelled) return Promise.reject(new CancelledError());
     const fingerprint = fingerprintOf(request);
-    const hash = hashFingerprint(fingerprint);
+    const hash = lookupHash(fingerprint);
     let entry = this.find(hash, fingerprint);
     if (entry && entry.state === "failed" && entry.expires !== undefined && entry.expires <= this.now()) {
       this.drop(entry);
@@ -177,6 +184,11 @@ export class FitCache implements FitRunner {
     return inner.fitSums ? (request, cancel, onProgress) => (inner.fitSums as NonNullable<FitRunner["fitSums"]>).call(inner, request, cancel, onProgress) : undefined;
   }
 
+  /** Has the runner behind the cache warm up now, where it can (WorkerRunner.warmUp); caches nothing. */
+  warmUp(): void {
+    (this.inner as { warmUp?: () => void }).warmUp?.();
+  }
+
   /** Counters and current occupancy. */
   stats(): FitCacheStats {
     return {
@@ -207,7 +219,7 @@ export class FitCache implements FitRunner {
   /** True when a finished answer for this request is held (does not count as a hit). */
   has(request: AnyFitRequest): boolean {
     const fingerprint = fingerprintOf(request);
-    const entry = this.find(hashFingerprint(fingerprint), fingerprint);
+    const entry = this.find(lookupHash(fingerprint), fingerprint);
     if (!entry || entry.state === "running") return false;
     return entry.state === "done" || entry.expires === undefined || entry.expires > this.now();
   }
@@ -407,13 +419,23 @@ function wordsOf(values: Float64Array): Uint32Array {
   return new Uint32Array(values.buffer, values.byteOffset, values.length * 2);
 }
 
-/** Bit-for-bit equality of two double arrays: -0 and 0 differ, a NaN equals the same NaN. */
+/**
+ * Bit-for-bit equality of two double arrays: -0 and 0 differ, a NaN equals the same NaN. Compared
+ * as doubles (half the steps of comparing 32-bit words), and by their bits where that could
+ * mislead: two equal doubles other than zero have the same bits, so only zeros (±0) and unequal
+ * values (a NaN is unequal to itself) are looked at bit by bit.
+ */
 function sameBits(a: Float64Array, b: Float64Array): boolean {
   if (a.length !== b.length) return false;
   if (a === b) return true;
   const x = wordsOf(a);
   const y = wordsOf(b);
-  for (let i = 0; i < x.length; i++) if (x[i] !== y[i]) return false;
+  for (let i = 0; i < a.length; i++) {
+    const u = a[i];
+    if (u !== b[i] || u === 0) {
+      if (x[2 * i] !== y[2 * i] || x[2 * i + 1] !== y[2 * i + 1]) return false;
+    }
+  }
   return true;
 }
 
@@ -461,17 +483,31 @@ export function murmur3Words(words: Uint32Array, seed = 0): number {
   return murmurFinish(murmurWords(seed | 0, words), 4 * words.length);
 }
 
-/**
- * The lookup hash: MurmurHash3 x86_32 (seed 0) over one stream of 32-bit words: the option
- * text's UTF-16 code units two to a word (a last odd unit alone), then the bits of the head,
- * the target and the predictors. Only picks a bucket; hits are confirmed bit for bit.
- */
-function hashFingerprint(fingerprint: Fingerprint): number {
-  const text = fingerprint.options;
+/** The option text's UTF-16 code units, two to a 32-bit word (a last odd unit alone). */
+function textWords(text: string): Uint32Array {
   const units = new Uint32Array((text.length + 1) >>> 1);
   for (let i = 0; i < text.length; i += 2) {
     units[i >>> 1] = text.charCodeAt(i) | ((i + 1 < text.length ? text.charCodeAt(i + 1) : 0) << 16);
   }
+  return units;
+}
+
+/**
+ * The bucket a request's entries are found in: MurmurHash3 x86_32 (seed 0) over the option text
+ * (textWords), then the bits of the head and the target; the predictors are left out (see the
+ * module comment). Only picks a bucket: a hit is the whole fingerprint equal bit for bit.
+ */
+function lookupHash(fingerprint: Fingerprint): number {
+  const units = textWords(fingerprint.options);
+  let h = murmurWords(0, units);
+  h = murmurWords(h, wordsOf(fingerprint.head));
+  h = murmurWords(h, wordsOf(fingerprint.target));
+  return murmurFinish(h, 4 * units.length + fingerprint.head.byteLength + fingerprint.target.byteLength);
+}
+
+/** MurmurHash3 x86_32 (seed 0) over the whole fingerprint: the option text, head, target and predictors' bits. */
+function hashFingerprint(fingerprint: Fingerprint): number {
+  const units = textWords(fingerprint.options);
   let h = murmurWords(0, units);
   h = murmurWords(h, wordsOf(fingerprint.head));
   h = murmurWords(h, wordsOf(fingerprint.target));
@@ -480,7 +516,12 @@ function hashFingerprint(fingerprint: Fingerprint): number {
   return murmurFinish(h, bytes);
 }
 
-/** The request's 32-bit content hash, for diagnostics and tests. */
+/** The hash the cache finds a request's entries by (options, shape, target: lookupHash), with the fingerprint it is made from: what a lookup costs before any comparison (bench/cellPhases.ts). */
+export function requestLookupHash(request: AnyFitRequest): number {
+  return lookupHash(fingerprintOf(request));
+}
+
+/** The request's 32-bit content hash over its whole fingerprint, for diagnostics and tests (the cache's lookup leaves the predictors out: lookupHash). */
 export function requestHash(request: AnyFitRequest): number {
   return hashFingerprint(fingerprintOf(request));
 }
@@ -564,9 +605,11 @@ export function approximateBytes(value: unknown): number {
       if (ArrayBuffer.isView(item)) {
         total += 64 + item.byteLength;
       } else if (Array.isArray(item)) {
-        total += 16 + 8 * item.length;
-        for (const element of item) {
+        const list = item as unknown[];
+        total += 16 + 8 * list.length;
+        for (let i = 0; i < list.length; i++) {
           // Numbers in arrays are counted by the slot above.
+          const element = list[i];
           if (typeof element !== "number") stack.push(element);
         }
       } else {

@@ -500,26 +500,108 @@ function plainScans(width: number, from: number, count: number): ColumnScan[] {
   return scans;
 }
 
+/** The usual grid read in one pass (plainBlock). */
+interface PlainBlock {
+  /** The predictors, column-major (`count` rows × the range's width). */
+  data: Float64Array;
+  /** The target's values, one per data row (a packed array, as the request sends it). */
+  target: number[];
+  /** Rows that are 0 in the target and in every column. */
+  zeroRows: number;
+}
+
 /**
  * The `count` data rows of predictors (from row `from`) as a column-major matrix, with the target's
- * rows (from `targetFrom`) checked alongside, when every one of those cells is a plain number
- * (isPlain); null at the first cell that is not.
+ * rows (from `targetFrom`) read alongside, when every one of those cells is a plain number
+ * (isPlain); null at the first cell that is not. One pass over the raw rows, nothing allocated per
+ * row; the matrix goes into a buffer reserved while an earlier fit ran when one of the right size
+ * is held (reserveMatrix), else into fresh memory.
  */
-function plainBlock(cells: CellGrid, target: CellGrid, from: number, targetFrom: number, count: number): Float64Array | null {
+function plainBlock(cells: CellGrid, target: CellGrid, from: number, targetFrom: number, count: number): PlainBlock | null {
   const width = cells.width;
-  const data = new Float64Array(count * width);
+  const data = takeMatrix(count * width);
+  const values: number[] = [];
+  let zeroRows = 0;
   for (let d = 0; d < count; d++) {
-    if (Number.isNaN(target.numberAt(targetFrom + d, 0))) return null;
+    const t = target.numberAt(targetFrom + d, 0);
+    if (Number.isNaN(t)) return giveBack(data);
+    values.push(t);
     const i = from + d;
     const row = cells.rawRow(i);
     const zeros = cells.zerosBlankAt(i);
-    for (let j = 0; j < width; j++) {
+    for (let j = 0, at = d; j < width; j++, at += count) {
       const v = row[j];
-      if (!isPlain(v, zeros, j)) return null;
-      data[j * count + d] = v;
+      if (!isPlain(v, zeros, j)) return giveBack(data);
+      data[at] = v;
+    }
+    if (t === 0) {
+      let allZero = true;
+      for (let j = 0; allZero && j < width; j++) allZero = row[j] === 0;
+      if (allZero) zeroRows++;
     }
   }
-  return data;
+  return { data, target: values, zeroRows };
+}
+
+// ---------------------------------------------------------------------------------------------
+// A matrix buffer reserved ahead
+
+/**
+ * Fresh memory is slow to write the first time: a new 16 MB matrix cost 5–10 ms of page faults
+ * here (up to ~45 ms on a loaded VM, bench/PROFILE.md), as much as reading the whole grid. So
+ * while a fit runs (the add-in's thread waits for the worker) `reserveMatrix` allocates the next
+ * matrix of the same size and touches every page of it; the next reading of a grid of that size
+ * writes into it (`takeMatrix`). The reserved buffer is new memory that nothing else has seen and
+ * it is handed out once: whoever takes it owns it, as if it had been allocated then. At most one
+ * is held (the size of the last large grid read).
+ */
+let reserved: Float64Array | null = null;
+let reserveTimer: ReturnType<typeof setTimeout> | null = null;
+
+/** Matrices smaller than this are not worth reserving (their pages cost microseconds). */
+const RESERVE_MIN_VALUES = 1 << 16;
+
+/** A zeroed buffer of `length` values: the reserved one when it has that length, else fresh. */
+function takeMatrix(length: number): Float64Array {
+  const buffer = reserved;
+  if (buffer !== null && buffer.length === length) {
+    reserved = null;
+    return buffer;
+  }
+  return new Float64Array(length);
+}
+
+/** Returns a buffer takeMatrix gave out that was not used after all (its contents cleared); null. */
+function giveBack(buffer: Float64Array): null {
+  if (buffer.length >= RESERVE_MIN_VALUES && reserved === null) {
+    buffer.fill(0);
+    reserved = buffer;
+  }
+  return null;
+}
+
+/**
+ * Reserves a matrix buffer of `length` values for the next grid of that size, in a task of its
+ * own (so after the caller's fit has been posted, while it runs). Nothing for small matrices, or
+ * when one of that size is already held.
+ */
+export function reserveMatrix(length: number): void {
+  if (length < RESERVE_MIN_VALUES || (reserved !== null && reserved.length === length) || reserveTimer !== null) return;
+  reserveTimer = setTimeout(() => {
+    reserveTimer = null;
+    if (reserved !== null && reserved.length === length) return;
+    const buffer = new Float64Array(length);
+    // One write per 4 KB page makes the system map it now; the values stay 0.
+    for (let k = 0; k < length; k += 512) buffer[k] = 0;
+    reserved = buffer;
+  }, 0);
+}
+
+/** Drops the reserved buffer (tests; a host low on memory). */
+export function releaseReservedMatrix(): void {
+  reserved = null;
+  if (reserveTimer !== null) clearTimeout(reserveTimer);
+  reserveTimer = null;
 }
 
 /**
@@ -592,15 +674,26 @@ function outcomeValueOf(c: Cell): OutcomeValue | null {
  * reads as labels. TRUE/FALSE mixed with numbers are 1/0, as in any number column. Throws DataError
  * or the engine's InputError.
  */
-function targetKind(cells: CellGrid, start: number, count: number, scan: ColumnScan, settings: DataSettings, name: string | undefined): OutcomeKind {
+function targetKind(
+  cells: CellGrid,
+  start: number,
+  count: number,
+  scan: ColumnScan,
+  settings: DataSettings,
+  name: string | undefined,
+  plain: number[] | null,
+): OutcomeKind {
   const setting = settings.outcome ?? "auto";
   // A target of plain numbers only (the usual one) is read as such without a boxed value per row;
-  // the general reading below gives the same answer for it.
-  const plainValues: number[] = [];
-  for (let i = start; i < start + count; i++) {
-    const v = cells.numberAt(i, 0);
-    if (Number.isNaN(v)) break;
-    plainValues.push(v);
+  // the general reading below gives the same answer for it. `plain`: those values, already read.
+  let plainValues = plain;
+  if (plainValues === null) {
+    plainValues = [];
+    for (let i = start; i < start + count; i++) {
+      const v = cells.numberAt(i, 0);
+      if (Number.isNaN(v)) break;
+      plainValues.push(v);
+    }
   }
   if (plainValues.length === count) {
     if (setting === "number") return "number";
@@ -828,14 +921,14 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   const targetScan = block ? plainScans(1, targetStart, dataRows)[0] : scanColumns(targetCells, targetStart)[0];
   // readOutcome quotes a name it is given; an unnamed target is "the target" in its messages.
   const outcomeName = targetName === "target" ? undefined : targetName;
-  const outcome = targetKind(targetCells, targetStart, dataRows, targetScan, settings, outcomeName);
+  const outcome = targetKind(targetCells, targetStart, dataRows, targetScan, settings, outcomeName, block ? block.target : null);
   if (targetScan.numericTexts > 0) notes.push(fromTextNote(`target '${targetName}'`, targetScan, targetAt, false));
 
   // Rows used, skipped, ignored.
+  // (The usual grid uses every row: no list of them is made.)
   const used: number[] = [];
   let skipped = 0;
   let firstSkip: string | null = null;
-  for (let d = 0; block && d < dataRows; d++) used.push(d);
   for (let d = 0; !block && d < dataRows; d++) {
     const i = h + d;
     let allBlank = false;
@@ -868,7 +961,7 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
     }
     used.push(d);
   }
-  if (used.length === 0) {
+  if (!block && used.length === 0) {
     throw new DataError(
       `no row can be used: every row has a blank or error cell in the target or a predictor (${skipped} rows; first, ${firstSkip ?? "none"})`,
     );
@@ -1017,22 +1110,22 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
   const encoder: RowEncoder = { columns, terms, width, sourceNames: names, source: "predictors" };
   // The encoded rows go straight into one column-major matrix (the engine's layout and the packed
   // request's), through one reused row buffer.
-  const n = used.length;
+  // The usual grid was copied and its target read in its one pass (plainBlock): every row used.
+  const n = block ? dataRows : used.length;
   const p = terms.length;
-  if (block && (n !== dataRows || p !== width)) throw new Error("a grid of plain numbers was encoded to another shape");
-  const data = block ?? new Float64Array(n * p);
+  if (block && p !== width) throw new Error("a grid of plain numbers was encoded to another shape");
+  const data = block ? block.data : takeMatrix(n * p);
   const values = new Array<number>(p);
-  const target: number[] = [];
-  let zeroRows = 0;
+  const target: number[] = block && outcome === "number" ? block.target : [];
+  let zeroRows = block ? block.zeroRows : 0;
   const allNumbers = columns.every((column) => column.kind === "number");
   const positions = columns.map((column) => column.position);
-  for (let r = 0; r < n; r++) {
+  for (let r = 0; !block && r < n; r++) {
     const d = used[r];
     const i = h + d;
-    // Rows of plain numbers in number columns (the usual grid) are copied without a Cell (row by
-    // row: measured as quick as copying in blocks of rows); any other row is encoded cell by cell.
+    // Rows of plain numbers in number columns are copied without a Cell (row by row: measured as
+    // quick as copying in blocks of rows); any other row is encoded cell by cell.
     let plain = allNumbers;
-    if (block) plain = false; // copied already
     const row = cells.rawRow(i);
     const zeros = cells.zerosBlankAt(i);
     for (let k = 0; plain && k < p; k++) {
@@ -1040,7 +1133,7 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
       if (isPlain(v, zeros, positions[k])) data[k * n + r] = v;
       else plain = false;
     }
-    if (!plain && !block) {
+    if (!plain) {
       encodeInto(
         encoder,
         (column) => cells.at(i, column.position),
@@ -1075,7 +1168,8 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
 
   let classes: TargetClasses | null = null;
   if (outcome === "two-class") {
-    const values = used.map((d) => outcomeValueOf(targetCells.at(targetStart + d, 0)) as OutcomeValue);
+    // A plain number cell's outcome value is the number itself (outcomeValueOf).
+    const values: OutcomeValue[] = block ? block.target : used.map((d) => outcomeValueOf(targetCells.at(targetStart + d, 0)) as OutcomeValue);
     const reading = readOutcome(values, { outcome: "two-class", event: settings.event ?? null, name: outcomeName });
     if (reading.kind !== "two-class") throw new Error("a two-class reading of the target came back as numbers");
     for (const v of reading.values) target.push(v);
@@ -1110,7 +1204,7 @@ export function buildDataset(targetRaw: unknown, predictorsRaw: unknown, setting
     target,
     weights,
     foldLabels,
-    rowsUsed: used.length,
+    rowsUsed: n,
     rowsSkipped: skipped,
     hasHeader: header,
     encoder,

@@ -8,6 +8,9 @@
  *                                            own thread; same progress, cancel and answers)
  *        { type: "cancel", id }              raise that fit's signal; it stops at the next
  *                                            checkpoint and answers with a "cancelled" error
+ *        { type: "warm" }                    a small fit on made-up data, answered by nothing,
+ *                                            so the engine is compiled before the first real fit;
+ *                                            ignored once any fit came, stopped when one comes
  *   out: { type: "progress", id, done, total }  after each unit of work
  *        { type: "result", id, result, spare? }  the engine's FitResult, structured-cloned (its
  *                                            held-out lists packed: packResult / unpackResult)
@@ -15,8 +18,9 @@
  * A packed request (runner.ts PackedFitRequest) arrives with its matrix's buffer transferred, and
  * its answer hands that buffer back as `spare` (transferred again, so no copy either way): the main
  * side writes the next request's copy into it instead of into fresh memory (workerRunner.ts).
- * Every fit gets exactly one "result" or "error". Several fits may run at once: fitAsync
- * yields a macrotask between units of work, so they interleave and cancel messages get through.
+ * Every fit gets exactly one "result" or "error". Several fits may run at once: a fit yields a
+ * macrotask once its current slice of work has run SLICE_MS (fitInSlices), so they interleave and
+ * cancel messages get through.
  * Where the host allows nested workers, a fit's mixes and folds run on a pool of task workers
  * (taskPool.ts, task.worker.ts), with the same result bit for bit; a cancel stops them at once.
  * A fit from sums uses the same pool (its workers get the fit's problems, never rows).
@@ -24,7 +28,8 @@
  * The handler (`createFitHandler`) is plain code with no worker globals, so tests drive it
  * directly; the bootstrap at the bottom wires it to the worker's own message port.
  */
-import { fitAsync, FitOptions, FitResult } from "../engine/fit";
+import { FitOptions, FitResult, fitSteps, nextTask } from "../engine/fit";
+import { mulberry32 } from "../engine/random";
 import { CancelledError, InputError, InputErrorCode } from "../engine/errors";
 import { fitFromSumsAsync } from "../engine/fitSums";
 import type { AnyFitRequest, SumsFitRequest } from "./runner";
@@ -42,7 +47,8 @@ export interface PlainError {
 export type ToWorker =
   | { type: "fit"; id: number; request: AnyFitRequest }
   | { type: "fitSums"; id: number; request: SumsFitRequest }
-  | { type: "cancel"; id: number };
+  | { type: "cancel"; id: number }
+  | { type: "warm" };
 
 /** The fit from sums a worker runs (fitFromSumsAsync, pooled where the host allows; replaceable in tests). */
 import type { SumsFitFunction } from "./taskPool";
@@ -87,7 +93,62 @@ export function packResult(result: FitResult): { result: WireFitResult; transfer
 export function unpackResult(result: WireFitResult): FitResult {
   const held = result.heldOut;
   if (!held || !("packed" in held)) return result as FitResult;
-  return { ...result, heldOut: { row: Array.from(held.row), fold: Array.from(held.fold), residual: Array.from(held.residual) } } as FitResult;
+  return { ...result, heldOut: { row: listOf(held.row), fold: listOf(held.fold), residual: listOf(held.residual) } } as FitResult;
+}
+
+/** A typed array's values as a plain list (an indexed loop: Array.from took 4 ms for three lists of 50,000, this 1). */
+function listOf(values: Int32Array | Float64Array): number[] {
+  const list: number[] = [];
+  for (let i = 0; i < values.length; i++) list.push(values[i]);
+  return list;
+}
+
+/**
+ * Longest run of a fit's units of work between two yields to the worker's event loop, in ms. The
+ * engine's fitAsync yields after every unit (66 in the bench's fits, 1–2 ms each); each yield cost
+ * the worker about 0.1 ms of thread time and the fit 5–10% in all (thread CPU of a 1,000 × 50 fit
+ * in a worker: 94 ms run straight through, 101 with a yield per unit, 97 with one per 10 ms). A cancel
+ * still gets through within a slice and a unit.
+ */
+export const SLICE_MS = 10;
+
+/**
+ * The worker's fit: the engine's fit as a generator (fitSteps: the same plan and steps as fitAsync
+ * without a pool, so the same result bit for bit), yielding a macrotask (the engine's nextTask)
+ * whenever `sliceMs` have passed since the last yield.
+ */
+export function fitInSlices(sliceMs: number = SLICE_MS): FitFunction {
+  return async (predictors, target, options) => {
+    const steps = fitSteps(predictors, target, options);
+    let last = performance.now();
+    for (;;) {
+      const step = steps.next();
+      if (step.done) return step.value;
+      if (performance.now() - last >= sliceMs) {
+        await nextTask();
+        last = performance.now();
+      }
+    }
+  };
+}
+
+/**
+ * The warm-up fit: 200 rows × 20 made-up predictors, three mixes, five folds (a fit of ~80 ms that
+ * took the first real 1,000 × 50 fit from ~340 to ~240 ms, bench/PROFILE.md). Its result is thrown
+ * away: it only gets V8 to compile the engine, which changes no number of any later fit.
+ */
+function runWarmUp(signal: { aborted: boolean }): Promise<unknown> {
+  const uniform = mulberry32(20261205);
+  const predictors: number[][] = [];
+  const target: number[] = [];
+  for (let i = 0; i < 200; i++) {
+    const row: number[] = [];
+    for (let j = 0; j < 20; j++) row.push(uniform() - 0.5);
+    predictors.push(row);
+    target.push(row[0] - 0.5 * row[1] + 0.25 * row[2] + 0.1 * (uniform() - 0.5));
+  }
+  // Short slices, so a real fit that arrives stops it within ~2 ms.
+  return fitInSlices(2)(predictors, target, { mixes: [0, 0.5, 1], folds: 5, seed: 1, signal });
 }
 
 /** Turns any thrown value into plain data that survives structured cloning. */
@@ -119,15 +180,34 @@ function spareOf(request: AnyFitRequest): ArrayBuffer | null {
 
 /**
  * The worker's message handler. `post` sends a message back (with the buffers to transfer);
- * `fitImpl` is the engine's fitAsync and `fitSumsImpl` its fitFromSumsAsync (replaceable in tests).
+ * `fitImpl` runs a fit (fitInSlices by default) and `fitSumsImpl` a fit from sums (the engine's
+ * fitFromSumsAsync); both replaceable in tests.
  */
 export function createFitHandler(
   post: (message: FromWorker, transfer?: ArrayBuffer[]) => void,
-  fitImpl: FitFunction = fitAsync,
+  fitImpl: FitFunction = fitInSlices(),
   fitSumsImpl: SumsFitFunction = fitFromSumsAsync,
 ): (message: ToWorker) => void {
   const signals = new Map<number, { aborted: boolean }>();
+  /** The warm-up's signal while it runs; `worked` once any real fit came. */
+  let warming: { aborted: boolean } | null = null;
+  let worked = false;
   return (message: ToWorker) => {
+    if (message.type === "warm") {
+      if (worked || warming) return;
+      const signal = { aborted: false };
+      warming = signal;
+      const done = (): void => {
+        if (warming === signal) warming = null;
+      };
+      runWarmUp(signal).then(done, done);
+      return;
+    }
+    if (message.type === "fit" || message.type === "fitSums") {
+      // A real fit supersedes the warm-up at once.
+      worked = true;
+      if (warming) warming.aborted = true;
+    }
     if (message.type === "cancel") {
       const signal = signals.get(message.id);
       if (signal) signal.aborted = true;
@@ -203,7 +283,9 @@ interface WorkerScope {
 const scope = globalThis as unknown as WorkerScope & { WorkerGlobalScope?: new () => unknown };
 if (typeof scope.WorkerGlobalScope === "function" && scope instanceof scope.WorkerGlobalScope) {
   // The folds and mixes run on nested task workers where the host allows them (taskPool.ts).
-  const pooled = pooledFit(browserTaskPool());
-  const handle = createFitHandler((message, transfer) => scope.postMessage(message, transfer ?? []), pooled, pooled.sums);
+  // Without a pool (a host with 2 cores or fewer, or no nested workers) a fit runs here in slices.
+  const pool = browserTaskPool();
+  const pooled = pooledFit(pool);
+  const handle = createFitHandler((message, transfer) => scope.postMessage(message, transfer ?? []), pool ? pooled : fitInSlices(), pooled.sums);
   scope.onmessage = (event) => handle(event.data);
 }

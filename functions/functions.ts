@@ -269,4 +269,10 @@ export function registerFunctions(): boolean {
   return true;
 }
 
-registerFunctions();
+/**
+ * Once registered (inside Excel), the fit worker starts and warms up while the runtime is idle:
+ * the first recalculation of a session otherwise waits for the worker to load and V8 to compile
+ * the engine (first 1,000 × 50 COEFS through the worker 600–820 → 300–340 ms measured in Node,
+ * bench/PROFILE.md). A real fit stops the warm-up at once; no result depends on it.
+ */
+if (registerFunctions() && workersAvailable()) setTimeout(() => sharedRunner().warmUp(), 0);

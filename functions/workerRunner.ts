@@ -111,6 +111,20 @@ export class WorkerRunner implements FitRunner {
     });
   }
 
+  /**
+   * Starts the worker now and has it run a small warm-up fit (fit.worker.ts "warm"), so the first
+   * real fit finds the engine compiled; a real fit stops the warm-up at once. Nothing when the
+   * worker already exists or the runner has fallen back.
+   */
+  warmUp(): void {
+    if (this.failedOver || this.worker) return;
+    try {
+      this.ensureWorker().postMessage({ type: "warm" });
+    } catch (error) {
+      this.workerFailed(error);
+    }
+  }
+
   /** Stops the worker; fits in flight reject with CancelledError. */
   dispose(): void {
     for (const job of this.jobs.values()) job.reject(new CancelledError());

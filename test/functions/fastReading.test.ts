@@ -16,7 +16,7 @@ import { isColumnMatrix } from "../../engine/matrix";
 import { mulberry32 } from "../../engine/random";
 import { prepare } from "../../functions/api";
 import { FitCache } from "../../functions/cache";
-import { buildDataset, Dataset, DataSettings, PACKED_MIN_VALUES } from "../../functions/dataset";
+import { buildDataset, Dataset, DataSettings, PACKED_MIN_VALUES, releaseReservedMatrix, reserveMatrix } from "../../functions/dataset";
 import type { AnyFitRequest, FitRunner } from "../../functions/runner";
 import type { FitResult } from "../../engine/fit";
 
@@ -184,5 +184,41 @@ describe("packed requests from large grids", () => {
       await ask(predictors, target);
       expect(inner.requests.length).toBe(++runs);
     }
+  });
+});
+
+describe("a matrix buffer reserved while a fit runs (dataset.ts reserveMatrix)", () => {
+  const wait = (): Promise<void> => new Promise((resolve) => setTimeout(resolve, 5));
+  afterEach(() => releaseReservedMatrix());
+
+  test("the next grid of that size is read into it, once, with the same dataset bit for bit; other sizes get fresh memory", async () => {
+    const sheet = numberSheet(11, 11000, 6);
+    const before = reading(sheet.target, sheet.predictors, SETTINGS);
+    const first = buildDataset(sheet.target, sheet.predictors, SETTINGS);
+    reserveMatrix(first.matrix.data.length);
+    await wait();
+    const second = buildDataset(sheet.target, sheet.predictors, SETTINGS);
+    const third = buildDataset(sheet.target, sheet.predictors, SETTINGS);
+    expect(summary(second)).toEqual(before);
+    expect(summary(third)).toEqual(before);
+    // Each dataset owns its matrix: the reserved one went to one reading only.
+    expect(new Set([first.matrix.data.buffer, second.matrix.data.buffer, third.matrix.data.buffer]).size).toBe(3);
+    // A reserved buffer of another size is left alone.
+    reserveMatrix(first.matrix.data.length + 6);
+    await wait();
+    expect(summary(buildDataset(sheet.target, sheet.predictors, SETTINGS))).toEqual(before);
+  });
+
+  test("a grid that is not all plain numbers, read after a reservation, is read as before (and as the cell-by-cell reading)", async () => {
+    const sheet = numberSheet(12, 11000, 6);
+    const predictors = sheet.predictors.map((r) => r.slice());
+    predictors[9000][2] = "";
+    predictors[10500][4] = "7.5";
+    const expected = reading(wrapped(sheet.target), wrapped(predictors), SETTINGS);
+    reserveMatrix(11000 * 6);
+    await wait();
+    expect(reading(sheet.target, predictors, SETTINGS)).toEqual(expected);
+    // The buffer given back after the plain reading stopped serves the next plain grid, cleanly.
+    expect(reading(sheet.target, sheet.predictors, SETTINGS)).toEqual(reading(wrapped(sheet.target), wrapped(sheet.predictors), SETTINGS));
   });
 });

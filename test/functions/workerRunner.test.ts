@@ -10,7 +10,7 @@
 import { CancelledError, InputError } from "../../engine/errors";
 import { fit, FitResult } from "../../engine/fit";
 import { mulberry32 } from "../../engine/random";
-import { createFitHandler, FitFunction, FromWorker, ToWorker, toPlainError, fromPlainError, packResult, unpackResult } from "../../functions/fit.worker";
+import { createFitHandler, FitFunction, fitInSlices, FromWorker, ToWorker, toPlainError, fromPlainError, packResult, unpackResult } from "../../functions/fit.worker";
 import { cancelSource, FitProgress, FitRequest } from "../../functions/runner";
 import { InProcessRunner } from "../../functions/inProcessRunner";
 import { WorkerLike, WorkerRunner } from "../../functions/workerRunner";
@@ -313,4 +313,44 @@ describe("the worker bootstrap", () => {
     });
     expect(scope.onmessage).toBeUndefined();
   });
+});
+
+test("the worker's fit in slices equals the engine's fit bit for bit, and a cancel stops it between units", async () => {
+  const request: FitRequest = { ...data(8, 300, 12), options: { mixes: [0, 0.5, 1], folds: 5, seed: 4 } };
+  const direct = fit(request.predictors, request.target, request.options);
+  for (const slice of [0, 10, 1e9]) {
+    await expect(fitInSlices(slice)(request.predictors, request.target, { ...request.options })).resolves.toStrictEqual(direct);
+  }
+  // Yielding after every unit (slice 0), a cancel raised in the second unit's progress stops the fit.
+  const signal = { aborted: false };
+  let units = 0;
+  const run = fitInSlices(0)(request.predictors, request.target, {
+    ...request.options,
+    signal,
+    onProgress: () => {
+      units++;
+      if (units === 2) setImmediate(() => (signal.aborted = true));
+    },
+  });
+  await expect(run).rejects.toBeInstanceOf(CancelledError);
+  expect(units).toBeLessThan(18);
+});
+
+test("a warm-up started before the first fit changes nothing: the fit stops it and answers the same result", async () => {
+  const workers: FakeWorker[] = [];
+  const runner = new WorkerRunner(() => {
+    const w = new FakeWorker();
+    workers.push(w);
+    return w;
+  });
+  runner.warmUp();
+  runner.warmUp(); // the worker exists: nothing more
+  const request: FitRequest = { ...data(3, 80, 4), options: { mixes: [0, 0.5, 1], folds: 5, seed: 9 } };
+  const viaWorker = await runner.fit(request);
+  expect(viaWorker).toStrictEqual(fit(request.predictors, request.target, request.options));
+  expect(workers.length).toBe(1);
+  expect(workers[0].received.map((m) => m.type)).toEqual(["warm", "fit"]);
+  // A warm-up asked for after a fit is ignored by the worker (and not even posted by the runner).
+  runner.warmUp();
+  expect(workers[0].received.length).toBe(2);
 });
