@@ -5,13 +5,15 @@
  * process (less disturbed than wall time on a shared machine), best and median of the repeats:
  * `prepare` (worksheet values → dataset → request: functions/api.ts prepare), `key` (the cache's
  * fingerprint and lookup hash: what a miss costs when no entry has the same settings, shape and
- * target), `wire` (the copy posted to the worker, into the buffer handed back by the
- * previous fit after the first repeat), `post` (the structured clone with its transfer list, standing
+ * target), `wire` (the copy posted to the worker, into the buffer the runner reserved while the
+ * previous fit ran, after the first repeat), `post` (the structured clone with its transfer list, standing
  * in for the port), `fit` (the engine on the received request), `result` (the result's trip back:
- * functions/fit.worker.ts packResult, the structured clone with its transfer list, unpackResult;
- * the handed-back clone), `spill` (the coefficient table), and `engine` (the engine's own fit on the same data
+ * functions/fit.worker.ts packResult, the structured clone (a copy), unpackResult), `spill` (the coefficient table), and `engine` (the engine's own fit on the same data
  * and options, as `npm run bench` times it). Data and settings are the bench's cell cases'.
- * The stages run on one thread here; in the add-in `fit` runs in the worker. As there, the next
+ * The stages run on one thread here; in the add-in `fit` runs in the worker. The `post` stage's
+ * transfer detaches a buffer in this thread, which slows its later typed-array code (V8's
+ * detaching protector, functions/fit.worker.ts), `fit` and `engine` alike: compare them to each
+ * other here, and take the engine's own figure from `npm run bench`. As there, the next
  * matrix buffer is reserved (functions/dataset.ts reserveMatrix) in a task of its own once the
  * request is posted; here that task runs before `fit` and is timed by none of the stages.
  */
@@ -61,11 +63,16 @@ async function main(): Promise<void> {
     await new Promise((resolve) => setTimeout(resolve, 1));
     start = cpu();
     const result = fit(received.predictors, received.target, received.options);
-    if (!Array.isArray(received.predictors)) spare = received.predictors.data.buffer as ArrayBuffer;
     lap("fit");
-    // As the worker posts it: held-out lists packed and transferred, unpacked on the main side.
-    const wire = packResult(result);
-    const back = unpackResult(structuredClone(wire.result, { transfer: wire.transfer }));
+    // The runner's reserved buffer for the next copy (workerRunner.ts reserveSpare: touched while the fit runs, not timed).
+    if (!Array.isArray(received.predictors)) {
+      const pages = new Uint8Array(received.predictors.data.byteLength);
+      for (let k = 0; k < pages.length; k += 4096) pages[k] = 0;
+      spare = pages.buffer;
+    }
+    start = cpu();
+    // As the worker posts it: held-out lists packed (copied, not transferred), unpacked on the main side.
+    const back = unpackResult(structuredClone(packResult(result)));
     lap("result");
     coefficientSpill(back, prepared.dataset);
     lap("spill");

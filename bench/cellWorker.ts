@@ -7,6 +7,6 @@ import { createFitHandler, ToWorker } from "../functions/fit.worker";
 
 if (parentPort) {
   const port = parentPort;
-  const handle = createFitHandler((message, transfer) => port.postMessage(message, transfer ?? []));
+  const handle = createFitHandler((message) => port.postMessage(message));
   port.on("message", (message: ToWorker) => handle(message));
 }

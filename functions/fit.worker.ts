@@ -12,12 +12,16 @@
  *                                            so the engine is compiled before the first real fit;
  *                                            ignored once any fit came, stopped when one comes
  *   out: { type: "progress", id, done, total }  after each unit of work
- *        { type: "result", id, result, spare? }  the engine's FitResult, structured-cloned (its
+ *        { type: "result", id, result }         the engine's FitResult, structured-cloned (its
  *                                            held-out lists packed: packResult / unpackResult)
- *        { type: "error", id, error, spare? }    a PlainError (see below)
- * A packed request (runner.ts PackedFitRequest) arrives with its matrix's buffer transferred, and
- * its answer hands that buffer back as `spare` (transferred again, so no copy either way): the main
- * side writes the next request's copy into it instead of into fresh memory (workerRunner.ts).
+ *        { type: "error", id, error }           a PlainError (see below)
+ * A packed request (runner.ts PackedFitRequest) arrives with its matrix's buffer transferred.
+ * Nothing goes back transferred: transferring detaches the sender's ArrayBuffer, and the first
+ * detach in a V8 isolate invalidates that isolate's "array buffer detaching" protector, after which
+ * optimized code checks every typed-array access for a detached buffer and the engine ran ~25%
+ * slower in that thread for good (measured on the task workers: engine/parallel.ts, bench/PROFILE.md).
+ * This worker runs the engine, so its answers are copied (the packed held-out lists: ~1 MB on
+ * 50,000 rows, a memcpy); the main side, which runs no engine code, may transfer into it.
  * Every fit gets exactly one "result" or "error". Several fits may run at once: a fit yields a
  * macrotask once its current slice of work has run SLICE_MS (fitInSlices), so they interleave and
  * cancel messages get through.
@@ -56,8 +60,8 @@ export type { SumsFitFunction };
 
 export type FromWorker =
   | { type: "progress"; id: number; done: number; total: number }
-  | { type: "result"; id: number; result: WireFitResult; spare?: ArrayBuffer }
-  | { type: "error"; id: number; error: PlainError; spare?: ArrayBuffer };
+  | { type: "result"; id: number; result: WireFitResult }
+  | { type: "error"; id: number; error: PlainError };
 
 /** The fit a worker runs (defined beside the pool, which provides one; see taskPool.ts). */
 import type { FitFunction } from "./taskPool";
@@ -65,11 +69,12 @@ export type { FitFunction };
 
 /**
  * FitResult.heldOut's three lists (one entry per held-out row) as typed arrays for the trip to
- * the main side, their buffers transferred: the structured clone of three arrays of 50,000 numbers
- * took 17–19 ms each way and back (v8 serialize + deserialize, measured), about 10% of the
- * 50,000 × 40 recalculation; the typed arrays move without a copy. Every value is kept exactly
- * (row and fold are whole numbers below 2³¹, the residuals doubles). `unpackResult` rebuilds the
- * plain lists, so callers see the same FitResult as from the in-process runner.
+ * the main side: the structured clone of three plain arrays of 50,000 numbers took 17–19 ms each
+ * way and back (v8 serialize + deserialize, measured), about 10% of the 50,000 × 40
+ * recalculation; typed arrays are cloned as one block copy each (copied, not transferred: see the
+ * module comment). Every value is kept exactly (row and fold are whole numbers below 2³¹, the
+ * residuals doubles). `unpackResult` rebuilds the plain lists, so callers see the same FitResult
+ * as from the in-process runner.
  */
 export interface PackedHeldOut {
   packed: true;
@@ -81,12 +86,12 @@ export interface PackedHeldOut {
 /** A FitResult as it crosses the worker boundary (heldOut possibly packed). */
 export type WireFitResult = Omit<FitResult, "heldOut"> & { heldOut?: FitResult["heldOut"] | PackedHeldOut };
 
-/** The result to post and the buffers to transfer with it (the result itself is not changed). */
-export function packResult(result: FitResult): { result: WireFitResult; transfer: ArrayBuffer[] } {
+/** The result to post (the result itself is not changed). */
+export function packResult(result: FitResult): WireFitResult {
   const held = result.heldOut;
-  if (!held || !Array.isArray(held.row)) return { result, transfer: [] };
+  if (!held || !Array.isArray(held.row)) return result;
   const packed: PackedHeldOut = { packed: true, row: Int32Array.from(held.row), fold: Int32Array.from(held.fold), residual: Float64Array.from(held.residual) };
-  return { result: { ...result, heldOut: packed }, transfer: [packed.row.buffer, packed.fold.buffer, packed.residual.buffer] as ArrayBuffer[] };
+  return { ...result, heldOut: packed };
 }
 
 /** The FitResult a packed one stands for (plain lists again); anything else as it came. */
@@ -168,23 +173,13 @@ export function fromPlainError(plain: PlainError): Error {
   return error;
 }
 
-/** The buffer of a packed request's matrix, once the fit is done with it (null for rows, or when it is no longer whole). */
-function spareOf(request: AnyFitRequest): ArrayBuffer | null {
-  const predictors = request.predictors;
-  if (Array.isArray(predictors)) return null;
-  const buffer = predictors.data.buffer;
-  // By tag, not instanceof: the buffer may come from another realm (a test harness's clone).
-  const whole = Object.prototype.toString.call(buffer) === "[object ArrayBuffer]" && buffer.byteLength > 0 && buffer.byteLength === predictors.data.byteLength;
-  return whole ? (buffer as ArrayBuffer) : null;
-}
-
 /**
- * The worker's message handler. `post` sends a message back (with the buffers to transfer);
+ * The worker's message handler. `post` sends a message back (copied, never transferred);
  * `fitImpl` runs a fit (fitInSlices by default) and `fitSumsImpl` a fit from sums (the engine's
  * fitFromSumsAsync); both replaceable in tests.
  */
 export function createFitHandler(
-  post: (message: FromWorker, transfer?: ArrayBuffer[]) => void,
+  post: (message: FromWorker) => void,
   fitImpl: FitFunction = fitInSlices(),
   fitSumsImpl: SumsFitFunction = fitFromSumsAsync,
 ): (message: ToWorker) => void {
@@ -251,22 +246,14 @@ export function createFitHandler(
     } catch (error) {
       run = Promise.reject(error);
     }
-    // The engine keeps no reference to its input in a result or after it settles, so a packed
-    // request's buffer can go back with the answer.
     run.then(
       (result) => {
         signals.delete(id);
-        const spare = spareOf(request);
-        const wire = packResult(result);
-        if (spare) post({ type: "result", id, result: wire.result, spare }, [spare, ...wire.transfer]);
-        else if (wire.transfer.length > 0) post({ type: "result", id, result: wire.result }, wire.transfer);
-        else post({ type: "result", id, result: wire.result });
+        post({ type: "result", id, result: packResult(result) });
       },
       (error: unknown) => {
         signals.delete(id);
-        const spare = spareOf(request);
-        if (spare) post({ type: "error", id, error: toPlainError(error), spare }, [spare]);
-        else post({ type: "error", id, error: toPlainError(error) });
+        post({ type: "error", id, error: toPlainError(error) });
       },
     );
   };
@@ -286,6 +273,6 @@ if (typeof scope.WorkerGlobalScope === "function" && scope instanceof scope.Work
   // Without a pool (a host with 2 cores or fewer, or no nested workers) a fit runs here in slices.
   const pool = browserTaskPool();
   const pooled = pooledFit(pool);
-  const handle = createFitHandler((message, transfer) => scope.postMessage(message, transfer ?? []), pool ? pooled : fitInSlices(), pooled.sums);
+  const handle = createFitHandler((message) => scope.postMessage(message), pool ? pooled : fitInSlices(), pooled.sums);
   scope.onmessage = (event) => handle(event.data);
 }

@@ -42,6 +42,8 @@ export interface WorkerRunnerOptions {
   cancelGraceMs?: number;
   /** Where fits go if the worker fails before its first answer. Default: in-process. */
   fallback?: FitRunner;
+  /** Smallest request matrix, in bytes, for which a buffer is reserved for the next copy. Default 512 KB. */
+  spareMinBytes?: number;
 }
 
 export const DEFAULT_CANCEL_GRACE_MS = 2000;
@@ -72,6 +74,7 @@ export interface WorkerRunnerStats {
 export class WorkerRunner implements FitRunner {
   readonly cancelGraceMs: number;
   private readonly fallback: FitRunner;
+  private readonly spareMinBytes: number;
   private worker: WorkerLike | null = null;
   private answered = false;
   private failedOver = false;
@@ -80,8 +83,12 @@ export class WorkerRunner implements FitRunner {
   /** Cancelled fits still running in the current worker → their backstop timers. */
   private readonly stopping = new Map<number, ReturnType<typeof setTimeout>>();
   private counters = { started: 0, replaced: 0, posted: 0 };
-  /** A packed request's buffer handed back by the worker, reused for the next copy of the same size. */
+  /**
+   * A buffer for the next packed request's copy (its pages touched while the last fit ran, see
+   * reserveSpare), or null. The worker hands nothing back: see fit.worker.ts on transfers.
+   */
   private spare: ArrayBuffer | null = null;
+  private spareTimer: ReturnType<typeof setTimeout> | null = null;
 
   constructor(
     private readonly createWorker: () => WorkerLike,
@@ -89,6 +96,7 @@ export class WorkerRunner implements FitRunner {
   ) {
     this.cancelGraceMs = options.cancelGraceMs ?? DEFAULT_CANCEL_GRACE_MS;
     this.fallback = options.fallback ?? new InProcessRunner();
+    this.spareMinBytes = options.spareMinBytes ?? SPARE_MIN_BYTES;
   }
 
   fit(request: AnyFitRequest, cancel?: CancelToken, onProgress?: (progress: FitProgress) => void): Promise<FitResult> {
@@ -130,11 +138,32 @@ export class WorkerRunner implements FitRunner {
     for (const job of this.jobs.values()) job.reject(new CancelledError());
     this.jobs.clear();
     this.spare = null;
+    if (this.spareTimer !== null) clearTimeout(this.spareTimer);
+    this.spareTimer = null;
     this.stopWorker();
   }
 
   stats(): WorkerRunnerStats {
     return { ...this.counters, usingFallback: this.failedOver };
+  }
+
+  /**
+   * Reserves a buffer of `bytes` for the next packed request's copy, in a task of its own (so
+   * while the fit just posted runs): fresh memory is slow to write the first time (a new 16 MB
+   * copy cost 5–10 ms of page faults, bench/PROFILE.md), so every page is touched now, while the
+   * add-in's thread waits anyway. Nothing for small matrices or when one of that size is held.
+   */
+  private reserveSpare(bytes: number): void {
+    if (bytes < this.spareMinBytes || (this.spare !== null && this.spare.byteLength === bytes) || this.spareTimer !== null) return;
+    this.spareTimer = setTimeout(() => {
+      this.spareTimer = null;
+      if (this.spare !== null && this.spare.byteLength === bytes) return;
+      const buffer = new ArrayBuffer(bytes);
+      const pages = new Uint8Array(buffer);
+      // One write per 4 KB page makes the system map it now; the bytes stay 0.
+      for (let k = 0; k < bytes; k += 4096) pages[k] = 0;
+      this.spare = buffer;
+    }, 0);
   }
 
   private ensureWorker(): WorkerLike {
@@ -168,7 +197,10 @@ export class WorkerRunner implements FitRunner {
       }
       const { request, transfer, reusedSpare } = wireRequest(job.work.request, this.spare);
       if (reusedSpare) this.spare = null;
+      // Its size read before the post detaches it.
+      const bytes = transfer.length > 0 ? transfer[0].byteLength : 0;
       this.ensureWorker().postMessage({ type: "fit", id: job.id, request }, transfer);
+      if (bytes > 0) this.reserveSpare(bytes);
     } catch (error) {
       // `new Worker` can throw (a security policy, a bad URL): the same as a worker failing.
       this.workerFailed(error);
@@ -183,7 +215,6 @@ export class WorkerRunner implements FitRunner {
       return;
     }
     // A result or an error ends the fit in the worker.
-    if (message.spare) this.spare = message.spare;
     const timer = this.stopping.get(message.id);
     if (timer !== undefined) {
       clearTimeout(timer);
@@ -244,12 +275,16 @@ export class WorkerRunner implements FitRunner {
   }
 }
 
+/** Request matrices smaller than this (512 KB) get no reserved buffer: their pages cost microseconds. */
+const SPARE_MIN_BYTES = 1 << 19;
+
 /**
  * A request as it is posted. A packed request's matrix goes as a copy whose buffer is transferred,
  * so the one block copy made here is the only one: a structured clone would copy it twice (into the
- * message, then out of it in the worker). The copy is written into `spare` (a buffer the worker
- * handed back, fit.worker.ts) when it is the right size, so a recalculation of a same-sized grid
- * needs no fresh memory for it. The request itself stays intact: the cache keeps its matrix as
+ * message, then out of it in the worker). The copy is written into `spare` (a buffer the runner
+ * reserved and touched while the previous fit ran) when it is the right size, so a recalculation
+ * of a same-sized grid does not pay for fresh memory's page faults. Transferring detaches the
+ * buffer on this side; this thread runs no engine code while a worker is in use (fit.worker.ts). The request itself stays intact: the cache keeps its matrix as
  * the key, and a fit is posted again, unchanged, when its worker is replaced. The rows form (small
  * grids, and callers that build requests by hand) is cloned as before.
  */

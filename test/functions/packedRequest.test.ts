@@ -146,15 +146,18 @@ describe("the packed wire form", () => {
   });
 });
 
-describe("the packed request's buffer goes back to the main side", () => {
+describe("the packed request's copy: nothing comes back transferred, the next copy goes into a reserved buffer", () => {
   /** A worker on this thread: messages cross by structured clone with their transfer lists, as on a real port. */
   class CloningWorker implements WorkerLike {
     onmessage: ((event: { data: FromWorker }) => void) | null = null;
     onerror: ((event: unknown) => void) | null = null;
-    /** What each fit message carried, read when it arrived (the buffer is handed back later). */
+    /** What each fit message carried, read when it arrived. */
     readonly receivedData: number[][] = [];
-    readonly handle = createFitHandler((message, transfer) => {
-      const copy = structuredClone(message, { transfer: transfer ?? [] });
+    /** The transfer list of every message the worker posted (it must post none: fit.worker.ts). */
+    readonly answerTransfers: unknown[] = [];
+    readonly handle = createFitHandler((...args: unknown[]) => {
+      this.answerTransfers.push(args[1]);
+      const copy = structuredClone(args[0]) as FromWorker;
       setImmediate(() => this.onmessage?.({ data: copy }));
     });
     postMessage(message: ToWorker, transfer?: ArrayBuffer[]): void {
@@ -164,36 +167,56 @@ describe("the packed request's buffer goes back to the main side", () => {
     }
     terminate(): void {}
   }
+  const settle = (): Promise<void> => new Promise((resolve) => setTimeout(resolve, 5));
 
-  test("the worker hands the buffer back with its answer, and the next same-sized request is copied into it", async () => {
+  test("the worker transfers nothing back; the runner reserves a buffer while a fit runs and copies the next same-sized request into it", async () => {
     const worker = new CloningWorker();
-    const runner = new WorkerRunner(() => worker);
+    const runner = new WorkerRunner(() => worker, { spareMinBytes: 0 });
     const options = { mixes: [1], folds: 3, seed: 1, strengthCount: 8 };
     const first = { ...packed(rowsRequest(6, 40, 3)), options };
     const second = { ...packed(rowsRequest(7, 40, 3)), options };
     const spareOf = (): ArrayBuffer | null => (runner as unknown as { spare: ArrayBuffer | null }).spare;
     expect(spareOf()).toBeNull();
     const a = await runner.fit(first);
-    // The first answer brought the buffer back.
-    expect(spareOf()?.byteLength).toBe(960);
+    await settle();
+    // A buffer of the request's size was reserved while the first fit ran (nothing came back).
+    const reserved = spareOf();
+    expect(reserved?.byteLength).toBe(960);
     const pending = runner.fit(second);
-    // Posting the second request used it up (the copy went into it, and it went out again)...
+    // Posting the second request used it up (the copy went into it and went out)...
     expect(spareOf()).toBeNull();
+    expect(reserved?.byteLength).toBe(0);
     const b = await pending;
-    // ...and the second answer brought it back once more.
+    await settle();
+    // ...and another was reserved for the next one.
     expect(spareOf()?.byteLength).toBe(960);
+    expect(spareOf()).not.toBe(reserved);
     expect(a).toStrictEqual(fit(first.predictors, first.target, options));
     expect(b).toStrictEqual(fit(second.predictors, second.target, options));
     expect(worker.receivedData).toEqual([Array.from(first.predictors.data), Array.from(second.predictors.data)]);
+    // The worker passed no transfer list with any answer (a detach would slow its engine for good).
+    expect(worker.answerTransfers.length).toBeGreaterThan(0);
+    expect(worker.answerTransfers.every((t) => t === undefined)).toBe(true);
     // The requests themselves are untouched (the cache keeps them as keys).
     expect(first.predictors.data.length).toBe(120);
     expect(second.predictors.data.length).toBe(120);
+    runner.dispose();
+  });
+
+  test("small requests get no reserved buffer by default", async () => {
+    const worker = new CloningWorker();
+    const runner = new WorkerRunner(() => worker);
+    const options = { mixes: [1], folds: 3, seed: 1, strengthCount: 8 };
+    await runner.fit({ ...packed(rowsRequest(6, 40, 3)), options });
+    await settle();
+    expect((runner as unknown as { spare: ArrayBuffer | null }).spare).toBeNull();
+    runner.dispose();
   });
 
   test("rows requests get no spare; a spare of another size is not used", () => {
-    const handlerPosts: { message: FromWorker; transfer?: ArrayBuffer[] }[] = [];
+    const handlerPosts: { message: FromWorker; transfer?: unknown }[] = [];
     const handle = createFitHandler(
-      (message, transfer) => handlerPosts.push({ message, transfer }),
+      (...args: unknown[]) => handlerPosts.push({ message: args[0] as FromWorker, transfer: args[1] }),
       () => Promise.resolve({} as FitResult),
     );
     handle({ type: "fit", id: 1, request: rowsRequest(8) });
