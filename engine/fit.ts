@@ -942,6 +942,98 @@ export function problemsFromBlockSums(
   return { full, fold: (f) => folds[f], heldOutSums: plan.validateBlock.map((b) => sums[b]), shiftX, shiftY };
 }
 
+/**
+ * Least work (rows × (columns + 2)², the pass's products) for a pooled fit to share its pass of
+ * block sums (pooledProblems). Below it the pass takes a few ms at most and the round trip and
+ * the copy into shared memory would eat the saving. Decides the cost only, never the result.
+ */
+const POOLED_SUMS_WORK = 1 << 22;
+
+/**
+ * What a "block-sums" task reads (FitTaskInput.rows): `values` (shared memory, TaskPool.sharedValues)
+ * holds the predictors column by column as the fit's passes read them (n × p), then the target
+ * (n), then the weights (n) if any.
+ */
+interface RowsForSums {
+  values: Float64Array;
+  rows: number;
+  columns: number;
+  weighted: boolean;
+  factors: Float64Array | null;
+  blocks: Int32Array[];
+  shiftX: Float64Array;
+  shiftY: number;
+}
+
+/**
+ * buildProblems for a fit on `pool`: a gram-form fit's one pass of block sums (problem.ts
+ * blockSumsOf) is shared between this thread and the workers. The rows are copied once into memory
+ * the workers share (TaskPool.sharedValues; no copy per worker), each worker sums a run of the
+ * blocks ("block-sums" tasks) while this thread sums the first run, and the problems are then
+ * built from the sums as buildProblems builds them. blockSumsOf sums each block on its own (its
+ * rows in row order, in windows fixed by the data's shape), so a block's sums are the same
+ * whichever call over whichever blocks forms them: the same numbers, added in the same block order
+ * (problemsFromBlockSums), as the sequential fit's one call (a test checks it). Other fits, pools
+ * without shared memory and passes too small to pay build their problems as buildProblems does.
+ */
+function* pooledProblems(data: Prepared, plan: FoldPlan | null, pool: TaskPool | null): Generator<TaskBatch, Problems, void> {
+  const { x, factors } = readX(data);
+  const n = x.rows;
+  const p = x.columns;
+  const K = plan ? plan.blocks.length : 0;
+  // This thread and size − 1 workers (at least one): as many threads as the pool has workers,
+  // which is as many as there are cores to run them.
+  const groups = pool ? Math.min(Math.max(2, pool.size), K) : 0;
+  const work = n * (p + 2) * (p + 2);
+  if (!plan || !pool?.sharedValues || !data.gram || data.outcome === "two-class" || groups < 2 || work < POOLED_SUMS_WORK) return buildProblems(data, plan);
+  const weights = data.weights;
+  const values = pool.sharedValues(n * (p + (weights ? 2 : 1)));
+  if (!values) return buildProblems(data, plan);
+  const signal = data.settings.signal;
+  const { shiftX, shiftY } = fullShift(data);
+  values.set(x.data.subarray(0, n * p));
+  values.set(data.y, n * p);
+  if (weights) values.set(weights, n * (p + 1));
+  const start = (g: number): number => Math.floor((g * K) / groups);
+  const tasks: FitTask[] = [];
+  for (let g = 1; g < groups; g++) tasks.push({ kind: "block-sums", from: start(g), to: start(g + 1) });
+  const rows: RowsForSums = { values, rows: n, columns: p, weighted: weights !== null, factors, blocks: plan.blocks.map((b) => Int32Array.from(b)), shiftX, shiftY };
+  const sums: BlockSums[] = new Array(K);
+  const none = new Float64Array(0);
+  const sumBlocks = (from: number, to: number): void => {
+    blockSumsOf(x, data.y, weights, plan.blocks.slice(from, to), shiftX, shiftY, signal, factors).forEach((block, k) => (sums[from + k] = block));
+  };
+  yield {
+    tasks,
+    context: null,
+    input: { predictors: { rows: 0, columns: 0, data: none }, target: none, options: {}, rows },
+    consume: (i, result) => {
+      if (result.kind !== "block-sums") throw new Error("fit: a block-sums task returned another kind of result");
+      const from = (tasks[i] as Extract<FitTask, { kind: "block-sums" }>).from;
+      result.sums.forEach((block, k) => (sums[from + k] = block));
+    },
+    finished: () => undefined,
+    // While the workers sum theirs, this thread sums the first run of blocks.
+    alongside: () => sumBlocks(0, start(1)),
+    // (Not reached: a fit run in this thread builds its problems with buildProblems.)
+    inline: function* () {
+      sumBlocks(0, K);
+      yield;
+    },
+  };
+  const columnUnits = Float64Array.from(data.xExponent, (e) => powerOfTwo(e));
+  return problemsFromBlockSums(sums, plan, shiftX, shiftY, { intercept: data.intercept, standardize: data.standardize, columnUnits });
+}
+
+/** A "block-sums" task (see pooledProblems): its blocks' sums from the shared rows. */
+function blockSumsTask(rows: RowsForSums, task: Extract<FitTask, { kind: "block-sums" }>): FitTaskResult {
+  const { values, rows: n, columns: p } = rows;
+  const x: ColumnMatrix = { rows: n, columns: p, data: values.subarray(0, n * p) };
+  const y = values.subarray(n * p, n * (p + 1));
+  const weights = rows.weighted ? values.subarray(n * (p + 1), n * (p + 2)) : null;
+  return { kind: "block-sums", sums: blockSumsOf(x, y, weights, rows.blocks.slice(task.from, task.to), rows.shiftX, rows.shiftY, undefined, rows.factors) };
+}
+
 function noFolds(): TrainingProblem {
   throw new Error("a fit at a fixed strength has no folds");
 }
@@ -1388,7 +1480,7 @@ export async function fitAsync(
   options: FitOptions = {},
   run: RunOptions = {},
 ): Promise<FitResult> {
-  return runPlanAsync(fitPlan(predictors, target, options), options, run.pool ?? null);
+  return runPlanAsync(fitPlan(predictors, target, options, run.pool ?? null), options, run.pool ?? null);
 }
 
 /**
@@ -1415,7 +1507,24 @@ export async function runPlanAsync(plan: FitPlan, options: FitOptions, pool: Tas
         continue;
       }
       throwIfCancelled(options.signal);
-      session ??= pool.open(taskInput(batch.context, options));
+      if (batch.input) {
+        // A batch with its own input (pooledProblems' rows) runs in a session of its own, and
+        // this thread does its share of the work (`alongside`) while the workers do theirs.
+        session?.close();
+        session = pool.open(batch.input);
+        const running = session.run(batch.tasks, batch.consume, batch.finished, options.signal);
+        try {
+          batch.alongside?.();
+        } catch (error) {
+          running.catch(() => undefined);
+          throw error;
+        }
+        await running;
+        session.close();
+        session = null;
+        continue;
+      }
+      session ??= pool.open(taskInput(batch.context as TaskContext, options));
       await session.run(batch.tasks, batch.consume, batch.finished, options.signal);
     }
   } finally {
@@ -1468,7 +1577,7 @@ export function* runPlan(plan: FitPlan, options: FitOptions): Generator<void, Fi
     // The sequential run: the batch's tasks one after another, on the fit's own context.
     for (let i = 0; i < batch.tasks.length; i++) {
       throwIfCancelled(options.signal);
-      batch.consume(i, runFitTask(batch.context, batch.tasks[i]));
+      batch.consume(i, runFitTask(batch.context as TaskContext, batch.tasks[i]));
       batch.finished(i);
       yield;
     }
@@ -1488,7 +1597,12 @@ export interface RunOptions {
  */
 interface TaskBatch {
   tasks: FitTask[];
-  context: TaskContext;
+  /** Null for a batch with its own `input` (its sequential run is `inline`). */
+  context: TaskContext | null;
+  /** What the pool's workers are sent for this batch instead of the fit's input (pooledProblems). */
+  input?: FitTaskInput;
+  /** With `input`: this thread's share of the work, run while the workers run the tasks. */
+  alongside?: () => void;
   consume: (index: number, result: FitTaskResult) => void;
   finished: (index: number) => void;
   /**
@@ -1520,6 +1634,9 @@ export interface TaskContext {
   honest?: HonestPlan;
 }
 
+/** What a pool worker holds for a session: a fit's task context, or the rows its block sums read (pooledProblems). */
+export type WorkerContext = TaskContext | { rows: RowsForSums };
+
 /** The checked options and everything built before the first path is solved. */
 export interface SetUp {
   data: Prepared;
@@ -1533,6 +1650,13 @@ export interface SetUp {
 }
 
 function setUp(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target: ArrayLike<number>, options: FitOptions): SetUp {
+  const step = setUpSteps(predictors, target, options, null).next();
+  if (!step.done) throw new Error("setUp: a set-up without a pool yields no tasks");
+  return step.value;
+}
+
+/** setUp; on a pool the pass of block sums may be shared with the workers (pooledProblems). */
+function* setUpSteps(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target: ArrayLike<number>, options: FitOptions, pool: TaskPool | null): Generator<TaskBatch, SetUp, void> {
   const outcome = options.outcome ?? "number";
   if (outcome !== "number" && outcome !== "two-class") {
     throw new InputError("setting", `the outcome must be number or two-class; got ${String(outcome)}`);
@@ -1570,7 +1694,7 @@ function setUp(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target: 
     );
   }
   throwIfCancelled(data.settings.signal);
-  const problems = buildProblems(data, plan);
+  const problems = pool ? yield* pooledProblems(data, plan, pool) : buildProblems(data, plan);
   const full = problems.full;
   const constantColumns: string[] = [];
   for (let j = 0; j < full.p; j++) if (full.std.frozen[j]) constantColumns.push(data.names[j]);
@@ -1591,7 +1715,8 @@ function setUp(predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix, target: 
  * the inputs it was sent (the checked data and the options without callbacks), the same
  * arithmetic as the fit's own, so every task computes the same numbers in either place.
  */
-export function openTaskContext(input: FitTaskInput): TaskContext {
+export function openTaskContext(input: FitTaskInput): WorkerContext {
+  if (input.rows) return { rows: input.rows as RowsForSums };
   if (input.snapshot) return contextFromSnapshot(input.snapshot as TaskSnapshot);
   const options = input.options as FitOptions;
   const s = setUp(input.predictors, input.target, options);
@@ -1677,8 +1802,9 @@ function* fitPlan(
   predictors: ArrayLike<ArrayLike<number>> | ColumnMatrix,
   target: ArrayLike<number>,
   options: FitOptions,
+  pool: TaskPool | null = null,
 ): FitPlan {
-  return yield* planFromSetUp(setUp(predictors, target, options), options);
+  return yield* planFromSetUp(yield* setUpSteps(predictors, target, options, pool), options);
 }
 
 /**
@@ -1927,7 +2053,12 @@ export function* planFromSetUp(s: SetUp, options: FitOptions): FitPlan {
 }
 
 /** Runs one task of a fit on `context` (parallel.ts): a pure function of the two. An InputError becomes a "failed" result. */
-export function runFitTask(context: TaskContext, task: FitTask): FitTaskResult {
+export function runFitTask(context: WorkerContext, task: FitTask): FitTaskResult {
+  if ("rows" in context) {
+    if (task.kind !== "block-sums") throw new Error("runFitTask: a session of rows runs block-sums tasks only");
+    return blockSumsTask(context.rows, task);
+  }
+  if (task.kind === "block-sums") throw new Error("runFitTask: a block-sums task needs a session of rows");
   try {
     if (task.kind === "path") return context.data.outcome === "two-class" ? twoClassPathTask(context, task.mix) : pathTask(context, task.mix);
     if (task.kind === "fold") return context.data.outcome === "two-class" ? twoClassFoldTask(context, task) : foldTask(context, task);

@@ -28,7 +28,7 @@ import type { HonestFold } from "./assurance";
 import type { ColumnMatrix } from "./matrix";
 import type { LogisticRun } from "./logistic";
 import type { PathRun } from "./path";
-import type { Standardization } from "./problem";
+import type { BlockSums, Standardization } from "./problem";
 
 /** One piece of a cross-validated fit (see the module comment). `mix` indexes the fit's mixes. */
 export type FitTask =
@@ -43,7 +43,13 @@ export type FitTask =
   /** An exact-ridge fold of the first deal (kernel form, which keeps no path): its coefficients at one strength. */
   | { kind: "fold-point"; mix: number; fold: number; strength: number }
   /** Outer fold `outer` of the honest error (honest.ts): the whole procedure on its training rows, scored on its held-out rows. */
-  | { kind: "honest"; outer: number };
+  | { kind: "honest"; outer: number }
+  /**
+   * The sums of the fit's row blocks `from` … `to` − 1 (problem.ts blockSumsOf), for a session
+   * opened with `FitTaskInput.rows`: part of the one pass over the data a gram-form fit starts
+   * with, the rest summed meanwhile by the coordinator (fit.ts pooledProblems).
+   */
+  | { kind: "block-sums"; from: number; to: number };
 
 export type FitTaskResult =
   /** The task found the input can't be fitted: the fit throws this InputError (in task order). */
@@ -65,7 +71,8 @@ export type FitTaskResult =
       signs: Int8Array | null;
     }
   | { kind: "fold-point"; coefficients: Float64Array }
-  | { kind: "honest"; fold: HonestFold };
+  | { kind: "honest"; fold: HonestFold }
+  | { kind: "block-sums"; sums: BlockSums[] };
 
 /** What every worker receives once per fit: the inputs (data units) and the options without callbacks. */
 export interface FitTaskInput {
@@ -78,6 +85,12 @@ export interface FitTaskInput {
    * pass over the data. Opaque here; predictors and target are empty then.
    */
   snapshot?: unknown;
+  /**
+   * Instead of a fit to run, the rows "block-sums" tasks read, in memory shared with the
+   * coordinator (TaskPool.sharedValues; fit.ts decides what they hold); opaque here. The fit's own
+   * tasks run in a later session, opened with the fit's input.
+   */
+  rows?: unknown;
 }
 
 /** A fit's use of a pool: open once, run batches of tasks, close. */
@@ -101,6 +114,14 @@ export interface TaskPool {
   open(input: FitTaskInput): TaskSession;
   /** Stops every worker. */
   dispose(): void;
+  /**
+   * Optional: `length` doubles in memory the workers share with this thread (a view of a
+   * SharedArrayBuffer; a message carrying it copies nothing), reused from fit to fit: what is
+   * written there before a task is posted is what the task reads. Absent, or null, where workers
+   * can't share memory (the add-in's Web Workers without cross-origin isolation): fits then do
+   * their set-up in this thread.
+   */
+  sharedValues?(length: number): Float64Array | null;
 }
 
 /** Messages to a task worker. */
@@ -237,6 +258,7 @@ const QUEUE_DEPTH = 2;
  */
 export function taskAffinity(task: FitTask): number | null {
   if (task.kind === "path") return -1;
+  if (task.kind === "block-sums") return null;
   if (task.kind === "fold") return task.deal * 65536 + task.fold;
   if (task.kind === "fold-point") return task.fold;
   return null;
@@ -275,12 +297,27 @@ export class WorkerPool implements TaskPool {
   private input: FitTaskInput | null = null;
   private running: Running | null = null;
   private answered = false;
+  /** The shared values (sharedValues), kept for the next fit. */
+  private shared: Float64Array | null = null;
 
+  /** `sharedMemory`: the workers can be sent SharedArrayBuffers (worker_threads; see TaskPool.sharedValues). */
   constructor(
     private readonly spawn: () => TaskEndpoint,
     readonly size: number,
+    private readonly sharedMemory = false,
   ) {
     if (!(Number.isInteger(size) && size >= 1)) throw new Error(`WorkerPool: size must be a whole number from 1; got ${size}`);
+  }
+
+  /**
+   * One buffer, grown as needed and reused: a fresh SharedArrayBuffer's pages are faulted in on
+   * first write (measured: 16 MB copied into a fresh one ~10 ms, into a reused one ~1.7 ms).
+   * A task reading it has finished before the fit goes on, and one fit runs at a time.
+   */
+  sharedValues(length: number): Float64Array | null {
+    if (!this.sharedMemory || typeof SharedArrayBuffer === "undefined") return null;
+    if (this.shared === null || this.shared.length < length) this.shared = new Float64Array(new SharedArrayBuffer(8 * length));
+    return this.shared.subarray(0, length);
   }
 
   open(input: FitTaskInput): TaskSession {
@@ -338,6 +375,7 @@ export class WorkerPool implements TaskPool {
   dispose(): void {
     if (this.running) this.fail(new CancelledError());
     this.stopWorkers();
+    this.shared = null;
   }
 
   private startWorkers(): void {

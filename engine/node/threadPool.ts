@@ -48,9 +48,13 @@ export function threadCount(threads: number | "auto"): number {
   return threads;
 }
 
-/** A pool of worker threads running fit tasks (parallel.ts). Dispose of it when done. */
+/**
+ * A pool of worker threads running fit tasks (parallel.ts). Dispose of it when done. Worker
+ * threads share memory (SharedArrayBuffer), so a gram-form fit's pass of block sums is shared
+ * between this thread and a worker (fit.ts pooledProblems).
+ */
 export function threadPool(threads: number | "auto"): TaskPool {
-  return new WorkerPool(spawnThread, threadCount(threads));
+  return new WorkerPool(spawnThread, threadCount(threads), true);
 }
 
 /**

@@ -12,6 +12,7 @@ import { fitParallel, threadPool } from "../../engine/node/threadPool";
 import { fitFromSums, fitFromSumsAsync } from "../../engine/fitSums";
 import { sumsOfRows } from "../../engine/sums";
 import type { SumsTable } from "../../engine/sumsTable";
+import { blockSumsOf } from "../../engine/problem";
 
 /** Correlated predictors, a sparse linear target with noise, and a 0/1 outcome from the same score. */
 function data(rows: number, columns: number, seed: number): { x: number[][]; y: number[]; events: number[] } {
@@ -64,14 +65,24 @@ function cloned<T>(value: T): T {
  * Workers in this thread (parallel.ts createTaskHost on fit.ts's task functions), each answering
  * after a random delay, so tasks finish in a shuffled order: the merge must not depend on it.
  */
-function shuffledPool(size: number, seed: number): TaskPool {
+function shuffledPool(size: number, seed: number, shared = false, seen: (message: ToTaskWorker | FromTaskWorker) => void = () => undefined): TaskPool {
   const uniform = mulberry32(seed);
   return new WorkerPool((): TaskEndpoint => {
     let deliver: (message: FromTaskWorker) => void = () => undefined;
     let stopped = false;
-    const host = createTaskHost((message) => setTimeout(() => !stopped && deliver(message), Math.floor(uniform() * 4)), openTaskContext, runFitTask);
+    const host = createTaskHost(
+      (message) => {
+        seen(message);
+        setTimeout(() => !stopped && deliver(message), Math.floor(uniform() * 4));
+      },
+      openTaskContext,
+      runFitTask,
+    );
     return {
-      post: (message: ToTaskWorker) => setTimeout(() => !stopped && host(cloned(message)), 0),
+      post: (message: ToTaskWorker) => {
+        seen(message);
+        setTimeout(() => !stopped && host(cloned(message)), 0);
+      },
       listen: (onMessage) => {
         deliver = (message) => onMessage(cloned(message));
       },
@@ -79,7 +90,7 @@ function shuffledPool(size: number, seed: number): TaskPool {
         stopped = true;
       },
     };
-  }, size);
+  }, size, shared);
 }
 
 const weights = (n: number): number[] => Array.from({ length: n }, (_, i) => (i % 11 === 0 ? 0 : 1 + (i % 4) / 2));
@@ -116,6 +127,86 @@ describe("a pooled fit is the sequential fit bit for bit", () => {
     pool.dispose();
     expect(difference(pooled, fit(wide.x, wide.y, options))).toBeNull();
     expect(pooled.foldModels?.length).toBe(4);
+  });
+});
+
+describe("a gram-form fit's block sums shared between the coordinator and the workers (pools with shared memory)", () => {
+  // Large enough for the pass to be shared (fit.ts POOLED_SUMS_WORK: rows × (columns + 2)² ≥ 2^22).
+  const d = data(2500, 40, 5);
+  const options = (weighted: boolean): FitOptions => ({ mixes: [0, 1], folds: 5, gridDensity: 6, ...(weighted ? { weights: weights(2500) } : {}) });
+  for (const weighted of [false, true]) {
+    test(`${weighted ? "with" : "without"} weights: each block a worker sums is blockSumsOf's over all blocks, bit for bit, and the fit is the sequential one`, async () => {
+      const sequential = fit(d.x, d.y, options(weighted));
+      for (const size of [2, 3]) {
+        const messages: (ToTaskWorker | FromTaskWorker)[] = [];
+        const pool = shuffledPool(size, size * 5, true, (message) => messages.push(message));
+        const pooled = await fitAsync(d.x, d.y, options(weighted), { pool });
+        pool.dispose();
+        expect(difference(pooled, sequential)).toBeNull();
+        const opened = messages.find((m): m is Extract<ToTaskWorker, { type: "open" }> => m.type === "open" && m.input.rows !== undefined);
+        expect(opened).toBeDefined();
+        const rows = (opened as Extract<ToTaskWorker, { type: "open" }>).input.rows as {
+          values: Float64Array;
+          rows: number;
+          columns: number;
+          weighted: boolean;
+          factors: Float64Array | null;
+          blocks: Int32Array[];
+          shiftX: Float64Array;
+          shiftY: number;
+        };
+        const { rows: n, columns: p, values } = rows;
+        expect(rows.weighted).toBe(weighted);
+        // The one call over every block, as the sequential fit makes it.
+        const all = blockSumsOf({ rows: n, columns: p, data: values.subarray(0, n * p) }, values.subarray(n * p, n * (p + 1)), weighted ? values.subarray(n * (p + 1), n * (p + 2)) : null, rows.blocks, rows.shiftX, rows.shiftY, undefined, rows.factors);
+        const tasks = messages.filter((m): m is Extract<ToTaskWorker, { type: "task" }> => m.type === "task" && m.task.kind === "block-sums");
+        // This thread sums the first run of blocks, the workers (size − 1 of them) the rest, each block once.
+        expect(tasks.map((m) => m.task)).toEqual(
+          Array.from({ length: size - 1 }, (_, g) => ({ kind: "block-sums", from: Math.floor(((g + 1) * 5) / size), to: Math.floor(((g + 2) * 5) / size) })),
+        );
+        let checked = 0;
+        for (const m of messages) {
+          if (m.type !== "result" || m.result.kind !== "block-sums") continue;
+          const task = tasks.find((t) => t.id === m.id && t.session === m.session)?.task as Extract<FitTask, { kind: "block-sums" }>;
+          expect(m.result.sums.length).toBe(task.to - task.from);
+          m.result.sums.forEach((block, k) => expect(difference(block, all[task.from + k], `block ${task.from + k}`)).toBeNull());
+          checked += m.result.sums.length;
+        }
+        expect(checked).toBe(5 - Math.floor(5 / size));
+      }
+    });
+  }
+
+  test("the check above catches a block summed differently (one last bit of one product)", () => {
+    const n = 300;
+    const p = 6;
+    const values = Float64Array.from({ length: n * p }, (_, t) => Math.sin(t) * 3);
+    const y = Float64Array.from({ length: n }, (_, i) => Math.cos(i));
+    const blocks = [0, 1, 2].map((b) => Int32Array.from({ length: 100 }, (_, i) => 3 * i + b));
+    const x = { rows: n, columns: p, data: values };
+    const all = blockSumsOf(x, y, null, blocks, new Float64Array(p), 0);
+    const part = blockSumsOf(x, y, null, blocks.slice(1), new Float64Array(p), 0);
+    expect(difference(part[0], all[1])).toBeNull();
+    part[0].xx[7] = part[0].xx[7] * (1 + Number.EPSILON);
+    expect(difference(part[0], all[1])).not.toBeNull();
+  });
+
+  test("worker threads (a SharedArrayBuffer): the fit is the sequential one on 2 threads", async () => {
+    const pool = threadPool(2);
+    try {
+      for (const weighted of [false, true]) expect(difference(await fitParallel(d.x, d.y, options(weighted), { pool }), fit(d.x, d.y, options(weighted)))).toBeNull();
+    } finally {
+      pool.dispose();
+    }
+  });
+
+  test("without shared memory the workers get no block-sums task", async () => {
+    const messages: (ToTaskWorker | FromTaskWorker)[] = [];
+    const pool = shuffledPool(2, 9, false, (message) => messages.push(message));
+    const pooled = await fitAsync(d.x, d.y, options(false), { pool });
+    pool.dispose();
+    expect(difference(pooled, fit(d.x, d.y, options(false)))).toBeNull();
+    expect(messages.some((m) => m.type === "task" && m.task.kind === "block-sums")).toBe(false);
   });
 });
 
