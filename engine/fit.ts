@@ -1872,7 +1872,8 @@ export function* planFromSetUp(s: SetUp, options: FitOptions): FitPlan {
   if (!allConverged) {
     warnings.push({ code: "not-converged", message: "some fits hit the sweep cap before converging: raise the sweep cap or loosen the tolerance; results near those strengths are approximate" });
   }
-  const result = assemble(data, full, best.run, best.top, chosen.index, best.mix, constantColumns, warnings);
+  // The in-sample score is formed in heldOutModels' pass over the rows (below).
+  const result = assemble(data, full, best.run, best.top, chosen.index, best.mix, constantColumns, warnings, true);
   result.rule = rule;
   result.strengthFraction = chosen.strengthFraction;
   result.choices = choices;
@@ -1908,7 +1909,8 @@ export function* planFromSetUp(s: SetUp, options: FitOptions): FitPlan {
       finished: () => undefined,
     };
   }
-  const kept = heldOutModels(data, activePlan, chosenFolds, chosen.index, pointAt);
+  const kept = heldOutModels(data, activePlan, chosenFolds, chosen.index, pointAt, result.model);
+  if (kept.fitted) result.fit = score(data.original.y, kept.fitted, data.original.weights);
   result.foldModels = kept.foldModels;
   result.heldOut = kept.heldOut;
   result.keptShare = chosenTally
@@ -2073,7 +2075,8 @@ function heldOutModels(
   folds: FoldPoints[],
   index: number,
   pointAt: ReadonlyMap<number, Float64Array>,
-): { foldModels: FoldModel[]; heldOut: { row: number[]; fold: number[]; residual: number[] } | null } {
+  model: LinearModel,
+): { foldModels: FoldModel[]; heldOut: { row: number[]; fold: number[]; residual: number[] } | null; fitted: Float64Array | null } {
   const foldModels: FoldModel[] = [];
   const n = data.x.rows;
   const p = data.x.columns;
@@ -2102,7 +2105,7 @@ function heldOutModels(
     offsets.set(problem.std.xOffset, f * p);
     markHeldOut(plan.blocks[plan.validateBlock[f]], data.weights, f, problem.std.yOffset, foldOf, prediction);
   }
-  if (data.totalSums) return { foldModels, heldOut: null };
+  if (data.totalSums) return { foldModels, heldOut: null, fitted: null };
   // One pass over the data, column by column in row order (each cache line read once, where a
   // pass per fold over its shuffled rows reads most lines of every column once per fold); each
   // row's prediction adds the same terms in the same order as row by row: yOffset, then
@@ -2122,17 +2125,24 @@ function heldOutModels(
   // terms[12f + 3c …]: fold f's (b, anchor, offset) for the group's column c, so one row's
   // terms sit side by side (slot K, rows no fold holds out, stays all zeros).
   const terms = new Float64Array(12 * (K + 1));
+  // The same pass forms the chosen model's in-sample predictions from the data as given (what
+  // model.ts linearScore computes: the intercept, then b_j x_ij for each nonzero b_j in column
+  // order, a left-to-right sum, so grouping columns by four changes nothing), one pass over the
+  // rows fewer. A column only the folds use adds 0·x_ij = ±0 to it, which leaves the sum the same
+  // number (only the sign of a zero sum can change, and score() treats ±0 alike); a column only
+  // the full model uses adds 0 to the held-out predictions likewise.
+  const b = model.coefficients;
+  const raw = data.original.x.data;
+  const fitted = new Float64Array(n).fill(model.intercept);
   const used: number[] = [];
   for (let j = 0; j < p; j++) {
-    for (let f = 0; f < K; f++) {
-      if (slopes[f * p + j] !== 0) {
-        used.push(j);
-        break;
-      }
-    }
+    let any = b[j] !== 0;
+    for (let f = 0; f < K && !any; f++) any = slopes[f * p + j] !== 0;
+    if (any) used.push(j);
   }
   const offs = new Int32Array(4);
   const scale = new Float64Array(4);
+  const full = new Float64Array(4);
   for (let u = 0; u < used.length; u += 4) {
     throwIfCancelled(signal);
     const count = Math.min(4, used.length - u);
@@ -2145,8 +2155,9 @@ function heldOutModels(
       }
       offs[c] = j * n;
       scale[c] = factors ? factors[j] : 1;
+      full[c] = b[j];
     }
-    addColumnTerms(prediction, values, offs, scale, count, foldOf, terms, n);
+    addColumnTerms(prediction, values, offs, scale, count, foldOf, terms, n, fitted, raw, full);
   }
   // The lists at their final length, filled by index: every row some fold holds out (foldOf < K)
   // is listed once. Growing them by push re-copied them as they grew (100,000 rows: about 3×
@@ -2166,7 +2177,7 @@ function heldOutModels(
     at = listResiduals(plan.blocks[plan.validateBlock[f]], f, foldOf, data.y, folds[f].std.yAnchor, prediction, unit, exponent, row, fold, residual, at);
   }
   if (at !== count) throw new Error(`heldOutModels: ${at} held-out rows listed, ${count} expected`);
-  return { foldModels, heldOut: { row, fold, residual } };
+  return { foldModels, heldOut: { row, fold, residual }, fitted };
 }
 
 // heldOutModels' passes over the rows, each a small function of its own: called once per fold or
@@ -2188,7 +2199,9 @@ function markHeldOut(block: Int32Array, weights: Float64Array | null, f: number,
 /**
  * prediction_i += b_f · ((x_ij × factor_j − anchor_f) − offset_f) for the fold f = foldOf[i],
  * for `count` (1 to 4) columns j in turn: column c at values[offs[c] …], scaled by scale[c], its
- * terms for fold f at terms[12f + 3c …].
+ * terms for fold f at terms[12f + 3c …]. In the same pass fitted_i += full[c] · raw[offs[c] + i]
+ * for the same columns in turn (the full model on the data as given; raw is values itself when
+ * the fit reads the data in place).
  */
 function addColumnTerms(
   prediction: Float64Array,
@@ -2199,9 +2212,13 @@ function addColumnTerms(
   foldOf: Int32Array,
   terms: Float64Array,
   n: number,
+  fitted: Float64Array,
+  raw: Float64Array,
+  full: Float64Array,
 ): void {
   const o0 = offs[0];
   const f0 = scale[0];
+  const g0 = full[0];
   if (count === 4) {
     const o1 = offs[1];
     const o2 = offs[2];
@@ -2209,6 +2226,27 @@ function addColumnTerms(
     const f1 = scale[1];
     const f2 = scale[2];
     const f3 = scale[3];
+    const g1 = full[1];
+    const g2 = full[2];
+    const g3 = full[3];
+    if (raw === values) {
+      // Read in place: each value loaded once for both sums.
+      for (let i = 0; i < n; i++) {
+        const t = 12 * foldOf[i];
+        const v0 = values[o0 + i];
+        const v1 = values[o1 + i];
+        const v2 = values[o2 + i];
+        const v3 = values[o3 + i];
+        prediction[i] =
+          prediction[i] +
+          terms[t] * (v0 * f0 - terms[t + 1] - terms[t + 2]) +
+          terms[t + 3] * (v1 * f1 - terms[t + 4] - terms[t + 5]) +
+          terms[t + 6] * (v2 * f2 - terms[t + 7] - terms[t + 8]) +
+          terms[t + 9] * (v3 * f3 - terms[t + 10] - terms[t + 11]);
+        fitted[i] = fitted[i] + g0 * v0 + g1 * v1 + g2 * v2 + g3 * v3;
+      }
+      return;
+    }
     for (let i = 0; i < n; i++) {
       const t = 12 * foldOf[i];
       prediction[i] =
@@ -2217,16 +2255,19 @@ function addColumnTerms(
         terms[t + 3] * (values[o1 + i] * f1 - terms[t + 4] - terms[t + 5]) +
         terms[t + 6] * (values[o2 + i] * f2 - terms[t + 7] - terms[t + 8]) +
         terms[t + 9] * (values[o3 + i] * f3 - terms[t + 10] - terms[t + 11]);
+      fitted[i] = fitted[i] + g0 * raw[o0 + i] + g1 * raw[o1 + i] + g2 * raw[o2 + i] + g3 * raw[o3 + i];
     }
     return;
   }
   for (let c = 0; c < count; c++) {
     const o = offs[c];
     const f = scale[c];
+    const g = full[c];
     const base = 3 * c;
     for (let i = 0; i < n; i++) {
       const t = base + 12 * foldOf[i];
       prediction[i] += terms[t] * (values[o + i] * f - terms[t + 1] - terms[t + 2]);
+      fitted[i] += g * raw[o + i];
     }
   }
 }
@@ -2567,6 +2608,7 @@ function assemble(
   mix: number,
   constantColumns: string[],
   warnings: FitWarning[],
+  scoreLater = false,
 ): FitResult {
   const intercepts: number[] = [];
   const coefficientRows: number[][] = [];
@@ -2617,7 +2659,12 @@ function assemble(
       termsKept: run.nonzero.slice(),
       r2: run.r2.slice(),
     },
-    fit: data.totalSums ? scoreOfSums(data, full, chosenWork) : score(data.original.y, predict(model, data.original.x), data.original.weights),
+    // scoreLater: the caller scores the rows' predictions from its own pass over them (heldOutModels).
+    fit: data.totalSums
+      ? scoreOfSums(data, full, chosenWork)
+      : scoreLater
+        ? { mae: NaN, rmse: NaN, r2: NaN, bias: NaN, count: 0 }
+        : score(data.original.y, predict(model, data.original.x), data.original.weights),
     classFit: null,
     baseline: null,
     rowsUsed: data.totalSums ? data.totalSums.sums.rows : data.x.rows,
