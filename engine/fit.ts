@@ -2166,7 +2166,10 @@ function heldOutModels(
   for (let i = 0; i < n; i++) if (foldOf[i] !== K) count++;
   const row = new Array<number>(count);
   const fold = new Array<number>(count);
-  const residual = new Array<number>(count);
+  // Filled with a double first: the list then holds doubles from the start, where the first
+  // residual stored into an empty list converted its whole storage (100,000 rows: listing
+  // 2.6 -> 2.1 ms stand-alone). Every entry is overwritten below.
+  const residual = new Array<number>(count).fill(0.5);
   let at = 0;
   // Back to the target's units: a multiplication by 2^−yExponent, the power built once rather
   // than per row (scaleByPowerOfTwo does exactly this product when the power is a normal double,
