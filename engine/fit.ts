@@ -2107,7 +2107,9 @@ function heldOutModels(
   }
   if (data.totalSums) return { foldModels, heldOut: null, fitted: null };
   // One pass over the data, column by column in row order (each cache line read once, where a
-  // pass per fold over its shuffled rows reads most lines of every column once per fold); each
+  // pass per fold over its shuffled rows reads most lines of every column once per fold; four
+  // columns at a time it goes window by window of rows, each window's rows fold by fold while
+  // they are in cache: addFourColumns); each
   // row's prediction adds the same terms in the same order as row by row: yOffset, then
   // b_j ((x_j − anchor_j) − offset_j) for j = 0, 1, … Without a branch per row: the folds' row
   // assignment is random, so a test of b_j ≠ 0 (zero in some folds' models, not in others)
@@ -2143,6 +2145,7 @@ function heldOutModels(
   const offs = new Int32Array(4);
   const scale = new Float64Array(4);
   const full = new Float64Array(4);
+  const reading = heldOutOrder(foldOf, K, n);
   for (let u = 0; u < used.length; u += 4) {
     throwIfCancelled(signal);
     const count = Math.min(4, used.length - u);
@@ -2157,7 +2160,8 @@ function heldOutModels(
       scale[c] = factors ? factors[j] : 1;
       full[c] = b[j];
     }
-    addColumnTerms(prediction, values, offs, scale, count, foldOf, terms, n, fitted, raw, full);
+    if (count === 4) addFourColumns(prediction, values, offs, scale, terms, n, fitted, raw, full, reading.order, reading.segments, K);
+    else addColumnTerms(prediction, values, offs, scale, count, foldOf, terms, n, fitted, raw, full);
   }
   // The lists at their final length, filled by index: every row some fold holds out (foldOf < K)
   // is listed once. Growing them by push re-copied them as they grew (100,000 rows: about 3×
@@ -2200,11 +2204,141 @@ function markHeldOut(block: Int32Array, weights: Float64Array | null, f: number,
 }
 
 /**
+ * Rows per window of the held-out prediction pass for four columns (addFourColumns): a window's
+ * four columns, 32 KB, stay in the core's cache while each fold's rows of it are read.
+ */
+const HELD_OUT_WINDOW = 1024;
+
+/**
+ * addFourColumns' reading order: window by window (HELD_OUT_WINDOW consecutive rows), each fold's
+ * held-out rows of the window (foldOf[i] = f < K) in increasing order, fold after fold. Window
+ * v's fold f occupies order[segments[v(K + 1) + f] … segments[v(K + 1) + f + 1]). Cost O(n).
+ */
+function heldOutOrder(foldOf: Int32Array, K: number, n: number): { order: Int32Array; segments: Int32Array } {
+  const windows = Math.ceil(n / HELD_OUT_WINDOW);
+  const segments = new Int32Array(windows * (K + 1) + 1);
+  let held = 0;
+  for (let i = 0; i < n; i++) if (foldOf[i] < K) held++;
+  const order = new Int32Array(held);
+  const next = new Int32Array(K + 1);
+  let start = 0;
+  for (let v = 0; v < windows; v++) {
+    const i0 = v * HELD_OUT_WINDOW;
+    const i1 = Math.min(n, i0 + HELD_OUT_WINDOW);
+    next.fill(0);
+    for (let i = i0; i < i1; i++) next[foldOf[i]]++;
+    for (let f = 0; f < K; f++) {
+      const size = next[f];
+      segments[v * (K + 1) + f] = start;
+      next[f] = start;
+      start += size;
+    }
+    segments[v * (K + 1) + K] = start;
+    for (let i = i0; i < i1; i++) {
+      const f = foldOf[i];
+      if (f < K) order[next[f]++] = i;
+    }
+  }
+  segments[windows * (K + 1)] = start;
+  return { order, segments };
+}
+
+/**
+ * addColumnTerms for four columns, window by window of rows: the full model's terms for the
+ * window's rows in row order (addFittedFour), then each fold's held-out rows of the window with
+ * that fold's twelve terms held in registers (addFoldFour), where a pass in row order looked up
+ * the terms of each row's fold (the folds' rows are shuffled). Every row's prediction and fitted
+ * value take the same terms in the same order as addColumnTerms forms them, so the same numbers.
+ * Rows no fold holds out get no prediction terms (their predictions are not used).
+ */
+function addFourColumns(
+  prediction: Float64Array,
+  values: Float64Array,
+  offs: Int32Array,
+  scale: Float64Array,
+  terms: Float64Array,
+  n: number,
+  fitted: Float64Array,
+  raw: Float64Array,
+  full: Float64Array,
+  order: Int32Array,
+  segments: Int32Array,
+  K: number,
+): void {
+  const windows = Math.ceil(n / HELD_OUT_WINDOW);
+  for (let v = 0; v < windows; v++) {
+    const i0 = v * HELD_OUT_WINDOW;
+    addFittedFour(fitted, raw, offs, full, i0, Math.min(n, i0 + HELD_OUT_WINDOW));
+    for (let f = 0; f < K; f++) {
+      const s0 = segments[v * (K + 1) + f];
+      const s1 = segments[v * (K + 1) + f + 1];
+      if (s1 > s0) addFoldFour(prediction, values, offs, scale, terms, 12 * f, order, s0, s1);
+    }
+  }
+}
+
+/** fitted_i += full[0]·raw[offs[0] + i] + … + full[3]·raw[offs[3] + i], left to right, for rows i0 ≤ i < i1. */
+function addFittedFour(fitted: Float64Array, raw: Float64Array, offs: Int32Array, full: Float64Array, i0: number, i1: number): void {
+  const o0 = offs[0];
+  const o1 = offs[1];
+  const o2 = offs[2];
+  const o3 = offs[3];
+  const g0 = full[0];
+  const g1 = full[1];
+  const g2 = full[2];
+  const g3 = full[3];
+  for (let i = i0; i < i1; i++) fitted[i] = fitted[i] + g0 * raw[o0 + i] + g1 * raw[o1 + i] + g2 * raw[o2 + i] + g3 * raw[o3 + i];
+}
+
+/** One fold's rows order[s0 … s1): prediction_i += its four columns' terms (at terms[t …]), left to right, as addColumnTerms adds them. */
+function addFoldFour(
+  prediction: Float64Array,
+  values: Float64Array,
+  offs: Int32Array,
+  scale: Float64Array,
+  terms: Float64Array,
+  t: number,
+  order: Int32Array,
+  s0: number,
+  s1: number,
+): void {
+  const o0 = offs[0];
+  const o1 = offs[1];
+  const o2 = offs[2];
+  const o3 = offs[3];
+  const f0 = scale[0];
+  const f1 = scale[1];
+  const f2 = scale[2];
+  const f3 = scale[3];
+  const b0 = terms[t];
+  const a0 = terms[t + 1];
+  const c0 = terms[t + 2];
+  const b1 = terms[t + 3];
+  const a1 = terms[t + 4];
+  const c1 = terms[t + 5];
+  const b2 = terms[t + 6];
+  const a2 = terms[t + 7];
+  const c2 = terms[t + 8];
+  const b3 = terms[t + 9];
+  const a3 = terms[t + 10];
+  const c3 = terms[t + 11];
+  for (let s = s0; s < s1; s++) {
+    const i = order[s];
+    prediction[i] =
+      prediction[i] +
+      b0 * (values[o0 + i] * f0 - a0 - c0) +
+      b1 * (values[o1 + i] * f1 - a1 - c1) +
+      b2 * (values[o2 + i] * f2 - a2 - c2) +
+      b3 * (values[o3 + i] * f3 - a3 - c3);
+  }
+}
+
+/**
  * prediction_i += b_f · ((x_ij × factor_j − anchor_f) − offset_f) for the fold f = foldOf[i],
- * for `count` (1 to 4) columns j in turn: column c at values[offs[c] …], scaled by scale[c], its
+ * for `count` (1 to 3) columns j in turn: column c at values[offs[c] …], scaled by scale[c], its
  * terms for fold f at terms[12f + 3c …]. In the same pass fitted_i += full[c] · raw[offs[c] + i]
  * for the same columns in turn (the full model on the data as given; raw is values itself when
- * the fit reads the data in place).
+ * the fit reads the data in place). Four columns: addFourColumns.
  */
 function addColumnTerms(
   prediction: Float64Array,
@@ -2219,49 +2353,6 @@ function addColumnTerms(
   raw: Float64Array,
   full: Float64Array,
 ): void {
-  const o0 = offs[0];
-  const f0 = scale[0];
-  const g0 = full[0];
-  if (count === 4) {
-    const o1 = offs[1];
-    const o2 = offs[2];
-    const o3 = offs[3];
-    const f1 = scale[1];
-    const f2 = scale[2];
-    const f3 = scale[3];
-    const g1 = full[1];
-    const g2 = full[2];
-    const g3 = full[3];
-    if (raw === values) {
-      // Read in place: each value loaded once for both sums.
-      for (let i = 0; i < n; i++) {
-        const t = 12 * foldOf[i];
-        const v0 = values[o0 + i];
-        const v1 = values[o1 + i];
-        const v2 = values[o2 + i];
-        const v3 = values[o3 + i];
-        prediction[i] =
-          prediction[i] +
-          terms[t] * (v0 * f0 - terms[t + 1] - terms[t + 2]) +
-          terms[t + 3] * (v1 * f1 - terms[t + 4] - terms[t + 5]) +
-          terms[t + 6] * (v2 * f2 - terms[t + 7] - terms[t + 8]) +
-          terms[t + 9] * (v3 * f3 - terms[t + 10] - terms[t + 11]);
-        fitted[i] = fitted[i] + g0 * v0 + g1 * v1 + g2 * v2 + g3 * v3;
-      }
-      return;
-    }
-    for (let i = 0; i < n; i++) {
-      const t = 12 * foldOf[i];
-      prediction[i] =
-        prediction[i] +
-        terms[t] * (values[o0 + i] * f0 - terms[t + 1] - terms[t + 2]) +
-        terms[t + 3] * (values[o1 + i] * f1 - terms[t + 4] - terms[t + 5]) +
-        terms[t + 6] * (values[o2 + i] * f2 - terms[t + 7] - terms[t + 8]) +
-        terms[t + 9] * (values[o3 + i] * f3 - terms[t + 10] - terms[t + 11]);
-      fitted[i] = fitted[i] + g0 * raw[o0 + i] + g1 * raw[o1 + i] + g2 * raw[o2 + i] + g3 * raw[o3 + i];
-    }
-    return;
-  }
   for (let c = 0; c < count; c++) {
     const o = offs[c];
     const f = scale[c];
