@@ -59,10 +59,12 @@ export function score(actual: ArrayLike<number>, predicted: ArrayLike<number>, w
   if (actual.length !== predicted.length) {
     throw new RangeError(`score requires equally long inputs; got ${actual.length} actual and ${predicted.length} predicted`);
   }
-  const { largest, heaviest } = largestUsed(actual, predicted, weights);
-  const sv = scaleFor(largest);
-  const sw = weights ? scaleFor(heaviest) : 1;
-  const { total, count, sumActual, absolute, squared, signed } = errorSums(actual, predicted, weights, sv, sw);
+  // The first pass also forms the sums unscaled; they are the sums when no scaling is needed
+  // (sv = sw = 1: × 1 changes no finite value), the usual case, and errorSums' pass is skipped.
+  const first = largestAndSums(actual, predicted, weights);
+  const sv = scaleFor(first.largest);
+  const sw = weights ? scaleFor(first.heaviest) : 1;
+  const { total, count, sumActual, absolute, squared, signed } = sv === 1 && sw === 1 ? first : errorSums(actual, predicted, weights, sv, sw);
   if (count === 0) return { mae: NaN, rmse: NaN, r2: NaN, bias: NaN, count: 0 };
   const mean = sumActual / total;
   const spread = spreadOf(actual, predicted, weights, sv, sw, mean);
@@ -82,12 +84,23 @@ function isUsed(actual: ArrayLike<number>, predicted: ArrayLike<number>, weights
 
 /**
  * score's first pass: the largest |actual| or |predicted| and the heaviest weight over the pairs
- * it uses (both finite, weight positive). A function of its own with plain comparisons (the
- * same maxima as Math.max over these finite, non-negative values).
+ * it uses (both finite, weight positive), with plain comparisons (the same maxima as Math.max
+ * over these finite, non-negative values); and in the same pass errorSums' sums with sv = sw = 1,
+ * the same operations in the same order (a value × 1 is the value itself).
  */
-function largestUsed(actual: ArrayLike<number>, predicted: ArrayLike<number>, weights: ArrayLike<number> | null | undefined): { largest: number; heaviest: number } {
+function largestAndSums(
+  actual: ArrayLike<number>,
+  predicted: ArrayLike<number>,
+  weights: ArrayLike<number> | null | undefined,
+): { largest: number; heaviest: number; total: number; count: number; sumActual: number; absolute: number; squared: number; signed: number } {
   let largest = 0;
   let heaviest = 0;
+  let total = 0;
+  let count = 0;
+  let sumActual = 0;
+  let absolute = 0;
+  let squared = 0;
+  let signed = 0;
   for (let i = 0; i < actual.length; i++) {
     const a = actual[i];
     const p = predicted[i];
@@ -96,8 +109,16 @@ function largestUsed(actual: ArrayLike<number>, predicted: ArrayLike<number>, we
     const magnitude = Math.abs(a) > Math.abs(p) ? Math.abs(a) : Math.abs(p);
     if (magnitude > largest) largest = magnitude;
     if (weights && weights[i] > heaviest) heaviest = weights[i];
+    const w = weights ? weights[i] : 1;
+    const e = p - a;
+    total += w;
+    count++;
+    sumActual += w * a;
+    absolute += w * Math.abs(e);
+    squared += w * e * e;
+    signed += w * e;
   }
-  return { largest, heaviest };
+  return { largest, heaviest, total, count, sumActual, absolute, squared, signed };
 }
 
 /** score's second pass: Σw, the count, Σw·a, Σw|e|, Σw·e², Σw·e over the pairs it uses (values × sv, weights × sw, e = predicted − actual). */

@@ -375,7 +375,9 @@ function gatherOrder(
   weights: ArrayLike<number> | null,
 ): { order: Int32Array; segments: Int32Array; weightOf: Float64Array | null } {
   const K = blocks.length;
-  const sorted = blocks.map((rows) => Int32Array.from(rows).sort());
+  // The folds' blocks come in increasing row order (folds.ts groupRows): checked in one pass,
+  // sorted only if not (a sort of sorted lists took ~0.6 ms for 100,000 rows).
+  const sorted = blocks.map((rows) => ascending(Int32Array.from(rows)));
   let total = 0;
   for (const list of sorted) total += list.length;
   const order = new Int32Array(total);
@@ -402,6 +404,12 @@ function gatherOrder(
   }
   if (weights && weightOf) for (let t = 0; t < count; t++) weightOf[t] = weights[order[t]];
   return { order, segments, weightOf };
+}
+
+/** The list itself, sorted in increasing order unless it already is. */
+function ascending(list: Int32Array): Int32Array {
+  for (let t = 1; t < list.length; t++) if (list[t] < list[t - 1]) return list.sort();
+  return list;
 }
 
 /** gatherOrder: a block's rows in [i0, i1) from list[r0] on, into order from `count`; returns the new count. */
